@@ -1,0 +1,3 @@
+from frostwatch.cli import main
+
+raise SystemExit(main())
