@@ -1,0 +1,462 @@
+"""Load and validate a frostwatch config (TOML).
+
+Validation collects every problem before raising one `ConfigError`; each problem reads
+`section.key: what is wrong, what is expected`, with a did-you-mean for unknown keys.
+The keys of DESIGN.md 1.3 are fixed; everything else has a default shown by `frostwatch check-config`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import math
+import os
+import tomllib
+import zoneinfo
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from frostwatch.errors import ConfigError
+
+PROTECTION_METHODS = ("wind_machine", "overtree_sprinkler", "undertree_sprinkler", "heaters", "none")
+STATION_ROLES = ("crop", "tower", "sky", "weather")
+DISPLAY_UNITS = ("degC", "degF")
+
+
+@dataclass(frozen=True)
+class Site:
+    name: str
+    latitude: float
+    longitude: float
+    elevation_m: float
+    timezone: str
+    display_unit: str = "degC"
+
+    @property
+    def tz(self) -> zoneinfo.ZoneInfo:
+        return zoneinfo.ZoneInfo(self.timezone)
+
+
+@dataclass(frozen=True)
+class Block:
+    id: str
+    crop: str
+    stage: str
+    kill_10pct_c: float
+    kill_90pct_c: float
+    critical_source: str
+    hardiness_offset_c: float = 0.0
+    protection: str = "none"
+    margin_c: float = 2.0
+    mobilisation_min: float = 30.0
+    wind_machines: int = 0
+    application_rate_mm_h: float | None = None
+    area_ha: float | None = None
+    water_supply_l_s: float | None = None
+    fuel_l_per_h: float | None = None
+    biofix_date: str | None = None
+    name: str = ""
+
+
+@dataclass(frozen=True)
+class Station:
+    id: str
+    block: str | None
+    height_m: float
+    role: str
+    interval_s: float | None = None
+
+
+@dataclass(frozen=True)
+class Storage:
+    path: Path
+    retention_days: float = 400.0
+
+
+@dataclass(frozen=True)
+class Broker:
+    host: str = "127.0.0.1"
+    port: int = 1883
+    prefix: str = "frostwatch"
+    client_id: str = "frostwatch-daemon"
+    username: str | None = None
+    password_file: str | None = None
+    keepalive_s: int = 15
+    tls: dict = field(default_factory=dict)
+    max_payload_bytes: int = 65536
+
+
+@dataclass(frozen=True)
+class Forecast:
+    calibration_nights: int = 10
+    emissivity_model: str = "brutsaert_1975"
+    radiation_wind_limit_m_s: float = 2.5
+    stale_after_intervals: float = 3.0
+    evaluation_interval_min: float = 2.0
+
+
+@dataclass(frozen=True)
+class Config:
+    path: Path | None
+    site: Site
+    blocks: tuple[Block, ...]
+    stations: tuple[Station, ...]
+    storage: Storage
+    broker: Broker
+    forecast: Forecast
+    alerts: dict = field(default_factory=dict)
+    contacts: tuple[dict, ...] = ()
+    report: dict = field(default_factory=dict)
+    raw: dict = field(default_factory=dict)
+
+    def block(self, block_id: str) -> Block:
+        for b in self.blocks:
+            if b.id == block_id:
+                return b
+        raise KeyError(block_id)
+
+    def station(self, station_id: str) -> Station | None:
+        return self._stations_by_id().get(station_id)
+
+    def _stations_by_id(self) -> dict[str, Station]:
+        return {s.id: s for s in self.stations}
+
+    def stations_of(self, block_id: str, role: str | None = None) -> list[Station]:
+        return [s for s in self.stations if s.block == block_id and (role is None or s.role == role)]
+
+
+# ---- the schema: section -> key -> (types, default, required) ---------------------------------
+
+_NUM = (int, float)
+_SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
+    "site": {
+        "name": ((str,), None, True),
+        "latitude": (_NUM, None, True),
+        "longitude": (_NUM, None, True),
+        "elevation_m": (_NUM, 0.0, False),
+        "timezone": ((str,), None, True),
+        "display_unit": ((str,), "degC", False),
+    },
+    "blocks": {
+        "id": ((str,), None, True),
+        "name": ((str,), "", False),
+        "crop": ((str,), None, True),
+        "stage": ((str,), None, True),
+        "hardiness_offset_c": (_NUM, 0.0, False),
+        "kill_10pct_c": (_NUM, None, False),
+        "kill_90pct_c": (_NUM, None, False),
+        "protection": ((str,), "none", False),
+        "margin_c": (_NUM, 2.0, False),
+        "mobilisation_min": (_NUM, 30.0, False),
+        "wind_machines": ((int,), 0, False),
+        "application_rate_mm_h": (_NUM, None, False),
+        "area_ha": (_NUM, None, False),
+        "water_supply_l_s": (_NUM, None, False),
+        "fuel_l_per_h": (_NUM, None, False),
+        "biofix_date": ((str,), None, False),
+    },
+    "stations": {
+        "id": ((str,), None, True),
+        "block": ((str,), None, False),
+        "height_m": (_NUM, None, True),
+        "role": ((str,), None, False),
+        "interval_s": (_NUM, None, False),
+    },
+    "storage": {
+        "path": ((str,), "frostwatch.db", False),
+        "retention_days": (_NUM, 400.0, False),
+    },
+    "broker": {
+        "host": ((str,), "127.0.0.1", False),
+        "port": ((int,), 1883, False),
+        "prefix": ((str,), "frostwatch", False),
+        "client_id": ((str,), "frostwatch-daemon", False),
+        "username": ((str,), None, False),
+        "password_file": ((str,), None, False),
+        "keepalive_s": ((int,), 15, False),
+        "tls": ((dict,), {}, False),
+        "max_payload_bytes": ((int,), 65536, False),
+    },
+    "forecast": {
+        "calibration_nights": ((int,), 10, False),
+        "emissivity_model": ((str,), "brutsaert_1975", False),
+        "radiation_wind_limit_m_s": (_NUM, 2.5, False),
+        "stale_after_intervals": (_NUM, 3.0, False),
+        "evaluation_interval_min": (_NUM, 2.0, False),
+    },
+}
+# Sections whose keys belong to later parts of the product; accepted as tables, checked there.
+_OPEN_SECTIONS = ("alerts", "contacts", "report", "channels", "mappings", "status_page", "daemon")
+_ARRAY_SECTIONS = ("blocks", "stations", "contacts", "channels", "mappings")
+SECRET_KEYS = ("password", "token", "secret", "api_key")
+
+
+def _did_you_mean(word: str, options: list[str]) -> str:
+    close = difflib.get_close_matches(word, options, n=1, cutoff=0.6)
+    return f" (did you mean {close[0]!r}?)" if close else ""
+
+
+def _type_name(types: tuple[type, ...]) -> str:
+    if types == _NUM:
+        return "a number"
+    return {str: "a string", int: "a whole number", dict: "a table", bool: "true or false"}[types[0]]
+
+
+def _check_table(where: str, table: Any, schema: dict, problems: list[str]) -> dict:
+    """Check one table against its schema; return its values with defaults filled in."""
+    out: dict[str, Any] = {}
+    if not isinstance(table, dict):
+        problems.append(f"{where}: expected a table, got {type(table).__name__}")
+        return out
+    for key, value in table.items():
+        if key not in schema:
+            problems.append(
+                f"{where}.{key}: unknown key{_did_you_mean(key, list(schema))}; "
+                f"known keys are {', '.join(schema)}"
+            )
+            continue
+        types = schema[key][0]
+        ok = isinstance(value, types) and not isinstance(value, bool)
+        if ok and types == _NUM and not math.isfinite(float(value)):
+            ok = False
+        if not ok:
+            problems.append(f"{where}.{key}: {value!r} is not valid; expected {_type_name(types)}")
+            continue
+        out[key] = value
+    for key, (_types, default, required) in schema.items():
+        if key not in out and key not in table:
+            if required:
+                problems.append(f"{where}.{key}: missing; this key is required")
+            out[key] = default
+        elif key not in out:
+            out[key] = default
+    return out
+
+
+def load_config(path: str | os.PathLike) -> Config:
+    """Read and validate the TOML config at `path`; raise `ConfigError` listing every problem."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError(str(p), ["the config file does not exist; write one with `frostwatch init PATH`"]) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(str(p), [f"cannot read the file: {exc}"]) from None
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(str(p), [f"not valid TOML: {exc}"]) from None
+    return config_from_dict(raw, p)
+
+
+def config_from_dict(raw: dict, path: Path | None = None) -> Config:
+    """Validate a parsed config; relative storage paths are resolved against the config's folder."""
+    problems: list[str] = []
+    where_file = str(path) if path else "<config>"
+    known_sections = list(_SCHEMA) + list(_OPEN_SECTIONS)
+    for section in raw:
+        if section not in known_sections:
+            problems.append(
+                f"{section}: unknown section{_did_you_mean(section, known_sections)}; "
+                f"known sections are {', '.join(known_sections)}"
+            )
+    for section in ("site",):
+        if section not in raw:
+            problems.append(f"{section}: missing; the [{section}] table is required")
+
+    site_v = _check_table("site", raw.get("site", {}), _SCHEMA["site"], problems) if "site" in raw else {}
+    if site_v:
+        lat, lon = site_v.get("latitude"), site_v.get("longitude")
+        if isinstance(lat, _NUM) and not -90 <= lat <= 90:
+            problems.append(f"site.latitude: {lat} is out of range; expected degrees north, -90..90")
+        if isinstance(lon, _NUM) and not -180 <= lon <= 180:
+            problems.append(f"site.longitude: {lon} is out of range; expected degrees east, -180..180 (west is negative)")
+        tzname = site_v.get("timezone")
+        if isinstance(tzname, str):
+            try:
+                if "/" not in tzname and tzname != "UTC":
+                    raise zoneinfo.ZoneInfoNotFoundError(tzname)
+                zoneinfo.ZoneInfo(tzname)
+            except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+                zones = sorted(zoneinfo.available_timezones())
+                problems.append(
+                    f"site.timezone: {tzname!r} is not an IANA time zone name{_did_you_mean(tzname, zones)}; "
+                    "expected for example \"America/Los_Angeles\""
+                )
+        if site_v.get("display_unit") not in DISPLAY_UNITS:
+            problems.append(f"site.display_unit: {site_v.get('display_unit')!r}; expected one of {', '.join(DISPLAY_UNITS)}")
+
+    def array(section: str) -> list:
+        v = raw.get(section, [])
+        if not isinstance(v, list):
+            problems.append(f"{section}: expected an array of tables ([[{section}]])")
+            return []
+        return v
+
+    blocks_raw = array("blocks")
+    if "blocks" in raw and not blocks_raw:
+        problems.append("blocks: empty; declare at least one [[blocks]]")
+    if "blocks" not in raw:
+        problems.append("blocks: missing; declare at least one [[blocks]] with id, crop and stage")
+    blocks: list[Block] = []
+    seen: set[str] = set()
+    for i, b in enumerate(blocks_raw):
+        label = f"blocks[{i}]" if not (isinstance(b, dict) and isinstance(b.get("id"), str)) else f"blocks.{b['id']}"
+        v = _check_table(label, b, _SCHEMA["blocks"], problems)
+        if not v:
+            continue
+        if v["id"] in seen:
+            problems.append(f"{label}.id: {v['id']!r} is declared twice; block ids must be unique")
+        seen.add(v["id"])
+        block = _build_block(label, v, problems)
+        if block is not None:
+            blocks.append(block)
+
+    block_ids = [b.id for b in blocks] + [b.get("id") for b in blocks_raw if isinstance(b, dict)]
+    stations: list[Station] = []
+    seen_st: set[str] = set()
+    for i, s in enumerate(array("stations")):
+        label = f"stations[{i}]" if not (isinstance(s, dict) and isinstance(s.get("id"), str)) else f"stations.{s['id']}"
+        v = _check_table(label, s, _SCHEMA["stations"], problems)
+        if not v:
+            continue
+        if v["id"] in seen_st:
+            problems.append(f"{label}.id: {v['id']!r} is declared twice; station ids must be unique")
+        seen_st.add(v["id"])
+        if v["block"] is not None and v["block"] not in block_ids:
+            problems.append(
+                f"{label}.block: {v['block']!r} is not a declared block{_did_you_mean(str(v['block']), [str(x) for x in block_ids])}; "
+                f"expected one of {', '.join(str(x) for x in block_ids)}, or leave it out for a site-wide station"
+            )
+        h = v["height_m"]
+        if isinstance(h, _NUM) and not 0 <= h <= 100:
+            problems.append(f"{label}.height_m: {h} is out of range; expected metres above ground, 0..100")
+        role = v["role"]
+        if role is None and isinstance(h, _NUM):
+            role = "crop" if h <= 3.0 else "tower"
+        if role not in STATION_ROLES:
+            problems.append(f"{label}.role: {role!r}; expected one of {', '.join(STATION_ROLES)}")
+        if v["interval_s"] is not None and v["interval_s"] <= 0:
+            problems.append(f"{label}.interval_s: {v['interval_s']} must be positive (seconds between readings)")
+        if isinstance(h, _NUM):
+            stations.append(Station(v["id"], v["block"], float(h), str(role), v["interval_s"]))
+    for b in blocks:
+        if not any(s.block == b.id and s.role == "crop" for s in stations):
+            problems.append(f"blocks.{b.id}: no crop-height station; declare a [[stations]] with block = {b.id!r} and height_m <= 3")
+
+    storage_v = _check_table("storage", raw.get("storage", {}), _SCHEMA["storage"], problems)
+    base = path.parent if path else Path.cwd()
+    storage_path = Path(os.path.expanduser(storage_v.get("path") or "frostwatch.db"))
+    if not storage_path.is_absolute():
+        storage_path = (base / storage_path).resolve()
+    broker_v = _check_table("broker", raw.get("broker", {}), _SCHEMA["broker"], problems)
+    if isinstance(broker_v.get("port"), int) and not 0 < broker_v["port"] < 65536:
+        problems.append(f"broker.port: {broker_v['port']} is out of range; expected 1..65535")
+    forecast_v = _check_table("forecast", raw.get("forecast", {}), _SCHEMA["forecast"], problems)
+
+    for section in _OPEN_SECTIONS:
+        if section in raw:
+            expected = list if section in _ARRAY_SECTIONS else dict
+            if not isinstance(raw[section], expected):
+                kind = f"an array of tables ([[{section}]])" if expected is list else f"a table ([{section}])"
+                problems.append(f"{section}: expected {kind}")
+
+    if problems:
+        raise ConfigError(where_file, problems)
+    return Config(
+        path=path,
+        site=Site(**{k: site_v[k] for k in _SCHEMA["site"]}),
+        blocks=tuple(blocks),
+        stations=tuple(stations),
+        storage=Storage(path=storage_path, retention_days=float(storage_v["retention_days"])),
+        broker=Broker(**broker_v),
+        forecast=Forecast(**forecast_v),
+        alerts=dict(raw.get("alerts", {})),
+        contacts=tuple(raw.get("contacts", [])),
+        report=dict(raw.get("report", {})),
+        raw=raw,
+    )
+
+
+def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
+    from frostwatch.physics import crops
+
+    n_before = len(problems)
+    t10, t90, source = v["kill_10pct_c"], v["kill_90pct_c"], "set in the config (manual override)"
+    try:
+        ct = crops.critical_temps(v["crop"], v["stage"], hardiness_offset_c=float(v["hardiness_offset_c"]))
+        crop, stage = ct.crop, ct.stage
+        if t10 is None:
+            t10, source = ct.kill_10pct_c, ct.source
+        if t90 is None:
+            t90 = ct.kill_90pct_c
+    except ValueError as exc:
+        if t10 is None or t90 is None:
+            key = "crop" if isinstance(exc, crops.UnknownCropError) else "stage"
+            problems.append(f"{label}.{key}: {exc}")
+        crop, stage = v["crop"], v["stage"]
+    if t90 is None or (isinstance(t90, float) and math.isnan(t90)):
+        t90 = t10 - 5.0 if isinstance(t10, _NUM) else t90
+    if isinstance(t10, _NUM) and isinstance(t90, _NUM) and t90 > t10:
+        problems.append(f"{label}.kill_90pct_c: {t90} is warmer than kill_10pct_c {t10}; expected T90 <= T10")
+    if v["protection"] not in PROTECTION_METHODS:
+        problems.append(
+            f"{label}.protection: {v['protection']!r} is not a method{_did_you_mean(v['protection'], list(PROTECTION_METHODS))}; "
+            f"expected one of {', '.join(PROTECTION_METHODS)}"
+        )
+    if not 0 <= v["margin_c"] <= 10:
+        problems.append(f"{label}.margin_c: {v['margin_c']} is out of range; expected 0..10 degC above T10 (common practice about 2)")
+    if not 0 <= v["mobilisation_min"] <= 600:
+        problems.append(f"{label}.mobilisation_min: {v['mobilisation_min']} is out of range; expected 0..600 minutes")
+    if v["protection"] in ("overtree_sprinkler", "undertree_sprinkler"):
+        rate = v["application_rate_mm_h"]
+        if rate is None:
+            problems.append(f"{label}.application_rate_mm_h: missing; a sprinkler block needs its application rate in mm per hour")
+        elif not 0 < rate < 50:
+            problems.append(f"{label}.application_rate_mm_h: {rate} is out of range; expected 0..50 mm per hour")
+    if v["area_ha"] is not None and not 0 < v["area_ha"] < 10000:
+        problems.append(f"{label}.area_ha: {v['area_ha']} is out of range; expected hectares, > 0")
+    if len(problems) > n_before or not isinstance(t10, _NUM):
+        return None
+    fields = {f.name for f in dataclasses.fields(Block)}
+    values = {k: v[k] for k in v if k in fields}
+    values.update(crop=crop, stage=stage, kill_10pct_c=float(t10), kill_90pct_c=float(t90), critical_source=source)
+    return Block(**values)
+
+
+def masked(value: Any, key: str = "") -> Any:
+    """A copy of a config value with secrets replaced by '***'."""
+    if isinstance(value, dict):
+        return {k: masked(v, k) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [masked(v, key) for v in value]
+    if any(s in key.lower() for s in SECRET_KEYS) and not key.lower().endswith("_file"):
+        return "***"
+    return value
+
+
+def effective_settings(cfg: Config) -> dict:
+    """Every setting in force (defaults filled in), secrets masked: for `frostwatch check-config`."""
+
+    def plain(obj: Any) -> Any:
+        if dataclasses.is_dataclass(obj):
+            return {f.name: plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
+        if isinstance(obj, (list, tuple)):
+            return [plain(x) for x in obj]
+        if isinstance(obj, Path):
+            return str(obj)
+        return obj
+
+    out = {
+        "site": plain(cfg.site),
+        "blocks": plain(cfg.blocks),
+        "stations": plain(cfg.stations),
+        "storage": plain(cfg.storage),
+        "broker": plain(cfg.broker),
+        "forecast": plain(cfg.forecast),
+        "alerts": cfg.alerts,
+        "contacts": list(cfg.contacts),
+        "report": cfg.report,
+    }
+    return masked(out)

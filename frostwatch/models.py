@@ -1,0 +1,115 @@
+"""Frozen value types that flow through frostwatch: readings, rejections, projections, advice, alerts.
+
+All instants are timezone-aware UTC datetimes; all temperatures degC; units in every field name.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+
+
+@dataclass(frozen=True, slots=True)
+class Reading:
+    """One accepted reading in canonical units (see `frostwatch.units.QUANTITIES`)."""
+
+    time_utc: dt.datetime
+    station: str
+    quantity: str
+    value: float
+
+
+@dataclass(frozen=True, slots=True)
+class Rejection:
+    """Input that could not be used, kept with its reason and the raw text.
+
+    `source` names where it came from (a file path, or `mqtt:<topic>`); `line` is the 1-based
+    line of a file (None for MQTT).
+    """
+
+    source: str
+    line: int | None
+    reason: str
+    raw: str
+
+    def where(self) -> str:
+        return f"{self.source}:{self.line}" if self.line is not None else self.source
+
+
+@dataclass(frozen=True)
+class StationState:
+    """What one station says at an evaluation: its latest values and whether it can be trusted."""
+
+    station: str
+    height_m: float
+    role: str
+    latest: dict[str, float]
+    latest_at_utc: dict[str, dt.datetime]
+    healthy: bool
+    problems: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Projection:
+    """A block's projected night from one evaluation.
+
+    `curve_*` hold the projected crop-height air temperature from `time_utc` to sunrise.
+    """
+
+    time_utc: dt.datetime
+    block: str
+    station: str | None
+    air_temp_c: float | None
+    dew_point_c: float | None
+    wet_bulb_c: float | None
+    predicted_min_c: float | None
+    predicted_min_at_utc: dt.datetime | None
+    band_c: float | None
+    crossings_utc: dict[str, dt.datetime | None]
+    inversion_c: float | None
+    projected_inversion_c: float | None
+    inversion_class: str | None
+    wind_speed_m_s: float | None
+    regime: str
+    method: str
+    notes: tuple[str, ...] = ()
+    sunset_utc: dt.datetime | None = None
+    sunrise_utc: dt.datetime | None = None
+    curve_time_utc: tuple[dt.datetime, ...] = ()
+    curve_air_temp_c: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class Advice:
+    """What to do about a block now: the action, why, when, and the cautions."""
+
+    time_utc: dt.datetime
+    block: str
+    risk: str
+    action: str
+    reasons: tuple[str, ...]
+    start_by_utc: dt.datetime | None
+    trigger: str
+    trigger_temp_c: float | None
+    threshold_c: float | None
+    margin_c: float | None
+    start_air_temp_c: float | None = None
+    stop_air_temp_c: float | None = None
+    required_rate_mm_h: float | None = None
+    expected_gain_c: float | None = None
+    cautions: tuple[str, ...] = ()
+    details: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Alert:
+    """A notification decided by the alert rules: level, rank (0 = all clear) and text."""
+
+    time_utc: dt.datetime
+    block: str
+    level: str
+    rank: int
+    advice: str
+    message: str
+    key: str
+    resolves: str | None = None

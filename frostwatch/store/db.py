@@ -1,0 +1,282 @@
+"""The SQLite store: the one place that speaks SQL.
+
+WAL journal, synchronous=FULL (a committed reading survives power loss, reliability.md finding 9),
+readings keyed time first (time, station, quantity) so that batched commits stay cheap on an SD
+card (finding 10). One writer: a `Store` serialises its own use with a lock, and the daemon gives
+it to one writer thread. Raises `StoreError` when the file cannot be opened or migrated.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import math
+import sqlite3
+import threading
+from collections.abc import Iterable, Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import numpy as np
+import sqlite_utils
+
+from frostwatch.errors import StoreError
+from frostwatch.models import Alert, Projection, Reading, Rejection
+from frostwatch.store.schema import MIGRATIONS, SCHEMA_VERSION
+
+
+def to_ms(t: dt.datetime) -> int:
+    """An aware datetime -> integer milliseconds since 1970-01-01 UTC."""
+    return int(round(t.timestamp() * 1000))
+
+
+def from_ms(ms: int) -> dt.datetime:
+    """Integer milliseconds since the epoch -> an aware UTC datetime."""
+    return dt.datetime.fromtimestamp(ms / 1000.0, tz=dt.UTC)
+
+
+class Store:
+    """A frostwatch SQLite database. Use `Store.open(path)`; close with `close()` or `with`."""
+
+    def __init__(self, conn: sqlite3.Connection, path: Path):
+        self.conn = conn
+        self.db = sqlite_utils.Database(conn)
+        self.path = path
+        self.lock = threading.RLock()
+
+    # -- opening and migrations ----------------------------------------------------------------
+    @classmethod
+    def open(cls, path: str | Path, *, synchronous: str = "FULL") -> Store:
+        p = Path(path)
+        try:
+            p.parent.mkdir(parents=True, exist_ok=True)
+            conn = sqlite3.connect(str(p), timeout=10.0, check_same_thread=False, isolation_level=None)
+            conn.execute("PRAGMA journal_mode=WAL")
+            conn.execute(f"PRAGMA synchronous={synchronous}")
+            conn.execute("PRAGMA busy_timeout=10000")
+            conn.execute("PRAGMA foreign_keys=ON")
+            store = cls(conn, p)
+            store.migrate()
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(f"{p}: cannot open the store: {exc}") from None
+        except OSError as exc:
+            raise StoreError(f"{p}: cannot open the store: {exc.strerror or exc}") from None
+        return store
+
+    def migrate(self) -> None:
+        version = self.conn.execute("PRAGMA user_version").fetchone()[0]
+        if version > SCHEMA_VERSION:
+            raise StoreError(
+                f"{self.path}: schema version {version} is newer than this frostwatch ({SCHEMA_VERSION}); upgrade frostwatch"
+            )
+        for target in range(version + 1, SCHEMA_VERSION + 1):
+            with self.transaction():
+                self.conn.executescript("SAVEPOINT m;" + MIGRATIONS[target] + "RELEASE m;")
+                self.conn.execute(f"PRAGMA user_version={target}")
+
+    @property
+    def schema_version(self) -> int:
+        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+
+    def close(self) -> None:
+        with self.lock:
+            self.conn.close()
+
+    def __enter__(self) -> Store:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    @contextmanager
+    def transaction(self) -> Iterator[sqlite3.Connection]:
+        """BEGIN IMMEDIATE ... COMMIT (reliability.md finding 11); rolls back on error."""
+        with self.lock:
+            self.conn.execute("BEGIN IMMEDIATE")
+            try:
+                yield self.conn
+            except BaseException:
+                self.conn.execute("ROLLBACK")
+                raise
+            else:
+                self.conn.execute("COMMIT")
+
+    # -- readings ------------------------------------------------------------------------------
+    def add_readings(self, readings: Iterable[Reading], source: str) -> tuple[int, int, list[Rejection]]:
+        """Store readings in one transaction. Returns (stored, exact duplicates, conflicts).
+
+        An exact duplicate (same time, station, quantity and value) is stored once; the same key
+        with a different value is a conflict, returned as a Rejection and kept aside.
+        """
+        stored = dup = 0
+        conflicts: list[Rejection] = []
+        try:
+            with self.transaction() as c:
+                for r in readings:
+                    ms = to_ms(r.time_utc)
+                    cur = c.execute(
+                        "INSERT OR IGNORE INTO readings(time_utc_ms, station, quantity, value, source) VALUES (?,?,?,?,?)",
+                        (ms, r.station, r.quantity, r.value, source),
+                    )
+                    if cur.rowcount == 1:
+                        stored += 1
+                        continue
+                    (old,) = c.execute(
+                        "SELECT value FROM readings WHERE time_utc_ms=? AND station=? AND quantity=?",
+                        (ms, r.station, r.quantity),
+                    ).fetchone()
+                    if math.isclose(old, r.value, rel_tol=0, abs_tol=1e-9):
+                        dup += 1
+                    else:
+                        conflicts.append(
+                            Rejection(
+                                source,
+                                None,
+                                f"{r.station} {r.quantity} at {r.time_utc.isoformat()} is {r.value:g} here but "
+                                f"{old:g} is already stored; the first value is kept",
+                                f"{r.time_utc.isoformat()},{r.station},{r.quantity},{r.value}",
+                            )
+                        )
+        except sqlite3.Error as exc:
+            raise StoreError(f"{self.path}: cannot store readings: {exc}") from None
+        return stored, dup, conflicts
+
+    def add_rejections(self, rejections: Iterable[Rejection], received_utc: dt.datetime) -> int:
+        rows = [
+            (to_ms(received_utc), r.source, r.line, r.reason, r.raw[:2000]) for r in rejections
+        ]
+        if not rows:
+            return 0
+        try:
+            with self.transaction() as c:
+                c.executemany(
+                    "INSERT INTO rejections(received_utc_ms, source, line, reason, raw) VALUES (?,?,?,?,?)", rows
+                )
+        except sqlite3.Error as exc:
+            raise StoreError(f"{self.path}: cannot store rejected rows: {exc}") from None
+        return len(rows)
+
+    def count(self, table: str) -> int:
+        return self.db[table].count
+
+    def readings_window(
+        self,
+        start_utc: dt.datetime,
+        end_utc: dt.datetime,
+        stations: Iterable[str] | None = None,
+    ) -> dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]:
+        """Readings with start <= time <= end, as {(station, quantity): (t_s, values)} sorted by time.
+
+        `t_s` are float seconds since the epoch. Reads a time window only (the key is time first),
+        never the whole table.
+        """
+        sql = "SELECT time_utc_ms, station, quantity, value FROM readings WHERE time_utc_ms BETWEEN ? AND ?"
+        args: list = [to_ms(start_utc), to_ms(end_utc)]
+        st = list(stations) if stations is not None else None
+        if st is not None:
+            sql += f" AND station IN ({','.join('?' * len(st))})"
+            args += st
+        with self.lock:
+            rows = self.conn.execute(sql, args).fetchall()
+        groups: dict[tuple[str, str], list[tuple[int, float]]] = {}
+        for ms, s, q, v in rows:
+            groups.setdefault((s, q), []).append((ms, v))
+        out = {}
+        for key, pts in groups.items():
+            arr = np.asarray(pts, dtype=float)
+            out[key] = (arr[:, 0] / 1000.0, arr[:, 1])
+        return out
+
+    def reading_time_range(self) -> tuple[dt.datetime, dt.datetime] | None:
+        with self.lock:
+            lo, hi = self.conn.execute("SELECT min(time_utc_ms), max(time_utc_ms) FROM readings").fetchone()
+        return None if lo is None else (from_ms(lo), from_ms(hi))
+
+    def iter_readings(self, start_utc: dt.datetime | None = None, end_utc: dt.datetime | None = None) -> Iterator[tuple[int, str, str, float]]:
+        lo = to_ms(start_utc) if start_utc else -(2**62)
+        hi = to_ms(end_utc) if end_utc else 2**62
+        with self.lock:
+            cur = self.conn.execute(
+                "SELECT time_utc_ms, station, quantity, value FROM readings WHERE time_utc_ms BETWEEN ? AND ? "
+                "ORDER BY time_utc_ms, station, quantity",
+                (lo, hi),
+            )
+            rows = cur.fetchall()
+        yield from rows
+
+    def rejections(self) -> list[dict]:
+        return list(self.db["rejections"].rows)
+
+    # -- projections, alerts, events ------------------------------------------------------------
+    def add_projection(self, p: Projection) -> None:
+        ms = lambda t: to_ms(t) if t else None  # noqa: E731
+        row = (
+            to_ms(p.time_utc), p.block, p.predicted_min_c, ms(p.predicted_min_at_utc),
+            ms(p.crossings_utc.get("t10")), p.band_c, p.regime, p.method,
+            json.dumps({
+                "station": p.station, "air_temp_c": p.air_temp_c, "dew_point_c": p.dew_point_c,
+                "wet_bulb_c": p.wet_bulb_c, "inversion_c": p.inversion_c,
+                "projected_inversion_c": p.projected_inversion_c, "inversion_class": p.inversion_class,
+                "wind_speed_m_s": p.wind_speed_m_s, "notes": list(p.notes),
+                "crossings_utc": {k: (v.isoformat() if v else None) for k, v in p.crossings_utc.items()},
+            }),
+        )
+        with self.transaction() as c:
+            c.execute(
+                "INSERT OR REPLACE INTO projections(time_utc_ms, block, predicted_min_c, predicted_min_at_utc_ms, "
+                "t10_crossing_utc_ms, band_c, regime, method, detail_json) VALUES (?,?,?,?,?,?,?,?,?)",
+                row,
+            )
+
+    def projections(self, start_utc: dt.datetime, end_utc: dt.datetime, block: str | None = None) -> list[dict]:
+        sql = "SELECT * FROM projections WHERE time_utc_ms BETWEEN ? AND ?"
+        args: list = [to_ms(start_utc), to_ms(end_utc)]
+        if block:
+            sql += " AND block = ?"
+            args.append(block)
+        return list(self.db.query(sql + " ORDER BY time_utc_ms", args))
+
+    def add_alert(self, a: Alert) -> bool:
+        """Write an alert before anything sends it; False if its key is already stored."""
+        with self.transaction() as c:
+            cur = c.execute(
+                "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves) "
+                "VALUES (?,?,?,?,?,?,?,?)",
+                (a.key, to_ms(a.time_utc), a.block, a.level, a.rank, a.advice, a.message, a.resolves),
+            )
+            return cur.rowcount == 1
+
+    def alerts(self, start_utc: dt.datetime, end_utc: dt.datetime) -> list[dict]:
+        return list(
+            self.db.query(
+                "SELECT * FROM alerts WHERE time_utc_ms BETWEEN ? AND ? ORDER BY time_utc_ms, id",
+                [to_ms(start_utc), to_ms(end_utc)],
+            )
+        )
+
+    def add_event(self, time_utc: dt.datetime, kind: str, subject: str, detail: str) -> None:
+        with self.transaction() as c:
+            c.execute(
+                "INSERT INTO events(time_utc_ms, kind, subject, detail) VALUES (?,?,?,?)",
+                (to_ms(time_utc), kind, subject, detail),
+            )
+
+    def events(self, start_utc: dt.datetime, end_utc: dt.datetime, kind: str | None = None) -> list[dict]:
+        sql = "SELECT * FROM events WHERE time_utc_ms BETWEEN ? AND ?"
+        args: list = [to_ms(start_utc), to_ms(end_utc)]
+        if kind:
+            sql += " AND kind = ?"
+            args.append(kind)
+        return list(self.db.query(sql + " ORDER BY time_utc_ms, id", args))
+
+    def get_meta(self, key: str) -> str | None:
+        row = self.conn.execute("SELECT value FROM meta WHERE key=?", (key,)).fetchone()
+        return row[0] if row else None
+
+    def set_meta(self, key: str, value: str) -> None:
+        with self.transaction() as c:
+            c.execute("INSERT OR REPLACE INTO meta(key, value) VALUES (?,?)", (key, value))
+
+    def integrity_ok(self) -> bool:
+        with self.lock:
+            return self.conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"

@@ -1,0 +1,87 @@
+"""Schema migrations, applied in order; PRAGMA user_version holds the version reached.
+
+Add a migration by appending to MIGRATIONS; never edit one that has shipped.
+"""
+
+MIGRATIONS: dict[int, str] = {
+    1: """
+CREATE TABLE readings (
+    time_utc_ms INTEGER NOT NULL,   -- ms since 1970-01-01 UTC
+    station TEXT NOT NULL,
+    quantity TEXT NOT NULL,         -- CF standard name (DESIGN.md 1.1)
+    value REAL NOT NULL,            -- canonical unit of the quantity
+    source TEXT,
+    PRIMARY KEY (time_utc_ms, station, quantity)
+) WITHOUT ROWID;
+CREATE TABLE rejections (
+    id INTEGER PRIMARY KEY,
+    received_utc_ms INTEGER NOT NULL,
+    source TEXT NOT NULL,
+    line INTEGER,
+    reason TEXT NOT NULL,
+    raw TEXT
+);
+CREATE TABLE projections (
+    time_utc_ms INTEGER NOT NULL,
+    block TEXT NOT NULL,
+    predicted_min_c REAL,
+    predicted_min_at_utc_ms INTEGER,
+    t10_crossing_utc_ms INTEGER,
+    band_c REAL,
+    regime TEXT,
+    method TEXT,
+    detail_json TEXT,
+    PRIMARY KEY (time_utc_ms, block)
+);
+CREATE TABLE alerts (
+    id INTEGER PRIMARY KEY,
+    key TEXT NOT NULL UNIQUE,       -- idempotency key; also the email Message-ID and a webhook header
+    time_utc_ms INTEGER NOT NULL,
+    block TEXT NOT NULL,
+    level TEXT NOT NULL,
+    rank INTEGER NOT NULL,
+    advice TEXT,
+    message TEXT,
+    resolves TEXT
+);
+CREATE INDEX alerts_time ON alerts(time_utc_ms);
+CREATE TABLE deliveries (
+    id INTEGER PRIMARY KEY,
+    alert_key TEXT NOT NULL,
+    channel TEXT NOT NULL,
+    recipient TEXT,
+    attempt INTEGER NOT NULL DEFAULT 0,
+    status TEXT NOT NULL,           -- pending, sent, failed, gave_up
+    next_try_utc_ms INTEGER,
+    detail TEXT,
+    updated_utc_ms INTEGER
+);
+CREATE INDEX deliveries_status ON deliveries(status, next_try_utc_ms);
+CREATE TABLE acks (
+    id INTEGER PRIMARY KEY,
+    alert_key TEXT NOT NULL,
+    who TEXT,
+    via TEXT,
+    time_utc_ms INTEGER NOT NULL
+);
+CREATE TABLE protection_runs (
+    id INTEGER PRIMARY KEY,
+    block TEXT NOT NULL,
+    method TEXT NOT NULL,
+    start_utc_ms INTEGER NOT NULL,
+    stop_utc_ms INTEGER,
+    source TEXT
+);
+CREATE TABLE events (
+    id INTEGER PRIMARY KEY,
+    time_utc_ms INTEGER NOT NULL,
+    kind TEXT NOT NULL,             -- health, stage_change, daemon, ...
+    subject TEXT,
+    detail TEXT
+);
+CREATE INDEX events_time ON events(time_utc_ms);
+CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT);
+""",
+}
+
+SCHEMA_VERSION = max(MIGRATIONS)
