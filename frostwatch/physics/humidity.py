@@ -52,7 +52,7 @@ ELEVATION_MAX_M = 11000.0  # [m] standard tropopause; the formula's lapse rate e
 
 _NEWTON_ITERATIONS = 50
 _NEWTON_TOLERANCE_K = 1e-9
-_BISECTION_ITERATIONS = 50
+_BISECTION_ITERATIONS = 16  # fixed count (same answer scalar or array); Illinois reaches 1e-9 K in ~10
 
 
 def _result(value: np.ndarray, scalar: bool) -> float | np.ndarray:
@@ -371,8 +371,8 @@ def frost_point_c_from_dew_point(dew_point_c):
 
 def _humidity_ratio(e_hpa: np.ndarray, pressure_hpa: np.ndarray) -> np.ndarray:
     ok = (e_hpa >= 0.0) & (e_hpa < pressure_hpa)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = MOLAR_MASS_RATIO_WATER_AIR * e_hpa / (pressure_hpa - e_hpa)
+    # the denominator is made safe where it is not used, instead of an errstate context on a hot path
+    w = MOLAR_MASS_RATIO_WATER_AIR * e_hpa / np.where(ok, pressure_hpa - e_hpa, 1.0)
     return np.where(ok, w, np.nan)
 
 
@@ -420,13 +420,28 @@ def _psychrometric_w_ice(air_temp_c, bulb_c, pressure_hpa):
 
 
 def _bisect(func, lo, hi):
-    """Vectorised bisection for an increasing func on [lo, hi]; returns the midpoint."""
+    """Vectorised root of an increasing func on [lo, hi] (Illinois false position).
+
+    Safeguarded regula falsi (Dowell & Jarratt 1971): superlinear, never leaves the bracket; a
+    bracket without a sign change returns its nearer end, as bisection would.
+    """
+    f_lo, f_hi = func(lo), func(hi)
+    side = np.zeros(np.shape(lo), dtype=int)
+    x = 0.5 * (lo + hi)
     for _ in range(_BISECTION_ITERATIONS):
-        mid = 0.5 * (lo + hi)
-        above = func(mid) > 0.0
-        hi = np.where(above, mid, hi)
-        lo = np.where(above, lo, mid)
-    return 0.5 * (lo + hi)
+        denom = f_hi - f_lo
+        safe = np.abs(denom) > 1e-300
+        x = np.where(safe, hi - f_hi * (hi - lo) / np.where(safe, denom, 1.0), 0.5 * (lo + hi))
+        x = np.clip(x, np.minimum(lo, hi), np.maximum(lo, hi))
+        fx = func(x)
+        above = fx > 0.0
+        # Illinois step: when the same end is replaced twice running, halve the other end's value
+        f_lo = np.where(above & (side == -1), 0.5 * f_lo, f_lo)
+        f_hi = np.where(~above & (side == 1), 0.5 * f_hi, f_hi)
+        hi, f_hi = np.where(above, x, hi), np.where(above, fx, f_hi)
+        lo, f_lo = np.where(above, lo, x), np.where(above, f_lo, fx)
+        side = np.where(above, -1, 1)
+    return x
 
 
 def _wet_bulb_c(air_temp_c, dew_point_c, pressure_hpa):

@@ -70,9 +70,16 @@ class Store:
                 f"{self.path}: schema version {version} is newer than this frostwatch ({SCHEMA_VERSION}); upgrade frostwatch"
             )
         for target in range(version + 1, SCHEMA_VERSION + 1):
-            with self.transaction():
-                self.conn.executescript("SAVEPOINT m;" + MIGRATIONS[target] + "RELEASE m;")
-                self.conn.execute(f"PRAGMA user_version={target}")
+            # executescript commits any open transaction first, so the script carries its own
+            with self.lock:
+                try:
+                    self.conn.executescript(
+                        "BEGIN IMMEDIATE;" + MIGRATIONS[target] + f"PRAGMA user_version={target}; COMMIT;"
+                    )
+                except BaseException:
+                    if self.conn.in_transaction:
+                        self.conn.execute("ROLLBACK")
+                    raise
 
     @property
     def schema_version(self) -> int:
@@ -209,8 +216,22 @@ class Store:
 
     # -- projections, alerts, events ------------------------------------------------------------
     def add_projection(self, p: Projection) -> None:
+        self.add_projections([p])
+
+    def add_projections(self, projections: Iterable[Projection]) -> None:
+        """Store projections in one transaction (one commit per evaluation, not per block)."""
+        rows = [self._projection_row(p) for p in projections]
+        with self.transaction() as c:
+            c.executemany(
+                "INSERT OR REPLACE INTO projections(time_utc_ms, block, predicted_min_c, predicted_min_at_utc_ms, "
+                "t10_crossing_utc_ms, band_c, regime, method, detail_json) VALUES (?,?,?,?,?,?,?,?,?)",
+                rows,
+            )
+
+    @staticmethod
+    def _projection_row(p: Projection) -> tuple:
         ms = lambda t: to_ms(t) if t else None  # noqa: E731
-        row = (
+        return (
             to_ms(p.time_utc), p.block, p.predicted_min_c, ms(p.predicted_min_at_utc),
             ms(p.crossings_utc.get("t10")), p.band_c, p.regime, p.method,
             json.dumps({
@@ -221,12 +242,6 @@ class Store:
                 "crossings_utc": {k: (v.isoformat() if v else None) for k, v in p.crossings_utc.items()},
             }),
         )
-        with self.transaction() as c:
-            c.execute(
-                "INSERT OR REPLACE INTO projections(time_utc_ms, block, predicted_min_c, predicted_min_at_utc_ms, "
-                "t10_crossing_utc_ms, band_c, regime, method, detail_json) VALUES (?,?,?,?,?,?,?,?,?)",
-                row,
-            )
 
     def projections(self, start_utc: dt.datetime, end_utc: dt.datetime, block: str | None = None) -> list[dict]:
         sql = "SELECT * FROM projections WHERE time_utc_ms BETWEEN ? AND ?"

@@ -1,0 +1,528 @@
+"""A block's night, projected: which sensor speaks for it, the dusk forecast, the nowcast,
+the inversion, and the crossing times of the stage's critical temperatures. Pure: readings,
+config and an injected `now` in, a `Projection` out.
+
+The dusk forecast follows FAO-FP ch. 5 (Snyder & de Melo-Abreu 2005): at t0 = sunset + 2 h the
+night minimum Tp comes from an Allen (1957)-type regression on the air temperature and dew point
+at t0, fitted on the site's own past radiation nights (walk-forward; see `fit_calibration`), with
+a physics-based prior (`frostwatch.physics.cooling.clear_night_minimum_prior_c`) until enough
+nights are known. The trend from t0 to sunrise is Reuter's square-root curve
+T(t) = T0 + b' sqrt(t - t0), b' = (Tp - T0)/sqrt(h). At every evaluation after t0 the curve is
+re-fitted to tonight's observed cooling (the nowcast). Where the radiation model does not hold
+(wind above the limit, cloud) the projection leans on the observed trend and says so.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from frostwatch.config import Block, Config, Station
+from frostwatch.models import Projection, StationState
+from frostwatch.night import Night
+from frostwatch.physics import cooling, humidity, windmachine
+
+Series = dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]
+
+MIN_INTERVAL_S = 60.0  # a sensor is never expected more often than once a minute
+DEFAULT_INTERVAL_S = 300.0  # assumed when a sensor has too few readings to tell
+STUCK_WINDOW_S = 3600.0  # a crop-height air sensor flat to the last digit this long is suspect
+STUCK_MIN_READINGS = 15
+PRIOR_BAND_C = 2.0  # 1-sigma-ish uncertainty of the physics prior before any calibration
+PRIOR_SHRINK_NIGHTS = 3.0  # a correction learned from n nights gets weight n / (n + this)
+RIDGE_LAMBDA = 4.0  # ridge penalty on the regression's slopes (per degC^2 of spread)
+CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is not used
+NOWCAST_HALF_WEIGHT_H = 1.0  # after this many hours of tonight's data, it weighs as much as the dusk curve
+GRID_STEP_S = 300.0
+WET_BULB_GRID_STEP_S = 900.0  # the wet-bulb curve is needed only for sprinkler blocks
+TREND_WEIGHT = {"windy": 0.8, "cloudy": 0.4}  # share of the observed trend where radiation fails
+SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
+
+
+# ---- which sensor speaks for a block -----------------------------------------------------------
+
+
+def usual_interval_s(t_s: np.ndarray, configured_s: float | None) -> float:
+    """A station's usual reporting interval: the config's, or the median gap of its last readings."""
+    if configured_s:
+        return float(configured_s)
+    if len(t_s) < 3:
+        return DEFAULT_INTERVAL_S
+    gaps = np.diff(t_s[-20:])
+    gaps = gaps[gaps > 0]
+    return max(MIN_INTERVAL_S, float(np.median(gaps))) if len(gaps) else DEFAULT_INTERVAL_S
+
+
+def station_state(
+    st: Station, series: Series, now_s: float, stale_after_intervals: float
+) -> StationState:
+    """Latest values of a station and whether its air temperature can be trusted now."""
+    latest: dict[str, float] = {}
+    latest_at: dict[str, dt.datetime] = {}
+    problems: list[str] = []
+    for (sid, q), (t, v) in series.items():
+        if sid != st.id or len(t) == 0:
+            continue
+        idx = np.searchsorted(t, now_s, side="right") - 1
+        if idx < 0:
+            continue
+        latest[q] = float(v[idx])
+        latest_at[q] = dt.datetime.fromtimestamp(float(t[idx]), tz=dt.UTC)
+    healthy = True
+    key = (st.id, "air_temperature")
+    if st.role in ("crop", "tower"):
+        if key not in series or "air_temperature" not in latest:
+            healthy = False
+            problems.append(f"{st.id}: no air temperature reading")
+        else:
+            t, v = series[key]
+            upto = t <= now_s
+            t, v = t[upto], v[upto]
+            interval = usual_interval_s(t, st.interval_s)
+            age = now_s - t[-1]
+            if age > stale_after_intervals * interval:
+                healthy = False
+                problems.append(
+                    f"{st.id}: silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min); left out"
+                )
+            recent = v[t >= now_s - STUCK_WINDOW_S]
+            if len(recent) >= STUCK_MIN_READINGS and np.all(recent == recent[0]):
+                healthy = False
+                problems.append(f"{st.id}: air temperature stuck at {recent[0]:g} degC for an hour; left out")
+    return StationState(st.id, st.height_m, st.role, latest, latest_at, healthy, tuple(problems))
+
+
+def speaking_station(states: list[StationState]) -> StationState | None:
+    """The coldest healthy crop-height sensor (grower-needs E4/F1: never a stale value)."""
+    ok = [s for s in states if s.role == "crop" and s.healthy and "air_temperature" in s.latest]
+    return min(ok, key=lambda s: s.latest["air_temperature"]) if ok else None
+
+
+# ---- calibration on the site's own nights -------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class NightRecord:
+    """What one past night did at a block's speaking sensor: the dusk values and the minimum."""
+
+    night: dt.date
+    station: str
+    t0_temp_c: float
+    t0_dew_point_c: float | None
+    hours_to_sunrise: float
+    observed_min_c: float
+    observed_min_at_utc: dt.datetime
+    mean_wind_m_s: float | None
+    max_cloud_frac: float | None
+    prior_c: float
+    radiation_night: bool
+
+
+@dataclass(frozen=True)
+class Calibration:
+    """A correction to the physics prior learned from past radiation nights (walk-forward)."""
+
+    n_nights: int = 0
+    intercept_c: float = 0.0
+    slope_t0: float = 0.0
+    slope_td: float = 0.0
+    mean_t0_c: float = 0.0
+    mean_td_c: float = 0.0
+    residual_std_c: float = PRIOR_BAND_C
+    nights: tuple[dt.date, ...] = field(default=())
+
+    def correction_c(self, t0_temp_c: float, dew_point_c: float) -> float:
+        return (
+            self.intercept_c
+            + self.slope_t0 * (t0_temp_c - self.mean_t0_c)
+            + self.slope_td * (dew_point_c - self.mean_td_c)
+        )
+
+
+def fit_calibration(records: list[NightRecord], min_nights: int = 10) -> Calibration:
+    """Fit the Allen-type correction Tn - prior = c + a (T0 - mean) + b (Td - mean).
+
+    Only radiation nights with a dew point count. The slopes are ridge-shrunk toward zero and the
+    whole correction toward the prior while fewer than `min_nights` are known, so that one odd
+    night cannot swing the forecast (FAO-FP ch. 5 asks for about ten local nights).
+    """
+    rs = [r for r in records if r.radiation_night and r.t0_dew_point_c is not None]
+    n = len(rs)
+    if n == 0:
+        return Calibration()
+    t0 = np.array([r.t0_temp_c for r in rs])
+    td = np.array([r.t0_dew_point_c for r in rs])
+    resid = np.array([r.observed_min_c - r.prior_c for r in rs])
+    m0, md = float(t0.mean()), float(td.mean())
+    x = np.column_stack([t0 - m0, td - md])
+    if n >= 4:
+        lam = RIDGE_LAMBDA * max(1.0, min_nights / n)
+        a = x.T @ x + lam * np.eye(2)
+        slopes = np.linalg.solve(a, x.T @ (resid - resid.mean()))
+    else:
+        slopes = np.zeros(2)
+    shrink = n / (n + PRIOR_SHRINK_NIGHTS)
+    intercept = float(resid.mean()) * shrink
+    fitted = intercept + x @ slopes
+    dof = max(1, n - 1)
+    sd = float(np.sqrt(np.sum((resid - fitted) ** 2) / dof)) if n > 1 else PRIOR_BAND_C
+    # until enough nights are known the band cannot be narrower than the prior's share of it
+    w = min(1.0, n / min_nights)
+    sd = math.sqrt(w * sd**2 + (1 - w) * PRIOR_BAND_C**2)
+    return Calibration(n, intercept, float(slopes[0]), float(slopes[1]), m0, md, max(sd, 0.3), tuple(r.night for r in rs))
+
+
+# ---- the projection --------------------------------------------------------------------------
+
+
+def _latest_site_value(states: list[StationState], quantity: str) -> float | None:
+    vals = [s.latest[quantity] for s in states if quantity in s.latest]
+    return float(np.mean(vals)) if vals else None
+
+
+def dew_point_of(state: StationState | None, site_states: list[StationState]) -> float | None:
+    """Dew point at crop height: measured, or from relative humidity (liquid-water convention)."""
+    for s in ([state] if state else []) + site_states:
+        if s is None:
+            continue
+        if "dew_point_temperature" in s.latest:
+            return s.latest["dew_point_temperature"]
+        if "relative_humidity" in s.latest and "air_temperature" in s.latest:
+            rh = max(1.0, min(100.0, s.latest["relative_humidity"]))
+            return float(humidity.dew_point_c_from_rel_humidity(s.latest["air_temperature"], rh))
+    return None
+
+
+def recent_mean(series: Series, stations: list[str], quantity: str, now_s: float, window_s: float) -> float | None:
+    vals = []
+    for sid in stations:
+        if (sid, quantity) in series:
+            t, v = series[(sid, quantity)]
+            sel = (t <= now_s) & (t > now_s - window_s)
+            vals.extend(v[sel].tolist())
+    return float(np.mean(vals)) if vals else None
+
+
+def value_at(series: Series, station: str, quantity: str, t_s: float, tolerance_s: float = 900.0) -> float | None:
+    """The reading nearest to `t_s` (within tolerance), or None."""
+    if (station, quantity) not in series:
+        return None
+    t, v = series[(station, quantity)]
+    if len(t) == 0:
+        return None
+    i = int(np.argmin(np.abs(t - t_s)))
+    return float(v[i]) if abs(t[i] - t_s) <= tolerance_s else None
+
+
+def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None) -> float | None:
+    """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists."""
+    measured = recent_mean(series, [s.id for s in cfg.stations], "cloud_area_fraction", now_s, 1800.0)
+    if measured is not None:
+        return measured
+    sky = recent_mean(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, 1800.0)
+    if sky is None or dew_point_c is None:
+        return None
+    e = humidity.vapour_pressure_hpa_from_dew_point(dew_point_c)
+    from frostwatch.physics import radiation
+
+    return float(radiation.cloud_frac_from_sky_temperature(sky, air_temp_c, e))
+
+
+def _sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float | None:
+    """Least-squares b of T - T0 = b sqrt(t - t0) through the anchored T0; None if too few points."""
+    sel = elapsed_h > 0.05
+    if sel.sum() < 3:
+        return None
+    x = np.sqrt(elapsed_h[sel])
+    return float(np.sum(x * (temps_c[sel] - t0_c)) / np.sum(x * x))
+
+
+def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
+    """First time the curve is at or below the threshold, interpolated; None if it never is."""
+    below = np.nonzero(curve_c <= threshold_c)[0]
+    if len(below) == 0:
+        return None
+    i = int(below[0])
+    if i == 0:
+        return float(grid_s[0])
+    c0, c1 = curve_c[i - 1], curve_c[i]
+    f = (c0 - threshold_c) / (c0 - c1) if c0 != c1 else 1.0
+    return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
+
+
+@functools.lru_cache(maxsize=4096)
+def _prior_cached(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
+    return float(cooling.clear_night_minimum_prior_c(
+        t0_c, td_c, hours, wind_speed_m_s=wind, cloud_frac=cloud, pressure_hpa=p_hpa
+    ))
+
+
+def _prior_c(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
+    """The physics prior, memoised on inputs rounded well inside their measurement error."""
+    return _prior_cached(round(t0_c, 2), round(td_c, 2), round(hours, 2), round(wind, 1), round(cloud, 2), round(p_hpa))
+
+
+def _utc(t_s: float | None) -> dt.datetime | None:
+    return None if t_s is None else dt.datetime.fromtimestamp(round(t_s), tz=dt.UTC)
+
+
+def project_block(
+    now_utc: dt.datetime,
+    block: Block,
+    cfg: Config,
+    series: Series,
+    night: Night,
+    calibration: Calibration | None = None,
+    pressure_hpa: float | None = None,
+) -> Projection:
+    """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise."""
+    now_s = now_utc.timestamp()
+    fc = cfg.forecast
+    cal = calibration or Calibration()
+    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+    stations = cfg.stations_of(block.id)
+    site_stations = [s for s in cfg.stations if s.block is None]
+    states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in stations]
+    site_states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in site_stations]
+    notes = [p for s in states for p in s.problems]
+    speaker = speaking_station(states)
+    base = dict(
+        time_utc=now_utc, block=block.id, sunset_utc=night.sunset_utc, sunrise_utc=night.sunrise_utc
+    )
+    if speaker is None:
+        notes.append(f"block {block.id}: no healthy crop-height sensor; no projection can be made")
+        return Projection(
+            **base, station=None, air_temp_c=None, dew_point_c=None, wet_bulb_c=None,
+            predicted_min_c=None, predicted_min_at_utc=None, band_c=None, crossings_utc={},
+            inversion_c=None, projected_inversion_c=None, inversion_class=None, wind_speed_m_s=None,
+            regime="unmonitored", method="none", notes=tuple(notes),
+        )
+
+    air_c = speaker.latest["air_temperature"]
+    td_c = dew_point_of(speaker, [s for s in states if s is not speaker] + site_states)
+    if td_c is not None:
+        td_c = min(td_c, air_c)
+    wind = recent_mean(series, [s.id for s in stations + site_stations], "wind_speed", now_s, 1800.0)
+    cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
+    # the wet bulb decides only for sprinkler blocks (and is shown in their alerts)
+    wet_c = None
+    if td_c is not None and block.protection in SPRINKLER_METHODS:
+        wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+        wet_c = wet_c if math.isfinite(wet_c) else None
+    if cloud is None:
+        notes.append("no sky or cloud sensor: clear sky assumed")
+
+    regime = "radiation"
+    if wind is not None and wind > fc.radiation_wind_limit_m_s:
+        regime = "windy"
+        notes.append(
+            f"wind {wind:.1f} m/s is above {fc.radiation_wind_limit_m_s:g} m/s: radiation model does not hold; "
+            "projection leans on the observed trend"
+        )
+    elif cloud is not None and cloud >= CLOUDY_FRAC:
+        regime = "cloudy"
+        notes.append(f"cloud fraction {cloud:.1f}: radiation model does not hold; projection leans on the observed trend")
+
+    sunrise_s = night.sunrise_utc.timestamp()
+    dusk_s = night.dusk_utc.timestamp()
+    hours_left = max(0.0, (sunrise_s - now_s) / 3600.0)
+    t_air, v_air = series[(speaker.station, "air_temperature")]
+    upto = t_air <= now_s
+    t_air, v_air = t_air[upto], v_air[upto]
+
+    # the dusk forecast: at t0 if we are past it, else from the latest values
+    if now_s >= dusk_s:
+        t0_c = value_at(series, speaker.station, "air_temperature", dusk_s) or air_c
+        td0_c = td_c
+        for sid in [speaker.station] + [s.id for s in stations + site_stations]:
+            dp = value_at(series, sid, "dew_point_temperature", dusk_s)
+            if dp is not None:
+                td0_c = dp
+                break
+        t0_s, method = dusk_s, "dusk forecast + nowcast"
+    else:
+        t0_c, td0_c, t0_s, method = air_c, td_c, now_s, "pre-dusk estimate"
+    h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
+    td_for_prior = td0_c if td0_c is not None else t0_c - 6.0
+    prior = _prior_c(t0_c, td_for_prior, h_from_t0, wind or 0.0, cloud or 0.0, p_hpa)
+    if not math.isfinite(prior):
+        notes.append("the physics prior is undefined for these inputs; the observed trend is used")
+        prior = t0_c - 3.0
+    tp_c = prior + cal.correction_c(t0_c, td_for_prior)
+    tp_c = min(tp_c, t0_c)
+    if td0_c is None:
+        notes.append("no humidity sensor: dew point assumed 6 degC below air for the dusk forecast")
+    b_dusk = (tp_c - t0_c) / math.sqrt(h_from_t0)
+
+    # the nowcast: tonight's observed cooling since t0 re-fits the curve's coefficient
+    band = cal.residual_std_c
+    elapsed_since_t0_h = max(0.0, (now_s - t0_s) / 3600.0)
+    grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, GRID_STEP_S)
+    if grid_s[-1] < sunrise_s:
+        grid_s = np.append(grid_s, sunrise_s)
+    e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
+    e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+    if regime == "radiation" or now_s < dusk_s:
+        # before dusk the evening fall is steep and says little about the night: use the dusk
+        # curve (the prior carries wind and cloud); after dusk re-fit it to tonight's cooling
+        sel = t_air >= t0_s
+        b_obs = _sqrt_b_fit((t_air[sel] - t0_s) / 3600.0, v_air[sel], t0_c) if now_s > t0_s else None
+        if b_obs is not None:
+            w = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)
+            b = (1 - w) * b_dusk + w * min(b_obs, 0.5)
+            band = band * (1 - 0.6 * w)
+            method = "nowcast (square-root curve re-fitted to tonight)"
+        else:
+            b = b_dusk
+        curve = air_c + b * (e_grid - e_now)
+    else:
+        # the radiation model does not hold: lean on the observed trend of the last two hours,
+        # blended with the physics curve (which carries the cloud and wind) on cloudy nights
+        sel = t_air >= now_s - 7200.0
+        slope = 0.0
+        if sel.sum() >= 4:
+            slope = float(np.polyfit((t_air[sel] - now_s) / 3600.0, v_air[sel], 1)[0])
+        slope = max(-2.0, min(0.5, slope))
+        trend = air_c + slope * (grid_s - now_s) / 3600.0
+        physics = air_c + b_dusk * (e_grid - e_now)
+        w_trend = TREND_WEIGHT[regime]
+        curve = w_trend * trend + (1 - w_trend) * physics
+        band = max(band, 1.5)
+        method = f"observed trend ({regime} night)"
+    curve = np.minimum(curve, max(air_c, float(curve[0]))) if len(curve) else curve
+    band *= math.sqrt(min(1.0, hours_left / 6.0)) if hours_left > 0 else 0.0
+    band = max(band, 0.3)
+
+    if now_s >= sunrise_s:
+        # after sunrise: report what was observed, project nothing
+        night_sel = t_air >= night.sunset_utc.timestamp()
+        obs = v_air[night_sel] if night_sel.any() else v_air
+        i = int(np.argmin(obs))
+        tmin_c = float(obs[i])
+        tmin_at = _utc(float(t_air[night_sel][i] if night_sel.any() else t_air[i]))
+        crossings = {}
+        method = "observed (after sunrise)"
+        band = 0.0
+    else:
+        i = int(np.argmin(curve))
+        tmin_c = float(curve[i])
+        tmin_at = _utc(float(grid_s[i]))
+        thresholds = {
+            "t10_margin": block.kill_10pct_c + block.margin_c,
+            "t10": block.kill_10pct_c,
+            "t90": block.kill_90pct_c,
+        }
+        crossings = {k: _utc(crossing_time(grid_s, curve, thr)) for k, thr in thresholds.items()}
+        if td_c is not None and block.protection in SPRINKLER_METHODS:
+            # dew point falls with the air once the air reaches it (deposition)
+            k = max(1, int(WET_BULB_GRID_STEP_S // GRID_STEP_S))
+            g, c = grid_s[::k], curve[::k]
+            if g[-1] != grid_s[-1]:
+                g, c = np.append(g, grid_s[-1]), np.append(c, curve[-1])
+            wb = np.asarray(humidity.wet_bulb_c_from_dew_point(c, np.minimum(td_c, c), p_hpa), dtype=float)
+            if wet_c is not None:
+                wb[0] = wet_c
+            crossings["wet_bulb_t10_margin"] = _utc(crossing_time(g, wb, thresholds["t10_margin"]))
+            crossings["wet_bulb_t10"] = _utc(crossing_time(g, wb, thresholds["t10"]))
+
+    # inversion: tower minus crop height, now and projected to the minimum
+    towers = [s for s in states if s.role == "tower" and s.healthy]
+    inv_c = proj_inv_c = None
+    inv_class = None
+    if towers:
+        tower = towers[0]
+        inv_c = tower.latest["air_temperature"] - air_c
+        proj_inv_c = inv_c
+        tt, tv = series[(tower.station, "air_temperature")]
+        sel = (tt >= t0_s) & (tt <= now_s)
+        t_tower0 = value_at(series, tower.station, "air_temperature", t0_s)
+        if regime == "radiation" and t_tower0 is not None and now_s > t0_s and now_s < sunrise_s:
+            b_tower = _sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], t_tower0)
+            if b_tower is not None:
+                e_now = math.sqrt((now_s - t0_s) / 3600.0)
+                e_min = math.sqrt(max(0.0, (tmin_at.timestamp() - t0_s) / 3600.0)) if tmin_at else e_now
+                tower_min = tower.latest["air_temperature"] + min(b_tower, 0.5) * (e_min - e_now)
+                proj_inv_c = tower_min - tmin_c
+        inv_class = windmachine.classify_inversion(inv_c)
+    else:
+        notes.append("no tower sensor: inversion not measured")
+
+    return Projection(
+        **base,
+        station=speaker.station,
+        air_temp_c=air_c,
+        dew_point_c=td_c,
+        wet_bulb_c=wet_c,
+        predicted_min_c=round(tmin_c, 2),
+        predicted_min_at_utc=tmin_at,
+        band_c=round(band, 2),
+        crossings_utc=crossings,
+        inversion_c=None if inv_c is None else round(inv_c, 2),
+        projected_inversion_c=None if proj_inv_c is None else round(proj_inv_c, 2),
+        inversion_class=inv_class,
+        wind_speed_m_s=None if wind is None else round(wind, 2),
+        regime=regime,
+        method=method,
+        notes=tuple(notes),
+        curve_time_utc=tuple(_utc(float(s)) for s in grid_s[:: max(1, len(grid_s) // 48)]) if now_s < sunrise_s else (),
+        curve_air_temp_c=tuple(round(float(c), 2) for c in curve[:: max(1, len(grid_s) // 48)]) if now_s < sunrise_s else (),
+    )
+
+
+# ---- what a night did, for calibration and backtests -------------------------------------------
+
+
+def night_record(
+    block: Block, cfg: Config, series: Series, night: Night, pressure_hpa: float | None = None
+) -> NightRecord | None:
+    """The dusk values and observed minimum (dusk to sunrise + 1 h) of a block's speaking sensor."""
+    dusk_s = night.dusk_utc.timestamp()
+    end_s = night.sunrise_utc.timestamp() + 3600.0
+    stations = cfg.stations_of(block.id)
+    site = [s for s in cfg.stations if s.block is None]
+    states = [station_state(s, series, dusk_s, cfg.forecast.stale_after_intervals) for s in stations]
+    speaker = speaking_station(states)
+    if speaker is None:
+        return None
+    t, v = series[(speaker.station, "air_temperature")]
+    sel = (t >= dusk_s) & (t <= end_s)
+    if sel.sum() < 3:
+        return None
+    t0_c = value_at(series, speaker.station, "air_temperature", dusk_s)
+    if t0_c is None:
+        return None
+    td0 = dew_point_of(speaker, [s for s in states if s is not speaker] + [station_state(s, series, dusk_s, 1e9) for s in site])
+    i = int(np.argmin(v[sel]))
+    wind = recent_mean(series, [s.id for s in stations + site], "wind_speed", end_s - 3600.0, end_s - dusk_s)
+    cloud = None
+    ids = [s.id for s in cfg.stations]
+    for sid in ids:
+        if (sid, "cloud_area_fraction") in series:
+            ct, cv = series[(sid, "cloud_area_fraction")]
+            csel = (ct >= dusk_s) & (ct <= end_s)
+            if csel.any():
+                cloud = max(cloud or 0.0, float(cv[csel].max()))
+    if cloud is None and td0 is not None:
+        cl = cloud_frac_now(series, cfg, dusk_s + 3600.0, t0_c, td0)
+        cloud = cl
+    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+    h = night.hours_to_sunrise(night.dusk_utc)
+    prior = _prior_c(t0_c, td0 if td0 is not None else t0_c - 6.0, h, wind or 0.0, cloud or 0.0, p_hpa)
+    radiation = (wind is None or wind < 2.0) and (cloud is None or cloud <= 0.3)
+    return NightRecord(
+        night=night.date,
+        station=speaker.station,
+        t0_temp_c=t0_c,
+        t0_dew_point_c=None if td0 is None else min(td0, t0_c),
+        hours_to_sunrise=h,
+        observed_min_c=float(v[sel][i]),
+        observed_min_at_utc=_utc(float(t[sel][i])),
+        mean_wind_m_s=wind,
+        max_cloud_frac=cloud,
+        prior_c=prior,
+        radiation_night=radiation,
+    )

@@ -1,0 +1,242 @@
+"""The advisory pipeline, shared by `replay`, `backtest` and the daemon so that a replayed night
+behaves like a live one: readings window -> projection -> advice -> alert rules.
+
+`Evaluator` keeps the little state that crosses evaluations (alert states, past nights learned
+walk-forward); everything it calls is pure.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from frostwatch import forecast
+from frostwatch.advisor import advise
+from frostwatch.alerts.rules import BlockAlertState, step
+from frostwatch.config import Config
+from frostwatch.display import Display
+from frostwatch.forecast import Calibration, NightRecord, Series
+from frostwatch.models import Advice, Alert, Projection
+from frostwatch.night import Night, evening_date, night_of_date
+from frostwatch.physics import humidity
+
+LOOKBACK = dt.timedelta(hours=6)  # an evaluation reads readings from this long before sunset
+
+
+def slice_series(series: Series, start_s: float, end_s: float) -> Series:
+    """The part of each series with start <= t <= end (arrays are sorted by time)."""
+    out: Series = {}
+    for key, (t, v) in series.items():
+        i, j = np.searchsorted(t, start_s, side="left"), np.searchsorted(t, end_s, side="right")
+        if j > i:
+            out[key] = (t[i:j], v[i:j])
+    return out
+
+
+@dataclass
+class Evaluation:
+    time_utc: dt.datetime
+    night: Night
+    projections: list[Projection] = field(default_factory=list)
+    advice: list[Advice] = field(default_factory=list)
+    alerts: list[Alert] = field(default_factory=list)
+
+
+class Evaluator:
+    """Evaluates every block of a site at an injected `now`, remembering alert state and history."""
+
+    def __init__(self, cfg: Config):
+        self.cfg = cfg
+        self.display = Display(cfg.site.display_unit, cfg.site.tz)
+        self.pressure_hpa = float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+        self.states: dict[str, BlockAlertState] = {}
+        self.history: dict[str, list[NightRecord]] = {b.id: [] for b in cfg.blocks}
+        self.learned: set[dt.date] = set()
+        self._nights: dict[dt.date, Night] = {}
+
+    def night(self, evening: dt.date) -> Night:
+        if evening not in self._nights:
+            s = self.cfg.site
+            self._nights[evening] = night_of_date(s.latitude, s.longitude, s.tz, evening)
+        return self._nights[evening]
+
+    def night_at(self, t_utc: dt.datetime) -> Night:
+        return self.night(evening_date(t_utc, self.cfg.site.tz))
+
+    def calibration(self, block_id: str) -> Calibration:
+        return forecast.fit_calibration(self.history[block_id], self.cfg.forecast.calibration_nights)
+
+    def learn_night(self, night: Night, series: Series) -> list[NightRecord]:
+        """Add a finished night's record to each block's history (walk-forward: call only after
+        the night's observation window, sunrise + 1 h, has passed)."""
+        if night.date in self.learned:
+            return []
+        self.learned.add(night.date)
+        win = slice_series(
+            series, (night.sunset_utc - LOOKBACK).timestamp(), night.sunrise_utc.timestamp() + 3600.0
+        )
+        out = []
+        for b in self.cfg.blocks:
+            rec = forecast.night_record(b, self.cfg, win, night, self.pressure_hpa)
+            if rec is not None:
+                self.history[b.id].append(rec)
+                out.append(rec)
+        return out
+
+    def evaluate(self, now_utc: dt.datetime, series: Series) -> Evaluation:
+        """Project, advise and run the alert rules for every block at `now_utc`.
+
+        `series` may hold more than needed; only readings from 6 h before this night's sunset up
+        to `now_utc` are used (no peeking at the future).
+        """
+        night = self.night_at(now_utc)
+        window = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), now_utc.timestamp())
+        ev = Evaluation(now_utc, night)
+        for block in self.cfg.blocks:
+            proj = forecast.project_block(
+                now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa
+            )
+            adv = advise(proj, block, now_utc, self.pressure_hpa, self.display)
+            state = self.states.get(block.id, BlockAlertState())
+            state, alerts = step(state, adv, proj, block, now_utc, night.date.isoformat(), night.dusk_utc, self.display)
+            self.states[block.id] = state
+            ev.projections.append(proj)
+            ev.advice.append(adv)
+            ev.alerts.extend(alerts)
+        return ev
+
+
+def evaluation_times(night: Night, interval_min: float, first_s: float, last_s: float) -> list[dt.datetime]:
+    """The daemon's night cadence: every `interval_min` from an hour before sunset to two hours
+    after sunrise, on whole multiples of the interval (UTC), within the data's span."""
+    step_s = interval_min * 60.0
+    start = max(night.sunset_utc.timestamp() - 3600.0, first_s)
+    end = min(night.sunrise_utc.timestamp() + 7200.0, last_s)
+    t = np.ceil(start / step_s) * step_s
+    out = []
+    while t <= end:
+        out.append(dt.datetime.fromtimestamp(t, tz=dt.UTC))
+        t += step_s
+    return out
+
+
+def nights_spanned(cfg: Config, first_utc: dt.datetime, last_utc: dt.datetime) -> list[dt.date]:
+    tz = cfg.site.tz
+    d0, d1 = evening_date(first_utc, tz), evening_date(last_utc, tz)
+    return [d0 + dt.timedelta(days=i) for i in range((d1 - d0).days + 1)]
+
+
+def run_replay(cfg: Config, series: Series, progress=None) -> list[Evaluation]:
+    """Every night-time evaluation over the series, as the daemon would have made them.
+
+    Nights are learned walk-forward: a night's record joins the calibration only once its
+    observation window is over, so no evaluation sees its own night's outcome.
+    """
+    if not series:
+        return []
+    first = min(float(t[0]) for t, _ in series.values())
+    last = max(float(t[-1]) for t, _ in series.values())
+    ev = Evaluator(cfg)
+    out: list[Evaluation] = []
+    nights = nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC))
+    pending: list[Night] = []
+    total = len(nights)
+    for k, d in enumerate(nights):
+        night = ev.night(d)
+        for now in evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last):
+            for n in [n for n in pending if now.timestamp() >= n.sunrise_utc.timestamp() + 3600.0]:
+                ev.learn_night(n, series)
+                pending.remove(n)
+            out.append(ev.evaluate(now, series))
+        pending.append(night)
+        if progress:
+            progress(k + 1, total)
+    return out
+
+
+def backtest(cfg: Config, series: Series, progress=None) -> list[dict]:
+    """The dusk forecast of every night against what happened (DESIGN.md 1.4, walk-forward)."""
+    if not series:
+        return []
+    first = min(float(t[0]) for t, _ in series.values())
+    last = max(float(t[-1]) for t, _ in series.values())
+    ev = Evaluator(cfg)
+    rows = []
+    nights = nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC))
+    for k, d in enumerate(nights):
+        night = ev.night(d)
+        issue = night.dusk_utc
+        if issue.timestamp() < first or night.sunrise_utc.timestamp() + 3600.0 > last + 1800.0:
+            continue
+        window = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), issue.timestamp())
+        obs = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), night.sunrise_utc.timestamp() + 3600.0)
+        for block in cfg.blocks:
+            proj = forecast.project_block(issue, block, cfg, window, night, ev.calibration(block.id), ev.pressure_hpa)
+            rec = forecast.night_record(block, cfg, obs, night, ev.pressure_hpa)
+            if proj.predicted_min_c is None or rec is None or rec.station != proj.station:
+                if proj.predicted_min_c is None or rec is None:
+                    continue
+            rows.append({
+                "night": d.isoformat(),
+                "block": block.id,
+                "station": proj.station,
+                "issued_at": issue.isoformat().replace("+00:00", "Z"),
+                "predicted_min_c": round(proj.predicted_min_c, 2),
+                "observed_min_c": round(rec.observed_min_c, 2),
+                "observed_min_at": rec.observed_min_at_utc.isoformat().replace("+00:00", "Z"),
+                "regime": proj.regime,
+                "radiation_night": rec.radiation_night,
+            })
+        ev.learn_night(night, series)
+        if progress:
+            progress(k + 1, len(nights))
+    return rows
+
+
+def backtest_summary(rows: list[dict]) -> dict:
+    if not rows:
+        return {"nights": 0, "mae_c": None, "bias_c": None, "rmse_c": None}
+    err = np.array([r["predicted_min_c"] - r["observed_min_c"] for r in rows])
+    return {
+        "nights": len({r["night"] for r in rows}),
+        "forecasts": len(rows),
+        "mae_c": round(float(np.mean(np.abs(err))), 3),
+        "bias_c": round(float(np.mean(err)), 3),
+        "rmse_c": round(float(np.sqrt(np.mean(err**2))), 3),
+    }
+
+
+def with_time(p: Projection) -> dict:
+    """A projection as the replay JSON of DESIGN.md 1.4 shows it."""
+    iso = lambda t: None if t is None else t.isoformat().replace("+00:00", "Z")  # noqa: E731
+    return {
+        "time": iso(p.time_utc),
+        "block": p.block,
+        "station": p.station,
+        "air_temp_c": p.air_temp_c,
+        "wet_bulb_c": None if p.wet_bulb_c is None else round(p.wet_bulb_c, 2),
+        "dew_point_c": None if p.dew_point_c is None else round(p.dew_point_c, 2),
+        "predicted_min_c": p.predicted_min_c,
+        "predicted_min_at": iso(p.predicted_min_at_utc),
+        "band_c": p.band_c,
+        "t10_crossing_at": iso(p.crossings_utc.get("t10")),
+        "t10_margin_crossing_at": iso(p.crossings_utc.get("t10_margin")),
+        "t90_crossing_at": iso(p.crossings_utc.get("t90")),
+        "wet_bulb_t10_crossing_at": iso(p.crossings_utc.get("wet_bulb_t10")),
+        "inversion_c": p.inversion_c,
+        "projected_inversion_c": p.projected_inversion_c,
+        "inversion_class": p.inversion_class,
+        "wind_speed_m_s": p.wind_speed_m_s,
+        "regime": p.regime,
+        "method": p.method,
+        "notes": list(p.notes),
+    }
+
+
+__all__ = [
+    "Evaluator", "Evaluation", "run_replay", "backtest", "backtest_summary", "slice_series",
+    "evaluation_times", "with_time", "dataclasses",
+]
