@@ -1,0 +1,12 @@
+"""The CLI's commands, one module per topic; each has `register(subparsers, common_parent)`.
+
+COMMAND_MODULES is the order they appear in `frostwatch --help`.
+"""
+
+COMMAND_MODULES = (
+    "frostwatch.commands.logs",
+    "frostwatch.commands.setup",
+    "frostwatch.commands.report",
+    "frostwatch.commands.daemon",
+    "frostwatch.commands.calc",
+)

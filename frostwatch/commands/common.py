@@ -1,0 +1,70 @@
+"""Helpers shared by the command modules: JSON output, unit handling, config loading."""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import sys
+
+from frostwatch.errors import UsageError
+
+
+def _out_json(doc: object) -> None:
+    sys.stdout.write(json.dumps(doc, indent=2, default=str) + "\n")
+
+
+def _fahrenheit(args) -> bool:
+    return bool(getattr(args, "fahrenheit", False))
+
+
+def _temp_in(args, value: float) -> float:
+    """A temperature given on the command line, in degC."""
+    return (value - 32.0) * 5.0 / 9.0 if _fahrenheit(args) else value
+
+
+def _temp_out(args, value_c: float | None) -> float | None:
+    if value_c is None:
+        return None
+    return round(value_c * 9.0 / 5.0 + 32.0, 2) if _fahrenheit(args) else round(value_c, 2)
+
+
+def _key(args, base: str) -> str:
+    return f"{base}_f" if _fahrenheit(args) else f"{base}_c"
+
+
+def _unit(args) -> str:
+    return "°F" if _fahrenheit(args) else "°C"
+
+
+def _parse_iso(text: str, what: str) -> dt.datetime:
+    from frostwatch.ingest.parse import BadValue, parse_time_utc
+
+    try:
+        return parse_time_utc(text)
+    except BadValue as exc:
+        raise UsageError(f"{what}: {exc}") from None
+
+
+def _load(args):
+    from frostwatch.config import load_config
+
+    if not args.config:
+        raise UsageError("--config PATH is required (write an example with `frostwatch init PATH`)")
+    return load_config(args.config)
+
+
+def _iso(t):
+    return None if t is None else t.isoformat().replace("+00:00", "Z")
+
+
+def _progress(label: str):
+    if not sys.stderr.isatty():
+        return None
+
+    def show(k: int, n: int) -> None:
+        sys.stderr.write(f"\r{label}: night {k}/{n}")
+        if k == n:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+    return show

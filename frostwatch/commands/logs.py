@@ -1,0 +1,253 @@
+"""Commands over sensor logs: `demo`, `replay`, `backtest`, `export`."""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import sys
+from pathlib import Path
+
+from frostwatch.commands.common import (  # noqa: F401
+    _fahrenheit,
+    _iso,
+    _key,
+    _load,
+    _out_json,
+    _parse_iso,
+    _progress,
+    _temp_in,
+    _temp_out,
+    _unit,
+)
+from frostwatch.errors import UsageError  # noqa: F401
+
+
+def _read_logs(args, cfg, store=None):
+    """Read every log given; report bad rows on stderr; store readings and rejections if a store is given."""
+    from frostwatch.errors import IngestError
+    from frostwatch.ingest.csvlog import read_sensor_log
+
+    known = {s.id for s in cfg.stations}
+    readings, rejections = [], []
+    for log in args.logs:
+        r, rej = read_sensor_log(log, known)
+        readings += r
+        rejections += rej
+    for rej in rejections:
+        print(f"{rej.where()}: {rej.reason}", file=sys.stderr)
+    if not readings:
+        raise IngestError(f"{', '.join(args.logs)}: no usable row ({len(rejections)} rejected)")
+    if args.strict and rejections:
+        raise IngestError(f"{len(rejections)} bad row(s) and --strict was given; nothing was stored")
+    stored = dup = 0
+    if store is not None:
+        now = dt.datetime.now(dt.UTC)
+        stored, dup, conflicts = store.add_readings(readings, source=",".join(Path(x).name for x in args.logs))
+        for c in conflicts:
+            print(f"{c.where()}: {c.reason}", file=sys.stderr)
+        store.add_rejections(rejections + conflicts, now)
+        rejections += conflicts
+    return readings, rejections, stored, dup
+
+
+def _series_from_readings(readings):
+    import numpy as np
+
+    groups: dict = {}
+    for r in readings:
+        groups.setdefault((r.station, r.quantity), {})[r.time_utc.timestamp()] = r.value  # first-kept dedupe below
+    out = {}
+    for key, pts in groups.items():
+        t = np.array(sorted(pts), dtype=float)
+        out[key] = (t, np.array([pts[x] for x in t], dtype=float))
+    return out
+
+
+def replay_into_store(cfg, store, readings, progress=None):
+    """Run the pipeline over the stored readings of the logs' span; store projections and alerts."""
+    from frostwatch import pipeline
+
+    first = min(r.time_utc for r in readings)
+    last = max(r.time_utc for r in readings)
+    series = store.readings_window(first, last)
+    evals = pipeline.run_replay(cfg, series, progress=progress)
+    store.add_projections(p for ev in evals for p in ev.projections)
+    for ev in evals:
+        for a in ev.alerts:
+            store.add_alert(a)
+    return evals, series
+
+
+def cmd_replay(args) -> int:
+    from frostwatch import pipeline
+    from frostwatch.display import Display
+    from frostwatch.night import night_of_date
+    from frostwatch.reports.summary import block_night
+    from frostwatch.store import Store
+
+    cfg = _load(args)
+    store = Store.open(cfg.storage.path)
+    try:
+        readings, rejections, stored, dup = _read_logs(args, cfg, store)
+        evals, series = replay_into_store(cfg, store, readings, _progress("replay"))
+        d = Display("degF" if _fahrenheit(args) else cfg.site.display_unit, cfg.site.tz)
+        alerts = [a for ev in evals for a in ev.alerts]
+        nights = sorted({ev.night.date for ev in evals})
+        summaries = []
+        for nd in nights:
+            night = night_of_date(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, nd)
+            for b in cfg.blocks:
+                bn = block_night(b, cfg, series, night)
+                summaries.append({"night": nd.isoformat(), "block": b.id, "station": bn.station,
+                                  "min_c": None if bn.min_c is None else round(bn.min_c, 2), "min_at": _iso(bn.min_at_utc),
+                                  "minutes_below_t10": bn.minutes_below_t10, "minutes_below_t90": bn.minutes_below_t90,
+                                  "kill_10pct_c": b.kill_10pct_c})
+        reports = []
+        if not args.no_report:
+            from frostwatch.reports.night import write_night_report
+
+            out_dir = Path(args.report_dir) if args.report_dir else cfg.storage.path.parent / "reports"
+            for nd in nights:
+                reports.append(str(write_night_report(cfg, store, nd, out_dir)))
+        if args.json:
+            _out_json({
+                "alerts": [{"time": _iso(a.time_utc), "block": a.block, "level": a.level, "rank": a.rank,
+                            "advice": a.advice, "message": a.message, "key": a.key, "resolves": a.resolves} for a in alerts],
+                "projections": [pipeline.with_time(p) for ev in evals for p in ev.projections
+                                if ev.night.contains(ev.time_utc, 0.0, 0.0)],
+                "nights": summaries,
+                "readings": {"read": len(readings), "stored": stored, "duplicates": dup, "rejected": len(rejections)},
+                "reports": reports,
+            })
+            return 0
+        print(f"{cfg.site.name}: {len(readings)} readings read, {stored} stored, {dup} duplicates, {len(rejections)} rejected "
+              f"(store {cfg.storage.path})")
+        _print_alerts(alerts, d)
+        _print_summaries(summaries, d)
+        for r in reports:
+            print(f"night report: {r}")
+        return 0
+    finally:
+        store.close()
+
+
+def _print_alerts(alerts, d) -> None:
+    print("\nAlerts:")
+    if not alerts:
+        print("  none")
+    for a in alerts:
+        head, *rest = a.message.splitlines()
+        print(f"  {d.datetime(a.time_utc)}  [{a.level} rank {a.rank}]  {head}")
+        for line in rest:
+            if line.startswith("Cautions:"):
+                continue
+            print(f"      {line}")
+    if alerts:
+        print("  Cautions: " + alerts[-1].message.splitlines()[-1].removeprefix("Cautions: "))
+
+
+def _print_summaries(summaries, d) -> None:
+    print("\nNight summary per block:")
+    for s in summaries:
+        at = d.datetime(dt.datetime.fromisoformat(s["min_at"].replace("Z", "+00:00"))) if s["min_at"] else "n/a"
+        print(f"  {s['night']}  {s['block']:<10} minimum {d.temp(s['min_c'])} at {at} ({s['station']}); "
+              f"{s['minutes_below_t10']:.0f} min at or below T10 {d.temp(s['kill_10pct_c'])}")
+
+
+def cmd_backtest(args) -> int:
+    from frostwatch import pipeline
+
+    cfg = _load(args)
+    readings, rejections, _, _ = _read_logs(args, cfg, None)
+    series = _series_from_readings(readings)
+    rows = pipeline.backtest(cfg, series, progress=_progress("backtest"))
+    summary = pipeline.backtest_summary(rows)
+    if args.json:
+        _out_json({"nights": rows, "summary": summary})
+        return 0
+    print(f"{'night':<11} {'block':<10} {'station':<12} {'predicted':>9} {'observed':>9} {'error':>6}  regime")
+    for r in rows:
+        err = r["predicted_min_c"] - r["observed_min_c"]
+        print(f"{r['night']:<11} {r['block']:<10} {r['station']:<12} {r['predicted_min_c']:>9.1f} {r['observed_min_c']:>9.1f} "
+              f"{err:>+6.1f}  {r['regime']}")
+    print(f"\n{summary['nights']} nights, {summary.get('forecasts', 0)} forecasts: MAE {summary['mae_c']} °C, "
+          f"bias {summary['bias_c']} °C, RMSE {summary['rmse_c']} °C (dusk forecast at sunset + 2 h, walk-forward)")
+    return 0
+
+
+def cmd_export(args) -> int:
+    import csv
+
+    from frostwatch.store import Store, from_ms
+    from frostwatch.units import CANONICAL_UNIT
+
+    cfg = _load(args)
+    start = _parse_iso(args.start, "--start") if args.start else None
+    end = _parse_iso(args.end, "--end") if args.end else None
+    store = Store.open(cfg.storage.path)
+    try:
+        w = csv.writer(sys.stdout, lineterminator="\n")
+        w.writerow(["time", "station", "quantity", "value", "unit"])
+        for ms, station, quantity, value in store.iter_readings(start, end):
+            w.writerow([_iso(from_ms(ms)), station, quantity, f"{value:.6g}", CANONICAL_UNIT.get(quantity, "")])
+    finally:
+        store.close()
+    return 0
+
+
+def cmd_demo(args) -> int:
+    import shutil
+    import tempfile
+    from importlib import resources
+
+    from frostwatch.config import load_config
+
+    src = resources.files("frostwatch.sample_logs")
+    work = Path(args.out) if args.out else Path(tempfile.mkdtemp(prefix="frostwatch-demo-"))
+    work.mkdir(parents=True, exist_ok=True)
+    cfg_path = work / "demo-farm.toml"
+    text = src.joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    if _fahrenheit(args):
+        text = text.replace('display_unit = "degC"', 'display_unit = "degF"')
+    cfg_path.write_text(text, encoding="utf-8")
+    db = work / "frostwatch.db"
+    if db.exists():
+        db.unlink()
+    logs = []
+    for name in ("2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv"):
+        dst = work / name
+        with src.joinpath(name).open("rb") as f, dst.open("wb") as g:
+            shutil.copyfileobj(f, g)
+        logs.append(str(dst))
+    cfg = load_config(cfg_path)
+    print(f"frostwatch demo: {cfg.site.name} (an invented farm), three invented nights in April 2027")
+    print(f"working folder: {work}\n")
+    ns = argparse.Namespace(config=str(cfg_path), logs=logs, strict=False, json=False, fahrenheit=False,
+                            no_report=False, report_dir=str(work / "reports"))
+    rc = cmd_replay(ns)
+    print(f"\nTry next: frostwatch backtest {' '.join(logs)} --config {cfg_path}")
+    return rc
+
+
+def register(sub, common) -> None:
+    s = sub.add_parser("demo", parents=[common], help="replay the bundled invented farm's nights (no config, broker or network)")
+    s.add_argument("--out", metavar="DIR", help="working folder (default: a new temporary folder)")
+    s.set_defaults(func=cmd_demo)
+
+    for name, helptext, func in (
+        ("replay", "run the whole advisory pipeline over sensor logs as if live, storing the readings", cmd_replay),
+        ("backtest", "walk-forward test of the dusk forecast over sensor logs", cmd_backtest),
+    ):
+        s = sub.add_parser(name, parents=[common], help=helptext)
+        s.add_argument("logs", nargs="+", metavar="LOG.csv", help="sensor logs (DESIGN.md 1.1 format)")
+        s.add_argument("--strict", action="store_true", help="exit 2 if any row is bad (store nothing)")
+        if name == "replay":
+            s.add_argument("--report-dir", metavar="DIR", help="where night reports go (default: reports/ beside the store)")
+            s.add_argument("--no-report", action="store_true", help="do not write night reports")
+        s.set_defaults(func=func)
+
+    s = sub.add_parser("export", parents=[common], help="print stored readings as a sensor log")
+    s.add_argument("--start", metavar="ISO", help="first instant (with a UTC offset)")
+    s.add_argument("--end", metavar="ISO", help="last instant (with a UTC offset)")
+    s.set_defaults(func=cmd_export)
+

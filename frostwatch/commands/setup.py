@@ -1,0 +1,65 @@
+"""`frostwatch init` and `frostwatch check-config`."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from frostwatch.commands.common import (  # noqa: F401
+    _fahrenheit,
+    _iso,
+    _key,
+    _load,
+    _out_json,
+    _parse_iso,
+    _progress,
+    _temp_in,
+    _temp_out,
+    _unit,
+)
+from frostwatch.errors import UsageError  # noqa: F401
+
+
+def cmd_init(args) -> int:
+    from importlib import resources
+
+    path = Path(args.path)
+    if path.exists() and not args.force:
+        raise UsageError(f"{path}: already exists; choose another path or pass --force to overwrite")
+    text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text(text, encoding="utf-8")
+    print(f"wrote an example config for an invented farm to {path}; edit it, then run `frostwatch check-config --config {path}`")
+    return 0
+
+
+
+
+def cmd_check_config(args) -> int:
+    from frostwatch.config import effective_settings
+
+    cfg = _load(args)
+    eff = effective_settings(cfg)
+    if args.json:
+        _out_json(eff)
+        return 0
+    print(f"{args.config}: ok ({len(cfg.blocks)} blocks, {len(cfg.stations)} stations)")
+    for b in cfg.blocks:
+        print(f"  block {b.id}: {b.crop}, {b.stage}: T10 {b.kill_10pct_c:.1f} °C, T90 {b.kill_90pct_c:.1f} °C "
+              f"({b.critical_source}); protection {b.protection}, margin {b.margin_c:g} °C, mobilisation {b.mobilisation_min:g} min")
+    print("effective settings (secrets masked):")
+    print(json.dumps(eff, indent=2, default=str))
+    return 0
+
+
+
+
+def register(sub, common) -> None:
+    s = sub.add_parser("init", help="write a commented example config for an invented farm")
+    s.add_argument("path", metavar="PATH")
+    s.add_argument("--force", action="store_true", help="overwrite an existing file")
+    s.set_defaults(func=cmd_init)
+
+    s = sub.add_parser("check-config", parents=[common], help="check a config and show the effective settings (secrets masked)")
+    s.set_defaults(func=cmd_check_config)
+
