@@ -8,5 +8,7 @@ COMMAND_MODULES = (
     "frostwatch.commands.setup",
     "frostwatch.commands.report",
     "frostwatch.commands.daemon",
+    "frostwatch.commands.alerts",
+    "frostwatch.commands.stage",
     "frostwatch.commands.calc",
 )

@@ -69,7 +69,7 @@ class Store:
             raise StoreError(
                 f"{self.path}: schema version {version} is newer than this frostwatch ({SCHEMA_VERSION}); upgrade frostwatch"
             )
-        for target in range(version + 1, SCHEMA_VERSION + 1):
+        for target in sorted(v for v in MIGRATIONS if v > version):
             # executescript commits any open transaction first, so the script carries its own
             with self.lock:
                 try:

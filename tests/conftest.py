@@ -1,0 +1,107 @@
+"""Shared fixtures: the bundled demo farm in a temp folder, and a real Mosquitto broker.
+
+The broker fixture starts Debian's `mosquitto` in the foreground on a free loopback port with
+its own config and persistence folder (reliability.md 2.4); the README's test command installs
+the package when missing, so a missing binary is a failure, not a skip.
+"""
+
+from __future__ import annotations
+
+import shutil
+import socket
+import subprocess
+import time
+from importlib import resources
+from pathlib import Path
+
+import pytest
+
+REPO = Path(__file__).resolve().parent.parent
+SAMPLE_LOGS = REPO / "sample_sensor_logs"
+DEMO_NIGHTS = (
+    "2027-04-14-radiation-frost.csv",
+    "2027-04-15-windy-advective.csv",
+    "2027-04-16-cloudy-safe.csv",
+)
+
+
+@pytest.fixture
+def demo_config(tmp_path: Path) -> Path:
+    """The demo farm's config copied into a temp folder (its store lands there too)."""
+    text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    p = tmp_path / "demo-farm.toml"
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+@pytest.fixture
+def demo_logs() -> list[Path]:
+    return [SAMPLE_LOGS / n for n in DEMO_NIGHTS]
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+class Broker:
+    """A Mosquitto process owned by a test: start, stop (SIGTERM), kill (SIGKILL), restart."""
+
+    def __init__(self, workdir: Path, port: int, extra_conf: str = ""):
+        self.workdir = workdir
+        self.port = port
+        self.conf = workdir / "mosquitto.conf"
+        (workdir / "data").mkdir(parents=True, exist_ok=True)
+        self.conf.write_text(
+            f"listener {port} 127.0.0.1\n"
+            "allow_anonymous true\n"
+            "persistence true\n"
+            f"persistence_location {workdir / 'data'}/\n"
+            "autosave_interval 1\n"
+            "max_queued_messages 100000\n"
+            "max_inflight_messages 100\n"
+            f"log_dest file {workdir / 'mosquitto.log'}\n"
+            + extra_conf
+        )
+        self.proc: subprocess.Popen | None = None
+
+    def start(self, timeout_s: float = 10.0) -> None:
+        exe = shutil.which("mosquitto") or "/usr/sbin/mosquitto"
+        self.proc = subprocess.Popen([exe, "-c", str(self.conf)], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        deadline = time.monotonic() + timeout_s
+        while time.monotonic() < deadline:
+            try:
+                with socket.create_connection(("127.0.0.1", self.port), timeout=0.2):
+                    return
+            except OSError:
+                if self.proc.poll() is not None:
+                    raise RuntimeError(f"mosquitto exited: {self.proc.stderr.read().decode(errors='replace')}")
+                time.sleep(0.05)
+        raise RuntimeError(f"mosquitto did not listen on {self.port} within {timeout_s} s")
+
+    def stop(self) -> None:
+        if self.proc and self.proc.poll() is None:
+            self.proc.terminate()
+            self.proc.wait(timeout=10)
+
+    def kill(self) -> None:
+        if self.proc and self.proc.poll() is None:
+            self.proc.kill()
+            self.proc.wait(timeout=10)
+
+    def restart(self) -> None:
+        self.stop()
+        self.start()
+
+
+@pytest.fixture
+def mosquitto(tmp_path: Path):
+    """A running Mosquitto broker on a free loopback port, stopped after the test."""
+    exe = shutil.which("mosquitto") or ("/usr/sbin/mosquitto" if Path("/usr/sbin/mosquitto").exists() else None)
+    if exe is None:
+        pytest.fail("mosquitto is not installed; run the README's test command (bash tests/run), which installs it")
+    b = Broker(tmp_path / "broker", free_port())
+    b.start()
+    yield b
+    b.kill()
