@@ -82,6 +82,37 @@ CREATE TABLE events (
 CREATE INDEX events_time ON events(time_utc_ms);
 CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT);
 """,
+    2: """
+-- the alerts outbox (frostwatch/store/outbox.py): one row per alert notification and recipient
+ALTER TABLE deliveries ADD COLUMN seq INTEGER NOT NULL DEFAULT 0;      -- 0 first notice; repeats and escalations count up
+ALTER TABLE deliveries ADD COLUMN idem_key TEXT;                       -- alert key:seq; email Message-ID, webhook header
+ALTER TABLE deliveries ADD COLUMN lease_until_utc_ms INTEGER;          -- an attempt in flight; reclaimed after it expires
+ALTER TABLE deliveries ADD COLUMN lease_owner TEXT;                    -- which outbox process holds the lease
+ALTER TABLE deliveries ADD COLUMN body TEXT;                           -- the text sent (repeats and notices differ)
+ALTER TABLE deliveries ADD COLUMN local INTEGER NOT NULL DEFAULT 0;    -- 1: a channel that needs no internet
+ALTER TABLE deliveries ADD COLUMN kind TEXT NOT NULL DEFAULT 'alert';  -- alert, resolved, repeat, escalation, notice
+CREATE UNIQUE INDEX deliveries_once ON deliveries(alert_key, channel, recipient, seq);
+-- escalation bookkeeping per alert that wants an answer
+CREATE TABLE alert_state (
+    alert_key TEXT PRIMARY KEY,
+    state TEXT NOT NULL,             -- firing, acked, resolved, info
+    started_utc_ms INTEGER NOT NULL,
+    next_repeat_utc_ms INTEGER,
+    step INTEGER NOT NULL DEFAULT 0, -- how far down the roster it has gone
+    notices INTEGER NOT NULL DEFAULT 0,
+    acked_by TEXT,
+    acked_utc_ms INTEGER
+);
+CREATE INDEX alert_state_due ON alert_state(state, next_repeat_utc_ms);
+-- one-use acknowledgement tokens that have been spent (frostwatch/alerts/acks.py)
+CREATE TABLE ack_tokens_used (
+    nonce TEXT PRIMARY KEY,
+    alert_key TEXT NOT NULL,
+    recipient TEXT,
+    via TEXT,
+    used_utc_ms INTEGER NOT NULL
+);
+""",
 }
 
 SCHEMA_VERSION = max(MIGRATIONS)

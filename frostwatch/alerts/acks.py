@@ -1,0 +1,153 @@
+"""One-use acknowledgement links: unforgeable tokens for "I'm on it" from a phone.
+
+A token names one alert and one recipient, carries a random nonce and (optionally) an expiry, and
+is signed with HMAC-SHA256 under a per-install secret. The secret lives in the store's meta table
+(`ack_secret`, 32 random bytes made on first use) unless `[alerts] ack_secret_file` names a file.
+A token is spent the first time it is used: its nonce goes into `ack_tokens_used` in the same
+transaction as the acknowledgement, so a second use (or a race of two) is refused. Forged,
+expired and reused tokens are refused, logged and recorded as `ack` events in the store.
+
+    token = ack_link_token(store, alert_key, recipient, issued_utc=now)   # put it in a link
+    ok, message = acknowledge_token(store, cfg, token, now_utc, via="link")
+
+The status page serves the link; this module only makes and checks tokens.
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as dt
+import hashlib
+import hmac
+import json
+import logging
+import secrets
+import sqlite3
+from pathlib import Path
+
+from frostwatch.store import Store, to_ms
+
+log = logging.getLogger("frostwatch.alerts.acks")
+
+TOKEN_VERSION = "a1"
+DEFAULT_TTL_S = 36 * 3600  # a frost night and the morning after
+_META_KEY = "ack_secret"
+
+
+def _b64(b: bytes) -> str:
+    return base64.urlsafe_b64encode(b).rstrip(b"=").decode("ascii")
+
+
+def _unb64(s: str) -> bytes:
+    return base64.urlsafe_b64decode(s + "=" * (-len(s) % 4))
+
+
+def install_secret(store: Store, cfg=None) -> bytes:
+    """The per-install signing secret: from `[alerts] ack_secret_file`, else the store (made once)."""
+    path = None
+    if cfg is not None:
+        path = (getattr(cfg, "alerts", None) or {}).get("ack_secret_file")
+    if path:
+        p = Path(path)
+        if not p.is_absolute() and getattr(cfg, "path", None):
+            p = Path(cfg.path).parent / p
+        data = p.read_bytes().strip()
+        if len(data) < 16:
+            raise ValueError(f"{p}: the acknowledgement secret is shorter than 16 bytes")
+        return data
+    value = store.get_meta(_META_KEY)
+    if value is None:
+        fresh = secrets.token_hex(32)
+        with store.transaction() as c:  # first writer wins if two processes race
+            c.execute("INSERT OR IGNORE INTO meta(key, value) VALUES (?,?)", (_META_KEY, fresh))
+        value = store.get_meta(_META_KEY)
+    return bytes.fromhex(value)
+
+
+def _sign(secret: bytes, body: str) -> str:
+    return _b64(hmac.new(secret, body.encode("ascii"), hashlib.sha256).digest())
+
+
+def ack_link_token(
+    store_or_secret: Store | bytes,
+    alert_key: str,
+    recipient: str,
+    *,
+    issued_utc: dt.datetime | None = None,
+    ttl_s: int = DEFAULT_TTL_S,
+    cfg=None,
+) -> str:
+    """A signed one-use token acknowledging `alert_key` on behalf of `recipient`.
+
+    `store_or_secret` is the Store (the secret is read or made there) or the secret bytes. With
+    `issued_utc` the token expires `ttl_s` seconds later; without it, it never expires (it is
+    still one-use).
+    """
+    secret = store_or_secret if isinstance(store_or_secret, bytes) else install_secret(store_or_secret, cfg)
+    payload = {"k": alert_key, "r": recipient, "n": secrets.token_hex(12)}
+    if issued_utc is not None:
+        payload["e"] = int(issued_utc.timestamp()) + int(ttl_s)
+    body = TOKEN_VERSION + "." + _b64(json.dumps(payload, separators=(",", ":"), sort_keys=True).encode())
+    return body + "." + _sign(secret, body)
+
+
+def read_token(secret: bytes, token: str) -> dict:
+    """The checked payload of a token; ValueError saying why it is refused."""
+    if not isinstance(token, str) or len(token) > 2000:
+        raise ValueError("not a token")
+    parts = token.strip().split(".")
+    if len(parts) != 3 or parts[0] != TOKEN_VERSION:
+        raise ValueError("not a frostwatch acknowledgement token")
+    body = parts[0] + "." + parts[1]
+    if not hmac.compare_digest(_sign(secret, body), parts[2]):
+        raise ValueError("the signature does not match (forged or altered token)")
+    try:
+        payload = json.loads(_unb64(parts[1]))
+    except (ValueError, UnicodeDecodeError):
+        raise ValueError("the token body is unreadable") from None
+    if not isinstance(payload, dict) or not isinstance(payload.get("k"), str) or not isinstance(payload.get("n"), str):
+        raise ValueError("the token body is incomplete")
+    return payload
+
+
+def _refuse(store: Store, now_utc: dt.datetime, via: str, why: str, token: str) -> tuple[bool, str]:
+    shown = (token or "")[:24] + ("..." if token and len(token) > 24 else "")
+    log.warning("acknowledgement refused (%s): %s [%s]", via, why, shown)
+    try:
+        store.add_event(now_utc, "ack", "refused", f"via {via}: {why}; token {shown}")
+    except Exception:  # noqa: BLE001 - logging the refusal must not turn into a crash
+        log.exception("could not record the refused acknowledgement")
+    return False, f"not acknowledged: {why}"
+
+
+def acknowledge_token(store: Store, cfg, token: str, now_utc: dt.datetime, via: str = "link") -> tuple[bool, str]:
+    """Spend a token: acknowledge its alert once. Returns (ok, a message fit to show the person)."""
+    from frostwatch.store import outbox as ob  # late: the store module imports nothing from here
+
+    try:
+        secret = install_secret(store, cfg)
+    except (OSError, ValueError) as exc:
+        return _refuse(store, now_utc, via, f"the acknowledgement secret cannot be read: {exc}", token)
+    try:
+        payload = read_token(secret, token)
+    except ValueError as exc:
+        return _refuse(store, now_utc, via, str(exc), token)
+    expires = payload.get("e")
+    if isinstance(expires, int) and now_utc.timestamp() > expires:
+        return _refuse(store, now_utc, via, "the link has expired", token)
+    key, who = payload["k"], str(payload.get("r") or "someone")
+    try:
+        with store.transaction() as c:
+            c.execute(
+                "INSERT INTO ack_tokens_used(nonce, alert_key, recipient, via, used_utc_ms) VALUES (?,?,?,?,?)",
+                (payload["n"], key, who, via, to_ms(now_utc)),
+            )
+            known = ob.record_ack(c, key, who, via, now_utc)
+            if not known:
+                raise LookupError(key)
+    except sqlite3.IntegrityError:
+        return _refuse(store, now_utc, via, "this link has already been used", token)
+    except LookupError:
+        return _refuse(store, now_utc, via, f"no alert {key} in this store", token)
+    log.warning("acknowledged %s by %s via %s", key, who, via)
+    return True, f"acknowledged {key} for {who}; repeats and escalation of this alert stop"
