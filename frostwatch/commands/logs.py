@@ -28,11 +28,13 @@ def _read_logs(args, cfg, store=None):
     from frostwatch.ingest.csvlog import read_sensor_log
 
     known = {s.id for s in cfg.stations}
-    readings, rejections = [], []
+    readings, rejections, origins = [], [], []
     for log in args.logs:
-        r, rej = read_sensor_log(log, known)
+        lines: list[int] = []
+        r, rej = read_sensor_log(log, known, lines)
         readings += r
         rejections += rej
+        origins += [(str(log), n) for n in lines]
     for rej in rejections:
         print(f"{rej.where()}: {rej.reason}", file=sys.stderr)
     if not readings:
@@ -42,7 +44,7 @@ def _read_logs(args, cfg, store=None):
     stored = dup = 0
     if store is not None:
         now = dt.datetime.now(dt.UTC)
-        stored, dup, conflicts = store.add_readings(readings, source=",".join(Path(x).name for x in args.logs))
+        stored, dup, conflicts = store.add_readings(readings, source=",".join(Path(x).name for x in args.logs), origins=origins)
         for c in conflicts:
             print(f"{c.where()}: {c.reason}", file=sys.stderr)
         store.add_rejections(rejections + conflicts, now)

@@ -25,9 +25,12 @@ def _decoded_lines(raw_lines: list[bytes], bad: set[int]) -> Iterator[str]:
 
 
 def parse_sensor_log_bytes(
-    data: bytes, source: str, known_stations: Collection[str] | None
+    data: bytes, source: str, known_stations: Collection[str] | None, lines: list[int] | None = None
 ) -> tuple[list[Reading], list[Rejection]]:
-    """Parse the bytes of a sensor log; return (readings, rejections)."""
+    """Parse the bytes of a sensor log; return (readings, rejections).
+
+    When `lines` is given, the line number of each accepted reading is appended to it.
+    """
     raw_lines = data.splitlines(keepends=True)
     if not raw_lines:
         raise IngestError(f"{source}: the file is empty; expected a header line {','.join(LOG_COLUMNS)}")
@@ -66,16 +69,23 @@ def parse_sensor_log_bytes(
         if not fields or all(not f.strip() for f in fields):
             continue  # a blank line is not a reading, nor an error
         r = parse_log_row(fields, columns, known_stations, source, line, raw)
-        (readings if isinstance(r, Reading) else rejections).append(r)
+        if isinstance(r, Reading):
+            readings.append(r)
+            if lines is not None:
+                lines.append(line)
+        else:
+            rejections.append(r)
     del last_line
     return readings, rejections
 
 
-def read_sensor_log(path: str | Path, known_stations: Collection[str] | None) -> tuple[list[Reading], list[Rejection]]:
+def read_sensor_log(
+    path: str | Path, known_stations: Collection[str] | None, lines: list[int] | None = None
+) -> tuple[list[Reading], list[Rejection]]:
     """Read the sensor log at `path`; raise `IngestError` if it cannot be opened."""
     p = Path(path)
     try:
         data = p.read_bytes()
     except OSError as exc:
         raise IngestError(f"{p}: cannot read the sensor log: {exc.strerror or exc}") from None
-    return parse_sensor_log_bytes(data, str(path), known_stations)
+    return parse_sensor_log_bytes(data, str(path), known_stations, lines)

@@ -109,17 +109,20 @@ class Store:
                 self.conn.execute("COMMIT")
 
     # -- readings ------------------------------------------------------------------------------
-    def add_readings(self, readings: Iterable[Reading], source: str) -> tuple[int, int, list[Rejection]]:
+    def add_readings(
+        self, readings: Iterable[Reading], source: str, origins: list[tuple[str, int | None]] | None = None
+    ) -> tuple[int, int, list[Rejection]]:
         """Store readings in one transaction. Returns (stored, exact duplicates, conflicts).
 
         An exact duplicate (same time, station, quantity and value) is stored once; the same key
-        with a different value is a conflict, returned as a Rejection and kept aside.
+        with a different value is a conflict, returned as a Rejection and kept aside. `origins`
+        (one (source, line) per reading) lets a conflict name the file and line it came from.
         """
         stored = dup = 0
         conflicts: list[Rejection] = []
         try:
             with self.transaction() as c:
-                for r in readings:
+                for i, r in enumerate(readings):
                     ms = to_ms(r.time_utc)
                     cur = c.execute(
                         "INSERT OR IGNORE INTO readings(time_utc_ms, station, quantity, value, source) VALUES (?,?,?,?,?)",
@@ -135,10 +138,11 @@ class Store:
                     if math.isclose(old, r.value, rel_tol=0, abs_tol=1e-9):
                         dup += 1
                     else:
+                        where = origins[i] if origins is not None else (source, None)
                         conflicts.append(
                             Rejection(
-                                source,
-                                None,
+                                where[0],
+                                where[1],
                                 f"{r.station} {r.quantity} at {r.time_utc.isoformat()} is {r.value:g} here but "
                                 f"{old:g} is already stored; the first value is kept",
                                 f"{r.time_utc.isoformat()},{r.station},{r.quantity},{r.value}",

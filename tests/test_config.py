@@ -1,0 +1,115 @@
+"""Config validation: every problem at once, each as section.key, with did-you-mean."""
+
+import tomllib
+
+import pytest
+
+from frostwatch.config import config_from_dict, effective_settings, load_config
+from frostwatch.errors import ConfigError
+
+GOOD = {
+    "site": {"name": "Test", "latitude": 46.0, "longitude": -120.0, "timezone": "America/Los_Angeles"},
+    "blocks": [{"id": "a", "crop": "apple", "stage": "full bloom"}],
+    "stations": [{"id": "a-low", "block": "a", "height_m": 1.5}, {"id": "a-tower", "block": "a", "height_m": 10}],
+}
+
+
+def problems_of(raw) -> list[str]:
+    with pytest.raises(ConfigError) as exc:
+        config_from_dict(raw)
+    return exc.value.problems
+
+
+def test_good_config_loads_with_table_critical_temperatures():
+    cfg = config_from_dict(GOOD)
+    b = cfg.blocks[0]
+    # WSU EB0913 via Penn State: apple full bloom T10 28 degF, T90 25 degF
+    assert b.kill_10pct_c == pytest.approx(-2.22, abs=0.01)
+    assert b.kill_90pct_c == pytest.approx(-3.89, abs=0.01)
+    assert [s.role for s in cfg.stations] == ["crop", "tower"]
+
+
+def test_every_problem_is_listed_at_once():
+    raw = {
+        "site": {"name": "T", "latitude": 95, "longitude": -120.0, "timezone": "Pacific Time", "elevaton_m": 3},
+        "blocks": [{"id": "a", "crop": "banana", "stage": "full bloom", "protection": "fans"}],
+        "stations": [{"id": "a-low", "block": "b", "height_m": 1.5}],
+        "storag": {},
+    }
+    probs = problems_of(raw)
+    text = "\n".join(probs)
+    assert "site.latitude: 95 is out of range" in text
+    assert "site.timezone: 'Pacific Time' is not an IANA time zone name" in text
+    assert "site.elevaton_m: unknown key (did you mean 'elevation_m'?)" in text
+    assert "blocks.a.crop:" in text and "apple" in text  # lists the known crops
+    assert "blocks.a.protection: 'fans'" in text
+    assert "stations.a-low.block: 'b' is not a declared block" in text
+    assert "storag: unknown section (did you mean 'storage'?)" in text
+    assert len(probs) >= 7
+
+
+def test_unknown_stage_lists_the_known_stages():
+    raw = dict(GOOD, blocks=[{"id": "a", "crop": "apple", "stage": "fool bloom"}])
+    (p,) = problems_of(raw)
+    assert p.startswith("blocks.a.stage:") and "full bloom" in p
+
+
+def test_stage_names_match_without_regard_to_case_spaces_hyphens():
+    raw = dict(GOOD, blocks=[{"id": "a", "crop": "Sweet-Cherry", "stage": "FULL-bloom"}])
+    assert config_from_dict(raw).blocks[0].crop == "sweet cherry"
+
+
+def test_a_block_without_crop_height_station_is_a_problem():
+    raw = dict(GOOD, stations=[{"id": "a-tower", "block": "a", "height_m": 10}])
+    assert any("no crop-height station" in p for p in problems_of(raw))
+
+
+def test_wrong_types_are_named_with_what_is_expected():
+    raw = dict(GOOD, site=dict(GOOD["site"], latitude="forty-six"))
+    assert problems_of(raw) == ["site.latitude: 'forty-six' is not valid; expected a number"]
+
+
+def test_config_error_names_the_file(tmp_path):
+    p = tmp_path / "site.toml"
+    p.write_text("[site]\nname = 3\n")
+    with pytest.raises(ConfigError, match=str(p)):
+        load_config(p)
+    p.write_text("not toml [")
+    with pytest.raises(ConfigError, match="not valid TOML"):
+        load_config(p)
+
+
+
+
+def test_secrets_are_masked_in_effective_settings():
+    raw = dict(GOOD, broker={"username": "fw", "password": "hunter2", "password_file": "/etc/fw/pw"})
+    raw["broker"].pop("password")
+    cfg = config_from_dict(raw)
+    eff = effective_settings(cfg)
+    assert eff["broker"]["password_file"] == "/etc/fw/pw"
+    cfg2 = config_from_dict(dict(GOOD, alerts={"webhook_token": "abc"}))
+    assert effective_settings(cfg2)["alerts"]["webhook_token"] == "***"
+
+
+def test_init_writes_a_config_that_loads(tmp_path, capsys):
+    from frostwatch.cli import main
+
+    p = tmp_path / "farm.toml"
+    assert main(["init", str(p)]) == 0
+    cfg = load_config(p)
+    assert cfg.site.name and len(cfg.blocks) == 3
+    assert "#" in p.read_text()  # commented
+    assert main(["init", str(p)]) == 2  # no silent overwrite
+    tomllib.loads(p.read_text())
+
+
+def test_storage_path_is_relative_to_the_config_file(tmp_path):
+    p = tmp_path / "sub" / "site.toml"
+    p.parent.mkdir()
+    p.write_text(
+        '[site]\nname="T"\nlatitude=46.0\nlongitude=-120.0\ntimezone="UTC"\n'
+        '[[blocks]]\nid="a"\ncrop="pear"\nstage="full bloom"\n'
+        '[[stations]]\nid="a-low"\nblock="a"\nheight_m=1.5\n'
+        '[storage]\npath="data/fw.db"\n'
+    )
+    assert load_config(p).storage.path == (tmp_path / "sub" / "data" / "fw.db").resolve()

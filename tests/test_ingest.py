@@ -1,0 +1,158 @@
+"""Sensor-log ingest: every bad row gets its reason and line, every good row is kept."""
+
+import datetime as dt
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from frostwatch.errors import IngestError
+from frostwatch.ingest.csvlog import parse_sensor_log_bytes, read_sensor_log
+from frostwatch.ingest.parse import parse_mqtt_message
+from frostwatch.models import Reading, Rejection
+from frostwatch.store import Store
+
+REPO = Path(__file__).resolve().parent.parent
+SAMPLES = REPO / "sample_sensor_logs"
+STATIONS = {"east-low", "east-tower", "river-low", "river-low-b", "hill-low", "shed-sky"}
+HEADER = b"time,station,quantity,value,unit\n"
+
+
+def one(row: bytes):
+    readings, rejections = parse_sensor_log_bytes(HEADER + row + b"\n", "t.csv", STATIONS)
+    return readings, rejections
+
+
+@pytest.mark.parametrize(
+    ("row", "reason"),
+    [
+        (b"2027-04-14T21:00:00,east-low,air_temperature,3.4,degC", "no UTC offset"),
+        (b"yesterday,east-low,air_temperature,3.4,degC", "not ISO 8601"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,3.4,furlongs", "furlongs"),
+        (b"2027-04-14T21:00:00-07:00,west-low,air_temperature,3.4,degC", "unknown station 'west-low'"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temprature,3.4,degC", "unknown quantity 'air_temprature'"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,seven,degC", "not a number"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,,degC", "empty value"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,NaN,degC", "not a finite number"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,inf,degC", "not a finite number"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,85,degC", "out of the plausible range -60..60"),
+        (b"2027-04-14T21:00:00-07:00,east-low,relative_humidity,0.82,%", "looks like a fraction"),
+        (b"2027-04-14T21:00:00-07:00,east-low,relative_humidity,130,%", "out of the plausible range 0..100"),
+        (b"2027-04-14T21:00:00-07:00,east-low,wind_speed,-0.4,m s-1", "out of the plausible range"),
+        (b"2027-04-14T21:00:00-07:00,east-low", "columns"),
+        (b"2027-04-14T21:00:00-07:00,east-low,sprinkler_running,0.5,1", "not 0 or 1"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,3.4\xff,degC", "not valid UTF-8"),
+    ],
+)
+def test_each_kind_of_bad_row_gets_its_reason_and_line(row, reason):
+    readings, rejections = one(row)
+    assert readings == []
+    assert len(rejections) == 1
+    assert reason in rejections[0].reason
+    assert rejections[0].where() == "t.csv:2"
+
+
+def test_units_are_converted_once_at_ingest():
+    readings, rejections = one(b"2027-04-15T21:00:00-07:00,hill-low,air_temperature,28.4,degF")
+    assert not rejections
+    assert readings[0].value == pytest.approx(-2.0, abs=1e-9)
+    assert readings[0].time_utc == dt.datetime(2027, 4, 16, 4, 0, tzinfo=dt.UTC)
+
+
+def test_empty_unit_means_canonical_and_z_time_is_utc():
+    readings, _ = one(b"2027-04-15T04:00:00Z,east-low,air_temperature,-1.5,")
+    assert readings[0].value == -1.5 and readings[0].time_utc.hour == 4
+
+
+def test_header_missing_a_column_is_an_error_naming_the_file():
+    with pytest.raises(IngestError, match=r"t.csv:1: .*lacks value"):
+        parse_sensor_log_bytes(b"time,station,quantity\n", "t.csv", STATIONS)
+
+
+def test_unreadable_file_is_an_error_naming_it(tmp_path):
+    with pytest.raises(IngestError, match="no-such.csv"):
+        read_sensor_log(tmp_path / "no-such.csv", STATIONS)
+
+
+def test_broken_rows_sample_gives_the_documented_counts(tmp_path):
+    """sample_sensor_logs/README.md: 15 readings stored, 15 rows rejected (one of them a
+    conflicting duplicate found at storage), 1 exact duplicate ignored."""
+    readings, rejections = read_sensor_log(SAMPLES / "broken-rows.csv", STATIONS)
+    lines = sorted(r.line for r in rejections)
+    assert lines == [7, 9, 11, 12, 13, 15, 16, 17, 18, 19, 21, 22, 23, 24]
+    with Store.open(tmp_path / "fw.db") as store:
+        stored, dups, conflicts = store.add_readings(readings, "broken-rows.csv")
+        assert (stored, dups, len(conflicts)) == (15, 1, 1)
+        assert "already stored" in conflicts[0].reason
+        store.add_rejections(rejections + conflicts, dt.datetime(2027, 4, 15, tzinfo=dt.UTC))
+        assert store.count("readings") == 15
+        assert store.count("rejections") == 15
+
+
+@pytest.mark.parametrize(
+    ("name", "rows"),
+    [
+        ("2027-04-14-radiation-frost.csv", 4752),
+        ("2027-04-15-windy-advective.csv", 4896),
+        ("2027-04-16-cloudy-safe.csv", 4752),
+    ],
+)
+def test_sample_nights_read_without_rejections(name, rows):
+    readings, rejections = read_sensor_log(SAMPLES / name, STATIONS)
+    assert rejections == []
+    assert len(readings) == rows
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.binary(max_size=300))
+def test_any_bytes_give_readings_or_rejections_never_a_crash(data):
+    try:
+        readings, rejections = parse_sensor_log_bytes(HEADER + data, "fuzz.csv", STATIONS)
+    except IngestError:
+        return
+    assert all(isinstance(r, Reading) for r in readings)
+    assert all(isinstance(r, Rejection) and r.line is not None for r in rejections)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(max_size=40), st.binary(max_size=200))
+def test_any_mqtt_message_gives_readings_or_rejections(topic, payload):
+    now = dt.datetime(2027, 4, 15, 9, tzinfo=dt.UTC)
+    out = parse_mqtt_message(topic, payload, "frostwatch", now, STATIONS)
+    assert out and all(isinstance(r, (Reading, Rejection)) for r in out)
+
+
+@pytest.mark.parametrize(
+    ("payload", "reason"),
+    [
+        (b"NaN", "not a finite number"),
+        (b"Infinity", "not a finite number"),
+        (b"1e999", "not a finite number"),
+        (b'{"value": true}', "not a number"),
+        (b"[" * 50 + b"]" * 50, "nests deeper"),
+        (b"\xff\xfe", "not valid UTF-8"),
+        (b'{"time": "2027-04-15T12:00:00Z", "value": 3}', "ahead of the receipt time"),
+    ],
+)
+def test_poison_mqtt_payloads_are_rejected_with_reasons(payload, reason):
+    now = dt.datetime(2027, 4, 15, 9, tzinfo=dt.UTC)
+    out = parse_mqtt_message("frostwatch/east-low/air_temperature", payload, "frostwatch", now, STATIONS)
+    assert len(out) == 1 and isinstance(out[0], Rejection)
+    assert reason in out[0].reason
+
+
+def test_native_mqtt_forms():
+    now = dt.datetime(2027, 4, 15, 9, tzinfo=dt.UTC)
+    bare = parse_mqtt_message("frostwatch/east-low/air_temperature", b"-1.5", "frostwatch", now, STATIONS)
+    assert bare == [Reading(now, "east-low", "air_temperature", -1.5)]
+    js = parse_mqtt_message(
+        "frostwatch/east-low/air_temperature", b'{"time": "2027-04-15T01:00:00-07:00", "value": 30.2, "unit": "degF"}',
+        "frostwatch", now, STATIONS,
+    )
+    assert js[0].value == pytest.approx(-1.0) and js[0].time_utc == dt.datetime(2027, 4, 15, 8, tzinfo=dt.UTC)
+    multi = parse_mqtt_message(
+        "frostwatch/east-low", b'{"time": "2027-04-15T08:50:00Z", "air_temperature": 3.4, "relative_humidity": 81}',
+        "frostwatch", now, STATIONS,
+    )
+    assert {r.quantity for r in multi} == {"air_temperature", "relative_humidity"}
