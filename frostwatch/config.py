@@ -57,6 +57,7 @@ class Block:
     fuel_l_per_h: float | None = None
     biofix_date: str | None = None
     name: str = ""
+    wind_machine_gain_frac: float = 0.4
 
 
 @dataclass(frozen=True)
@@ -155,6 +156,7 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "water_supply_l_s": (_NUM, None, False),
         "fuel_l_per_h": (_NUM, None, False),
         "biofix_date": ((str,), None, False),
+        "wind_machine_gain_frac": (_NUM, 0.4, False),
     },
     "stations": {
         "id": ((str,), None, True),
@@ -415,6 +417,18 @@ def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
             problems.append(f"{label}.application_rate_mm_h: missing; a sprinkler block needs its application rate in mm per hour")
         elif not 0 < rate < 50:
             problems.append(f"{label}.application_rate_mm_h: {rate} is out of range; expected 0..50 mm per hour")
+    if not 0 <= v["wind_machine_gain_frac"] <= 1:
+        problems.append(
+            f"{label}.wind_machine_gain_frac: {v['wind_machine_gain_frac']} is out of range; expected a fraction "
+            "0..1 of the inversion recovered at crop height (engineering assumption, default 0.4)"
+        )
+    if v["biofix_date"] is not None:
+        import datetime as _dt
+
+        try:
+            _dt.date.fromisoformat(v["biofix_date"])
+        except ValueError:
+            problems.append(f"{label}.biofix_date: {v['biofix_date']!r} is not a date; expected YYYY-MM-DD")
     if v["area_ha"] is not None and not 0 < v["area_ha"] < 10000:
         problems.append(f"{label}.area_ha: {v['area_ha']} is out of range; expected hectares, > 0")
     if len(problems) > n_before or not isinstance(t10, _NUM):
