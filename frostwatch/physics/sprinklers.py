@@ -18,12 +18,16 @@ References
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Final
 
 from frostwatch.physics.humidity import air_temp_c_for_wet_bulb
 
 __all__ = [
     "CONVECTION_A_W_M2_K",
+    "GERBER_HARRISON_SOURCE",
+    "RateTonight",
+    "TableRate",
     "CONVECTION_B_J_M3_K",
     "LATENT_HEAT_FUSION_J_KG",
     "LATENT_HEAT_SUBLIMATION_J_KG",
@@ -31,10 +35,13 @@ __all__ = [
     "MAX_WIND_FOR_SPRINKLING_M_S",
     "capacity_adequate",
     "evaporation_break_even_frac",
+    "gerber_harrison_rate_mm_h",
+    "iced_surface_net_loss_w_m2",
     "heat_released_w_m2_per_mm_h",
     "net_heat_w_m2",
     "peak_flow_l_s",
     "rate_shortfall_mm_h",
+    "rate_tonight_mm_h",
     "required_application_rate_mm_h",
     "sprinkler_start_air_temp_c",
     "sprinkler_stop_ok",
@@ -354,3 +361,201 @@ def sprinkler_stop_ok(
         and wet_bulb_c > critical_c + margin_c
         and wet_bulb_trend_c_per_h > 0
     )
+
+
+# ---- the Gerber & Harrison (1964) / UF Circ. 287 table: a labelled cross-check ----------------
+
+# FROM MEMORY, every cell unverified (frost-physics.md 4.2 and 10): application rate [in h-1] by
+# minimum temperature [degF] (rows, warm to cold) and wind class [mph] (columns, calm to windy).
+# None is a cell the table leaves empty. Used only as a cross-check of the heat budget, looked up
+# in the grower's favour: the windier class and the colder row, never interpolated.
+GERBER_HARRISON_WIND_CLASSES_MPH: Final = ((0.0, 1.0), (2.0, 4.0), (5.0, 8.0), (10.0, 14.0), (18.0, 22.0))
+GERBER_HARRISON_ROWS_F: Final = (
+    (27.0, (0.10, 0.10, 0.10, 0.10, 0.20)),
+    (26.0, (0.10, 0.10, 0.14, 0.20, 0.40)),
+    (24.0, (0.10, 0.16, 0.30, 0.40, 0.80)),
+    (22.0, (0.12, 0.24, 0.50, 0.60, 1.00)),
+    (20.0, (0.16, 0.30, 0.60, 0.80, None)),
+    (18.0, (0.20, 0.40, 0.70, 1.00, None)),
+    (15.0, (0.26, 0.50, 0.90, None, None)),
+    (11.0, (0.34, 0.70, None, None, None)),
+)
+GERBER_HARRISON_SOURCE: Final = (
+    "Gerber & Harrison (1964) / UF Ext. Circ. 287 table, from memory (cells unverified)"
+)
+_MM_PER_IN: Final = 25.4
+_M_S_PER_MPH: Final = 0.44704
+
+
+@dataclass(frozen=True)
+class TableRate:
+    """A cell of the Gerber & Harrison table as looked up for tonight.
+
+    Attributes
+    ----------
+    rate_mm_h : float or None
+        The cell [mm h-1]; None where the table has no cell this cold or this windy.
+    row_min_temp_f : float or None
+        The row used [degF] (the row at or colder than tonight's minimum).
+    wind_class_mph : tuple of float or None
+        The wind class used [mph] (the class whose upper bound is at or above tonight's wind).
+    note : str
+        How the cell was chosen, or why there is none.
+    """
+
+    rate_mm_h: float | None
+    row_min_temp_f: float | None
+    wind_class_mph: tuple[float, float] | None
+    note: str
+
+
+def gerber_harrison_rate_mm_h(min_temp_c: float, wind_speed_m_s: float) -> TableRate:
+    """Look up the (from memory) Gerber & Harrison application-rate table, in the grower's favour.
+
+    Parameters
+    ----------
+    min_temp_c : float
+        Expected minimum air temperature [degC].
+    wind_speed_m_s : float
+        Wind speed [m s-1].
+
+    Returns
+    -------
+    TableRate
+        The cell of the colder row (the first row at or below ``min_temp_c``; the 27 degF row
+        for anything warmer) and the windier class (the first class whose upper bound is at or
+        above the wind; a wind between two classes takes the windier one). ``rate_mm_h`` is
+        None when the minimum is colder than the table's last row, the wind is above its last
+        class, the cell is empty, or an input is NaN.
+
+    Notes
+    -----
+    Never interpolated: interpolation would put a value between two cells, and the lower of
+    them is the grower's disfavour. Every cell is from memory (frost-physics.md 10): this is a
+    labelled cross-check of `required_application_rate_mm_h`, never the only figure.
+
+    References
+    ----------
+    .. [1] Gerber, J.F. & Harrison, D.S. (1964); Univ. Florida Ext. Circ. 287 (from memory).
+    """
+    if math.isnan(min_temp_c) or math.isnan(wind_speed_m_s):
+        return TableRate(None, None, None, "temperature or wind unknown: no table cell")
+    min_f = min_temp_c * 9.0 / 5.0 + 32.0
+    wind_mph = max(wind_speed_m_s, 0.0) / _M_S_PER_MPH
+    row = next((r for r in GERBER_HARRISON_ROWS_F if r[0] <= min_f + 1e-9), None)
+    if min_f >= GERBER_HARRISON_ROWS_F[0][0]:
+        row = GERBER_HARRISON_ROWS_F[0]
+    col = next(
+        (i for i, (_lo, hi) in enumerate(GERBER_HARRISON_WIND_CLASSES_MPH) if wind_mph <= hi + 1e-9),
+        None,
+    )
+    if row is None:
+        return TableRate(None, None, None, f"{min_f:.0f} F is colder than the table's last row (11 F)")
+    if col is None:
+        return TableRate(None, row[0], None, f"wind {wind_mph:.0f} mph is above the table's last class (22 mph)")
+    cls = GERBER_HARRISON_WIND_CLASSES_MPH[col]
+    cell = row[1][col]
+    if cell is None:
+        return TableRate(None, row[0], cls, f"the table has no cell for {row[0]:.0f} F at {cls[0]:.0f}-{cls[1]:.0f} mph")
+    return TableRate(
+        cell * _MM_PER_IN,
+        row[0],
+        cls,
+        f"{row[0]:.0f} F row, {cls[0]:.0f}-{cls[1]:.0f} mph class: {cell:.2f} in/h (colder row, windier class)",
+    )
+
+
+def iced_surface_net_loss_w_m2(
+    air_temp_c: float, vapour_pressure_hpa: float, cloud_frac: float = 0.0
+) -> float:
+    """Net longwave loss of a plant held at 0 degC under freezing water, positive upward [W m-2].
+
+    Notes
+    -----
+    The radiating surface is the ice-water film at 0 degC (the point of sprinkling), under a
+    Brutsaert (1975) sky at the air temperature with the Jacobs (1978) cloud correction, via
+    `frostwatch.physics.radiation.net_longwave_w_m2`. NaN outside that function's range.
+    """
+    from frostwatch.physics.radiation import net_longwave_w_m2
+
+    return -float(net_longwave_w_m2(air_temp_c, vapour_pressure_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0))
+
+
+@dataclass(frozen=True)
+class RateTonight:
+    """The application rate tonight needs: heat budget, table cross-check, and which governed.
+
+    Attributes
+    ----------
+    required_mm_h : float
+        The larger of the two figures [mm h-1] (NaN when neither is known).
+    heat_budget_mm_h : float
+        From `required_application_rate_mm_h` [mm h-1].
+    table : TableRate
+        The cross-check cell.
+    governed_by : str
+        "heat budget" or "table (from memory)".
+    net_loss_w_m2 : float
+        Net longwave loss of the iced surface [W m-2].
+    beyond_table : bool
+        True when tonight is colder or windier than any cell of the table: the requirement is
+        then a floor only (the largest cell of the row at lower wind, or the heat budget), and
+        over-plant sprinkling is unlikely to protect.
+    """
+
+    required_mm_h: float
+    heat_budget_mm_h: float
+    table: TableRate
+    governed_by: str
+    net_loss_w_m2: float
+    beyond_table: bool = False
+
+
+def rate_tonight_mm_h(
+    min_temp_c: float,
+    dew_point_c: float,
+    wind_speed_m_s: float,
+    cloud_frac: float = 0.0,
+    evaporated_frac: float = 0.05,
+) -> RateTonight:
+    """Application rate for tonight: the heat budget, checked against the table, the larger governs.
+
+    Parameters
+    ----------
+    min_temp_c : float
+        Expected minimum air temperature [degC].
+    dew_point_c : float
+        Dew point [degC] (capped at the air temperature).
+    wind_speed_m_s : float
+        Wind speed [m s-1]; NaN gives a NaN heat-budget figure (do not pass 0 for unknown).
+    cloud_frac : float, optional
+        Cloud fraction [-].
+    evaporated_frac : float, optional
+        Evaporated fraction of the water [-], default 0.05.
+
+    Notes
+    -----
+    The heat budget holds the iced plant at 0 degC: net longwave of a 0 degC surface plus the
+    sensible loss ``(5.7 + 3.8 u) (0 - Ta)``, over ``92.7 (1 - 8.49 x)``. It is a lower bound
+    (it counts one iced surface per m2 of ground), so the table cell is taken whenever it is
+    higher, as frost-physics.md 10 asks.
+    """
+    from frostwatch.physics.humidity import vapour_pressure_hpa_from_dew_point
+
+    e_hpa = float(vapour_pressure_hpa_from_dew_point(min(dew_point_c, min_temp_c)))
+    loss = iced_surface_net_loss_w_m2(min_temp_c, e_hpa, cloud_frac)
+    budget = required_application_rate_mm_h(max(loss, 0.0), wind_speed_m_s, min_temp_c, 0.0, evaporated_frac) \
+        if math.isfinite(loss) else math.nan
+    table = gerber_harrison_rate_mm_h(min_temp_c, wind_speed_m_s)
+    beyond = table.rate_mm_h is None and not (math.isnan(min_temp_c) or math.isnan(wind_speed_m_s))
+    table_floor = table.rate_mm_h
+    if beyond:
+        # colder or windier than any cell: the largest cell of the row (or of the last row) is a floor
+        row = next((r for r in GERBER_HARRISON_ROWS_F if r[0] == table.row_min_temp_f), GERBER_HARRISON_ROWS_F[-1])
+        table_floor = max(c for c in row[1] if c is not None) * _MM_PER_IN
+    candidates = [v for v in (budget, table_floor) if v is not None and not math.isnan(v)]
+    if not candidates:
+        return RateTonight(math.nan, budget, table, "unknown", loss, beyond)
+    required = max(candidates)
+    governed = "table (from memory)" if table_floor is not None and (math.isnan(budget) or table_floor > budget) else "heat budget"
+    return RateTonight(required, budget, table, governed, loss, beyond)
