@@ -1,5 +1,9 @@
 """The night log for a farm manager: an HTML page (no internet needed), PNG plots and CSVs.
 
+`collect_night` gathers a night's figures from the store; `write_night_report` writes
+`night-YYYY-MM-DD.html`, `-<block>.png`, `-blocks.csv`, `-water.csv` and `.json` (the night's
+record, whose SHA-256 is printed in the page and written beside it as `.sha256`).
+
 Raises `UsageError` when the night has no readings in the store.
 """
 
@@ -7,25 +11,76 @@ from __future__ import annotations
 
 import csv
 import datetime as dt
-import html
+import hashlib
 import json
+from dataclasses import dataclass, field
 from pathlib import Path
 
-from frostwatch.advisor import CAUTIONS
 from frostwatch.config import Config
 from frostwatch.display import Display
 from frostwatch.errors import UsageError
-from frostwatch.night import night_of_date
+from frostwatch.night import Night, night_of_date
 from frostwatch.pipeline import LOOKBACK
 from frostwatch.reports.plots import plot_block_night
-from frostwatch.reports.summary import BlockNight, block_night
+from frostwatch.reports.settings import INSURANCE_NOTICE_H, ReportSettings, report_settings
+from frostwatch.reports.summary import BlockNight, block_night, runs_from_acks
 from frostwatch.store import Store, from_ms
+from frostwatch.store import reports as q
 
-INSURANCE_NOTICE_H = 72  # usual crop-insurance notice period after discovering a loss (grower-needs I1)
+SPRINKLERS = ("overtree_sprinkler", "undertree_sprinkler")
+__all__ = ["INSURANCE_NOTICE_H", "NightData", "BlockSection", "collect_night", "write_night_report"]
 
 
-def write_night_report(cfg: Config, store: Store, evening: dt.date, out_dir: Path) -> Path:
-    """Write `night-YYYY-MM-DD.html`, one PNG per block and two CSVs into `out_dir`; return the HTML path."""
+@dataclass
+class BlockSection:
+    bn: BlockNight
+    dusk_forecast_c: float | None
+    projections: list[dict]
+    png: str = ""
+
+    @property
+    def forecast_error_c(self) -> float | None:
+        """Dusk forecast minus observed minimum: positive means the night came colder than forecast."""
+        if self.dusk_forecast_c is None or self.bn.min_c is None:
+            return None
+        return self.dusk_forecast_c - self.bn.min_c
+
+
+@dataclass
+class NightData:
+    cfg: Config
+    settings: ReportSettings
+    display: Display
+    night: Night
+    sections: list[BlockSection]
+    alerts: list[dict]
+    deliveries: dict[str, list[dict]]
+    acks: dict[str, list[dict]]
+    health: list[dict]
+    stage_changes: list[dict]
+    readings_count: int
+    readings_sha256: str
+    files: dict[str, str] = field(default_factory=dict)
+
+    def loss_blocks(self) -> list[BlockSection]:
+        return [s for s in self.sections if s.bn.min_c is not None and s.bn.min_c <= s.bn.kill_10pct_c]
+
+    def notice_deadline_utc(self) -> dt.datetime:
+        """The latest time for a crop-insurance notice: the notice period counted from sunrise
+        (the earliest a loss can be discovered)."""
+        return self.night.sunrise_utc + dt.timedelta(hours=self.settings.insurance_notice_h)
+
+
+def _readings_sha256(rows: list[tuple]) -> str:
+    h = hashlib.sha256()
+    for ms, st, qty, v in rows:
+        h.update(f"{ms},{st},{qty},{v!r}\n".encode())
+    return h.hexdigest()
+
+
+def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightData, dict]:
+    """The night's figures and the readings window they came from."""
+    settings = report_settings(cfg)
     d = Display(cfg.site.display_unit, cfg.site.tz)
     night = night_of_date(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, evening)
     start = night.sunset_utc - LOOKBACK
@@ -36,114 +91,162 @@ def write_night_report(cfg: Config, store: Store, evening: dt.date, out_dir: Pat
             f"{store.path}: no readings stored for the night of {evening} "
             f"({d.datetime(start)} to {d.datetime(end)}); replay or ingest that night first"
         )
-    out_dir.mkdir(parents=True, exist_ok=True)
-    stem = f"night-{evening.isoformat()}"
     alerts = store.alerts(night.sunset_utc - dt.timedelta(hours=2), end)
-    events = store.events(start, end, kind="health")
-    figures: list[BlockNight] = []
+    keys = [a["key"] for a in alerts]
+    deliveries = q.deliveries_for(store, keys)
+    acks = q.acks_for(store, keys)
     sections = []
     for block in cfg.blocks:
-        bn = block_night(block, cfg, series, night)
-        figures.append(bn)
+        block_alerts = [a for a in alerts if a["block"] == block.id]
+        ack_runs = None
+        if block.protection != "none":
+            ack_runs = runs_from_acks(block_alerts, acks, night.sunrise_utc + dt.timedelta(hours=2))
+        bn = block_night(block, cfg, series, night, ack_runs=ack_runs, energy_kw=settings.energy_kw.get(block.id))
         projs = store.projections(night.sunset_utc, night.sunrise_utc, block.id)
+        dusk_ms = int(night.dusk_utc.timestamp() * 1000)
+        dusk = [p for p in projs if p["time_utc_ms"] >= dusk_ms and p["predicted_min_c"] is not None]
+        dusk_c = dusk[0]["predicted_min_c"] if dusk else None
         proj_dicts = [
             {"time": from_ms(p["time_utc_ms"]).isoformat(), "predicted_min_c": p["predicted_min_c"], "band_c": p["band_c"]}
             for p in projs if p["predicted_min_c"] is not None
         ]
-        dusk = [p for p in projs if p["time_utc_ms"] >= int(night.dusk_utc.timestamp() * 1000)]
-        dusk_c = dusk[0]["predicted_min_c"] if dusk else None
-        png = out_dir / f"{stem}-{block.id}.png"
-        plot_block_night(png, block, cfg, series, night, d, proj_dicts, dusk_c)
-        sections.append((bn, png.name, dusk_c))
-    csv_path = out_dir / f"{stem}-blocks.csv"
-    with csv_path.open("w", newline="") as f:
-        w = csv.writer(f)
-        w.writerow(["night", "block", "crop", "stage", "station", "kill_10pct_c", "kill_90pct_c", "min_c", "min_at",
-                    "minutes_below_t10", "minutes_below_t90", "dusk_forecast_c", "forecast_error_c",
-                    "protection_hours", "water_m3", "peak_flow_l_s", "fuel_l"])
-        for bn, _, dusk_c in sections:
-            err = None if (dusk_c is None or bn.min_c is None) else round(dusk_c - bn.min_c, 2)
-            w.writerow([evening.isoformat(), bn.block, bn.crop, bn.stage, bn.station, bn.kill_10pct_c, bn.kill_90pct_c,
-                        None if bn.min_c is None else round(bn.min_c, 2),
-                        bn.min_at_utc.isoformat() if bn.min_at_utc else "", bn.minutes_below_t10, bn.minutes_below_t90,
-                        dusk_c, err, round(sum(r.hours for r in bn.runs), 2),
-                        None if bn.water_m3 is None else round(bn.water_m3, 1),
-                        None if bn.peak_flow_l_s is None else round(bn.peak_flow_l_s, 2),
-                        None if bn.fuel_l is None else round(bn.fuel_l, 1)])
-    water_path = out_dir / f"{stem}-water.csv"
-    with water_path.open("w", newline="") as f:
-        w = csv.writer(f)
-        w.writerow(["night", "zone", "start", "stop", "hours", "application_rate_mm_h", "area_ha", "volume_m3", "peak_flow_l_s"])
-        for bn, _, _ in sections:
-            b = cfg.block(bn.block)
-            if b.protection not in ("overtree_sprinkler", "undertree_sprinkler") or not b.application_rate_mm_h or not b.area_ha:
-                continue
-            for r in bn.runs:
-                vol = b.application_rate_mm_h * b.area_ha * 10.0 * r.hours
-                w.writerow([evening.isoformat(), b.id, r.start_utc.isoformat(), r.stop_utc.isoformat() if r.stop_utc else "",
-                            round(r.hours, 2), b.application_rate_mm_h, b.area_ha, round(vol, 1),
-                            round(b.application_rate_mm_h * b.area_ha * 10.0 / 3.6, 2)])
+        sections.append(BlockSection(bn, dusk_c, proj_dicts))
+    rows = q.readings_digest_rows(store, start, end)
+    return NightData(
+        cfg=cfg, settings=settings, display=d, night=night, sections=sections, alerts=alerts,
+        deliveries=deliveries, acks=acks,
+        health=store.events(start, end, kind="health"),
+        stage_changes=store.events(night.sunset_utc - dt.timedelta(days=1), end, kind="stage_change"),
+        readings_count=len(rows), readings_sha256=_readings_sha256(rows),
+    ), series
+
+
+def _r(v, nd=2):
+    return "" if v is None else round(v, nd)
+
+
+def _local_iso(t: dt.datetime | None, d: Display) -> str:
+    return "" if t is None else t.astimezone(d.tz).isoformat()
+
+
+BLOCK_CSV_COLUMNS = [
+    "night", "block", "name", "crop", "stage", "protection", "coldest_station", "kill_10pct_c", "kill_90pct_c",
+    "min_c", "min_at_local", "minutes_below_t10", "minutes_below_t90", "dusk_forecast_c", "forecast_error_c",
+    "protection_runs_local", "protection_source", "protection_hours", "water_m3", "peak_flow_l_s", "fuel_l",
+    "energy_kwh",
+]
+WATER_CSV_COLUMNS = [
+    "night", "zone", "block_name", "method", "start_local", "stop_local", "hours", "flow_rate_l_s",
+    "application_rate_mm_h", "area_ha", "volume_m3", "volume_acre_ft", "peak_flow_l_s", "peak_flow_gpm",
+    "run_known_from",
+]
+M3_PER_ACRE_FT = 1233.48  # 1 acre-foot = 43,560 ft3 = 1233.48 m3 (exact by definition of the units)
+GPM_PER_L_S = 15.850323  # US gallons per minute in 1 L/s (1 US gal = 3.785411784 L)
+
+
+def block_rows(data: NightData) -> list[dict]:
+    d = data.display
+    out = []
+    for s in data.sections:
+        bn = s.bn
+        b = data.cfg.block(bn.block)
+        runs = "; ".join(f"{_local_iso(r.start_utc, d)}/{_local_iso(r.stop_utc, d)}" for r in bn.runs)
+        out.append({
+            "night": data.night.date.isoformat(), "block": bn.block, "name": b.name, "crop": bn.crop,
+            "stage": bn.stage, "protection": b.protection, "coldest_station": bn.station or "",
+            "kill_10pct_c": _r(bn.kill_10pct_c), "kill_90pct_c": _r(bn.kill_90pct_c), "min_c": _r(bn.min_c),
+            "min_at_local": _local_iso(bn.min_at_utc, d), "minutes_below_t10": bn.minutes_below_t10,
+            "minutes_below_t90": bn.minutes_below_t90, "dusk_forecast_c": _r(s.dusk_forecast_c),
+            "forecast_error_c": _r(s.forecast_error_c), "protection_runs_local": runs,
+            "protection_source": bn.run_quantity or "", "protection_hours": round(bn.run_hours, 2),
+            "water_m3": _r(bn.water_m3, 1), "peak_flow_l_s": _r(bn.peak_flow_l_s), "fuel_l": _r(bn.fuel_l, 1),
+            "energy_kwh": _r(bn.energy_kwh, 1),
+        })
+    return out
+
+
+def water_rows(data: NightData) -> list[dict]:
+    """One row per sprinkler run per zone (block), shaped for a water-rights or demand program."""
+    d = data.display
+    out = []
+    for s in data.sections:
+        b = data.cfg.block(s.bn.block)
+        if b.protection not in SPRINKLERS or not b.application_rate_mm_h or not b.area_ha:
+            continue
+        flow_m3_h = b.application_rate_mm_h * b.area_ha * 10.0  # 1 mm over 1 ha = 10 m3
+        flow_l_s = flow_m3_h / 3.6
+        for r in s.bn.runs:
+            vol = flow_m3_h * r.hours
+            out.append({
+                "night": data.night.date.isoformat(), "zone": b.id, "block_name": b.name, "method": b.protection,
+                "start_local": _local_iso(r.start_utc, d), "stop_local": _local_iso(r.stop_utc, d),
+                "hours": round(r.hours, 3), "flow_rate_l_s": round(flow_l_s, 2),
+                "application_rate_mm_h": b.application_rate_mm_h, "area_ha": b.area_ha,
+                "volume_m3": round(vol, 1), "volume_acre_ft": round(vol / M3_PER_ACRE_FT, 3),
+                "peak_flow_l_s": round(flow_l_s, 2), "peak_flow_gpm": round(flow_l_s * GPM_PER_L_S, 0),
+                "run_known_from": "running sensor" if r.source == "sensor" else "acknowledgement (estimated)",
+            })
+    return out
+
+
+def _write_csv(path: Path, columns: list[str], rows: list[dict]) -> None:
+    with path.open("w", newline="", encoding="utf-8") as f:
+        w = csv.DictWriter(f, fieldnames=columns)
+        w.writeheader()
+        w.writerows(rows)
+
+
+def night_record(data: NightData) -> dict:
+    """The night's record as stored in `.json`: what the page shows, in SI units and UTC."""
+    iso = lambda t: None if t is None else t.isoformat().replace("+00:00", "Z")  # noqa: E731
+    return {
+        "site": data.cfg.site.name, "night": data.night.date.isoformat(),
+        "sunset_utc": iso(data.night.sunset_utc), "sunrise_utc": iso(data.night.sunrise_utc),
+        "readings": {"count": data.readings_count, "sha256": data.readings_sha256},
+        "blocks": [{
+            "block": s.bn.block, "station": s.bn.station, "kill_10pct_c": s.bn.kill_10pct_c,
+            "kill_90pct_c": s.bn.kill_90pct_c, "min_c": s.bn.min_c, "min_at": iso(s.bn.min_at_utc),
+            "minutes_below_t10": s.bn.minutes_below_t10, "minutes_below_t90": s.bn.minutes_below_t90,
+            "dusk_forecast_c": s.dusk_forecast_c, "forecast_error_c": s.forecast_error_c,
+            "runs": [{"start": iso(r.start_utc), "stop": iso(r.stop_utc), "source": r.source} for r in s.bn.runs],
+            "protection_hours": round(s.bn.run_hours, 3), "water_m3": s.bn.water_m3,
+            "peak_flow_l_s": s.bn.peak_flow_l_s, "fuel_l": s.bn.fuel_l, "energy_kwh": s.bn.energy_kwh,
+        } for s in data.sections],
+        "alerts": [{
+            "key": a["key"], "time": iso(from_ms(a["time_utc_ms"])), "block": a["block"], "level": a["level"],
+            "rank": a["rank"],
+            "deliveries": [{"channel": r.get("channel"), "recipient": r.get("recipient"), "status": r.get("status"),
+                            "attempt": r.get("attempt")} for r in data.deliveries.get(a["key"], [])],
+            "acks": [{"who": r.get("who"), "via": r.get("via"), "time": iso(from_ms(r["time_utc_ms"]))}
+                     for r in data.acks.get(a["key"], [])],
+        } for a in data.alerts],
+        "sensor_incidents": [{"time": iso(from_ms(e["time_utc_ms"])), "subject": e["subject"], "detail": e["detail"]}
+                             for e in data.health],
+        "possible_loss_blocks": [s.bn.block for s in data.loss_blocks()],
+        "insurance_notice_due": iso(data.notice_deadline_utc()) if data.loss_blocks() else None,
+    }
+
+
+def write_night_report(cfg: Config, store: Store, evening: dt.date, out_dir: Path) -> Path:
+    """Write the night's page, plots and CSVs into `out_dir`; return the HTML path."""
+    from frostwatch.reports.render import night_html
+
+    data, series = collect_night(cfg, store, evening)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    stem = f"night-{evening.isoformat()}"
+    for s in data.sections:
+        png = out_dir / f"{stem}-{s.bn.block}.png"
+        plot_block_night(png, cfg.block(s.bn.block), cfg, series, data.night, data.display, s.projections,
+                         s.dusk_forecast_c, runs=list(s.bn.runs))
+        s.png = png.name
+    _write_csv(out_dir / f"{stem}-blocks.csv", BLOCK_CSV_COLUMNS, block_rows(data))
+    _write_csv(out_dir / f"{stem}-water.csv", WATER_CSV_COLUMNS, water_rows(data))
+    record = json.dumps(night_record(data), indent=2).encode("utf-8")
+    (out_dir / f"{stem}.json").write_bytes(record)
+    digest = hashlib.sha256(record).hexdigest()
+    (out_dir / f"{stem}.sha256").write_text(f"{digest}  {stem}.json\n", encoding="utf-8")
+    data.files = {"blocks_csv": f"{stem}-blocks.csv", "water_csv": f"{stem}-water.csv", "json": f"{stem}.json",
+                  "json_sha256": digest}
     page = out_dir / f"{stem}.html"
-    page.write_text(_html(cfg, d, night, sections, alerts, events, csv_path.name, water_path.name), encoding="utf-8")
-    (out_dir / f"{stem}.json").write_text(json.dumps({
-        "night": evening.isoformat(),
-        "blocks": [{"block": bn.block, "min_c": bn.min_c, "min_at": bn.min_at_utc.isoformat() if bn.min_at_utc else None,
-                    "minutes_below_t10": bn.minutes_below_t10, "minutes_below_t90": bn.minutes_below_t90,
-                    "water_m3": bn.water_m3} for bn, _, _ in sections],
-    }, indent=2))
+    page.write_text(night_html(data), encoding="utf-8")
     return page
-
-
-def _html(cfg, d: Display, night, sections, alerts, events, csv_name, water_name) -> str:
-    e = html.escape
-    rows = []
-    loss_notes = []
-    for bn, png, dusk_c in sections:
-        err = "" if (dusk_c is None or bn.min_c is None) else d.delta(dusk_c - bn.min_c)
-        runs = ", ".join(f"{d.time(r.start_utc)}–{d.time(r.stop_utc)}" for r in bn.runs) or "none recorded"
-        rows.append(
-            f"<tr><td>{e(bn.block)}</td><td>{e(bn.crop)}, {e(bn.stage)}</td><td>{e(str(bn.station))}</td>"
-            f"<td>{d.temp(bn.min_c)}</td><td>{d.time(bn.min_at_utc)}</td><td>{bn.minutes_below_t10:.0f}</td>"
-            f"<td>{bn.minutes_below_t90:.0f}</td><td>{d.temp(dusk_c)}</td><td>{err}</td><td>{e(runs)}</td>"
-            f"<td>{'' if bn.water_m3 is None else f'{bn.water_m3:.0f} m³'}</td></tr>"
-        )
-        if bn.min_c is not None and bn.min_c <= bn.kill_10pct_c:
-            deadline = night.sunrise_utc + dt.timedelta(hours=int(cfg.report.get("insurance_notice_h", INSURANCE_NOTICE_H)))
-            loss_notes.append(
-                f"<li><b>Possible loss in block {e(bn.block)}</b>: {bn.minutes_below_t10:.0f} min at or below T10 "
-                f"({d.temp(bn.kill_10pct_c)}), minimum {d.temp(bn.min_c)}. If you carry crop insurance, notice is "
-                f"usually due within {cfg.report.get('insurance_notice_h', INSURANCE_NOTICE_H)} h of discovery: by "
-                f"{d.datetime(deadline)} at the latest. Assess buds tomorrow: cut about 100 buds across the block after "
-                f"they have warmed for 2 hours or more at room temperature, and count brown (dead) pistils.</li>"
-            )
-    alert_rows = "".join(
-        f"<tr><td>{d.time(from_ms(a['time_utc_ms']))}</td><td>{e(a['block'])}</td><td>{e(a['level'])}</td>"
-        f"<td>{a['rank']}</td><td>{e(a['message'].splitlines()[0])}</td></tr>"
-        for a in alerts
-    ) or "<tr><td colspan=5>no alerts</td></tr>"
-    incident_rows = "".join(
-        f"<li>{d.time(from_ms(ev['time_utc_ms']))} {e(ev['subject'] or '')}: {e(ev['detail'] or '')}</li>" for ev in events
-    ) or "<li>none recorded</li>"
-    figs = "".join(f'<figure><img src="{e(png)}" alt="block {e(bn.block)} night plot" style="max-width:100%"></figure>'
-                   for bn, png, _ in sections)
-    cautions = "".join(f"<li>{e(c)}</li>" for c in CAUTIONS)
-    return f"""<!doctype html>
-<html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
-<title>{e(cfg.site.name)}: night of {night.date}</title>
-<style>body{{font-family:sans-serif;margin:1em;max-width:70em}}table{{border-collapse:collapse}}
-td,th{{border:1px solid #bbb;padding:3px 6px;font-size:90%}}th{{background:#eee}}.loss{{background:#fee;padding:.5em}}</style>
-</head><body>
-<h1>{e(cfg.site.name)}: night of {night.date}</h1>
-<p>Sunset {d.time(night.sunset_utc)}, sunrise {d.time(night.sunrise_utc)} ({e(cfg.site.timezone)}). Temperatures in {d.symbol}.</p>
-<h2>Blocks</h2>
-<table id="blocks"><tr><th>block</th><th>crop, stage</th><th>coldest sensor</th><th>minimum</th><th>at</th>
-<th>min below T10</th><th>min below T90</th><th>dusk forecast</th><th>forecast error</th><th>protection ran</th><th>water</th></tr>
-{''.join(rows)}</table>
-<p>Data: <a href="{e(csv_name)}">block table (CSV)</a>, <a href="{e(water_name)}">water use per zone (CSV)</a>.</p>
-{'<div class="loss"><ul>' + ''.join(loss_notes) + '</ul></div>' if loss_notes else '<p>No block went below its T10.</p>'}
-<h2>Plots</h2>{figs}
-<h2>Alerts</h2><table id="alerts"><tr><th>time</th><th>block</th><th>level</th><th>rank</th><th>message</th></tr>{alert_rows}</table>
-<h2>Sensor incidents</h2><ul>{incident_rows}</ul>
-<h2>Cautions</h2><ul>{cautions}</ul>
-</body></html>
-"""

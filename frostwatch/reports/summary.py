@@ -40,8 +40,12 @@ def minutes_below(t_s: np.ndarray, v_c: np.ndarray, threshold_c: float, max_gap_
 
 @dataclass(frozen=True)
 class Run:
+    """One protection run. `source` says how it is known: "sensor" (a running flag) or "ack"
+    (estimated from the first acknowledged alert to the next stop/all-clear alert)."""
+
     start_utc: dt.datetime
     stop_utc: dt.datetime | None
+    source: str = "sensor"
 
     @property
     def hours(self) -> float:
@@ -60,6 +64,25 @@ def runs_from_flags(t_s: np.ndarray, flag: np.ndarray, end_s: float | None = Non
             start = None
     if start is not None:
         runs.append(Run(_utc(start), _utc(end_s) if end_s is not None else None))
+    return runs
+
+
+def runs_from_acks(
+    alerts: list[dict], acks: dict[str, list[dict]], end_utc: dt.datetime, min_rank: int = 3
+) -> list[Run]:
+    """Estimated runs for a block without a running sensor: from the first acknowledgement of an
+    alert of rank >= `min_rank` (standby and up) to the next alert of rank <= 1 (safe-to-stop or
+    all-clear), or `end_utc` when none came. `alerts` are the block's rows, oldest first."""
+    runs: list[Run] = []
+    start = None
+    for a in alerts:
+        if start is None and a["rank"] >= min_rank and acks.get(a["key"]):
+            start = min(r["time_utc_ms"] for r in acks[a["key"]])
+        elif start is not None and a["rank"] <= 1 and a["time_utc_ms"] > start:
+            runs.append(Run(_utc(start / 1000.0), _utc(a["time_utc_ms"] / 1000.0), "ack"))
+            start = None
+    if start is not None:
+        runs.append(Run(_utc(start / 1000.0), end_utc, "ack"))
     return runs
 
 
@@ -84,10 +107,27 @@ class BlockNight:
     water_m3: float | None
     peak_flow_l_s: float | None
     fuel_l: float | None
+    energy_kwh: float | None = None
+
+    @property
+    def run_hours(self) -> float:
+        return sum(r.hours for r in self.runs)
 
 
-def block_night(block: Block, cfg: Config, series: Series, night: Night) -> BlockNight:
-    """The night's figures for a block at its coldest crop-height station (sunset to sunrise + 2 h)."""
+def block_night(
+    block: Block,
+    cfg: Config,
+    series: Series,
+    night: Night,
+    ack_runs: list[Run] | None = None,
+    energy_kw: float | None = None,
+) -> BlockNight:
+    """The night's figures for a block at its coldest crop-height station (sunset to sunrise + 2 h).
+
+    Protection runs come from `sprinkler_running` / `wind_machine_running` readings; where the
+    block has no such sensor, from `ack_runs` (estimated from acknowledgements) if given.
+    Fuel = block.fuel_l_per_h x run hours; energy = `energy_kw` x run hours.
+    """
     start, end = night.sunset_utc.timestamp(), night.sunrise_utc.timestamp() + 7200.0
     best = None
     for st in cfg.stations_of(block.id, role="crop"):
@@ -111,6 +151,9 @@ def block_night(block: Block, cfg: Config, series: Series, night: Night) -> Bloc
                 sel = (t >= start - 6 * 3600) & (t <= end)
                 runs += runs_from_flags(t[sel], f[sel], end_s=float(t[sel][-1]) if sel.any() else None)
                 run_q = q
+    if run_q is None and ack_runs:
+        runs = list(ack_runs)
+        run_q = "acknowledgements"
     hours = sum(r.hours for r in runs)
     water = peak = fuel = None
     if block.protection in ("overtree_sprinkler", "undertree_sprinkler") and block.application_rate_mm_h and block.area_ha:
@@ -118,12 +161,13 @@ def block_night(block: Block, cfg: Config, series: Series, night: Night) -> Bloc
         peak = block.application_rate_mm_h * block.area_ha * 10.0 / 3.6 if runs else 0.0  # m3/h -> L/s
     if block.fuel_l_per_h:
         fuel = block.fuel_l_per_h * hours
+    energy = energy_kw * hours if energy_kw else None
     if best is None:
         return BlockNight(block.id, block.crop, block.stage, None, block.kill_10pct_c, block.kill_90pct_c,
-                          None, None, 0.0, 0.0, tuple(runs), run_q, water, peak, fuel)
+                          None, None, 0.0, 0.0, tuple(runs), run_q, water, peak, fuel, energy)
     mn, sid, t, v, i = best
     return BlockNight(
         block.id, block.crop, block.stage, sid, block.kill_10pct_c, block.kill_90pct_c, mn, _utc(t[i]),
         round(minutes_below(t, v, block.kill_10pct_c), 1), round(minutes_below(t, v, block.kill_90pct_c), 1),
-        tuple(runs), run_q, water, peak, fuel,
+        tuple(runs), run_q, water, peak, fuel, energy,
     )

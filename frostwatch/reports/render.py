@@ -1,0 +1,213 @@
+"""HTML of the night log: one self-contained page (inline CSS, no scripts, no fonts or links
+outside its own folder), readable on a phone and printable."""
+
+from __future__ import annotations
+
+import datetime as dt
+import html
+
+from frostwatch.advisor import CAUTIONS
+from frostwatch.alerts.rules import LEVELS
+from frostwatch.store import from_ms
+
+PAGE_CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0 auto;padding:0 12px 2em;
+max-width:72em;font-size:17px;line-height:1.4;color:#111}
+h1{font-size:1.5em;margin:.6em 0 .2em}h2{font-size:1.25em;margin:1.4em 0 .4em;border-bottom:2px solid #ddd}
+h3{font-size:1.1em;margin:1em 0 .3em}
+.scroll{overflow-x:auto;-webkit-overflow-scrolling:touch}
+table{border-collapse:collapse;margin:.3em 0}td,th{border:1px solid #bbb;padding:4px 8px;text-align:left;
+vertical-align:top}th{background:#eee}td.num{text-align:right;white-space:nowrap}
+table.kv th{width:45%;font-weight:600;background:#f5f5f5}
+.loss{background:#fde8e8;border-left:6px solid #c00;padding:.4em .8em;margin:.6em 0}
+.ok{background:#e8f6e8;border-left:6px solid #2a2;padding:.4em .8em;margin:.6em 0}
+.note{color:#444;font-size:.92em}.lvl{font-weight:700;white-space:nowrap}
+.lvl5{color:#a00}.lvl4{color:#c40}.lvl3{color:#a60}.lvl2{color:#660}.lvl1,.lvl0{color:#070}
+figure{margin:.5em 0}img{max-width:100%;height:auto;border:1px solid #ddd}
+code{font-size:.85em;word-break:break-all}
+table.compact td,table.compact th{padding:4px 5px}
+@media print{.scroll{overflow:visible}}
+"""
+e = html.escape
+
+
+def level_span(level: str) -> str:
+    return f'<span class="lvl lvl{LEVELS.get(level, 0)}">{e(level)}</span>'
+
+
+def coldest_first(sections):
+    return sorted(sections, key=lambda s: (s.bn.min_c is None, s.bn.min_c if s.bn.min_c is not None else 0.0))
+
+
+def _overview(data) -> str:
+    d = data.display
+    rows = []
+    for s in coldest_first(data.sections):
+        bn = s.bn
+        rows.append(
+            f'<tr><td><a href="#block-{e(bn.block)}">{e(bn.block)}</a></td><td class="num">{d.temp(bn.min_c)}</td>'
+            f'<td class="num">{d.time(bn.min_at_utc)}</td><td class="num">{bn.minutes_below_t10:.0f} min</td>'
+            f'<td class="num">{bn.minutes_below_t90:.0f} min</td></tr>'
+        )
+    return ('<div class="scroll"><table id="blocks" class="compact"><tr><th>block</th><th>minimum</th><th>at</th>'
+            '<th>below T10</th><th>below T90</th></tr>' + "".join(rows) + "</table></div>"
+            '<p class="note">"below T10/T90": minutes at or below it, interpolated between readings.</p>')
+
+
+def _runs_text(data, bn) -> str:
+    d = data.display
+    if not bn.runs:
+        b = data.cfg.block(bn.block)
+        if b.protection == "none":
+            return "no protection configured"
+        return "none recorded" if bn.run_quantity else "none recorded (no running sensor, no acknowledgement)"
+    parts = [f"{d.time(r.start_utc)}–{d.time(r.stop_utc) if r.stop_utc else 'still running'}" for r in bn.runs]
+    src = {"sprinkler_running": "sprinkler running sensor", "wind_machine_running": "wind machine running sensor",
+           "acknowledgements": "estimated from acknowledgements"}.get(bn.run_quantity or "", bn.run_quantity or "")
+    return f"{', '.join(parts)} ({bn.run_hours:.1f} h; {src})"
+
+
+def _block_section(data, s) -> str:
+    d = data.display
+    bn = s.bn
+    b = data.cfg.block(bn.block)
+    title = f"{bn.block}" + (f" — {b.name}" if b.name else "")
+    err = s.forecast_error_c
+    if err is None:
+        err_txt = "n/a"
+    else:
+        err_txt = (f"forecast {d.temp(s.dusk_forecast_c)}, observed {d.temp(bn.min_c)}: the forecast was "
+                   f"{d.delta(abs(err))} {'colder' if err < 0 else 'warmer'} than what happened")
+    rows = [
+        ("crop, stage", f"{e(bn.crop)}, {e(bn.stage)}"),
+        ("T10 / T90 (10 % / 90 % bud kill)", f"{d.temp(bn.kill_10pct_c)} / {d.temp(bn.kill_90pct_c)}"),
+        ("coldest crop-height sensor", e(bn.station or "none reporting")),
+        ("minimum", f'<span class="minimum">{d.temp(bn.min_c)}</span> at {d.time(bn.min_at_utc)}'),
+        ("minutes at or below T10", f"{bn.minutes_below_t10:.0f}"),
+        ("minutes at or below T90", f"{bn.minutes_below_t90:.0f}"),
+        ("dusk forecast error", err_txt),
+        ("protection", e(b.protection.replace("_", " "))),
+        ("protection ran", e(_runs_text(data, bn))),
+    ]
+    if bn.water_m3 is not None:
+        rows.append(("water used", f"{bn.water_m3:.0f} m³ ({bn.water_m3 / 1233.48:.2f} acre-ft)"))
+        rows.append(("peak flow", f"{bn.peak_flow_l_s:.1f} L/s (nominal: rate × area)"))
+    if bn.fuel_l is not None:
+        rows.append(("fuel (estimated)", f"{bn.fuel_l:.0f} L ({b.fuel_l_per_h:g} L/h × {bn.run_hours:.1f} h)"))
+    if bn.energy_kwh is not None:
+        rows.append(("energy (estimated)", f"{bn.energy_kwh:.0f} kWh"))
+    table = "".join(f"<tr><th>{k}</th><td>{v}</td></tr>" for k, v in rows)
+    fig = (f'<figure><img src="{e(s.png)}" alt="block {e(bn.block)}: temperatures through the night">'
+           '<figcaption class="note">Solid: crop-height air; dashed: tower; red lines: T10 and T90; purple: dusk '
+           'forecast and nowcast band; shaded: protection running. Lower panel: inversion (tower minus crop) and '
+           'wind.</figcaption></figure>') if s.png else ""
+    return (f'<section id="block-{e(bn.block)}"><h3>Block {e(title)}</h3><div class="scroll"><table class="kv">'
+            f"{table}</table></div>{fig}</section>")
+
+
+def _loss(data) -> str:
+    d = data.display
+    losses = data.loss_blocks()
+    if not losses:
+        return '<div class="ok" id="possible-loss">No block went down to its T10 tonight: no loss expected.</div>'
+    h = data.settings.insurance_notice_h
+    items = "".join(
+        f"<li><b>Block {e(s.bn.block)}</b>: {s.bn.minutes_below_t10:.0f} min at or below T10 "
+        f"({d.temp(s.bn.kill_10pct_c)}), {s.bn.minutes_below_t90:.0f} min at or below T90, minimum "
+        f"{d.temp(s.bn.min_c)} at {d.time(s.bn.min_at_utc)}.</li>" for s in losses
+    )
+    return (
+        f'<div class="loss" id="possible-loss"><p><b>Possible loss.</b></p><ul>{items}</ul>'
+        f"<p>If you carry crop insurance, notice of a possible loss is usually due within {h:g} hours of "
+        f"discovering it: by <b>{d.datetime(data.notice_deadline_utc())}</b> at the latest. Check your policy "
+        "for the exact period and keep this page, its CSV files and its record hash.</p>"
+        "<p><b>Assessing the buds</b> (Utah State University / Intermountain Fruit method): the day after, "
+        "collect about 100 buds or blossoms across the block (low spots and high spots), let them warm at room "
+        "temperature for at least 2 hours, cut them across with a sharp blade and count the pistils that have "
+        "turned brown or black (dead) against the green ones (alive). Record the percentage per block.</p></div>"
+    )
+
+
+def _deliveries(data, key: str) -> str:
+    rows = data.deliveries.get(key, [])
+    if not rows:
+        return '<span class="note">none recorded</span>'
+    parts = []
+    for r in rows:
+        when = from_ms(r["updated_utc_ms"]) if r.get("updated_utc_ms") else None
+        parts.append(f"{e(str(r.get('channel') or ''))} → {e(str(r.get('recipient') or ''))}: "
+                     f"{e(str(r.get('status') or ''))}"
+                     + (f" (attempt {r['attempt']})" if r.get("attempt") else "")
+                     + (f" {data.display.time(when)}" if when else ""))
+    return "<br>".join(parts)
+
+
+def _acks(data, key: str) -> str:
+    rows = data.acks.get(key, [])
+    if not rows:
+        return ""
+    return "<br>".join(f"{data.display.time(from_ms(r['time_utc_ms']))} by {e(str(r.get('who') or 'someone'))}"
+                       f" via {e(str(r.get('via') or '?'))}" for r in rows)
+
+
+def _alerts(data) -> str:
+    d = data.display
+    if not data.alerts:
+        return '<p id="alerts">No alerts tonight.</p>'
+    rows = []
+    for a in data.alerts:
+        head = (a["message"] or a["advice"] or "").splitlines()[0] if (a["message"] or a["advice"]) else ""
+        ack = _acks(data, a["key"])
+        if not ack and a["rank"] >= LEVELS["standby"]:
+            ack = '<span class="note">not acknowledged</span>'
+        rows.append(f'<tr><td class="num">{d.time(from_ms(a["time_utc_ms"]))}</td><td>{e(a["block"])}</td>'
+                    f"<td>{level_span(a['level'])}</td><td>{e(head)}</td><td>{_deliveries(data, a['key'])}</td>"
+                    f"<td>{ack}</td></tr>")
+    return ('<div class="scroll"><table id="alerts"><tr><th>time</th><th>block</th><th>level</th><th>message</th>'
+            "<th>sent</th><th>acknowledged</th></tr>" + "".join(rows) + "</table></div>")
+
+
+def _events(data, events, empty: str, ident: str) -> str:
+    d = data.display
+    if not events:
+        return f'<p id="{ident}" class="note">{empty}</p>'
+    items = "".join(f"<li>{d.time(from_ms(ev['time_utc_ms']))} <b>{e(ev['subject'] or '')}</b>: "
+                    f"{e(ev['detail'] or '')}</li>" for ev in events)
+    return f'<ul id="{ident}">{items}</ul>'
+
+
+def night_html(data) -> str:
+    d, n, cfg = data.display, data.night, data.cfg
+    blocks = "".join(_block_section(data, s) for s in coldest_first(data.sections))
+    cautions = "".join(f"<li>{e(c)}</li>" for c in CAUTIONS)
+    f = data.files
+    links = (f'<a href="{e(f.get("blocks_csv", ""))}">block table (CSV)</a> · '
+             f'<a href="{e(f.get("water_csv", ""))}">water use per zone (CSV)</a> · '
+             f'<a href="{e(f.get("json", ""))}">night record (JSON)</a>')
+    return f"""<!doctype html>
+<html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
+<title>{e(cfg.site.name)}: night of {n.date}</title><style>{PAGE_CSS}</style></head><body>
+<h1>{e(cfg.site.name)}: night of {n.date}</h1>
+<p>Sunset {d.time(n.sunset_utc)}, sunrise {d.time(n.sunrise_utc)} ({e(cfg.site.timezone)} local time).
+Temperatures in {d.symbol}; T10 and T90 are the temperatures that kill about 10 % and 90 % of the buds
+in 30 minutes at the block's stage.</p>
+{_loss(data)}
+<h2>Blocks, coldest first</h2>
+{_overview(data)}
+<p class="note">Data: {links}.</p>
+{blocks}
+<h2>Alerts, deliveries and acknowledgements</h2>
+{_alerts(data)}
+<h2>Sensor incidents</h2>
+{_events(data, data.health, "No sensor incidents recorded.", "incidents")}
+<h2>Stage changes</h2>
+{_events(data, data.stage_changes, "No stage change recorded for this night.", "stage-changes")}
+<h2>Cautions</h2><ul id="cautions">{cautions}</ul>
+<h2>Record</h2>
+<p id="record" class="note">{data.readings_count} readings from {d.datetime(n.sunset_utc - dt.timedelta(hours=6))}
+to {d.datetime(n.sunrise_utc + dt.timedelta(hours=6))}; SHA-256 of those readings:
+<code>{data.readings_sha256}</code>. SHA-256 of the night record ({e(f.get("json", ""))}):
+<code>{f.get("json_sha256", "")}</code>. Keep a copy off the farm computer: a changed record no longer
+matches its hash.</p>
+</body></html>
+"""
