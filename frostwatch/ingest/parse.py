@@ -9,7 +9,8 @@ from __future__ import annotations
 import datetime as dt
 import json
 import math
-from collections.abc import Collection
+from collections.abc import Collection, Sequence
+from dataclasses import dataclass, field
 
 from frostwatch.errors import UnitError
 from frostwatch.models import Reading, Rejection
@@ -158,18 +159,25 @@ def parse_mqtt_message(
     max_payload_bytes: int = 65536,
     max_future_s: float = 600.0,
     max_age_s: float | None = None,
+    mappings: Sequence[Mapping] = (),
 ) -> list[Reading | Rejection]:
     """A message in the native form of DESIGN.md 1.2 -> readings and/or rejections.
 
     `{prefix}/{station}/{quantity}` with a bare number (time = receipt) or
     `{"time": ..., "value": ..., "unit": ...}`; `{prefix}/{station}` with several quantities.
-    Times more than `max_future_s` ahead of receipt, or older than `max_age_s`, are rejected.
+    A topic matched by one of `mappings` (the config's [[mappings]]) is read with that mapping
+    instead. Times more than `max_future_s` ahead of receipt, or older than `max_age_s`, are
+    rejected.
     """
     source = f"mqtt:{topic}"
     raw = payload[:200].decode("utf-8", "replace")
+    if len(payload) > max_payload_bytes:
+        return [Rejection(source, None, f"payload of {len(payload)} bytes exceeds the limit of {max_payload_bytes}", raw)]
+    for m in mappings:
+        station = m.station_for(topic)
+        if station is not None:
+            return _parse_mapped(m, station, topic, payload, received_utc, known_stations, max_future_s, max_age_s)
     try:
-        if len(payload) > max_payload_bytes:
-            raise BadValue(f"payload of {len(payload)} bytes exceeds the limit of {max_payload_bytes}")
         parts = topic.split("/")
         pre = prefix.strip("/").split("/")
         if parts[: len(pre)] != pre or len(parts) not in (len(pre) + 1, len(pre) + 2):
@@ -208,24 +216,147 @@ def parse_mqtt_message(
     except BadValue as exc:
         return [Rejection(source, None, str(exc), raw)]
 
+    return _readings(items, station, source, raw, received_utc, max_future_s, max_age_s)
+
+
+def _check_time(t: dt.datetime, received_utc: dt.datetime, max_future_s: float, max_age_s: float | None) -> None:
+    ahead = (t - received_utc).total_seconds()
+    if ahead > max_future_s:
+        raise BadValue(f"time {t.isoformat()} is {ahead / 60:.0f} min ahead of the receipt time; check the sensor's clock")
+    if max_age_s is not None and -ahead > max_age_s:
+        raise BadValue(f"time {t.isoformat()} is older than the retention horizon")
+
+
+def _readings(
+    items: list[tuple[str, object, str | None, object]],
+    station: str,
+    source: str,
+    raw: str,
+    received_utc: dt.datetime,
+    max_future_s: float,
+    max_age_s: float | None,
+    time_format: str = "iso8601",
+) -> list[Reading | Rejection]:
     out: list[Reading | Rejection] = []
     for quantity, val, unit, time_obj in items:
         try:
             if quantity not in QUANTITIES:
                 raise BadValue(f"unknown quantity {quantity!r}; expected one of {', '.join(QUANTITIES)}")
-            if time_obj is None:
-                t = received_utc
-            elif isinstance(time_obj, str):
-                t = parse_time_utc(time_obj)
-            else:
-                raise BadValue(f"time {time_obj!r} is not an ISO 8601 string")
-            ahead = (t - received_utc).total_seconds()
-            if ahead > max_future_s:
-                raise BadValue(f"time {t.isoformat()} is {ahead / 60:.0f} min ahead of the receipt time; check the sensor's clock")
-            if max_age_s is not None and -ahead > max_age_s:
-                raise BadValue(f"time {t.isoformat()} is older than the retention horizon")
+            t = received_utc if time_obj is None else _time_of(time_obj, time_format)
+            _check_time(t, received_utc, max_future_s, max_age_s)
             v = check_value(quantity, _number(val, quantity), unit)
             out.append(Reading(t, station, quantity, v))
         except BadValue as exc:
             out.append(Rejection(source, None, f"{quantity}: {exc}", raw))
     return out
+
+
+# ---- other JSON layouts, mapped in the config ([[mappings]]) ---------------------------------
+
+TIME_FORMATS = ("iso8601", "unix_s", "unix_ms")
+
+
+@dataclass(frozen=True)
+class Mapping:
+    """How to read one foreign JSON layout: which topics, which fields hold which quantity.
+
+    `topic` is an MQTT topic filter in which one level may be `{station}` (that level names the
+    station; the security rule is that the id comes from the topic, which broker ACLs enforce,
+    never from the payload); otherwise `station` names it. `fields` maps a payload path
+    (dot-separated, e.g. "uplink.temp") to a quantity, `units` a path to its unit (canonical if
+    absent), `time_field` the path of the reading time (receipt time if None) read as
+    `time_format`. `station_map` renames device ids found in the topic to station ids.
+    """
+
+    topic: str
+    fields: dict[str, str]
+    units: dict[str, str] = field(default_factory=dict)
+    station: str | None = None
+    time_field: str | None = None
+    time_format: str = "iso8601"
+    station_map: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def subscription(self) -> str:
+        return "/".join("+" if lv == "{station}" else lv for lv in self.topic.split("/"))
+
+    def station_for(self, topic: str) -> str | None:
+        """The station id if `topic` matches this mapping, else None."""
+        pat, parts = self.topic.split("/"), topic.split("/")
+        station = self.station
+        for i, lv in enumerate(pat):
+            if lv == "#":
+                break
+            if i >= len(parts):
+                return None
+            if lv == "{station}":
+                station = self.station_map.get(parts[i], parts[i])
+            elif lv != "+" and lv != parts[i]:
+                return None
+        else:
+            if len(parts) != len(pat):
+                return None
+        return station
+
+
+def _path(doc: object, path: str) -> object:
+    cur = doc
+    for key in path.split("."):
+        if not isinstance(cur, dict) or key not in cur:
+            raise KeyError(path)
+        cur = cur[key]
+    return cur
+
+
+def _time_of(obj: object, time_format: str) -> dt.datetime:
+    if time_format == "iso8601":
+        if not isinstance(obj, str):
+            raise BadValue(f"time {obj!r} is not an ISO 8601 string")
+        return parse_time_utc(obj)
+    if isinstance(obj, bool) or not isinstance(obj, (int, float)) or not math.isfinite(obj):
+        raise BadValue(f"time {obj!r} is not a number of {'seconds' if time_format == 'unix_s' else 'milliseconds'} since 1970")
+    s = float(obj) / (1000.0 if time_format == "unix_ms" else 1.0)
+    try:
+        return dt.datetime.fromtimestamp(s, tz=dt.UTC)
+    except (OverflowError, OSError, ValueError):
+        raise BadValue(f"time {obj!r} is out of range") from None
+
+
+def _parse_mapped(
+    m: Mapping,
+    station: str,
+    topic: str,
+    payload: bytes,
+    received_utc: dt.datetime,
+    known_stations: Collection[str] | None,
+    max_future_s: float,
+    max_age_s: float | None,
+) -> list[Reading | Rejection]:
+    source = f"mqtt:{topic}"
+    raw = payload[:200].decode("utf-8", "replace")
+    try:
+        if not station:
+            raise BadValue(f"mapping {m.topic!r} names no station for topic {topic!r}")
+        if known_stations is not None and station not in known_stations:
+            raise BadValue(f"unknown station {station!r} (mapping {m.topic!r}); declare it under [[stations]] or in the mapping's station_map")
+        doc = _loads_strict(payload)
+        if not isinstance(doc, dict):
+            raise BadValue(f"payload must be a JSON object for mapping {m.topic!r}")
+        time_obj = None
+        if m.time_field:
+            try:
+                time_obj = _path(doc, m.time_field)
+            except KeyError:
+                raise BadValue(f"payload has no time field {m.time_field!r} (mapping {m.topic!r})") from None
+        items: list[tuple[str, object, str | None, object]] = []
+        for path, quantity in m.fields.items():
+            try:
+                val = _path(doc, path)
+            except KeyError:
+                continue  # a layout may carry only some of its fields in a message
+            items.append((quantity, val, m.units.get(path), time_obj))
+        if not items:
+            raise BadValue(f"payload holds none of the mapped fields {', '.join(m.fields)} (mapping {m.topic!r})")
+    except BadValue as exc:
+        return [Rejection(source, None, str(exc), raw)]
+    return _readings(items, station, source, raw, received_utc, max_future_s, max_age_s, m.time_format)

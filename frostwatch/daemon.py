@@ -1,0 +1,577 @@
+"""`frostwatch run`: the unattended daemon. Wiring only: the scheduler, the MQTT client, the
+outbox worker, signals and the systemd watchdog. Everything it decides is decided by the pure
+modules it calls (pipeline, health); it owns the clock.
+
+Threads: paho's network thread and the ingest writer (frostwatch.ingest.mqtt), APScheduler's
+worker pool (evaluations, daily jobs, health, heartbeat), the outbox worker, and the main thread,
+which supervises and pings the watchdog only while ingest, scheduler, outbox and store are healthy.
+
+Scheduling (reliability.md 4): one IntervalTrigger tick at the night cadence (no cron at a local
+hour, so both DST nights keep their cadence); by day the tick evaluates only every
+`day_interval_min`. Daily jobs (the dusk briefing at sunset + 2 h, the morning job at sunrise +
+1 h, housekeeping) are due at instants computed from the night and guarded by a per-night record
+in the store, so each runs once per night whatever the clock does. misfire_grace_time None,
+coalesce, max_instances 1; a failing job is recorded and never fatal.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import logging
+import os
+import signal
+import sys
+import threading
+import time
+import traceback
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+from frostwatch import health, sdnotify
+from frostwatch.config import Config
+from frostwatch.errors import ConfigError, UsageError
+from frostwatch.night import Night
+from frostwatch.pipeline import LOOKBACK, Evaluator
+from frostwatch.store import Store, to_ms
+
+log = logging.getLogger("frostwatch.daemon")
+
+HEARTBEAT_META = "daemon.heartbeat"
+BLOCKS_META = "daemon.blocks"
+DONE_META = "daemon.done."  # + job name -> the evening date it last ran for
+
+
+@dataclass(frozen=True)
+class DaemonSettings:
+    """The [daemon] section (all optional)."""
+
+    night_interval_min: float = 2.0
+    day_interval_min: float = 15.0
+    debounce_s: float = 30.0
+    report_dir: Path | None = None
+    batch_rows: int = 200
+    batch_delay_s: float = 2.0
+    queue_max: int = 5000
+    session_expiry_s: int = 7 * 24 * 3600
+    status_topic: str = ""
+    heartbeat_s: float = 15.0
+    silent_after_intervals: float = 3.0
+    battery_low_v: float = 3.3
+    risk_band_c: float = 3.0
+    learn_nights: int = 60
+    outbox_interval_s: float = 5.0
+    health_interval_s: float = 60.0
+    max_future_s: float = 600.0
+    broker_down_alert_s: float = 60.0
+
+
+_DAEMON_KEYS: dict[str, tuple[type | tuple, str]] = {
+    "night_interval_min": ((int, float), "minutes between evaluations from an hour before sunset to two after sunrise"),
+    "day_interval_min": ((int, float), "minutes between evaluations by day"),
+    "debounce_s": ((int, float), "seconds; at most one reading-triggered evaluation this often"),
+    "report_dir": ((str,), "a folder for the morning reports (relative to the config file)"),
+    "batch_rows": ((int,), "readings per commit at most"),
+    "batch_delay_s": ((int, float), "seconds a reading may wait for its commit (and its acknowledgement)"),
+    "queue_max": ((int,), "messages buffered unacknowledged at most"),
+    "session_expiry_s": ((int,), "seconds the broker keeps the session while the daemon is away"),
+    "status_topic": ((str,), "the retained status topic root"),
+    "heartbeat_s": ((int, float), "seconds between heartbeats"),
+    "silent_after_intervals": ((int, float), "a sensor silent this many intervals is reported"),
+    "battery_low_v": ((int, float), "volts; a battery below this is reported"),
+    "risk_band_c": ((int, float), "degC above the trigger that still counts as a risky night"),
+    "learn_nights": ((int,), "past nights learned at start-up"),
+    "outbox_interval_s": ((int, float), "seconds between outbox delivery rounds"),
+    "health_interval_s": ((int, float), "seconds between sensor-health checks"),
+    "max_future_s": ((int, float), "seconds a reading's time may be ahead of its receipt"),
+    "broker_down_alert_s": ((int, float), "seconds without the broker before a health event"),
+}
+
+
+def daemon_settings(cfg: Config) -> DaemonSettings:
+    """Validate [daemon]; raise ConfigError with `daemon.key: ...` lines."""
+    raw = cfg.raw.get("daemon", {}) or {}
+    problems: list[str] = []
+    vals: dict = {}
+    for k, v in raw.items():
+        if k not in _DAEMON_KEYS:
+            import difflib
+
+            close = difflib.get_close_matches(k, list(_DAEMON_KEYS), n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            problems.append(f"daemon.{k}: unknown key{hint}; known keys are {', '.join(_DAEMON_KEYS)}")
+            continue
+        types, what = _DAEMON_KEYS[k]
+        if isinstance(v, bool) or not isinstance(v, types):
+            problems.append(f"daemon.{k}: {v!r} is not valid; expected {what}")
+            continue
+        if isinstance(v, (int, float)) and not v > 0:
+            problems.append(f"daemon.{k}: {v!r} must be positive; expected {what}")
+            continue
+        vals[k] = v
+    if "night_interval_min" not in vals:
+        vals["night_interval_min"] = float(cfg.forecast.evaluation_interval_min)
+    if "silent_after_intervals" not in vals:
+        vals["silent_after_intervals"] = float(cfg.forecast.stale_after_intervals)
+    if vals.get("day_interval_min", 15.0) < vals["night_interval_min"]:
+        problems.append("daemon.day_interval_min: shorter than the night interval; expected at least night_interval_min")
+    base = cfg.path.parent if cfg.path else Path.cwd()
+    rd = Path(os.path.expanduser(vals.pop("report_dir"))) if "report_dir" in vals else cfg.storage.path.parent / "reports"
+    vals["report_dir"] = rd if rd.is_absolute() else (base / rd).resolve()
+    vals.setdefault("status_topic", f"{cfg.broker.prefix.strip('/')}/status")
+    seg = vals["status_topic"].strip("/").split("/")
+    pre = cfg.broker.prefix.strip("/").split("/")
+    if seg[: len(pre)] == pre and len(seg) > len(pre) and cfg.station(seg[len(pre)]) is not None:
+        problems.append(f"daemon.status_topic: {vals['status_topic']!r} clashes with station {seg[len(pre)]!r}; choose another")
+    if problems:
+        raise ConfigError(str(cfg.path or "<config>"), problems)
+    return DaemonSettings(**vals)
+
+
+def _utc_now() -> dt.datetime:
+    return dt.datetime.now(dt.UTC)
+
+
+class Core:
+    """What the daemon does at each moment, independent of threads and MQTT: evaluate, run the
+    daily jobs once per night, check sensor health. `clock` is injected (tests step it)."""
+
+    def __init__(self, cfg: Config, settings: DaemonSettings, store: Store, outbox, clock: Callable[[], dt.datetime] = _utc_now):
+        self.cfg = cfg
+        self.s = settings
+        self.store = store
+        self.outbox = outbox
+        self.clock = clock
+        self.evaluator = Evaluator(cfg)
+        self.eval_lock = threading.Lock()
+        self.last_eval_utc: dt.datetime | None = None
+        self.evaluations = 0
+        self.last_projection: dict[str, float | None] = {}
+        self.health_active: dict[str, health.Problem] = {}
+        self.rules = health.HealthRules(
+            silent_after_intervals=settings.silent_after_intervals,
+            battery_low_v=settings.battery_low_v,
+            risk_band_c=settings.risk_band_c,
+        )
+        self.publish: Callable[[str, object], None] = lambda topic, doc: None
+        self.job_runs: dict[str, int] = {}
+
+    # -- evaluations ---------------------------------------------------------------------------
+    def in_watch_window(self, now: dt.datetime) -> bool:
+        return self.evaluator.night_at(now).contains(now)
+
+    def tick(self, now: dt.datetime | None = None) -> None:
+        """The interval job: evaluate if due, then run any daily job that is due."""
+        now = now or self.clock()
+        due = self.last_eval_utc is None or self.in_watch_window(now) or (
+            (now - self.last_eval_utc).total_seconds() >= self.s.day_interval_min * 60.0 - 1.0
+        )
+        if due:
+            self.evaluate(now, "scheduled")
+        self.daily(now)
+
+    def evaluate(self, now: dt.datetime | None = None, reason: str = "scheduled"):
+        now = now or self.clock()
+        with self.eval_lock:
+            night = self.evaluator.night_at(now)
+            series = self.store.readings_window(night.sunset_utc - LOOKBACK, now)
+            ev = self.evaluator.evaluate(now, series)
+            self.store.add_projections(ev.projections)
+            if ev.alerts:
+                self.outbox.submit(ev.alerts, now)
+            self.last_eval_utc = now
+            self.evaluations += 1
+            blocks = {}
+            for p, a in zip(ev.projections, ev.advice, strict=True):
+                st = self.evaluator.states.get(p.block)
+                self.last_projection[p.block] = p.predicted_min_c
+                blocks[p.block] = {
+                    "time": _iso(now), "block": p.block, "reason": reason,
+                    "level": st.level if st else "all-clear",
+                    "station": p.station, "air_temp_c": p.air_temp_c, "wet_bulb_c": _r(p.wet_bulb_c),
+                    "dew_point_c": _r(p.dew_point_c), "predicted_min_c": _r(p.predicted_min_c),
+                    "predicted_min_at": _iso(p.predicted_min_at_utc), "band_c": p.band_c,
+                    "t10_crossing_at": _iso(p.crossings_utc.get("t10")), "regime": p.regime,
+                    "risk": a.risk, "action": a.action, "reasons": list(a.reasons),
+                    "start_by": _iso(a.start_by_utc), "cautions": list(a.cautions), "notes": list(p.notes),
+                }
+            self.store.set_meta(BLOCKS_META, json.dumps(blocks))
+        for b, doc in blocks.items():
+            self.publish(f"blocks/{b}", doc)
+        log.info("evaluated %d blocks (%s)%s", len(blocks), reason, f", {len(ev.alerts)} alerts" if ev.alerts else "")
+        return ev
+
+    def wants_prompt_evaluation(self, readings, now: dt.datetime) -> bool:
+        """A new crop-height air temperature near a block's trigger, in the watch window, may
+        change that block's state: evaluate soon (the caller debounces)."""
+        if not self.in_watch_window(now):
+            return False
+        for r in readings:
+            if r.quantity not in ("air_temperature", "wet_bulb_temperature"):
+                continue
+            st = self.cfg.station(r.station)
+            if st is None or st.role != "crop" or st.block is None:
+                continue
+            b = self.cfg.block(st.block)
+            if r.value <= b.kill_10pct_c + b.margin_c + self.s.risk_band_c:
+                return True
+        return False
+
+    # -- daily jobs ----------------------------------------------------------------------------
+    def daily_due(self, now: dt.datetime) -> list[tuple[str, Night]]:
+        night = self.evaluator.night_at(now)
+        out = []
+        jobs = {
+            "dusk": night.dusk_utc,
+            "morning": night.sunrise_utc + dt.timedelta(hours=1),
+            "housekeeping": night.sunrise_utc + dt.timedelta(hours=2),
+        }
+        # the morning and housekeeping jobs belong to the night that is ending: before local
+        # noon night_at(now) is that night
+        for name, at in jobs.items():
+            if now >= at and self.store.get_meta(DONE_META + name) != night.date.isoformat():
+                out.append((name, night))
+        return out
+
+    def daily(self, now: dt.datetime) -> None:
+        for name, night in self.daily_due(now):
+            try:
+                getattr(self, f"job_{name}")(now, night)
+            finally:
+                # recorded even when it failed, so a broken job is not retried every tick;
+                # the failure itself is recorded as an event by the caller's guard
+                self.store.set_meta(DONE_META + name, night.date.isoformat())
+                self.job_runs[name] = self.job_runs.get(name, 0) + 1
+
+    def job_dusk(self, now: dt.datetime, night: Night) -> None:
+        """The dusk briefing: an evaluation at sunset + 2 h gives each block's outlook (the alert
+        rules issue it once a night)."""
+        self.evaluate(now, "dusk briefing")
+
+    def job_morning(self, now: dt.datetime, night: Night) -> None:
+        """Learn the night just ended (walk-forward calibration), then write its report."""
+        series = self.store.readings_window(night.sunset_utc - LOOKBACK, night.sunrise_utc + dt.timedelta(hours=1))
+        with self.eval_lock:
+            self.evaluator.learn_night(night, series)
+        from frostwatch.reports.night import write_night_report
+
+        try:
+            path = write_night_report(self.cfg, self.store, night.date, self.s.report_dir)
+            log.info("night report for %s written: %s", night.date, path)
+            self.store.add_event(now, "daemon", "report", str(path))
+        except UsageError as exc:
+            log.info("no night report for %s: %s", night.date, exc)
+
+    def job_housekeeping(self, now: dt.datetime, night: Night) -> None:
+        """Retention (readings and rejections older than storage.retention_days) and a WAL
+        checkpoint."""
+        cut = to_ms(now - dt.timedelta(days=self.cfg.storage.retention_days))
+        removed = 0
+        while True:  # bounded batches keep each write transaction short
+            with self.store.transaction() as c:
+                n = c.execute(
+                    "DELETE FROM readings WHERE (time_utc_ms, station, quantity) IN "
+                    "(SELECT time_utc_ms, station, quantity FROM readings WHERE time_utc_ms < ? LIMIT 5000)",
+                    (cut,),
+                ).rowcount
+                c.execute("DELETE FROM rejections WHERE received_utc_ms < ?", (cut,))
+            removed += n
+            if n < 5000:
+                break
+        with self.store.lock:
+            self.store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+        log.info("housekeeping: %d old readings removed, WAL checkpointed", removed)
+
+    def learn_history(self, now: dt.datetime) -> int:
+        """Learn the past nights in the store, oldest first, as replay does (walk-forward)."""
+        n = 0
+        today = self.evaluator.night_at(now).date
+        for k in range(self.s.learn_nights, 0, -1):
+            night = self.evaluator.night(today - dt.timedelta(days=k))
+            end = night.sunrise_utc + dt.timedelta(hours=1)
+            if end > now:
+                continue
+            series = self.store.readings_window(night.sunset_utc - LOOKBACK, end)
+            if series:
+                with self.eval_lock:
+                    n += len(self.evaluator.learn_night(night, series))
+        # tonight's night has already ended if we start after its morning: learn it too
+        night = self.evaluator.night(today)
+        if now >= night.sunrise_utc + dt.timedelta(hours=1):
+            series = self.store.readings_window(night.sunset_utc - LOOKBACK, night.sunrise_utc + dt.timedelta(hours=1))
+            if series:
+                with self.eval_lock:
+                    n += len(self.evaluator.learn_night(night, series))
+        return n
+
+    # -- health --------------------------------------------------------------------------------
+    def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = ()) -> list[health.Problem]:
+        series = self.store.readings_window(now - dt.timedelta(hours=6), now)
+        window = self.in_watch_window(now)
+        risky = {
+            b.id for b in self.cfg.blocks
+            if health.risky(self.last_projection.get(b.id), b.kill_10pct_c + b.margin_c, window, self.rules)
+        }
+        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, risky, self.rules)
+        report = health.HealthReport(report.problems + tuple(extra), report.healthy_stations)
+        raised, cleared, self.health_active = health.transitions(self.health_active, report)
+        for p in raised:
+            self.outbox.submit_health(p.subject, p.detail, now, urgent=p.urgent)
+        for p in cleared:
+            self.outbox.submit_health(p.subject, f"recovered ({p.detail.split(';')[0]} no longer)", now)
+        return raised
+
+
+def _r(x: float | None) -> float | None:
+    return None if x is None else round(x, 2)
+
+
+def _iso(t: dt.datetime | None) -> str | None:
+    return None if t is None else t.isoformat().replace("+00:00", "Z")
+
+
+# ---- the process -----------------------------------------------------------------------------
+
+
+def build_scheduler(cfg: Config, s: DaemonSettings, jobs: dict[str, Callable[[], None]], start_utc: dt.datetime):
+    """A BackgroundScheduler with an explicit time zone and IntervalTriggers only (DST-proof).
+    `jobs` maps "tick", "heartbeat" and "health" to callables."""
+    from apscheduler.schedulers.background import BackgroundScheduler
+    from apscheduler.triggers.interval import IntervalTrigger
+
+    tz = cfg.site.tz
+    sched = BackgroundScheduler(
+        timezone=tz,
+        job_defaults={"misfire_grace_time": None, "coalesce": True, "max_instances": 1},
+        executors={"default": {"type": "threadpool", "max_workers": 4}},
+    )
+    step = s.night_interval_min * 60.0
+    first_tick = dt.datetime.fromtimestamp((int(start_utc.timestamp() // step) + 1) * step, tz=dt.UTC)
+    sched.add_job(jobs["tick"], IntervalTrigger(seconds=step, start_date=first_tick, timezone=tz), id="tick", replace_existing=True)
+    sched.add_job(jobs["heartbeat"], IntervalTrigger(seconds=s.heartbeat_s, timezone=tz), id="heartbeat", replace_existing=True)
+    sched.add_job(jobs["health"], IntervalTrigger(seconds=s.health_interval_s, timezone=tz), id="health", replace_existing=True)
+    return sched
+
+
+class Daemon:
+    def __init__(self, cfg: Config, clock: Callable[[], dt.datetime] = _utc_now):
+        from frostwatch.alerts.outbox import Outbox
+        from frostwatch.ingest.mqtt import IngestSettings, MqttIngest, mappings_from_config
+
+        self.cfg = cfg
+        self.s = daemon_settings(cfg)
+        mappings = mappings_from_config(cfg)
+        self.clock = clock
+        self.store = Store.open(cfg.storage.path)
+        self.outbox = Outbox(self.store, cfg)
+        self.core = Core(cfg, self.s, self.store, self.outbox, clock)
+        self.ingest = MqttIngest(
+            cfg, self.store,
+            IngestSettings(
+                batch_rows=self.s.batch_rows, batch_delay_s=self.s.batch_delay_s, queue_max=self.s.queue_max,
+                session_expiry_s=self.s.session_expiry_s, status_topic=self.s.status_topic,
+                heartbeat_s=self.s.heartbeat_s, max_future_s=self.s.max_future_s,
+            ),
+            mappings, on_committed=self._on_committed, clock=clock,
+        )
+        self.core.publish = self.ingest.publish_json
+        self.stop_event = threading.Event()
+        self.started_utc = clock()
+        self.last_beat = time.monotonic()
+        self.last_outbox = time.monotonic()
+        self.store_ok = True
+        self._wall_mono = (time.time(), time.monotonic())
+        self._soon_lock = threading.Lock()
+        self._last_prompt = 0.0
+        self.sched = None
+
+    # -- jobs (each guarded: a failure is recorded, never fatal) --------------------------------
+    def _guard(self, name: str, fn: Callable[[], None]) -> Callable[[], None]:
+        def run() -> None:
+            try:
+                fn()
+            except Exception as exc:  # noqa: BLE001
+                log.exception("job %s failed (recorded; the daemon carries on)", name)
+                try:
+                    self.store.add_event(self.clock(), "daemon", f"job {name} failed", f"{type(exc).__name__}: {exc}")
+                except Exception:  # noqa: BLE001
+                    log.exception("could not record the failure of job %s", name)
+
+        run.__name__ = name
+        return run
+
+    def _heartbeat(self) -> None:
+        self.last_beat = time.monotonic()
+        wall, mono = time.time(), time.monotonic()
+        w0, m0 = self._wall_mono
+        jump = (wall - w0) - (mono - m0)
+        self._wall_mono = (wall, mono)
+        if abs(jump) > 30:
+            log.warning("the wall clock jumped by %+.0f s", jump)
+            self.outbox.submit_health("clock", f"the system clock jumped by {jump:+.0f} s; check time sync (NTP)", self.clock())
+            if self.sched:
+                self.sched.wakeup()
+        self.ingest.heartbeat()
+        doc = self.heartbeat_doc()
+        try:
+            self.store.set_meta(HEARTBEAT_META, json.dumps(doc))
+            self.store_ok = True
+        except Exception:  # noqa: BLE001
+            self.store_ok = False
+            log.exception("the store cannot be written")
+        self.ingest.publish_json("daemon", doc)
+        sdnotify.notify(f"STATUS=readings {self.ingest.stats.stored}, rejected {self.ingest.stats.rejected}, "
+                        f"broker {'up' if self.ingest.connected else 'DOWN'}, last evaluation {_iso(self.core.last_eval_utc)}")
+
+    def heartbeat_doc(self) -> dict:
+        st = self.ingest.stats
+        return {
+            "time": _iso(self.clock()), "pid": os.getpid(), "started": _iso(self.started_utc),
+            "broker_connected": self.ingest.connected, "broker_down_s": round(self.ingest.broker_down_s(), 1),
+            "queue": self.ingest.q.qsize(), "ingest": st.as_dict(),
+            "evaluations": self.core.evaluations, "last_evaluation": _iso(self.core.last_eval_utc),
+            "health_problems": sorted(self.core.health_active),
+            "problems": self.problems(),
+        }
+
+    def _health(self) -> None:
+        extra = []
+        down = self.ingest.broker_down_s()
+        if down >= self.s.broker_down_alert_s:
+            extra.append(health.Problem("broker:down", "broker", f"no connection to the MQTT broker at {self.cfg.broker.host}:{self.cfg.broker.port} for {down:.0f} s", urgent=self.core.in_watch_window(self.clock())))
+        self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra)
+
+    def _on_committed(self, readings) -> None:
+        now = self.clock()
+        if not self.core.wants_prompt_evaluation(readings, now):
+            return
+        with self._soon_lock:
+            mono = time.monotonic()
+            if mono - self._last_prompt < self.s.debounce_s or self.sched is None:
+                return
+            self._last_prompt = mono
+        from apscheduler.triggers.date import DateTrigger
+
+        self.sched.add_job(
+            self._guard("evaluate-soon", lambda: self.core.evaluate(self.clock(), "new reading")),
+            DateTrigger(run_date=dt.datetime.now(dt.UTC)), id="evaluate-soon", replace_existing=True,
+        )
+
+    def _outbox_main(self) -> None:
+        while not self.stop_event.is_set():
+            self.last_outbox = time.monotonic()
+            try:
+                self.outbox.deliver_due(self.clock())
+            except Exception:  # noqa: BLE001
+                log.exception("outbox delivery round failed (carrying on)")
+            self.stop_event.wait(self.s.outbox_interval_s)
+
+    # -- supervision ---------------------------------------------------------------------------
+    def problems(self) -> list[str]:
+        out = list(self.ingest.problems())
+        now = time.monotonic()
+        if now - self.last_beat > 3 * self.s.heartbeat_s + 10:
+            out.append(f"the scheduler heartbeat is {now - self.last_beat:.0f} s old")
+        if now - self.last_outbox > 3 * self.s.outbox_interval_s + 60:
+            out.append(f"the outbox worker has not looped for {now - self.last_outbox:.0f} s")
+        if not self.store_ok:
+            out.append("the store cannot be written")
+        return out
+
+    def _signals(self) -> None:
+        signal.signal(signal.SIGTERM, lambda *_: self.stop_event.set())
+        signal.signal(signal.SIGINT, lambda *_: self.stop_event.set())
+        signal.signal(signal.SIGUSR1, lambda *_: dump_stacks())
+
+    def run(self) -> int:
+        self._signals()
+        now = self.clock()
+        learned = self.core.learn_history(now)
+        log.info("frostwatch daemon starting: store %s, %d past night records learned", self.store.path, learned)
+        self.store.add_event(now, "daemon", "start", f"pid {os.getpid()}")
+        self.ingest.start()
+        self.sched = build_scheduler(self.cfg, self.s, {
+            "tick": self._guard("tick", self.core.tick),
+            "heartbeat": self._guard("heartbeat", self._heartbeat),
+            "health": self._guard("health", self._health),
+        }, now)
+        from apscheduler.events import EVENT_JOB_ERROR, EVENT_JOB_MAX_INSTANCES, EVENT_JOB_MISSED
+
+        self.sched.add_listener(
+            lambda e: log.warning("scheduler: job %s %s", e.job_id, {EVENT_JOB_MISSED: "missed", EVENT_JOB_MAX_INSTANCES: "skipped (still running)"}.get(e.code, "failed")),
+            EVENT_JOB_MISSED | EVENT_JOB_MAX_INSTANCES | EVENT_JOB_ERROR,
+        )
+        self.sched.start()
+        self.sched.add_job(self._guard("tick", self.core.tick), id="first-evaluation")
+        outbox = threading.Thread(target=self._outbox_main, name="frostwatch-outbox", daemon=True)
+        outbox.start()
+        self._heartbeat()
+        sdnotify.notify("READY=1")
+        wd = sdnotify.watchdog_interval_s()
+        last_ping = 0.0
+        reported: tuple = ()
+        while not self.stop_event.wait(1.0):
+            probs = self.problems()
+            if tuple(probs) != reported:
+                for p in probs:
+                    log.error("unhealthy: %s", p)
+                reported = tuple(probs)
+            if wd and not probs and time.monotonic() - last_ping >= wd:
+                sdnotify.notify("WATCHDOG=1")
+                last_ping = time.monotonic()
+        return self.shutdown()
+
+    def shutdown(self) -> int:
+        sdnotify.notify("STOPPING=1")
+        log.info("stopping: flushing readings, acknowledging, closing")
+        if self.sched:
+            try:
+                self.sched.shutdown(wait=True)
+            except Exception:  # noqa: BLE001
+                log.exception("scheduler shutdown")
+        self.ingest.stop()
+        try:
+            self.store.add_event(self.clock(), "daemon", "stop", f"stored {self.ingest.stats.stored} readings this run")
+            with self.store.lock:
+                self.store.conn.execute("PRAGMA wal_checkpoint(PASSIVE)")
+        except Exception:  # noqa: BLE001
+            log.exception("final store write")
+        self.store.close()
+        log.info("stopped")
+        return 0
+
+
+def dump_stacks() -> None:
+    """SIGUSR1: every thread's stack to the log."""
+    names = {t.ident: t.name for t in threading.enumerate()}
+    for ident, frame in sys._current_frames().items():
+        log.warning("thread %s (%s):\n%s", names.get(ident, "?"), ident, "".join(traceback.format_stack(frame)))
+
+
+class _JournalFormatter(logging.Formatter):
+    """A `<N>` syslog priority prefix when stderr goes to journald (reliability.md 5.2)."""
+
+    PRI = {logging.DEBUG: 7, logging.INFO: 6, logging.WARNING: 4, logging.ERROR: 3, logging.CRITICAL: 2}
+
+    def __init__(self, journal: bool):
+        super().__init__("%(levelname)s %(name)s: %(message)s" if journal else "%(asctime)s %(levelname)s %(name)s: %(message)s")
+        self.journal = journal
+
+    def format(self, record: logging.LogRecord) -> str:
+        s = super().format(record)
+        return f"<{self.PRI.get(record.levelno, 6)}>{s}" if self.journal else s
+
+
+def setup_logging() -> None:
+    h = logging.StreamHandler(sys.stderr)
+    h.setFormatter(_JournalFormatter(bool(os.environ.get("JOURNAL_STREAM"))))
+    root = logging.getLogger()
+    root.handlers[:] = [h]
+    root.setLevel(os.environ.get("FROSTWATCH_LOG_LEVEL", "INFO").upper())
+    logging.getLogger("apscheduler").setLevel(logging.WARNING)
+
+
+def run(cfg: Config) -> int:
+    setup_logging()
+    return Daemon(cfg).run()

@@ -1,0 +1,127 @@
+"""Sensor health rules (pure): silent, stuck, out of range, low battery; and which blocks are left
+with no healthy crop-height sensor on a risky night (urgent).
+
+No clock and no I/O: `now_s` and the readings window are passed in. The silence and stuck rules
+are the forecast's own (`forecast.usual_interval_s`, STUCK_*), so a sensor the projection leaves
+out is exactly a sensor reported here. Thresholds are common practice, not from a standard:
+three missed intervals for silence (reliability.md 6.3 "no data"); a 3.3 V default battery floor
+suits the usual single-cell lithium or 3 x AA sensor nodes (from memory; set yours in the config).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from frostwatch.config import Config, Station
+from frostwatch.forecast import STUCK_MIN_READINGS, STUCK_WINDOW_S, Series, usual_interval_s
+
+
+@dataclass(frozen=True)
+class HealthRules:
+    silent_after_intervals: float = 3.0
+    battery_low_v: float = 3.3
+    out_of_range_per_hour: int = 3  # this many implausible values in an hour make a faulty sensor
+    risk_band_c: float = 3.0  # a night is risky when the projection comes within this of the trigger
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One health problem; `key` identifies it so that it is raised once and cleared once."""
+
+    key: str
+    subject: str
+    detail: str
+    urgent: bool = False
+
+
+@dataclass(frozen=True)
+class HealthReport:
+    problems: tuple[Problem, ...] = ()
+    healthy_stations: frozenset[str] = field(default_factory=frozenset)
+
+
+def station_problems(
+    st: Station, series: Series, now_s: float, out_of_range_count: int, rules: HealthRules
+) -> list[Problem]:
+    """What is wrong with one station now."""
+    out: list[Problem] = []
+    times = [t for (sid, _q), (t, _v) in series.items() if sid == st.id and len(t)]
+    air = series.get((st.id, "air_temperature"))
+    ref_t = air[0] if air is not None and len(air[0]) else (max(times, key=lambda t: t[-1]) if times else None)
+    if ref_t is None:
+        out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"))
+    else:
+        upto = ref_t[ref_t <= now_s]
+        interval = usual_interval_s(upto, st.interval_s)
+        age = now_s - float(upto[-1]) if len(upto) else float("inf")
+        if age > rules.silent_after_intervals * interval:
+            out.append(Problem(
+                f"{st.id}:silent", st.id,
+                f"silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min, "
+                f"limit {rules.silent_after_intervals:g} intervals)",
+            ))
+    if air is not None and len(air[0]):
+        t, v = air
+        recent = v[(t >= now_s - STUCK_WINDOW_S) & (t <= now_s)]
+        if len(recent) >= STUCK_MIN_READINGS and np.all(recent == recent[0]):
+            out.append(Problem(f"{st.id}:stuck", st.id, f"air temperature stuck at {recent[0]:g} degC for an hour"))
+    if out_of_range_count >= rules.out_of_range_per_hour:
+        out.append(Problem(
+            f"{st.id}:range", st.id, f"{out_of_range_count} implausible values in the last hour (kept aside); check the sensor",
+        ))
+    batt = series.get((st.id, "battery_voltage"))
+    if batt is not None and len(batt[0]):
+        t, v = batt
+        upto = v[t <= now_s]
+        if len(upto) and float(upto[-1]) < rules.battery_low_v:
+            out.append(Problem(f"{st.id}:battery", st.id, f"battery low: {float(upto[-1]):.2f} V (limit {rules.battery_low_v:g} V)"))
+    return out
+
+
+def assess(
+    cfg: Config,
+    series: Series,
+    now_s: float,
+    out_of_range: dict[str, int],
+    risky_blocks: set[str],
+    rules: HealthRules,
+) -> HealthReport:
+    """Every station's problems, plus one urgent problem per risky block with no healthy
+    crop-height sensor (the block is then not monitored at all)."""
+    problems: list[Problem] = []
+    healthy: set[str] = set()
+    for st in cfg.stations:
+        ps = station_problems(st, series, now_s, out_of_range.get(st.id, 0), rules)
+        problems.extend(ps)
+        if not any(p.key.endswith((":silent", ":stuck", ":range")) for p in ps):
+            healthy.add(st.id)
+    for b in cfg.blocks:
+        crop = [s.id for s in cfg.stations_of(b.id, "crop")]
+        if not any(s in healthy for s in crop):
+            urgent = b.id in risky_blocks
+            problems.append(Problem(
+                f"block:{b.id}:unmonitored", f"block {b.id}",
+                f"no healthy crop-height sensor ({', '.join(crop) or 'none declared'})"
+                + ("; frost is possible tonight: check the block by hand" if urgent else ""),
+                urgent=urgent,
+            ))
+    return HealthReport(tuple(problems), frozenset(healthy))
+
+
+def risky(predicted_min_c: float | None, trigger_c: float, in_watch_window: bool, rules: HealthRules) -> bool:
+    """A risky night for a block: in the watch window and either no projection (unknown is
+    treated as risky) or a projected minimum within `risk_band_c` of the trigger."""
+    if not in_watch_window:
+        return False
+    return predicted_min_c is None or predicted_min_c <= trigger_c + rules.risk_band_c
+
+
+def transitions(active: dict[str, Problem], report: HealthReport) -> tuple[list[Problem], list[Problem], dict[str, Problem]]:
+    """(newly raised, cleared, new active set): each problem is announced once and cleared once;
+    a problem that turns urgent is raised again."""
+    now = {p.key: p for p in report.problems}
+    raised = [p for k, p in now.items() if k not in active or (p.urgent and not active[k].urgent)]
+    cleared = [p for k, p in active.items() if k not in now]
+    return raised, cleared, now

@@ -1,0 +1,505 @@
+"""MQTT ingest: the only module that imports paho. Readings are acknowledged to the broker only
+after they are committed to SQLite.
+
+Design (reliability.md findings 1-6 and section 1):
+
+- paho 2.x with CallbackAPIVersion.VERSION2, MQTT 5, a fixed client id, `clean_start=False` and a
+  Session Expiry Interval, so readings published while the daemon is down are kept by the broker
+  and arrive when it returns (paho's default, clean start on the first connect, would drop them).
+- `manual_ack=True`: `on_message` only puts the message on a bounded queue; one writer thread
+  parses a batch, commits it (readings and rejections) and then sends each PUBACK. A kill -9 at
+  any point loses nothing: unacknowledged messages are redelivered and duplicates are stored once.
+- Mosquitto 2.0.11 does not enforce its inflight window (finding 6), so the queue is bounded and
+  `on_message` blocks when it is full (TCP back-pressure), never drops.
+- Every callback is guarded: an exception in a paho callback silently kills its network thread.
+- Liveness is judged from message flow (an echo of our own heartbeat), never from is_connected().
+- `connect_async` + `loop_start` with a bounded reconnect backoff (1..3 s): the daemon may start
+  before the broker and is back within seconds of the broker's return.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import logging
+import os
+import queue
+import stat
+import threading
+import time
+from collections import deque
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import paho.mqtt.client as paho
+from paho.mqtt.packettypes import PacketTypes
+from paho.mqtt.properties import Properties
+from paho.mqtt.subscribeoptions import SubscribeOptions
+
+from frostwatch.config import Config
+from frostwatch.errors import ConfigError, StoreError, UsageError
+from frostwatch.ingest.parse import TIME_FORMATS, Mapping, parse_mqtt_message
+from frostwatch.models import Reading, Rejection
+from frostwatch.store import Store
+from frostwatch.units import QUANTITIES
+
+log = logging.getLogger("frostwatch.mqtt")
+
+TLS_KEYS = ("ca_file", "cert_file", "key_file", "ciphers")
+MAPPING_KEYS = ("topic", "station", "fields", "units", "time_field", "time_format", "station_map")
+
+
+# ---- config: [[mappings]] and [broker] extras ------------------------------------------------
+
+
+def mappings_from_config(cfg: Config) -> tuple[Mapping, ...]:
+    """Validate the config's [[mappings]]; raise ConfigError with `mappings[i].key: ...` lines."""
+    raw = cfg.raw.get("mappings", [])
+    problems: list[str] = []
+    out: list[Mapping] = []
+    if not isinstance(raw, list):
+        raise ConfigError(str(cfg.path or "<config>"), ["mappings: expected an array of tables ([[mappings]])"])
+    for i, m in enumerate(raw):
+        w = f"mappings[{i}]"
+        if not isinstance(m, dict):
+            problems.append(f"{w}: expected a table")
+            continue
+        n0 = len(problems)
+        for k in m:
+            if k not in MAPPING_KEYS:
+                problems.append(f"{w}.{k}: unknown key; known keys are {', '.join(MAPPING_KEYS)}")
+        topic = m.get("topic")
+        if not isinstance(topic, str) or not topic.strip("/"):
+            problems.append(f"{w}.topic: missing or empty; expected a topic filter such as \"lora/{{station}}/up\"")
+            topic = ""
+        levels = topic.split("/")
+        if any(("{" in lv or "}" in lv) and lv != "{station}" for lv in levels) or levels.count("{station}") > 1:
+            problems.append(f"{w}.topic: {topic!r}; only one whole level may be {{station}}")
+        if "#" in levels[:-1] or any("#" in lv and lv != "#" for lv in levels) or any("+" in lv and lv != "+" for lv in levels):
+            problems.append(f"{w}.topic: {topic!r}; '+' and '#' must fill a whole level, '#' only the last")
+        station = m.get("station")
+        if station is not None and not isinstance(station, str):
+            problems.append(f"{w}.station: {station!r}; expected a station id")
+        if "{station}" not in levels and not station:
+            problems.append(f"{w}.station: missing; the topic has no {{station}} level, so name the station here")
+        fields = m.get("fields")
+        if not isinstance(fields, dict) or not fields:
+            problems.append(f"{w}.fields: missing; expected a table of payload field = quantity, e.g. {{ temp = \"air_temperature\" }}")
+            fields = {}
+        for path, q in fields.items():
+            if q not in QUANTITIES:
+                problems.append(f"{w}.fields.{path}: {q!r} is not a quantity; expected one of {', '.join(QUANTITIES)}")
+        units = m.get("units", {})
+        if not isinstance(units, dict):
+            problems.append(f"{w}.units: expected a table of payload field = unit")
+            units = {}
+        for path, u in units.items():
+            if path not in fields:
+                problems.append(f"{w}.units.{path}: not one of this mapping's fields ({', '.join(fields)})")
+            elif not isinstance(u, str):
+                problems.append(f"{w}.units.{path}: {u!r}; expected a unit such as \"degF\"")
+            else:
+                from frostwatch.units import to_canonical
+
+                try:
+                    to_canonical(fields[path], 0.0 if fields[path] != "air_pressure" else 1000.0, u)
+                except Exception as exc:  # noqa: BLE001 - any unit problem is a config problem here
+                    problems.append(f"{w}.units.{path}: {exc}")
+        tf = m.get("time_field")
+        if tf is not None and not isinstance(tf, str):
+            problems.append(f"{w}.time_field: {tf!r}; expected a payload field name")
+        fmt = m.get("time_format", "iso8601")
+        if fmt not in TIME_FORMATS:
+            problems.append(f"{w}.time_format: {fmt!r}; expected one of {', '.join(TIME_FORMATS)}")
+        smap = m.get("station_map", {})
+        if not isinstance(smap, dict) or not all(isinstance(v, str) for v in smap.values()):
+            problems.append(f"{w}.station_map: expected a table of device id = station id")
+            smap = {}
+        known = {s.id for s in cfg.stations}
+        for dev, sid in smap.items():
+            if sid not in known:
+                problems.append(f"{w}.station_map.{dev}: {sid!r} is not a declared station")
+        if isinstance(station, str) and station and station not in known:
+            problems.append(f"{w}.station: {station!r} is not a declared station")
+        if len(problems) == n0:
+            out.append(Mapping(topic, dict(fields), dict(units), station, tf, fmt, dict(smap)))
+    bt = cfg.broker.tls or {}
+    for k, v in bt.items():
+        if k not in TLS_KEYS:
+            problems.append(f"broker.tls.{k}: unknown key; known keys are {', '.join(TLS_KEYS)}")
+        elif not isinstance(v, str):
+            problems.append(f"broker.tls.{k}: {v!r}; expected a file path or cipher string")
+    if problems:
+        raise ConfigError(str(cfg.path or "<config>"), problems)
+    return tuple(out)
+
+
+def read_secret(path_text: str, base: Path | None) -> str:
+    """A secret from a file: the systemd credential of the same name when running under systemd
+    (LoadCredential=, reliability.md 6.5), else the file itself, which must not be readable by
+    group or others. Never logged."""
+    p = Path(os.path.expanduser(path_text))
+    if not p.is_absolute() and base is not None:
+        p = base / p
+    cred_dir = os.environ.get("CREDENTIALS_DIRECTORY")
+    if cred_dir and (Path(cred_dir) / p.name).is_file():
+        p = Path(cred_dir) / p.name
+    else:
+        try:
+            mode = p.stat().st_mode
+        except OSError as exc:
+            raise UsageError(f"broker.password_file: cannot read {p}: {exc.strerror or exc}") from None
+        if mode & (stat.S_IRWXG | stat.S_IRWXO):
+            raise UsageError(f"broker.password_file: {p} is readable by group or others; chmod 600 it")
+    try:
+        return p.read_text(encoding="utf-8").strip()
+    except OSError as exc:
+        raise UsageError(f"broker.password_file: cannot read {p}: {exc.strerror or exc}") from None
+
+
+# ---- the client ------------------------------------------------------------------------------
+
+
+@dataclass
+class IngestSettings:
+    batch_rows: int = 200
+    batch_delay_s: float = 2.0
+    queue_max: int = 5000
+    session_expiry_s: int = 7 * 24 * 3600
+    status_topic: str = "frostwatch/status"
+    heartbeat_s: float = 15.0
+    max_future_s: float = 600.0
+    reconnect_max_s: float = 3.0
+    stall_idle_s: float = 0.05  # a part-filled batch with no new message this long is committed
+    stall_rows: int = 10
+
+
+@dataclass
+class IngestStats:
+    received: int = 0
+    stored: int = 0
+    duplicates: int = 0
+    conflicts: int = 0
+    rejected: int = 0
+    acked: int = 0
+    commits: int = 0
+    store_errors: int = 0
+    connects: int = 0
+    session_present: bool | None = None
+    last_reading_utc: str | None = None
+    by_station: dict = field(default_factory=dict)
+
+    def as_dict(self) -> dict:
+        d = dict(self.__dict__)
+        d.pop("by_station")
+        return d
+
+
+@dataclass(frozen=True)
+class _Msg:
+    topic: str
+    payload: bytes
+    mid: int
+    qos: int
+    generation: int
+    received_utc: dt.datetime
+
+
+def _utc_now() -> dt.datetime:
+    return dt.datetime.now(dt.UTC)
+
+
+class MqttIngest:
+    """Subscribe, queue, commit, acknowledge; publish the daemon's retained status.
+
+    `on_committed(readings)` is called from the writer thread after each commit (the daemon uses
+    it for its debounced evaluation). `clock` gives the receipt time.
+    """
+
+    def __init__(
+        self,
+        cfg: Config,
+        store: Store,
+        settings: IngestSettings,
+        mappings: tuple[Mapping, ...] = (),
+        on_committed: Callable[[list[Reading]], None] | None = None,
+        clock: Callable[[], dt.datetime] = _utc_now,
+    ):
+        self.cfg = cfg
+        self.b = cfg.broker
+        self.store = store
+        self.s = settings
+        self.mappings = mappings
+        self.on_committed = on_committed
+        self.clock = clock
+        self.known = {st.id for st in cfg.stations}
+        self.max_age_s = cfg.storage.retention_days * 86400.0
+        self.q: queue.Queue[_Msg] = queue.Queue(maxsize=settings.queue_max)
+        self.stats = IngestStats()
+        self.generation = 0
+        self.connected = False
+        self.last_flow = time.monotonic()  # any message in
+        self.last_echo = time.monotonic()  # our own heartbeat came back: the path works end to end
+        self.last_writer_loop = time.monotonic()
+        self.last_commit = time.monotonic()
+        self.disconnected_since: float | None = time.monotonic()
+        self.out_of_range: dict[str, deque] = {}
+        self._stop = threading.Event()
+        self._writer: threading.Thread | None = None
+        self.client = self._make_client()
+
+    # -- paho setup --------------------------------------------------------------------------
+    def _make_client(self) -> paho.Client:
+        c = paho.Client(
+            paho.CallbackAPIVersion.VERSION2,
+            client_id=self.b.client_id,
+            protocol=paho.MQTTv5,
+            manual_ack=True,
+            reconnect_on_failure=True,
+        )
+        c.reconnect_delay_set(1, max(1, int(self.s.reconnect_max_s)))
+        c.max_queued_messages_set(1000)  # outgoing status only; readings are never published by us
+        c.will_set(self.status("online"), b"offline", qos=1, retain=True)
+        if self.b.username:
+            pw = read_secret(self.b.password_file, self.cfg.path.parent if self.cfg.path else None) if self.b.password_file else None
+            c.username_pw_set(self.b.username, pw)
+        tls = self.b.tls or {}
+        if tls:
+            c.tls_set(ca_certs=tls.get("ca_file"), certfile=tls.get("cert_file"), keyfile=tls.get("key_file"), ciphers=tls.get("ciphers"))
+        c.on_connect = self._guard(self._on_connect)
+        c.on_disconnect = self._guard(self._on_disconnect)
+        c.on_message = self._guard(self._on_message)
+        c.on_subscribe = self._guard(self._on_subscribe)
+        return c
+
+    def status(self, *parts: str) -> str:
+        return "/".join([self.s.status_topic.rstrip("/"), *parts])
+
+    @staticmethod
+    def _guard(fn):
+        def wrapped(*a, **k):
+            try:
+                fn(*a, **k)
+            except Exception:  # noqa: BLE001 - an exception here would silently kill paho's thread
+                log.exception("error in MQTT callback %s (ignored, the client keeps running)", fn.__name__)
+
+        wrapped.__name__ = fn.__name__
+        return wrapped
+
+    def _on_connect(self, client, userdata, flags, reason_code, properties) -> None:
+        if reason_code.is_failure:
+            log.error("broker %s:%d refused the connection: %s", self.b.host, self.b.port, reason_code)
+            return
+        self.generation += 1
+        self.connected = True
+        self.disconnected_since = None
+        self.last_echo = self.last_flow = time.monotonic()
+        self.stats.connects += 1
+        self.stats.session_present = bool(flags.session_present)
+        subs = [(f"{self.b.prefix.strip('/')}/#", SubscribeOptions(qos=1))]
+        subs += [(m.subscription, SubscribeOptions(qos=1)) for m in self.mappings]
+        if not self.status().startswith(self.b.prefix.strip("/") + "/"):
+            subs.append((self.status("heartbeat"), SubscribeOptions(qos=1)))
+        client.subscribe(subs)
+        client.publish(self.status("online"), b"online", qos=1, retain=True)
+        log.info(
+            "connected to %s:%d as %s (session %s)", self.b.host, self.b.port, self.b.client_id,
+            "resumed" if flags.session_present else "new",
+        )
+
+    def _on_subscribe(self, client, userdata, mid, reason_code_list, properties) -> None:
+        bad = [rc for rc in reason_code_list if rc.is_failure]
+        if bad:
+            log.error("broker refused a subscription: %s", ", ".join(str(rc) for rc in bad))
+
+    def _on_disconnect(self, client, userdata, flags, reason_code, properties) -> None:
+        self.connected = False
+        self.disconnected_since = time.monotonic()
+        if not self._stop.is_set():
+            log.warning("disconnected from the broker (%s); reconnecting", reason_code)
+
+    def _on_message(self, client, userdata, msg) -> None:
+        self.last_flow = time.monotonic()
+        if msg.topic == self.status("heartbeat"):
+            self.last_echo = self.last_flow
+        m = _Msg(msg.topic, bytes(msg.payload), msg.mid, msg.qos, self.generation, self.clock())
+        while not self._stop.is_set():
+            try:
+                self.q.put(m, timeout=0.5)  # full queue: block (back-pressure), never drop
+                return
+            except queue.Full:
+                continue
+        # stopping: not acknowledged, so the broker redelivers it next session
+
+    # -- lifecycle -----------------------------------------------------------------------------
+    def start(self) -> None:
+        props = Properties(PacketTypes.CONNECT)
+        props.SessionExpiryInterval = int(self.s.session_expiry_s)
+        props.ReceiveMaximum = max(1, min(65535, self.s.batch_rows))
+        props.MaximumPacketSize = max(4 * 1024 * 1024, 2 * self.b.max_payload_bytes)
+        self._writer = threading.Thread(target=self._writer_main, name="frostwatch-writer", daemon=True)
+        self._writer.start()
+        self.client.connect_async(self.b.host, self.b.port, keepalive=self.b.keepalive_s, clean_start=False, properties=props)
+        self.client.loop_start()
+
+    def stop(self, timeout_s: float = 10.0) -> None:
+        """Flush: commit and acknowledge what is queued, publish offline, disconnect."""
+        self._stop.set()
+        if self._writer:
+            self._writer.join(timeout_s)
+        try:
+            if self.connected:
+                info = self.client.publish(self.status("online"), b"offline", qos=1, retain=True)
+                info.wait_for_publish(2.0)
+        except Exception:  # noqa: BLE001 - best effort on the way out
+            log.debug("could not publish offline status", exc_info=True)
+        try:
+            self.client.disconnect()
+        finally:
+            self.client.loop_stop()
+
+    def publish_json(self, subtopic: str, doc: object, retain: bool = True) -> None:
+        """Publish a retained status document (QoS 1); never raises, never blocks."""
+        try:
+            info = self.client.publish(self.status(subtopic), json.dumps(doc, default=str).encode(), qos=1, retain=retain)
+            if info.rc not in (paho.MQTT_ERR_SUCCESS, paho.MQTT_ERR_NO_CONN):
+                log.warning("status %s not queued: %s", subtopic, paho.error_string(info.rc))
+        except Exception:  # noqa: BLE001
+            log.exception("could not publish status %s", subtopic)
+
+    def heartbeat(self) -> None:
+        """Publish the echo heartbeat; its return proves the whole message path works."""
+        try:
+            self.client.publish(self.status("heartbeat"), str(time.time()).encode(), qos=1)
+        except Exception:  # noqa: BLE001
+            log.exception("could not publish heartbeat")
+
+    # -- health --------------------------------------------------------------------------------
+    def net_thread_alive(self) -> bool:
+        t = getattr(self.client, "_thread", None)
+        return t is not None and t.is_alive()
+
+    def problems(self) -> list[str]:
+        """What keeps ingest from working now (empty when healthy); the watchdog uses this."""
+        now = time.monotonic()
+        out = []
+        if not self._writer or not self._writer.is_alive():
+            out.append("the writer thread is dead")
+        elif now - self.last_writer_loop > 60:
+            out.append(f"the writer thread has been stuck for {now - self.last_writer_loop:.0f} s")
+        if not self.net_thread_alive():
+            out.append("the MQTT network thread is dead")
+        deaf_after = 3 * self.s.heartbeat_s + self.b.keepalive_s
+        if self.connected and not self.q.full() and now - self.last_echo > deaf_after:
+            out.append(f"connected but no message for {now - self.last_echo:.0f} s, not even our own heartbeat")
+        return out
+
+    def broker_down_s(self) -> float:
+        return 0.0 if self.disconnected_since is None else time.monotonic() - self.disconnected_since
+
+    def recent_out_of_range(self, window_s: float = 3600.0) -> dict[str, int]:
+        cut = time.monotonic() - window_s
+        out = {}
+        for st, dq in list(self.out_of_range.items()):
+            while dq and dq[0] < cut:
+                dq.popleft()
+            if dq:
+                out[st] = len(dq)
+        return out
+
+    def station_of(self, topic: str) -> str:
+        for m in self.mappings:
+            st = m.station_for(topic)
+            if st is not None:
+                return st
+        pre = self.b.prefix.strip("/") + "/"
+        return topic.removeprefix(pre).split("/")[0]
+
+    # -- the writer ----------------------------------------------------------------------------
+    def _writer_main(self) -> None:
+        batch: list[_Msg] = []
+        opened = 0.0
+        last_put = time.monotonic()
+        while True:
+            self.last_writer_loop = time.monotonic()
+            stopping = self._stop.is_set()
+            try:
+                m = self.q.get(timeout=0.01 if batch else 0.5)
+                batch.append(m)
+                last_put = time.monotonic()
+                if len(batch) == 1:
+                    opened = last_put
+            except queue.Empty:
+                if stopping and not batch:
+                    return
+            if not batch:
+                continue
+            now = time.monotonic()
+            due = (
+                len(batch) >= self.s.batch_rows
+                or now - opened >= self.s.batch_delay_s
+                or (len(batch) >= self.s.stall_rows and self.q.empty() and now - last_put >= self.s.stall_idle_s)
+                or (stopping and self.q.empty())
+            )
+            if due:
+                try:
+                    self._commit(batch)
+                except Exception:  # noqa: BLE001 - keep the batch, unacknowledged, and retry
+                    self.stats.store_errors += 1
+                    log.exception("could not commit %d messages; retrying in 1 s (nothing acknowledged)", len(batch))
+                    if stopping:
+                        return
+                    time.sleep(1.0)
+                    continue
+                batch = []
+
+    def _commit(self, batch: list[_Msg]) -> None:
+        readings: list[Reading] = []
+        rejections: list[Rejection] = []
+        status_root = self.status() + "/"
+        for m in batch:
+            if m.topic.startswith(status_root):
+                continue  # our own status and heartbeat echo: acknowledged, not stored
+            for r in parse_mqtt_message(
+                m.topic, m.payload, self.b.prefix, m.received_utc, self.known,
+                self.b.max_payload_bytes, self.s.max_future_s, self.max_age_s, self.mappings,
+            ):
+                (readings if isinstance(r, Reading) else rejections).append(r)
+        stored = dups = 0
+        conflicts: list[Rejection] = []
+        if readings:
+            stored, dups, conflicts = self.store.add_readings(readings, "mqtt")
+        if rejections or conflicts:
+            self.store.add_rejections(rejections + conflicts, self.clock())
+        # committed: now, and only now, acknowledge
+        for m in batch:
+            if m.qos > 0 and m.generation == self.generation:
+                self.client.ack(m.mid, m.qos)
+                self.stats.acked += 1
+            # a message from an earlier connection is redelivered by the broker; that copy is
+            # acknowledged then (and stored once)
+        st = self.stats
+        st.received += len(batch)
+        st.stored += stored
+        st.duplicates += dups
+        st.conflicts += len(conflicts)
+        st.rejected += len(rejections)
+        st.commits += 1
+        self.last_commit = time.monotonic()
+        for r in rejections:
+            if "plausible range" in r.reason:
+                station = self.station_of(r.source.removeprefix("mqtt:"))
+                self.out_of_range.setdefault(station, deque(maxlen=1000)).append(time.monotonic())
+            log.info("rejected %s: %s", r.source, r.reason)
+        if readings:
+            newest = max(r.time_utc for r in readings)
+            st.last_reading_utc = newest.isoformat()
+        if readings and self.on_committed:
+            try:
+                self.on_committed(readings)
+            except Exception:  # noqa: BLE001
+                log.exception("error after committing readings (ignored)")
+
+
+__all__ = ["MqttIngest", "IngestSettings", "IngestStats", "mappings_from_config", "read_secret", "StoreError"]
