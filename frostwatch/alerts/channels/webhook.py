@@ -1,0 +1,95 @@
+"""An HTTP webhook (requests): SMS gateways, push services, a farm chat.
+
+The body is rendered from `body_template`, where {key}, {seq}, {idempotency_key}, {level},
+{rank}, {block}, {to}, {title}, {message}, {ack_url} are replaced (JSON-escaped when the
+content type is JSON, so a template stays valid JSON whatever the message holds). The
+idempotency key goes in the `Idempotency-Key` header (IETF httpapi draft). Timeouts, connection
+errors, 5xx, 408 and 429 are retried; any other 4xx is a configuration fault and is not.
+A secret header value (a gateway token) comes from `auth_header_file` or a systemd credential
+`auth_header_credential`, sent as Authorization.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+from pathlib import Path
+
+import requests
+
+from frostwatch.alerts.channels import Permanent, Transient
+from frostwatch.alerts.config import DEFAULT_WEBHOOK_BODY
+
+FIELDS = ("key", "seq", "idempotency_key", "level", "rank", "block", "to", "title", "message", "ack_url")
+_PLACEHOLDER = re.compile(r"\{([a-z_]+)\}")
+
+
+def render(template: str, values: dict, as_json: bool) -> str:
+    def sub(m: re.Match) -> str:
+        name = m.group(1)
+        if name not in values:
+            return m.group(0)
+        v = str(values[name])
+        return json.dumps(v)[1:-1] if as_json else v
+    return _PLACEHOLDER.sub(sub, template)
+
+
+def check_template(template: str, content_type: str = "application/json") -> str | None:
+    """None if the template is usable, else what is wrong (for config validation)."""
+    unknown = sorted({n for n in _PLACEHOLDER.findall(template) if n not in FIELDS})
+    if unknown:
+        return f"unknown placeholder {unknown}, expected some of {', '.join('{' + f + '}' for f in FIELDS)}"
+    if "json" in content_type:
+        sample = {f: 'x"\n\\y' if f not in ("rank", "seq") else "1" for f in FIELDS}
+        try:
+            json.loads(render(template, sample, True))
+        except ValueError as exc:
+            return f"does not render to valid JSON ({exc}), expected a JSON template such as {DEFAULT_WEBHOOK_BODY}"
+    return None
+
+
+def _auth(o: dict, base_dir) -> str | None:
+    if o.get("auth_header_credential"):
+        d = os.environ.get("CREDENTIALS_DIRECTORY")
+        if not d:
+            raise OSError("$CREDENTIALS_DIRECTORY is not set")
+        return (Path(d) / o["auth_header_credential"]).read_text().strip()
+    if o.get("auth_header_file"):
+        p = Path(o["auth_header_file"])
+        if not p.is_absolute() and base_dir is not None:
+            p = Path(base_dir) / p
+        return p.read_text().strip()
+    return None
+
+
+def send(channel, msg, to, base_dir=None) -> str:
+    o = channel.options
+    url = o["url"]
+    ctype = o.get("content_type", "application/json")
+    values = {"key": msg.alert_key, "seq": msg.seq, "idempotency_key": msg.idem_key, "level": msg.level,
+              "rank": msg.rank, "block": msg.block, "to": to if to and to != "*" else "", "title": msg.title,
+              "message": msg.body, "ack_url": msg.ack_url}
+    body = render(o.get("body_template", DEFAULT_WEBHOOK_BODY), values, "json" in ctype)
+    headers = {"Content-Type": ctype, "Idempotency-Key": msg.idem_key, "User-Agent": "frostwatch"}
+    headers.update({k: str(v) for k, v in (o.get("headers") or {}).items()})
+    try:
+        auth = _auth(o, base_dir)
+    except OSError as exc:
+        raise Permanent(f"webhook {channel.name}: cannot read the auth header: {exc}") from None
+    if auth:
+        headers["Authorization"] = auth
+    shown = url.split("?")[0]  # never log a token carried in the query string
+    t = channel.timeout_s
+    try:
+        r = requests.request(o.get("method", "POST"), url, data=body.encode("utf-8"), headers=headers,
+                             timeout=(min(3.05, t), t), allow_redirects=False)
+    except requests.Timeout:
+        raise Transient(f"webhook {shown}: no answer within {t:g} s") from None
+    except requests.RequestException as exc:
+        raise Transient(f"webhook {shown}: {type(exc).__name__}") from None
+    if r.status_code >= 500 or r.status_code in (408, 429):
+        raise Transient(f"webhook {shown}: HTTP {r.status_code}")
+    if r.status_code >= 400:
+        raise Permanent(f"webhook {shown}: HTTP {r.status_code} (not retried: check the URL, token and template)")
+    return f"HTTP {r.status_code}"

@@ -1,0 +1,423 @@
+"""The alert sections of a config: [alerts], [[alerts.roster]], [[contacts]], [[channels]].
+
+    [alerts]
+    repeat_interval_min = 10      # an unanswered act/critical/unmonitored alert repeats this often
+    escalate_after_min = 15       # ... and adds the next person of the roster after this long
+    repeat_from_rank = 4          # alerts of this rank and above want an answer (act and up)
+    budget_per_hour = 6           # notifications per block per rolling hour; repeats beyond it wait
+    retry_base_s = 5              # delivery retries: full-jitter backoff from this ...
+    retry_cap_s = 300             # ... capped here
+    give_up_after_h = 12          # a delivery still failing after this is given up (and logged)
+    degraded_after_failures = 2   # remote failures in a row, with no remote success, before the
+                                  # local channels fire and a "remote alerting degraded" notice waits
+    status_url = ""               # e.g. "http://192.168.1.20:8321": one-use ack links in messages
+    ack_secret_file = ""          # optional; else a secret made once and kept in the store
+    [alerts.route]                # level name (or "default") -> channel names
+    default = ["console"]
+    [alerts.armed]
+    max_sensor_age_min = 15       # a sensor older than this at dusk is reported
+    min_battery_v = 3.3           # battery_voltage below this is reported
+    test_channels = false         # send a test message on every channel at dusk
+
+    [[alerts.roster]]             # ordered people for some blocks ("*" = all), optionally dated
+    blocks = ["*"]
+    order = ["ana", "ben"]
+    # from = "2027-04-17"         # local night dates, inclusive: cover for a weekend
+    # to = "2027-04-18"
+
+    [[contacts]]
+    name = "ana"
+    roles = ["grower"]            # grower, maintainer, manager
+    email = "ana@example.org"
+    phone = "+15550100"           # used by channels with address = "phone"
+
+    [[channels]]
+    name = "console"
+    type = "console"              # email, webhook, mqtt, command, console
+
+Secrets are never written in the config: `password_file` (a file path) or `password_credential`
+(a systemd credential name read from $CREDENTIALS_DIRECTORY). Problems are collected and raised
+together as ConfigError, each as `section.key: what is wrong, what is expected`.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from frostwatch.errors import ConfigError
+
+CHANNEL_TYPES = ("email", "webhook", "mqtt", "command", "console")
+ROLES = ("grower", "maintainer", "manager")
+ADDRESS_FIELDS = ("none", "email", "phone", "webhook", "command")
+LOCAL_BY_DEFAULT = {"email": False, "webhook": False, "mqtt": True, "command": True, "console": True}
+DEFAULT_ADDRESS = {"email": "email", "webhook": "none", "mqtt": "none", "command": "none", "console": "none"}
+DEFAULT_TIMEOUT_S = 10.0
+DEFAULT_WEBHOOK_BODY = (
+    '{"key": "{key}", "level": "{level}", "rank": {rank}, "block": "{block}", "to": "{to}", '
+    '"title": "{title}", "message": "{message}", "ack_url": "{ack_url}"}'
+)
+
+_ALERT_KEYS = {
+    "repeat_interval_min": (float, 10.0), "escalate_after_min": (float, 15.0), "repeat_from_rank": (int, 4),
+    "budget_per_hour": (int, 6), "retry_base_s": (float, 5.0), "retry_cap_s": (float, 300.0),
+    "give_up_after_h": (float, 12.0), "degraded_after_failures": (int, 2), "status_url": (str, ""),
+    "ack_secret_file": (str, ""), "ack_topic": (str, ""),
+}
+_ARMED_KEYS = {"max_sensor_age_min": (float, 15.0), "min_battery_v": (float, 3.3), "test_channels": (bool, False)}
+_CHANNEL_KEYS = {
+    "common": {"name": str, "type": str, "timeout_s": (int, float), "local": bool, "address": str},
+    "email": {"host": str, "port": int, "tls": str, "username": str, "password_file": str,
+              "password_credential": str, "from": str, "subject_prefix": str},
+    "webhook": {"url": str, "method": str, "headers": dict, "body_template": str, "content_type": str,
+                "auth_header_file": str, "auth_header_credential": str},
+    "mqtt": {"host": str, "port": int, "topic": str, "qos": int, "retain": bool, "username": str,
+             "password_file": str, "password_credential": str, "payload": str},
+    "command": {"argv": list},
+    "console": {},
+}
+_CONTACT_KEYS = {"name": str, "roles": list, "email": str, "phone": str, "webhook": str, "command": str}
+
+
+@dataclass(frozen=True)
+class Channel:
+    name: str
+    type: str
+    timeout_s: float
+    local: bool
+    address: str
+    options: dict
+
+
+@dataclass(frozen=True)
+class Contact:
+    name: str
+    roles: tuple[str, ...]
+    addresses: dict
+
+    def address(self, field_name: str) -> str | None:
+        return self.addresses.get(field_name) or None
+
+
+@dataclass(frozen=True)
+class RosterEntry:
+    blocks: tuple[str, ...]
+    order: tuple[str, ...]
+    start: dt.date | None = None
+    end: dt.date | None = None
+
+
+@dataclass(frozen=True)
+class AlertsConfig:
+    repeat_interval_min: float = 10.0
+    escalate_after_min: float = 15.0
+    repeat_from_rank: int = 4
+    budget_per_hour: int = 6
+    retry_base_s: float = 5.0
+    retry_cap_s: float = 300.0
+    give_up_after_h: float = 12.0
+    degraded_after_failures: int = 2
+    status_url: str = ""
+    ack_secret_file: str = ""
+    ack_topic: str = ""
+    route: dict = field(default_factory=lambda: {"default": ["*"]})
+    armed: dict = field(default_factory=lambda: {k: v[1] for k, v in _ARMED_KEYS.items()})
+    roster: tuple[RosterEntry, ...] = ()
+    contacts: tuple[Contact, ...] = ()
+    channels: tuple[Channel, ...] = ()
+
+    def channel(self, name: str) -> Channel | None:
+        return next((c for c in self.channels if c.name == name), None)
+
+    def contact(self, name: str) -> Contact | None:
+        return next((c for c in self.contacts if c.name == name), None)
+
+    def channels_for(self, level: str) -> list[Channel]:
+        names = self.route.get(level, self.route.get("default", ["*"]))
+        if "*" in names:
+            return list(self.channels)
+        return [c for c in self.channels if c.name in names]
+
+    def roster_for(self, block: str, night: dt.date | None) -> list[Contact]:
+        """The ordered people for a block on a night: dated cover first, block-specific first."""
+        def score(e: RosterEntry) -> tuple[int, int] | None:
+            if block not in e.blocks and "*" not in e.blocks:
+                return None
+            dated = e.start is not None or e.end is not None
+            if dated:
+                if night is None:
+                    return None
+                if (e.start and night < e.start) or (e.end and night > e.end):
+                    return None
+            return (1 if dated else 0, 1 if block in e.blocks else 0)
+
+        scored = [(score(e), i, e) for i, e in enumerate(self.roster)]
+        scored = [s for s in scored if s[0] is not None]
+        if scored:
+            best = max(scored, key=lambda s: (s[0], -s[1]))[2]
+            people = [self.contact(n) for n in best.order]
+            return [p for p in people if p is not None]
+        growers = [c for c in self.contacts if "grower" in c.roles]
+        return growers or list(self.contacts)
+
+    def with_role(self, role: str) -> list[Contact]:
+        return [c for c in self.contacts if role in c.roles]
+
+
+def _typed(value, types) -> bool:
+    if isinstance(value, bool) and bool not in (types if isinstance(types, tuple) else (types,)):
+        return False
+    return isinstance(value, types)
+
+
+def _tname(types) -> str:
+    types = types if isinstance(types, tuple) else (types,)
+    names = {str: "a string", int: "an integer", float: "a number", bool: "true or false", list: "a list",
+             dict: "a table"}
+    return " or ".join(names.get(t, t.__name__) for t in types)
+
+
+def _date(value, where: str, problems: list[str]) -> dt.date | None:
+    if isinstance(value, dt.date) and not isinstance(value, dt.datetime):
+        return value
+    if isinstance(value, str):
+        try:
+            return dt.date.fromisoformat(value)
+        except ValueError:
+            pass
+    problems.append(f"{where}: {value!r} is not a date, expected YYYY-MM-DD (the local date of the evening)")
+    return None
+
+
+def load_alerts_config(cfg) -> AlertsConfig:
+    """Validate the alert sections of a frostwatch Config; ConfigError lists every problem."""
+    raw = getattr(cfg, "raw", None) or {}
+    alerts_raw = raw.get("alerts", getattr(cfg, "alerts", {}) or {})
+    problems: list[str] = []
+    values: dict = {}
+    known = set(_ALERT_KEYS) | {"route", "armed", "roster"}
+    for k in alerts_raw:
+        if k not in known:
+            problems.append(f"alerts.{k}: unknown key, expected one of {', '.join(sorted(known))}")
+    for k, (typ, default) in _ALERT_KEYS.items():
+        v = alerts_raw.get(k, default)
+        types = (int, float) if typ is float else typ
+        if not _typed(v, types):
+            problems.append(f"alerts.{k}: {v!r} is not {_tname(types)}, expected {_tname(types)} (default {default!r})")
+            continue
+        if typ in (int, float) and v < 0:
+            problems.append(f"alerts.{k}: {v!r} is negative, expected a value >= 0")
+            continue
+        values[k] = typ(v)
+    if values.get("repeat_interval_min", 1) <= 0:
+        problems.append("alerts.repeat_interval_min: must be above 0, expected minutes between repeats (e.g. 10)")
+    if values.get("budget_per_hour", 1) < 1:
+        problems.append("alerts.budget_per_hour: must be at least 1, expected notifications per block per hour (e.g. 6)")
+
+    # contacts
+    contacts: list[Contact] = []
+    contacts_raw = raw.get("contacts", getattr(cfg, "contacts", ()) or ())
+    for i, c in enumerate(contacts_raw):
+        where = f"contacts[{i}]"
+        if not isinstance(c, dict):
+            problems.append(f"{where}: is not a table, expected [[contacts]] with name and addresses")
+            continue
+        for k, v in c.items():
+            if k not in _CONTACT_KEYS:
+                problems.append(f"{where}.{k}: unknown key, expected one of {', '.join(_CONTACT_KEYS)}")
+            elif not _typed(v, _CONTACT_KEYS[k]):
+                problems.append(f"{where}.{k}: {v!r} is not {_tname(_CONTACT_KEYS[k])}, expected {_tname(_CONTACT_KEYS[k])}")
+        name = c.get("name")
+        if not isinstance(name, str) or not name.strip():
+            problems.append(f"{where}.name: missing, expected a short unique name (e.g. \"ana\")")
+            continue
+        if any(x.name == name for x in contacts):
+            problems.append(f"{where}.name: {name!r} is used twice, expected unique contact names")
+        roles = c.get("roles", ["grower"])
+        if isinstance(roles, list):
+            bad = [r for r in roles if r not in ROLES]
+            if bad:
+                problems.append(f"{where}.roles: {bad!r} unknown, expected some of {', '.join(ROLES)}")
+        else:
+            roles = ["grower"]
+        addr = {k: c[k] for k in ("email", "phone", "webhook", "command") if isinstance(c.get(k), str)}
+        if "email" in addr and "@" not in addr["email"]:
+            problems.append(f"{where}.email: {addr['email']!r} is not an address, expected name@domain")
+        contacts.append(Contact(name, tuple(r for r in roles if r in ROLES), addr))
+    names = {c.name for c in contacts}
+
+    # channels
+    channels: list[Channel] = []
+    for i, ch in enumerate(raw.get("channels", ()) or ()):
+        where = f"channels[{i}]"
+        if not isinstance(ch, dict):
+            problems.append(f"{where}: is not a table, expected [[channels]] with name and type")
+            continue
+        typ = ch.get("type")
+        if typ not in CHANNEL_TYPES:
+            problems.append(f"{where}.type: {typ!r} is not a channel type, expected one of {', '.join(CHANNEL_TYPES)}")
+            continue
+        allowed = {**_CHANNEL_KEYS["common"], **_CHANNEL_KEYS[typ]}
+        for k, v in ch.items():
+            if k not in allowed:
+                hint = " (secrets go in password_file or password_credential)" if "pass" in k or "secret" in k or "token" in k else ""
+                problems.append(f"{where}.{k}: unknown key for a {typ} channel{hint}, expected one of {', '.join(sorted(allowed))}")
+            elif not _typed(v, allowed[k]):
+                problems.append(f"{where}.{k}: {v!r} is not {_tname(allowed[k])}, expected {_tname(allowed[k])}")
+        name = ch.get("name", typ)
+        if not isinstance(name, str) or not name:
+            name = typ
+        if any(x.name == name for x in channels):
+            problems.append(f"{where}.name: {name!r} is used twice, expected unique channel names")
+        timeout = ch.get("timeout_s", DEFAULT_TIMEOUT_S)
+        if not _typed(timeout, (int, float)) or not (0 < timeout <= 120):
+            problems.append(f"{where}.timeout_s: {timeout!r} is out of range, expected seconds in (0, 120]")
+            timeout = DEFAULT_TIMEOUT_S
+        address = ch.get("address", DEFAULT_ADDRESS[typ])
+        if address not in ADDRESS_FIELDS:
+            problems.append(f"{where}.address: {address!r} is not a contact field, expected one of {', '.join(ADDRESS_FIELDS)}")
+            address = DEFAULT_ADDRESS[typ]
+        _check_channel(typ, ch, where, problems)
+        opts = {k: v for k, v in ch.items() if k not in ("name", "type", "timeout_s", "local", "address")}
+        local = ch.get("local", LOCAL_BY_DEFAULT[typ])
+        channels.append(Channel(name, typ, float(timeout), bool(local), address, opts))
+    if not channels:
+        channels.append(Channel("console", "console", DEFAULT_TIMEOUT_S, True, "none", {}))
+    chan_names = {c.name for c in channels}
+
+    # route
+    route_raw = alerts_raw.get("route", {"default": ["*"]})
+    route: dict = {}
+    if not isinstance(route_raw, dict):
+        problems.append("alerts.route: is not a table, expected level = [channel names]")
+    else:
+        from frostwatch.alerts.levels import ALL_LEVELS
+        for lvl, lst in route_raw.items():
+            if lvl != "default" and lvl not in ALL_LEVELS:
+                problems.append(f"alerts.route.{lvl}: not a level, expected default or one of {', '.join(ALL_LEVELS)}")
+                continue
+            if not isinstance(lst, list) or not all(isinstance(x, str) for x in lst):
+                problems.append(f"alerts.route.{lvl}: {lst!r} is not a list of channel names, expected e.g. [\"sms\", \"mail\"]")
+                continue
+            bad = [x for x in lst if x != "*" and x not in chan_names]
+            if bad:
+                problems.append(f"alerts.route.{lvl}: unknown channel {bad!r}, expected names from [[channels]]: {', '.join(sorted(chan_names))}")
+            route[lvl] = lst
+        route.setdefault("default", ["*"])
+
+    # armed check
+    armed_raw = alerts_raw.get("armed", {})
+    armed = {k: v[1] for k, v in _ARMED_KEYS.items()}
+    if isinstance(armed_raw, dict):
+        for k, v in armed_raw.items():
+            if k not in _ARMED_KEYS:
+                problems.append(f"alerts.armed.{k}: unknown key, expected one of {', '.join(_ARMED_KEYS)}")
+                continue
+            typ = _ARMED_KEYS[k][0]
+            types = (int, float) if typ is float else typ
+            if not _typed(v, types):
+                problems.append(f"alerts.armed.{k}: {v!r} is not {_tname(types)}, expected {_tname(types)}")
+            else:
+                armed[k] = typ(v)
+    else:
+        problems.append("alerts.armed: is not a table, expected [alerts.armed] with max_sensor_age_min, ...")
+
+    # roster
+    roster: list[RosterEntry] = []
+    block_ids = {b.id for b in getattr(cfg, "blocks", ())}
+    roster_raw = alerts_raw.get("roster", [])
+    if not isinstance(roster_raw, list):
+        problems.append("alerts.roster: is not an array of tables, expected [[alerts.roster]] entries")
+        roster_raw = []
+    for i, e in enumerate(roster_raw):
+        where = f"alerts.roster[{i}]"
+        if not isinstance(e, dict):
+            problems.append(f"{where}: is not a table, expected blocks and order")
+            continue
+        for k in e:
+            if k not in ("blocks", "order", "from", "to"):
+                problems.append(f"{where}.{k}: unknown key, expected blocks, order, from, to")
+        blocks = e.get("blocks", ["*"])
+        if not isinstance(blocks, list) or not all(isinstance(b, str) for b in blocks):
+            problems.append(f"{where}.blocks: {blocks!r} is not a list of block ids, expected e.g. [\"east\"] or [\"*\"]")
+            blocks = ["*"]
+        for b in blocks:
+            if b != "*" and block_ids and b not in block_ids:
+                problems.append(f"{where}.blocks: {b!r} is not a block, expected one of {', '.join(sorted(block_ids))} or \"*\"")
+        order = e.get("order")
+        if not isinstance(order, list) or not order or not all(isinstance(n, str) for n in order):
+            problems.append(f"{where}.order: {order!r} is not a list of contact names, expected e.g. [\"ana\", \"ben\"]")
+            continue
+        for n in order:
+            if n not in names:
+                problems.append(f"{where}.order: {n!r} is not a contact, expected names from [[contacts]]: {', '.join(sorted(names)) or '(none)'}")
+        start = _date(e["from"], f"{where}.from", problems) if "from" in e else None
+        end = _date(e["to"], f"{where}.to", problems) if "to" in e else None
+        if start and end and end < start:
+            problems.append(f"{where}.to: {end} is before from {start}, expected to >= from")
+        roster.append(RosterEntry(tuple(blocks), tuple(order), start, end))
+
+    if problems:
+        raise ConfigError(str(getattr(cfg, "path", None) or "<config>"), problems)
+    return AlertsConfig(**values, route=route, armed=armed, roster=tuple(roster), contacts=tuple(contacts),
+                        channels=tuple(channels))
+
+
+def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
+    if typ == "email":
+        for k in ("host", "from"):
+            if not isinstance(ch.get(k), str) or not ch.get(k):
+                problems.append(f"{where}.{k}: missing, expected the SMTP {'server name' if k == 'host' else 'sender address'}")
+        tls = ch.get("tls", "starttls")
+        if tls not in ("starttls", "ssl", "none"):
+            problems.append(f"{where}.tls: {tls!r} is not a mode, expected starttls, ssl or none")
+        if "password_file" in ch and "password_credential" in ch:
+            problems.append(f"{where}.password_file: both password_file and password_credential given, expected one")
+    elif typ == "webhook":
+        url = ch.get("url")
+        if not isinstance(url, str) or not url.startswith(("http://", "https://")):
+            problems.append(f"{where}.url: {url!r} is not an http(s) URL, expected e.g. \"https://gateway.example/send\"")
+        if ch.get("method", "POST") not in ("POST", "PUT"):
+            problems.append(f"{where}.method: {ch.get('method')!r} is not supported, expected POST or PUT")
+        headers = ch.get("headers", {})
+        if isinstance(headers, dict):
+            for hk in headers:
+                if hk.lower() in ("authorization", "x-api-key"):
+                    problems.append(f"{where}.headers.{hk}: a secret in the config, expected auth_header_file "
+                                    f"(a file holding the header value) or auth_header_credential")
+        tmpl = ch.get("body_template")
+        if isinstance(tmpl, str):
+            from frostwatch.alerts.channels.webhook import check_template
+            err = check_template(tmpl)
+            if err:
+                problems.append(f"{where}.body_template: {err}")
+    elif typ == "mqtt":
+        if not isinstance(ch.get("topic"), str) or not ch.get("topic"):
+            problems.append(f"{where}.topic: missing, expected the siren or relay topic (e.g. \"frostwatch/siren\")")
+        if ch.get("qos", 1) not in (0, 1, 2):
+            problems.append(f"{where}.qos: {ch.get('qos')!r} is not 0, 1 or 2, expected 1")
+        if ch.get("payload", "json") not in ("json", "text", "on"):
+            problems.append(f"{where}.payload: {ch.get('payload')!r} is not a payload form, expected json, text or on")
+    elif typ == "command":
+        argv = ch.get("argv")
+        if not isinstance(argv, list) or not argv or not all(isinstance(a, str) for a in argv):
+            problems.append(f"{where}.argv: {argv!r} is not a command, expected a list like [\"/usr/bin/sms-send\", \"{{to}}\"]")
+
+
+def read_secret(options: dict, base: Path | None = None) -> str | None:
+    """A password from `password_file` or a systemd credential (`password_credential`); None if neither."""
+    if options.get("password_credential"):
+        d = os.environ.get("CREDENTIALS_DIRECTORY")
+        if not d:
+            raise FileNotFoundError(
+                f"credential {options['password_credential']!r}: $CREDENTIALS_DIRECTORY is not set "
+                "(LoadCredential= in the unit provides it)")
+        return (Path(d) / options["password_credential"]).read_text().strip()
+    if options.get("password_file"):
+        p = Path(options["password_file"])
+        if not p.is_absolute() and base is not None:
+            p = base / p
+        return p.read_text().strip()
+    return None
