@@ -33,11 +33,17 @@ DEFAULT_INTERVAL_S = 300.0  # assumed when a sensor has too few readings to tell
 STUCK_WINDOW_S = 3600.0  # a crop-height air sensor flat to the last digit this long is suspect
 STUCK_MIN_READINGS = 15
 PRIOR_BAND_C = 2.0  # 1-sigma-ish uncertainty of the physics prior before any calibration
-PRIOR_SHRINK_NIGHTS = 3.0  # a correction learned from n nights gets weight n / (n + this)
-RIDGE_LAMBDA = 4.0  # ridge penalty on the regression's slopes (per degC^2 of spread)
+PRIOR_SHRINK_NIGHTS = 2.0  # the site regression from n nights gets weight n / (n + this)
+RIDGE_LAMBDA = 2.0  # ridge penalty on the standardised regression slopes
+CALIBRATION_T0_CEILING_C = 16.0  # nights warmer than this at t0 are not frost-season nights
+RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean wind was below this
+RADIATION_NIGHT_CLOUD_FRAC = 0.3  # ... and its cloud never above this (FAO-FP ch. 5 usage)
+ASSUMED_DEPRESSION_C = 6.0  # dew-point depression assumed with no humidity sensor
 CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is not used
 NOWCAST_HALF_WEIGHT_H = 1.0  # after this many hours of tonight's data, it weighs as much as the dusk curve
 GRID_STEP_S = 300.0
+EXTRAPOLATE_AFTER_S = 600.0  # a dusk value older than this is carried along the last slope
+INPUT_WINDOW_S = 3600.0  # wind and cloud at t0: the mean of the last hour (or one interval)
 WET_BULB_GRID_STEP_S = 900.0  # the wet-bulb curve is needed only for sprinkler blocks
 TREND_WEIGHT = {"windy": 0.8, "cloudy": 0.4}  # share of the observed trend where radiation fails
 SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
@@ -107,7 +113,11 @@ def speaking_station(states: list[StationState]) -> StationState | None:
 
 @dataclass(frozen=True)
 class NightRecord:
-    """What one past night did at a block's speaking sensor: the dusk values and the minimum."""
+    """What one past night did at a block's speaking sensor: the dusk values and the minimum.
+
+    The `t0_*` values are as the forecast saw them at its issue time (readings up to t0 only), so
+    that the regression is fitted on the same inputs it is later applied to.
+    """
 
     night: dt.date
     station: str
@@ -120,60 +130,110 @@ class NightRecord:
     max_cloud_frac: float | None
     prior_c: float
     radiation_night: bool
+    t0_wind_m_s: float | None = None
+    t0_cloud_frac: float | None = None
+
+
+@dataclass(frozen=True)
+class DuskInputs:
+    """What is known at the dusk point t0 (sunset + 2 h) from readings up to t0."""
+
+    station: str
+    temp_c: float
+    dew_point_c: float | None
+    wind_m_s: float | None
+    cloud_frac: float | None
+
+
+FEATURES = ("T0", "Td0", "cloud0", "wind0")
+
+
+def feature_vector(t0_c: float, td0_c: float | None, cloud: float | None, wind: float | None) -> tuple[float, ...]:
+    """The regression's inputs, with the same stand-ins the physics prior uses when one is missing:
+    dew point 6 degC below the air, clear sky, calm."""
+    return (t0_c, t0_c - ASSUMED_DEPRESSION_C if td0_c is None else td0_c, cloud or 0.0, wind or 0.0)
 
 
 @dataclass(frozen=True)
 class Calibration:
-    """A correction to the physics prior learned from past radiation nights (walk-forward)."""
+    """The site's Allen-type regression, Tn = c + a T0 + b Td0 + d cloud0 + e wind0, learned
+    walk-forward from past nights and blended with the physics prior while few are known.
+
+    Cloud and wind at t0 carry the non-radiation nights (FAO-FP ch. 5's regression is for
+    radiation nights only; the site's windy and cloudy nights get their own share of the fit
+    through those two terms instead of being thrown away).
+    """
 
     n_nights: int = 0
-    intercept_c: float = 0.0
-    slope_t0: float = 0.0
-    slope_td: float = 0.0
-    mean_t0_c: float = 0.0
-    mean_td_c: float = 0.0
+    mean_min_c: float = 0.0
+    means: tuple[float, ...] = (0.0, 0.0, 0.0, 0.0)
+    coefs: tuple[float, ...] = (0.0, 0.0, 0.0, 0.0)
+    weight: float = 0.0  # share of the site regression; the physics prior has the rest
     residual_std_c: float = PRIOR_BAND_C
     nights: tuple[dt.date, ...] = field(default=())
 
-    def correction_c(self, t0_temp_c: float, dew_point_c: float) -> float:
-        return (
-            self.intercept_c
-            + self.slope_t0 * (t0_temp_c - self.mean_t0_c)
-            + self.slope_td * (dew_point_c - self.mean_td_c)
-        )
+    def regression_c(self, x: tuple[float, ...]) -> float:
+        return self.mean_min_c + sum(c * (xi - m) for c, xi, m in zip(self.coefs, x, self.means, strict=True))
+
+    def predict_c(self, prior_c: float, x: tuple[float, ...]) -> float:
+        """The dusk forecast of the minimum: regression and physics prior, weighted by nights known."""
+        if self.weight <= 0.0:
+            return prior_c
+        return self.weight * self.regression_c(x) + (1.0 - self.weight) * prior_c
+
+
+_FIT_CACHE: dict[tuple[int, int, int], tuple[list, Calibration]] = {}
 
 
 def fit_calibration(records: list[NightRecord], min_nights: int = 10) -> Calibration:
-    """Fit the Allen-type correction Tn - prior = c + a (T0 - mean) + b (Td - mean).
+    """Fit the site regression on the frost-season nights among `records` (all earlier nights).
 
-    Only radiation nights with a dew point count. The slopes are ridge-shrunk toward zero and the
-    whole correction toward the prior while fewer than `min_nights` are known, so that one odd
-    night cannot swing the forecast (FAO-FP ch. 5 asks for about ten local nights).
+    Nights with T0 at or above `CALIBRATION_T0_CEILING_C` are left out (warm, humid nights teach
+    nothing about frost; all nights are used while fewer than 3 cool ones are known). The slopes
+    are ridge-shrunk, harder while fewer than `min_nights` are known, and the whole regression is
+    blended with the physics prior by weight n / (n + PRIOR_SHRINK_NIGHTS), so that one odd night
+    cannot swing the forecast (FAO-FP ch. 5 asks for about ten local nights). Memoised on the
+    list's identity and length: the pipeline's history lists only grow.
     """
-    rs = [r for r in records if r.radiation_night and r.t0_dew_point_c is not None]
+    key = (id(records), len(records), min_nights)
+    hit = _FIT_CACHE.get(key)
+    if hit is not None and hit[0] is records:
+        return hit[1]
+    cal = _fit(records, min_nights)
+    if len(_FIT_CACHE) > 256:
+        _FIT_CACHE.clear()
+    _FIT_CACHE[key] = (records, cal)
+    return cal
+
+
+def _fit(records: list[NightRecord], min_nights: int) -> Calibration:
+    cool = [r for r in records if r.t0_temp_c < CALIBRATION_T0_CEILING_C]
+    rs = cool if len(cool) >= 3 else list(records)
     n = len(rs)
     if n == 0:
         return Calibration()
-    t0 = np.array([r.t0_temp_c for r in rs])
-    td = np.array([r.t0_dew_point_c for r in rs])
-    resid = np.array([r.observed_min_c - r.prior_c for r in rs])
-    m0, md = float(t0.mean()), float(td.mean())
-    x = np.column_stack([t0 - m0, td - md])
-    if n >= 4:
+    x = np.array([feature_vector(r.t0_temp_c, r.t0_dew_point_c, r.t0_cloud_frac, r.t0_wind_m_s) for r in rs])
+    y = np.array([r.observed_min_c for r in rs])
+    mu = x.mean(axis=0)
+    sd = x.std(axis=0)
+    use = sd > 1e-6  # a constant input (no cloud sensor: always clear) gets no slope
+    coefs = np.zeros(len(FEATURES))
+    if n >= 3 and use.any():
+        z = (x[:, use] - mu[use]) / sd[use]
         lam = RIDGE_LAMBDA * max(1.0, min_nights / n)
-        a = x.T @ x + lam * np.eye(2)
-        slopes = np.linalg.solve(a, x.T @ (resid - resid.mean()))
-    else:
-        slopes = np.zeros(2)
-    shrink = n / (n + PRIOR_SHRINK_NIGHTS)
-    intercept = float(resid.mean()) * shrink
-    fitted = intercept + x @ slopes
-    dof = max(1, n - 1)
-    sd = float(np.sqrt(np.sum((resid - fitted) ** 2) / dof)) if n > 1 else PRIOR_BAND_C
+        beta = np.linalg.solve(z.T @ z + lam * np.eye(z.shape[1]), z.T @ (y - y.mean()))
+        coefs[use] = beta / sd[use]
+    fitted = y.mean() + (x - mu) @ coefs
+    dof = max(1, n - 1 - int(use.sum()))
+    sd_res = float(np.sqrt(np.sum((y - fitted) ** 2) / dof)) if n > 2 else PRIOR_BAND_C
+    weight = n / (n + PRIOR_SHRINK_NIGHTS)
     # until enough nights are known the band cannot be narrower than the prior's share of it
     w = min(1.0, n / min_nights)
-    sd = math.sqrt(w * sd**2 + (1 - w) * PRIOR_BAND_C**2)
-    return Calibration(n, intercept, float(slopes[0]), float(slopes[1]), m0, md, max(sd, 0.3), tuple(r.night for r in rs))
+    sd_res = math.sqrt(w * sd_res**2 + (1 - w) * PRIOR_BAND_C**2)
+    return Calibration(
+        n, float(y.mean()), tuple(float(m) for m in mu), tuple(float(c) for c in coefs), weight,
+        max(sd_res, 0.3), tuple(r.night for r in rs),
+    )
 
 
 # ---- the projection --------------------------------------------------------------------------
@@ -198,13 +258,8 @@ def dew_point_of(state: StationState | None, site_states: list[StationState]) ->
 
 
 def recent_mean(series: Series, stations: list[str], quantity: str, now_s: float, window_s: float) -> float | None:
-    vals = []
-    for sid in stations:
-        if (sid, quantity) in series:
-            t, v = series[(sid, quantity)]
-            sel = (t <= now_s) & (t > now_s - window_s)
-            vals.extend(v[sel].tolist())
-    return float(np.mean(vals)) if vals else None
+    """Mean of the stations' readings in the last `window_s` (or the latest within two windows)."""
+    return _mean_as_of(series, stations, quantity, now_s, window_s)
 
 
 def value_at(series: Series, station: str, quantity: str, t_s: float, tolerance_s: float = 900.0) -> float | None:
@@ -220,16 +275,95 @@ def value_at(series: Series, station: str, quantity: str, t_s: float, tolerance_
 
 def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None) -> float | None:
     """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists."""
-    measured = recent_mean(series, [s.id for s in cfg.stations], "cloud_area_fraction", now_s, 1800.0)
+    measured = recent_mean(series, [s.id for s in cfg.stations], "cloud_area_fraction", now_s, INPUT_WINDOW_S)
     if measured is not None:
         return measured
-    sky = recent_mean(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, 1800.0)
+    sky = recent_mean(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
     if sky is None or dew_point_c is None:
         return None
     e = humidity.vapour_pressure_hpa_from_dew_point(dew_point_c)
     from frostwatch.physics import radiation
 
     return float(radiation.cloud_frac_from_sky_temperature(sky, air_temp_c, e))
+
+
+def as_of(series: Series, station: str, quantity: str, t_s: float, max_age_s: float) -> float | None:
+    """The value at `t_s` from readings up to `t_s` only (what a forecast issued then could know).
+
+    The latest reading, carried forward along the slope of the last two readings when it is
+    older than `EXTRAPOLATE_AFTER_S` (an hourly log's last value can be most of an hour old at
+    the dusk point; the evening fall then is steady). None if the latest is older than `max_age_s`.
+    """
+    key = (station, quantity)
+    if key not in series:
+        return None
+    t, v = series[key]
+    i = int(np.searchsorted(t, t_s, side="right")) - 1
+    if i < 0 or t_s - t[i] > max_age_s:
+        return None
+    val = float(v[i])
+    age = t_s - float(t[i])
+    if age > EXTRAPOLATE_AFTER_S and i >= 1:
+        gap = float(t[i] - t[i - 1])
+        if 0 < gap <= 2.0 * max(age, EXTRAPOLATE_AFTER_S):
+            val += (val - float(v[i - 1])) / gap * age
+    return val
+
+
+def _mean_as_of(series: Series, stations: list[str], quantity: str, t_s: float, window_s: float) -> float | None:
+    """Mean of the readings in (t_s - window, t_s]; if none, the latest one within two windows."""
+    vals, last = [], None
+    for sid in stations:
+        if (sid, quantity) not in series:
+            continue
+        t, v = series[(sid, quantity)]
+        j = int(np.searchsorted(t, t_s, side="right"))
+        i = int(np.searchsorted(t, t_s - window_s, side="right"))
+        if j > i:
+            vals.extend(v[i:j].tolist())
+        elif j > 0 and t_s - t[j - 1] <= 2.0 * window_s:
+            last = float(v[j - 1])
+    if vals:
+        return float(np.mean(vals))
+    return last
+
+
+def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[Station], t0_s: float) -> DuskInputs | None:
+    """Temperature, dew point, wind and cloud at t0 for `station`, from readings up to t0 only."""
+    site = [s for s in cfg.stations if s.block is None]
+    st = next((s for s in block_stations if s.id == station), None)
+    interval = st.interval_s if st and st.interval_s else None
+    if interval is None and (station, "air_temperature") in series:
+        interval = usual_interval_s(series[(station, "air_temperature")][0], None)
+    max_age = cfg.forecast.stale_after_intervals * (interval or DEFAULT_INTERVAL_S)
+    t0_c = as_of(series, station, "air_temperature", t0_s, max_age)
+    if t0_c is None:
+        return None
+    others = [station] + [s.id for s in block_stations if s.id != station] + [s.id for s in site]
+    td = None
+    for sid in others:
+        td = as_of(series, sid, "dew_point_temperature", t0_s, max_age)
+        if td is None:
+            rh = as_of(series, sid, "relative_humidity", t0_s, max_age)
+            ta = t0_c if sid == station else as_of(series, sid, "air_temperature", t0_s, max_age)
+            if rh is not None and ta is not None:
+                td = float(humidity.dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh))))
+        if td is not None:
+            break
+    if td is not None:
+        td = min(td, t0_c)
+    window = max(INPUT_WINDOW_S, interval or 0.0)
+    ids = [s.id for s in block_stations] + [s.id for s in site]
+    wind = _mean_as_of(series, ids, "wind_speed", t0_s, window)
+    cloud = _mean_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", t0_s, window)
+    if cloud is None and td is not None:
+        sky = _mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", t0_s, window)
+        if sky is not None:
+            e = humidity.vapour_pressure_hpa_from_dew_point(td)
+            from frostwatch.physics import radiation
+
+            cloud = float(radiation.cloud_frac_from_sky_temperature(sky, t0_c, e))
+    return DuskInputs(station, t0_c, td, wind, None if cloud is None else max(0.0, min(1.0, cloud)))
 
 
 def _sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float | None:
@@ -306,7 +440,7 @@ def project_block(
     td_c = dew_point_of(speaker, [s for s in states if s is not speaker] + site_states)
     if td_c is not None:
         td_c = min(td_c, air_c)
-    wind = recent_mean(series, [s.id for s in stations + site_stations], "wind_speed", now_s, 1800.0)
+    wind = recent_mean(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
     cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
     # the wet bulb decides only for sprinkler blocks (and is shown in their alerts)
     wet_c = None
@@ -335,25 +469,19 @@ def project_block(
     t_air, v_air = t_air[upto], v_air[upto]
 
     # the dusk forecast: at t0 if we are past it, else from the latest values
-    if now_s >= dusk_s:
-        t0_c = value_at(series, speaker.station, "air_temperature", dusk_s) or air_c
-        td0_c = td_c
-        for sid in [speaker.station] + [s.id for s in stations + site_stations]:
-            dp = value_at(series, sid, "dew_point_temperature", dusk_s)
-            if dp is not None:
-                td0_c = dp
-                break
-        t0_s, method = dusk_s, "dusk forecast + nowcast"
+    di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s) if now_s >= dusk_s else None
+    if di is not None:
+        t0_c, td0_c, wind0, cloud0 = di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac
+        t0_s, method = dusk_s, "dusk forecast"
     else:
-        t0_c, td0_c, t0_s, method = air_c, td_c, now_s, "pre-dusk estimate"
+        t0_c, td0_c, wind0, cloud0, t0_s, method = air_c, td_c, wind, cloud, now_s, "pre-dusk estimate"
     h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
-    td_for_prior = td0_c if td0_c is not None else t0_c - 6.0
-    prior = _prior_c(t0_c, td_for_prior, h_from_t0, wind or 0.0, cloud or 0.0, p_hpa)
+    x = feature_vector(t0_c, td0_c, cloud0, wind0)
+    prior = _prior_c(t0_c, x[1], h_from_t0, x[3], x[2], p_hpa)
     if not math.isfinite(prior):
-        notes.append("the physics prior is undefined for these inputs; the observed trend is used")
-        prior = t0_c - 3.0
-    tp_c = prior + cal.correction_c(t0_c, td_for_prior)
-    tp_c = min(tp_c, t0_c)
+        notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
+        prior = cal.regression_c(x) if cal.weight > 0 else t0_c - 3.0
+    tp_c = min(cal.predict_c(prior, x), t0_c)
     if td0_c is None:
         notes.append("no humidity sensor: dew point assumed 6 degC below air for the dusk forecast")
     b_dusk = (tp_c - t0_c) / math.sqrt(h_from_t0)
@@ -366,34 +494,40 @@ def project_block(
         grid_s = np.append(grid_s, sunrise_s)
     e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
     e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+    # the curve starts from the air temperature now (carried along the last slope if the latest
+    # reading is old, as in an hourly log), so the dusk forecast's minimum is the calibrated one
+    anchor_c = as_of(series, speaker.station, "air_temperature", now_s, math.inf) or air_c
+    if now_s >= dusk_s and now_s > t0_s:
+        sel = t_air >= t0_s
+        b_obs = _sqrt_b_fit((t_air[sel] - t0_s) / 3600.0, v_air[sel], t0_c)
+    else:
+        b_obs = None
+    w_obs = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)
     if regime == "radiation" or now_s < dusk_s:
         # before dusk the evening fall is steep and says little about the night: use the dusk
         # curve (the prior carries wind and cloud); after dusk re-fit it to tonight's cooling
-        sel = t_air >= t0_s
-        b_obs = _sqrt_b_fit((t_air[sel] - t0_s) / 3600.0, v_air[sel], t0_c) if now_s > t0_s else None
         if b_obs is not None:
-            w = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)
-            b = (1 - w) * b_dusk + w * min(b_obs, 0.5)
-            band = band * (1 - 0.6 * w)
+            b = (1 - w_obs) * b_dusk + w_obs * min(b_obs, 0.5)
+            band = band * (1 - 0.6 * w_obs)
             method = "nowcast (square-root curve re-fitted to tonight)"
         else:
             b = b_dusk
-        curve = air_c + b * (e_grid - e_now)
+        curve = anchor_c + b * (e_grid - e_now)
     else:
-        # the radiation model does not hold: lean on the observed trend of the last two hours,
-        # blended with the physics curve (which carries the cloud and wind) on cloudy nights
+        # the radiation model does not hold: as tonight shows its trend, lean on the trend of
+        # the last two hours, blended with the dusk curve (whose regression carries cloud and wind)
         sel = t_air >= now_s - 7200.0
         slope = 0.0
-        if sel.sum() >= 4:
+        if sel.sum() >= 3 and t_air[sel][-1] - t_air[sel][0] >= 3000.0:
             slope = float(np.polyfit((t_air[sel] - now_s) / 3600.0, v_air[sel], 1)[0])
         slope = max(-2.0, min(0.5, slope))
-        trend = air_c + slope * (grid_s - now_s) / 3600.0
-        physics = air_c + b_dusk * (e_grid - e_now)
-        w_trend = TREND_WEIGHT[regime]
-        curve = w_trend * trend + (1 - w_trend) * physics
+        trend = anchor_c + slope * (grid_s - now_s) / 3600.0
+        dusk_curve = anchor_c + b_dusk * (e_grid - e_now)
+        w_trend = TREND_WEIGHT[regime] * w_obs
+        curve = w_trend * trend + (1 - w_trend) * dusk_curve
         band = max(band, 1.5)
-        method = f"observed trend ({regime} night)"
-    curve = np.minimum(curve, max(air_c, float(curve[0]))) if len(curve) else curve
+        method = f"observed trend ({regime} night)" if w_trend >= 0.2 else f"dusk forecast ({regime} night)"
+    curve = np.minimum(curve, max(anchor_c, float(curve[0]))) if len(curve) else curve
     band *= math.sqrt(min(1.0, hours_left / 6.0)) if hours_left > 0 else 0.0
     band = max(band, 0.3)
 
@@ -479,9 +613,15 @@ def project_block(
 def night_record(
     block: Block, cfg: Config, series: Series, night: Night, pressure_hpa: float | None = None
 ) -> NightRecord | None:
-    """The dusk values and observed minimum (dusk to sunrise + 1 h) of a block's speaking sensor."""
+    """What a finished night did at a block's speaking sensor: its inputs at t0, as a forecast
+    issued then saw them (readings up to t0 only), and the observed minimum from t0 to one hour
+    after sunrise. None when the night is not covered: no healthy crop-height sensor at t0, or a
+    gap of more than `stale_after_intervals` intervals in its readings over the window.
+    """
     dusk_s = night.dusk_utc.timestamp()
-    end_s = night.sunrise_utc.timestamp() + 3600.0
+    sunset_s = night.sunset_utc.timestamp()
+    sunrise_s = night.sunrise_utc.timestamp()
+    end_s = sunrise_s + 3600.0
     stations = cfg.stations_of(block.id)
     site = [s for s in cfg.stations if s.block is None]
     states = [station_state(s, series, dusk_s, cfg.forecast.stale_after_intervals) for s in stations]
@@ -489,40 +629,48 @@ def night_record(
     if speaker is None:
         return None
     t, v = series[(speaker.station, "air_temperature")]
-    sel = (t >= dusk_s) & (t <= end_s)
-    if sel.sum() < 3:
+    st = next(s for s in stations if s.id == speaker.station)
+    max_gap = cfg.forecast.stale_after_intervals * usual_interval_s(t[t <= dusk_s], st.interval_s)
+    i0, i1 = int(np.searchsorted(t, dusk_s, side="left")), int(np.searchsorted(t, end_s, side="right"))
+    tw, vw = t[i0:i1], v[i0:i1]
+    if len(tw) < 3 or tw[0] - dusk_s > max_gap or sunrise_s - tw[-1] > max_gap or np.any(np.diff(tw) > max_gap):
         return None
-    t0_c = value_at(series, speaker.station, "air_temperature", dusk_s)
-    if t0_c is None:
+    di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s)
+    if di is None:
         return None
-    td0 = dew_point_of(speaker, [s for s in states if s is not speaker] + [station_state(s, series, dusk_s, 1e9) for s in site])
-    i = int(np.argmin(v[sel]))
-    wind = recent_mean(series, [s.id for s in stations + site], "wind_speed", end_s - 3600.0, end_s - dusk_s)
-    cloud = None
-    ids = [s.id for s in cfg.stations]
-    for sid in ids:
-        if (sid, "cloud_area_fraction") in series:
-            ct, cv = series[(sid, "cloud_area_fraction")]
-            csel = (ct >= dusk_s) & (ct <= end_s)
-            if csel.any():
-                cloud = max(cloud or 0.0, float(cv[csel].max()))
-    if cloud is None and td0 is not None:
-        cl = cloud_frac_now(series, cfg, dusk_s + 3600.0, t0_c, td0)
-        cloud = cl
+    i = int(np.argmin(vw))
+    ids = [s.id for s in stations + site]
+    wind = _window_stat(series, ids, "wind_speed", sunset_s, sunrise_s, np.mean)
+    cloud = _window_stat(series, [s.id for s in cfg.stations], "cloud_area_fraction", sunset_s, sunrise_s, np.max)
+    if cloud is None and di.cloud_frac is not None:
+        cloud = di.cloud_frac  # a sky sensor: its estimate at t0
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     h = night.hours_to_sunrise(night.dusk_utc)
-    prior = _prior_c(t0_c, td0 if td0 is not None else t0_c - 6.0, h, wind or 0.0, cloud or 0.0, p_hpa)
-    radiation = (wind is None or wind < 2.0) and (cloud is None or cloud <= 0.3)
+    x = feature_vector(di.temp_c, di.dew_point_c, di.cloud_frac, di.wind_m_s)
+    prior = _prior_c(di.temp_c, x[1], h, x[3], x[2], p_hpa)
+    radiation = (wind is None or wind < RADIATION_NIGHT_WIND_M_S) and (cloud is None or cloud <= RADIATION_NIGHT_CLOUD_FRAC)
     return NightRecord(
         night=night.date,
         station=speaker.station,
-        t0_temp_c=t0_c,
-        t0_dew_point_c=None if td0 is None else min(td0, t0_c),
+        t0_temp_c=di.temp_c,
+        t0_dew_point_c=di.dew_point_c,
         hours_to_sunrise=h,
-        observed_min_c=float(v[sel][i]),
-        observed_min_at_utc=_utc(float(t[sel][i])),
+        observed_min_c=float(vw[i]),
+        observed_min_at_utc=_utc(float(tw[i])),
         mean_wind_m_s=wind,
         max_cloud_frac=cloud,
         prior_c=prior,
         radiation_night=radiation,
+        t0_wind_m_s=di.wind_m_s,
+        t0_cloud_frac=di.cloud_frac,
     )
+
+
+def _window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
+    vals = []
+    for sid in stations:
+        if (sid, quantity) in series:
+            t, v = series[(sid, quantity)]
+            i, j = int(np.searchsorted(t, start_s, side="left")), int(np.searchsorted(t, end_s, side="right"))
+            vals.extend(v[i:j].tolist())
+    return float(stat(vals)) if vals else None

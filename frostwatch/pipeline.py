@@ -157,56 +157,18 @@ def run_replay(cfg: Config, series: Series, progress=None) -> list[Evaluation]:
     return out
 
 
-def backtest(cfg: Config, series: Series, progress=None) -> list[dict]:
-    """The dusk forecast of every night against what happened (DESIGN.md 1.4, walk-forward)."""
-    if not series:
-        return []
-    first = min(float(t[0]) for t, _ in series.values())
-    last = max(float(t[-1]) for t, _ in series.values())
-    ev = Evaluator(cfg)
-    rows = []
-    nights = nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC))
-    for k, d in enumerate(nights):
-        night = ev.night(d)
-        issue = night.dusk_utc
-        if issue.timestamp() < first or night.sunrise_utc.timestamp() + 3600.0 > last + 1800.0:
-            continue
-        window = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), issue.timestamp())
-        obs = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), night.sunrise_utc.timestamp() + 3600.0)
-        for block in cfg.blocks:
-            proj = forecast.project_block(issue, block, cfg, window, night, ev.calibration(block.id), ev.pressure_hpa)
-            rec = forecast.night_record(block, cfg, obs, night, ev.pressure_hpa)
-            if proj.predicted_min_c is None or rec is None or rec.station != proj.station:
-                if proj.predicted_min_c is None or rec is None:
-                    continue
-            rows.append({
-                "night": d.isoformat(),
-                "block": block.id,
-                "station": proj.station,
-                "issued_at": issue.isoformat().replace("+00:00", "Z"),
-                "predicted_min_c": round(proj.predicted_min_c, 2),
-                "observed_min_c": round(rec.observed_min_c, 2),
-                "observed_min_at": rec.observed_min_at_utc.isoformat().replace("+00:00", "Z"),
-                "regime": proj.regime,
-                "radiation_night": rec.radiation_night,
-            })
-        ev.learn_night(night, series)
-        if progress:
-            progress(k + 1, len(nights))
-    return rows
+def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None) -> list[dict]:
+    """The walk-forward backtest of the dusk forecast; see `frostwatch.backtest.backtest`."""
+    from frostwatch import backtest as _bt
+
+    return _bt.backtest(cfg, series, progress, nowcast_lead_h)
 
 
 def backtest_summary(rows: list[dict]) -> dict:
-    if not rows:
-        return {"nights": 0, "mae_c": None, "bias_c": None, "rmse_c": None}
-    err = np.array([r["predicted_min_c"] - r["observed_min_c"] for r in rows])
-    return {
-        "nights": len({r["night"] for r in rows}),
-        "forecasts": len(rows),
-        "mae_c": round(float(np.mean(np.abs(err))), 3),
-        "bias_c": round(float(np.mean(err)), 3),
-        "rmse_c": round(float(np.sqrt(np.mean(err**2))), 3),
-    }
+    """See `frostwatch.backtest.backtest_summary`."""
+    from frostwatch import backtest as _bt
+
+    return _bt.backtest_summary(rows)
 
 
 def with_time(p: Projection) -> dict:

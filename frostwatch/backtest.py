@@ -1,0 +1,116 @@
+"""The walk-forward backtest of the dusk forecast (DESIGN.md 1.4): each night's forecast is issued
+at sunset + 2 h from readings up to then, with a calibration learned only from earlier nights of
+the same log; its observed minimum is taken from the issue time to one hour after sunrise.
+
+A night whose readings do not cover its window (a gap longer than `stale_after_intervals` of
+the speaking sensor's intervals, for instance where a log jumps between years) is neither scored
+nor learned from.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import numpy as np
+
+from frostwatch import forecast
+from frostwatch.config import Config
+from frostwatch.forecast import Series
+from frostwatch.night import evening_date
+
+
+def _iso(t: dt.datetime | None) -> str | None:
+    return None if t is None else t.isoformat().replace("+00:00", "Z")
+
+
+def candidate_nights(cfg: Config, series: Series) -> list[dt.date]:
+    """Evening dates on which some crop-height air sensor has readings (sorted)."""
+    hours: set[int] = set()
+    for s in cfg.stations:
+        if s.role == "crop" and (s.id, "air_temperature") in series:
+            t = series[(s.id, "air_temperature")][0]
+            hours.update(np.unique(np.floor(t / 3600.0)).astype(np.int64).tolist())
+    tz = cfg.site.tz
+    return sorted({evening_date(dt.datetime.fromtimestamp(h * 3600.0, dt.UTC), tz) for h in hours})
+
+
+def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None) -> list[dict]:
+    """One row per night and block: the dusk forecast against what happened (walk-forward).
+
+    With `nowcast_lead_h`, each row also holds the nowcast made that many hours before the
+    observed minimum (when that is after the issue time), with the same calibration.
+    """
+    from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
+
+    if not series:
+        return []
+    ev = Evaluator(cfg)
+    rows: list[dict] = []
+    nights = candidate_nights(cfg, series)
+    for k, d in enumerate(nights):
+        night = ev.night(d)
+        issue = night.dusk_utc
+        start_s = (night.sunset_utc - LOOKBACK).timestamp()
+        obs = slice_series(series, start_s, night.sunrise_utc.timestamp() + 3600.0)
+        window = slice_series(obs, start_s, issue.timestamp())
+        for block in cfg.blocks:
+            rec = forecast.night_record(block, cfg, obs, night, ev.pressure_hpa)
+            if rec is None:
+                continue
+            cal = ev.calibration(block.id)
+            proj = forecast.project_block(issue, block, cfg, window, night, cal, ev.pressure_hpa)
+            if proj.predicted_min_c is not None:
+                row = {
+                    "night": d.isoformat(),
+                    "block": block.id,
+                    "station": proj.station,
+                    "issued_at": _iso(issue),
+                    "predicted_min_c": round(proj.predicted_min_c, 2),
+                    "observed_min_c": round(rec.observed_min_c, 2),
+                    "observed_min_at": _iso(rec.observed_min_at_utc),
+                    "band_c": proj.band_c,
+                    "regime": proj.regime,
+                    "radiation_night": rec.radiation_night,
+                    "calibration_nights": cal.n_nights,
+                    "t0_temp_c": round(rec.t0_temp_c, 2),
+                    "t0_dew_point_c": None if rec.t0_dew_point_c is None else round(rec.t0_dew_point_c, 2),
+                    "t0_wind_m_s": None if rec.t0_wind_m_s is None else round(rec.t0_wind_m_s, 2),
+                    "t0_cloud_frac": None if rec.t0_cloud_frac is None else round(rec.t0_cloud_frac, 2),
+                    "mean_wind_m_s": None if rec.mean_wind_m_s is None else round(rec.mean_wind_m_s, 2),
+                    "max_cloud_frac": None if rec.max_cloud_frac is None else round(rec.max_cloud_frac, 2),
+                }
+                if nowcast_lead_h is not None:
+                    at = rec.observed_min_at_utc - dt.timedelta(hours=nowcast_lead_h)
+                    nc = None
+                    if at > issue:
+                        now_win = slice_series(obs, start_s, at.timestamp())
+                        nc = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa).predicted_min_c
+                    row["nowcast_issued_at"] = _iso(at) if nc is not None else None
+                    row["nowcast_min_c"] = nc
+                rows.append(row)
+            # walk-forward: the night joins the history only after it has been forecast
+            ev.history[block.id].append(rec)
+        ev.learned.add(d)
+        if progress:
+            progress(k + 1, len(nights))
+    return rows
+
+
+def _errors(rows: list[dict]) -> dict:
+    if not rows:
+        return {"nights": 0, "forecasts": 0, "mae_c": None, "bias_c": None, "rmse_c": None}
+    err = np.array([r["predicted_min_c"] - r["observed_min_c"] for r in rows])
+    return {
+        "nights": len({r["night"] for r in rows}),
+        "forecasts": len(rows),
+        "mae_c": round(float(np.mean(np.abs(err))), 3),
+        "bias_c": round(float(np.mean(err)), 3),
+        "rmse_c": round(float(np.sqrt(np.mean(err**2))), 3),
+    }
+
+
+def backtest_summary(rows: list[dict]) -> dict:
+    """MAE, bias and RMSE over all rows, and over the radiation nights among them."""
+    out = _errors(rows)
+    out["radiation_nights"] = _errors([r for r in rows if r.get("radiation_night")])
+    return out
