@@ -532,6 +532,9 @@ class Daemon:
                 log.exception("scheduler shutdown")
         self.ingest.stop()
         try:
+            doc = self.heartbeat_doc()
+            doc["stopped"] = True
+            self.store.set_meta(HEARTBEAT_META, json.dumps(doc))
             self.store.add_event(self.clock(), "daemon", "stop", f"stored {self.ingest.stats.stored} readings this run")
             with self.store.lock:
                 self.store.conn.execute("PRAGMA wal_checkpoint(PASSIVE)")
