@@ -349,7 +349,11 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
 
     storage_v = _check_table("storage", raw.get("storage", {}), _SCHEMA["storage"], problems)
     base = path.parent if path else Path.cwd()
-    storage_path = Path(os.path.expanduser(storage_v.get("path") or "frostwatch.db"))
+    raw_path = storage_v.get("path") or "frostwatch.db"
+    if "\x00" in raw_path:
+        problems.append("storage.path: contains a NUL character; expected a file path")
+        raw_path = "frostwatch.db"
+    storage_path = Path(os.path.expanduser(raw_path))
     if not storage_path.is_absolute():
         storage_path = (base / storage_path).resolve()
     broker_v = _check_table("broker", raw.get("broker", {}), _SCHEMA["broker"], problems)
@@ -386,6 +390,8 @@ def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
 
     n_before = len(problems)
     t10, t90, source = v["kill_10pct_c"], v["kill_90pct_c"], "set in the config (manual override)"
+    if not isinstance(v.get("crop"), str) or not isinstance(v.get("stage"), str):
+        return None  # the missing or mistyped key is already reported
     try:
         ct = crops.critical_temps(v["crop"], v["stage"], hardiness_offset_c=float(v["hardiness_offset_c"]))
         crop, stage = ct.crop, ct.stage

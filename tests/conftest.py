@@ -14,7 +14,16 @@ import time
 from importlib import resources
 from pathlib import Path
 
+import os
+
 import pytest
+from hypothesis import HealthCheck, settings
+
+# Hypothesis profiles: "ci" (the default, quick) and "long" for a by-hand run of 10,000+ examples:
+#   HYPOTHESIS_PROFILE=long bash tests/run tests/fuzz
+settings.register_profile("ci", max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+settings.register_profile("long", max_examples=10_000, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "ci"))
 
 REPO = Path(__file__).resolve().parent.parent
 SAMPLE_LOGS = REPO / "sample_sensor_logs"
