@@ -95,7 +95,8 @@ def snapshot(cfg: Config, store: Store, now_utc: dt.datetime, evaluator: Evaluat
             obs = window[(proj.station, "air_temperature")]
         elif crop and (crop[0].id, "air_temperature") in window:
             obs = window[(crop[0].id, "air_temperature")]
-        ack_rows = acks.get(last["key"], []) if last else []
+        ack_rows = sorted(({**r, "level": a["level"], "alert_key": a["key"]} for a in mine for r in acks.get(a["key"], [])),
+                          key=lambda r: r["time_utc_ms"])
         blocks.append({
             "block": b, "stations": stations, "projection": proj, "advice": adv, "error": proj_error,
             "alert": last, "alert_state": states.get(last["key"]) if last else None, "acks": ack_rows,
@@ -221,9 +222,12 @@ def render_page(snap: dict, refresh_s: int) -> str:
         if a:
             ack = item["acks"]
             st = item["alert_state"]
-            ack_txt = (f"acknowledged by {e(str(ack[-1].get('who') or 'someone'))} at "
-                       f"{d.time(from_ms(ack[-1]['time_utc_ms']))}" if ack else
-                       ("not acknowledged" if rank >= LEVELS["standby"] else ""))
+            if ack:
+                of = "" if ack[-1]["alert_key"] == a["key"] else f" (the {e(ack[-1]['level'])} alert; not this one yet)"
+                ack_txt = (f"acknowledged by {e(str(ack[-1].get('who') or 'someone'))} at "
+                           f"{d.time(from_ms(ack[-1]['time_utc_ms']))}{of}")
+            else:
+                ack_txt = "not acknowledged" if rank >= LEVELS["standby"] else ""
             if st and st.get("state") == "acked" and not ack:
                 ack_txt = "acknowledged"
             alert_txt = (f'<p><span class="lvl">{e(a["level"])}</span> since {d.time(from_ms(a["time_utc_ms"]))}'
@@ -277,7 +281,8 @@ def snapshot_json(snap: dict) -> dict:
             "inversion_c": None if p is None else p.inversion_c,
             "advice": None if item["advice"] is None else item["advice"].action,
             "alert_level": a["level"] if a else None, "alert_rank": a["rank"] if a else None,
-            "acknowledged": bool(item["acks"]),
+            "acknowledged": bool(a and any(r["alert_key"] == a["key"] for r in item["acks"])),
+            "acknowledged_by": item["acks"][-1].get("who") if item["acks"] else None,
         })
     return out
 

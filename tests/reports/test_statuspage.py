@@ -1,0 +1,110 @@
+"""The local status page on a real loopback HTTP server: content, phone rendering in headless
+Chromium, the token for LAN binds, and acknowledgement links."""
+
+from __future__ import annotations
+
+import datetime as dt
+import threading
+import urllib.error
+import urllib.request
+
+import pytest
+from reports_helpers import chromium
+
+from frostwatch.config import load_config
+from frostwatch.errors import UsageError
+from frostwatch.statuspage import make_server
+from frostwatch.store import Store
+
+NOW = dt.datetime.fromisoformat("2027-04-15T04:30:00-07:00").astimezone(dt.UTC)  # mid-frost, demo night
+TOKEN = "s3cret-token-for-tests-0123456789"
+
+
+@pytest.fixture
+def running(frost_night_store):
+    servers = []
+
+    def start(bind="127.0.0.1", token=None, now=NOW):
+        cfg = load_config(frost_night_store)
+        srv = make_server(cfg, bind, 0, token=token, now_fn=lambda: now, refresh_s=30)
+        threading.Thread(target=srv.serve_forever, daemon=True).start()
+        servers.append(srv)
+        return srv, srv.server_address[1]
+
+    yield start
+    for s in servers:
+        s.shutdown()
+        s.server_close()
+        s.store.close()
+
+
+def _get(url, headers=None, data=None):
+    req = urllib.request.Request(url, headers=headers or {}, data=data)
+    try:
+        with urllib.request.urlopen(req, timeout=10) as r:
+            return r.status, r.read().decode(), dict(r.headers)
+    except urllib.error.HTTPError as exc:
+        return exc.code, exc.read().decode(), dict(exc.headers)
+
+
+def test_page_shows_every_block_with_temperatures_alerts_and_refresh(running):
+    _, port = running()
+    code, body, headers = _get(f"http://127.0.0.1:{port}/")
+    assert code == 200 and headers["Content-Type"].startswith("text/html")
+    for b in ("east", "river", "hill"):
+        assert f'id="block-{b}"' in body
+    assert '<meta http-equiv="refresh" content="30">' in body
+    assert 'name="viewport"' in body and "<svg" in body
+    assert "T10 -2.2 °C" in body and "2027-04-15 04:30 PDT" in body
+    assert "ACT" in body.upper() and "advises; the grower decides" in body
+    code, doc, _ = _get(f"http://127.0.0.1:{port}/status.json")
+    assert code == 200 and '"block": "east"' in doc
+
+
+def test_page_renders_on_a_phone_in_headless_chromium(running, tmp_path):
+    _, port = running()
+    dom = chromium(f"http://127.0.0.1:{port}/", tmp_path, "status-page.png", height=915)
+    for b in ("east", "river", "hill"):
+        assert f'id="block-{b}"' in dom
+    assert "T10" in dom and "°C" in dom and "as-of" in dom
+
+
+def test_binding_beyond_loopback_without_a_token_is_refused(frost_night_store):
+    cfg = load_config(frost_night_store)
+    with pytest.raises(UsageError, match="token"):
+        make_server(cfg, "0.0.0.0", 0)
+
+
+def test_lan_bound_page_refuses_requests_without_the_token(running):
+    _, port = running(bind="0.0.0.0", token=TOKEN)
+    base = f"http://127.0.0.1:{port}"
+    assert _get(base + "/")[0] == 403
+    assert _get(base + "/status.json")[0] == 403
+    assert _get(base + "/?token=wrong-token-wrong-token")[0] == 403
+    assert _get(base + "/", {"Cookie": "frostwatch_token=wrong"})[0] == 403
+    code, body, headers = _get(base + f"/?token={TOKEN}")
+    assert code == 200 and 'id="block-east"' in body
+    assert headers["Set-Cookie"].startswith(f"frostwatch_token={TOKEN}") and "HttpOnly" in headers["Set-Cookie"]
+    assert _get(base + "/", {"Cookie": f"frostwatch_token={TOKEN}"})[0] == 200
+
+
+def test_page_is_read_only(running):
+    _, port = running()
+    assert _get(f"http://127.0.0.1:{port}/", data=b"x=1")[0] == 405
+
+
+def test_ack_link_confirms_then_acknowledges_once(running, frost_night_store):
+    acks = pytest.importorskip("frostwatch.alerts.acks")
+    srv, port = running()
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        key = next(a["key"] for a in store.alerts(NOW - dt.timedelta(hours=12), NOW) if a["block"] == "east")
+        token = acks.ack_link_token(store, key, "manager@example.org", issued_utc=NOW - dt.timedelta(minutes=5))
+    code, body, _ = _get(f"http://127.0.0.1:{port}/ack/{token}")
+    assert code == 200 and 'id="confirm"' in body and 'method="post"' in body
+    code, body, _ = _get(f"http://127.0.0.1:{port}/ack/{token}", data=b"")
+    assert code == 200 and "Acknowledged" in body, body
+    code, body, _ = _get(f"http://127.0.0.1:{port}/ack/{token}", data=b"")
+    assert code == 403 and "already been used" in body
+    assert _get(f"http://127.0.0.1:{port}/ack/forged.token.here", data=b"")[0] == 403
+    _, page, _ = _get(f"http://127.0.0.1:{port}/")
+    assert "acknowledged by manager@example.org" in page
