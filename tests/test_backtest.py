@@ -1,0 +1,186 @@
+"""The walk-forward backtest (DESIGN.md 1.4): no peeking at the night itself or later ones, nights
+the log does not cover are neither scored nor learned, and the command's two outputs."""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from frostwatch import backtest as bt
+from frostwatch.config import load_config
+from frostwatch.pipeline import backtest, backtest_summary
+
+SITE = """
+[site]
+name = "Test Flat"
+latitude = 46.4
+longitude = -120.3
+elevation_m = 300
+timezone = "America/Los_Angeles"
+
+[[blocks]]
+id = "b"
+crop = "apple"
+stage = "full bloom"
+protection = "{protection}"
+application_rate_mm_h = 3.5
+
+[[stations]]
+id = "b-low"
+block = "b"
+height_m = 1.5
+interval_s = 300
+
+[[stations]]
+id = "b-low-2"
+block = "b"
+height_m = 1.5
+interval_s = 300
+
+[[stations]]
+id = "b-tower"
+block = "b"
+height_m = 10.0
+interval_s = 300
+
+[storage]
+path = "t.db"
+
+[broker]
+host = "127.0.0.1"
+port = 1883
+prefix = "frostwatch"
+"""
+
+
+def make_cfg(tmp_path: Path, protection: str = "none"):
+    p = tmp_path / "site.toml"
+    p.write_text(SITE.format(protection=protection), encoding="utf-8")
+    return load_config(str(p))
+
+
+N_NIGHTS = 14
+
+
+def synthetic_log(cfg, n=N_NIGHTS, seed=3):
+    """`n` nights of 10-min readings: each night's minimum follows an Allen-type rule of its
+    T0 and dew point plus noise, on a square-root curve from t0 (reference sheet 1.1)."""
+    from frostwatch.night import night_of_date
+
+    rng = np.random.default_rng(seed)
+    s = cfg.site
+    t_all, air_all, td_all = [], [], []
+    for k in range(n):
+        night = night_of_date(s.latitude, s.longitude, s.tz, dt.date(2027, 3, 20) + dt.timedelta(days=k))
+        t0, td = rng.uniform(0, 9), rng.uniform(-10, -1)
+        tn = 0.5 * t0 + 0.1 * td - 4.0 + rng.normal(0, 0.4)
+        start, dusk, sunrise = night.sunset_utc.timestamp() - 6 * 3600, night.dusk_utc.timestamp(), night.sunrise_utc.timestamp()
+        t = np.arange(start, sunrise + 2 * 3600, 600.0)
+        air = np.where(t < dusk, t0 + 6 * (dusk - t) / (8 * 3600), t0 + (tn - t0) * np.sqrt(np.clip((t - dusk) / (sunrise - dusk), 0, 1)))
+        air = np.where(t > sunrise, tn + 2.0 * (t - sunrise) / 3600, air)
+        t_all.append(t)
+        air_all.append(air)
+        td_all.append(np.minimum(td, air))
+    t = np.concatenate(t_all)
+    order = np.argsort(t, kind="stable")
+    t, air, td = t[order], np.concatenate(air_all)[order], np.concatenate(td_all)[order]
+    keep = np.concatenate([[True], np.diff(t) > 0])
+    return {
+        ("b-low", "air_temperature"): (t[keep], air[keep]),
+        ("b-low", "dew_point_temperature"): (t[keep], td[keep]),
+        ("b-low", "wind_speed"): (t[keep], np.full(keep.sum(), 0.4)),
+    }
+
+
+def cut(series, end_s):
+    return {k: (t[t <= end_s], v[t <= end_s]) for k, (t, v) in series.items()}
+
+
+def test_forecast_for_night_k_unchanged_when_later_nights_removed(tmp_path):
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg)
+    full = backtest(cfg, series)
+    assert len(full) == N_NIGHTS
+    for k in (0, 3, 9, N_NIGHTS - 2):
+        # keep everything up to the end of night k's observation window (sunrise + 1 h)
+        end = dt.datetime.fromisoformat(full[k]["observed_min_at"].replace("Z", "+00:00")).timestamp() + 3 * 3600
+        part = backtest(cfg, cut(series, end))
+        assert part[: k + 1] == full[: k + 1]
+
+
+def test_forecast_never_sees_its_own_night(tmp_path):
+    """Changing night k's minimum (after its issue time) changes no forecast up to k."""
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg)
+    full = backtest(cfg, series)
+    k = 8
+    issue = dt.datetime.fromisoformat(full[k]["issued_at"].replace("Z", "+00:00")).timestamp()
+    t, v = series[("b-low", "air_temperature")]
+    v2 = v.copy()
+    later = (t > issue) & (t < issue + 8 * 3600)
+    v2[later] -= 5.0
+    changed = dict(series)
+    changed[("b-low", "air_temperature")] = (t, v2)
+    rows = backtest(cfg, changed)
+    assert [r["predicted_min_c"] for r in rows[: k + 1]] == [r["predicted_min_c"] for r in full[: k + 1]]
+    assert rows[k]["observed_min_c"] < full[k]["observed_min_c"] - 4.0
+    assert rows[k + 1]["predicted_min_c"] != full[k + 1]["predicted_min_c"]  # learned afterwards
+
+
+def test_calibration_counts_only_earlier_nights_and_improves(tmp_path):
+    cfg = make_cfg(tmp_path)
+    rows = backtest(cfg, synthetic_log(cfg, n=24))
+    assert [r["calibration_nights"] for r in rows] == list(range(len(rows)))
+    err = np.abs([r["predicted_min_c"] - r["observed_min_c"] for r in rows])
+    assert err[-8:].mean() < 1.0  # the site's own rule is learned (noise 0.4 degC)
+    assert err[-8:].mean() < err[:4].mean()
+
+
+def test_uncovered_night_is_neither_scored_nor_learned(tmp_path):
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg)
+    full = backtest(cfg, series)
+    # a three-hour hole in night 5
+    issue = dt.datetime.fromisoformat(full[5]["issued_at"].replace("Z", "+00:00")).timestamp()
+    holed = {k: (t[(t < issue + 3600) | (t > issue + 4 * 3600)], v[(t < issue + 3600) | (t > issue + 4 * 3600)]) for k, (t, v) in series.items()}
+    rows = backtest(cfg, holed)
+    assert full[5]["night"] not in [r["night"] for r in rows]
+    assert len(rows) == N_NIGHTS - 1
+    assert rows[5]["calibration_nights"] == 5
+
+
+def test_summary_has_contract_keys_and_radiation_split():
+    rows = [
+        {"night": "2027-04-01", "predicted_min_c": -1.0, "observed_min_c": -2.0, "radiation_night": True},
+        {"night": "2027-04-02", "predicted_min_c": 1.0, "observed_min_c": 0.0, "radiation_night": False},
+        {"night": "2027-04-03", "predicted_min_c": 0.0, "observed_min_c": 2.0, "radiation_night": False},
+    ]
+    s = backtest_summary(rows)
+    assert s["nights"] == 3 and s["mae_c"] == pytest.approx(4 / 3, abs=1e-3) and s["bias_c"] == 0.0
+    assert s["radiation_nights"]["nights"] == 1 and s["radiation_nights"]["bias_c"] == 1.0
+    assert backtest_summary([])["mae_c"] is None
+
+
+def test_candidate_nights_follow_the_data(tmp_path):
+    cfg = make_cfg(tmp_path)
+    nights = bt.candidate_nights(cfg, synthetic_log(cfg, n=3))
+    assert nights[0] == dt.date(2027, 3, 20) and len(nights) <= 5
+
+
+def test_backtest_command_table_and_json(tmp_path, demo_config, demo_logs):
+    cmd = [sys.executable, "-m", "frostwatch", "backtest", *map(str, demo_logs), "--config", str(demo_config)]
+    out = subprocess.run(cmd + ["--json"], capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    doc = json.loads(out.stdout)
+    assert set(doc) == {"nights", "summary"}
+    for r in doc["nights"]:
+        assert {"night", "station", "issued_at", "predicted_min_c", "observed_min_c", "observed_min_at"} <= set(r)
+    assert doc["summary"]["nights"] == 3
+    out = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0 and "walk-forward" in out.stdout and "east-low" in out.stdout

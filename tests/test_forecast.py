@@ -1,0 +1,325 @@
+"""The block projection: physical invariants, which sensor speaks, stale sensors, inversion,
+and the demo nights. Synthetic series are built here; the computed check values of the physics
+(reference sheet 1.1-2.4) are tested in tests/physics and not repeated."""
+
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from frostwatch import forecast
+from frostwatch.commands.logs import _series_from_readings
+from frostwatch.config import load_config
+from frostwatch.ingest.csvlog import read_sensor_log
+from frostwatch.night import night_of_date
+from frostwatch.pipeline import backtest
+
+SITE = """
+[site]
+name = "Test Flat"
+latitude = 46.4
+longitude = -120.3
+elevation_m = 300
+timezone = "America/Los_Angeles"
+
+[[blocks]]
+id = "b"
+crop = "apple"
+stage = "full bloom"
+protection = "{protection}"
+application_rate_mm_h = 3.5
+
+[[stations]]
+id = "b-low"
+block = "b"
+height_m = 1.5
+interval_s = 300
+
+[[stations]]
+id = "b-low-2"
+block = "b"
+height_m = 1.5
+interval_s = 300
+
+[[stations]]
+id = "b-tower"
+block = "b"
+height_m = 10.0
+interval_s = 300
+
+[storage]
+path = "t.db"
+
+[broker]
+host = "127.0.0.1"
+port = 1883
+prefix = "frostwatch"
+"""
+
+
+def make_cfg(tmp_path: Path, protection: str = "none"):
+    p = tmp_path / "site.toml"
+    p.write_text(SITE.format(protection=protection), encoding="utf-8")
+    return load_config(str(p))
+
+
+EVENING = dt.date(2027, 4, 14)
+
+
+def night_for(cfg):
+    s = cfg.site
+    return night_of_date(s.latitude, s.longitude, s.tz, EVENING)
+
+
+def evening_series(cfg, night, t0_c=6.0, td_c=-2.0, wind=0.5, cloud=None, offset_c=None, tower_c=None, until=None):
+    """5-min readings from 6 h before sunset to `until` (default dusk): air falls 8 degC
+    toward sunset + 2 h and reaches `t0_c` there; dew point, wind and cloud constant."""
+    start = night.sunset_utc.timestamp() - 6 * 3600.0
+    end = (until or night.dusk_utc).timestamp()
+    t = np.arange(start, end + 1.0, 300.0)
+    dusk = night.dusk_utc.timestamp()
+    air = t0_c + 8.0 * np.clip((dusk - t) / (8 * 3600.0), 0.0, 1.0)
+    after = t > dusk
+    air[after] = t0_c - 1.6 * np.sqrt((t[after] - dusk) / 3600.0)
+    out = {("b-low", "air_temperature"): (t, air), ("b-low", "dew_point_temperature"): (t, np.minimum(td_c, air))}
+    out[("b-low", "wind_speed")] = (t, np.full_like(t, wind))
+    if cloud is not None:
+        out[("b-low", "cloud_area_fraction")] = (t, np.full_like(t, cloud))
+    if offset_c is not None:
+        out[("b-low-2", "air_temperature")] = (t, air + offset_c)
+    if tower_c is not None:
+        out[("b-tower", "air_temperature")] = (t, air + tower_c)
+    return out
+
+
+def dusk_min(cfg, **kw):
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, **kw), night)
+    assert p.predicted_min_c is not None
+    return p.predicted_min_c
+
+
+# ---- physical invariants of the projection (physics prior, no site history) -------------------
+
+
+def test_clearer_sky_never_projects_warmer_minimum(tmp_path):
+    cfg = make_cfg(tmp_path)
+    mins = [dusk_min(cfg, cloud=c) for c in (0.0, 0.2, 0.4, 0.6, 0.8, 1.0)]
+    assert all(a <= b + 1e-9 for a, b in zip(mins, mins[1:], strict=False)), mins
+    assert mins[0] < mins[-1]
+
+
+def test_higher_dew_point_never_projects_colder_minimum(tmp_path):
+    cfg = make_cfg(tmp_path)
+    mins = [dusk_min(cfg, td_c=td) for td in (-12.0, -8.0, -4.0, 0.0, 3.0, 5.5)]
+    assert all(a <= b + 1e-9 for a, b in zip(mins, mins[1:], strict=False)), mins
+
+
+def test_more_wind_never_projects_colder_in_radiative_model(tmp_path):
+    cfg = make_cfg(tmp_path)
+    mins = [dusk_min(cfg, wind=w) for w in (0.0, 0.5, 1.0, 1.5, 2.0, 2.4)]
+    assert all(a <= b + 1e-9 for a, b in zip(mins, mins[1:], strict=False)), mins
+
+
+def test_projection_is_monotone_in_starting_temperature(tmp_path):
+    cfg = make_cfg(tmp_path)
+    mins = [dusk_min(cfg, t0_c=t0, td_c=-6.0) for t0 in (-2.0, 0.0, 2.0, 4.0, 8.0, 12.0)]
+    assert all(a <= b + 1e-9 for a, b in zip(mins, mins[1:], strict=False)), mins
+
+
+def test_invariants_hold_with_a_site_calibration(tmp_path):
+    """A calibration whose regression has physical signs keeps the invariants (common practice:
+    FAO-FP ch. 5's fitted slopes on T0 and Td are positive)."""
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    recs = [
+        forecast.NightRecord(dt.date(2027, 3, d), "b-low", t0, td, 11.0, 0.5 * t0 + 0.1 * td - 4.0 + 3.0 * c,
+                             night.sunrise_utc, 0.5, c, 0.0, True, 0.5, c)
+        for d, (t0, td, c) in enumerate([(2, -6, 0.0), (5, -2, 0.1), (8, 0, 0.6), (3, -8, 0.0), (6, -1, 0.9),
+                                         (1, -9, 0.2), (7, -3, 0.0), (4, -4, 0.4), (9, 1, 1.0), (2, -3, 0.3)], start=1)
+    ]
+    cal = forecast.fit_calibration(recs, 10)
+    assert cal.coefs[0] > 0 and cal.coefs[1] > 0 and cal.coefs[2] > 0
+    def m(**kw):
+        return forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, **kw), night, cal).predicted_min_c
+    assert m(cloud=0.0) <= m(cloud=0.5) <= m(cloud=1.0)
+    assert m(td_c=-8.0, cloud=0.0) <= m(td_c=-2.0, cloud=0.0)
+    assert m(t0_c=2.0, cloud=0.0) <= m(t0_c=6.0, cloud=0.0)
+
+
+def test_clear_sky_assumed_and_said_without_sky_sensor(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night), night)
+    assert any("clear sky assumed" in n for n in p.notes)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, cloud=0.2), night)
+    assert not any("clear sky assumed" in n for n in p.notes)
+
+
+def test_windy_and_cloudy_nights_are_flagged(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    later = night.dusk_utc + dt.timedelta(hours=3)
+    p = forecast.project_block(later, cfg.blocks[0], cfg, evening_series(cfg, night, wind=4.0, until=later), night)
+    assert p.regime == "windy" and "observed trend" in p.method
+    assert any("radiation model does not hold" in n for n in p.notes)
+    p = forecast.project_block(later, cfg.blocks[0], cfg, evening_series(cfg, night, cloud=0.9, until=later), night)
+    assert p.regime == "cloudy"
+
+
+def test_nowcast_follows_tonight(tmp_path):
+    """Tonight cools along T0 - 1.6 sqrt(t - t0); four hours in, the nowcast's curve is that one
+    (Reuter's square-root curve, reference sheet 1.2) whatever the dusk forecast said."""
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    now = night.dusk_utc + dt.timedelta(hours=6)
+    p = forecast.project_block(now, cfg.blocks[0], cfg, evening_series(cfg, night, until=now), night)
+    h = night.hours_to_sunrise(night.dusk_utc)
+    expected = 6.0 - 1.6 * np.sqrt(h)
+    assert p.method.startswith("nowcast")
+    assert p.predicted_min_c == pytest.approx(expected, abs=0.6)
+    assert p.band_c < forecast.PRIOR_BAND_C
+
+
+def test_crossings_are_ordered(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=2.0, td_c=-9.0), night)
+    c = p.crossings_utc
+    assert p.predicted_min_c < cfg.blocks[0].kill_90pct_c or c["t90"] is None
+    assert c["t10_margin"] is not None and c["t10"] is not None
+    assert c["t10_margin"] <= c["t10"]
+    if c["t90"] is not None:
+        assert c["t10"] <= c["t90"]
+
+
+def test_wet_bulb_only_for_sprinkler_blocks(tmp_path):
+    night = night_for(make_cfg(tmp_path))
+    for protection, expect in (("none", False), ("overtree_sprinkler", True)):
+        cfg = make_cfg(tmp_path, protection)
+        p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=2.0), night)
+        assert (p.wet_bulb_c is not None) is expect
+        assert ("wet_bulb_t10" in p.crossings_utc) is expect
+        if expect:
+            assert p.wet_bulb_c < p.air_temp_c  # dry air: wet bulb below the air (ASHRAE psychrometrics)
+
+
+# ---- which sensor speaks, stale sensors ---------------------------------------------------------
+
+
+def test_speaking_sensor_is_the_coldest_healthy_crop_height_one(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    s = evening_series(cfg, night, offset_c=-1.0, tower_c=-3.0)  # tower colder: still not a crop sensor
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, s, night)
+    assert p.station == "b-low-2"
+    s = evening_series(cfg, night, offset_c=+1.0)
+    assert forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, s, night).station == "b-low"
+
+
+def test_stale_sensor_is_left_out_and_reported(tmp_path):
+    """A crop sensor silent for more than 3 of its intervals (config stale_after_intervals) is not
+    used at its last value, however cold, and the projection says so."""
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    s = evening_series(cfg, night, offset_c=-2.0)
+    t, v = s[("b-low-2", "air_temperature")]
+    now = night.dusk_utc.timestamp()
+    keep = t <= now - 3.5 * 300.0  # silent for 3.5 intervals
+    s[("b-low-2", "air_temperature")] = (t[keep], v[keep])
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, s, night)
+    assert p.station == "b-low"
+    assert any("b-low-2" in n and "silent" in n and "left out" in n for n in p.notes)
+    keep = t <= now - 2.0 * 300.0  # silent for 2 intervals: still trusted
+    s[("b-low-2", "air_temperature")] = (t[keep], v[keep])
+    assert forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, s, night).station == "b-low-2"
+
+
+def test_stuck_sensor_is_left_out(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    s = evening_series(cfg, night, offset_c=-2.0)
+    t, v = s[("b-low-2", "air_temperature")]
+    s[("b-low-2", "air_temperature")] = (t, np.full_like(v, -5.0))
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, s, night)
+    assert p.station == "b-low"
+    assert any("stuck" in n for n in p.notes)
+
+
+def test_no_healthy_sensor_gives_no_projection(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    s = evening_series(cfg, night)
+    late = night.dusk_utc + dt.timedelta(hours=2)
+    p = forecast.project_block(late, cfg.blocks[0], cfg, s, night)
+    assert p.station is None and p.predicted_min_c is None and p.regime == "unmonitored"
+    assert any("no healthy crop-height sensor" in n for n in p.notes)
+
+
+# ---- inversion -----------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    "tower_c, cls",
+    [(-0.5, "none"), (1.0, "weak"), (2.0, "moderate"), (4.0, "strong")],
+    # thresholds: reference sheet 3 (Goodall et al. 1957; Ker et al. 2007 "strong" >= 3 degC)
+)
+def test_inversion_measured_and_classified(tmp_path, tower_c, cls):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, tower_c=tower_c), night)
+    assert p.inversion_c == pytest.approx(tower_c, abs=0.01)
+    assert p.inversion_class == cls
+    assert p.projected_inversion_c is not None
+
+
+def test_inversion_projected_grows_when_crop_cools_faster(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    now = night.dusk_utc + dt.timedelta(hours=3)
+    s = evening_series(cfg, night, tower_c=1.0, until=now)
+    t, v = s[("b-low", "air_temperature")]
+    dusk = night.dusk_utc.timestamp()
+    tower = v + 1.0 + 0.8 * np.sqrt(np.clip((t - dusk) / 3600.0, 0, None))  # the tower cools half as fast
+    s[("b-tower", "air_temperature")] = (t, tower)
+    p = forecast.project_block(now, cfg.blocks[0], cfg, s, night)
+    assert p.projected_inversion_c > p.inversion_c > 1.0
+
+
+def test_no_tower_says_so(tmp_path):
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night), night)
+    assert p.inversion_c is None and any("no tower" in n for n in p.notes)
+
+
+# ---- the demo farm ------------------------------------------------------------------------
+
+
+def test_demo_frost_night_projects_sub_t10_by_dusk_and_cloudy_night_does_not(demo_config, demo_logs):
+    cfg = load_config(str(demo_config))
+    known = {s.id for s in cfg.stations}
+    readings = [r for log in demo_logs for r in read_sensor_log(log, known)[0]]
+    rows = backtest(cfg, _series_from_readings(readings))
+    t10 = {b.id: b.kill_10pct_c for b in cfg.blocks}
+    frost = {r["block"]: r for r in rows if r["night"] == "2027-04-14"}
+    cloudy = {r["block"]: r for r in rows if r["night"] == "2027-04-16"}
+    assert frost["east"]["predicted_min_c"] < t10["east"]
+    assert frost["east"]["observed_min_c"] < t10["east"]
+    assert cloudy and all(r["predicted_min_c"] > t10[b] for b, r in cloudy.items())
+
+
+# ---- speed budget (not timed here: bench/ measures; this only keeps the work per call small) ----
+
+
+def test_calibration_fit_is_memoised_for_a_growing_history():
+    recs: list = []
+    a = forecast.fit_calibration(recs, 10)
+    assert forecast.fit_calibration(recs, 10) is a
+    recs.append(forecast.NightRecord(EVENING, "b-low", 3.0, -4.0, 11.0, -3.0, dt.datetime(2027, 4, 15, tzinfo=dt.UTC),
+                                     0.5, 0.0, -2.0, True, 0.5, 0.0))
+    b = forecast.fit_calibration(recs, 10)
+    assert b is not a and b.n_nights == 1
