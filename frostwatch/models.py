@@ -81,7 +81,12 @@ class Projection:
 
 @dataclass(frozen=True)
 class Advice:
-    """What to do about a block now: the action, why, when, and the cautions."""
+    """What to do about a block now: the action, why, when, and the cautions.
+
+    `method` is the block's protection method; `stop_rule` says when it may stop; `resources`
+    holds the night's estimated running hours, water (m3, peak L/s), fuel (L) or energy (kWh);
+    `alternatives` says what else helps where the configured method will not do.
+    """
 
     time_utc: dt.datetime
     block: str
@@ -99,6 +104,10 @@ class Advice:
     expected_gain_c: float | None = None
     cautions: tuple[str, ...] = ()
     details: dict = field(default_factory=dict)
+    method: str = ""
+    stop_rule: str = ""
+    resources: dict = field(default_factory=dict)
+    alternatives: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
