@@ -156,6 +156,7 @@ class Core:
         )
         self.publish: Callable[[str, object], None] = lambda topic, doc: None
         self.job_runs: dict[str, int] = {}
+        self.job_log: list[tuple[str, dt.date, dt.datetime]] = []
 
     # -- evaluations ---------------------------------------------------------------------------
     def in_watch_window(self, now: dt.datetime) -> bool:
@@ -163,7 +164,8 @@ class Core:
 
     def tick(self, now: dt.datetime | None = None) -> None:
         """The interval job: evaluate if due, then run any daily job that is due."""
-        now = now or self.clock()
+        # UTC always: subtracting two datetimes of one local zone gives wall-clock, not real, time
+        now = (now or self.clock()).astimezone(dt.UTC)
         due = self.last_eval_utc is None or self.in_watch_window(now) or (
             (now - self.last_eval_utc).total_seconds() >= self.s.day_interval_min * 60.0 - 1.0
         )
@@ -172,7 +174,7 @@ class Core:
         self.daily(now)
 
     def evaluate(self, now: dt.datetime | None = None, reason: str = "scheduled"):
-        now = now or self.clock()
+        now = (now or self.clock()).astimezone(dt.UTC)
         with self.eval_lock:
             night = self.evaluator.night_at(now)
             series = self.store.readings_window(night.sunset_utc - LOOKBACK, now)
@@ -235,6 +237,7 @@ class Core:
         return out
 
     def daily(self, now: dt.datetime) -> None:
+        now = now.astimezone(dt.UTC)
         for name, night in self.daily_due(now):
             try:
                 getattr(self, f"job_{name}")(now, night)
@@ -243,6 +246,7 @@ class Core:
                 # the failure itself is recorded as an event by the caller's guard
                 self.store.set_meta(DONE_META + name, night.date.isoformat())
                 self.job_runs[name] = self.job_runs.get(name, 0) + 1
+                self.job_log.append((name, night.date, now))
 
     def job_dusk(self, now: dt.datetime, night: Night) -> None:
         """The dusk briefing: an evaluation at sunset + 2 h gives each block's outlook (the alert

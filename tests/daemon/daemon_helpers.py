@@ -33,14 +33,16 @@ def write_config(tmp: Path, port: int, extra: str = "") -> Path:
 class DaemonProc:
     """`frostwatch run` in a subprocess, owned by the test (stopped by its own pid only)."""
 
-    def __init__(self, config: Path):
+    def __init__(self, config: Path, env: dict | None = None):
         self.config = config
+        self.extra_env = env or {}
         self.log = config.parent / "daemon.log"
         self.proc: subprocess.Popen | None = None
 
     def start(self) -> None:
         env = dict(os.environ, PYTHONUNBUFFERED="1", FROSTWATCH_LOG_LEVEL="INFO")
         env.pop("NOTIFY_SOCKET", None)
+        env.update(self.extra_env)
         f = self.log.open("ab")
         self.proc = subprocess.Popen(
             [sys.executable, "-m", "frostwatch", "run", "--config", str(self.config)],

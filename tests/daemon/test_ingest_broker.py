@@ -12,7 +12,7 @@ import threading
 import time
 
 import pytest
-from daemon_helpers import connect_publisher, db_count, publish_all, reading_msgs, wait_until
+from daemon_helpers import DaemonProc, connect_publisher, db_count, publish_all, reading_msgs, wait_until
 
 pytestmark = pytest.mark.broker
 
@@ -169,3 +169,49 @@ def test_poison_payloads_are_rejected_with_reasons_and_ingest_carries_on(site, m
     daemon_proc.proc.send_signal(signal.SIGUSR1)
     assert wait_until(lambda: "thread MainThread" in daemon_proc.log_text(), 10)
     assert daemon_proc.terminate() == 0
+
+
+def test_ready_watchdog_and_status(site, mosquitto, tmp_path):
+    """READY=1 once started, WATCHDOG=1 pings while healthy (a fake NOTIFY_SOCKET), and
+    `frostwatch status --json` shows the stations, blocks and heartbeat."""
+    import socket
+    import subprocess
+    import sys
+
+    cfg, db = site
+    sock_path = tmp_path / "notify.sock"
+    srv = socket.socket(socket.AF_UNIX, socket.SOCK_DGRAM)
+    srv.bind(str(sock_path))
+    srv.settimeout(20)
+    d = DaemonProc(cfg, env={"NOTIFY_SOCKET": str(sock_path), "WATCHDOG_USEC": "2000000"})
+    try:
+        d.start()
+        got = []
+        while "WATCHDOG=1" not in got:
+            got.append(srv.recv(4096).decode())
+        assert "READY=1" in got and got.index("READY=1") < got.index("WATCHDOG=1")
+        pub = connect_publisher(mosquitto.port)
+        publish_all(pub, reading_msgs(30, NOW - dt.timedelta(minutes=30)))
+        pub.loop_stop()
+        assert wait_until(lambda: db_count(db) >= 30, 20)
+        assert wait_until(lambda: db_count(db, "SELECT count(*) FROM meta WHERE key='daemon.blocks'") == 1, 20)
+        out = subprocess.run(
+            [sys.executable, "-m", "frostwatch", "status", "--config", str(cfg), "--json"],
+            capture_output=True, text=True, timeout=60,
+        )
+        assert out.returncode == 0, out.stderr
+        doc = json.loads(out.stdout)
+        by_id = {s["station"]: s for s in doc["stations"]}
+        assert by_id["east-low"]["age_s"] is not None and by_id["east-tower"]["age_s"] is None
+        assert {b["block"] for b in doc["blocks"]} == {"east", "river", "hill"}
+        assert all(b["level"] for b in doc["blocks"])
+        assert doc["daemon"]["pid"] == d.proc.pid and doc["daemon"]["broker_connected"] is True
+        assert d.terminate() == 0
+        got = []
+        srv.settimeout(5)
+        while "STOPPING=1" not in got:
+            got.append(srv.recv(4096).decode())
+    finally:
+        srv.close()
+        if d.alive():
+            d.kill()
