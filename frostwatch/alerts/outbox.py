@@ -141,9 +141,11 @@ class Outbox:
         return [r[0] for r in rows if night is None or night_of_key(r[0]) == night]
 
     def _rows(self, level: str, people: list[Contact], seq: int, kind: str, now_utc: dt.datetime,
-              only_local: bool = False) -> list[dict]:
+              only_local: bool = False, every_channel: bool = False) -> list[dict]:
         rows = []
         channels = self.ac.channels_for(level) if not only_local else [c for c in self.ac.channels if c.local]
+        if every_channel:
+            channels = list(self.ac.channels)
         for ch in channels:
             if ch.address == "none":
                 rows.append({"channel": ch.name, "recipient": BROADCAST, "seq": seq, "kind": kind, "local": ch.local,
