@@ -119,7 +119,7 @@ def _risk(p: Projection, block: Block, after_sunrise: bool, d: Display) -> tuple
 # ---- wind machines ---------------------------------------------------------------------------
 
 
-def _wind_machine_plan(p: Projection, block: Block, d: Display, supercooled_fog: bool | None) -> dict:
+def wind_machine_plan(p: Projection, block: Block, d: Display, supercooled_fog: bool | None) -> dict:
     """Will fans help tonight, by how much, and if not, why and what else helps."""
     inv = p.projected_inversion_c if p.projected_inversion_c is not None else p.inversion_c
     inv_c, wind = _num(inv), _num(p.wind_speed_m_s)
@@ -399,7 +399,7 @@ def advise(
     what = _ACTION_WORDS[method]
     conditional = ""
     if method == "wind_machine":
-        wm = _wind_machine_plan(p, block, d, supercooled_fog)
+        wm = wind_machine_plan(p, block, d, supercooled_fog)
         gain = wm["gain"]
         details.update(wind_machine_useful=wm["useful"], wind_machine_sufficient=wm["sufficient"],
                        expected_gain_low_c=wm["gain_low"], expected_gain_high_c=wm["gain_high"],

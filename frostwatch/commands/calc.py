@@ -20,7 +20,8 @@ from frostwatch.errors import UsageError  # noqa: F401
 def cmd_calc(args) -> int:
     import math
 
-    from frostwatch.physics import crops, humidity, radiation, sprinklers, windmachine
+    from frostwatch.advisor import CAUTIONS
+    from frostwatch.physics import crops, humidity, sprinklers, windmachine
 
     def finite(v: float, what: str) -> float:
         if not math.isfinite(v):
@@ -55,9 +56,11 @@ def cmd_calc(args) -> int:
                 "below the dew point, so the air temperature itself governs: start before the air reaches the critical temperature"
             )
         doc = {_key(args, "start_air_temp"): _temp_out(args, start), "pressure_hpa": p_hpa,
+               _key(args, "target_wet_bulb"): _temp_out(args, tc + margin),
                "note": "sprinklers must be running before the air cools to this; stop only after sunrise once it is passed again and the ice is melting"}
         text = (f"start sprinklers before the air cools to {_temp_out(args, start)} {_unit(args)} "
-                f"(wet bulb = {args.critical} at dew point {args.dew_point}); stop only after sunrise, once the air is above it "
+                f"(wet bulb = {_temp_out(args, tc + margin)} {_unit(args)}, the critical temperature plus margin, at dew point "
+                f"{args.dew_point:g} {_unit(args)}, {p_hpa:g} hPa); stop only after sunrise, once the air is above it "
                 "again, the wet bulb is rising and the ice is melting")
     elif args.calc == "critical":
         try:
@@ -71,38 +74,91 @@ def cmd_calc(args) -> int:
                 f"90 % kill {_temp_out(args, ct.kill_90pct_c)} {_unit(args)} (about 30 min exposure; {ct.source})")
     elif args.calc == "sprinkler-rate":
         t = _temp_in(args, args.min_temp)
-        td = _temp_in(args, args.dew_point) if args.dew_point is not None else t - 5.0
-        e = float(humidity.vapour_pressure_hpa_from_dew_point(min(td, t)))
-        loss = -float(radiation.net_longwave_w_m2(t, e, cloud_frac=args.cloud))
-        rate = float(sprinklers.required_application_rate_mm_h(max(0.0, loss), args.wind, t, 0.0))
-        doc = {"required_rate_mm_h": round(rate, 2), "net_longwave_loss_w_m2": round(loss, 1),
-               "note": "a lower bound from the heat budget; if more than about 12 % of the water evaporates, sprinkling cools"}
-        text = (f"required application rate about {rate:.1f} mm/h (net longwave loss {loss:.0f} W/m2, wind {args.wind:g} m/s); "
-                "a lower bound: too little water in dry or windy air does more harm than good")
+        if args.wind < 0:
+            raise UsageError(f"--wind {args.wind}: expected a wind speed in m/s, 0 or more")
+        if not 0 <= args.cloud <= 1:
+            raise UsageError(f"--cloud {args.cloud}: expected a cloud fraction 0-1")
+        assumed_td = args.dew_point is None
+        td = t - 5.0 if assumed_td else min(_temp_in(args, args.dew_point), t)
+        r = sprinklers.rate_tonight_mm_h(t, td, args.wind, cloud_frac=args.cloud)
+        if not math.isfinite(r.required_mm_h):
+            raise UsageError(f"--min-temp {args.min_temp}: outside the range the heat budget covers")
+        windy = args.wind > sprinklers.MAX_WIND_FOR_SPRINKLING_M_S
+        doc = {"required_rate_mm_h": round(r.required_mm_h, 2), "governed_by": r.governed_by,
+               "heat_budget_rate_mm_h": round(r.heat_budget_mm_h, 2),
+               "table_rate_mm_h": None if r.table.rate_mm_h is None else round(r.table.rate_mm_h, 2),
+               "table_cell": r.table.note, "table_source": sprinklers.GERBER_HARRISON_SOURCE,
+               "beyond_table": r.beyond_table, "net_longwave_loss_w_m2": round(r.net_loss_w_m2, 1),
+               "wind_m_s": args.wind, "over_wind_limit": windy, "dew_point_assumed": assumed_td,
+               "note": "the larger of the heat budget (a lower bound) and the table governs; if more than about "
+                       "12 % of the water evaporates, sprinkling cools"}
+        table = (f"{r.table.rate_mm_h:.1f} mm/h ({r.table.note})" if r.table.rate_mm_h is not None
+                 else f"no cell ({r.table.note})")
+        lines = [f"required application rate about {r.required_mm_h:.1f} mm/h ({r.governed_by} governs)",
+                 f"  heat budget {r.heat_budget_mm_h:.1f} mm/h (a lower bound; net longwave loss of the iced plant "
+                 f"{r.net_loss_w_m2:.0f} W/m2, wind {args.wind:g} m/s)",
+                 f"  table cross-check {table}; {sprinklers.GERBER_HARRISON_SOURCE}"]
+        if assumed_td:
+            lines.append("  no --dew-point given: assumed 5 °C (9 °F) below the minimum")
+        if r.beyond_table:
+            lines.append("  colder or windier than any cell of the table: over-tree sprinkling is unlikely to protect")
+        if windy:
+            lines.append(f"  wind above about {sprinklers.MAX_WIND_FOR_SPRINKLING_M_S:g} m/s: over-tree sprinkling is not advised")
         if args.capacity is not None:
-            ok = sprinklers.capacity_adequate(rate, args.capacity)
+            ok = sprinklers.capacity_adequate(r.required_mm_h, args.capacity) and not windy and not r.beyond_table
             doc["capacity_mm_h"] = args.capacity
             doc["capacity_adequate"] = bool(ok)
-            text += f"; your system's {args.capacity:g} mm/h is {'enough' if ok else 'NOT enough: consult your adviser before running it'}"
+            lines.append(f"  your system's {args.capacity:g} mm/h is " + (
+                "enough" if ok else "NOT enough: running it may do more harm than good; consult your adviser"))
+            if args.area is not None:
+                peak = sprinklers.peak_flow_l_s(args.capacity, args.area)
+                doc["area_ha"], doc["peak_flow_l_s"] = args.area, round(peak, 1)
+                lines.append(f"  peak flow {peak:.1f} L/s for {args.area:g} ha")
+                if args.hours is not None:
+                    vol = sprinklers.water_volume_m3(args.capacity, args.area, args.hours)
+                    doc["hours"], doc["water_m3"] = args.hours, round(vol, 0)
+                    lines.append(f"  water about {vol:,.0f} m3 over {args.hours:g} h")
+        text = "\n".join(lines)
     elif args.calc == "wind-machine":
+        from frostwatch.advisor import wind_machine_plan
+        from frostwatch.config import Block
+        from frostwatch.display import Display
+        from frostwatch.models import Projection
+
+        if args.wind < 0:
+            raise UsageError(f"--wind {args.wind}: expected a wind speed in m/s, 0 or more")
+        if not 0 <= args.gain_fraction <= 1:
+            raise UsageError(f"--gain-fraction {args.gain_fraction}: expected a fraction 0-1 (default 0.4)")
         inv = args.inversion * 5.0 / 9.0 if _fahrenheit(args) else args.inversion
-        s = windmachine.wind_machine_suitability(inv, args.wind, _temp_in(args, args.min_temp), _temp_in(args, args.critical))
+        tmin, tc = _temp_in(args, args.min_temp), _temp_in(args, args.critical)
+        d = Display("degF" if _fahrenheit(args) else "degC")
+        proj = Projection(time_utc=None, block="calc", station=None, air_temp_c=tmin + 2.0, dew_point_c=None,
+                          wet_bulb_c=None, predicted_min_c=tmin, predicted_min_at_utc=None, band_c=0.0, crossings_utc={},
+                          inversion_c=inv, projected_inversion_c=inv, inversion_class=None, wind_speed_m_s=args.wind,
+                          regime="radiation", method="calc")
+        blk = Block(id="calc", crop="", stage="", kill_10pct_c=tc, kill_90pct_c=tc, critical_source="--critical",
+                    protection="wind_machine", wind_machine_gain_frac=args.gain_fraction)
+        wm = wind_machine_plan(proj, blk, d, args.fog)
         k = 9.0 / 5.0 if _fahrenheit(args) else 1.0
-        doc = {"useful": s.useful, "sufficient": s.sufficient, _key(args, "expected_gain"): round(s.expected_gain_c * k, 2),
-               _key(args, "expected_gain_low"): round(s.expected_gain_low_c * k, 2),
-               _key(args, "expected_gain_high"): round(s.expected_gain_high_c * k, 2), "reasons": list(s.reasons),
-               "inversion_class": windmachine.classify_inversion(inv)}
-        text = (f"wind machines {'useful' if s.useful else 'not useful'}: expected gain "
-                f"{s.expected_gain_low_c * k:.1f}-{s.expected_gain_high_c * k:.1f} {_unit(args)} (engineering assumption: "
-                "0.3-0.5 of the inversion)\n  " + "\n  ".join(s.reasons))
+        reasons = wm["reasons"] + wm["why_not"]
+        doc = {"useful": wm["useful"], "sufficient": wm["sufficient"],
+               _key(args, "expected_gain"): round(wm["gain"] * k, 2),
+               _key(args, "expected_gain_low"): round(wm["gain_low"] * k, 2),
+               _key(args, "expected_gain_high"): round(wm["gain_high"] * k, 2),
+               "inversion_class": windmachine.classify_inversion(inv), "reasons": reasons,
+               "alternatives": wm["alternatives"],
+               "gain_note": "30-50 % of the inversion: an engineering assumption from memory, not a published rule"}
+        head = ("wind machines should help" + ("" if wm["sufficient"] else ", but not enough on their own")
+                if wm["useful"] else "wind machines will not help much")
+        text = head + "\n  " + "\n  ".join(reasons + wm["alternatives"])
     else:  # pragma: no cover - argparse restricts choices
         raise UsageError(f"unknown calc {args.calc}")
+    doc["cautions"] = list(CAUTIONS)
     if args.json:
         _out_json(doc)
     else:
         print(text)
-        print("Cautions: frostwatch advises, the grower decides; check with calibrated thermometers at bud height; "
-              "local agronomic advice, codes and water rights prevail.")
+        print("Cautions: " + " ".join(CAUTIONS))
     return 0
 
 
@@ -126,15 +182,21 @@ def register(sub, common) -> None:
     c = csub.add_parser("critical", parents=[common], help="10 % and 90 % kill temperatures of a crop at a bud stage")
     c.add_argument("--crop", required=True)
     c.add_argument("--stage", required=True)
-    c = csub.add_parser("sprinkler-rate", parents=[common], help="application rate tonight needs, from the heat budget")
+    c = csub.add_parser("sprinkler-rate", parents=[common],
+                        help="over-tree application rate tonight needs: heat budget, checked against the table")
     c.add_argument("--min-temp", type=float, required=True, metavar="T", help="expected minimum air temperature")
-    c.add_argument("--wind", type=float, default=0.0, metavar="M_S", help="wind speed, m/s")
-    c.add_argument("--dew-point", type=float, metavar="TD")
-    c.add_argument("--cloud", type=float, default=0.0, metavar="FRAC", help="cloud fraction 0-1")
+    c.add_argument("--wind", type=float, required=True, metavar="M_S", help="wind speed, m/s (measure it: unknown is not calm)")
+    c.add_argument("--dew-point", type=float, metavar="TD", help="dew point (default: 5 degrees below --min-temp)")
+    c.add_argument("--cloud", type=float, default=0.0, metavar="FRAC", help="cloud fraction 0-1 (default 0, clear)")
     c.add_argument("--capacity", type=float, metavar="MM_H", help="your system's application rate, mm/h")
+    c.add_argument("--area", type=float, metavar="HA", help="sprinkled area, ha (with --capacity: peak flow)")
+    c.add_argument("--hours", type=float, metavar="H", help="running hours (with --capacity and --area: water volume)")
     c = csub.add_parser("wind-machine", parents=[common], help="will wind machines help tonight?")
-    c.add_argument("--inversion", type=float, required=True, metavar="DT", help="tower minus crop-height temperature")
-    c.add_argument("--wind", type=float, required=True, metavar="M_S")
-    c.add_argument("--min-temp", type=float, required=True, metavar="T", help="projected minimum")
-    c.add_argument("--critical", type=float, required=True, metavar="TC")
+    c.add_argument("--inversion", type=float, required=True, metavar="DT", help="tower (~10 m) minus crop-height temperature")
+    c.add_argument("--wind", type=float, required=True, metavar="M_S", help="wind speed, m/s")
+    c.add_argument("--min-temp", type=float, required=True, metavar="T", help="projected minimum at crop height")
+    c.add_argument("--critical", type=float, required=True, metavar="TC", help="critical temperature (usually T10)")
+    c.add_argument("--fog", action="store_true", help="supercooled fog is present")
+    c.add_argument("--gain-fraction", type=float, default=0.4, metavar="FRAC",
+                   help="fraction of the inversion recovered at crop height (engineering assumption, default 0.4)")
     calc.set_defaults(func=cmd_calc)

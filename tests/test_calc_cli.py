@@ -1,0 +1,139 @@
+"""`frostwatch calc`: exit codes 0/2, the JSON keys of DESIGN.md 1.4, --fahrenheit, readable output.
+
+Run in-process through `frostwatch.cli.main` (fast); the contract-check runs the installed command.
+"""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from frostwatch.cli import main
+
+
+def run(capsys, *argv):
+    rc = main(["calc", *argv])
+    out, err = capsys.readouterr()
+    return rc, out, err
+
+
+def run_json(capsys, *argv):
+    rc, out, err = run(capsys, *argv, "--json")
+    assert rc == 0, err
+    return json.loads(out)
+
+
+def test_wet_bulb_json_key_and_value_vs_frost_physics_6_3(capsys):
+    # frost-physics.md 6.3 [computed]: T 5 / Td -3 C at 101.325 kPa -> Tw +1.83 C (ASHRAE)
+    doc = run_json(capsys, "wet-bulb", "--air-temp", "5", "--dew-point", "-3")
+    assert doc["wet_bulb_c"] == pytest.approx(1.83, abs=0.02)
+    assert doc["pressure_hpa"] == 1013.25
+    assert doc["cautions"]
+
+
+def test_wet_bulb_fahrenheit(capsys):
+    doc = run_json(capsys, "wet-bulb", "--air-temp", "41", "--dew-point", "26.6", "--fahrenheit")
+    assert "wet_bulb_c" not in doc
+    assert doc["wet_bulb_f"] == pytest.approx(1.83 * 9 / 5 + 32, abs=0.05)
+
+
+def test_dew_point_json(capsys):
+    # frost-physics.md 6.3 table: T 5 C, RH 56.2 % <-> Td -3 C
+    doc = run_json(capsys, "dew-point", "--air-temp", "5", "--humidity", "56.2")
+    assert doc["dew_point_c"] == pytest.approx(-3.0, abs=0.05)
+    assert doc["frost_point_c"] > doc["dew_point_c"]
+
+
+def test_sprinkler_start_vs_rechecked_table_frost_physics_10(capsys):
+    # frost-physics.md 10 rechecked table: Td -10, Tc -2 -> 2.0 C; Td -6, Tc -3 -> -1.5 C
+    assert run_json(capsys, "sprinkler-start", "--dew-point", "-10", "--critical", "-2")["start_air_temp_c"] == \
+        pytest.approx(2.0, abs=0.1)
+    assert run_json(capsys, "sprinkler-start", "--dew-point", "-6", "--critical", "-3")["start_air_temp_c"] == \
+        pytest.approx(-1.5, abs=0.1)
+
+
+def test_sprinkler_start_margin_and_fahrenheit(capsys):
+    base = run_json(capsys, "sprinkler-start", "--dew-point", "-10", "--critical", "-2.2")["start_air_temp_c"]
+    with_margin = run_json(capsys, "sprinkler-start", "--dew-point", "-10", "--critical", "-2.2", "--margin", "1")
+    assert with_margin["start_air_temp_c"] > base
+    assert with_margin["target_wet_bulb_c"] == pytest.approx(-1.2)
+    f = run_json(capsys, "sprinkler-start", "--dew-point", "14", "--critical", "28", "--fahrenheit")
+    assert f["start_air_temp_f"] == pytest.approx(
+        run_json(capsys, "sprinkler-start", "--dew-point", "-10", "--critical", "-2.2222")["start_air_temp_c"] * 1.8 + 32,
+        abs=0.05)
+
+
+def test_sprinkler_start_dew_point_above_target_exits_2(capsys):
+    rc, out, err = run(capsys, "sprinkler-start", "--dew-point", "-1", "--critical", "-2")
+    assert rc == 2 and out == "" and "dew-point" in err
+
+
+def test_critical_json_keys_and_loose_names(capsys):
+    doc = run_json(capsys, "critical", "--crop", "Sweet-Cherry", "--stage", "FULL bloom")
+    assert set(doc) >= {"kill_10pct_c", "kill_90pct_c", "source"}
+    assert doc["kill_10pct_c"] == pytest.approx(-2.22, abs=0.01)  # 28 F, WSU EB1128
+    f = run_json(capsys, "critical", "--crop", "apple", "--stage", "full bloom", "--fahrenheit")
+    assert f["kill_10pct_f"] == pytest.approx(28.0) and f["kill_90pct_f"] == pytest.approx(25.0)
+
+
+@pytest.mark.parametrize(("crop", "stage", "listed"), [("banana", "full bloom", "apple"),
+                                                        ("apple", "bloom", "half-inch green")])
+def test_critical_unknown_crop_or_stage_exits_2_listing_known(capsys, crop, stage, listed):
+    rc, out, err = run(capsys, "critical", "--crop", crop, "--stage", stage, "--json")
+    assert rc == 2 and out == ""
+    assert listed in err
+
+
+def test_sprinkler_rate_json_says_which_governed(capsys):
+    doc = run_json(capsys, "sprinkler-rate", "--min-temp", "-5.6", "--wind", "2.9", "--dew-point", "-9",
+                   "--capacity", "3.5", "--area", "4", "--hours", "8")
+    assert doc["required_rate_mm_h"] == pytest.approx(max(doc["heat_budget_rate_mm_h"], doc["table_rate_mm_h"]))
+    assert doc["governed_by"] == "table (from memory)"
+    assert doc["capacity_adequate"] is False
+    assert doc["peak_flow_l_s"] == pytest.approx(38.9, abs=0.05)
+    assert doc["water_m3"] == pytest.approx(1120)
+
+
+def test_sprinkler_rate_more_wind_more_water(capsys):
+    rates = [run_json(capsys, "sprinkler-rate", "--min-temp", "-4", "--wind", str(u))["required_rate_mm_h"]
+             for u in (0.0, 1.0, 2.0, 3.0, 4.0)]
+    assert rates == sorted(rates) and rates[-1] > rates[0]
+
+
+def test_sprinkler_rate_readable_warns_and_wind_is_required(capsys):
+    rc, out, _ = run(capsys, "sprinkler-rate", "--min-temp", "-3", "--wind", "5", "--capacity", "3")
+    assert rc == 0
+    assert "not advised" in out and "more harm than good" in out and "Cautions:" in out
+    with pytest.raises(SystemExit) as exc:  # argparse: --wind is required (unknown is not calm)
+        main(["calc", "sprinkler-rate", "--min-temp", "-3"])
+    assert exc.value.code == 2
+    rc, _, err = run(capsys, "sprinkler-rate", "--min-temp", "-3", "--wind", "-1")
+    assert rc == 2 and "--wind" in err
+
+
+def test_wind_machine_json_and_invariants(capsys):
+    doc = run_json(capsys, "wind-machine", "--inversion", "4", "--wind", "0.8", "--min-temp", "-3", "--critical", "-2.2")
+    assert doc["useful"] and doc["expected_gain_c"] == pytest.approx(1.6)
+    gains = [run_json(capsys, "wind-machine", "--inversion", str(i), "--wind", "0.5", "--min-temp", "-3",
+                      "--critical", "-2.2")["expected_gain_c"] for i in (2, 3, 4, 6)]
+    assert gains == sorted(gains) and gains[0] < gains[-1]
+    windy = run_json(capsys, "wind-machine", "--inversion", "6", "--wind", "3.0", "--min-temp", "-3", "--critical", "-2.2")
+    assert windy["useful"] is False and windy["alternatives"]
+    fog = run_json(capsys, "wind-machine", "--inversion", "6", "--wind", "0.5", "--min-temp", "-3", "--critical", "-2.2",
+                   "--fog")
+    assert fog["useful"] is False
+
+
+def test_wind_machine_fahrenheit_text_in_fahrenheit(capsys):
+    rc, out, _ = run(capsys, "wind-machine", "--inversion", "7", "--wind", "0.5", "--min-temp", "26", "--critical", "28",
+                     "--fahrenheit")
+    assert rc == 0 and "°F" in out and "°C" not in out.split("Cautions:")[0]
+    doc = run_json(capsys, "wind-machine", "--inversion", "7", "--wind", "0.5", "--min-temp", "26", "--critical", "28",
+                   "--fahrenheit")
+    assert doc["expected_gain_f"] == pytest.approx(0.4 * 7, abs=0.01)
+
+
+def test_readable_output_by_default(capsys):
+    rc, out, _ = run(capsys, "critical", "--crop", "grape", "--stage", "bud burst")
+    assert rc == 0 and out.startswith("grape, bud burst: 10 % kill -3.9 °C") and "Cautions:" in out
