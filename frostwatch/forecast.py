@@ -443,10 +443,7 @@ def project_block(
     wind = recent_mean(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
     cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
     # the wet bulb decides only for sprinkler blocks (and is shown in their alerts)
-    wet_c = None
-    if td_c is not None and block.protection in SPRINKLER_METHODS:
-        wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
-        wet_c = wet_c if math.isfinite(wet_c) else None
+    wet_c = None  # computed with the wet-bulb curve below (one vectorised call)
     if cloud is None:
         notes.append("no sky or cloud sensor: clear sky assumed")
 
@@ -539,6 +536,9 @@ def project_block(
         tmin_c = float(obs[i])
         tmin_at = _utc(float(t_air[night_sel][i] if night_sel.any() else t_air[i]))
         crossings = {}
+        if td_c is not None and block.protection in SPRINKLER_METHODS:
+            wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+            wet_c = wet_c if math.isfinite(wet_c) else None
         method = "observed (after sunrise)"
         band = 0.0
     else:
@@ -557,7 +557,10 @@ def project_block(
             g, c = grid_s[::k], curve[::k]
             if g[-1] != grid_s[-1]:
                 g, c = np.append(g, grid_s[-1]), np.append(c, curve[-1])
-            wb = np.asarray(humidity.wet_bulb_c_from_dew_point(c, np.minimum(td_c, c), p_hpa), dtype=float)
+            air = np.concatenate([[air_c], c])
+            wb_all = np.asarray(humidity.wet_bulb_c_from_dew_point(air, np.minimum(td_c, air), p_hpa), dtype=float)
+            wet_c = float(wb_all[0]) if math.isfinite(wb_all[0]) else None
+            wb = wb_all[1:]
             if wet_c is not None:
                 wb[0] = wet_c
             crossings["wet_bulb_t10_margin"] = _utc(crossing_time(g, wb, thresholds["t10_margin"]))

@@ -172,8 +172,15 @@ def cmd_backtest(args) -> int:
         err = r["predicted_min_c"] - r["observed_min_c"]
         print(f"{r['night']:<11} {r['block']:<10} {r['station']:<12} {r['predicted_min_c']:>9.1f} {r['observed_min_c']:>9.1f} "
               f"{err:>+6.1f}  {r['regime']}")
+    if not rows:
+        print("no night in the log is covered from sunset + 2 h to an hour after sunrise; nothing to score")
+        return 0
     print(f"\n{summary['nights']} nights, {summary.get('forecasts', 0)} forecasts: MAE {summary['mae_c']} °C, "
           f"bias {summary['bias_c']} °C, RMSE {summary['rmse_c']} °C (dusk forecast at sunset + 2 h, walk-forward)")
+    rad = summary.get("radiation_nights") or {}
+    if rad.get("forecasts"):
+        print(f"radiation nights (mean wind < 2 m/s, cloud <= 0.3): {rad['forecasts']} forecasts, "
+              f"MAE {rad['mae_c']} °C, bias {rad['bias_c']} °C, RMSE {rad['rmse_c']} °C")
     return 0
 
 
