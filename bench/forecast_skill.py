@@ -184,6 +184,15 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
     nowcast_wall_s = time.perf_counter() - t
 
     tz = cfg.site.tz
+    # T2 and Td2 interpolated between the hour-ending rows on either side of sunset + 2 h (the
+    # issue's reference figures; a forecast issued at sunset + 2 h cannot see the row after it)
+    d = _data.sort_index()
+    ts = np.array([x.timestamp() for x in d.index])
+    interp = {}
+    for r in rows:
+        s_ = dt.datetime.fromisoformat(r["issued_at"].replace("Z", "+00:00")).timestamp()
+        interp[r["night"]] = (float(np.interp(s_, ts, d["temp_air"].to_numpy(float))),
+                              float(np.interp(s_, ts, d["temp_dew"].to_numpy(float))))
     keep = []
     for r, rn in zip(rows, rows_nc, strict=True):
         assert r["night"] == rn["night"] and r["predicted_min_c"] == rn["predicted_min_c"]
@@ -207,11 +216,17 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
     for name, rs in classes.items():
         obs = arr("observed_min_c", rs)
         t2, td2 = arr("t0_temp_c", rs), arr("t0_dew_point_c", rs)
+        t2i = np.array([interp[r["night"]][0] for r in rs])
+        td2i = np.minimum(np.array([interp[r["night"]][1] for r in rs]), t2i)
+        xs = np.column_stack([np.ones_like(t2), t2, td2, arr("t0_cloud_frac", rs), arr("t0_wind_m_s", rs)])
+        in_sample = xs @ np.linalg.lstsq(xs, obs, rcond=None)[0]
         nc_rows = [r for r in rs if r["nowcast_min_c"] is not None]
         results["classes"][name] = {
             "nights": len(rs),
             "frostwatch_walk_forward": _stats(arr("predicted_min_c", rs), obs),
             "allen_regression_loo": _stats(loo_allen(t2, td2, obs), obs),
+            "allen_regression_loo_interpolated_t2": _stats(loo_allen(t2i, td2i, obs), obs),
+            "in_sample_t0_td0_cloud0_wind0": _stats(in_sample, obs),
             "t2_minus_mean_drop_loo": _stats(loo_mean_drop(t2, obs), obs),
             "td2": _stats(td2, obs),
             "nowcast_2h_before_min": _stats(arr("nowcast_min_c", nc_rows), arr("observed_min_c", nc_rows)) if nc_rows else None,
@@ -242,6 +257,8 @@ def print_report(res: dict) -> None:
     methods = [
         ("frostwatch_walk_forward", "frostwatch dusk forecast (walk-forward)"),
         ("allen_regression_loo", "Allen-type regression b0+b1*T2+b2*Td2 (leave-one-out)"),
+        ("allen_regression_loo_interpolated_t2", "  same, T2/Td2 interpolated (sees the next hour's row)"),
+        ("in_sample_t0_td0_cloud0_wind0", "in-sample fit on T0, Td0, cloud0, wind0 (a ceiling)"),
         ("t2_minus_mean_drop_loo", "T2 - mean drop (leave-one-out)"),
         ("td2", "Td2"),
         ("nowcast_2h_before_min", "frostwatch nowcast 2 h before the minimum"),
