@@ -449,3 +449,20 @@ def test_pressure_hpa_from_elevation_vs_metpy_standard_atmosphere():
 
 def test_pressure_hpa_from_elevation_out_of_range_is_nan():
     assert np.all(np.isnan(pressure_hpa_from_elevation([-1000.0, 20000.0, np.nan])))
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.floats(min_value=-30, max_value=30),
+    st.floats(min_value=0, max_value=30),
+    st.floats(min_value=600, max_value=1050),
+)
+def test_wet_bulb_scalar_path_matches_array_path(air_temp_c, depression_k, pressure_hpa):
+    """The float fast path and the vectorised solver are the same algorithm: agree to 1e-9 K."""
+    td = air_temp_c - depression_k
+    scalar = wet_bulb_c_from_dew_point(air_temp_c, td, pressure_hpa)
+    array = wet_bulb_c_from_dew_point(np.array([air_temp_c]), np.array([td]), np.array([pressure_hpa]))[0]
+    if math.isnan(array):
+        assert math.isnan(scalar)
+    else:
+        assert scalar == pytest.approx(array, abs=1e-9)
