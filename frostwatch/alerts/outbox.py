@@ -172,6 +172,19 @@ class Outbox:
         stamp = local.date().isoformat() + (now_utc.strftime("T%H") if once_per == "hour" else "")
         slug = re.sub(r"[^A-Za-z0-9_.-]+", "-", subject).strip("-")[:60] or "health"
         key = f"{block}/{stamp}/health-{slug}"
+        if detail.startswith("recovered"):  # the daemon's all-clear for a health condition: one resolved message
+            with self.store.lock:
+                (n,) = self.store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key + "%",)).fetchone()
+            if n == 0 or n % 2 == 0:
+                return key  # nothing raised, or already resolved
+            a = Alert(time_utc=now_utc, block=block, level="all-clear", rank=0, advice="nothing to do",
+                      message=f"{subject}: {detail}", key=f"{key}~{n}", resolves=key if n == 1 else f"{key}~{n - 1}")
+            self.submit([a], now_utc, exclude)
+            return a.key
+        with self.store.lock:
+            (n,) = self.store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key + "%",)).fetchone()
+        if n % 2 == 0 and n > 0:
+            key = f"{key}~{n}"  # raised again after a recovery the same night
         a = Alert(time_utc=now_utc, block=block, level=level, rank=rank_of(level), advice="check the equipment",
                   message=f"{subject}: {detail}", key=key)
         self.submit([a], now_utc, exclude)

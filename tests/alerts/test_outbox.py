@@ -249,3 +249,19 @@ def test_remote_failure_fires_local_channels_and_queues_a_notice(tmp_path):
         nd = ob.deliveries_for(store, [notice[0]["key"]])
         assert any(d["channel"] == "push" and d["status"] in ("retry", "pending", "inflight") for d in nd)
         box.close()
+
+
+def test_health_alert_raises_once_and_recovers_once(tmp_path):
+    cfg = console_cfg(tmp_path)
+    with Store.open(cfg.storage.path) as store:
+        box = Outbox(store, cfg)
+        k1 = box.submit_health("sensor east-low silent", "no reading for 12 min", T0)
+        assert box.submit_health("sensor east-low silent", "no reading for 14 min", T0) == k1
+        k2 = box.submit_health("sensor east-low silent", "recovered (no reading no longer)", T0)
+        assert box.submit_health("sensor east-low silent", "recovered (no reading no longer)", T0) == k1
+        rows = store.alerts(T0 - dt.timedelta(1), T0 + dt.timedelta(1))
+        assert [(r["level"], r["resolves"]) for r in rows] == [("sensor-trouble", None), ("all-clear", k1)]
+        assert k2 != k1
+        u = box.submit_health("no healthy sensor in east", "every sensor silent", T0, urgent=True)
+        assert ob.state_of(store, u)["state"] == "firing"  # unmonitored repeats until acknowledged
+        box.close()
