@@ -249,7 +249,36 @@ def load_config(path: str | os.PathLike) -> Config:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(str(p), [f"not valid TOML: {exc}"]) from None
-    return config_from_dict(raw, p)
+    cfg = config_from_dict(raw, p)
+    problems = check_open_sections(cfg)
+    if problems:
+        raise ConfigError(str(p), problems)
+    return cfg
+
+
+# The sections that belong to other parts of the product, each checked by its own module, so
+# that loading a config lists every problem of every section at once.
+_SECTION_VALIDATORS = (
+    ("frostwatch.alerts.config", "load_alerts_config"),
+    ("frostwatch.reports.settings", "report_settings"),
+    ("frostwatch.reports.settings", "status_page_settings"),
+    ("frostwatch.daemon", "daemon_settings"),
+    ("frostwatch.ingest.mqtt", "mappings_from_config"),
+)
+
+
+def check_open_sections(cfg: Config) -> list[str]:
+    """Every problem in [alerts], [[contacts]], [[channels]], [report], [status_page], [daemon]
+    and [[mappings]], as `section.key: ...` lines (empty when all is well)."""
+    import importlib
+
+    problems: list[str] = []
+    for module, name in _SECTION_VALIDATORS:
+        try:
+            getattr(importlib.import_module(module), name)(cfg)
+        except ConfigError as exc:
+            problems.extend(p for p in exc.problems if p not in problems)
+    return problems
 
 
 def config_from_dict(raw: dict, path: Path | None = None) -> Config:

@@ -113,3 +113,18 @@ def test_storage_path_is_relative_to_the_config_file(tmp_path):
         '[storage]\npath="data/fw.db"\n'
     )
     assert load_config(p).storage.path == (tmp_path / "sub" / "data" / "fw.db").resolve()
+
+
+def test_problems_of_every_section_are_listed_together(tmp_path):
+    """Loading checks the sections other modules own ([alerts], [[channels]], [daemon]) too."""
+    p = tmp_path / "site.toml"
+    p.write_text(
+        '[site]\nname="x"\nlatitude=1\nlongitude=1\ntimezone="UTC"\n'
+        '[[blocks]]\nid="a"\ncrop="apple"\nstage="full bloom"\n'
+        '[[stations]]\nid="s"\nblock="a"\nheight_m=1\n'
+        '[alerts]\nrepeat_interval_mn=3\n[daemon]\nbogus=1\n[[channels]]\nname="e"\ntype="emial"\n'
+    )
+    with pytest.raises(ConfigError) as exc:
+        load_config(p)
+    text = "\n".join(exc.value.problems)
+    assert "alerts.repeat_interval_mn" in text and "channels[0].type" in text and "daemon.bogus" in text
