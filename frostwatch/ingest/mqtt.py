@@ -97,6 +97,8 @@ def mappings_from_config(cfg: Config) -> tuple[Mapping, ...]:
         for path, u in units.items():
             if path not in fields:
                 problems.append(f"{w}.units.{path}: not one of this mapping's fields ({', '.join(fields)})")
+            elif fields[path] not in QUANTITIES:
+                continue  # already reported under fields
             elif not isinstance(u, str):
                 problems.append(f"{w}.units.{path}: {u!r}; expected a unit such as \"degF\"")
             else:
@@ -164,7 +166,7 @@ def read_secret(path_text: str, base: Path | None) -> str:
 @dataclass
 class IngestSettings:
     batch_rows: int = 200
-    batch_delay_s: float = 2.0
+    batch_delay_s: float = 10.0
     queue_max: int = 5000
     session_expiry_s: int = 7 * 24 * 3600
     status_topic: str = "frostwatch/status"

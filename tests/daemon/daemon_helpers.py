@@ -23,7 +23,7 @@ def write_config(tmp: Path, port: int, extra: str = "") -> Path:
     text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
     text = text.replace("port = 1883", f"port = {port}")
     text += (
-        "\n[daemon]\nbatch_delay_s = 0.3\nheartbeat_s = 2\nhealth_interval_s = 5\nlearn_nights = 3\n" + extra
+        "\n[daemon]\nbatch_delay_s = 0.3\nheartbeat_s = 2\nheartbeat_store_s = 2\nhealth_interval_s = 5\nlearn_nights = 3\n" + extra
     )
     p = tmp / "site.toml"
     p.write_text(text, encoding="utf-8")
