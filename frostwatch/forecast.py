@@ -33,7 +33,6 @@ DEFAULT_INTERVAL_S = 300.0  # assumed when a sensor has too few readings to tell
 STUCK_WINDOW_S = 3600.0  # a crop-height air sensor flat to the last digit this long is suspect
 STUCK_MIN_READINGS = 10  # a 5-min sensor gives 12-13 readings an hour
 PRIOR_BAND_C = 2.0  # 1-sigma-ish uncertainty of the physics prior before any calibration
-PRIOR_SHRINK_NIGHTS = 2.0  # the site regression from n nights gets weight n / (n + this)
 RIDGE_LAMBDA = 2.0  # ridge penalty on the standardised regression slopes
 CALIBRATION_T0_CEILING_C = 16.0  # nights warmer than this at t0 are not frost-season nights
 RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean wind was below this
@@ -47,6 +46,13 @@ INPUT_WINDOW_S = 3600.0  # wind and cloud at t0: the mean of the last hour (or o
 WET_BULB_GRID_STEP_S = 900.0  # the wet-bulb curve is needed only for sprinkler blocks
 TREND_WEIGHT = {"windy": 0.8, "cloudy": 0.4}  # share of the observed trend where radiation fails
 SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
+MIN_REGRESSION_NIGHTS = 3  # below this many nights the physics prior alone gives the dusk forecast
+WIND_TREND_S = 3 * 3600.0  # the dusk wind trend: wind at t0 minus wind this long before
+NOWCAST_MIN_SAMPLES = 40  # half-hourly points of past nights before the learned nowcast is used
+NOWCAST_RIDGE_LAMBDA = 1.0
+NOWCAST_SAMPLE_STEP_S = 1800.0  # one training point per half hour of a past night
+NOWCAST_START_S = 1800.0  # the learned nowcast starts half an hour after t0
+NOWCAST_MIN_HOURS_LEFT = 0.5  # the band never shrinks below this many hours' worth
 
 
 # ---- which sensor speaks for a block -----------------------------------------------------------
@@ -132,6 +138,9 @@ class NightRecord:
     radiation_night: bool
     t0_wind_m_s: float | None = None
     t0_cloud_frac: float | None = None
+    t0_wind_trend_m_s: float | None = None
+    # (features, remaining drop) at times through the night, for the learned nowcast
+    nowcast_samples: tuple[tuple[tuple[float, ...], float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -143,43 +152,93 @@ class DuskInputs:
     dew_point_c: float | None
     wind_m_s: float | None
     cloud_frac: float | None
+    wind_trend_m_s: float | None = None
 
 
-FEATURES = ("T0", "Td0", "cloud0", "wind0")
+FEATURES = ("T0", "Td0", "cloud0", "wind0", "wind_trend0")
 
 
-def feature_vector(t0_c: float, td0_c: float | None, cloud: float | None, wind: float | None) -> tuple[float, ...]:
+def feature_vector(
+    t0_c: float, td0_c: float | None, cloud: float | None, wind: float | None, wind_trend: float | None = None
+) -> tuple[float, ...]:
     """The regression's inputs, with the same stand-ins the physics prior uses when one is missing:
-    dew point 6 degC below the air, clear sky, calm."""
-    return (t0_c, t0_c - ASSUMED_DEPRESSION_C if td0_c is None else td0_c, cloud or 0.0, wind or 0.0)
+    dew point 6 degC below the air, clear sky, calm, steady wind."""
+    return (t0_c, t0_c - ASSUMED_DEPRESSION_C if td0_c is None else td0_c, cloud or 0.0, wind or 0.0, wind_trend or 0.0)
+
+
+NOWCAST_FEATURES = ("sqrt_curve_drop", "sqrt_hours_left", "recent_slope_x_hours_left", "wind", "cloud", "depression")
 
 
 @dataclass(frozen=True)
 class Calibration:
-    """The site's Allen-type regression, Tn = c + a T0 + b Td0 + d cloud0 + e wind0, learned
-    walk-forward from past nights and blended with the physics prior while few are known.
+    """The site's dusk regression and its learned nowcast, fitted walk-forward on past nights.
 
-    Cloud and wind at t0 carry the non-radiation nights (FAO-FP ch. 5's regression is for
-    radiation nights only; the site's windy and cloudy nights get their own share of the fit
-    through those two terms instead of being thrown away).
+    Dusk forecast: Reuter's square-root law Tn = T0 + K sqrt(h) (h: hours from t0 to sunrise),
+    with the cooling coefficient K regressed on what is known at t0, K = k0 + a T0 + b Td0 +
+    d cloud0 + e wind0 + f (wind0 - wind 3 h earlier); the regression of K on observed
+    quantities is Dalla Nora et al. (2005)'s use of Reuter's model, and the inputs are FAO-FP
+    ch. 5's (Allen 1957) plus cloud and wind. Ridge shrinkage pulls K toward the site's mean
+    cooling coefficient (the "T0 minus the usual drop" rule), not toward the mean minimum, so a
+    site with few nights still scales with tonight's T0. Cloud and wind carry the non-radiation
+    nights instead of throwing them away.
+
+    `coefs` are the regression's slopes as d Tn / d input at the fitted nights' mean night
+    length (for display and sign checks); `k_coefs` are the fitted slopes of K.
+
+    Nowcast: the remaining fall from the latest reading to the night's minimum, regressed on
+    `NOWCAST_FEATURES` at half-hourly points of past nights (the site's learned correction of
+    the square-root curve as a function of the hours left).
     """
 
     n_nights: int = 0
     mean_min_c: float = 0.0
-    means: tuple[float, ...] = (0.0, 0.0, 0.0, 0.0)
-    coefs: tuple[float, ...] = (0.0, 0.0, 0.0, 0.0)
+    means: tuple[float, ...] = (0.0,) * len(FEATURES)
+    coefs: tuple[float, ...] = (0.0,) * len(FEATURES)
     weight: float = 0.0  # share of the site regression; the physics prior has the rest
     residual_std_c: float = PRIOR_BAND_C
     nights: tuple[dt.date, ...] = field(default=())
+    k_mean: float = 0.0
+    k_coefs: tuple[float, ...] = (0.0,) * len(FEATURES)
+    mean_sqrt_h: float = 3.0
+    nc_samples: int = 0
+    nc_mean: float = 0.0
+    nc_means: tuple[float, ...] = (0.0,) * len(NOWCAST_FEATURES)
+    nc_coefs: tuple[float, ...] = (0.0,) * len(NOWCAST_FEATURES)
+    nc_scale_c: float = PRIOR_BAND_C  # residual std of the remaining fall per sqrt(hour left)
 
-    def regression_c(self, x: tuple[float, ...]) -> float:
-        return self.mean_min_c + sum(c * (xi - m) for c, xi, m in zip(self.coefs, x, self.means, strict=True))
+    def regression_c(self, x: tuple[float, ...], hours: float | None = None) -> float:
+        """Tn = T0 + K(x) sqrt(h); `hours` defaults to the fitted nights' mean night length."""
+        sq = self.mean_sqrt_h if hours is None else math.sqrt(max(0.0, hours))
+        k = self.k_mean + sum(c * (xi - m) for c, xi, m in zip(self.k_coefs, x, self.means, strict=True))
+        return x[0] + k * sq
 
-    def predict_c(self, prior_c: float, x: tuple[float, ...]) -> float:
+    def predict_c(self, prior_c: float, x: tuple[float, ...], hours: float | None = None) -> float:
         """The dusk forecast of the minimum: regression and physics prior, weighted by nights known."""
         if self.weight <= 0.0:
             return prior_c
-        return self.weight * self.regression_c(x) + (1.0 - self.weight) * prior_c
+        return self.weight * self.regression_c(x, hours) + (1.0 - self.weight) * prior_c
+
+    @property
+    def nowcast_ready(self) -> bool:
+        return self.nc_samples >= NOWCAST_MIN_SAMPLES
+
+    def nowcast_drop_c(self, f: tuple[float, ...]) -> float:
+        """The learned remaining fall (<= 0) from the latest reading to the night's minimum."""
+        d = self.nc_mean + sum(c * (xi - m) for c, xi, m in zip(self.nc_coefs, f, self.nc_means, strict=True))
+        return min(0.0, d)
+
+
+def _ridge(x: np.ndarray, y: np.ndarray, lam: float) -> tuple[np.ndarray, np.ndarray, float]:
+    """Ridge on standardised inputs: (means, slopes in the inputs' own units, mean of y)."""
+    mu = x.mean(axis=0)
+    sd = x.std(axis=0)
+    use = sd > 1e-6  # a constant input (no cloud sensor: always clear) gets no slope
+    coefs = np.zeros(x.shape[1])
+    if len(y) >= 3 and use.any():
+        z = (x[:, use] - mu[use]) / sd[use]
+        beta = np.linalg.solve(z.T @ z + lam * np.eye(z.shape[1]), z.T @ (y - y.mean()))
+        coefs[use] = beta / sd[use]
+    return mu, coefs, float(y.mean())
 
 
 _FIT_CACHE: dict[tuple[int, int, int], tuple[list, Calibration]] = {}
@@ -190,10 +249,12 @@ def fit_calibration(records: list[NightRecord], min_nights: int = 10) -> Calibra
 
     Nights with T0 at or above `CALIBRATION_T0_CEILING_C` are left out (warm, humid nights teach
     nothing about frost; all nights are used while fewer than 3 cool ones are known). The slopes
-    are ridge-shrunk, harder while fewer than `min_nights` are known, and the whole regression is
-    blended with the physics prior by weight n / (n + PRIOR_SHRINK_NIGHTS), so that one odd night
-    cannot swing the forecast (FAO-FP ch. 5 asks for about ten local nights). Memoised on the
-    list's identity and length: the pipeline's history lists only grow.
+    are ridge-shrunk toward the site's mean cooling coefficient, harder while fewer than
+    `min_nights` are known (FAO-FP ch. 5 asks for about ten local nights), so that one odd night
+    cannot swing the forecast; the physics prior alone is used below `MIN_REGRESSION_NIGHTS`
+    (blending it in longer made the TMY3 benchmark worse: the prior runs warm there, see
+    bench/results/forecast_variants.json). Memoised on the list's identity and length: the
+    pipeline's history lists only grow.
     """
     key = (id(records), len(records), min_nights)
     hit = _FIT_CACHE.get(key)
@@ -212,28 +273,80 @@ def _fit(records: list[NightRecord], min_nights: int) -> Calibration:
     n = len(rs)
     if n == 0:
         return Calibration()
-    x = np.array([feature_vector(r.t0_temp_c, r.t0_dew_point_c, r.t0_cloud_frac, r.t0_wind_m_s) for r in rs])
+    x = np.array([feature_vector(r.t0_temp_c, r.t0_dew_point_c, r.t0_cloud_frac, r.t0_wind_m_s, r.t0_wind_trend_m_s) for r in rs])
     y = np.array([r.observed_min_c for r in rs])
-    mu = x.mean(axis=0)
-    sd = x.std(axis=0)
-    use = sd > 1e-6  # a constant input (no cloud sensor: always clear) gets no slope
-    coefs = np.zeros(len(FEATURES))
-    if n >= 3 and use.any():
-        z = (x[:, use] - mu[use]) / sd[use]
-        lam = RIDGE_LAMBDA * max(1.0, min_nights / n)
-        beta = np.linalg.solve(z.T @ z + lam * np.eye(z.shape[1]), z.T @ (y - y.mean()))
-        coefs[use] = beta / sd[use]
-    fitted = y.mean() + (x - mu) @ coefs
-    dof = max(1, n - 1 - int(use.sum()))
+    sq = np.sqrt(np.array([max(0.25, r.hours_to_sunrise) for r in rs]))
+    k = (y - x[:, 0]) / sq  # each night's square-root cooling coefficient
+    lam = RIDGE_LAMBDA * max(1.0, min_nights / n)
+    mu, kc, k_mean = _ridge(x, k, lam)
+    fitted = x[:, 0] + (k_mean + (x - mu) @ kc) * sq
+    n_used = int(np.count_nonzero(kc))
+    dof = max(1, n - 1 - n_used)
     sd_res = float(np.sqrt(np.sum((y - fitted) ** 2) / dof)) if n > 2 else PRIOR_BAND_C
-    weight = n / (n + PRIOR_SHRINK_NIGHTS)
+    weight = 1.0 if n >= MIN_REGRESSION_NIGHTS else 0.0
     # until enough nights are known the band cannot be narrower than the prior's share of it
     w = min(1.0, n / min_nights)
     sd_res = math.sqrt(w * sd_res**2 + (1 - w) * PRIOR_BAND_C**2)
-    return Calibration(
-        n, float(y.mean()), tuple(float(m) for m in mu), tuple(float(c) for c in coefs), weight,
-        max(sd_res, 0.3), tuple(r.night for r in rs),
+    msq = float(sq.mean())
+    coefs = kc * msq
+    coefs[0] += 1.0
+    cal = dict(
+        n_nights=n, mean_min_c=float(y.mean()), means=tuple(float(m) for m in mu), coefs=tuple(float(c) for c in coefs),
+        weight=weight, residual_std_c=max(sd_res, 0.3), nights=tuple(r.night for r in rs),
+        k_mean=k_mean, k_coefs=tuple(float(c) for c in kc), mean_sqrt_h=msq,
     )
+    samples = [smp for r in rs for smp in r.nowcast_samples]
+    if len(samples) >= NOWCAST_MIN_SAMPLES:
+        fx = np.array([f for f, _ in samples])
+        fy = np.array([d for _, d in samples])
+        nmu, nc, nmean = _ridge(fx, fy, NOWCAST_RIDGE_LAMBDA)
+        res = fy - (nmean + (fx - nmu) @ nc)
+        hl = np.maximum(fx[:, 1] ** 2, NOWCAST_MIN_HOURS_LEFT)
+        cal.update(
+            nc_samples=len(samples), nc_mean=nmean, nc_means=tuple(float(m) for m in nmu),
+            nc_coefs=tuple(float(c) for c in nc), nc_scale_c=float(np.sqrt(np.mean(res**2 / hl))),
+        )
+    return Calibration(**cal)
+
+
+def nowcast_features(
+    t_s: np.ndarray, v_c: np.ndarray, t0_s: float, t0_c: float, sunrise_s: float, now_s: float,
+    wind: float | None, cloud: float | None, dew_point_c: float | None,
+) -> tuple[float, tuple[float, ...]] | None:
+    """(latest reading, `NOWCAST_FEATURES`) at `now_s` from readings up to then, or None.
+
+    - the remaining fall of the square-root curve re-fitted to tonight's readings since t0
+      (anchored at T0) from now to sunrise, never positive;
+    - sqrt of the hours left to sunrise;
+    - the slope of the last two hours (least squares, at most +0.5 degC/h) times the hours left;
+    - wind, cloud fraction (clear when unknown) and dew-point depression now.
+    """
+    j = int(np.searchsorted(t_s, now_s, side="right"))
+    if j == 0:
+        return None
+    t_now_c = float(v_c[j - 1])
+    i0 = int(np.searchsorted(t_s, t0_s, side="right"))
+    el = (t_s[i0:j] - t0_s) / 3600.0
+    ok = el > 0.05
+    if not ok.any():
+        return None
+    xs = np.sqrt(el[ok])
+    b_obs = float(np.sum(xs * (v_c[i0:j][ok] - t0_c)) / np.sum(xs * xs))
+    h_total = max(0.0, (sunrise_s - t0_s) / 3600.0)
+    e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
+    hl = max(0.0, (sunrise_s - now_s) / 3600.0)
+    curve_drop = min(0.0, b_obs * (math.sqrt(h_total) - e_now))
+    i2 = int(np.searchsorted(t_s, now_s - 7200.0, side="right"))
+    slope = 0.0
+    if j - i2 >= 2:
+        tt = (t_s[i2:j] - now_s) / 3600.0
+        vv = v_c[i2:j]
+        dt_ = tt - tt.mean()
+        den = float(np.sum(dt_ * dt_))
+        if den > 0:
+            slope = float(np.sum(dt_ * (vv - vv.mean())) / den)
+    dep = ASSUMED_DEPRESSION_C if dew_point_c is None else max(0.0, t_now_c - min(dew_point_c, t_now_c))
+    return t_now_c, (curve_drop, math.sqrt(hl), min(0.5, slope) * hl, wind or 0.0, cloud or 0.0, dep)
 
 
 # ---- the projection --------------------------------------------------------------------------
@@ -355,6 +468,8 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
     window = max(INPUT_WINDOW_S, interval or 0.0)
     ids = [s.id for s in block_stations] + [s.id for s in site]
     wind = _mean_as_of(series, ids, "wind_speed", t0_s, window)
+    wind_then = _mean_as_of(series, ids, "wind_speed", t0_s - WIND_TREND_S, window)
+    wind_trend = None if wind is None or wind_then is None else wind - wind_then
     cloud = _mean_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", t0_s, window)
     if cloud is None and td is not None:
         sky = _mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", t0_s, window)
@@ -363,7 +478,7 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
             from frostwatch.physics import radiation
 
             cloud = float(radiation.cloud_frac_from_sky_temperature(sky, t0_c, e))
-    return DuskInputs(station, t0_c, td, wind, None if cloud is None else max(0.0, min(1.0, cloud)))
+    return DuskInputs(station, t0_c, td, wind, None if cloud is None else max(0.0, min(1.0, cloud)), wind_trend)
 
 
 def _sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float | None:
@@ -468,17 +583,18 @@ def project_block(
     # the dusk forecast: at t0 if we are past it, else from the latest values
     di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s) if now_s >= dusk_s else None
     if di is not None:
-        t0_c, td0_c, wind0, cloud0 = di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac
+        t0_c, td0_c, wind0, cloud0, trend0 = di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s
         t0_s, method = dusk_s, "dusk forecast"
     else:
         t0_c, td0_c, wind0, cloud0, t0_s, method = air_c, td_c, wind, cloud, now_s, "pre-dusk estimate"
+        trend0 = None
     h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
-    x = feature_vector(t0_c, td0_c, cloud0, wind0)
+    x = feature_vector(t0_c, td0_c, cloud0, wind0, trend0)
     prior = _prior_c(t0_c, x[1], h_from_t0, x[3], x[2], p_hpa)
     if not math.isfinite(prior):
         notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
-        prior = cal.regression_c(x) if cal.weight > 0 else t0_c - 3.0
-    tp_c = min(cal.predict_c(prior, x), t0_c)
+        prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
+    tp_c = min(cal.predict_c(prior, x, h_from_t0), t0_c)
     if td0_c is None:
         notes.append("no humidity sensor: dew point assumed 6 degC below air for the dusk forecast")
     b_dusk = (tp_c - t0_c) / math.sqrt(h_from_t0)
@@ -500,7 +616,19 @@ def project_block(
     else:
         b_obs = None
     w_obs = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)
-    if regime == "radiation" or now_s < dusk_s:
+    learned = None
+    if di is not None and cal.nowcast_ready and t0_s + NOWCAST_START_S <= now_s < sunrise_s:
+        learned = nowcast_features(t_air, v_air, t0_s, t0_c, sunrise_s, now_s, wind, cloud, td_c)
+    if learned is not None:
+        # the site's learned nowcast: the remaining fall from tonight's curve, recent slope,
+        # hours left, wind, cloud and humidity; the curve keeps the square-root shape to it
+        tp_nc = min(anchor_c, learned[0] + cal.nowcast_drop_c(learned[1]))
+        span = math.sqrt(h_from_t0) - e_now
+        b = (tp_nc - anchor_c) / span if span > 0.05 else 0.0
+        curve = anchor_c + b * (e_grid - e_now)
+        band = cal.nc_scale_c * math.sqrt(max(hours_left, NOWCAST_MIN_HOURS_LEFT))
+        method = "nowcast (site-learned from tonight's cooling)"
+    elif regime == "radiation" or now_s < dusk_s:
         # before dusk the evening fall is steep and says little about the night: use the dusk
         # curve (the prior carries wind and cloud); after dusk re-fit it to tonight's cooling
         if b_obs is not None:
@@ -525,7 +653,8 @@ def project_block(
         band = max(band, 1.5)
         method = f"observed trend ({regime} night)" if w_trend >= 0.2 else f"dusk forecast ({regime} night)"
     curve = np.minimum(curve, max(anchor_c, float(curve[0]))) if len(curve) else curve
-    band *= math.sqrt(min(1.0, hours_left / 6.0)) if hours_left > 0 else 0.0
+    if learned is None:
+        band *= math.sqrt(min(1.0, hours_left / 6.0)) if hours_left > 0 else 0.0
     band = max(band, 0.3)
 
     if now_s >= sunrise_s:
@@ -649,8 +778,9 @@ def night_record(
         cloud = di.cloud_frac  # a sky sensor: its estimate at t0
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     h = night.hours_to_sunrise(night.dusk_utc)
-    x = feature_vector(di.temp_c, di.dew_point_c, di.cloud_frac, di.wind_m_s)
+    x = feature_vector(di.temp_c, di.dew_point_c, di.cloud_frac, di.wind_m_s, di.wind_trend_m_s)
     prior = _prior_c(di.temp_c, x[1], h, x[3], x[2], p_hpa)
+    samples = _nowcast_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s)
     radiation = (wind is None or wind < RADIATION_NIGHT_WIND_M_S) and (cloud is None or cloud <= RADIATION_NIGHT_CLOUD_FRAC)
     return NightRecord(
         night=night.date,
@@ -666,7 +796,50 @@ def night_record(
         radiation_night=radiation,
         t0_wind_m_s=di.wind_m_s,
         t0_cloud_frac=di.cloud_frac,
+        t0_wind_trend_m_s=di.wind_trend_m_s,
+        nowcast_samples=samples,
     )
+
+
+def _nowcast_samples(
+    cfg: Config, series: Series, station: str, stations: list[Station], t: np.ndarray, v: np.ndarray,
+    t0_s: float, t0_c: float, sunrise_s: float, end_s: float,
+) -> tuple[tuple[tuple[float, ...], float], ...]:
+    """Training points for the learned nowcast: at readings half an hour or more after t0 and
+    up to sunrise (at most one per `NOWCAST_SAMPLE_STEP_S`), the features as known then and the
+    fall still to come (the minimum from then to `end_s`, minus the reading then)."""
+    ids = [s.id for s in stations] + [s.id for s in cfg.stations if s.block is None]
+    cloud_ids = [s.id for s in cfg.stations]
+    i0 = int(np.searchsorted(t, t0_s + NOWCAST_START_S, side="left"))
+    i1 = int(np.searchsorted(t, sunrise_s, side="right"))
+    j_end = int(np.searchsorted(t, end_s, side="right"))
+    if i1 <= i0:
+        return ()
+    # the minimum from each reading to the end of the window, computed once backwards
+    tail_min = np.minimum.accumulate(v[i0:j_end][::-1])[::-1]
+    out = []
+    last = -math.inf
+    for i in range(i0, i1):
+        ts = float(t[i])
+        if ts - last < NOWCAST_SAMPLE_STEP_S - 1.0:
+            continue
+        last = ts
+        wind = _mean_as_of(series, ids, "wind_speed", ts, INPUT_WINDOW_S)
+        cloud = _mean_as_of(series, cloud_ids, "cloud_area_fraction", ts, INPUT_WINDOW_S)
+        td = None
+        for sid in [station] + ids:
+            td = _mean_as_of(series, [sid], "dew_point_temperature", ts, INPUT_WINDOW_S)
+            rh = None if td is not None else _mean_as_of(series, [sid], "relative_humidity", ts, INPUT_WINDOW_S)
+            if rh is not None:
+                ta = float(v[i]) if sid == station else _mean_as_of(series, [sid], "air_temperature", ts, INPUT_WINDOW_S)
+                if ta is not None:
+                    td = float(humidity.dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh))))
+            if td is not None:
+                break
+        f = nowcast_features(t, v, t0_s, t0_c, sunrise_s, ts, wind, cloud, td)
+        if f is not None:
+            out.append((f[1], float(tail_min[i - i0]) - f[0]))
+    return tuple(out)
 
 
 def _window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
