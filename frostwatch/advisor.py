@@ -328,6 +328,15 @@ def _morning(p: Projection, block: Block, d: Display, wet_trend: float | None, a
             "protection may stop"), True
 
 
+_RUNNING_WORDS = {
+    "wind_machine": "the wind machines are",
+    "overtree_sprinkler": "the over-tree sprinklers are",
+    "undertree_sprinkler": "the under-tree sprinklers are",
+    "heaters": "the heaters are",
+    "none": "protection is",
+}
+
+
 def advise(
     projection: Projection,
     block: Block,
@@ -336,6 +345,7 @@ def advise(
     display: Display | None = None,
     *,
     series: Series | None = None,
+    protection_running: bool | None = None,
     supercooled_fog: bool | None = None,
 ) -> Advice:
     """What to do about `block` at `now_utc`, from its projection and recent readings.
@@ -481,6 +491,14 @@ def advise(
         wet_trend = _wet_bulb_trend_c_per_h(series, p.station, p.dew_point_c, now_s, pressure_hpa) if sprinkler else None
         details.update(air_trend_c_per_h=air_trend, wet_bulb_trend_c_per_h=wet_trend)
         action, stop_ok = _morning(p, block, d, wet_trend, air_trend, stop_air)
+    elif active and protection_running:
+        # the block's running sensor says protection is on: keep it on, and say if it is not holding
+        if risk == "now":
+            action = (f"{_RUNNING_WORDS[method]} running but the block is at its critical temperature: check that every "
+                      "machine or line is really working, and add protection if you can")
+            reasons.append("protection is running (running sensor) and crop-height air is still at or below T10")
+        else:
+            action = f"keep the {_RUNNING_WORDS[method].split(' are')[0].removeprefix('the ')} running: the projection still reaches T10 + margin"
     elif active:
         if risk == "now":
             action = f"{what}{conditional} now: the block is at its critical temperature"

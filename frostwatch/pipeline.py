@@ -36,6 +36,22 @@ def slice_series(series: Series, start_s: float, end_s: float) -> Series:
     return out
 
 
+RUNNING_QUANTITIES = ("wind_machine_running", "sprinkler_running")
+RUNNING_FRESH_S = 1800.0  # a running flag older than this says nothing about now
+
+
+def protection_running(series: Series, stations: list[str], now_s: float) -> bool | None:
+    """True/False from the block's latest fresh running flag; None where the block has none."""
+    latest: tuple[float, float] | None = None
+    for sid in stations:
+        for q in RUNNING_QUANTITIES:
+            if (sid, q) in series:
+                t, v = series[(sid, q)]
+                if len(t) and now_s - t[-1] <= RUNNING_FRESH_S and (latest is None or t[-1] > latest[0]):
+                    latest = (float(t[-1]), float(v[-1]))
+    return None if latest is None else latest[1] >= 0.5
+
+
 @dataclass
 class Evaluation:
     time_utc: dt.datetime
@@ -99,7 +115,9 @@ class Evaluator:
             proj = forecast.project_block(
                 now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa
             )
-            adv = advise(proj, block, now_utc, self.pressure_hpa, self.display)
+            running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_utc.timestamp())
+            adv = advise(proj, block, now_utc, self.pressure_hpa, self.display, series=window,
+                         protection_running=running)
             state = self.states.get(block.id, BlockAlertState())
             state, alerts = step(state, adv, proj, block, now_utc, night.date.isoformat(), night.dusk_utc, self.display)
             self.states[block.id] = state

@@ -167,6 +167,9 @@ def step(
 
 def _morning_stop_ok(adv: Advice, proj: Projection, block: Block) -> bool:
     """Per-method stop rule: the trigger temperature is above T10 (sprinklers) or T10 + margin."""
+    stop_ok = adv.details.get("stop_ok")
+    if stop_ok is not None:
+        return bool(stop_ok)  # the advice's own per-method stop rule (trend, after sunrise)
     if adv.trigger_temp_c is None:
         return False
     if adv.trigger == "wet-bulb":
