@@ -1,49 +1,177 @@
-"""Run frostwatch benchmarks: `python -m bench [NAME ...]`.
+"""Run frostwatch benchmarks: `python -m bench [--quick] [NAME ...]`.
 
-A benchmark is a module `bench/<name>.py` with a `run(verbose=True) -> dict` function; add its
-name to BENCHMARKS. Each result is printed by the module and collected into
-bench/results/latest.json with the time it was run and the machine it ran on.
+A benchmark is a module `bench/<name>.py` with a `run(verbose=True, ...) -> dict` function; every
+such module in this folder is found and run (helpers without `run`, and `soak`, which runs for a
+chosen time, are left out). `run` may accept `quick` (a few-minute run) and `out_dir`.
+
+A result may carry "figures": a list of rows
+    {"figure", "value", "unit", "target", "floor", "floor_label", "ratio", "pass"}
+(the floor is measured in the same run). Modules that return no figures get an adapter here when
+one is known (forecast_skill); otherwise their result is kept in the JSON and shown as one row.
+At the end one table of every figure is printed and everything goes to bench/results/latest.json
+with the time it was run and the machine it ran on. The exit code is 0 when every benchmark ran
+(whether each figure meets its target is in the table; a benchmark that crashed gives 1).
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import importlib
+import inspect
 import json
+import os
 import platform
 import sys
+import time
+import traceback
 from pathlib import Path
 
-BENCHMARKS = ["forecast_skill"]
-RESULTS = Path(__file__).resolve().parent / "results"
+HERE = Path(__file__).resolve().parent
+RESULTS = HERE / "results"
+NOT_BENCHMARKS = {"__init__", "__main__", "synth", "soak"}
+ORDER = ["ingest", "alert_latency", "evaluation", "storage", "memory", "forecast_skill"]
+
+
+def discover() -> list[str]:
+    names = [p.stem for p in HERE.glob("*.py") if p.stem not in NOT_BENCHMARKS and not p.stem.startswith("_")]
+    names = [n for n in names if "def run(" in (HERE / f"{n}.py").read_text(encoding="utf-8")]
+    return sorted(names, key=lambda n: (ORDER.index(n) if n in ORDER else len(ORDER), n))
+
+
+# kept for callers of the first runner
+BENCHMARKS = discover()
+
+
+def forecast_skill_figures(res: dict) -> list[dict]:
+    """Rows for the forecast skill result (bench/forecast_skill.py, issue 3's targets)."""
+    rows = []
+    tg = res.get("targets", {})
+    cls = res.get("classes", {})
+    for cname, key in (("radiation", "radiation_mae_c"), ("cold", "cold_mae_c")):
+        c = cls.get(cname)
+        if not c:
+            continue
+        fw = c["frostwatch_walk_forward"]["mae_c"]
+        base = min(c["allen_regression_loo"]["mae_c"], c["t2_minus_mean_drop_loo"]["mae_c"])
+        rows.append({"figure": f"dusk forecast MAE, {cname} nights (n={c['nights']})", "value": fw, "unit": "degC",
+                     "target": f"<= {tg.get(key)} degC", "floor": base, "floor_label": "best baseline MAE (leave-one-out)",
+                     "ratio": round(fw / base, 2) if base else None, "pass": fw <= tg.get(key, float("inf"))})
+    c = cls.get("cold")
+    if c:
+        b = c["frostwatch_walk_forward"]["bias_c"]
+        rows.append({"figure": "dusk forecast bias, cold nights", "value": b, "unit": "degC",
+                     "target": f"|bias| <= {tg.get('abs_bias_c')} degC", "floor": None, "floor_label": "",
+                     "ratio": None, "pass": abs(b) <= tg.get("abs_bias_c", float("inf"))})
+        nc = c.get("nowcast_2h_before_min")
+        if nc:
+            rows.append({"figure": "nowcast MAE 2 h before the minimum, cold nights", "value": nc["mae_c"], "unit": "degC",
+                         "target": f"<= {tg.get('nowcast_mae_c')} degC", "floor": None, "floor_label": "", "ratio": None,
+                         "pass": nc["mae_c"] <= tg.get("nowcast_mae_c", float("inf"))})
+    t = res.get("timing")
+    if t:
+        ratio = t.get("ratio_to_floor")
+        rows.append({"figure": "backtest of the TMY3 year (read + parse + walk-forward)", "value": t["backtest_wall_s"],
+                     "unit": "s", "target": "<= 3x the floor", "floor": t["pandas_read_floor_s"],
+                     "floor_label": "pandas read_csv + times of the same CSV", "ratio": ratio,
+                     "pass": ratio is not None and ratio <= 3.0})
+    return rows
+
+
+ADAPTERS = {"forecast_skill": forecast_skill_figures}
+
+
+def figures_of(name: str, res) -> list[dict]:
+    if isinstance(res, dict) and isinstance(res.get("figures"), list):
+        return res["figures"]
+    if name in ADAPTERS and isinstance(res, dict):
+        try:
+            return ADAPTERS[name](res)
+        except Exception:  # noqa: BLE001 - a changed result shape must not lose the run
+            traceback.print_exc()
+    return [{"figure": f"{name} (see bench/results/latest.json)", "value": None, "unit": "", "target": "",
+             "floor": None, "floor_label": "", "ratio": None, "pass": None}]
+
+
+def _fmt(v) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        return f"{v:.3g}" if abs(v) < 100 else f"{v:.0f}"
+    return str(v)
+
+
+def table(rows: list[tuple[str, dict]]) -> str:
+    head = ("benchmark", "figure", "value", "target", "floor (same run)", "ratio", "pass")
+    body = []
+    for name, f in rows:
+        val = f"{_fmt(f.get('value'))} {f.get('unit', '')}".strip()
+        floor = _fmt(f.get("floor"))
+        if f.get("floor") is not None and f.get("floor_label"):
+            floor = f"{floor} ({f['floor_label']})"
+        p = f.get("pass")
+        body.append((name, f.get("figure", ""), val, f.get("target", ""), floor, _fmt(f.get("ratio")),
+                     "yes" if p is True else "NO" if p is False else "-"))
+    widths = [max(len(r[i]) for r in [head, *body]) for i in range(len(head))]
+    line = lambda r: "| " + " | ".join(c.ljust(w) for c, w in zip(r, widths, strict=True)) + " |"  # noqa: E731
+    return "\n".join([line(head), "|" + "|".join("-" * (w + 2) for w in widths) + "|", *map(line, body)])
 
 
 def main(argv: list[str]) -> int:
-    names = argv or BENCHMARKS
-    unknown = [n for n in names if n not in BENCHMARKS]
+    quick = "--quick" in argv
+    full_memory = "--full-hour" in argv
+    wanted = [a for a in argv if not a.startswith("--")]
+    known = discover()
+    unknown = [n for n in wanted if n not in known]
     if unknown:
-        print(f"unknown benchmark(s): {', '.join(unknown)}; known: {', '.join(BENCHMARKS)}", file=sys.stderr)
+        print(f"unknown benchmark(s): {', '.join(unknown)}; known: {', '.join(known)}", file=sys.stderr)
         return 2
+    names = wanted or known
     out = {
         "run_at_utc": dt.datetime.now(dt.UTC).isoformat(timespec="seconds"),
-        "machine": {"python": platform.python_version(), "platform": platform.platform(), "processor": platform.machine()},
+        "quick": quick,
+        "machine": {"python": platform.python_version(), "platform": platform.platform(),
+                    "processor": platform.machine(), "cpus": os.cpu_count()},
         "benchmarks": {},
     }
     latest = RESULTS / "latest.json"
-    if latest.exists() and argv:
+    if latest.exists() and wanted:
         try:
             out["benchmarks"] = json.loads(latest.read_text(encoding="utf-8")).get("benchmarks", {})
         except (OSError, ValueError):
             pass
+    failed = []
     for name in names:
-        print(f"== {name}")
-        mod = importlib.import_module(f"bench.{name}")
-        out["benchmarks"][name] = mod.run(verbose=True)
-        print()
+        print(f"== {name}", flush=True)
+        t = time.perf_counter()
+        try:
+            mod = importlib.import_module(f"bench.{name}")
+            params = inspect.signature(mod.run).parameters
+            kw = {"verbose": True}
+            if "quick" in params:
+                kw["quick"] = quick
+            if "full_hour" in params:
+                kw["full_hour"] = full_memory
+            res = mod.run(**kw)
+        except Exception as exc:  # noqa: BLE001 - one broken benchmark must not hide the others
+            traceback.print_exc()
+            failed.append(name)
+            res = {"error": f"{type(exc).__name__}: {exc}"}
+        if isinstance(res, dict):
+            res.setdefault("bench_wall_s", round(time.perf_counter() - t, 1))
+        out["benchmarks"][name] = res
+        print(flush=True)
+    rows = []
+    for name, res in out["benchmarks"].items():
+        if isinstance(res, dict) and "error" in res and "figures" not in res:
+            rows.append((name, {"figure": f"FAILED: {res['error'][:80]}", "pass": False}))
+            continue
+        rows += [(name, f) for f in figures_of(name, res)]
+    out["table"] = [{"benchmark": n, **f} for n, f in rows]
     RESULTS.mkdir(parents=True, exist_ok=True)
-    latest.write_text(json.dumps(out, indent=2) + "\n", encoding="utf-8")
-    print(f"all results: {latest}")
-    return 0
+    latest.write_text(json.dumps(out, indent=2, default=str) + "\n", encoding="utf-8")
+    print(table(rows))
+    print(f"\nall results: {latest}" + (" (quick run)" if quick else ""))
+    return 1 if failed else 0
 
 
 if __name__ == "__main__":

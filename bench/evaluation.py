@@ -1,0 +1,197 @@
+"""One evaluation cycle, and how its cost grows with blocks and with the history in the store.
+
+    /work/venv/bin/python -m bench.evaluation [--quick]      (or: python -m bench evaluation)
+
+What is timed is the daemon's own cycle, `frostwatch.daemon.Core.evaluate`: the store window read
+(sunset - 6 h up to now), `pipeline.Evaluator.evaluate` (projection, advice and alert rules for
+every block), the projections written in one transaction and the blocks' status document stored.
+The floor, measured in the same run on the same store, is the bare SQL read of the same window
+(`SELECT ... WHERE time_utc_ms BETWEEN ...` fetched to Python tuples), which no evaluation can
+avoid.
+
+- cycle: 50 blocks of 4 stations (200 stations), a radiation night of 1-minute readings (air
+  temperature and humidity at crop height, temperature and wind on the tower), evaluated at
+  02:00 local; median of repeated cycles, target <= 50 ms.
+- blocks curve: 1, 10, 50, 200 blocks (same night); at most linear: the time per block at 200
+  must not exceed 1.25 x the time per block at 50.
+- history curve: the same 50-sensor site (12 blocks of 4 + 2 site-wide sensors) with 1, 30 and
+  365 days of 1-minute readings held in the store before the night; flat: the 365-day median
+  within 1.25 x the 1-day median (an evaluation reads a window, never the whole table).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import statistics
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from bench import synth
+
+TARGET_CYCLE_MS = 50.0
+LINEAR_TOLERANCE = 1.25
+FLAT_TOLERANCE = 1.25
+
+
+class _NullOutbox:
+    def submit(self, alerts, now):
+        pass
+
+    def submit_health(self, *a, **k):
+        return ""
+
+
+def _core(cfg, store):
+    from frostwatch.daemon import Core, daemon_settings
+
+    return Core(cfg, daemon_settings(cfg), store, _NullOutbox(), clock=lambda: None)
+
+
+def _bare_window_read(store, start: dt.datetime, end: dt.datetime) -> int:
+    from frostwatch.store import to_ms
+
+    with store.lock:
+        rows = store.conn.execute(
+            "SELECT time_utc_ms, station, quantity, value FROM readings WHERE time_utc_ms BETWEEN ? AND ?",
+            (to_ms(start), to_ms(end)),
+        ).fetchall()
+    return len(rows)
+
+
+def time_cycles(cfg, db: Path, repeats: int) -> dict:
+    """Median times (ms) of Core.evaluate, of its window read and of the bare SQL floor."""
+    from frostwatch.pipeline import LOOKBACK
+    from frostwatch.store import Store
+
+    start, sunset, at = synth.night_bounds(cfg)
+    store = Store.open(db)
+    try:
+        core = _core(cfg, store)
+        night = core.evaluator.night_at(at)
+        cycle, read, floor, compute = [], [], [], []
+        rows = 0
+        core.evaluate(at, "warm-up")  # first call: imports, caches
+        for k in range(repeats):
+            now = at + dt.timedelta(minutes=2 * (k + 1))
+            t = time.perf_counter()
+            rows = _bare_window_read(store, night.sunset_utc - LOOKBACK, now)
+            floor.append(time.perf_counter() - t)
+            t = time.perf_counter()
+            series = store.readings_window(night.sunset_utc - LOOKBACK, now)
+            read.append(time.perf_counter() - t)
+            t = time.perf_counter()
+            core.evaluator.evaluate(now - dt.timedelta(minutes=1), series)
+            compute.append(time.perf_counter() - t)
+            t = time.perf_counter()
+            core.evaluate(now, "bench")
+            cycle.append(time.perf_counter() - t)
+        ms = lambda xs: round(1000 * statistics.median(xs), 2)  # noqa: E731
+        return {"blocks": len(cfg.blocks), "stations": len(cfg.stations), "window_rows": rows,
+                "cycle_ms": ms(cycle), "window_read_ms": ms(read), "floor_sql_ms": ms(floor),
+                "compute_ms": ms(compute),
+                "cycle_min_ms": round(1000 * min(cycle), 2), "repeats": repeats}
+    finally:
+        store.close()
+
+
+def night_site(n_blocks: int, work: Path, extra: int = 0):
+    d = work / f"blocks-{n_blocks}"
+    d.mkdir(parents=True, exist_ok=True)
+    cfg = synth.make_config(n_blocks, d, extra)
+    start, sunset, at = synth.night_bounds(cfg)
+    t = time.perf_counter()
+    n = synth.fill_store(cfg.storage.path, synth.station_rows(cfg, start, at + dt.timedelta(hours=1), sunset=sunset))
+    return cfg, n, time.perf_counter() - t
+
+
+def history_site(days: int, work: Path):
+    """12 blocks x 4 + 2 site sensors = 50 sensors; `days` of air temperature each minute before
+    the night, then the night itself as in the cycle benchmark."""
+    d = work / f"history-{days}"
+    d.mkdir(parents=True, exist_ok=True)
+    cfg = synth.make_config(12, d, extra_stations=2)
+    start, sunset, at = synth.night_bounds(cfg)
+    t0 = time.perf_counter()
+
+    def rows():
+        step_ms = synth.STEP_S * 1000
+        first = int((at - dt.timedelta(days=days)).timestamp() * 1000) // step_ms * step_ms
+        stop = int(start.timestamp() * 1000)
+        ids = [s.id for s in cfg.stations]
+        for m in range(first, stop, step_ms):
+            v = round(8.0 + 6.0 * ((m // step_ms) % 1440) / 1440.0, 2)
+            for sid in ids:
+                yield (m, sid, "air_temperature", v, "bench")
+        yield from synth.station_rows(cfg, start, at + dt.timedelta(hours=1), sunset=sunset)
+
+    n = synth.fill_store(cfg.storage.path, rows())
+    return cfg, n, time.perf_counter() - t0
+
+
+def run(verbose: bool = True, quick: bool = False, out_dir: Path | None = None) -> dict:
+    work = Path(out_dir or tempfile.mkdtemp(prefix="frostwatch-bench-eval-"))
+    repeats = 7 if quick else 21
+    say = print if verbose else (lambda *a, **k: None)
+
+    blocks_curve = []
+    for n in (1, 10, 50, 200):
+        cfg, rows, gen_s = night_site(n, work)
+        r = time_cycles(cfg, cfg.storage.path, repeats if n <= 50 else max(3, repeats // 3))
+        r["generated_rows"], r["generate_s"] = rows, round(gen_s, 1)
+        r["per_block_ms"] = round(r["cycle_ms"] / n, 3)
+        blocks_curve.append(r)
+        say(f"  blocks {n:>4}: cycle {r['cycle_ms']:>8.1f} ms  ({r['per_block_ms']:.2f} ms/block; window read "
+            f"{r['window_read_ms']:.1f} ms, compute {r['compute_ms']:.1f} ms, bare SQL floor {r['floor_sql_ms']:.1f} ms, {r['window_rows']} rows)")
+    main = next(r for r in blocks_curve if r["blocks"] == 50)
+    b50 = main["per_block_ms"]
+    b200 = next(r for r in blocks_curve if r["blocks"] == 200)["per_block_ms"]
+
+    history_curve = []
+    days_list = (1, 30) if quick else (1, 30, 365)
+    for days in days_list:
+        cfg, rows, gen_s = history_site(days, work)
+        r = time_cycles(cfg, cfg.storage.path, repeats)
+        r.update(days=days, store_rows=rows, generate_s=round(gen_s, 1),
+                 store_mib=round(cfg.storage.path.stat().st_size / 2**20, 1))
+        history_curve.append(r)
+        say(f"  history {days:>3} d: cycle {r['cycle_ms']:>7.1f} ms  (store {rows:,} rows, {r['store_mib']} MiB; "
+            f"window read {r['window_read_ms']:.1f} ms; generated in {gen_s:.0f} s)")
+        cfg.storage.path.unlink(missing_ok=True)  # the big ones take room
+    h_first, h_last = history_curve[0], history_curve[-1]
+    flat_ratio = round(h_last["cycle_ms"] / h_first["cycle_ms"], 2)
+    lin_ratio = round(b200 / b50, 2)
+
+    figures = [
+        {"figure": "evaluation cycle, 50 blocks x 4 stations (median)", "value": main["cycle_ms"], "unit": "ms",
+         "target": f"<= {TARGET_CYCLE_MS:g} ms", "floor": main["floor_sql_ms"], "floor_label": "bare SQL window read",
+         "ratio": round(main["cycle_ms"] / main["floor_sql_ms"], 1) if main["floor_sql_ms"] else None,
+         "pass": main["cycle_ms"] <= TARGET_CYCLE_MS},
+        {"figure": "cost vs blocks: ms/block at 200 over ms/block at 50", "value": lin_ratio, "unit": "x",
+         "target": f"<= {LINEAR_TOLERANCE:g} (linear)", "floor": b50, "floor_label": "ms/block at 50 blocks",
+         "ratio": lin_ratio, "pass": lin_ratio <= LINEAR_TOLERANCE},
+        {"figure": f"cost vs history: {h_last['days']} d over {h_first['days']} d in the store", "value": flat_ratio,
+         "unit": "x", "target": f"<= {FLAT_TOLERANCE:g} (flat)", "floor": h_first["cycle_ms"],
+         "floor_label": f"cycle ms with {h_first['days']} d", "ratio": flat_ratio, "pass": flat_ratio <= FLAT_TOLERANCE},
+    ]
+    out = {"figures": figures, "blocks_curve": blocks_curve, "history_curve": history_curve, "quick": quick}
+    if verbose:
+        print("\n  cost against blocks (median ms per cycle):")
+        for r in blocks_curve:
+            print(f"    {r['blocks']:>4} blocks  {r['cycle_ms']:>9.1f} ms  " + "#" * max(1, int(r["cycle_ms"] / max(1.0, blocks_curve[-1]["cycle_ms"]) * 50)))
+        print("  cost against history (median ms per cycle):")
+        for r in history_curve:
+            print(f"    {r['days']:>4} days    {r['cycle_ms']:>9.1f} ms  " + "#" * max(1, int(r["cycle_ms"] / max(1.0, max(x['cycle_ms'] for x in history_curve)) * 50)))
+    return out
+
+
+def main(argv: list[str]) -> int:
+    res = run(quick="--quick" in argv)
+    print(json.dumps(res["figures"], indent=2))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
