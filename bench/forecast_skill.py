@@ -132,6 +132,16 @@ def _stats(pred: np.ndarray, obs: np.ndarray) -> dict:
     }
 
 
+def _band(rows: list[dict], pred_key: str, band_key: str) -> tuple[float | None, float | None]:
+    """(median band, fraction of rows whose observed minimum is within +/- band)."""
+    if not rows:
+        return None, None
+    p = np.array([r[pred_key] for r in rows], float)
+    b = np.array([r[band_key] for r in rows], float)
+    o = np.array([r["observed_min_c"] for r in rows], float)
+    return round(float(np.median(b)), 2), round(float(np.mean(np.abs(p - o) <= b)), 3)
+
+
 def loo_allen(t2: np.ndarray, td2: np.ndarray, tmin: np.ndarray) -> np.ndarray:
     """Leave-one-out least squares Tmin = b0 + b1 T2 + b2 Td2 (Allen 1957 form, FAO-FP ch. 5)."""
     x = np.column_stack([np.ones_like(t2), t2, td2])
@@ -180,7 +190,7 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
 
     # the nowcast is a separate pass (it needs each night's observed minimum time)
     t = time.perf_counter()
-    rows_nc = bt.backtest(cfg, series, nowcast_lead_h=NOWCAST_LEAD_H)
+    rows_nc = bt.backtest(cfg, series, nowcast_lead_h=NOWCAST_LEAD_H, nowcast_before_sunrise_h=NOWCAST_LEAD_H)
     nowcast_wall_s = time.perf_counter() - t
 
     tz = cfg.site.tz
@@ -199,7 +209,8 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
         morning = dt.datetime.fromisoformat(r["observed_min_at"].replace("Z", "+00:00")).astimezone(tz)
         if morning.month != dt.date.fromisoformat(r["night"]).month:
             continue  # crosses a month boundary (also a different source year)
-        keep.append({**r, "nowcast_min_c": rn.get("nowcast_min_c")})
+        keep.append({**r, **{k: rn.get(k) for k in (
+            "nowcast_min_c", "nowcast_band_c", "sunrise_nowcast_min_c", "sunrise_nowcast_band_c")}})
     arr = lambda key, rs: np.array([r[key] for r in rs], dtype=float)  # noqa: E731
     classes = {
         "radiation": [r for r in keep if r["observed_min_c"] < 10.0 and r["mean_wind_m_s"] < 2.0 and r["max_cloud_frac"] <= 0.3],
@@ -221,6 +232,7 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
         xs = np.column_stack([np.ones_like(t2), t2, td2, arr("t0_cloud_frac", rs), arr("t0_wind_m_s", rs)])
         in_sample = xs @ np.linalg.lstsq(xs, obs, rcond=None)[0]
         nc_rows = [r for r in rs if r["nowcast_min_c"] is not None]
+        sr_rows = [r for r in rs if r["sunrise_nowcast_min_c"] is not None]
         results["classes"][name] = {
             "nights": len(rs),
             "frostwatch_walk_forward": _stats(arr("predicted_min_c", rs), obs),
@@ -230,8 +242,12 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
             "t2_minus_mean_drop_loo": _stats(loo_mean_drop(t2, obs), obs),
             "td2": _stats(td2, obs),
             "nowcast_2h_before_min": _stats(arr("nowcast_min_c", nc_rows), arr("observed_min_c", nc_rows)) if nc_rows else None,
+            "nowcast_2h_before_sunrise": _stats(arr("sunrise_nowcast_min_c", sr_rows), arr("observed_min_c", sr_rows)) if sr_rows else None,
             "band_c_median": round(float(np.median(arr("band_c", rs))), 2),
             "within_band_frac": round(float(np.mean(np.abs(arr("predicted_min_c", rs) - obs) <= arr("band_c", rs))), 3),
+            "nowcast_band_c_median": _band(nc_rows, "nowcast_min_c", "nowcast_band_c")[0],
+            "nowcast_within_band_frac": _band(nc_rows, "nowcast_min_c", "nowcast_band_c")[1],
+            "sunrise_nowcast_within_band_frac": _band(sr_rows, "sunrise_nowcast_min_c", "sunrise_nowcast_band_c")[1],
         }
     results["timing"] = {
         "backtest_wall_s": round(wall_s, 3),
@@ -262,6 +278,7 @@ def print_report(res: dict) -> None:
         ("t2_minus_mean_drop_loo", "T2 - mean drop (leave-one-out)"),
         ("td2", "Td2"),
         ("nowcast_2h_before_min", "frostwatch nowcast 2 h before the minimum"),
+        ("nowcast_2h_before_sunrise", "frostwatch nowcast 2 h before sunrise"),
     ]
     cls = res["classes"]
     print(f"\n{'method':<58} {'radiation nights':>24}   {'all nights < 10 degC':>24}")
@@ -273,8 +290,12 @@ def print_report(res: dict) -> None:
             cells.append(f"{s['n']:>4} {s['mae_c']:>6.2f} {s['rmse_c']:>6.2f} {s['bias_c']:>+6.2f}" if s else f"{'-':>24}")
         print(f"{label:<58} {cells[0]}   {cells[1]}")
     t = res["timing"]
-    print(f"\nuncertainty band: median {cls['cold']['band_c_median']} degC; "
-          f"{cls['cold']['within_band_frac']:.0%} of cold nights within it")
+    for c in ("radiation", "cold"):
+        k = cls[c]
+        print(f"\nuncertainty band ({c}): dusk median {k['band_c_median']} degC, {k['within_band_frac']:.0%} within it; "
+              f"nowcast 2 h before the minimum median {k['nowcast_band_c_median']} degC, "
+              f"{k['nowcast_within_band_frac']:.0%} within it; 2 h before sunrise {k['sunrise_nowcast_within_band_frac']:.0%}", end="")
+    print()
     print(f"whole-year backtest: {t['backtest_wall_s']:.2f} s (read + parse + walk-forward); "
           f"floor (pandas read_csv + times): {t['pandas_read_floor_s']:.3f} s")
     print(f"targets: MAE <= {TARGETS['radiation_mae_c']} (radiation), <= {TARGETS['cold_mae_c']} (cold), "

@@ -34,11 +34,16 @@ def candidate_nights(cfg: Config, series: Series) -> list[dt.date]:
     return sorted({evening_date(dt.datetime.fromtimestamp(h * 3600.0, dt.UTC), tz) for h in hours})
 
 
-def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None) -> list[dict]:
+def backtest(
+    cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None,
+    nowcast_before_sunrise_h: float | None = None,
+) -> list[dict]:
     """One row per night and block: the dusk forecast against what happened (walk-forward).
 
     With `nowcast_lead_h`, each row also holds the nowcast made that many hours before the
-    observed minimum (when that is after the issue time), with the same calibration.
+    observed minimum (when that is after the issue time), with the same calibration, and its
+    band. With `nowcast_before_sunrise_h`, the nowcast made that long before sunrise (a lead a
+    grower knows in advance, not one chosen by the outcome) as `sunrise_nowcast_*`.
     """
     from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
 
@@ -81,12 +86,22 @@ def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float |
                 }
                 if nowcast_lead_h is not None:
                     at = rec.observed_min_at_utc - dt.timedelta(hours=nowcast_lead_h)
-                    nc = None
+                    nc = band = None
                     if at > issue:
                         now_win = slice_series(obs, start_s, at.timestamp())
-                        nc = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa).predicted_min_c
+                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                        nc, band = pn.predicted_min_c, pn.band_c
                     row["nowcast_issued_at"] = _iso(at) if nc is not None else None
                     row["nowcast_min_c"] = nc
+                    row["nowcast_band_c"] = band
+                if nowcast_before_sunrise_h is not None:
+                    at = night.sunrise_utc - dt.timedelta(hours=nowcast_before_sunrise_h)
+                    pn = None
+                    if at > issue:
+                        now_win = slice_series(obs, start_s, at.timestamp())
+                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                    row["sunrise_nowcast_min_c"] = None if pn is None else pn.predicted_min_c
+                    row["sunrise_nowcast_band_c"] = None if pn is None else pn.band_c
                 rows.append(row)
             # walk-forward: the night joins the history only after it has been forecast
             ev.history[block.id].append(rec)

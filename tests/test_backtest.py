@@ -184,3 +184,34 @@ def test_backtest_command_table_and_json(tmp_path, demo_config, demo_logs):
     assert doc["summary"]["nights"] == 3
     out = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0 and "walk-forward" in out.stdout and "east-low" in out.stdout
+
+
+def test_learned_nowcast_is_walk_forward_and_follows_tonight(tmp_path):
+    """The nowcast learned from past nights' half-hourly points: used once enough are known,
+    close to the truth on these exact square-root nights (noise only in each night's minimum),
+    and unchanged when later nights are removed."""
+    from frostwatch import forecast
+    from frostwatch.pipeline import Evaluator, slice_series
+
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg, n=16)
+    full = bt.backtest(cfg, series, nowcast_lead_h=2.0, nowcast_before_sunrise_h=2.0)
+    late = [r for r in full[-6:] if r["nowcast_min_c"] is not None]
+    assert late and all(r["sunrise_nowcast_min_c"] is not None for r in full[-6:])
+    err = np.abs([r["nowcast_min_c"] - r["observed_min_c"] for r in late])
+    assert err.mean() < 0.5
+    end = dt.datetime.fromisoformat(full[10]["observed_min_at"].replace("Z", "+00:00")).timestamp() + 3 * 3600
+    part = bt.backtest(cfg, cut(series, end), nowcast_lead_h=2.0, nowcast_before_sunrise_h=2.0)
+    assert part[:11] == full[:11]
+    # the method says which nowcast spoke
+    ev = Evaluator(cfg)
+    for r in full[:-1]:
+        ev.learn_night(ev.night(dt.date.fromisoformat(r["night"])), series)
+    cal = ev.calibration("b")
+    assert cal.nowcast_ready
+    night = ev.night(dt.date.fromisoformat(full[-1]["night"]))
+    now = night.dusk_utc + dt.timedelta(hours=3)
+    win = slice_series(series, night.sunset_utc.timestamp() - 6 * 3600, now.timestamp())
+    p = forecast.project_block(now, cfg.blocks[0], cfg, win, night, cal)
+    assert p.method.startswith("nowcast (site-learned")
+    assert abs(p.predicted_min_c - full[-1]["observed_min_c"]) < 1.0

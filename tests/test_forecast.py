@@ -323,3 +323,22 @@ def test_calibration_fit_is_memoised_for_a_growing_history():
                                      0.5, 0.0, -2.0, True, 0.5, 0.0))
     b = forecast.fit_calibration(recs, 10)
     assert b is not a and b.n_nights == 1
+
+
+def test_dusk_regression_is_reuters_square_root_law():
+    """Nights that all follow one cooling coefficient K give Tn = T0 + K sqrt(h) back exactly:
+    reference sheet 1.1 check B (T0 0.95 degC, h 13 h, b' -1.7750 degC h^-1/2 -> Tp -5.45 degC)."""
+    k = -1.7750
+    recs = [
+        forecast.NightRecord(dt.date(2027, 3, d), "b-low", t0, td, 13.0, t0 + k * 13.0**0.5,
+                             dt.datetime(2027, 3, d + 1, tzinfo=dt.UTC), 0.5, 0.0, 0.0, True, 0.5, 0.0)
+        for d, (t0, td) in enumerate([(2, -6), (5, -2), (8, 0), (3, -8), (6, -1), (1, -9), (7, -3), (4, -4)], start=1)
+    ]
+    cal = forecast.fit_calibration(recs, 10)
+    assert cal.weight == 1.0
+    x = forecast.feature_vector(0.95, -4.0, 0.0, 0.5)
+    assert cal.predict_c(0.0, x, 13.0) == pytest.approx(-5.45, abs=0.01)
+    # a shorter night cools less, by the square root of its length
+    assert cal.predict_c(0.0, x, 6.5) == pytest.approx(0.95 + k * 6.5**0.5, abs=0.01)
+    # d Tn / d T0 is one on this site (every night drops by the same amount)
+    assert cal.coefs[0] == pytest.approx(1.0, abs=1e-6)
