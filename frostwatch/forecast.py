@@ -6,10 +6,14 @@ The dusk forecast follows FAO-FP ch. 5 (Snyder & de Melo-Abreu 2005): at t0 = su
 night minimum Tp comes from an Allen (1957)-type regression on the air temperature and dew point
 at t0, fitted on the site's own past radiation nights (walk-forward; see `fit_calibration`), with
 a physics-based prior (`frostwatch.physics.cooling.clear_night_minimum_prior_c`) until enough
-nights are known. The trend from t0 to sunrise is Reuter's square-root curve
+nights are known. The regression is on Reuter's cooling coefficient K = (Tn - T0)/sqrt(h)
+(see `Calibration`). The trend from t0 to sunrise is Reuter's square-root curve
 T(t) = T0 + b' sqrt(t - t0), b' = (Tp - T0)/sqrt(h). At every evaluation after t0 the curve is
-re-fitted to tonight's observed cooling (the nowcast). Where the radiation model does not hold
-(wind above the limit, cloud) the projection leans on the observed trend and says so.
+re-fitted to tonight's observed cooling (the nowcast); once the site has enough past nights the
+nowcast's minimum is the site-learned remaining fall (`nowcast_features`). Where the radiation
+model does not hold (wind above the limit, cloud) the projection leans on the observed trend and
+says so. Figures and every variant tried: bench/results/forecast_skill.json and
+bench/results/forecast_variants.json.
 """
 
 from __future__ import annotations
