@@ -96,8 +96,33 @@ class Outbox:
                     log.warning("[%s rank %d] %s", a.level, a.rank, a.message.splitlines()[0])
             except Exception:  # noqa: BLE001 - one bad alert must not lose the others
                 log.exception("could not queue alert %s; storing it bare", a.key)
-                self.store.add_alert(a)
+                try:
+                    self.store.add_alert(a)
+                except Exception:  # noqa: BLE001 - the store itself fails (disk full, I/O error)
+                    log.exception("cannot store alert %s; delivering it from memory on the local channels", a.key)
+                    self.deliver_from_memory(a, now_utc)
         return n
+
+    def deliver_from_memory(self, a: Alert, now_utc: dt.datetime) -> int:
+        """Send an alert the store could not take on every local channel, now, without the store
+        (reliability.md 3.4: alerts must not depend on a successful DB write). Returns how many
+        sends succeeded; never raises."""
+        ok = 0
+        people = self.ac.roster_for(a.block, night_of_key(a.key))[:1] or list(self.ac.contacts[:1])
+        lines = (a.message or a.key).splitlines() or [a.key]
+        msg = OutMessage(idem_key=f"{a.key}:0", alert_key=a.key, seq=0, level=a.level, rank=a.rank, block=a.block,
+                         title="STORAGE FAILING - " + lines[0], body="\n".join(lines), kind="alert", ack_url="")
+        for ch in self.ac.channels:
+            if not ch.local:
+                continue
+            targets = [BROADCAST] if ch.address == "none" else [p.address(ch.address) for p in people if p.address(ch.address)]
+            for to in targets:
+                try:
+                    sender(ch.type)(ch, msg, to, self.base_dir)
+                    ok += 1
+                except Exception:  # noqa: BLE001
+                    log.exception("local delivery of %s on %s failed", a.key, ch.name)
+        return ok
 
     def _submit_one(self, a: Alert, now_utc: dt.datetime, exclude: tuple[str, ...] = ()) -> bool:
         night = night_of_key(a.key)
