@@ -315,7 +315,10 @@ class Core:
 
     # -- health --------------------------------------------------------------------------------
     def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = ()) -> list[health.Problem]:
-        series = self.store.readings_window(now - dt.timedelta(hours=6), now)
+        # 90 min: the stuck rule looks back an hour; a station silent for longer than the window
+        # is still reported silent ("no reading in the window"). A longer window only costs
+        # memory at high reading rates (bench/ingest.py).
+        series = self.store.readings_window(now - dt.timedelta(minutes=90), now)
         window = self.in_watch_window(now)
         risky = {
             b.id for b in self.cfg.blocks
