@@ -77,7 +77,35 @@ def forecast_skill_figures(res: dict) -> list[dict]:
     return rows
 
 
-ADAPTERS = {"forecast_skill": forecast_skill_figures}
+def ingest_figures(res: dict) -> list[dict]:
+    """Rows for bench/ingest.py (issue 4): rate, disk and memory parts."""
+    rows = []
+    r = res.get("rate")
+    if r:
+        rows.append({"figure": "ingest through the real broker and daemon", "value": r["daemon_readings_per_s"],
+                     "unit": "readings/s", "target": r.get("target", ""), "floor": r["floor_readings_per_s"],
+                     "floor_label": "bare counting subscriber", "ratio": r.get("ratio_to_floor"), "pass": r.get("pass")})
+    d = res.get("disk")
+    if d:
+        rows.append({"figure": f"daemon bytes written per day ({d.get('seconds')} s real run)", "value": d["mib_per_day"],
+                     "unit": "MiB/day", "target": d.get("target", ""), "floor": None, "floor_label": "", "ratio": None,
+                     "pass": d.get("pass")})
+    m = res.get("memory")
+    if m:
+        rows.append({"figure": f"daemon RSS peak ({m.get('seconds')} s at {m.get('readings_per_s')}/s)",
+                     "value": m["rss_mb_peak"], "unit": "MB", "target": m.get("target", ""), "floor": None,
+                     "floor_label": "", "ratio": None, "pass": m.get("pass")})
+    return rows
+
+
+def alert_latency_figures(res: dict) -> list[dict]:
+    """Rows for bench/alert_latency.py (issue 5)."""
+    return [{"figure": "alert latency, reading in to SMTP server (median)", "value": res["median_s"], "unit": "s",
+             "target": f"<= {res.get('target_median_s')} s", "floor": res.get("floor_median_s"),
+             "floor_label": "smtplib alone", "ratio": res.get("ratio_to_floor"), "pass": res.get("pass")}]
+
+
+ADAPTERS = {"forecast_skill": forecast_skill_figures, "ingest": ingest_figures, "alert_latency": alert_latency_figures}
 
 
 def figures_of(name: str, res) -> list[dict]:
