@@ -458,11 +458,17 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
         return None
     others = [station] + [s.id for s in block_stations if s.id != station] + [s.id for s in site]
     td = None
+    def age_limit(sid: str, quantity: str) -> float:
+        # each series is judged by its own usual interval (humidity often reports less often than air)
+        if (sid, quantity) not in series:
+            return max_age
+        return max(max_age, cfg.forecast.stale_after_intervals * usual_interval_s(series[(sid, quantity)][0], None))
+
     for sid in others:
-        td = as_of(series, sid, "dew_point_temperature", t0_s, max_age)
+        td = as_of(series, sid, "dew_point_temperature", t0_s, age_limit(sid, "dew_point_temperature"))
         if td is None:
-            rh = as_of(series, sid, "relative_humidity", t0_s, max_age)
-            ta = t0_c if sid == station else as_of(series, sid, "air_temperature", t0_s, max_age)
+            rh = as_of(series, sid, "relative_humidity", t0_s, age_limit(sid, "relative_humidity"))
+            ta = t0_c if sid == station else as_of(series, sid, "air_temperature", t0_s, age_limit(sid, "air_temperature"))
             if rh is not None and ta is not None:
                 td = float(humidity.dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh))))
         if td is not None:
@@ -471,6 +477,8 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
         td = min(td, t0_c)
     window = max(INPUT_WINDOW_S, interval or 0.0)
     ids = [s.id for s in block_stations] + [s.id for s in site]
+    if not any((i, "wind_speed") in series for i in ids):
+        ids = [s.id for s in cfg.stations]  # no anemometer in the block: the farm's wind
     wind = _mean_as_of(series, ids, "wind_speed", t0_s, window)
     wind_then = _mean_as_of(series, ids, "wind_speed", t0_s - WIND_TREND_S, window)
     wind_trend = None if wind is None or wind_then is None else wind - wind_then
@@ -560,6 +568,12 @@ def project_block(
     if td_c is not None:
         td_c = min(td_c, air_c)
     wind = recent_mean(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
+    if wind is None:
+        # no anemometer in the block or site-wide: the farm's wind is better than none
+        others = [s.id for s in cfg.stations if s.block not in (block.id, None)]
+        wind = recent_mean(series, others, "wind_speed", now_s, INPUT_WINDOW_S)
+        if wind is not None:
+            notes.append("no wind sensor in this block: wind from the farm's other sensors")
     cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
     # the wet bulb decides only for sprinkler blocks (and is shown in their alerts)
     wet_c = None  # computed with the wet-bulb curve below (one vectorised call)
@@ -600,7 +614,7 @@ def project_block(
         prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
     tp_c = min(cal.predict_c(prior, x, h_from_t0), t0_c)
     if td0_c is None:
-        notes.append("no humidity sensor: dew point assumed 6 degC below air for the dusk forecast")
+        notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
     b_dusk = (tp_c - t0_c) / math.sqrt(h_from_t0)
 
     # the nowcast: tonight's observed cooling since t0 re-fits the curve's coefficient

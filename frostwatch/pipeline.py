@@ -127,17 +127,28 @@ class Evaluator:
         return ev
 
 
-def evaluation_times(night: Night, interval_min: float, first_s: float, last_s: float) -> list[dt.datetime]:
-    """The daemon's night cadence: every `interval_min` from an hour before sunset to two hours
-    after sunrise, on whole multiples of the interval (UTC), within the data's span."""
-    step_s = interval_min * 60.0
-    start = max(night.sunset_utc.timestamp() - 3600.0, first_s)
-    end = min(night.sunrise_utc.timestamp() + 7200.0, last_s)
-    t = np.ceil(start / step_s) * step_s
+DAY_INTERVAL_MIN = 15.0  # the daemon's day cadence ([daemon] day_interval_min)
+MORNING_WATCH_H = 5.0  # morning evaluations run this long after sunrise (safe-to-stop can come late in dry air)
+
+
+def evaluation_times(
+    night: Night, interval_min: float, first_s: float, last_s: float, day_interval_min: float = DAY_INTERVAL_MIN
+) -> list[dt.datetime]:
+    """The daemon's cadence over one night: every `interval_min` from an hour before sunset to two
+    hours after sunrise, then every `day_interval_min` through the morning, on whole multiples of
+    the interval (UTC), within the data's span."""
     out = []
-    while t <= end:
-        out.append(dt.datetime.fromtimestamp(t, tz=dt.UTC))
-        t += step_s
+    night_end = night.sunrise_utc.timestamp() + 7200.0
+    for step_min, lo, hi in (
+        (interval_min, night.sunset_utc.timestamp() - 3600.0, night_end),
+        (day_interval_min, night_end + 1.0, night.sunrise_utc.timestamp() + MORNING_WATCH_H * 3600.0),
+    ):
+        step_s = step_min * 60.0
+        t = np.ceil(max(lo, first_s) / step_s) * step_s
+        end = min(hi, last_s)
+        while t <= end:
+            out.append(dt.datetime.fromtimestamp(t, tz=dt.UTC))
+            t += step_s
     return out
 
 
