@@ -9,7 +9,8 @@ signed and one-use (frostwatch.alerts.acks); GET shows a confirm button, POST ac
     server = make_server(cfg, "127.0.0.1", 0)        # tests: port 0 picks a free one
     serve(cfg, bind, port, token)                    # the daemon runs this in a thread
 
-Paths: `/` the page, `/status.json` the same figures as JSON, `/ack/<token>`, `/healthz`.
+Paths: `/` the page, `/status.json` the same figures as JSON, `/ack/<token>`, `/healthz`, and
+`POST /gateway/ack` for an SMS or push gateway's reply callback.
 Raises `UsageError` when asked to bind beyond loopback without a token.
 """
 
@@ -21,6 +22,7 @@ import html
 import ipaddress
 import json
 import logging
+import re
 import threading
 import time
 import urllib.parse
@@ -399,8 +401,50 @@ class _Handler(BaseHTTPRequestHandler):
                 f'<button type="submit" id="confirm">Yes, I am on it</button></form></body></html>')
         self._send(200, body)
 
+    def _gateway_ack(self) -> None:
+        """POST /gateway/ack: an SMS or push gateway's callback carrying a person's reply.
+
+        The body (JSON, or a form) holds `token`, or a `text` (the reply as typed) in which the
+        one-use token of the alert message is found; `from`/`who` names the sender for the log.
+        The signed one-use token is the authority, as for a link; forged or reused ones are refused.
+        """
+        length = int(self.headers.get("Content-Length") or 0)
+        if length > 8192:
+            return self._send(413, json.dumps({"ok": False, "message": "body too large"}), "application/json")
+        raw = self.rfile.read(length).decode("utf-8", "replace") if length else ""
+        ctype = (self.headers.get("Content-Type") or "").split(";")[0].strip()
+        fields: dict = {}
+        try:
+            if ctype == "application/json" or raw.lstrip().startswith("{"):
+                doc = json.loads(raw or "{}")
+                fields = doc if isinstance(doc, dict) else {}
+            else:
+                fields = {k: v[0] for k, v in urllib.parse.parse_qs(raw).items()}
+        except ValueError:
+            fields = {}
+        token = fields.get("token")
+        if not isinstance(token, str) or not token:
+            found = GATEWAY_TOKEN_RE.findall(str(fields.get("text") or fields.get("body") or ""))
+            token = max(found, key=len) if found else ""
+        if not token:
+            return self._send(400, json.dumps({"ok": False, "message": "no acknowledgement token in the callback"}),
+                              "application/json")
+        from frostwatch.alerts.acks import acknowledge_token
+
+        who = str(fields.get("from") or fields.get("who") or "gateway")[:80]
+        try:
+            ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(),
+                                            via=f"gateway:{who}")
+        except Exception as exc:
+            log.exception("gateway acknowledgement failed")
+            ok, message = False, f"the acknowledgement could not be recorded: {exc}"
+        self.server.forget_cache()
+        self._send(200 if ok else 403, json.dumps({"ok": ok, "message": message}), "application/json")
+
     def do_POST(self):
         path, _ = self._route()
+        if path == "/gateway/ack":
+            return self._gateway_ack()
         if not path.startswith("/ack/"):
             return self._send(405, "<h1>405</h1><p>This page is read-only.</p>")
         length = int(self.headers.get("Content-Length") or 0)
@@ -425,6 +469,9 @@ class _Handler(BaseHTTPRequestHandler):
                          f'content="width=device-width, initial-scale=1"><title>{title}</title><style>{PAGE_CSS}'
                          f'</style></head><body><h1 id="result">{title}</h1><p>{e(message)}</p>'
                          '<p><a href="/">status page</a></p></body></html>')
+
+
+GATEWAY_TOKEN_RE = re.compile(r"[A-Za-z0-9_\-]+\.[A-Za-z0-9_\-]{16,}\.[A-Za-z0-9_\-]{16,}")
 
 
 def _utc_now() -> dt.datetime:

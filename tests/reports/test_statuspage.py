@@ -108,3 +108,30 @@ def test_ack_link_confirms_then_acknowledges_once(running, frost_night_store):
     assert _get(f"http://127.0.0.1:{port}/ack/forged.token.here", data=b"")[0] == 403
     _, page, _ = _get(f"http://127.0.0.1:{port}/")
     assert "acknowledged by manager@example.org" in page
+
+
+def test_gateway_callback_acknowledges_from_an_sms_reply(running, frost_night_store):
+    """An SMS gateway forwards the grower's reply (the token somewhere in the text) as a POST:
+    the alert is acknowledged once; the same reply again, or a forged token, is refused."""
+    import json
+
+    from frostwatch.alerts import acks
+
+    srv, port = running()
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        key = next(a["key"] for a in store.alerts(NOW - dt.timedelta(hours=12), NOW) if a["block"] == "river")
+        token = acks.ack_link_token(store, key, "+15550100", issued_utc=NOW - dt.timedelta(minutes=5))
+    reply = json.dumps({"from": "+15550100", "text": f"OK on my way {token}"}).encode()
+    headers = {"Content-Type": "application/json"}
+    code, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=reply)
+    assert code == 200 and json.loads(body)["ok"] is True, body
+    code, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=reply)
+    assert code == 403 and json.loads(body)["ok"] is False
+    form = b"token=v1.aaaaaaaaaaaaaaaaaaaa.bbbbbbbbbbbbbbbbbbbb&from=mallory"
+    code, _, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", data=form)
+    assert code == 403
+    code, _, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=b'{"text": "yes"}')
+    assert code == 400
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        rows = list(store.db.query("SELECT who, via FROM acks WHERE alert_key = ?", [key]))
+    assert rows and rows[0]["via"].startswith("gateway")
