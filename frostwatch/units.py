@@ -8,6 +8,7 @@ Raises `UnitError` for a unit that is unknown or does not fit the quantity.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -100,16 +101,29 @@ def known_units(kind: str) -> list[str]:
     return list(_SPELLINGS.get(kind, []))
 
 
+_IDENT_MARK = object()
+
+
+@functools.lru_cache(maxsize=512)
+def _converter(quantity: str, unit: str):
+    """The converter for (quantity, unit) as written; cached, since a log repeats a few spellings."""
+    if unit.strip() == "":
+        return _IDENT_MARK
+    return _CONVERTERS.get((QUANTITIES[quantity].kind, _fold(unit)))
+
+
 def to_canonical(quantity: str, value: float, unit: str | None) -> float:
     """Convert `value` given in `unit` to the canonical unit of `quantity`.
 
     An empty or missing unit means the canonical unit. Raises `UnitError` when the unit is
     unknown or does not fit the quantity (for example `mph` for a temperature).
     """
-    q = QUANTITIES[quantity]
-    if unit is None or unit.strip() == "":
+    if unit is None or unit == "":
         return float(value)
-    fn = _CONVERTERS.get((q.kind, _fold(unit)))
+    fn = _converter(quantity, unit)
+    if fn is _IDENT_MARK:
+        return float(value)
+    q = QUANTITIES[quantity]
     if fn is None:
         fits_other = any(_fold(unit) == n for (_, n) in _CONVERTERS)
         what = "does not fit" if fits_other else "is not a known unit for"
