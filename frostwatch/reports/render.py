@@ -78,6 +78,10 @@ def _block_section(data, s) -> str:
     else:
         err_txt = (f"forecast {d.temp(s.dusk_forecast_c)}, observed {d.temp(bn.min_c)}: the forecast was "
                    f"{d.delta(abs(err))} {'colder' if err < 0 else 'warmer'} than what happened")
+        if bn.runs:
+            # the forecast is of the unprotected block; protection changes what is observed
+            err_txt += ("; protection ran, so the observed minimum is the protected block's and part of the "
+                        "difference is its effect")
     rows = [
         ("crop, stage", f"{e(bn.crop)}, {e(bn.stage)}"),
         ("T10 / T90 (10 % / 90 % bud kill)", f"{d.temp(bn.kill_10pct_c)} / {d.temp(bn.kill_90pct_c)}"),
