@@ -33,8 +33,9 @@ from frostwatch import health, sdnotify
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError, UsageError
 from frostwatch.night import Night
+from frostwatch.nightcache import NightCache
 from frostwatch.pipeline import LOOKBACK, Evaluator
-from frostwatch.store import Store, to_ms
+from frostwatch.store import Store, daemon_state, to_ms
 
 log = logging.getLogger("frostwatch.daemon")
 
@@ -148,6 +149,9 @@ class Core:
         self.outbox = outbox
         self.clock = clock
         self.evaluator = Evaluator(cfg)
+        # tonight's readings in memory: read from the store once a night, then fed by the ingest
+        # writer after each commit (readings_committed); evaluations never re-read the window
+        self.cache = NightCache(store, self.evaluator.night_at, LOOKBACK)
         self.eval_lock = threading.Lock()
         self.last_eval_utc: dt.datetime | None = None
         self.evaluations = 0
@@ -180,10 +184,8 @@ class Core:
     def evaluate(self, now: dt.datetime | None = None, reason: str = "scheduled"):
         now = (now or self.clock()).astimezone(dt.UTC)
         with self.eval_lock:
-            night = self.evaluator.night_at(now)
-            series = self.store.readings_window(night.sunset_utc - LOOKBACK, now)
+            series = self.cache.series(now)
             ev = self.evaluator.evaluate(now, series)
-            self.store.add_projections(ev.projections)
             if ev.alerts:
                 self.outbox.submit(ev.alerts, now)
             self.last_eval_utc = now
@@ -202,11 +204,16 @@ class Core:
                     "risk": a.risk, "action": a.action, "reasons": list(a.reasons),
                     "start_by": _iso(a.start_by_utc), "cautions": list(a.cautions), "notes": list(p.notes),
                 }
-            self.store.set_meta(BLOCKS_META, json.dumps(blocks))
+            # projections and the blocks document: one transaction, one fsync per evaluation
+            daemon_state.save_evaluation(self.store, ev.projections, {BLOCKS_META: json.dumps(blocks)})
         for b, doc in blocks.items():
             self.publish(f"blocks/{b}", doc)
         log.info("evaluated %d blocks (%s)%s", len(blocks), reason, f", {len(ev.alerts)} alerts" if ev.alerts else "")
         return ev
+
+    def readings_committed(self, readings) -> None:
+        """The ingest writer has just committed these readings: tonight's cache takes them."""
+        self.cache.push(readings)
 
     def wants_prompt_evaluation(self, readings, now: dt.datetime) -> bool:
         """A new crop-height air temperature near a block's trigger, in the watch window, may
@@ -457,6 +464,7 @@ class Daemon:
         self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra)
 
     def _on_committed(self, readings) -> None:
+        self.core.readings_committed(readings)
         now = self.clock()
         if not self.core.wants_prompt_evaluation(readings, now):
             return

@@ -1,0 +1,35 @@
+"""SQL the daemon writes once per evaluation: the projections and the blocks' status document in
+one transaction (one fsync per evaluation instead of two; SD-card wear, bench/storage.py), and
+the daemon's events of one moment in one transaction."""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Iterable
+
+from frostwatch.models import Projection
+from frostwatch.store.db import Store, to_ms
+
+_PROJECTION_SQL = (
+    "INSERT OR REPLACE INTO projections(time_utc_ms, block, predicted_min_c, predicted_min_at_utc_ms, "
+    "t10_crossing_utc_ms, band_c, regime, method, detail_json) VALUES (?,?,?,?,?,?,?,?,?)"
+)
+
+
+def save_evaluation(store: Store, projections: Iterable[Projection], meta: dict[str, str]) -> None:
+    """Projections and meta values (key -> text) in one transaction."""
+    rows = [Store._projection_row(p) for p in projections]
+    with store.transaction() as c:
+        if rows:
+            c.executemany(_PROJECTION_SQL, rows)
+        for k, v in meta.items():
+            c.execute("INSERT OR REPLACE INTO meta(key, value) VALUES (?,?)", (k, v))
+
+
+def add_events(store: Store, events: Iterable[tuple[dt.datetime, str, str, str]]) -> int:
+    """(time, kind, subject, detail) events in one transaction; returns how many."""
+    rows = [(to_ms(t), kind, subject, detail) for t, kind, subject, detail in events]
+    if rows:
+        with store.transaction() as c:
+            c.executemany("INSERT INTO events(time_utc_ms, kind, subject, detail) VALUES (?,?,?,?)", rows)
+    return len(rows)
