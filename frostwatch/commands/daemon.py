@@ -83,7 +83,17 @@ def _age(s) -> str:
     if s is None:
         return "never"
     s = float(s)
-    return f"{s:.0f} s ago" if s < 120 else f"{s / 60:.0f} min ago" if s < 7200 else f"{s / 3600:.1f} h ago"
+    if s < -60:
+        # a reading stamped after now: a sensor's clock, or this machine's, is wrong
+        ahead = -s
+        when = f"{ahead / 60:.0f} min" if ahead < 7200 else f"{ahead / 3600:.1f} h" if ahead < 172800 else f"{ahead / 86400:.0f} days"
+        return f"{when} AHEAD of this clock"
+    s = max(0.0, s)
+    if s < 120:
+        return f"{s:.0f} s ago"
+    if s < 7200:
+        return f"{s / 60:.0f} min ago"
+    return f"{s / 3600:.1f} h ago" if s < 172800 else f"{s / 86400:.0f} days ago"
 
 
 def cmd_status(args) -> int:
