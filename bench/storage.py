@@ -12,10 +12,14 @@ What is written is what the daemon writes, through the same code:
 - readings: `Store.add_readings` in the batches the ingest writer makes
   (frostwatch.ingest.mqtt: a batch closes at batch_rows, after batch_delay_s, or when at least
   stall_rows wait and the queue has been idle stall_idle_s), one transaction each;
-- the heartbeat document (`Store.set_meta`) every heartbeat_s;
-- evaluations (`daemon.Core.evaluate`: projections in one transaction plus the blocks document)
+- the heartbeat document (`Store.set_meta`) every heartbeat_store_s (it lives in memory between);
+- the outbox's delivery round (`Outbox.deliver_due`, real outbox, console channel) every
+  outbox_interval_s, and the sensor-health check (`Core.check_health`) every health_interval_s:
+  with nothing to change they must write nothing (their share is printed);
+- evaluations (`daemon.Core.evaluate`: projections and the blocks document in one transaction)
   at the night cadence from an hour before sunset to two hours after sunrise, else by day;
-- the daily housekeeping checkpoint (`PRAGMA wal_checkpoint(TRUNCATE)`).
+- the daemon's own WAL settings (`daemon.tune_store`) and the daily housekeeping checkpoint
+  (`PRAGMA wal_checkpoint(TRUNCATE)`).
 
 Measured from /proc/self/io (write_bytes: what this process sent to the block layer, including
 the WAL, checkpoints into the main file and fsyncs; wchar: bytes passed to write()). The floor is
@@ -82,7 +86,8 @@ class _NullOutbox:
 
 
 def simulate(work: Path, hours: float, start_local: dt.time, seed: int = 3, batch_delay_s: float | None = None) -> dict:
-    from frostwatch.daemon import Core, daemon_settings
+    from frostwatch.alerts.outbox import Outbox
+    from frostwatch.daemon import HEARTBEAT_META, Core, daemon_settings, tune_store
     from frostwatch.ingest.mqtt import IngestSettings
     from frostwatch.models import Reading
     from frostwatch.store import Store
@@ -93,22 +98,44 @@ def simulate(work: Path, hours: float, start_local: dt.time, seed: int = 3, batc
     tz = cfg.site.tz
     t0 = dt.datetime.combine(synth.EVENING, start_local, tz).astimezone(dt.UTC)
     store = Store.open(cfg.storage.path)
-    core = Core(cfg, s, store, _NullOutbox(), clock=lambda: t0)
+    tune_store(store)
+    outbox = Outbox(store, cfg)  # the real outbox (console channel): its rounds must write nothing idle
+    core = Core(cfg, s, store, outbox, clock=lambda: t0)
     rng = random.Random(seed)
     stations = list(cfg.stations)
     phases = [rng.uniform(0, 60) for _ in stations]
     groups = batches_for_minute(phases, ing.batch_delay_s, ing.stall_rows, ing.stall_idle_s, ing.batch_rows)
     quantities = [("air_temperature", "wind_speed") if st.height_m > 3 or st.block is None
                   else ("air_temperature", "relative_humidity") for st in stations]
-    by = {"readings": 0, "heartbeat": 0, "evaluations": 0}
+    by = {"readings": 0, "heartbeat": 0, "evaluations": 0, "outbox": 0, "health": 0}
+    counts = {k: 0 for k in by}
+    warm = 90  # minutes played before t0 and not counted: the daemon has a past (health looks back 90 min)
     io0 = proc_io()
     wall0 = time.perf_counter()
-    commits = readings = evaluations = beats = 0
+    readings = 0
     minutes = int(hours * 60)
-    next_eval = t0
-    beat_every = dt.timedelta(seconds=s.heartbeat_s)
-    next_beat = t0
-    for m in range(minutes):
+    next_eval = t0 - dt.timedelta(minutes=warm)
+    counting = [False]
+    every = {"heartbeat": dt.timedelta(seconds=s.heartbeat_store_s),
+             "outbox": dt.timedelta(seconds=s.outbox_interval_s),
+             "health": dt.timedelta(seconds=s.health_interval_s)}
+    nxt = dict.fromkeys(every, t0 - dt.timedelta(minutes=warm))
+    nxt["health"] += dt.timedelta(minutes=10)  # sensors have reported once before the first check
+
+    def timed(kind, fn):
+        a = proc_io()["write_bytes"]
+        fn()
+        if counting[0]:
+            by[kind] += proc_io()["write_bytes"] - a
+            counts[kind] += 1
+
+    for m in range(-warm, minutes):
+        if m == 0:
+            with store.lock:
+                store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+            counting[0] = True
+            io0 = proc_io()
+            readings = 0
         minute = t0 + dt.timedelta(minutes=m)
         for g in groups:
             batch = []
@@ -118,32 +145,38 @@ def simulate(work: Path, hours: float, start_local: dt.time, seed: int = 3, batc
                 q1, q2 = quantities[i]
                 batch.append(Reading(t, stations[i].id, q1, round(temp, 2)))
                 batch.append(Reading(t, stations[i].id, q2, round(80.0 if q2 == "relative_humidity" else 1.2, 2)))
-            a = proc_io()["write_bytes"]
-            store.add_readings(batch, "mqtt")
-            by["readings"] += proc_io()["write_bytes"] - a
-            commits += 1
+
+            def commit(batch=batch):
+                store.add_readings(batch, "mqtt")
+                core.readings_committed(batch)
+
+            timed("readings", commit)
             readings += len(batch)
         end = minute + dt.timedelta(minutes=1)
-        while next_beat < end:
-            a = proc_io()["write_bytes"]
-            store.set_meta("daemon.heartbeat", json.dumps({"time": next_beat.isoformat(), "pid": 1, "ingest": {"stored": readings}}))
-            by["heartbeat"] += proc_io()["write_bytes"] - a
-            beats += 1
-            next_beat += beat_every
+        for kind, step in every.items():
+            while nxt[kind] < end:
+                at = nxt[kind]
+                if kind == "heartbeat":
+                    timed(kind, lambda at=at, n=readings: store.set_meta(HEARTBEAT_META, json.dumps(
+                        {"time": at.isoformat(), "pid": 1, "ingest": {"stored": n}})))
+                elif kind == "outbox":
+                    timed(kind, lambda at=at: outbox.deliver_due(at, wait=True))
+                else:
+                    timed(kind, lambda at=at: core.check_health(at, {}))
+                nxt[kind] += step
         if minute >= next_eval:
-            a = proc_io()["write_bytes"]
-            core.evaluate(minute, "bench")
-            by["evaluations"] += proc_io()["write_bytes"] - a
-            evaluations += 1
+            timed("evaluations", lambda minute=minute: core.evaluate(minute, "bench"))
             step = s.night_interval_min if core.in_watch_window(minute) else s.day_interval_min
             next_eval = minute + dt.timedelta(minutes=step)
     with store.lock:
         store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
     io1 = proc_io()
+    outbox.close(wait=True)
     wal = cfg.storage.path.with_name(cfg.storage.path.name + "-wal")
     res = {
-        "simulated_h": hours, "batch_delay_s": ing.batch_delay_s, "sensors": len(stations), "readings": readings, "commits": commits,
-        "heartbeats": beats, "evaluations": evaluations, "write_bytes_by_kind": by,
+        "simulated_h": hours, "batch_delay_s": ing.batch_delay_s, "sensors": len(stations), "readings": readings,
+        "commits": counts["readings"], "heartbeats": counts["heartbeat"], "evaluations": counts["evaluations"],
+        "outbox_rounds": counts["outbox"], "health_checks": counts["health"], "write_bytes_by_kind": by,
         "write_bytes": io1["write_bytes"] - io0["write_bytes"], "wchar": io1["wchar"] - io0["wchar"],
         "db_bytes": cfg.storage.path.stat().st_size, "wal_bytes": wal.stat().st_size if wal.exists() else 0,
         "wall_s": round(time.perf_counter() - wall0, 1),
@@ -198,7 +231,8 @@ def run(verbose: bool = True, quick: bool = False, out_dir: Path | None = None) 
     }]
     if verbose:
         print(f"  simulated {hours:g} h: {r['readings']} readings in {r['commits']} commits, {r['heartbeats']} heartbeats, "
-              f"{r['evaluations']} evaluations; {r['wall_s']} s of real time")
+              f"{r['evaluations']} evaluations, {r['outbox_rounds']} outbox rounds, {r['health_checks']} health checks; "
+              f"{r['wall_s']} s of real time")
         print(f"  written: write_bytes {r['write_bytes'] / 2**20:.1f} MiB, wchar {r['wchar'] / 2**20:.1f} MiB "
               f"-> {mib:.1f} MiB/day ({out['measured']}); store {r['db_bytes'] / 2**20:.1f} MiB")
         print("  by kind (MiB/day): " + ", ".join(f"{k} {v * scale / 2**20:.1f}" for k, v in r["write_bytes_by_kind"].items())

@@ -81,6 +81,9 @@ class Outbox:
         self._lock = threading.Lock()
         self._remote_fail_streak = 0
         self._degraded = False
+        # set when a new alert is queued: the daemon's delivery loop wakes at once instead of at
+        # its next round (alert latency), then clears it
+        self.due_event = threading.Event()
 
     # -- persisting --------------------------------------------------------------------------
     def submit(self, alerts: list[Alert], now_utc: dt.datetime, exclude: tuple[str, ...] = ()) -> int:
@@ -93,6 +96,7 @@ class Outbox:
             try:
                 if self._submit_one(a, now_utc, exclude):
                     n += 1
+                    self.due_event.set()
                     log.warning("[%s rank %d] %s", a.level, a.rank, a.message.splitlines()[0])
             except Exception:  # noqa: BLE001 - one bad alert must not lose the others
                 log.exception("could not queue alert %s; storing it bare", a.key)

@@ -109,8 +109,10 @@ def cmd_status(args) -> int:
         print("daemon: no heartbeat recorded (it has never run on this store)")
     else:
         up = "connected" if hb.get("broker_connected") else f"NOT connected for {hb.get('broker_down_s', 0):.0f} s"
+        # the daemon writes its heartbeat to the store every `stored_every_s` (SD-card wear)
+        stale_after = max(120.0, 1.5 * float(hb.get("stored_every_s") or 60.0) + 60.0)
         stale = "  (the daemon was stopped then)" if hb.get("stopped") else (
-            "" if (hb.get("age_s") or 0) < 120 else "  (STALE: is the daemon running?)")
+            "" if (hb.get("age_s") or 0) < stale_after else "  (STALE: is the daemon running?)")
         print(f"daemon: heartbeat {_age(hb.get('age_s'))}{stale}; broker {up}; "
               f"{hb['ingest']['stored']} readings stored and {hb['ingest']['rejected']} rejected since start")
         for p in hb.get("problems", []):
