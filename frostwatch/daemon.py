@@ -40,6 +40,7 @@ from frostwatch.store import Store, daemon_state, to_ms
 log = logging.getLogger("frostwatch.daemon")
 
 HEARTBEAT_META = "daemon.heartbeat"
+CLOCK_JUMP_S = 30.0  # wall clock against monotonic clock, per supervision round (about 1 s)
 BLOCKS_META = "daemon.blocks"
 DONE_META = "daemon.done."  # + job name -> the evening date it last ran for
 
@@ -439,15 +440,6 @@ class Daemon:
 
     def _heartbeat(self) -> None:
         self.last_beat = time.monotonic()
-        wall, mono = time.time(), time.monotonic()
-        w0, m0 = self._wall_mono
-        jump = (wall - w0) - (mono - m0)
-        self._wall_mono = (wall, mono)
-        if abs(jump) > 30:
-            log.warning("the wall clock jumped by %+.0f s", jump)
-            self.outbox.submit_health("clock", f"the system clock jumped by {jump:+.0f} s; check time sync (NTP)", self.clock())
-            if self.sched:
-                self.sched.wakeup()
         self.ingest.heartbeat()
         doc = self.heartbeat_doc()
         if time.monotonic() - self._last_beat_stored >= self.s.heartbeat_store_s - 0.5:
@@ -461,6 +453,60 @@ class Daemon:
         self.ingest.publish_json("daemon", doc)
         sdnotify.notify(f"STATUS=readings {self.ingest.stats.stored}, rejected {self.ingest.stats.rejected}, "
                         f"broker {'up' if self.ingest.connected else 'DOWN'}, last evaluation {_iso(self.core.last_eval_utc)}")
+
+    # -- clock jumps (reliability.md finding 14, 4.2) --------------------------------------------
+    def check_clock(self) -> float:
+        """Compare the wall clock with the monotonic clock since the last call (the supervision
+        loop calls this every second). On a jump of more than CLOCK_JUMP_S either way: every
+        scheduler job is rescheduled to run now (APScheduler 3.x keeps next run times in wall
+        time, so after a step back it would run nothing until the clock caught up), and a
+        "clock" health event is raised. Returns the jump in seconds (0 when none)."""
+        wall, mono = time.time(), time.monotonic()
+        w0, m0 = self._wall_mono
+        self._wall_mono = (wall, mono)
+        jump = (wall - w0) - (mono - m0)
+        if abs(jump) <= CLOCK_JUMP_S:
+            return 0.0
+        n = self.reschedule_all()
+        log.warning("the wall clock jumped by %+.0f s; %d scheduler jobs rescheduled to run now", jump, n)
+        try:
+            self.outbox.submit_health(
+                "clock", f"the system clock jumped by {jump:+.0f} s; every scheduled job was rescheduled to run now; "
+                         "check time sync (NTP)", self.clock())
+        except Exception:  # noqa: BLE001 - the jump is handled; only its notice failed
+            log.exception("could not record the clock jump")
+        return jump
+
+    def reschedule_all(self) -> int:
+        """Every job's next run time := now (then each interval job keeps its interval from now)."""
+        if self.sched is None:
+            return 0
+        now = dt.datetime.now(self.cfg.site.tz)
+        n = 0
+        for job in self.sched.get_jobs():
+            try:
+                job.modify(next_run_time=now)
+                n += 1
+            except Exception:  # noqa: BLE001 - a job removed meanwhile (evaluate-soon ran)
+                log.debug("could not reschedule job %s", job.id, exc_info=True)
+        self.sched.wakeup()
+        return n
+
+    def _scheduler_event(self, e) -> None:
+        """A missed, skipped (still running: an overrun) or failed job: logged and recorded in the
+        store's events (kind "daemon"), so an overrunning evaluation is on record."""
+        from apscheduler.events import EVENT_JOB_MAX_INSTANCES, EVENT_JOB_MISSED
+
+        what = {EVENT_JOB_MISSED: "missed", EVENT_JOB_MAX_INSTANCES: "skipped (still running)"}.get(e.code, "failed")
+        log.warning("scheduler: job %s %s", e.job_id, what)
+        try:
+            due = getattr(e, "scheduled_run_time", None)
+            detail = f"scheduled for {_iso(due.astimezone(dt.UTC)) if due else '?'}"
+            if e.code == EVENT_JOB_MAX_INSTANCES:
+                detail += "; the previous run was still going (an overrun), so this run was coalesced into the next"
+            self.store.add_event(self.clock(), "daemon", f"job {e.job_id} {what}", detail)
+        except Exception:  # noqa: BLE001 - a listener must never raise into the scheduler
+            log.exception("could not record the scheduler event")
 
     def heartbeat_doc(self) -> dict:
         st = self.ingest.stats
@@ -544,10 +590,7 @@ class Daemon:
         }, now)
         from apscheduler.events import EVENT_JOB_ERROR, EVENT_JOB_MAX_INSTANCES, EVENT_JOB_MISSED
 
-        self.sched.add_listener(
-            lambda e: log.warning("scheduler: job %s %s", e.job_id, {EVENT_JOB_MISSED: "missed", EVENT_JOB_MAX_INSTANCES: "skipped (still running)"}.get(e.code, "failed")),
-            EVENT_JOB_MISSED | EVENT_JOB_MAX_INSTANCES | EVENT_JOB_ERROR,
-        )
+        self.sched.add_listener(self._scheduler_event, EVENT_JOB_MISSED | EVENT_JOB_MAX_INSTANCES | EVENT_JOB_ERROR)
         self.sched.start()
         self.sched.add_job(self._guard("tick", self.core.tick), id="first-evaluation")
         outbox = threading.Thread(target=self._outbox_main, name="frostwatch-outbox", daemon=True)
@@ -557,7 +600,12 @@ class Daemon:
         wd = sdnotify.watchdog_interval_s()
         last_ping = 0.0
         reported: tuple = ()
+        self._wall_mono = (time.time(), time.monotonic())
         while not self.stop_event.wait(1.0):
+            try:
+                self.check_clock()
+            except Exception:  # noqa: BLE001 - supervision carries on
+                log.exception("clock check failed")
             probs = self.problems()
             if tuple(probs) != reported:
                 for p in probs:

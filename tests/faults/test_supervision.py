@@ -111,7 +111,9 @@ def test_evaluation_overrun_is_coalesced_not_piled_up(tmp_path, mosquitto):
     """Pass: with a 3 s evaluation interval and one evaluation that takes 2 x interval, runs never
     overlap, the next run starts within one interval after the slow one ends, at most one run
     follows in that interval (coalesced, no burst of catch-ups), the skipped run is logged as a
-    scheduler warning, and evaluations carry on at the cadence afterwards."""
+    scheduler warning and recorded in the store's events (kind "daemon", naming the overrun),
+    and evaluations carry on at the cadence afterwards. Slack of 2 s on the scheduling bounds:
+    this 2-core machine runs other suites at the same time."""
     interval = 3.0
     runs_log = tmp_path / "runs.jsonl"
     cfg = write_config(tmp_path, mosquitto.port, daemon="night_interval_min = 0.05\nday_interval_min = 0.05\n")
@@ -133,8 +135,15 @@ def test_evaluation_overrun_is_coalesced_not_piled_up(tmp_path, mosquitto):
     for a, b in zip(rs, rs[1:], strict=False):
         assert b["start"] >= a["end"] - 1e-3, f"overlapping evaluations: {a} {b}"
     after = [r for r in rs if r["start"] >= slow_end]
-    assert after[0]["start"] - slow_end <= interval + 0.5, "the next run came too late"
+    assert after[0]["start"] - slow_end <= interval + 2.0, "the next run came too late"
     assert len([r for r in after if r["start"] < slow_end + interval - 0.2]) <= 1, "runs piled up after the overrun"
     gaps = [b["start"] - a["start"] for a, b in zip(after, after[1:], strict=False)]
-    assert gaps and max(gaps) <= interval + 1.0  # the cadence carries on
+    assert gaps and max(gaps) <= interval + 2.0  # the cadence carries on
     assert "scheduler: job tick skipped (still running)" in d.log_text()
+    from fault_helpers import query
+
+    from frostwatch.config import load_config
+
+    db = load_config(cfg).storage.path
+    rec = query(db, "SELECT subject, detail FROM events WHERE kind='daemon' AND subject LIKE 'job tick skipped%'")
+    assert rec and "overrun" in rec[0][1], rec
