@@ -278,8 +278,29 @@ class Core:
 
     def job_dusk(self, now: dt.datetime, night: Night) -> None:
         """The dusk briefing: an evaluation at sunset + 2 h gives each block's outlook (the alert
-        rules issue it once a night)."""
-        self.evaluate(now, "dusk briefing")
+        rules issue it once a night); then the "armed for tonight" check of the whole alert path,
+        whose one message (armed, or degraded and what is wrong) goes through the outbox."""
+        try:
+            self.evaluate(now, "dusk briefing")
+        finally:
+            self.armed(now)
+
+    def armed(self, now: dt.datetime) -> bool | None:
+        """frostwatch.alerts.armed.armed_check once; a failure is recorded, never fatal."""
+        from frostwatch.alerts.armed import armed_check
+
+        if not hasattr(self.outbox, "ac"):
+            return None  # an outbox without alert config (benchmarks, unit tests)
+        try:
+            ok, problems = armed_check(self.store, self.cfg, self.outbox, now)
+        except Exception as exc:  # noqa: BLE001
+            log.exception("the armed-for-tonight check failed")
+            try:
+                self.store.add_event(now, "daemon", "armed check failed", f"{type(exc).__name__}: {exc}")
+            except Exception:  # noqa: BLE001
+                log.exception("could not record the failed armed check")
+            return None
+        return ok
 
     def job_morning(self, now: dt.datetime, night: Night) -> None:
         """Learn the night just ended (walk-forward calibration), then write its report."""
