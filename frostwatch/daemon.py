@@ -429,8 +429,9 @@ class Daemon:
                 batch_rows=self.s.batch_rows, batch_delay_s=self.s.batch_delay_s, queue_max=self.s.queue_max,
                 session_expiry_s=self.s.session_expiry_s, status_topic=self.s.status_topic,
                 heartbeat_s=self.s.heartbeat_s, max_future_s=self.s.max_future_s,
+                ack_topic=self.outbox.ac.ack_topic,
             ),
-            mappings, on_committed=self._on_committed, clock=clock,
+            mappings, on_committed=self._on_committed, clock=clock, on_ack=self._on_ack,
         )
         self.core.publish = self.ingest.publish_json
         self.stop_event = threading.Event()
@@ -547,6 +548,11 @@ class Daemon:
         if down >= self.s.broker_down_alert_s:
             extra.append(health.Problem("broker:down", "broker", f"no connection to the MQTT broker at {self.cfg.broker.host}:{self.cfg.broker.port} for {down:.0f} s", urgent=self.core.in_watch_window(self.clock())))
         self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra)
+
+    def _on_ack(self, payload: bytes, received_utc: dt.datetime) -> None:
+        from frostwatch.alerts.acks import acknowledge_mqtt
+
+        acknowledge_mqtt(self.store, self.cfg, self.outbox, payload, received_utc)
 
     def _on_committed(self, readings) -> None:
         self.core.readings_committed(readings)

@@ -151,3 +151,36 @@ def acknowledge_token(store: Store, cfg, token: str, now_utc: dt.datetime, via: 
         return _refuse(store, now_utc, via, f"no alert {key} in this store", token)
     log.warning("acknowledged %s by %s via %s", key, who, via)
     return True, f"acknowledged {key} for {who}; repeats and escalation of this alert stop"
+
+
+MAX_MQTT_ACK_BYTES = 4096
+
+
+def acknowledge_mqtt(store: Store, cfg, outbox, payload: bytes, now_utc: dt.datetime) -> tuple[bool, str]:
+    """An acknowledgement arriving on the MQTT ack topic (`[alerts] ack_topic`, default
+    `{prefix}/ack`). The payload is a signed token from `ack_link_token` (bare, or as
+    {"token": "..."}), or JSON {"key": "<alert key>", "who": "<name>"}. A forged or spent token,
+    an unknown key or an unreadable payload is refused, logged and recorded as an `ack` event.
+    Returns (ok, message)."""
+    if len(payload) > MAX_MQTT_ACK_BYTES:
+        return _refuse(store, now_utc, "mqtt", f"payload of {len(payload)} bytes is too large", "")
+    try:
+        text = payload.decode("utf-8").strip()
+    except UnicodeDecodeError:
+        return _refuse(store, now_utc, "mqtt", "payload is not UTF-8", "")
+    if text.startswith(TOKEN_VERSION + "."):
+        return acknowledge_token(store, cfg, text, now_utc, via="mqtt")
+    try:
+        doc = json.loads(text)
+    except ValueError:
+        return _refuse(store, now_utc, "mqtt", 'neither a token nor JSON {"key": ..., "who": ...}', text)
+    if isinstance(doc, dict) and isinstance(doc.get("token"), str):
+        return acknowledge_token(store, cfg, doc["token"], now_utc, via="mqtt")
+    if not isinstance(doc, dict) or not isinstance(doc.get("key"), str) or not doc["key"].strip():
+        return _refuse(store, now_utc, "mqtt", 'expected JSON {"key": "<alert key>", "who": "<name>"}', text)
+    key = doc["key"].strip()[:300]
+    who = doc.get("who")
+    who = who.strip()[:100] if isinstance(who, str) and who.strip() else "someone (mqtt)"
+    if not outbox.acknowledge(key, who, "mqtt", now_utc):
+        return _refuse(store, now_utc, "mqtt", f"no alert {key} in this store", key)
+    return True, f"acknowledged {key} for {who}"

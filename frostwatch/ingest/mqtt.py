@@ -175,6 +175,7 @@ class IngestSettings:
     reconnect_max_s: float = 3.0
     stall_idle_s: float = 0.05  # a part-filled batch with no new message this long is committed
     stall_rows: int = 10
+    ack_topic: str = ""  # alert acknowledgements arrive here (empty: "{prefix}/ack")
 
 
 @dataclass
@@ -227,6 +228,7 @@ class MqttIngest:
         mappings: tuple[Mapping, ...] = (),
         on_committed: Callable[[list[Reading]], None] | None = None,
         clock: Callable[[], dt.datetime] = _utc_now,
+        on_ack: Callable[[bytes, dt.datetime], object] | None = None,
     ):
         self.cfg = cfg
         self.b = cfg.broker
@@ -234,7 +236,9 @@ class MqttIngest:
         self.s = settings
         self.mappings = mappings
         self.on_committed = on_committed
+        self.on_ack = on_ack
         self.clock = clock
+        self.ack_topic = (settings.ack_topic or f"{cfg.broker.prefix.strip('/')}/ack").strip("/")
         self.known = {st.id for st in cfg.stations}
         self.max_age_s = cfg.storage.retention_days * 86400.0
         self.q: queue.Queue[_Msg] = queue.Queue(maxsize=settings.queue_max)
@@ -303,6 +307,8 @@ class MqttIngest:
         subs += [(m.subscription, SubscribeOptions(qos=1)) for m in self.mappings]
         if not self.status().startswith(self.b.prefix.strip("/") + "/"):
             subs.append((self.status("heartbeat"), SubscribeOptions(qos=1)))
+        if self.on_ack is not None and not self.ack_topic.startswith(self.b.prefix.strip("/") + "/"):
+            subs.append((self.ack_topic, SubscribeOptions(qos=1)))
         client.subscribe(subs)
         client.publish(self.status("online"), b"online", qos=1, retain=True)
         log.info(
@@ -460,9 +466,13 @@ class MqttIngest:
         readings: list[Reading] = []
         rejections: list[Rejection] = []
         status_root = self.status() + "/"
+        ack_msgs: list[_Msg] = []
         for m in batch:
             if m.topic.startswith(status_root):
                 continue  # our own status and heartbeat echo: acknowledged, not stored
+            if m.topic == self.ack_topic and self.on_ack is not None:
+                ack_msgs.append(m)  # an alert acknowledgement, not a reading
+                continue
             for r in parse_mqtt_message(
                 m.topic, m.payload, self.b.prefix, m.received_utc, self.known,
                 self.b.max_payload_bytes, self.s.max_future_s, self.max_age_s, self.mappings,
@@ -474,6 +484,11 @@ class MqttIngest:
             stored, dups, conflicts = self.store.add_readings(readings, "mqtt")
         if rejections or conflicts:
             self.store.add_rejections(rejections + conflicts, self.clock())
+        for m in ack_msgs:  # recorded by the outbox (its own transaction) before the PUBACK
+            try:
+                self.on_ack(m.payload, m.received_utc)
+            except Exception:  # noqa: BLE001 - a bad acknowledgement must not stop ingest
+                log.exception("could not handle an acknowledgement on %s", m.topic)
         # committed: now, and only now, acknowledge
         for m in batch:
             if m.qos > 0 and m.generation == self.generation:
