@@ -165,6 +165,11 @@ def parse_mqtt_message(
 
     `{prefix}/{station}/{quantity}` with a bare number (time = receipt) or
     `{"time": ..., "value": ..., "unit": ...}`; `{prefix}/{station}` with several quantities.
+
+    A bare number takes `received_utc` as its time, so a message the broker redelivers after a
+    crash (committed, but its PUBACK never reached the broker) arrives at a later time and is
+    stored twice. Only a payload with its own time field is stored exactly once (the store keeps
+    one value per time, station and quantity): recommend the JSON form with "time".
     A topic matched by one of `mappings` (the config's [[mappings]]) is read with that mapping
     instead. Times more than `max_future_s` ahead of receipt, or older than `max_age_s`, are
     rejected.
