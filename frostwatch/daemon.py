@@ -57,6 +57,7 @@ class DaemonSettings:
     # a reading waits at most this long for its commit and PUBACK: each commit costs about 8.5 KiB
     # of writes (synchronous=FULL, WAL), so this is the SD-card wear knob (bench/ingest.py)
     batch_delay_s: float = 10.0
+    urgent_delay_s: float = 1.0  # ... but a reading near a block's trigger in the watch window waits at most this
     # the heartbeat lives in memory and on the status topic; the store gets it this often
     # (`frostwatch status` judges staleness against it)
     heartbeat_store_s: float = 300.0
@@ -81,6 +82,7 @@ _DAEMON_KEYS: dict[str, tuple[type | tuple, str]] = {
     "report_dir": ((str,), "a folder for the morning reports (relative to the config file)"),
     "batch_rows": ((int,), "readings per commit at most"),
     "batch_delay_s": ((int, float), "seconds a reading may wait for its commit (and its acknowledgement)"),
+    "urgent_delay_s": ((int, float), "seconds a reading near a block's trigger (watch window) may wait for its commit"),
     "queue_max": ((int,), "messages buffered unacknowledged at most"),
     "session_expiry_s": ((int,), "seconds the broker keeps the session while the daemon is away"),
     "status_topic": ((str,), "the retained status topic root"),
@@ -429,9 +431,10 @@ class Daemon:
                 batch_rows=self.s.batch_rows, batch_delay_s=self.s.batch_delay_s, queue_max=self.s.queue_max,
                 session_expiry_s=self.s.session_expiry_s, status_topic=self.s.status_topic,
                 heartbeat_s=self.s.heartbeat_s, max_future_s=self.s.max_future_s,
-                ack_topic=self.outbox.ac.ack_topic,
+                ack_topic=self.outbox.ac.ack_topic, urgent_delay_s=self.s.urgent_delay_s,
             ),
             mappings, on_committed=self._on_committed, clock=clock, on_ack=self._on_ack,
+            urgent=lambda readings: self.core.wants_prompt_evaluation(readings, self.clock()),
         )
         self.core.publish = self.ingest.publish_json
         self.stop_event = threading.Event()

@@ -176,6 +176,9 @@ class IngestSettings:
     stall_idle_s: float = 0.05  # a part-filled batch with no new message this long is committed
     stall_rows: int = 10
     ack_topic: str = ""  # alert acknowledgements arrive here (empty: "{prefix}/ack")
+    # a batch holding a reading the `urgent` predicate flags (near a block's trigger in the watch
+    # window) is committed this soon, whatever batch_delay_s says: alert latency on a risky night
+    urgent_delay_s: float = 1.0
 
 
 @dataclass
@@ -229,6 +232,7 @@ class MqttIngest:
         on_committed: Callable[[list[Reading]], None] | None = None,
         clock: Callable[[], dt.datetime] = _utc_now,
         on_ack: Callable[[bytes, dt.datetime], object] | None = None,
+        urgent: Callable[[list[Reading]], bool] | None = None,
     ):
         self.cfg = cfg
         self.b = cfg.broker
@@ -237,6 +241,8 @@ class MqttIngest:
         self.mappings = mappings
         self.on_committed = on_committed
         self.on_ack = on_ack
+        self.urgent = urgent
+        self._parsed: dict[int, list] = {}  # id(msg) -> parse result, for messages parsed on arrival
         self.clock = clock
         self.ack_topic = (settings.ack_topic or f"{cfg.broker.prefix.strip('/')}/ack").strip("/")
         self.known = {st.id for st in cfg.stations}
@@ -428,6 +434,7 @@ class MqttIngest:
     def _writer_main(self) -> None:
         batch: list[_Msg] = []
         opened = 0.0
+        urgent_at: float | None = None
         last_put = time.monotonic()
         while True:
             self.last_writer_loop = time.monotonic()
@@ -438,6 +445,8 @@ class MqttIngest:
                 last_put = time.monotonic()
                 if len(batch) == 1:
                     opened = last_put
+                if urgent_at is None and self.urgent is not None and self._is_urgent(m):
+                    urgent_at = last_put
             except queue.Empty:
                 if stopping and not batch:
                     return
@@ -448,6 +457,7 @@ class MqttIngest:
                 len(batch) >= self.s.batch_rows
                 or now - opened >= self.s.batch_delay_s
                 or (len(batch) >= self.s.stall_rows and self.q.empty() and now - last_put >= self.s.stall_idle_s)
+                or (urgent_at is not None and now - urgent_at >= self.s.urgent_delay_s)
                 or (stopping and self.q.empty())
             )
             if due:
@@ -461,6 +471,25 @@ class MqttIngest:
                     time.sleep(1.0)
                     continue
                 batch = []
+                urgent_at = None
+
+    def _parse(self, m: _Msg) -> list:
+        return parse_mqtt_message(
+            m.topic, m.payload, self.b.prefix, m.received_utc, self.known,
+            self.b.max_payload_bytes, self.s.max_future_s, self.max_age_s, self.mappings,
+        )
+
+    def _is_urgent(self, m: _Msg) -> bool:
+        """Parse a message on arrival (kept for its commit) and ask the urgency predicate."""
+        if m.topic.startswith(self.status() + "/") or m.topic == self.ack_topic:
+            return False
+        try:
+            items = self._parse(m)
+            self._parsed[id(m)] = items
+            return bool(self.urgent([r for r in items if isinstance(r, Reading)]))
+        except Exception:  # noqa: BLE001 - urgency is an optimisation; the commit parses again
+            log.exception("urgency check failed (ignored)")
+            return False
 
     def _commit(self, batch: list[_Msg]) -> None:
         readings: list[Reading] = []
@@ -473,10 +502,8 @@ class MqttIngest:
             if m.topic == self.ack_topic and self.on_ack is not None:
                 ack_msgs.append(m)  # an alert acknowledgement, not a reading
                 continue
-            for r in parse_mqtt_message(
-                m.topic, m.payload, self.b.prefix, m.received_utc, self.known,
-                self.b.max_payload_bytes, self.s.max_future_s, self.max_age_s, self.mappings,
-            ):
+            items = self._parsed.get(id(m))
+            for r in items if items is not None else self._parse(m):
                 (readings if isinstance(r, Reading) else rejections).append(r)
         stored = dups = 0
         conflicts: list[Rejection] = []
@@ -496,6 +523,8 @@ class MqttIngest:
                 self.stats.acked += 1
             # a message from an earlier connection is redelivered by the broker; that copy is
             # acknowledged then (and stored once)
+        for m in batch:
+            self._parsed.pop(id(m), None)
         st = self.stats
         st.received += len(batch)
         st.stored += stored
