@@ -14,6 +14,7 @@ import time
 from importlib import resources
 from pathlib import Path
 
+import getpass
 import os
 
 import pytest
@@ -62,7 +63,12 @@ class Broker:
         self.port = port
         self.conf = workdir / "mosquitto.conf"
         (workdir / "data").mkdir(parents=True, exist_ok=True)
+        # Run as whoever runs the tests. Started as root, mosquitto otherwise drops to the user
+        # "mosquitto", which cannot write its persistence file into a root-owned temp folder:
+        # nothing fails at start, and a restart silently loses every queued message
+        # (reliability.md finding 8).
         self.conf.write_text(
+            f"user {getpass.getuser()}\n"
             f"listener {port} 127.0.0.1\n"
             "allow_anonymous true\n"
             "persistence true\n"
@@ -88,6 +94,23 @@ class Broker:
                     raise RuntimeError(f"mosquitto exited: {self.proc.stderr.read().decode(errors='replace')}")
                 time.sleep(0.05)
         raise RuntimeError(f"mosquitto did not listen on {self.port} within {timeout_s} s")
+
+    @property
+    def db_file(self) -> Path:
+        return self.workdir / "data" / "mosquitto.db"
+
+    def save_now(self, timeout_s: float = 10.0) -> None:
+        """SIGUSR1 makes mosquitto write its persistence file; wait until it has (deploy/README's check)."""
+        import signal
+
+        before = self.db_file.stat().st_mtime_ns if self.db_file.exists() else 0
+        self.proc.send_signal(signal.SIGUSR1)
+        deadline = time.monotonic() + timeout_s
+        while time.monotonic() < deadline:
+            if self.db_file.exists() and self.db_file.stat().st_mtime_ns != before:
+                return
+            time.sleep(0.05)
+        raise RuntimeError(f"mosquitto did not write {self.db_file}: persistence is not working")
 
     def stop(self) -> None:
         if self.proc and self.proc.poll() is None:
