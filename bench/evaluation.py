@@ -175,7 +175,7 @@ def run(verbose: bool = True, quick: bool = False, out_dir: Path | None = None) 
         r["generated_rows"], r["generate_s"] = rows, round(gen_s, 1)
         r["per_block_ms"] = round(r["cycle_ms"] / n, 3)
         blocks_curve.append(r)
-        say(f"  blocks {n:>4}: cycle {r['cycle_ms']:>8.1f} ms  ({r['per_block_ms']:.2f} ms/block; window read "
+        say(f"  blocks {n:>4}: cycle {r['cycle_ms']:>8.1f} ms  ({r['per_block_ms']:.2f} ms/block; "
             f"compute {r['compute_ms']:.1f} ms, push {r['push_ms']:.2f} ms; old path's window read {r['window_read_ms']:.1f} ms, "
             f"bare SQL floor {r['floor_sql_ms']:.1f} ms, {r['window_rows']} rows; one cache load {r['cache_load_ms']:.0f} ms)")
     main = next(r for r in blocks_curve if r["blocks"] == 50)

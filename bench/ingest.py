@@ -261,16 +261,21 @@ def bench_disk(work: Path, seconds: float, verbose: bool) -> dict:
         th.join(seconds + 60)
         sent = sent_box[0] if sent_box else 0
         time.sleep(1.0)
+        # read while running: the shutdown's final checkpoint of the whole WAL is a once-per-stop
+        # cost, not a daily rate (scaled from 2 minutes to a day it would count ~700 times);
+        # checkpoints in a day's run are in bench/storage.py's 24 h figure
+        b1, elapsed = d.io_write_bytes(), time.monotonic() - t0
         rc = d.stop()
-        elapsed = time.monotonic() - t0
         m = re.findall(r"io write_bytes (\d+)", d.text())
-        b1 = int(m[-1]) if m else None
-        per_day = None if b1 is None else (b1 - b0) / elapsed * 86400.0
+        b_stop = int(m[-1]) if m else None
+        per_day = (b1 - b0) / elapsed * 86400.0
         mib = None if per_day is None else per_day / 2**20
         out = {
             "sensors": 50, "interval_s": 60, "seconds": round(elapsed, 1), "readings_sent": sent, "stored": _count(work / "frostwatch.db"),
-            "bytes_written": None if b1 is None else b1 - b0, "mib_per_day": None if mib is None else round(mib, 1),
-            "includes": "WAL, final checkpoint, heartbeats, an evaluation every 2 min",
+            "bytes_written": b1 - b0, "mib_per_day": None if mib is None else round(mib, 1),
+            "shutdown_bytes": None if b_stop is None else b_stop - b1,
+            "includes": "WAL writes and fsyncs of readings, heartbeats, an evaluation every 2 min, health and outbox "
+                        "rounds; not the shutdown's final checkpoint (shutdown_bytes)",
             "daemon_exit": rc, "target": "<= 200 MiB/day", "pass": bool(mib is not None and mib <= 200),
         }
         if verbose:
