@@ -29,6 +29,7 @@ from frostwatch.config import Block, Config, Station
 from frostwatch.models import Projection, StationState
 from frostwatch.night import Night
 from frostwatch.physics import cooling, humidity, windmachine
+from frostwatch.units import QUANTITIES
 
 Series = dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]
 
@@ -47,7 +48,6 @@ NOWCAST_HALF_WEIGHT_H = 1.0  # after this many hours of tonight's data, it weigh
 GRID_STEP_S = 300.0
 EXTRAPOLATE_AFTER_S = 600.0  # a dusk value older than this is carried along the last slope
 INPUT_WINDOW_S = 3600.0  # wind and cloud at t0: the mean of the last hour (or one interval)
-WET_BULB_GRID_STEP_S = 900.0  # the wet-bulb curve is needed only for sprinkler blocks
 TREND_WEIGHT = {"windy": 0.8, "cloudy": 0.4}  # share of the observed trend where radiation fails
 SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
 MIN_REGRESSION_NIGHTS = 3  # below this many nights the physics prior alone gives the dusk forecast
@@ -80,8 +80,11 @@ def station_state(
     latest: dict[str, float] = {}
     latest_at: dict[str, dt.datetime] = {}
     problems: list[str] = []
-    for (sid, q), (t, v) in series.items():
-        if sid != st.id or len(t) == 0:
+    for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
+        if (st.id, q) not in series:
+            continue
+        t, v = series[(st.id, q)]
+        if len(t) == 0:
             continue
         idx = np.searchsorted(t, now_s, side="right") - 1
         if idx < 0:
@@ -699,19 +702,17 @@ def project_block(
         }
         crossings = {k: _utc(crossing_time(grid_s, curve, thr)) for k, thr in thresholds.items()}
         if td_c is not None and block.protection in SPRINKLER_METHODS:
-            # dew point falls with the air once the air reaches it (deposition)
-            k = max(1, int(WET_BULB_GRID_STEP_S // GRID_STEP_S))
-            g, c = grid_s[::k], curve[::k]
-            if g[-1] != grid_s[-1]:
-                g, c = np.append(g, grid_s[-1]), np.append(c, curve[-1])
-            air = np.concatenate([[air_c], c])
-            wb_all = np.asarray(humidity.wet_bulb_c_from_dew_point(air, np.minimum(td_c, air), p_hpa), dtype=float)
-            wet_c = float(wb_all[0]) if math.isfinite(wb_all[0]) else None
-            wb = wb_all[1:]
-            if wet_c is not None:
-                wb[0] = wet_c
-            crossings["wet_bulb_t10_margin"] = _utc(crossing_time(g, wb, thresholds["t10_margin"]))
-            crossings["wet_bulb_t10"] = _utc(crossing_time(g, wb, thresholds["t10"]))
+            # At a fixed dew point the wet bulb rises monotonically with the air temperature (and
+            # equals it once the air is down at the dew point, which then falls with it), so the
+            # wet bulb crosses a threshold exactly where the air curve crosses the air temperature
+            # whose wet bulb is that threshold: a closed form (ASHRAE eqs. 33/35), no grid needed.
+            wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+            wet_c = wet_c if math.isfinite(wet_c) else None
+            for key, thr in (("wet_bulb_t10_margin", thresholds["t10_margin"]), ("wet_bulb_t10", thresholds["t10"])):
+                air_at = float(humidity.air_temp_c_for_wet_bulb(thr, td_c, p_hpa))
+                if not math.isfinite(air_at):
+                    air_at = thr  # dew point above the threshold: the wet bulb reaches it with the air
+                crossings[key] = _utc(crossing_time(grid_s, curve, air_at))
 
     # inversion: tower minus crop height, now and projected to the minimum
     towers = [s for s in states if s.role == "tower" and s.healthy]

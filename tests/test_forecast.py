@@ -342,3 +342,26 @@ def test_dusk_regression_is_reuters_square_root_law():
     assert cal.predict_c(0.0, x, 6.5) == pytest.approx(0.95 + k * 6.5**0.5, abs=0.01)
     # d Tn / d T0 is one on this site (every night drops by the same amount)
     assert cal.coefs[0] == pytest.approx(1.0, abs=1e-6)
+
+
+def test_wet_bulb_crossing_closed_form_matches_a_brute_force_curve():
+    """The wet-bulb crossing is taken where the air curve crosses air_temp_c_for_wet_bulb(thr, Td);
+    check it against wet bulbs computed along a fine air curve (dew point following the air down
+    once reached), at dew points below and above the threshold."""
+    import numpy as np
+
+    from frostwatch.forecast import crossing_time
+    from frostwatch.physics import humidity
+
+    grid = np.arange(0.0, 8 * 3600.0 + 1, 60.0)
+    curve = 3.0 - 2.2 * np.sqrt(grid / 3600.0)  # a square-root night from 3 degC
+    for td in (-9.0, -4.0, -1.5, 1.0):
+        for thr in (-1.2, -2.2):
+            wb = np.asarray(humidity.wet_bulb_c_from_dew_point(curve, np.minimum(td, curve)), dtype=float)
+            brute = crossing_time(grid, wb, thr)
+            air_at = float(humidity.air_temp_c_for_wet_bulb(thr, td))
+            fast = crossing_time(grid, curve, air_at if np.isfinite(air_at) else thr)
+            if brute is None:
+                assert fast is None
+            else:
+                assert abs(fast - brute) <= 60.0, (td, thr, fast, brute)  # within one grid step
