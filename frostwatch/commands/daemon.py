@@ -2,19 +2,15 @@
 
 from __future__ import annotations
 
-from frostwatch.commands.common import (  # noqa: F401
-    _fahrenheit,
+from frostwatch.commands.common import (
     _iso,
-    _key,
     _load,
     _out_json,
     _parse_iso,
-    _progress,
-    _temp_in,
     _temp_out,
     _unit,
 )
-from frostwatch.errors import UsageError  # noqa: F401
+from frostwatch.errors import UsageError
 
 
 def cmd_run(args) -> int:

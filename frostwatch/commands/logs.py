@@ -7,19 +7,14 @@ import datetime as dt
 import sys
 from pathlib import Path
 
-from frostwatch.commands.common import (  # noqa: F401
+from frostwatch.commands.common import (
     _fahrenheit,
     _iso,
-    _key,
     _load,
     _out_json,
     _parse_iso,
     _progress,
-    _temp_in,
-    _temp_out,
-    _unit,
 )
-from frostwatch.errors import UsageError  # noqa: F401
 
 
 def _read_logs(args, cfg, store=None):

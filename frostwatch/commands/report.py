@@ -5,19 +5,11 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from frostwatch.commands.common import (  # noqa: F401
-    _fahrenheit,
-    _iso,
-    _key,
+from frostwatch.commands.common import (
     _load,
     _out_json,
-    _parse_iso,
-    _progress,
-    _temp_in,
-    _temp_out,
-    _unit,
 )
-from frostwatch.errors import UsageError  # noqa: F401
+from frostwatch.errors import UsageError
 
 
 def cmd_report(args) -> int:
