@@ -7,15 +7,14 @@ the package when missing, so a missing binary is a failure, not a skip.
 
 from __future__ import annotations
 
+import getpass
+import os
 import shutil
 import socket
 import subprocess
 import time
 from importlib import resources
 from pathlib import Path
-
-import getpass
-import os
 
 import pytest
 from hypothesis import HealthCheck, settings
@@ -91,7 +90,7 @@ class Broker:
                     return
             except OSError:
                 if self.proc.poll() is not None:
-                    raise RuntimeError(f"mosquitto exited: {self.proc.stderr.read().decode(errors='replace')}")
+                    raise RuntimeError(f"mosquitto exited: {self.proc.stderr.read().decode(errors='replace')}") from None
                 time.sleep(0.05)
         raise RuntimeError(f"mosquitto did not listen on {self.port} within {timeout_s} s")
 

@@ -240,7 +240,7 @@ def test_growing_degree_hours_vs_anderson_richardson_kesner_1986_asymcur():
 def test_growing_degree_hours_invariants():
     temps = np.linspace(-5.0, 35.0, 81)
     per_hour = [growing_degree_hours([t], 1.0) for t in temps]
-    rising = [g for t, g in zip(temps, per_hour) if t <= 25.0]
+    rising = [g for t, g in zip(temps, per_hour, strict=True) if t <= 25.0]
     assert all(b >= a for a, b in itertools.pairwise(rising))
     # Same day sampled hourly or every 15 min (repeated) gives the same sum.
     day = [2.0, 6.0, 10.0, 15.0, 20.0, 12.0]
