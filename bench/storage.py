@@ -213,7 +213,7 @@ def run(verbose: bool = True, quick: bool = False, out_dir: Path | None = None) 
     fl = floor_bytes(work / "floor", int(r["readings"] * scale))
     mib = headline / 2**20
     curve = []
-    for delay in (2.0, 5.0, 10.0):
+    for delay in (2.0, 5.0, 10.0, 20.0):
         d = work / f"delay-{delay:g}"
         d.mkdir(parents=True, exist_ok=True)
         c = simulate(d, 2.0, dt.time(22, 0), batch_delay_s=delay)

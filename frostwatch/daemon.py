@@ -56,7 +56,7 @@ class DaemonSettings:
     batch_rows: int = 200
     # a reading waits at most this long for its commit and PUBACK: each commit costs about 8.5 KiB
     # of writes (synchronous=FULL, WAL), so this is the SD-card wear knob (bench/ingest.py)
-    batch_delay_s: float = 10.0
+    batch_delay_s: float = 20.0  # SD-card wear; readings near a trigger are committed within urgent_delay_s
     urgent_delay_s: float = 1.0  # ... but a reading near a block's trigger in the watch window waits at most this
     # the heartbeat lives in memory and on the status topic; the store gets it this often
     # (`frostwatch status` judges staleness against it)

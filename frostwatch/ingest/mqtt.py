@@ -166,7 +166,7 @@ def read_secret(path_text: str, base: Path | None) -> str:
 @dataclass
 class IngestSettings:
     batch_rows: int = 200
-    batch_delay_s: float = 10.0
+    batch_delay_s: float = 20.0  # SD-card wear; readings near a trigger are committed within urgent_delay_s
     queue_max: int = 5000
     session_expiry_s: int = 7 * 24 * 3600
     status_topic: str = "frostwatch/status"
@@ -174,7 +174,7 @@ class IngestSettings:
     max_future_s: float = 600.0
     reconnect_max_s: float = 3.0
     stall_idle_s: float = 0.05  # a part-filled batch with no new message this long is committed
-    stall_rows: int = 10
+    stall_rows: int = 50
     ack_topic: str = ""  # alert acknowledgements arrive here (empty: "{prefix}/ack")
     # a batch holding a reading the `urgent` predicate flags (near a block's trigger in the watch
     # window) is committed this soon, whatever batch_delay_s says: alert latency on a risky night
