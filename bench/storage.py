@@ -54,7 +54,7 @@ def proc_io() -> dict[str, int]:
 
 
 def batches_for_minute(phases: list[float], batch_delay_s: float, stall_rows: int, stall_idle_s: float,
-                       batch_rows: int) -> list[list[int]]:
+                       batch_rows: int, stall_flood_rows_per_s: float = 20.0) -> list[list[int]]:
     """Sensor indices grouped into the commits the ingest writer would make in one minute."""
     order = sorted(range(len(phases)), key=lambda i: phases[i])
     out: list[list[int]] = []
@@ -62,7 +62,8 @@ def batches_for_minute(phases: list[float], batch_delay_s: float, stall_rows: in
     opened = last = 0.0
     for i in order:
         t = phases[i]
-        if cur and (t - opened >= batch_delay_s or (len(cur) >= stall_rows and t - last >= stall_idle_s)):
+        flood = len(cur) >= stall_flood_rows_per_s * (last - opened)  # as frostwatch.ingest.mqtt's writer
+        if cur and (t - opened >= batch_delay_s or (len(cur) >= stall_rows and t - last >= stall_idle_s and flood)):
             out.append(cur)
             cur = []
         if not cur:
@@ -104,7 +105,8 @@ def simulate(work: Path, hours: float, start_local: dt.time, seed: int = 3, batc
     rng = random.Random(seed)
     stations = list(cfg.stations)
     phases = [rng.uniform(0, 60) for _ in stations]
-    groups = batches_for_minute(phases, ing.batch_delay_s, ing.stall_rows, ing.stall_idle_s, ing.batch_rows)
+    groups = batches_for_minute(phases, ing.batch_delay_s, ing.stall_rows, ing.stall_idle_s, ing.batch_rows,
+                                ing.stall_flood_rows_per_s)
     quantities = [("air_temperature", "wind_speed") if st.height_m > 3 or st.block is None
                   else ("air_temperature", "relative_humidity") for st in stations]
     by = {"readings": 0, "heartbeat": 0, "evaluations": 0, "outbox": 0, "health": 0}

@@ -174,7 +174,11 @@ class IngestSettings:
     max_future_s: float = 600.0
     reconnect_max_s: float = 3.0
     stall_idle_s: float = 0.05  # a part-filled batch with no new message this long is committed
-    stall_rows: int = 50
+    stall_rows: int = 10
+    # a quiet part-batch is committed early only when it came as a flood (at least this many rows
+    # a second): the broker's in-flight window is then holding the rest back until we acknowledge
+    # (reliability.md finding 6); readings trickling in from scattered sensors wait for batch_delay_s
+    stall_flood_rows_per_s: float = 20.0
     ack_topic: str = ""  # alert acknowledgements arrive here (empty: "{prefix}/ack")
     # a batch holding a reading the `urgent` predicate flags (near a block's trigger in the watch
     # window) is committed this soon, whatever batch_delay_s says: alert latency on a risky night
@@ -456,7 +460,8 @@ class MqttIngest:
             due = (
                 len(batch) >= self.s.batch_rows
                 or now - opened >= self.s.batch_delay_s
-                or (len(batch) >= self.s.stall_rows and self.q.empty() and now - last_put >= self.s.stall_idle_s)
+                or (len(batch) >= self.s.stall_rows and self.q.empty() and now - last_put >= self.s.stall_idle_s
+                    and len(batch) >= self.s.stall_flood_rows_per_s * (last_put - opened))
                 or (urgent_at is not None and now - urgent_at >= self.s.urgent_delay_s)
                 or (stopping and self.q.empty())
             )
