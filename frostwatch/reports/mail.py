@@ -17,8 +17,6 @@ import datetime as dt
 import email.utils
 import json
 import mimetypes
-import smtplib
-import ssl
 from email.message import EmailMessage
 from pathlib import Path
 
@@ -141,7 +139,7 @@ def _email_channel(cfg: Config):
 def send_report_email(cfg: Config, store, evening: dt.date, out_dir: Path, now_utc: dt.datetime) -> Path:
     """Write the night report of `evening` into `out_dir` and email it to the managers; returns the
     page. Uses the alerts issue's email channel settings (see the module docstring)."""
-    from frostwatch.alerts.config import read_secret
+    from frostwatch.alerts.channels.email import send_message
     from frostwatch.reports.night import write_night_report
 
     ch, managers = _email_channel(cfg)
@@ -149,20 +147,8 @@ def send_report_email(cfg: Config, store, evening: dt.date, out_dir: Path, now_u
     o = ch.options
     msg = build_report_email(cfg, page, to=managers, sender=o.get("from"))
     msg.replace_header("Date", email.utils.format_datetime(now_utc))
-    host, tls = o["host"], o.get("tls", "starttls")
-    port = int(o.get("port", 465 if tls == "ssl" else 587))
     try:
-        password = read_secret(o, cfg.path.parent if cfg.path else None)
-        smtp = (smtplib.SMTP_SSL(host, port, timeout=ch.timeout_s, context=ssl.create_default_context())
-                if tls == "ssl" else smtplib.SMTP(host, port, timeout=ch.timeout_s))
-        with smtp:
-            if tls == "starttls":
-                smtp.starttls(context=ssl.create_default_context())
-            if o.get("username"):
-                smtp.login(o["username"], password or "")
-            refused = smtp.send_message(msg)
-    except (OSError, smtplib.SMTPException) as exc:
-        raise DeliveryError(f"morning report email via {host}:{port}: {type(exc).__name__}: {exc}") from None
-    if refused:
-        raise DeliveryError(f"morning report email via {host}:{port}: refused {sorted(refused)}")
+        send_message(ch, msg, cfg.path.parent if cfg.path else None)
+    except DeliveryError as exc:  # Permanent or Transient from the channel
+        raise DeliveryError(f"morning report email: {exc}") from None
     return page

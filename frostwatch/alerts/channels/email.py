@@ -45,6 +45,16 @@ def build(channel, msg, to: str) -> EmailMessage:
 def send(channel, msg, to, base_dir=None) -> str:
     if not to or to == "*":
         raise Permanent(f"email channel {channel.name}: no address for this recipient")
+    return send_message(channel, build(channel, msg, to), base_dir)
+
+
+def send_message(channel, message: EmailMessage, base_dir=None) -> str:
+    """Hand a built message to the channel's SMTP server (SSL or STARTTLS, login with the
+    password from a file or credential, every call under the channel's timeout).
+
+    Raises Permanent (do not retry: login refused, 5xx) or Transient (retry: timeouts, 4xx,
+    connection errors). Used by alert deliveries and by the morning report email.
+    """
     o = channel.options
     host, tls = o["host"], o.get("tls", "starttls")
     port = int(o.get("port", 465 if tls == "ssl" else 587))
@@ -63,7 +73,7 @@ def send(channel, msg, to, base_dir=None) -> str:
                 smtp.starttls(context=ssl.create_default_context())
             if o.get("username"):
                 smtp.login(o["username"], password or "")
-            refused = smtp.send_message(build(channel, msg, to))
+            refused = smtp.send_message(message)
     except smtplib.SMTPAuthenticationError as exc:
         raise Permanent(f"email {host}:{port}: login refused ({exc.smtp_code})") from None
     except smtplib.SMTPRecipientsRefused as exc:
