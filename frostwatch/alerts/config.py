@@ -406,17 +406,21 @@ def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
             problems.append(f"{where}.argv: {argv!r} is not a command, expected a list like [\"/usr/bin/sms-send\", \"{{to}}\"]")
 
 
-def read_secret(options: dict, base: Path | None = None) -> str | None:
-    """A password from `password_file` or a systemd credential (`password_credential`); None if neither."""
-    if options.get("password_credential"):
+def read_secret(options: dict, base: Path | None = None, key: str = "password") -> str | None:
+    """A secret from `{key}_file` or a systemd credential (`{key}_credential`); None if neither.
+
+    `key` is "password" for SMTP, "auth_header" for a webhook's Authorization header.
+    """
+    cred, file = options.get(f"{key}_credential"), options.get(f"{key}_file")
+    if cred:
         d = os.environ.get("CREDENTIALS_DIRECTORY")
         if not d:
             raise FileNotFoundError(
-                f"credential {options['password_credential']!r}: $CREDENTIALS_DIRECTORY is not set "
+                f"credential {cred!r}: $CREDENTIALS_DIRECTORY is not set "
                 "(LoadCredential= in the unit provides it)")
-        return (Path(d) / options["password_credential"]).read_text().strip()
-    if options.get("password_file"):
-        p = Path(options["password_file"])
+        return (Path(d) / cred).read_text().strip()
+    if file:
+        p = Path(file)
         if not p.is_absolute() and base is not None:
             p = base / p
         return p.read_text().strip()

@@ -12,7 +12,6 @@ A secret header value (a gateway token) comes from `auth_header_file` or a syste
 from __future__ import annotations
 
 import json
-import os
 import re
 from pathlib import Path
 
@@ -50,17 +49,10 @@ def check_template(template: str, content_type: str = "application/json") -> str
 
 
 def _auth(o: dict, base_dir) -> str | None:
-    if o.get("auth_header_credential"):
-        d = os.environ.get("CREDENTIALS_DIRECTORY")
-        if not d:
-            raise OSError("$CREDENTIALS_DIRECTORY is not set")
-        return (Path(d) / o["auth_header_credential"]).read_text().strip()
-    if o.get("auth_header_file"):
-        p = Path(o["auth_header_file"])
-        if not p.is_absolute() and base_dir is not None:
-            p = Path(base_dir) / p
-        return p.read_text().strip()
-    return None
+    """The Authorization header value from `auth_header_file` or `auth_header_credential`."""
+    from frostwatch.alerts.config import read_secret
+
+    return read_secret(o, Path(base_dir) if base_dir is not None else None, key="auth_header")
 
 
 def send(channel, msg, to, base_dir=None) -> str:
