@@ -382,17 +382,6 @@ def recent_mean(series: Series, stations: list[str], quantity: str, now_s: float
     return _mean_as_of(series, stations, quantity, now_s, window_s)
 
 
-def value_at(series: Series, station: str, quantity: str, t_s: float, tolerance_s: float = 900.0) -> float | None:
-    """The reading nearest to `t_s` (within tolerance), or None."""
-    if (station, quantity) not in series:
-        return None
-    t, v = series[(station, quantity)]
-    if len(t) == 0:
-        return None
-    i = int(np.argmin(np.abs(t - t_s)))
-    return float(v[i]) if abs(t[i] - t_s) <= tolerance_s else None
-
-
 def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None) -> float | None:
     """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists."""
     measured = recent_mean(series, [s.id for s in cfg.stations], "cloud_area_fraction", now_s, INPUT_WINDOW_S)
@@ -724,7 +713,7 @@ def project_block(
         proj_inv_c = inv_c
         tt, tv = series[(tower.station, "air_temperature")]
         sel = (tt >= t0_s) & (tt <= now_s)
-        t_tower0 = value_at(series, tower.station, "air_temperature", t0_s)
+        t_tower0 = as_of(series, tower.station, "air_temperature", t0_s, 900.0)  # as known at t0, like the crop sensor
         if regime == "radiation" and t_tower0 is not None and now_s > t0_s and now_s < sunrise_s:
             b_tower = _sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], t_tower0)
             if b_tower is not None:
