@@ -3,4 +3,9 @@
 It advises; the grower decides.
 """
 
-__version__ = "0.1.0"
+from importlib.metadata import PackageNotFoundError, version
+
+try:
+    __version__ = version("frostwatch")  # one source: pyproject.toml, as installed
+except PackageNotFoundError:  # a source tree on sys.path without an install
+    __version__ = "0+unknown"

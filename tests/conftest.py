@@ -25,6 +25,10 @@ settings.register_profile("ci", max_examples=200, deadline=None, suppress_health
 settings.register_profile("long", max_examples=10_000, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 settings.load_profile(os.environ.get("HYPOTHESIS_PROFILE", "ci"))
 
+# Every Python the tests start (`python -m frostwatch`, `python -c ...`) imports the installed
+# package, never a frostwatch/ folder in its working directory (tests/run sets it too).
+os.environ["PYTHONSAFEPATH"] = "1"
+
 REPO = Path(__file__).resolve().parent.parent
 SAMPLE_LOGS = REPO / "sample_sensor_logs"
 DEMO_NIGHTS = (

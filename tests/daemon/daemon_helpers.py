@@ -33,8 +33,9 @@ def write_config(tmp: Path, port: int, extra: str = "") -> Path:
 class DaemonProc:
     """`frostwatch run` in a subprocess, owned by the test (stopped by its own pid only)."""
 
-    def __init__(self, config: Path, env: dict | None = None):
+    def __init__(self, config: Path, env: dict | None = None, command: list[str] | None = None):
         self.config = config
+        self.command = command or [sys.executable, "-m", "frostwatch"]
         self.extra_env = env or {}
         self.log = config.parent / "daemon.log"
         self.proc: subprocess.Popen | None = None
@@ -45,7 +46,7 @@ class DaemonProc:
         env.update(self.extra_env)
         f = self.log.open("ab")
         self.proc = subprocess.Popen(
-            [sys.executable, "-m", "frostwatch", "run", "--config", str(self.config)],
+            [*self.command, "run", "--config", str(self.config)],
             stdout=f, stderr=subprocess.STDOUT, env=env,
         )
 
