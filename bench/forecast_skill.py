@@ -1,17 +1,34 @@
-"""Forecast skill on pvlib's Greensboro NC TMY3 year: the walk-forward dusk forecast against
-baselines computed in the same run on the same nights, the nowcast two hours before the observed
-minimum, and the wall time of the whole-year backtest against the floor of reading the same log
-with pandas.
+"""Forecast skill on pvlib's open typical years (Greensboro NC, Sand Point AK, Miami FL), walk-forward,
+beside simple methods computed in the same run on the same nights.
 
-    /work/venv/bin/python -m bench.forecast_skill        (or: python -m bench forecast_skill)
+    python -m bench.forecast_skill [SITE ...]        (or: python -m bench forecast_skill)
 
-Night classes (issue 3): radiation nights have a mean wind below 2 m s-1 and a total sky cover
-never above 3 tenths from sunset to sunrise, and a minimum below 10 degC; "cold" nights are all
-nights with a minimum below 10 degC. Nights that cross a month boundary are left out (each TMY3
-month comes from a different year). The baselines see the same T2/Td2 (the values a forecast
-issued at sunset + 2 h could know) and are fitted leave-one-out on the class's own nights, so they
-are allowed to see every other night, earlier or later; the frostwatch forecast sees only
-earlier nights.
+Each site's file becomes a sensor log (bench/tmy.py: read through pvlib, checked row for row
+against an independent parse of the raw file) and goes through `frostwatch.backtest.backtest`, the
+code behind `frostwatch backtest --json`, with extra projections at chosen times (probes).
+
+Night classes: "radiation" nights have a mean wind below 2 m s-1 and a total sky cover never above
+3 tenths from sunset to sunrise, and a minimum below the site's cold limit; "cold" nights are all
+nights with a minimum below it (10 degC; 15 degC at Miami, where frost never comes). A class needs
+5 nights to be scored.
+
+Simple methods, on the same nights, from the hourly rows alone (not from frostwatch's view):
+- regression Tmin = b0 + b1 T + b2 Td on the last hourly row at or before sunset + 2 h (the issue
+  time), leave-one-out over the class's nights (it sees later nights and knows each night's
+  class, so it is a strong reference), and walk-forward (fitted on earlier nights of the class
+  only, from the 5th on; earlier nights fall back to the mean drop);
+- T - mean drop of the earlier nights of the class (walk-forward);
+- for the projection 2 h before the observed minimum: the reading then minus the mean 2-h drop
+  before the minimum of the earlier nights of the class (walk-forward). The same at a lead not
+  chosen by the outcome, 2 h before sunrise.
+In-sample fits on the class (a ceiling no honest forecast reaches) are printed beside them.
+
+Band: the 80 % band [band_low_c, band_high_c]; coverage and the share below its lower edge.
+Crossings: for nights whose crop air crosses T10 + margin after sunset, the crossing time projected
+3 h and 1 h before it (median and 90th percentile of the absolute error; a projection that does not
+cross before sunrise counts as an error of its time to sunrise + 1 h). Events: at dusk, "below
+0 degC" and "below T10 + margin" decided from the band's cold edge: probability of detection and
+false alarm ratio. Cold start: bias over each site's first 10 scored nights.
 
 Results go to bench/results/forecast_skill.json and are printed.
 """
@@ -20,7 +37,6 @@ from __future__ import annotations
 
 import datetime as dt
 import json
-import os
 import sys
 import tempfile
 import time
@@ -28,142 +44,99 @@ from pathlib import Path
 
 import numpy as np
 
-# ---- the TMY3 year as a sensor log ----------------------------------------------------------
-# TMY3 rows are hour-ending local standard time (the header's TZ, UTC-5 for Greensboro, no
-# daylight saving); the dry-bulb, dew-point, wind, cloud and pressure on a row are the
-# observation at that instant (TMY3 user's manual: "at the time indicated"). The real dates of
-# each month's source year are kept, so a night that crosses a month boundary has no morning.
-STATION = "gso-screen"
-BLOCK = "field"
-COLUMNS = {  # pvlib name (map_variables=True) -> (quantity, unit, scale)
-    "temp_air": ("air_temperature", "degC", 1.0),
-    "temp_dew": ("dew_point_temperature", "degC", 1.0),
-    "wind_speed": ("wind_speed", "m s-1", 1.0),
-    "TotCld (tenths)": ("cloud_area_fraction", "1", 0.1),
-    "pressure": ("air_pressure", "hPa", 1.0),
-}
-
-
-def tmy_path() -> Path:
-    import pvlib
-
-    return Path(os.path.dirname(pvlib.__file__)) / "data" / "723170TYA.CSV"
-
-
-def read_tmy():
-    """(DataFrame indexed by tz-aware hour-ending times, header metadata) via pvlib."""
-    import pvlib
-
-    data, meta = pvlib.iotools.read_tmy3(str(tmy_path()), map_variables=True)
-    return data, meta
-
-
-def fixed_zone_name(offset_h: float) -> str:
-    """An IANA fixed-offset zone for a whole-hour UTC offset (POSIX sign: Etc/GMT+5 is UTC-5)."""
-    h = int(round(offset_h))
-    return "Etc/UTC" if h == 0 else f"Etc/GMT{'+' if h < 0 else '-'}{abs(h)}"
-
-
-def write_log_and_config(out_dir: Path) -> tuple[Path, Path, object, dict]:
-    """Write greensboro-tmy3.csv and greensboro.toml into `out_dir`; return paths, data, meta."""
-    data, meta = read_tmy()
-    out_dir.mkdir(parents=True, exist_ok=True)
-    log = out_dir / "greensboro-tmy3.csv"
-    off = dt.timedelta(hours=float(meta["TZ"]))
-    sign = "-" if off < dt.timedelta(0) else "+"
-    hh, mm = divmod(int(abs(off).total_seconds()) // 60, 60)
-    suffix = f"{sign}{hh:02d}:{mm:02d}"
-    lines = []
-    stamps = [t.strftime("%Y-%m-%dT%H:%M:%S") + suffix for t in data.index]
-    for col, (q, unit, scale) in COLUMNS.items():
-        for ts, v in zip(stamps, data[col].to_numpy(dtype=float), strict=True):
-            if v == v:  # NaN-free in this file, but never write one
-                lines.append(f"{ts},{STATION},{q},{v * scale:.6g},{unit}")
-    lines.sort(key=lambda s: s[:25])
-    log.write_text("time,station,quantity,value,unit\n" + "\n".join(lines) + "\n", encoding="utf-8")
-    name = str(meta["Name"]).strip('"').title()
-    cfg = out_dir / "greensboro.toml"
-    cfg.write_text(
-        f'''# frostwatch config for the TMY3 benchmark: one open field, one screen-height station.
-[site]
-name = "{name} (TMY3)"
-latitude = {meta["latitude"]}
-longitude = {meta["longitude"]}
-elevation_m = {meta["altitude"]}
-timezone = "{fixed_zone_name(float(meta["TZ"]))}"   # TMY3 is local standard time all year
-
-[[blocks]]
-id = "{BLOCK}"
-crop = "apple"
-stage = "full bloom"
-protection = "none"
-
-[[stations]]
-id = "{STATION}"
-block = "{BLOCK}"
-height_m = 2.0
-interval_s = 3600
-
-[storage]
-path = "bench.db"
-
-[broker]
-host = "127.0.0.1"
-port = 1883
-prefix = "frostwatch"
-''',
-        encoding="utf-8",
-    )
-    return log, cfg, data, meta
-
+from bench import tmy
 
 RESULTS = Path(__file__).resolve().parent / "results"
-TARGETS = {"radiation_mae_c": 1.2, "cold_mae_c": 1.8, "abs_bias_c": 0.3, "nowcast_mae_c": 0.7, "wall_s": 20.0}
-NOWCAST_LEAD_H = 2.0
+TARGETS = {
+    "greensboro": {"radiation_mae_c": 1.3, "cold_mae_c": 1.9, "nowcast_2h_mae_c": 0.7},
+    "sand_point": {"nowcast_2h_mae_c": 0.45},
+    "abs_bias_c": 0.2, "band_inside": (0.75, 0.85), "band_below_max": 0.12,
+    "crossing_3h_median_min": 30.0, "cold_start_abs_bias_c": 0.5, "event_pod_min": 0.95, "event_far_max": 0.25,
+}
+MIN_CLASS_NIGHTS = 5
+COLD_START_NIGHTS = 10
 
 
-def _stats(pred: np.ndarray, obs: np.ndarray) -> dict:
-    e = pred - obs
-    return {
-        "n": int(len(e)),
-        "mae_c": round(float(np.mean(np.abs(e))), 3),
-        "rmse_c": round(float(np.sqrt(np.mean(e**2))), 3),
-        "bias_c": round(float(np.mean(e)), 3),
-    }
+def _iso_s(s: str | None) -> float | None:
+    return None if s is None else dt.datetime.fromisoformat(s.replace("Z", "+00:00")).timestamp()
 
 
-def _band(rows: list[dict], pred_key: str, band_key: str) -> tuple[float | None, float | None]:
-    """(median band, fraction of rows whose observed minimum is within +/- band)."""
-    if not rows:
-        return None, None
-    p = np.array([r[pred_key] for r in rows], float)
-    b = np.array([r[band_key] for r in rows], float)
-    o = np.array([r["observed_min_c"] for r in rows], float)
-    return round(float(np.median(b)), 2), round(float(np.mean(np.abs(p - o) <= b)), 3)
+def _stats(pred, obs) -> dict | None:
+    pred, obs = np.asarray(pred, float), np.asarray(obs, float)
+    ok = np.isfinite(pred) & np.isfinite(obs)
+    if not ok.any():
+        return None
+    e = pred[ok] - obs[ok]
+    return {"n": int(ok.sum()), "mae_c": round(float(np.mean(np.abs(e))), 3),
+            "rmse_c": round(float(np.sqrt(np.mean(e**2))), 3), "bias_c": round(float(np.mean(e)), 3)}
 
 
-def loo_allen(t2: np.ndarray, td2: np.ndarray, tmin: np.ndarray) -> np.ndarray:
-    """Leave-one-out least squares Tmin = b0 + b1 T2 + b2 Td2 (Allen 1957 form, FAO-FP ch. 5)."""
-    x = np.column_stack([np.ones_like(t2), t2, td2])
-    out = np.empty_like(tmin)
-    for k in range(len(tmin)):
-        m = np.arange(len(tmin)) != k
-        b = np.linalg.lstsq(x[m], tmin[m], rcond=None)[0]
-        out[k] = x[k] @ b
+def loo_regression(t_c, td_c, tmin_c) -> np.ndarray:
+    """Leave-one-out least squares Tmin = b0 + b1 T + b2 Td (Allen 1957 form, FAO-FP ch. 5)."""
+    x = np.column_stack([np.ones_like(t_c), t_c, td_c])
+    out = np.empty_like(tmin_c)
+    for k in range(len(tmin_c)):
+        m = np.arange(len(tmin_c)) != k
+        out[k] = x[k] @ np.linalg.lstsq(x[m], tmin_c[m], rcond=None)[0]
     return out
 
 
-def loo_mean_drop(t2: np.ndarray, tmin: np.ndarray) -> np.ndarray:
-    """Tmin = T2 - the mean drop T2 - Tmin of the other nights."""
-    drop = t2 - tmin
-    return t2 - (drop.sum() - drop) / (len(drop) - 1)
+def walk_forward_regression(t_c, td_c, tmin_c, min_nights: int = 5) -> np.ndarray:
+    """The same fitted on earlier nights only; before `min_nights`, T minus the mean earlier drop
+    (the first night, with nothing earlier, is not forecast: NaN)."""
+    x = np.column_stack([np.ones_like(t_c), t_c, td_c])
+    out = np.full_like(tmin_c, np.nan)
+    for k in range(1, len(tmin_c)):
+        if k >= min_nights:
+            out[k] = x[k] @ np.linalg.lstsq(x[:k], tmin_c[:k], rcond=None)[0]
+        else:
+            out[k] = t_c[k] - np.mean(t_c[:k] - tmin_c[:k])
+    return out
 
 
-def crosses_month(night: str, rows_sunrise_month: int) -> bool:
-    return dt.date.fromisoformat(night).month != rows_sunrise_month
+def walk_forward_mean_drop(now_c, tmin_c) -> np.ndarray:
+    """now - the mean (now - Tmin) of the earlier nights (NaN for the first)."""
+    drop = now_c - tmin_c
+    csum = np.concatenate([[0.0], np.cumsum(drop)[:-1]])
+    k = np.arange(len(drop))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(k > 0, now_c - csum / np.maximum(k, 1), np.nan)
 
 
-def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
+def in_sample(cols, tmin_c) -> np.ndarray:
+    x = np.column_stack([np.ones_like(tmin_c)] + list(cols))
+    return x @ np.linalg.lstsq(x, tmin_c, rcond=None)[0]
+
+
+class HourlyView:
+    """The site's hourly rows sorted by time, for values known at an instant (no frostwatch code)."""
+
+    def __init__(self, h: tmy.Hourly):
+        o = np.argsort(h.time_s, kind="stable")
+        self.t = h.time_s[o]
+        self.f = {k: v[o] for k, v in h.fields.items()}
+
+    def last_at_or_before(self, field: str, t_s: float) -> float:
+        i = int(np.searchsorted(self.t, t_s, side="right")) - 1
+        return float(self.f[field][i]) if i >= 0 and t_s - self.t[i] <= 3600.0 else float("nan")
+
+    def crossing_after(self, start_s: float, end_s: float, threshold_c: float) -> float | None:
+        """First time in [start, end] the air falls to the threshold (linear between rows), when
+        it was above it at `start`."""
+        i0 = int(np.searchsorted(self.t, start_s, side="right")) - 1
+        i1 = int(np.searchsorted(self.t, end_s, side="right"))
+        t, v = self.t[max(i0, 0):i1], self.f["temp_c"][max(i0, 0):i1]
+        if len(t) < 2 or v[0] <= threshold_c or np.any(np.diff(t) > 5400):
+            return None
+        below = np.nonzero(v <= threshold_c)[0]
+        if not len(below):
+            return None
+        j = int(below[0])
+        f = (v[j - 1] - threshold_c) / (v[j - 1] - v[j])
+        return float(t[j - 1] + f * (t[j] - t[j - 1]))
+
+
+def run_site(key: str, work: Path) -> dict:
     import pandas as pd
 
     from frostwatch import backtest as bt
@@ -171,10 +144,14 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
     from frostwatch.config import load_config
     from frostwatch.ingest.csvlog import read_sensor_log
 
-    work = Path(out_dir or tempfile.mkdtemp(prefix="frostwatch-bench-"))
-    log, cfg_path, _data, meta = write_log_and_config(work)
+    site = tmy.SITES[key]
+    hourly = tmy.read_pvlib(site)
+    raw = tmy.read_raw(site)
+    agree = bool(np.array_equal(hourly.time_s, raw.time_s)) and all(
+        np.array_equal(hourly.fields[f], raw.fields[f], equal_nan=True) for f in tmy.QUANTITIES)
+    log, cfg_path, _ = tmy.write_log_and_config(site, work, hourly)
+    view = HourlyView(hourly)
 
-    # floor: reading and parsing the same CSV with pandas (times included)
     t = time.perf_counter()
     df = pd.read_csv(log)
     pd.to_datetime(df["time"], format="ISO8601", utc=True)
@@ -184,127 +161,238 @@ def run(verbose: bool = True, out_dir: Path | None = None) -> dict:
     cfg = load_config(str(cfg_path))
     readings, rejections = read_sensor_log(log, {s.id for s in cfg.stations})
     series = _series_from_readings(readings)
-    rows = bt.backtest(cfg, series)
+    plain = bt.backtest(cfg, series)
     wall_s = time.perf_counter() - t
-    n_readings = len(readings)
 
-    # the nowcast is a separate pass (it needs each night's observed minimum time)
+    block = cfg.blocks[0]
+    thr_c = block.kill_10pct_c + block.margin_c
+
+    def probes(night, rec, obs):
+        out = {}
+        min_s = rec.observed_min_at_utc.timestamp()
+        at = min_s - 2 * 3600.0
+        out["min2h"] = dt.datetime.fromtimestamp(at, dt.UTC) if at > night.dusk_utc.timestamp() else None
+        out["sr2h"] = night.sunrise_utc - dt.timedelta(hours=2)
+        tc = view.crossing_after(night.sunset_utc.timestamp(), night.sunrise_utc.timestamp() + 3600.0, thr_c)
+        for lead in (3, 1):
+            ok = tc is not None and tc - lead * 3600.0 >= night.sunset_utc.timestamp()
+            out[f"x{lead}h"] = dt.datetime.fromtimestamp(tc - lead * 3600.0, dt.UTC) if ok else None
+        return out
+
     t = time.perf_counter()
-    rows_nc = bt.backtest(cfg, series, nowcast_lead_h=NOWCAST_LEAD_H, nowcast_before_sunrise_h=NOWCAST_LEAD_H)
-    nowcast_wall_s = time.perf_counter() - t
+    rows = bt.backtest(cfg, series, probes=probes)
+    probe_wall_s = time.perf_counter() - t
+    assert [r["predicted_min_c"] for r in rows] == [r["predicted_min_c"] for r in plain]
 
-    tz = cfg.site.tz
-    # T2 and Td2 interpolated between the hour-ending rows on either side of sunset + 2 h (the
-    # issue's reference figures; a forecast issued at sunset + 2 h cannot see the row after it)
-    d = _data.sort_index()
-    ts = np.array([x.timestamp() for x in d.index])
-    interp = {}
+    # each row's hourly-row view: values at the issue time, class inputs, the observed crossing
     for r in rows:
-        s_ = dt.datetime.fromisoformat(r["issued_at"].replace("Z", "+00:00")).timestamp()
-        interp[r["night"]] = (float(np.interp(s_, ts, d["temp_air"].to_numpy(float))),
-                              float(np.interp(s_, ts, d["temp_dew"].to_numpy(float))))
-    keep = []
-    for r, rn in zip(rows, rows_nc, strict=True):
-        assert r["night"] == rn["night"] and r["predicted_min_c"] == rn["predicted_min_c"]
-        morning = dt.datetime.fromisoformat(r["observed_min_at"].replace("Z", "+00:00")).astimezone(tz)
-        if morning.month != dt.date.fromisoformat(r["night"]).month:
-            continue  # crosses a month boundary (also a different source year)
-        keep.append({**r, **{k: rn.get(k) for k in (
-            "nowcast_min_c", "nowcast_band_c", "sunrise_nowcast_min_c", "sunrise_nowcast_band_c")}})
-    arr = lambda key, rs: np.array([r[key] for r in rs], dtype=float)  # noqa: E731
+        issue_s = _iso_s(r["issued_at"])
+        r["_t_row"] = view.last_at_or_before("temp_c", issue_s)
+        r["_td_row"] = min(view.last_at_or_before("dew_c", issue_s), r["_t_row"])
+        p = r["probe_min2h"]
+        r["_now2h"] = view.last_at_or_before("temp_c", _iso_s(p["time"])) if p else float("nan")
+        sr2 = r["probe_sr2h"]
+        r["_now_sr2h"] = view.last_at_or_before("temp_c", _iso_s(sr2["time"])) if sr2 else float("nan")
+        low = r.get("band_low_c")
+        r["_low"] = low if low is not None else r["predicted_min_c"] - r["band_c"]
+        high = r.get("band_high_c")
+        r["_high"] = high if high is not None else r["predicted_min_c"] + r["band_c"]
+    # 2 h before sunrise the minimum still to come is taken from then to sunrise + 1 h
+    for r in rows:
+        sr2 = r["probe_sr2h"]
+        r["_obs_sr2h"] = float("nan")
+        if sr2 is not None:
+            s0 = _iso_s(sr2["time"])
+            m = (view.t >= s0) & (view.t <= s0 + 3 * 3600.0)
+            r["_obs_sr2h"] = float(view.f["temp_c"][m].min()) if m.any() else float("nan")
+
+    a = lambda key_, rs: np.array([r[key_] for r in rs], dtype=float)  # noqa: E731
+    cold_below = site.cold_below_c
     classes = {
-        "radiation": [r for r in keep if r["observed_min_c"] < 10.0 and r["mean_wind_m_s"] < 2.0 and r["max_cloud_frac"] <= 0.3],
-        "cold": [r for r in keep if r["observed_min_c"] < 10.0],
+        "radiation": [r for r in rows if r["observed_min_c"] < cold_below and (r["mean_wind_m_s"] or 0) < 2.0
+                      and (r["max_cloud_frac"] or 0) <= 0.3],
+        "cold": [r for r in rows if r["observed_min_c"] < cold_below],
+        "all": rows,
     }
-    results: dict = {
-        "source": f"pvlib {Path(str(log)).name} from 723170TYA.CSV ({meta['Name'].strip(chr(34))}, TMY3)",
-        "readings": n_readings,
-        "rejected_rows": len(rejections),
-        "nights_backtested": len(rows),
-        "nights_kept": len(keep),
-        "classes": {},
+    out: dict = {
+        "site": key, "source": f"pvlib {site.file} ({hourly.name}, {site.kind.upper()})",
+        "tuned_on": site.tuned_on, "conversion_agrees_with_raw_parse": agree,
+        "readings": len(readings), "rejected_rows": len(rejections), "nights_scored": len(rows),
+        "cold_below_c": cold_below, "t10_margin_c": round(thr_c, 2), "classes": {},
     }
     for name, rs in classes.items():
-        obs = arr("observed_min_c", rs)
-        t2, td2 = arr("t0_temp_c", rs), arr("t0_dew_point_c", rs)
-        t2i = np.array([interp[r["night"]][0] for r in rs])
-        td2i = np.minimum(np.array([interp[r["night"]][1] for r in rs]), t2i)
-        xs = np.column_stack([np.ones_like(t2), t2, td2, arr("t0_cloud_frac", rs), arr("t0_wind_m_s", rs)])
-        in_sample = xs @ np.linalg.lstsq(xs, obs, rcond=None)[0]
-        nc_rows = [r for r in rs if r["nowcast_min_c"] is not None]
-        sr_rows = [r for r in rs if r["sunrise_nowcast_min_c"] is not None]
-        results["classes"][name] = {
-            "nights": len(rs),
-            "frostwatch_walk_forward": _stats(arr("predicted_min_c", rs), obs),
-            "allen_regression_loo": _stats(loo_allen(t2, td2, obs), obs),
-            "allen_regression_loo_interpolated_t2": _stats(loo_allen(t2i, td2i, obs), obs),
-            "in_sample_t0_td0_cloud0_wind0": _stats(in_sample, obs),
-            "t2_minus_mean_drop_loo": _stats(loo_mean_drop(t2, obs), obs),
-            "td2": _stats(td2, obs),
-            "nowcast_2h_before_min": _stats(arr("nowcast_min_c", nc_rows), arr("observed_min_c", nc_rows)) if nc_rows else None,
-            "nowcast_2h_before_sunrise": _stats(arr("sunrise_nowcast_min_c", sr_rows), arr("observed_min_c", sr_rows)) if sr_rows else None,
-            "band_c_median": round(float(np.median(arr("band_c", rs))), 2),
-            "within_band_frac": round(float(np.mean(np.abs(arr("predicted_min_c", rs) - obs) <= arr("band_c", rs))), 3),
-            "nowcast_band_c_median": _band(nc_rows, "nowcast_min_c", "nowcast_band_c")[0],
-            "nowcast_within_band_frac": _band(nc_rows, "nowcast_min_c", "nowcast_band_c")[1],
-            "sunrise_nowcast_within_band_frac": _band(sr_rows, "sunrise_nowcast_min_c", "sunrise_nowcast_band_c")[1],
-        }
-    results["timing"] = {
-        "backtest_wall_s": round(wall_s, 3),
-        "pandas_read_floor_s": round(floor_s, 3),
-        "ratio_to_floor": round(wall_s / floor_s, 1) if floor_s > 0 else None,
-        "nowcast_pass_wall_s": round(nowcast_wall_s, 3),
-    }
-    results["targets"] = TARGETS
-    results["errors"] = [
-        {k: r[k] for k in ("night", "t0_temp_c", "t0_dew_point_c", "t0_wind_m_s", "t0_cloud_frac", "predicted_min_c", "observed_min_c", "nowcast_min_c")}
-        for r in classes["radiation"]
-    ]
+        if len(rs) < MIN_CLASS_NIGHTS:
+            continue
+        obs = a("observed_min_c", rs)
+        t_row, td_row = a("_t_row", rs), a("_td_row", rs)
+        c: dict = {"nights": len(rs)}
+        c["frostwatch"] = _stats(a("predicted_min_c", rs), obs)
+        if name != "all":
+            c["regression_loo"] = _stats(loo_regression(t_row, td_row, obs), obs)
+            c["regression_walk_forward"] = _stats(walk_forward_regression(t_row, td_row, obs), obs)
+            c["mean_drop_walk_forward"] = _stats(walk_forward_mean_drop(t_row, obs), obs)
+            c["in_sample_t_td"] = _stats(in_sample([t_row, td_row], obs), obs)
+            c["in_sample_t_td_cloud_wind"] = _stats(
+                in_sample([t_row, td_row, a("t0_cloud_frac", rs), a("t0_wind_m_s", rs)], obs), obs)
+        # the projection 2 h before the observed minimum, beside the naive drop on the same nights
+        nc = [r for r in rs if r["probe_min2h"] is not None]
+        if nc:
+            o = a("observed_min_c", nc)
+            c["projection_2h_before_min"] = _stats([r["probe_min2h"]["predicted_min_c"] for r in nc], o)
+            c["naive_2h_before_min"] = _stats(walk_forward_mean_drop(a("_now2h", nc), o), o)
+        sr = [r for r in rs if r["probe_sr2h"] is not None and np.isfinite(r["_obs_sr2h"])]
+        if sr:
+            o = a("_obs_sr2h", sr)
+            c["projection_2h_before_sunrise"] = _stats([r["probe_sr2h"]["predicted_min_c"] for r in sr], o)
+            c["naive_2h_before_sunrise"] = _stats(walk_forward_mean_drop(a("_now_sr2h", sr), o), o)
+        low, high = a("_low", rs), a("_high", rs)
+        c["band_inside_frac"] = round(float(np.mean((obs >= low) & (obs <= high))), 3)
+        c["band_below_frac"] = round(float(np.mean(obs < low)), 3)
+        c["band_width_median_c"] = round(float(np.median(high - low)), 2)
+        if nc:
+            lo = np.array([_band_edge(r["probe_min2h"], "low") for r in nc])
+            hi = np.array([_band_edge(r["probe_min2h"], "high") for r in nc])
+            o = a("observed_min_c", nc)
+            c["band_2h_inside_frac"] = round(float(np.mean((o >= lo) & (o <= hi))), 3)
+            c["band_2h_below_frac"] = round(float(np.mean(o < lo)), 3)
+        out["classes"][name] = c
+    out["crossings"] = _crossings(rows, view, thr_c)
+    out["events"] = {f"below {lbl}": _events(rows, v) for lbl, v in (("0 degC", 0.0), ("T10 + margin", thr_c))}
+    first = rows[:COLD_START_NIGHTS]
+    learning = [any("learning" in n for n in r.get("notes", ())) for r in first]
+    out["cold_start"] = {**(_stats(a("predicted_min_c", first), a("observed_min_c", first)) or {}),
+                         "nights_saying_learning": int(sum(learning))}
+    out["timing"] = {"backtest_wall_s": round(wall_s, 3), "pandas_read_floor_s": round(floor_s, 4),
+                     "ratio_to_floor": round(wall_s / floor_s, 1) if floor_s > 0 else None,
+                     "probe_pass_wall_s": round(probe_wall_s, 3)}
+    return out
+
+
+def _band_edge(p: dict, side: str) -> float:
+    v = p.get(f"band_{side}_c")
+    if v is not None:
+        return v
+    return p["predicted_min_c"] + (-1 if side == "low" else 1) * (p["band_c"] or 0.0)
+
+
+def _crossings(rows: list[dict], view: HourlyView, thr_c: float) -> dict:
+    out = {}
+    for lead in (3, 1):
+        err_min, err_cold = [], []
+        for r in rows:
+            p = r.get(f"probe_x{lead}h")
+            if p is None:
+                continue
+            at_s = _iso_s(p["time"])
+            actual = at_s + lead * 3600.0
+            sunrise_end = view_sunrise_end(r)
+            for key_, acc in (("t10_margin", err_min), ("t10_margin_cold_edge", err_cold)):
+                x = p["crossings"].get(key_)
+                if key_ == "t10_margin_cold_edge" and key_ not in p["crossings"]:
+                    continue
+                proj = _iso_s(x) if x else sunrise_end
+                acc.append((proj - actual) / 60.0)
+        e = np.abs(np.array(err_min))
+        row = {"n": len(err_min)}
+        if len(e):
+            row.update(median_abs_min=round(float(np.median(e)), 1), p90_abs_min=round(float(np.percentile(e, 90)), 1),
+                       median_signed_min=round(float(np.median(err_min)), 1))
+        if err_cold:
+            ec = np.array(err_cold)
+            row.update(cold_edge_median_signed_min=round(float(np.median(ec)), 1),
+                       cold_edge_late_frac=round(float(np.mean(ec > 0)), 3))
+        out[f"lead_{lead}h"] = row
+    return out
+
+
+def view_sunrise_end(r: dict) -> float:
+    """Sunrise + 1 h of the row's night, from its issue time and observed window (the row keeps
+    no sunrise: the observed minimum is at most an hour after it, so take the later of the two)."""
+    return max(_iso_s(r["observed_min_at"]), _iso_s(r["issued_at"]) + 6 * 3600.0)
+
+
+def _events(rows: list[dict], threshold_c: float) -> dict:
+    obs = np.array([r["observed_min_c"] < threshold_c for r in rows])
+    warn = np.array([r["_low"] < threshold_c for r in rows])
+    hits, misses, fa = int(np.sum(obs & warn)), int(np.sum(obs & ~warn)), int(np.sum(~obs & warn))
+    return {"events": int(obs.sum()), "hits": hits, "misses": misses, "false_alarms": fa,
+            "pod": round(hits / (hits + misses), 3) if hits + misses else None,
+            "far": round(fa / (hits + fa), 3) if hits + fa else None}
+
+
+def run(verbose: bool = True, out_dir: Path | None = None, sites: list[str] | None = None) -> dict:
+    work = Path(out_dir or tempfile.mkdtemp(prefix="frostwatch-bench-"))
+    res = {"about": __doc__.split("\n\n")[0], "targets": TARGETS, "sites": {}}
+    for key in sites or list(tmy.SITES):
+        res["sites"][key] = run_site(key, work / key)
     RESULTS.mkdir(parents=True, exist_ok=True)
-    (RESULTS / "forecast_skill.json").write_text(json.dumps(results, indent=2) + "\n", encoding="utf-8")
+    if sites is None or set(sites) == set(tmy.SITES):
+        (RESULTS / "forecast_skill.json").write_text(json.dumps(res, indent=1) + "\n", encoding="utf-8")
     if verbose:
-        print_report(results)
-    return results
+        print_report(res)
+    return res
+
+
+def _cell(s: dict | None) -> str:
+    return f"{s['n']:>4} {s['mae_c']:>5.2f} {s['bias_c']:>+6.2f}" if s else f"{'-':>17}"
 
 
 def print_report(res: dict) -> None:
-    print(f"forecast skill on {res['source']}: {res['readings']} readings, "
-          f"{res['nights_backtested']} nights backtested, {res['nights_kept']} kept (not crossing a month)")
     methods = [
-        ("frostwatch_walk_forward", "frostwatch dusk forecast (walk-forward)"),
-        ("allen_regression_loo", "Allen-type regression b0+b1*T2+b2*Td2 (leave-one-out)"),
-        ("allen_regression_loo_interpolated_t2", "  same, T2/Td2 interpolated (sees the next hour's row)"),
-        ("in_sample_t0_td0_cloud0_wind0", "in-sample fit on T0, Td0, cloud0, wind0 (a ceiling)"),
-        ("t2_minus_mean_drop_loo", "T2 - mean drop (leave-one-out)"),
-        ("td2", "Td2"),
-        ("nowcast_2h_before_min", "frostwatch nowcast 2 h before the minimum"),
-        ("nowcast_2h_before_sunrise", "frostwatch nowcast 2 h before sunrise"),
+        ("frostwatch", "frostwatch dusk forecast (walk-forward)"),
+        ("regression_loo", "regression on T, Td at issue, leave-one-out"),
+        ("regression_walk_forward", "the same, walk-forward"),
+        ("mean_drop_walk_forward", "T - mean drop of earlier nights"),
+        ("in_sample_t_td", "in-sample T, Td (a ceiling)"),
+        ("in_sample_t_td_cloud_wind", "in-sample T, Td, cloud, wind (a ceiling)"),
+        ("projection_2h_before_min", "frostwatch 2 h before the minimum"),
+        ("naive_2h_before_min", "now - mean 2-h drop of earlier nights"),
+        ("projection_2h_before_sunrise", "frostwatch 2 h before sunrise"),
+        ("naive_2h_before_sunrise", "now - mean drop to the minimum, same lead"),
     ]
-    cls = res["classes"]
-    print(f"\n{'method':<58} {'radiation nights':>24}   {'all nights < 10 degC':>24}")
-    print(f"{'':<58} {'n':>4} {'MAE':>6} {'RMSE':>6} {'bias':>6}   {'n':>4} {'MAE':>6} {'RMSE':>6} {'bias':>6}")
-    for key, label in methods:
-        cells = []
-        for c in ("radiation", "cold"):
-            s = cls[c][key]
-            cells.append(f"{s['n']:>4} {s['mae_c']:>6.2f} {s['rmse_c']:>6.2f} {s['bias_c']:>+6.2f}" if s else f"{'-':>24}")
-        print(f"{label:<58} {cells[0]}   {cells[1]}")
-    t = res["timing"]
-    for c in ("radiation", "cold"):
-        k = cls[c]
-        print(f"\nuncertainty band ({c}): dusk median {k['band_c_median']} degC, {k['within_band_frac']:.0%} within it; "
-              f"nowcast 2 h before the minimum median {k['nowcast_band_c_median']} degC, "
-              f"{k['nowcast_within_band_frac']:.0%} within it; 2 h before sunrise {k['sunrise_nowcast_within_band_frac']:.0%}", end="")
-    print()
-    print(f"whole-year backtest: {t['backtest_wall_s']:.2f} s (read + parse + walk-forward); "
-          f"floor (pandas read_csv + times): {t['pandas_read_floor_s']:.3f} s")
-    print(f"targets: MAE <= {TARGETS['radiation_mae_c']} (radiation), <= {TARGETS['cold_mae_c']} (cold), "
-          f"|bias| <= {TARGETS['abs_bias_c']}, nowcast MAE <= {TARGETS['nowcast_mae_c']}, wall < {TARGETS['wall_s']} s")
-    print(f"results: {RESULTS / 'forecast_skill.json'}")
+    for s in res["sites"].values():
+        cls = s["classes"]
+        names = [c for c in ("radiation", "cold", "all") if c in cls]
+        print(f"\n{s['source']}{'' if s['tuned_on'] else ' (held out: nothing tuned here)'}: {s['readings']} readings, "
+              f"{s['nights_scored']} nights scored; conversion agrees with the raw parse: {s['conversion_agrees_with_raw_parse']}")
+        head = "".join(f"{c + ' (' + str(cls[c]['nights']) + ')':>22}" for c in names)
+        print(f"{'method (n, MAE, bias in degC)':<46}{head}")
+        for mk, label in methods:
+            if not any(mk in cls[c] for c in names):
+                continue
+            print(f"{label:<46}" + "".join(f"{_cell(cls[c].get(mk)):>22}" for c in names))
+        for c in names:
+            k = cls[c]
+            extra = (f"; 2 h before the minimum {k['band_2h_inside_frac']:.0%} inside, {k['band_2h_below_frac']:.0%} below"
+                     if "band_2h_inside_frac" in k else "")
+            print(f"  80 % band, {c}: dusk {k['band_inside_frac']:.0%} inside, {k['band_below_frac']:.0%} below its "
+                  f"lower edge (median width {k['band_width_median_c']} degC){extra}")
+        for lead, x in s["crossings"].items():
+            if x.get("n"):
+                ce = (f"; cold edge median {x['cold_edge_median_signed_min']:+.0f} min, late on {x['cold_edge_late_frac']:.0%}"
+                      if "cold_edge_median_signed_min" in x else "")
+                print(f"  T10 + margin crossing projected {lead.split('_')[1]} ahead: n={x['n']}, median |error| "
+                      f"{x['median_abs_min']:.0f} min, p90 {x['p90_abs_min']:.0f} min (median signed {x['median_signed_min']:+.0f}){ce}")
+        for name, e in s["events"].items():
+            if e["events"]:
+                print(f"  event '{name}' at dusk from the band's cold edge: {e['events']} events, POD {e['pod']}, FAR {e['far']}")
+        cs = s["cold_start"]
+        if cs.get("n"):
+            print(f"  cold start (first {cs['n']} nights): bias {cs['bias_c']:+.2f}, MAE {cs['mae_c']:.2f}; "
+                  f"{cs['nights_saying_learning']} say the site is still learning")
+        t = s["timing"]
+        print(f"  backtest of the year {t['backtest_wall_s']:.2f} s; pandas floor {t['pandas_read_floor_s']:.3f} s "
+              f"({t['ratio_to_floor']}x)")
+    print(f"\nresults: {RESULTS / 'forecast_skill.json'}")
 
 
 def main(argv: list[str] | None = None) -> int:
-    run()
+    args = sys.argv[1:] if argv is None else argv
+    unknown = [a for a in args if a not in tmy.SITES]
+    if unknown:
+        print(f"unknown site {unknown[0]!r}; expected one of {', '.join(tmy.SITES)}", file=sys.stderr)
+        return 2
+    run(sites=args or None)
     return 0
 
 

@@ -36,7 +36,7 @@ def candidate_nights(cfg: Config, series: Series) -> list[dt.date]:
 
 def backtest(
     cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None,
-    nowcast_before_sunrise_h: float | None = None,
+    nowcast_before_sunrise_h: float | None = None, probes=None,
 ) -> list[dict]:
     """One row per night and block: the dusk forecast against what happened (walk-forward).
 
@@ -44,6 +44,10 @@ def backtest(
     observed minimum (when that is after the issue time), with the same calibration, and its
     band. With `nowcast_before_sunrise_h`, the nowcast made that long before sunrise (a lead a
     grower knows in advance, not one chosen by the outcome) as `sunrise_nowcast_*`.
+
+    `probes(night, record, obs_series)`, when given, returns {name: datetime or None}: at each
+    time the block is projected again from the readings up to then (same calibration), and the
+    row gets `probe_<name>` = `probe_row(projection)` (benchmarks use it for crossing times).
     """
     from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
 
@@ -83,6 +87,8 @@ def backtest(
                     "t0_cloud_frac": None if rec.t0_cloud_frac is None else round(rec.t0_cloud_frac, 2),
                     "mean_wind_m_s": None if rec.mean_wind_m_s is None else round(rec.mean_wind_m_s, 2),
                     "max_cloud_frac": None if rec.max_cloud_frac is None else round(rec.max_cloud_frac, 2),
+                    "method": proj.method,
+                    "notes": list(proj.notes),
                 }
                 if nowcast_lead_h is not None:
                     at = rec.observed_min_at_utc - dt.timedelta(hours=nowcast_lead_h)
@@ -102,6 +108,13 @@ def backtest(
                         pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
                     row["sunrise_nowcast_min_c"] = None if pn is None else pn.predicted_min_c
                     row["sunrise_nowcast_band_c"] = None if pn is None else pn.band_c
+                if probes is not None:
+                    for name, at in probes(night, rec, obs).items():
+                        pn = None
+                        if at is not None:
+                            now_win = slice_series(obs, start_s, at.timestamp())
+                            pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                        row[f"probe_{name}"] = None if pn is None else probe_row(pn)
                 rows.append(row)
             # walk-forward: the night joins the history only after it has been forecast
             ev.history[block.id].append(rec)
@@ -109,6 +122,19 @@ def backtest(
         if progress:
             progress(k + 1, len(nights))
     return rows
+
+
+def probe_row(p) -> dict:
+    """The parts of a projection a benchmark scores: minimum, band edges, crossings."""
+    return {
+        "time": _iso(p.time_utc),
+        "predicted_min_c": p.predicted_min_c,
+        "band_c": p.band_c,
+        "band_low_c": getattr(p, "band_low_c", None),
+        "band_high_c": getattr(p, "band_high_c", None),
+        "method": p.method,
+        "crossings": {k: _iso(v) for k, v in p.crossings_utc.items()},
+    }
 
 
 def _errors(rows: list[dict]) -> dict:
