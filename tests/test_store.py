@@ -66,7 +66,7 @@ def test_a_newer_schema_is_refused_with_a_clear_error(tmp_path):
     c.execute(f"PRAGMA user_version={SCHEMA_VERSION + 5}")
     c.commit()
     c.close()
-    with pytest.raises(StoreError, match="newer than this frostwatch"):
+    with pytest.raises(StoreError, match="newer than frostwatch"):
         Store.open(p)
 
 

@@ -4,6 +4,10 @@ WAL journal, synchronous=FULL (a committed reading survives power loss, reliabil
 readings keyed time first (time, station, quantity) so that batched commits stay cheap on an SD
 card (finding 10). One writer: a `Store` serialises its own use with a lock, and the daemon gives
 it to one writer thread. Raises `StoreError` when the file cannot be opened or migrated.
+
+Upgrading in place: an older store is migrated when it is opened, every row kept (the schema
+version is PRAGMA user_version); a store written by a newer frostwatch is refused before anything
+is written to it (tests/test_upgrade.py, with a store made by 0.1.0).
 """
 
 from __future__ import annotations
@@ -20,6 +24,7 @@ from pathlib import Path
 import numpy as np
 import sqlite_utils
 
+from frostwatch import __version__
 from frostwatch.errors import StoreError
 from frostwatch.models import Alert, Projection, Reading, Rejection
 from frostwatch.store.schema import MIGRATIONS, SCHEMA_VERSION
@@ -33,6 +38,24 @@ def to_ms(t: dt.datetime) -> int:
 def from_ms(ms: int) -> dt.datetime:
     """Integer milliseconds since the epoch -> an aware UTC datetime."""
     return dt.datetime.fromtimestamp(ms / 1000.0, tz=dt.UTC)
+
+
+def _newer_schema_message(path: Path, version: int) -> str:
+    return (f"{path}: this store has schema version {version}, newer than frostwatch {__version__} "
+            f"understands (schema version {SCHEMA_VERSION}), so it was written by a newer frostwatch: "
+            "install that version again; the file was left as it is")
+
+
+def _refuse_newer_schema(path: Path) -> None:
+    """Raise StoreError if the store at `path` has a newer schema. Only reads: no pragma that could
+    write (journal_mode), and closing this one connection removes the WAL files it opened."""
+    conn = sqlite3.connect(str(path), timeout=10.0)
+    try:
+        version = conn.execute("PRAGMA user_version").fetchone()[0]
+    finally:
+        conn.close()
+    if version > SCHEMA_VERSION:
+        raise StoreError(_newer_schema_message(path, version))
 
 
 class Store:
@@ -49,14 +72,20 @@ class Store:
     def open(cls, path: str | Path, *, synchronous: str = "FULL") -> Store:
         p = Path(path)
         try:
+            if p.exists():
+                _refuse_newer_schema(p)  # read-only, before a pragma could write to it
             p.parent.mkdir(parents=True, exist_ok=True)
             conn = sqlite3.connect(str(p), timeout=10.0, check_same_thread=False, isolation_level=None)
-            conn.execute("PRAGMA journal_mode=WAL")
-            conn.execute(f"PRAGMA synchronous={synchronous}")
-            conn.execute("PRAGMA busy_timeout=10000")
-            conn.execute("PRAGMA foreign_keys=ON")
-            store = cls(conn, p)
-            store.migrate()
+            try:
+                conn.execute("PRAGMA journal_mode=WAL")
+                conn.execute(f"PRAGMA synchronous={synchronous}")
+                conn.execute("PRAGMA busy_timeout=10000")
+                conn.execute("PRAGMA foreign_keys=ON")
+                store = cls(conn, p)
+                store.migrate()
+            except BaseException:
+                conn.close()
+                raise
         except sqlite3.DatabaseError as exc:
             raise StoreError(f"{p}: cannot open the store: {exc}") from None
         except OSError as exc:
@@ -66,9 +95,7 @@ class Store:
     def migrate(self) -> None:
         version = self.conn.execute("PRAGMA user_version").fetchone()[0]
         if version > SCHEMA_VERSION:
-            raise StoreError(
-                f"{self.path}: schema version {version} is newer than this frostwatch ({SCHEMA_VERSION}); upgrade frostwatch"
-            )
+            raise StoreError(_newer_schema_message(self.path, version))
         for target in sorted(v for v in MIGRATIONS if v > version):
             # executescript commits any open transaction first, so the script carries its own
             with self.lock:
