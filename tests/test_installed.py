@@ -95,7 +95,8 @@ def _installed_modules() -> set[str]:
 def test_the_wheel_holds_every_module_of_the_checkout():
     """A package left out of discovery may import nothing else yet; compare the trees as well."""
     missing = sorted(_source_modules() - _installed_modules())
-    assert not missing, f"modules in the checkout but not in the installed package: {missing}"
+    assert not missing, (f"modules in the checkout but not in the installed package: {missing} (left out of "
+                         "setup.py's discovery, or added after tests/run built the wheel: run it again)")
 
 
 def test_the_demo_logs_ship_inside_the_installed_package():
