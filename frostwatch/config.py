@@ -508,4 +508,11 @@ def effective_settings(cfg: Config) -> dict:
         "contacts": list(cfg.contacts),
         "report": cfg.report,
     }
+    # the sections other modules own, with their defaults filled in (a valid config: load_config
+    # has checked them already)
+    from frostwatch.daemon import daemon_settings
+    from frostwatch.reports.settings import status_page_settings
+
+    out["daemon"] = plain(daemon_settings(cfg))
+    out["status_page"] = plain(status_page_settings(cfg))
     return masked(out)

@@ -6,11 +6,22 @@ from frostwatch.commands.common import (
     _fahrenheit,
     _key,
     _out_json,
+    _self_command,
     _temp_in,
     _temp_out,
     _unit,
 )
 from frostwatch.errors import UsageError
+
+
+def _list_calculators(args) -> int:
+    """`frostwatch calc` alone: what it can work out, and how to ask for each one's options."""
+    width = max(len(name) for name, _ in args.calculators)
+    print("frostwatch calc WHAT: the field calculators")
+    for name, helptext in args.calculators:
+        print(f"  {name:<{width}}  {helptext}")
+    print(f"Each one's options: {_self_command()} calc WHAT --help")
+    return 0
 
 
 def cmd_calc(args) -> int:
@@ -24,6 +35,8 @@ def cmd_calc(args) -> int:
             raise UsageError(what)
         return v
 
+    if args.calc is None:
+        return _list_calculators(args)
     p_hpa = getattr(args, "pressure", None) or 1013.25
     if args.calc == "wet-bulb":
         t, td = _temp_in(args, args.air_temp), _temp_in(args, args.dew_point)
@@ -162,23 +175,29 @@ def cmd_calc(args) -> int:
 
 def register(sub, common) -> None:
     calc = sub.add_parser("calc", help="field calculator: wet bulb, dew point, sprinkler start, critical temperatures, ...")
-    csub = calc.add_subparsers(dest="calc", required=True, metavar="WHAT")
-    c = csub.add_parser("wet-bulb", parents=[common], help="wet-bulb (ice-bulb below 0 °C) temperature")
+    csub = calc.add_subparsers(dest="calc", metavar="WHAT")
+    listing: list[tuple[str, str]] = []
+
+    def add(name: str, **kw):  # every calculator, also listed by `frostwatch calc` alone
+        listing.append((name, kw["help"].replace("%%", "%")))  # argparse help is a %-format
+        return csub.add_parser(name, **kw)
+
+    c = add("wet-bulb", parents=[common], help="wet-bulb (ice-bulb below 0 °C) temperature")
     c.add_argument("--air-temp", type=float, required=True, metavar="T")
     c.add_argument("--dew-point", type=float, required=True, metavar="TD")
     c.add_argument("--pressure", type=float, metavar="HPA", help="air pressure (default 1013.25 hPa)")
-    c = csub.add_parser("dew-point", parents=[common], help="dew point and frost point from air temperature and RH")
+    c = add("dew-point", parents=[common], help="dew point and frost point from air temperature and RH")
     c.add_argument("--air-temp", type=float, required=True, metavar="T")
     c.add_argument("--humidity", type=float, required=True, metavar="RH", help="relative humidity, percent")
-    c = csub.add_parser("sprinkler-start", parents=[common], help="air temperature at which sprinklers must already run")
+    c = add("sprinkler-start", parents=[common], help="air temperature at which sprinklers must already run")
     c.add_argument("--dew-point", type=float, required=True, metavar="TD")
     c.add_argument("--critical", type=float, required=True, metavar="TC", help="critical temperature (usually T10)")
     c.add_argument("--margin", type=float, default=0.0, metavar="DT", help="safety margin added to TC")
     c.add_argument("--pressure", type=float, metavar="HPA")
-    c = csub.add_parser("critical", parents=[common], help="10 % and 90 % kill temperatures of a crop at a bud stage")
+    c = add("critical", parents=[common], help="10 %% and 90 %% kill temperatures of a crop at a bud stage")
     c.add_argument("--crop", required=True)
     c.add_argument("--stage", required=True)
-    c = csub.add_parser("sprinkler-rate", parents=[common],
+    c = add("sprinkler-rate", parents=[common],
                         help="over-tree application rate tonight needs: heat budget, checked against the table")
     c.add_argument("--min-temp", type=float, required=True, metavar="T", help="expected minimum air temperature")
     c.add_argument("--wind", type=float, required=True, metavar="M_S", help="wind speed, m/s (measure it: unknown is not calm)")
@@ -187,7 +206,7 @@ def register(sub, common) -> None:
     c.add_argument("--capacity", type=float, metavar="MM_H", help="your system's application rate, mm/h")
     c.add_argument("--area", type=float, metavar="HA", help="sprinkled area, ha (with --capacity: peak flow)")
     c.add_argument("--hours", type=float, metavar="H", help="running hours (with --capacity and --area: water volume)")
-    c = csub.add_parser("wind-machine", parents=[common], help="will wind machines help tonight?")
+    c = add("wind-machine", parents=[common], help="will wind machines help tonight?")
     c.add_argument("--inversion", type=float, required=True, metavar="DT", help="tower (~10 m) minus crop-height temperature")
     c.add_argument("--wind", type=float, required=True, metavar="M_S", help="wind speed, m/s")
     c.add_argument("--min-temp", type=float, required=True, metavar="T", help="projected minimum at crop height")
@@ -195,4 +214,4 @@ def register(sub, common) -> None:
     c.add_argument("--fog", action="store_true", help="supercooled fog is present")
     c.add_argument("--gain-fraction", type=float, default=0.4, metavar="FRAC",
                    help="fraction of the inversion recovered at crop height (engineering assumption, default 0.4)")
-    calc.set_defaults(func=cmd_calc)
+    calc.set_defaults(func=cmd_calc, calculators=tuple(listing))

@@ -9,6 +9,27 @@ import sys
 from frostwatch.errors import UsageError
 
 
+def _self_command(argv0: str | None = None, which=None) -> str:
+    """How to run this same frostwatch again, for the "try next" lines: the bare name only when PATH
+    finds this very program; else the path it was started by (after the README's install that is
+    .venv/bin/frostwatch, not on PATH), or `python -m frostwatch`."""
+    import shlex
+    import shutil
+    from pathlib import Path
+
+    argv0 = sys.argv[0] if argv0 is None else argv0
+    which = shutil.which if which is None else which
+    me = Path(argv0)
+    if me.name in ("__main__.py", "-c", ""):
+        return f"{shlex.quote(sys.executable)} -m frostwatch"
+    if "/" not in argv0:  # started by its name, so PATH finds it
+        return me.name
+    found = which(me.name)
+    if found and Path(found).resolve() == me.resolve():
+        return me.name
+    return shlex.quote(str(me.absolute()))
+
+
 def _out_json(doc: object) -> None:
     sys.stdout.write(json.dumps(doc, indent=2, default=str) + "\n")
 

@@ -3,7 +3,11 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 import datetime as dt
+import io
+import json
+import shlex
 import sys
 from pathlib import Path
 
@@ -14,6 +18,7 @@ from frostwatch.commands.common import (
     _out_json,
     _parse_iso,
     _progress,
+    _self_command,
 )
 
 
@@ -224,12 +229,21 @@ def cmd_demo(args) -> int:
             shutil.copyfileobj(f, g)
         logs.append(str(dst))
     cfg = load_config(cfg_path)
+    me = _self_command()
+    try_next = " ".join([me, "backtest", *map(shlex.quote, logs), "--config", shlex.quote(str(cfg_path))])
+    ns = argparse.Namespace(config=str(cfg_path), logs=logs, strict=False, json=args.json, fahrenheit=False,
+                            no_report=False, report_dir=str(work / "reports"))
+    if args.json:  # replay's own document, with what the demo adds: one JSON document on stdout
+        buf = io.StringIO()
+        with contextlib.redirect_stdout(buf):
+            rc = cmd_replay(ns)
+        _out_json({"demo": {"site": cfg.site.name, "work_dir": str(work), "config": str(cfg_path), "logs": logs,
+                            "try_next": try_next}, **json.loads(buf.getvalue())})
+        return rc
     print(f"frostwatch demo: {cfg.site.name} (an invented farm), three invented nights in April 2027")
     print(f"working folder: {work}\n")
-    ns = argparse.Namespace(config=str(cfg_path), logs=logs, strict=False, json=False, fahrenheit=False,
-                            no_report=False, report_dir=str(work / "reports"))
     rc = cmd_replay(ns)
-    print(f"\nTry next: frostwatch backtest {' '.join(logs)} --config {cfg_path}")
+    print(f"\nTry next: {try_next}")
     return rc
 
 

@@ -3,25 +3,28 @@
 from __future__ import annotations
 
 import json
+import shlex
 from pathlib import Path
 
 from frostwatch.commands.common import (
     _load,
     _out_json,
+    _self_command,
 )
 from frostwatch.errors import UsageError
 
 
 def cmd_init(args) -> int:
-    from importlib import resources
+    from frostwatch.example_config import example_config_text
 
     path = Path(args.path)
     if path.exists() and not args.force:
         raise UsageError(f"{path}: already exists; choose another path or pass --force to overwrite")
-    text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    text = example_config_text()
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_text(text, encoding="utf-8")
-    print(f"wrote an example config for an invented farm to {path}; edit it, then run `frostwatch check-config --config {path}`")
+    print(f"wrote an example config for an invented farm to {path}; edit it, then run "
+          f"`{_self_command()} check-config --config {shlex.quote(str(path))}`")
     return 0
 
 
@@ -39,7 +42,7 @@ def cmd_check_config(args) -> int:
     for b in cfg.blocks:
         print(f"  block {b.id}: {b.crop}, {b.stage}: T10 {b.kill_10pct_c:.1f} °C, T90 {b.kill_90pct_c:.1f} °C "
               f"({b.critical_source}); protection {b.protection}, margin {b.margin_c:g} °C, mobilisation {b.mobilisation_min:g} min")
-    print("effective settings (secrets masked):")
+    print("effective settings, [daemon] and [status_page] included (secrets masked):")
     print(json.dumps(eff, indent=2, default=str))
     return 0
 
