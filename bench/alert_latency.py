@@ -43,12 +43,14 @@ def run(verbose: bool = True) -> dict:
     import paho.mqtt.client as paho
     from aiosmtpd.controller import Controller
 
+    from frostwatch.advice import plan_advice
     from frostwatch.alerts.outbox import Outbox
     from frostwatch.alerts.rules import BlockAlertState, step
     from frostwatch.config import config_from_dict
     from frostwatch.display import Display
     from frostwatch.ingest.parse import parse_mqtt_message
-    from frostwatch.models import Advice, Projection, Reading
+    from frostwatch.models import Projection, Reading
+    from frostwatch.night import Night
     from frostwatch.store import Store
 
     tmp = Path(tempfile.mkdtemp(prefix="fw-bench-"))
@@ -99,16 +101,16 @@ def run(verbose: bool = True) -> dict:
                 air = readings[0].value
                 proj = Projection(time_utc=now, block="east", station="east-low", air_temp_c=air, dew_point_c=-5.0,
                                   wet_bulb_c=None, predicted_min_c=air - 1.0, predicted_min_at_utc=now + dt.timedelta(hours=3),
-                                  band_c=0.5, crossings_utc={"t10": now + dt.timedelta(minutes=90)}, inversion_c=2.0,
-                                  projected_inversion_c=2.0, inversion_class="moderate", wind_speed_m_s=0.5,
-                                  regime="radiative", method="bench")
-                adv = Advice(time_utc=now, block="east", risk="likely", action="start the wind machines",
-                             reasons=("bench",), start_by_utc=now - dt.timedelta(minutes=1), trigger="air",
-                             trigger_temp_c=air, threshold_c=block.kill_10pct_c + block.margin_c, margin_c=block.margin_c,
-                             details={"crossing_utc": now + dt.timedelta(minutes=30)})
-                night = (dt.date(2027, 4, 1) + dt.timedelta(days=trial["n"])).isoformat()
-                state = BlockAlertState(night=night, level="standby", candidate="act", candidate_count=1, outlook_sent=True)
-                _, alerts = step(state, adv, proj, block, now, night, now - dt.timedelta(hours=3), d)
+                                  band_c=0.5, crossings_utc={"t10": now + dt.timedelta(minutes=90),
+                                                             "t10_margin": now + dt.timedelta(minutes=25)},
+                                  inversion_c=2.0, projected_inversion_c=2.0, inversion_class="moderate",
+                                  wind_speed_m_s=0.5, regime="radiative", method="bench")
+                plan = plan_advice(proj, block, now)  # ready by 5 min ago: start now
+                night = Night(dt.date(2027, 4, 1) + dt.timedelta(days=trial["n"]), now - dt.timedelta(hours=5),
+                              now + dt.timedelta(hours=6))
+                state = BlockAlertState(night=night.date.isoformat(), level="standby", candidate="act",
+                                        candidate_count=1, outlook_sent=True)
+                _, alerts = step(state, plan, proj, block, now, night, d)
                 box.submit(alerts, now)
                 box.deliver_due(now)
             except Exception as exc:  # noqa: BLE001

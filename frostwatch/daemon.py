@@ -30,6 +30,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from frostwatch import health, sdnotify
+from frostwatch.advice import render as advice_render
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError, UsageError
 from frostwatch.night import Night
@@ -210,18 +211,20 @@ class Core:
             self.last_eval_utc = now
             self.evaluations += 1
             blocks = {}
-            for p, a in zip(ev.projections, ev.advice, strict=True):
-                st = self.evaluator.states.get(p.block)
+            d = self.evaluator.display
+            for p, dcs in zip(ev.projections, ev.decisions, strict=True):
                 self.last_projection[p.block] = p.predicted_min_c
+                plan = dcs.plan
                 blocks[p.block] = {
                     "time": _iso(now), "block": p.block, "reason": reason,
-                    "level": st.level if st else "all-clear",
+                    "level": dcs.level, "monitored": dcs.monitored,
                     "station": p.station, "air_temp_c": p.air_temp_c, "wet_bulb_c": _r(p.wet_bulb_c),
                     "dew_point_c": _r(p.dew_point_c), "predicted_min_c": _r(p.predicted_min_c),
                     "predicted_min_at": _iso(p.predicted_min_at_utc), "band_c": p.band_c,
                     "t10_crossing_at": _iso(p.crossings_utc.get("t10")), "regime": p.regime,
-                    "risk": a.risk, "action": a.action, "reasons": list(a.reasons),
-                    "start_by": _iso(a.start_by_utc), "cautions": list(a.cautions), "notes": list(p.notes),
+                    "risk": plan.risk.value, "step": dcs.step.value, "action": advice_render.action(dcs.step, plan, d),
+                    "start_by": _iso(plan.ready_by_utc), "cautions": advice_render.cautions(plan, d),
+                    "notes": list(p.notes),
                 }
             # projections and the blocks document: one transaction, one fsync per evaluation
             daemon_state.save_evaluation(self.store, ev.projections, {BLOCKS_META: json.dumps(blocks)})

@@ -1,4 +1,6 @@
-"""Frozen value types that flow through frostwatch: readings, rejections, projections, advice, alerts.
+"""Frozen value types that flow through frostwatch: readings, rejections, projections, alerts.
+
+The advice plan is `frostwatch.advice.plan.AdvicePlan`; the stored decision `frostwatch.decision.Decision`.
 
 All instants are timezone-aware UTC datetimes; all temperatures degC; units in every field name.
 """
@@ -6,7 +8,7 @@ All instants are timezone-aware UTC datetimes; all temperatures degC; units in e
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 
 @dataclass(frozen=True, slots=True)
@@ -80,39 +82,12 @@ class Projection:
 
 
 @dataclass(frozen=True)
-class Advice:
-    """What to do about a block now: the action, why, when, and the cautions.
-
-    `method` is the block's protection method; `stop_rule` says when it may stop; `resources`
-    holds the night's estimated running hours, water (m3, peak L/s), fuel (L) or energy (kWh);
-    `alternatives` says what else helps where the configured method will not do.
-    """
-
-    time_utc: dt.datetime
-    block: str
-    risk: str
-    action: str
-    reasons: tuple[str, ...]
-    start_by_utc: dt.datetime | None
-    trigger: str
-    trigger_temp_c: float | None
-    threshold_c: float | None
-    margin_c: float | None
-    start_air_temp_c: float | None = None
-    stop_air_temp_c: float | None = None
-    required_rate_mm_h: float | None = None
-    expected_gain_c: float | None = None
-    cautions: tuple[str, ...] = ()
-    details: dict = field(default_factory=dict)
-    method: str = ""
-    stop_rule: str = ""
-    resources: dict = field(default_factory=dict)
-    alternatives: tuple[str, ...] = ()
-
-
-@dataclass(frozen=True)
 class Alert:
-    """A notification decided by the alert rules: level, rank (0 = all clear) and text."""
+    """A notification decided by the alert rules: level, rank (0 = all clear) and text.
+
+    `kind` is "alert" for a new level (or health event) and "update" for a standby whose ready-by
+    time moved earlier (updates count against the hourly budget; see the outbox).
+    """
 
     time_utc: dt.datetime
     block: str
@@ -122,3 +97,4 @@ class Alert:
     message: str
     key: str
     resolves: str | None = None
+    kind: str = "alert"

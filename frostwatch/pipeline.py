@@ -1,8 +1,10 @@
 """The advisory pipeline, shared by `replay`, `backtest` and the daemon so that a replayed night
-behaves like a live one: readings window -> projection -> advice -> alert rules.
+behaves like a live one: readings window -> projection -> advice plan -> alert rules -> decision.
 
 `Evaluator` keeps the little state that crosses evaluations (alert states, past nights learned
-walk-forward); everything it calls is pure.
+walk-forward); everything it calls is pure. Each evaluation ends in one `Decision` per block (the
+level, the plan, the monitoring state, the projection): the daemon and replay store exactly these,
+and every screen shows them.
 """
 
 from __future__ import annotations
@@ -14,12 +16,15 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from frostwatch import forecast
-from frostwatch.advisor import advise
-from frostwatch.alerts.rules import BlockAlertState, step
+from frostwatch.advice import AdvicePlan, plan_advice
+from frostwatch.alerts.levels import UNMONITORED, rank_of, step_for_level
+from frostwatch.alerts.rules import BlockAlertState, rule_settings, step
 from frostwatch.config import Config
+from frostwatch.decision import Decision, summarise_projection
 from frostwatch.display import Display
 from frostwatch.forecast import Calibration, NightRecord, Series
-from frostwatch.models import Advice, Alert, Projection
+from frostwatch.models import Alert, Projection
+from frostwatch.monitoring import block_monitoring, inputs_utc
 from frostwatch.night import Night, evening_date, night_of_date
 from frostwatch.physics import humidity
 
@@ -54,10 +59,14 @@ def protection_running(series: Series, stations: list[str], now_s: float) -> boo
 
 @dataclass
 class Evaluation:
+    """One evaluation of the whole site: per block its projection, plan and decision (same
+    order as the config's blocks), and the alerts to send."""
+
     time_utc: dt.datetime
     night: Night
     projections: list[Projection] = field(default_factory=list)
-    advice: list[Advice] = field(default_factory=list)
+    plans: list[AdvicePlan] = field(default_factory=list)
+    decisions: list[Decision] = field(default_factory=list)
     alerts: list[Alert] = field(default_factory=list)
 
 
@@ -69,6 +78,7 @@ class Evaluator:
         self.display = Display(cfg.site.display_unit, cfg.site.tz)
         self.pressure_hpa = float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
         self.states: dict[str, BlockAlertState] = {}
+        self.rule_settings = rule_settings(cfg)
         self.history: dict[str, list[NightRecord]] = {b.id: [] for b in cfg.blocks}
         self.learned: set[dt.date] = set()
         self._nights: dict[dt.date, Night] = {}
@@ -111,18 +121,28 @@ class Evaluator:
         night = self.night_at(now_utc)
         window = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), now_utc.timestamp())
         ev = Evaluation(now_utc, night)
+        now_s = now_utc.timestamp()
         for block in self.cfg.blocks:
             proj = forecast.project_block(
                 now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa
             )
-            running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_utc.timestamp())
-            adv = advise(proj, block, now_utc, self.pressure_hpa, self.display, series=window,
-                         protection_running=running)
+            running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_s)
+            plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running)
+            mon = block_monitoring(self.cfg, block, window, now_s)
             state = self.states.get(block.id, BlockAlertState())
-            state, alerts = step(state, adv, proj, block, now_utc, night.date.isoformat(), night.dusk_utc, self.display)
+            state, alerts = step(state, plan, proj, block, now_utc, night, self.display, None, self.rule_settings)
             self.states[block.id] = state
+            if not mon.monitored and state.unmonitored_since_utc is not None:
+                mon = dataclasses.replace(mon, since_utc=state.unmonitored_since_utc)
+            level = state.level if mon.monitored else UNMONITORED
             ev.projections.append(proj)
-            ev.advice.append(adv)
+            ev.plans.append(plan)
+            ev.decisions.append(Decision(
+                block=block.id, as_of_utc=now_utc, night=night.date, level=level, rank=rank_of(level),
+                frost_level=state.level, step=step_for_level(level, plan), monitoring=mon,
+                projection=summarise_projection(proj), plan=plan, alert_key=state.last_key,
+                inputs_utc=inputs_utc(self.cfg, block, window, now_s),
+            ))
             ev.alerts.extend(alerts)
         return ev
 

@@ -31,7 +31,9 @@ from http import cookies
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 
 from frostwatch import forecast
-from frostwatch.advisor import CAUTIONS, advise
+from frostwatch.advice import plan_advice
+from frostwatch.advice import render as advice_render
+from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.alerts.rules import LEVELS
 from frostwatch.config import Config
 from frostwatch.errors import UsageError
@@ -84,7 +86,8 @@ def snapshot(cfg: Config, store: Store, now_utc: dt.datetime, evaluator: Evaluat
             })
         try:
             proj = forecast.project_block(now_utc, b, cfg, window, night, ev.calibration(b.id), ev.pressure_hpa)
-            adv = advise(proj, b, now_utc, ev.pressure_hpa, d)
+            plan = plan_advice(proj, b, now_utc, ev.pressure_hpa)
+            adv = advice_render.action(plan.step, plan, d)
             proj_error = None
         except Exception as exc:  # the page must render even when a block cannot be projected
             log.exception("status page: cannot project block %s", b.id)
@@ -236,7 +239,7 @@ def render_page(snap: dict, refresh_s: int) -> str:
                          f' <span class="note">{ack_txt}</span></p>')
         else:
             alert_txt = '<p><span class="lvl">no alert tonight</span></p>'
-        advice = f"<p>{e(adv.action)}</p>" if adv else ""
+        advice = f"<p>{e(adv)}</p>" if adv else ""
         cards.append(
             f'<section class="card r{rank}" id="block-{e(b.id)}"><h2>{e(b.id)}{(" — " + e(b.name)) if b.name else ""}'
             f'</h2><div class="big now-temp">{d.temp(coldest["air_temp_c"]) if coldest else "no reading"}</div>'
@@ -281,7 +284,7 @@ def snapshot_json(snap: dict) -> dict:
             "predicted_min_c": None if p is None else p.predicted_min_c,
             "predicted_min_at": None if p is None else iso(p.predicted_min_at_utc),
             "inversion_c": None if p is None else p.inversion_c,
-            "advice": None if item["advice"] is None else item["advice"].action,
+            "advice": item["advice"],
             "alert_level": a["level"] if a else None, "alert_rank": a["rank"] if a else None,
             "acknowledged": bool(a and any(r["alert_key"] == a["key"] for r in item["acks"])),
             "acknowledged_by": item["acks"][-1].get("who") if item["acks"] else None,

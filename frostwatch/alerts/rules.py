@@ -1,17 +1,21 @@
-"""The per-block alert state machine (pure): advice in, level changes and alerts out.
+"""The per-block alert state machine (pure): the advice plan in, level changes and alerts out.
 
-Levels, in rising order of urgency; `rank` is what scripts compare (DESIGN.md 1.4):
+Levels and ranks are in `frostwatch.alerts.levels`. Separate on and off thresholds, persistence
+over consecutive evaluations, and a one-way night (nothing is re-announced below the level already
+reached) keep it from flapping (grower-needs E3). Every message is rendered from the plan by
+`frostwatch.advice.message.compose` with the step the level shows (`levels.step_for_level`), so a
+headline and its advice never disagree.
 
-    all-clear      0  nothing to do (also the one "resolved" message when a condition clears)
-    safe-to-stop   1  morning: protection may stop (per-method stop rule met)
-    frost-possible 2  the dusk outlook: frost possible tonight, with predicted minimum and time
-    standby        3  the projection reaches T10 + margin within the next hours
-    act            4  start protection now, given the crew's mobilisation time
-    critical       5  at or below T10 now (or protection is not holding the block)
+Beyond the frost levels:
 
-Separate on and off thresholds, persistence over consecutive evaluations, and a one-way night
-(nothing is re-announced below the level already reached) keep it from flapping
-(grower-needs E3). Time is injected; nothing here reads a clock.
+- a block that is not monitored (no fresh crop-height sensor) gets an `unmonitored` alert of its
+  own inside the night's watch window, once, and one "monitored again" message when its sensor
+  has reported for two evaluations; meanwhile the frost rules hold (no outlook, no all-clear);
+- at standby, when the projected crossing moves earlier by more than the block's mobilisation
+  time or `update_earlier_min` (whichever is less) for two evaluations, one update goes out with
+  the new ready-by time; the next update needs another such move.
+
+Time is injected; nothing here reads a clock.
 """
 
 from __future__ import annotations
@@ -20,23 +24,36 @@ import dataclasses
 import datetime as dt
 from dataclasses import dataclass
 
+from frostwatch.advice.message import compose, not_monitored
+from frostwatch.advice.plan import AdvicePlan, Method, Risk, Step
+from frostwatch.advice.render import Notice
+from frostwatch.alerts.levels import LEVELS, UNMONITORED, rank_of, step_for_level, wanted_level
 from frostwatch.config import Block
+from frostwatch.decision import Monitoring
 from frostwatch.display import Display
-from frostwatch.models import Advice, Alert, Projection
-from frostwatch.physics import humidity
+from frostwatch.models import Alert, Projection
+from frostwatch.night import Night
 
-LEVELS: dict[str, int] = {
-    "all-clear": 0,
-    "safe-to-stop": 1,
-    "frost-possible": 2,
-    "standby": 3,
-    "act": 4,
-    "critical": 5,
-}
 PERSISTENCE = {"standby": 2, "act": 2, "critical": 1}  # consecutive evaluations before raising
 CLEAR_PERSISTENCE = 3  # consecutive evaluations beyond the off threshold before clearing
+MONITORED_PERSISTENCE = 2  # evaluations with a fresh sensor before "monitored again"
+UPDATE_PERSISTENCE = 2  # evaluations with the crossing moved before an update goes out
 OFF_HYSTERESIS_C = 0.5  # the off threshold sits this far above the on threshold
-STANDBY_HORIZON_H = 4.0
+UPDATE_EARLIER_MIN = 30.0  # default of [alerts] update_earlier_min
+
+
+@dataclass(frozen=True)
+class RuleSettings:
+    """Tunable parts of the rules ([alerts] update_earlier_min)."""
+
+    update_earlier_min: float = UPDATE_EARLIER_MIN
+
+
+def rule_settings(cfg) -> RuleSettings:
+    """The rules' settings from a config (validated by `frostwatch.alerts.config`)."""
+    raw = (getattr(cfg, "raw", None) or {}).get("alerts", {}) or {}
+    v = raw.get("update_earlier_min", UPDATE_EARLIER_MIN)
+    return RuleSettings(update_earlier_min=float(v) if isinstance(v, (int, float)) and v > 0 else UPDATE_EARLIER_MIN)
 
 
 @dataclass(frozen=True)
@@ -52,159 +69,186 @@ class BlockAlertState:
     last_key: str | None = None
     sequence: int = 0
     peak_level: str = "all-clear"
+    unmonitored_key: str | None = None  # the open "unmonitored" alert, until monitored again
+    unmonitored_since_utc: dt.datetime | None = None
+    monitored_count: int = 0
+    announced_crossing_utc: dt.datetime | None = None  # the crossing the last standby/update gave
+    update_count: int = 0
 
 
-def _wanted_level(adv: Advice, proj: Projection, now: dt.datetime) -> str:
-    if adv.risk == "now":
-        return "critical"
-    if adv.risk == "likely":
-        if adv.start_by_utc is not None and now >= adv.start_by_utc:
-            return "act"
-        crossing = adv.details.get("crossing_utc")
-        if crossing is not None and (crossing - now).total_seconds() <= STANDBY_HORIZON_H * 3600:
-            return "standby"
-        return "standby"
-    if adv.risk == "possible":
-        crossing = adv.details.get("crossing_utc")
-        if crossing is not None and (crossing - now).total_seconds() <= STANDBY_HORIZON_H * 3600:
-            return "standby"
-    return "all-clear"
-
-
-def _clear_enough(adv: Advice, proj: Projection, block: Block) -> bool:
+def _clear_enough(plan: AdvicePlan) -> bool:
     """The off threshold: the projected minimum is safely above the on threshold again."""
-    if proj.predicted_min_c is None:
+    if plan.predicted_min_c is None or plan.risk is not Risk.LOW:
         return False
-    band = proj.band_c or 0.0
-    return proj.predicted_min_c - band > block.kill_10pct_c + block.margin_c + OFF_HYSTERESIS_C and adv.risk in ("low",)
+    band = plan.band_c or 0.0
+    return plan.predicted_min_c - band > plan.line_c + OFF_HYSTERESIS_C
+
+
+def _morning_stop_ok(plan: AdvicePlan) -> bool:
+    """Per-method stop rule: the plan's stop check (trend, after sunrise); without a trend, the
+    trigger temperature above its limit."""
+    s = plan.stop
+    if s is None:
+        return False
+    if s.stop_ok is not None:
+        return bool(s.stop_ok)
+    return s.now_c is not None and s.now_c > s.limit_c
+
+
+def _moved_earlier_min(plan: AdvicePlan, state: BlockAlertState) -> float:
+    """How far the projected crossing moved earlier than the one last announced [min]."""
+    if plan.crossing_utc is None:
+        return 0.0
+    if state.announced_crossing_utc is None:
+        return float("inf")  # standby went out without a time; now there is one
+    return (state.announced_crossing_utc - plan.crossing_utc).total_seconds() / 60.0
+
+
+class _Run:
+    """One evaluation of one block: the state as it changes, and the alerts made."""
+
+    def __init__(self, state: BlockAlertState, plan: AdvicePlan, proj: Projection, block: Block, now: dt.datetime,
+                 key_night: str, d: Display):
+        self.state, self.plan, self.proj, self.block, self.now, self.key_night, self.d = (
+            state, plan, proj, block, now, key_night, d)
+        self.alerts: list[Alert] = []
+
+    def set(self, **kw) -> None:
+        self.state = dataclasses.replace(self.state, **kw)
+
+    def _key(self, suffix: str) -> str:
+        seq = self.state.sequence + 1
+        key = f"{self.block.id}/{self.key_night}/{seq:03d}-{suffix}"
+        self.set(sequence=seq, last_key=key)
+        return key
+
+    def send(self, level: str, shown: Step, notice: Notice, resolves: str | None = None, kind: str = "alert",
+             previous: dt.datetime | None = None) -> None:
+        key = self._key(level + ("-update" if kind == "update" else ""))
+        msg = compose(self.block.id, level, shown, self.plan, self.proj, self.d, notice, previous)
+        self.alerts.append(Alert(time_utc=self.now, block=self.block.id, level=level, rank=rank_of(level),
+                                 advice=msg.action, message=msg.text, key=key, resolves=resolves, kind=kind))
+
+    def send_unmonitored(self, m: Monitoring) -> None:
+        key = self._key(UNMONITORED)
+        msg = not_monitored(self.block.id, m, self.plan, self.d, self.now, self.state.level)
+        self.alerts.append(Alert(time_utc=self.now, block=self.block.id, level=UNMONITORED, rank=rank_of(UNMONITORED),
+                                 advice=msg.action, message=msg.text, key=key))
+        self.set(unmonitored_key=key)
 
 
 def step(
     state: BlockAlertState,
-    adv: Advice,
+    plan: AdvicePlan,
     proj: Projection,
     block: Block,
     now: dt.datetime,
-    night: str,
-    dusk_utc: dt.datetime,
+    night: Night,
     display: Display,
+    monitoring: Monitoring | None = None,
+    settings: RuleSettings = RuleSettings(),
 ) -> tuple[BlockAlertState, list[Alert]]:
-    """One evaluation of one block: the new state and the alerts to send (maybe none)."""
-    if state.night != night:
-        state = BlockAlertState(night=night)
-    alerts: list[Alert] = []
-    d = display
+    """One evaluation of one block: the new state and the alerts to send (maybe none).
 
-    def make(level: str, headline: str, resolves: str | None = None) -> Alert:
-        nonlocal state
-        seq = state.sequence + 1
-        key = f"{block.id}/{night}/{seq:03d}-{level}"
-        state = dataclasses.replace(state, sequence=seq, last_key=key)
-        return Alert(
-            time_utc=now, block=block.id, level=level, rank=LEVELS[level], advice=adv.action,
-            message=compose_message(level, headline, adv, proj, block, d), key=key, resolves=resolves,
-        )
+    `monitoring` (from `frostwatch.monitoring.block_monitoring`) decides whether the block is
+    watched; without it, a plan with no projection counts as not monitored (and raises no alert).
+    """
+    key_night = night.date.isoformat()
+    if state.night != key_night:
+        state = BlockAlertState(night=key_night)
+    run = _Run(state, plan, proj, block, now, key_night, display)
+    monitored = monitoring.monitored if monitoring is not None else plan.risk is not Risk.UNKNOWN
+    if not monitored:
+        since = state.unmonitored_since_utc or (monitoring.since_utc if monitoring else None) or now
+        run.set(monitored_count=0, unmonitored_since_utc=since)
+        if state.unmonitored_key is None and monitoring is not None and night.contains(now):
+            run.send_unmonitored(dataclasses.replace(monitoring, since_utc=since))
+        return run.state, run.alerts  # no data: the frost rules hold (no outlook, no all-clear)
 
-    # the dusk outlook, once a night
-    if not state.outlook_sent and now >= dusk_utc and adv.risk != "morning":
-        state = dataclasses.replace(state, outlook_sent=True)
-        if LEVELS[state.level] < LEVELS["frost-possible"]:
-            if adv.risk in ("possible", "likely", "now"):
-                alerts.append(make(
-                    "frost-possible",
-                    f"{block.id}: frost possible tonight: minimum {d.temp(proj.predicted_min_c)} "
-                    f"around {d.time(proj.predicted_min_at_utc)} (T10 {d.temp(block.kill_10pct_c)})",
-                ))
-            else:
-                alerts.append(make(
-                    "all-clear",
-                    f"{block.id}: tonight's outlook is clear: minimum {d.temp(proj.predicted_min_c)} "
-                    f"around {d.time(proj.predicted_min_at_utc)}",
-                ))
-
-    # morning: one safe-to-stop message where protection was called for
-    if adv.risk == "morning":
-        if LEVELS[state.level] >= LEVELS["standby"] and _morning_stop_ok(adv, proj, block):
-            if block.protection == "none":
-                alerts.append(make("all-clear", f"{block.id}: resolved: the night is over and the block is warming", resolves=state.last_key))
-                state = dataclasses.replace(state, level="all-clear", candidate="all-clear", candidate_count=0)
-            else:
-                alerts.append(make("safe-to-stop", f"{block.id}: SAFE TO STOP protection", resolves=state.last_key))
-                state = dataclasses.replace(state, level="safe-to-stop", candidate="safe-to-stop", candidate_count=0)
-        return state, alerts
-
-    wanted = _wanted_level(adv, proj, now)
-    if LEVELS[wanted] > LEVELS[state.level] and wanted != "all-clear":
-        count = state.candidate_count + 1 if LEVELS[state.candidate] >= LEVELS[wanted] else 1
-        cand = wanted if LEVELS[wanted] >= LEVELS[state.candidate] or count == 1 else state.candidate
-        state = dataclasses.replace(state, candidate=cand, candidate_count=count, clear_count=0)
-        if count >= PERSISTENCE[wanted]:
-            headline = {
-                "standby": f"{block.id}: STANDBY: {adv.trigger} projected to reach {d.temp(block.kill_10pct_c + block.margin_c)} "
-                           f"(T10 + margin) at {d.time(adv.details.get('crossing_utc'))}",
-                "act": f"{block.id}: ACT NOW: start protection; {adv.trigger} projected to reach "
-                       f"{d.temp(block.kill_10pct_c + block.margin_c)} at {d.time(adv.details.get('crossing_utc'))}",
-                "critical": f"{block.id}: CRITICAL: crop-height air {d.temp(proj.air_temp_c)} is at or below T10 {d.temp(block.kill_10pct_c)}",
-            }[wanted]
-            alerts.append(make(wanted, headline))
-            peak = wanted if LEVELS[wanted] > LEVELS[state.peak_level] else state.peak_level
-            state = dataclasses.replace(state, level=wanted, candidate=wanted, candidate_count=0, peak_level=peak)
-    elif LEVELS[state.level] >= LEVELS["standby"] and _clear_enough(adv, proj, block):
-        n = state.clear_count + 1
-        state = dataclasses.replace(state, clear_count=n, candidate="all-clear", candidate_count=0)
-        if n >= CLEAR_PERSISTENCE:
-            alerts.append(make(
-                "all-clear",
-                f"{block.id}: resolved: the projection is back above T10 + margin (minimum {d.temp(proj.predicted_min_c)})",
-                resolves=state.last_key,
-            ))
-            state = dataclasses.replace(state, level="all-clear", clear_count=0)
+    back = False
+    if state.unmonitored_key is not None:
+        n = state.monitored_count + 1
+        back = n >= MONITORED_PERSISTENCE
+        run.set(monitored_count=n)
     else:
-        state = dataclasses.replace(state, clear_count=0, candidate=state.level if wanted == "all-clear" else state.candidate,
-                                    candidate_count=state.candidate_count if LEVELS[wanted] > LEVELS[state.level] else 0)
-    return state, alerts
+        run.set(unmonitored_since_utc=None)
+    _frost_rules(run, night, settings)
+    if back:
+        reopened = run.state.unmonitored_key
+        if run.alerts:
+            run.alerts[0] = dataclasses.replace(run.alerts[0], resolves=run.alerts[0].resolves or reopened)
+        else:
+            lvl = run.state.level
+            run.send(lvl, step_for_level(lvl, plan), Notice.MONITORED_AGAIN, resolves=reopened)
+        run.set(unmonitored_key=None, unmonitored_since_utc=None, monitored_count=0)
+    return run.state, run.alerts
 
 
-def _morning_stop_ok(adv: Advice, proj: Projection, block: Block) -> bool:
-    """Per-method stop rule: the trigger temperature is above T10 (sprinklers) or T10 + margin."""
-    stop_ok = adv.details.get("stop_ok")
-    if stop_ok is not None:
-        return bool(stop_ok)  # the advice's own per-method stop rule (trend, after sunrise)
-    if adv.trigger_temp_c is None:
-        return False
-    if adv.trigger == "wet-bulb":
-        return adv.trigger_temp_c > block.kill_10pct_c
-    return adv.trigger_temp_c > block.kill_10pct_c + block.margin_c
+def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
+    """The dusk outlook, the morning stop, level rises, the all-clear and standby updates."""
+    plan, now, st = run.plan, run.now, run.state
+    # the dusk outlook, once a night, for a monitored block only
+    if not st.outlook_sent and now >= night.dusk_utc and plan.risk is not Risk.MORNING:
+        run.set(outlook_sent=True)
+        if LEVELS[st.level] < LEVELS["frost-possible"]:
+            if plan.active:
+                run.send("frost-possible", step_for_level("frost-possible", plan), Notice.OUTLOOK)
+                run.set(level="frost-possible")
+            else:
+                run.send("all-clear", Step.NOTHING, Notice.OUTLOOK)
+
+    st = run.state
+    # morning: one safe-to-stop message where protection was called for
+    if plan.risk is Risk.MORNING:
+        if st.level == "frost-possible":
+            run.set(level="all-clear")  # the night is over without a call to protect
+        elif LEVELS[st.level] >= LEVELS["standby"] and _morning_stop_ok(plan):
+            if plan.method is Method.NONE:
+                run.send("all-clear", Step.NIGHT_OVER, Notice.NIGHT_OVER, resolves=st.last_key)
+                run.set(level="all-clear", candidate="all-clear", candidate_count=0)
+            else:
+                run.send("safe-to-stop", Step.SAFE_TO_STOP, Notice.LEVEL, resolves=st.last_key)
+                run.set(level="safe-to-stop", candidate="safe-to-stop", candidate_count=0)
+        return
+
+    wanted = wanted_level(plan, now)
+    if LEVELS[wanted] > LEVELS[st.level] and wanted != "all-clear":
+        count = st.candidate_count + 1 if LEVELS[st.candidate] >= LEVELS[wanted] else 1
+        cand = wanted if LEVELS[wanted] >= LEVELS[st.candidate] or count == 1 else st.candidate
+        run.set(candidate=cand, candidate_count=count, clear_count=0)
+        if count >= PERSISTENCE[wanted]:
+            run.send(wanted, step_for_level(wanted, plan), Notice.LEVEL)
+            peak = wanted if LEVELS[wanted] > LEVELS[st.peak_level] else st.peak_level
+            run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak,
+                    announced_crossing_utc=plan.crossing_utc, update_count=0)
+    elif LEVELS[st.level] >= LEVELS["standby"] and _clear_enough(plan):
+        n = st.clear_count + 1
+        run.set(clear_count=n, candidate="all-clear", candidate_count=0)
+        if n >= CLEAR_PERSISTENCE:
+            run.send("all-clear", Step.NOTHING, Notice.RESOLVED, resolves=st.last_key)
+            run.set(level="all-clear", clear_count=0)
+    else:
+        run.set(clear_count=0, candidate=st.level if wanted == "all-clear" else st.candidate,
+                candidate_count=st.candidate_count if LEVELS[wanted] > LEVELS[st.level] else 0)
+        pass  # _standby_update(run, settings): part 4
 
 
-def compose_message(level: str, headline: str, adv: Advice, proj: Projection, block: Block, d: Display) -> str:
-    """The alert text: headline, what triggered it, margin, crossing, action, reasons, cautions."""
-    lines = [headline]
-    if proj.air_temp_c is not None:
-        now_bits = [f"air {d.temp(proj.air_temp_c)}"]
-        wet = proj.wet_bulb_c
-        if wet is None and proj.dew_point_c is not None:
-            wet = float(humidity.wet_bulb_c_from_dew_point(proj.air_temp_c, proj.dew_point_c))
-        if wet is not None and wet == wet:
-            now_bits.append(f"wet bulb {d.temp(wet)}")
-        if proj.dew_point_c is not None:
-            now_bits.append(f"dew point {d.temp(proj.dew_point_c)}")
-        if proj.inversion_c is not None:
-            now_bits.append(f"inversion {d.delta(proj.inversion_c)}")
-        if proj.wind_speed_m_s is not None:
-            now_bits.append(f"wind {proj.wind_speed_m_s:.1f} m/s")
-        lines.append(f"Now at {proj.station}: " + ", ".join(now_bits) + ".")
-    if proj.predicted_min_c is not None and level not in ("safe-to-stop",):
-        lines.append(
-            f"Projected minimum {d.temp(proj.predicted_min_c)} +/- {d.delta(proj.band_c)} around "
-            f"{d.time(proj.predicted_min_at_utc)}; T10 {d.temp(block.kill_10pct_c)}, T90 {d.temp(block.kill_90pct_c)}, "
-            f"margin {d.delta(block.margin_c)}; triggered by the {adv.trigger} temperature."
-        )
-        t10x = proj.crossings_utc.get("wet_bulb_t10" if adv.trigger == "wet-bulb" else "t10")
-        if t10x:
-            lines.append(f"Projected to cross T10 at {d.time(t10x)}.")
-    lines.append(f"Advice: {adv.action}.")
-    if adv.reasons:
-        lines.append("Why: " + "; ".join(adv.reasons) + ".")
-    lines.append("Cautions: " + " ".join(adv.cautions))
-    return "\n".join(lines)
+def _standby_update(run: _Run, settings: RuleSettings) -> None:
+    """One update when the crossing has moved earlier by more than the allowance, persistently."""
+    plan, st, now = run.plan, run.state, run.now
+    if st.level != "standby" or plan.step is not Step.GET_READY or plan.ready_by_utc is None or plan.ready_by_utc <= now:
+        run.set(update_count=0)
+        return
+    allowance = min(run.block.mobilisation_min, settings.update_earlier_min)
+    if _moved_earlier_min(plan, st) <= allowance:
+        run.set(update_count=0)
+        return
+    n = st.update_count + 1
+    if n < UPDATE_PERSISTENCE:
+        run.set(update_count=n)
+        return
+    previous = None
+    if st.announced_crossing_utc is not None:
+        previous = st.announced_crossing_utc - dt.timedelta(minutes=run.block.mobilisation_min)
+    run.send("standby", Step.GET_READY, Notice.UPDATE, kind="update", previous=previous)
+    run.set(announced_crossing_utc=plan.crossing_utc, update_count=0)

@@ -27,7 +27,7 @@ def _list_calculators(args) -> int:
 def cmd_calc(args) -> int:
     import math
 
-    from frostwatch.advisor import CAUTIONS
+    from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
     from frostwatch.physics import crops, humidity, sprinklers, windmachine
 
     def finite(v: float, what: str) -> float:
@@ -129,7 +129,8 @@ def cmd_calc(args) -> int:
                     lines.append(f"  water about {vol:,.0f} m3 over {args.hours:g} h")
         text = "\n".join(lines)
     elif args.calc == "wind-machine":
-        from frostwatch.advisor import wind_machine_plan
+        from frostwatch.advice import explain, render
+        from frostwatch.advice.fans import fan_verdict
         from frostwatch.config import Block
         from frostwatch.display import Display
         from frostwatch.models import Projection
@@ -147,19 +148,21 @@ def cmd_calc(args) -> int:
                           regime="radiation", method="calc")
         blk = Block(id="calc", crop="", stage="", kill_10pct_c=tc, kill_90pct_c=tc, critical_source="--critical",
                     protection="wind_machine", wind_machine_gain_frac=args.gain_fraction)
-        wm = wind_machine_plan(proj, blk, d, args.fog)
+        v = fan_verdict(proj, blk, args.fog)
+        f = v.fans
         k = 9.0 / 5.0 if _fahrenheit(args) else 1.0
-        reasons = wm["reasons"] + wm["why_not"]
-        doc = {"useful": wm["useful"], "sufficient": wm["sufficient"],
-               _key(args, "expected_gain"): round(wm["gain"] * k, 2),
-               _key(args, "expected_gain_low"): round(wm["gain_low"] * k, 2),
-               _key(args, "expected_gain_high"): round(wm["gain_high"] * k, 2),
+        reasons = explain.fan_facts(v, d) if v.advised else [explain.why_not(v, d)]
+        alternatives = render.alternatives(v)
+        doc = {"useful": v.advised, "sufficient": f.sufficient,
+               _key(args, "expected_gain"): round(f.gain_c * k, 2),
+               _key(args, "expected_gain_low"): round(f.gain_low_c * k, 2),
+               _key(args, "expected_gain_high"): round(f.gain_high_c * k, 2),
                "inversion_class": windmachine.classify_inversion(inv), "reasons": reasons,
-               "alternatives": wm["alternatives"],
+               "why_not": None if v.why_not is None else v.why_not.value, "alternatives": alternatives,
                "gain_note": "30-50 % of the inversion: an engineering assumption from memory, not a published rule"}
-        head = ("wind machines should help" + ("" if wm["sufficient"] else ", but not enough on their own")
-                if wm["useful"] else "wind machines will not help much")
-        text = head + "\n  " + "\n  ".join(reasons + wm["alternatives"])
+        head = ("wind machines should help" + ("" if f.sufficient else ", but not enough on their own")
+                if v.advised else "wind machines will not help much")
+        text = head + "\n  " + "\n  ".join(reasons + alternatives)
     else:  # pragma: no cover - argparse restricts choices
         raise UsageError(f"unknown calc {args.calc}")
     doc["cautions"] = list(CAUTIONS)

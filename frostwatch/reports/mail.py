@@ -20,7 +20,7 @@ import mimetypes
 from email.message import EmailMessage
 from pathlib import Path
 
-from frostwatch.advisor import CAUTIONS
+from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.config import Config
 from frostwatch.display import Display
 from frostwatch.errors import DeliveryError, UsageError

@@ -6,7 +6,7 @@ from __future__ import annotations
 import datetime as dt
 import html
 
-from frostwatch.advisor import CAUTIONS
+from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.alerts.rules import LEVELS
 from frostwatch.store import from_ms
 

@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from frostwatch.advisor import CAUTIONS
+from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.alerts.rules import LEVELS
 from frostwatch.config import Config
 from frostwatch.display import Display

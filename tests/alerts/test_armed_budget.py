@@ -8,11 +8,13 @@ from alert_helpers import T0, SmtpServer, make_cfg
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from frostwatch.advice import plan_advice
 from frostwatch.alerts.armed import armed_check
 from frostwatch.alerts.outbox import Outbox
 from frostwatch.alerts.rules import BlockAlertState, step
 from frostwatch.display import Display
-from frostwatch.models import Advice, Projection, Reading
+from frostwatch.models import Projection, Reading
+from frostwatch.night import Night
 from frostwatch.store import Store
 from frostwatch.store import outbox as ob
 
@@ -49,16 +51,15 @@ def test_dusk_check_says_degraded_and_why_then_armed(tmp_path):
 
 def _block_inputs(cfg, t, air):
     b = cfg.block("east")
-    thr = b.kill_10pct_c + b.margin_c
-    risk = "now" if air <= b.kill_10pct_c else ("likely" if air <= thr + 1 else "low")
     proj = Projection(time_utc=t, block="east", station="east-low", air_temp_c=air, dew_point_c=-5.0, wet_bulb_c=None,
                       predicted_min_c=air - 0.5, predicted_min_at_utc=t + dt.timedelta(hours=2), band_c=0.5,
-                      crossings_utc={"t10": None}, inversion_c=2.0, projected_inversion_c=2.0, inversion_class="moderate",
-                      wind_speed_m_s=0.5, regime="radiative", method="test")
-    adv = Advice(time_utc=t, block="east", risk=risk, action="start the wind machines", reasons=("test",),
-                 start_by_utc=t - dt.timedelta(minutes=1), trigger="air", trigger_temp_c=air, threshold_c=thr,
-                 margin_c=b.margin_c, details={"crossing_utc": t + dt.timedelta(minutes=20)})
-    return b, proj, adv
+                      crossings_utc={"t10": None, "t10_margin": t + dt.timedelta(minutes=20)}, inversion_c=2.0,
+                      projected_inversion_c=2.0, inversion_class="moderate", wind_speed_m_s=0.5, regime="radiation",
+                      method="test")
+    return b, proj, plan_advice(proj, b, t)
+
+
+NIGHT = Night(dt.date(2027, 4, 14), T0 - dt.timedelta(hours=8), T0 + dt.timedelta(hours=6))  # dusk 6 h before T0
 
 
 @settings(max_examples=8, deadline=None)
@@ -85,8 +86,8 @@ def test_flapping_air_stays_within_budget_and_is_never_silent(tmp_path_factory, 
         for k in range(31):  # 0..60 min
             t = T0 + dt.timedelta(minutes=2 * k)
             air = center + amp * math.sin(phase + k * 1.3)
-            b, proj, adv = _block_inputs(cfg, t, air)
-            state, alerts = step(state, adv, proj, b, t, "2027-04-14", T0 - dt.timedelta(hours=6), d)
+            b, proj, plan = _block_inputs(cfg, t, air)
+            state, alerts = step(state, plan, proj, b, t, NIGHT, d)
             box.submit(alerts, t)
             box.deliver_due(t, wait=True)
             sent = [x for x in ob.deliveries_for(store, [a["key"] for a in store.alerts(T0 - dt.timedelta(1), t)])

@@ -156,5 +156,5 @@ def test_core_evaluates_from_the_cache_and_matches_a_store_read(demo_config, dem
             got = core.evaluate(t, "test")
             want = ref.evaluate(t, store.readings_window(night.sunset_utc - LOOKBACK, t))
             assert [p.predicted_min_c for p in got.projections] == [p.predicted_min_c for p in want.projections]
-            assert [a.risk for a in got.advice] == [a.risk for a in want.advice]
+            assert [a.risk for a in got.plans] == [a.risk for a in want.plans]
         assert core.cache.loads == 1

@@ -1,0 +1,117 @@
+"""Frozen dataclasses to JSON-ready dicts and back, by their type hints.
+
+Datetimes travel as ISO 8601 UTC with `Z`, dates as ISO dates, enums as their values, tuples as
+lists, NaN as null. Decoding follows the dataclass's annotations (optional fields, nested
+dataclasses, tuples and dicts of them), so a stored plan reads back as the same typed value.
+
+    doc = to_dict(plan); plan2 = from_dict(AdvicePlan, doc)   # plan2 == plan
+
+Raises `ValueError` naming the field when a document does not fit the type.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import enum
+import math
+import types
+import typing
+from functools import cache
+
+
+def iso_utc(t: dt.datetime | None) -> str | None:
+    """An aware datetime as ISO 8601 UTC with `Z` (None stays None)."""
+    if t is None:
+        return None
+    return t.astimezone(dt.UTC).isoformat().replace("+00:00", "Z")
+
+
+def parse_utc(s: str) -> dt.datetime:
+    t = dt.datetime.fromisoformat(s.replace("Z", "+00:00"))
+    if t.tzinfo is None:
+        raise ValueError(f"{s!r} has no UTC offset")
+    return t.astimezone(dt.UTC)
+
+
+def to_dict(obj):
+    """A dataclass (or a value inside one) as plain JSON-ready values."""
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {f.name: to_dict(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
+    if isinstance(obj, enum.Enum):
+        return obj.value
+    if isinstance(obj, dt.datetime):
+        return iso_utc(obj)
+    if isinstance(obj, dt.date):
+        return obj.isoformat()
+    if isinstance(obj, float):
+        return None if not math.isfinite(obj) else obj
+    if isinstance(obj, (list, tuple)):
+        return [to_dict(x) for x in obj]
+    if isinstance(obj, dict):
+        return {str(k): to_dict(v) for k, v in obj.items()}
+    return obj
+
+
+@cache
+def _hints(cls) -> dict:
+    return typing.get_type_hints(cls)
+
+
+def from_dict(cls, doc: dict, where: str = ""):
+    """The dataclass `cls` from `to_dict`'s output. Unknown keys are ignored; missing keys take
+    the field's default (a missing required field raises ValueError)."""
+    if not isinstance(doc, dict):
+        raise ValueError(f"{where or cls.__name__}: expected an object, got {type(doc).__name__}")
+    hints = _hints(cls)
+    kw = {}
+    for f in dataclasses.fields(cls):
+        if f.name not in doc:
+            if f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING:
+                raise ValueError(f"{where}{f.name}: missing")
+            continue
+        kw[f.name] = _decode(hints[f.name], doc[f.name], f"{where}{f.name}.")
+    return cls(**kw)
+
+
+def _decode(tp, value, where: str):
+    origin = typing.get_origin(tp)
+    if origin in (typing.Union, types.UnionType):
+        args = [a for a in typing.get_args(tp) if a is not type(None)]
+        if value is None:
+            return None
+        if len(args) == 1:
+            return _decode(args[0], value, where)
+        for a in args:  # e.g. float | str: the first that fits
+            try:
+                return _decode(a, value, where)
+            except (TypeError, ValueError):
+                continue
+        raise ValueError(f"{where.rstrip('.')}: {value!r} fits none of {tp}")
+    if origin is tuple:
+        args = typing.get_args(tp)
+        inner = args[0] if args else typing.Any
+        return tuple(_decode(inner, v, f"{where}{i}.") for i, v in enumerate(value or ()))
+    if origin is dict:
+        _k, v_tp = typing.get_args(tp) or (str, typing.Any)
+        return {k: _decode(v_tp, v, f"{where}{k}.") for k, v in (value or {}).items()}
+    if tp is typing.Any:
+        return value
+    if isinstance(tp, type):
+        if dataclasses.is_dataclass(tp):
+            return from_dict(tp, value, where)
+        if issubclass(tp, enum.Enum):
+            return tp(value)
+        if tp is dt.datetime:
+            return None if value is None else parse_utc(value)
+        if tp is dt.date:
+            return dt.date.fromisoformat(value)
+        if tp is float:
+            return math.nan if value is None else float(value)
+        if tp is bool:
+            if not isinstance(value, bool):
+                raise ValueError(f"{where.rstrip('.')}: {value!r} is not true or false")
+            return value
+        if tp in (int, str):
+            return tp(value)
+    return value

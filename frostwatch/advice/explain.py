@@ -1,0 +1,184 @@
+"""Why the advice says what it says, rendered from the plan: the reasons, the verdict line on the
+block's method (one line saying why when it is not advised), the night's resources (only for an
+advised method) and the stop rule. Part of the rendering, with `frostwatch.advice.render`.
+"""
+
+from __future__ import annotations
+
+from frostwatch.advice.plan import AdvicePlan, Method, MethodVerdict, Risk, WhyNot
+from frostwatch.advice.render import METHOD_NAME, risk_reason
+from frostwatch.display import Display
+
+_REGIME = {
+    "windy": "windy night: the radiation model does not hold; the projection leans on the observed trend",
+    "cloudy": "cloudy night: the radiation model does not hold; the projection leans on the observed trend",
+}
+
+
+def why_not(v: MethodVerdict, d: Display) -> str:
+    """The one reason a method is not advised tonight."""
+    w = v.why_not
+    f, s = v.fans, v.sprinklers
+    if w is WhyNot.NO_PROTECTION:
+        return "no protection is configured for this block"
+    if w is WhyNot.SUPERCOOLED_FOG:
+        return "supercooled fog: ice on one blade can break it off; do not run fans in fog (FAO-FP p. 160)"
+    if w is WhyNot.TOO_WINDY_FOR_FANS and f is not None:
+        return (f"too windy for fans: {f.wind_speed_m_s:.1f} m/s is above {f.wind_limit_m_s:g} m/s, so there is no "
+                "inversion to draw on and the blades can be damaged (FAO-FP p. 160)")
+    if w is WhyNot.INVERSION_UNKNOWN:
+        return "inversion unknown (no healthy tower sensor): frostwatch cannot tell whether fans will help"
+    if w is WhyNot.INVERSION_WEAK and f is not None:
+        which = "projected" if f.inversion_projected else "measured"
+        return (f"inversion {f.inversion_class} ({which} {d.delta(f.inversion_c)} between crop height and the tower); "
+                f"fans need about {d.delta(f.min_useful_inversion_c)}-{d.delta(2.0)} or more (common practice)")
+    if w is WhyNot.TOO_WINDY_FOR_SPRINKLERS and s is not None:
+        return (f"wind {s.wind_speed_m_s:.1f} m/s is above about {s.wind_limit_m_s:g} m/s: over-tree sprinkling "
+                "does not protect in that wind")
+    if w is WhyNot.BEYOND_TABLE:
+        return ("tonight is colder or windier than any cell of the application-rate table: over-tree sprinkling is "
+                "unlikely to protect")
+    if w is WhyNot.RATE_SHORT and s is not None:
+        if s.required_mm_h is None:
+            return (f"even in calm air tonight needs at least {s.calm_air_mm_h:.1f} mm/h but the system delivers "
+                    f"{s.capacity_mm_h:g} mm/h")
+        return f"tonight needs about {s.required_mm_h:.1f} mm/h but the system delivers {s.capacity_mm_h:g} mm/h"
+    if w is WhyNot.LINES_MAY_FREEZE and s is not None:
+        return f"the system's {s.capacity_mm_h:g} mm/h is below {s.min_mm_h:g} mm/h: the lines may freeze"
+    return str(w)
+
+
+def verdict_line(plan: AdvicePlan, d: Display) -> str | None:
+    """'Wind machines: not advised tonight: too windy ...' (None when the method is advised)."""
+    v = plan.verdict
+    if v is None or v.advised:
+        return None
+    if v.method is Method.NONE:
+        return "No protection is configured for this block."
+    return f"{METHOD_NAME[v.method].capitalize()}: not advised tonight: {why_not(v, d)}."
+
+
+def fan_facts(v: MethodVerdict, d: Display) -> list[str]:
+    """The facts behind an advised fan verdict: the wind, the inversion, the warming expected."""
+    f = v.fans
+    out = []
+    if f.wind_speed_m_s is None:
+        out.append(f"wind unknown (no wind reading): fans help only below {f.wind_limit_m_s:g} m/s; check the wind first")
+    which = "projected" if f.inversion_projected else "measured"
+    out.append(f"inversion {f.inversion_class}: {which} {d.delta(f.inversion_c)} between crop height and the tower")
+    out.append(f"expected warming at crop height about {d.delta(f.gain_c)} ({d.delta(f.gain_low_c)}-{d.delta(f.gain_high_c)}: "
+               "30-50 % of the inversion, an engineering assumption from memory, not a published rule); it falls off "
+               "with distance from the tower")
+    if f.shortfall_c is not None:
+        out.append(f"the projected minimum is {d.delta(f.shortfall_c)} below T10, more than fans are expected to give")
+    return out
+
+
+def _sprinkler_facts(plan: AdvicePlan, v: MethodVerdict, d: Display) -> list[str]:
+    s = v.sprinklers
+    out = []
+    if s.dew_point_c is None:
+        out.append("no humidity reading: the sprinkler temperature cannot be computed from the wet bulb; have them "
+                   "running earlier than the air temperature alone suggests")
+    elif s.start_air_temp_c is not None:
+        out.append(f"at dew point {d.temp(s.dew_point_c)} the wet bulb reaches T10 + margin {d.temp(plan.line_c)} when "
+                   f"the air is {d.temp(s.start_air_temp_c)} (FAO-FP Table 7.5 method, ASHRAE psychrometrics)")
+    else:
+        out.append(f"the dew point {d.temp(s.dew_point_c)} is above T10 + margin: the air temperature itself governs")
+    if s.undertree:
+        out.append(f"under-tree sprinklers: about {s.target_low_mm_h:g}-{s.target_high_mm_h:g} mm/h is the usual target, "
+                   f"at least {s.min_mm_h:g} mm/h so the lines do not freeze (Connell & Snyder, UCCE); they warm the air "
+                   f"by about {d.delta(0.6)}-{d.delta(1.4)} near the ground (Parsons 2015), most under an inversion")
+    elif s.required_mm_h is None and s.calm_air_mm_h is not None:
+        out.append(f"wind unknown (no wind reading): even in calm air tonight needs at least {s.calm_air_mm_h:.1f} mm/h "
+                   "(more in any wind)")
+        if s.capacity_mm_h is not None:
+            out.append(f"the system's {s.capacity_mm_h:g} mm/h is enough only if the air stays calm; check the wind")
+    elif s.required_mm_h is not None:
+        table = (f"{s.table_mm_h:.1f} mm/h ({s.table_note})" if s.table_mm_h is not None else f"no cell ({s.table_note})")
+        budget = f"heat budget {s.heat_budget_mm_h:.1f} mm/h, a lower bound; " if s.heat_budget_mm_h is not None else ""
+        wind = f" and {s.wind_speed_m_s:.1f} m/s" if s.wind_speed_m_s is not None else ""
+        out.append(f"tonight needs about {s.required_mm_h:.1f} mm/h at {d.temp(plan.predicted_min_c)}{wind} "
+                   f"({s.governed_by} governs: {budget}table {table})")
+    return out
+
+
+def _heater_facts(v: MethodVerdict, d: Display) -> list[str]:
+    h = v.heaters
+    if h.inversion_c is None:
+        return []
+    if h.inversion_c >= h.min_useful_inversion_c:
+        return [f"inversion {d.delta(h.inversion_c)}: heaters work best under a low inversion; many small fires hold the "
+                "heat better than a few big ones (FAO-FP p. 147)"]
+    return [f"weak inversion ({d.delta(h.inversion_c)}): much of the heaters' heat will rise away (FAO-FP p. 147)"]
+
+
+def reasons(plan: AdvicePlan, d: Display) -> list[str]:
+    """The reasons behind the plan: the risk, the night's regime, and the facts on an advised method.
+
+    A method not advised gets no facts here: its one line is `verdict_line`.
+    """
+    out = [risk_reason(plan, d)]
+    if plan.risk in (Risk.UNKNOWN, Risk.MORNING):
+        return out
+    if plan.regime in _REGIME:
+        out.append(_REGIME[plan.regime])
+    v = plan.verdict
+    if v is None or not v.advised:
+        if plan.wind_speed_m_s is None:
+            out.append("wind unknown: no recent wind reading")
+        return out
+    if v.fans is not None:
+        out += fan_facts(v, d)
+    elif v.sprinklers is not None:
+        if plan.wind_speed_m_s is None and v.sprinklers.undertree:
+            out.append("wind unknown: no recent wind reading")
+        out += _sprinkler_facts(plan, v, d)
+    elif v.heaters is not None:
+        if plan.wind_speed_m_s is None:
+            out.append("wind unknown: no recent wind reading")
+        out += _heater_facts(v, d)
+    return out
+
+
+def resources_line(plan: AdvicePlan, d: Display) -> str | None:
+    """The night's running hours and water, fuel or energy for an advised method (else None)."""
+    v = plan.verdict
+    if v is None or not v.advised or v.resources is None or not plan.active:
+        return None
+    r = v.resources
+    parts = [f"running about {r.hours:.1f} h (to {r.stop_after_sunrise_h:g} h after sunrise, an estimate; the stop "
+             "rule decides)"]
+    if v.method.is_sprinkler:
+        if r.water_m3 is None:
+            parts.append("set application_rate_mm_h and area_ha for the block to see the night's water")
+        else:
+            parts.append(f"water about {r.water_m3:,.0f} m3 at {r.rate_mm_h:g} mm/h on {r.area_ha:g} ha, peak flow "
+                         f"{r.peak_flow_l_s:.1f} L/s")
+            if r.fed_area_ha is not None:
+                parts.append(f"the supply ({r.supply_l_s:g} L/s) feeds only {r.fed_area_ha:.1f} ha at the full rate: "
+                             "sprinkle only that part")
+    elif r.fuel_l is not None:
+        parts.append(f"fuel about {r.fuel_l:,.0f} L at {r.fuel_l_per_h:g} L/h")
+    elif r.energy_kwh is not None:
+        parts.append(f"energy about {r.energy_kwh:,.0f} kWh ({r.machines} machine(s) at about {r.machine_kw:g} kW each, "
+                     "FAO-FP p. 28; set fuel_l_per_h for a fuel figure)")
+    else:
+        parts.append("set fuel_l_per_h for the block to see the night's fuel")
+    return f"{METHOD_NAME[v.method].capitalize()}: " + "; ".join(parts) + "."
+
+
+def stop_rule(plan: AdvicePlan, d: Display) -> str | None:
+    """When the advised method may stop (said with the advice to run it)."""
+    v = plan.verdict
+    if v is None or not v.advised or not plan.active:
+        return None
+    if v.method.is_sprinkler:
+        at = ""
+        if v.sprinklers is not None and v.sprinklers.stop_air_temp_c is not None:
+            at = f" (at tonight's dew point the air is then above {d.temp(v.sprinklers.stop_air_temp_c)})"
+        return (f"stop the sprinklers only after sunrise, once the wet bulb is above T10 {d.temp(plan.t10_c)}{at} and "
+                "rising and the ice is melting (water running between ice and twig); never while the wet bulb is at or "
+                "below T10")
+    return (f"stop the {METHOD_NAME[v.method]} after sunrise once crop-height air is above T10 + margin "
+            f"{d.temp(plan.line_c)} and rising")

@@ -1,0 +1,272 @@
+"""The advice plan: what frostwatch advises for one block at one evaluation, as typed values.
+
+Everything a screen or a message says about the advice is rendered from an `AdvicePlan` by
+`frostwatch.advice.render`; nothing branches on English wording. The plan is stored with each
+evaluation's decision as versioned JSON (`frostwatch.advice.codec`), so the status page, the
+`status` command, the alerts and the morning report all show the same plan.
+
+Enumerations are `StrEnum`s: their values are the stable words stored and shown in JSON.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+from enum import StrEnum
+
+PLAN_VERSION = 1  # bump when a field changes meaning; readers refuse versions they do not know
+
+
+class Risk(StrEnum):
+    """How close the block's night comes to its critical temperature."""
+
+    UNKNOWN = "unknown"  # no healthy crop-height sensor: nothing can be judged
+    LOW = "low"  # the projected minimum stays above T10 + margin, band included
+    POSSIBLE = "possible"  # within the projection's band of T10 + margin
+    LIKELY = "likely"  # the projected minimum reaches T10 + margin
+    NOW = "now"  # crop-height air at or below T10 now
+    MORNING = "morning"  # after sunrise: the stop rules apply
+
+
+class Step(StrEnum):
+    """The one thing to do now."""
+
+    NOTHING = "nothing"  # nothing to do; frostwatch keeps watching
+    WATCH = "watch"  # frost is possible later tonight: nothing to do yet
+    GET_READY = "get-ready"  # be ready to protect by the ready-by time
+    START_NOW = "start-now"  # start protection now
+    KEEP_RUNNING = "keep-running"  # protection is running: keep it running
+    EASING = "easing"  # the projection has eased since the level was raised; keep on until the all-clear
+    AT_CRITICAL = "at-critical"  # at (or has reached) T10: protect now
+    NOT_HOLDING = "not-holding"  # at T10 with protection running: check it and add more
+    WAIT_TO_STOP = "wait-to-stop"  # morning: keep it running, the stop rule is not met
+    WATCH_TO_STOP = "watch-to-stop"  # morning: the stop rule looks met; watch the trend before stopping
+    SAFE_TO_STOP = "safe-to-stop"  # morning: protection may stop
+    NIGHT_OVER = "night-over"  # morning, nothing to stop: check the buds later
+    CHECK_SENSORS = "check-sensors"  # the block is not monitored: go and look
+
+
+class Trigger(StrEnum):
+    """The temperature that decides: wet bulb for sprinklers (when known), else the air."""
+
+    AIR = "air"
+    WET_BULB = "wet-bulb"
+
+
+class Method(StrEnum):
+    """A protection method, as the config's `protection` key names it."""
+
+    WIND_MACHINE = "wind_machine"
+    OVERTREE_SPRINKLER = "overtree_sprinkler"
+    UNDERTREE_SPRINKLER = "undertree_sprinkler"
+    HEATERS = "heaters"
+    NONE = "none"
+
+    @property
+    def is_sprinkler(self) -> bool:
+        return self in (Method.OVERTREE_SPRINKLER, Method.UNDERTREE_SPRINKLER)
+
+
+class WhyNot(StrEnum):
+    """The one reason a method is not advised tonight (the first that applies, in this order)."""
+
+    NO_PROTECTION = "no-protection"  # the block has no protection configured
+    SUPERCOOLED_FOG = "supercooled-fog"  # fans: ice on a blade can break it off (FAO-FP p. 160)
+    TOO_WINDY_FOR_FANS = "too-windy-for-fans"  # fans: wind above the limit, no inversion to draw on
+    INVERSION_UNKNOWN = "inversion-unknown"  # fans: no healthy tower sensor
+    INVERSION_WEAK = "inversion-weak"  # fans: too little warmer air aloft
+    TOO_WINDY_FOR_SPRINKLERS = "too-windy-for-sprinklers"  # over-tree: wind above about 4.5 m/s
+    BEYOND_TABLE = "beyond-table"  # over-tree: colder or windier than any cell of the rate table
+    RATE_SHORT = "rate-short"  # over-tree: tonight needs more water than the system delivers
+    LINES_MAY_FREEZE = "lines-may-freeze"  # under-tree: rate below the minimum that keeps lines open
+
+
+class Condition(StrEnum):
+    """A condition the advice to run a method depends on (said with the action)."""
+
+    WIND_BELOW_FAN_LIMIT = "wind-below-fan-limit"  # the wind is unknown: fans only in light wind
+    NO_FOG = "no-fog"  # fog is possible: never run fans in supercooled fog
+    CALM_AIR = "calm-air"  # sprinklers: the rate is enough only if the air stays calm (wind unknown)
+
+
+class Alternative(StrEnum):
+    """What else helps when the configured method will not do (or not alone)."""
+
+    ADVECTIVE = "advective"  # in wind little works well; protect what you can, ask your adviser
+    FOG_HEATERS_OR_SPRINKLERS = "fog-heaters-or-sprinklers"
+    HEATERS_WITH_FANS = "heaters-with-fans"  # weak inversion: heaters with fans, or sprinklers
+    ADD_HEATERS = "add-heaters"  # fans help but not enough: add heaters or sprinklers
+    SPRINKLERS_ASK_ADVISER = "sprinklers-ask-adviser"  # too little water may do harm
+    COVERS_OR_MOIST_SOIL = "covers-or-moist-soil"  # no protection configured
+
+
+class Caution(StrEnum):
+    """A caution that travels with the advice."""
+
+    GROWER_DECIDES = "grower-decides"
+    CHECK_THERMOMETERS = "check-thermometers"
+    LOCAL_RULES = "local-rules"
+    FAN_SAFETY = "fan-safety"
+    SPRINKLER_SAFETY = "sprinkler-safety"
+    HEATER_SAFETY = "heater-safety"
+    FOG_LOOK = "fog-look"  # fog is possible: look before starting fans
+    WET_BULB_AT_T10 = "wet-bulb-at-t10"  # sprinklers started now cool the buds towards the wet bulb
+    SUPPLY_SHORT = "supply-short"  # the water supply feeds only part of the block at the full rate
+    RATE_UNVERIFIED = "rate-unverified"  # the table (from memory) asks for more than the system gives
+
+
+BASE_CAUTIONS = (Caution.GROWER_DECIDES, Caution.CHECK_THERMOMETERS, Caution.LOCAL_RULES)
+
+
+# ---- per-method figures ------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class FanFigures:
+    """Wind machines: the inversion they draw on and the warming expected at crop height."""
+
+    inversion_c: float | None
+    inversion_projected: bool  # True: the projected inversion; False: the measured one
+    inversion_class: str | None
+    wind_speed_m_s: float | None
+    wind_limit_m_s: float
+    min_useful_inversion_c: float
+    gain_c: float
+    gain_low_c: float
+    gain_high_c: float
+    sufficient: bool
+    shortfall_c: float | None  # T10 minus the projected minimum, beyond what fans give
+
+
+@dataclass(frozen=True)
+class SprinklerFigures:
+    """Sprinklers: start and stop air temperatures and the rate tonight needs."""
+
+    undertree: bool
+    dew_point_c: float | None
+    start_air_temp_c: float | None  # the wet bulb reaches T10 + margin at this air temperature
+    stop_air_temp_c: float | None  # the wet bulb is at T10 at this air temperature
+    wind_speed_m_s: float | None
+    wind_limit_m_s: float
+    required_mm_h: float | None  # None where the wind is unknown (calm_air_mm_h is then the floor)
+    calm_air_mm_h: float | None
+    heat_budget_mm_h: float | None
+    table_mm_h: float | None
+    table_note: str | None
+    governed_by: str | None  # "heat budget" or "table"
+    beyond_table: bool
+    net_loss_w_m2: float | None
+    capacity_mm_h: float | None
+    target_low_mm_h: float | None = None  # under-tree: the usual target range
+    target_high_mm_h: float | None = None
+    min_mm_h: float | None = None  # under-tree: below this the lines may freeze
+
+
+@dataclass(frozen=True)
+class HeaterFigures:
+    """Heaters: the inversion that holds their heat."""
+
+    inversion_c: float | None
+    min_useful_inversion_c: float
+
+
+@dataclass(frozen=True)
+class Resources:
+    """The night's estimated running hours, water, fuel or energy (only for an advised method)."""
+
+    hours: float
+    stop_after_sunrise_h: float
+    rate_mm_h: float | None = None
+    area_ha: float | None = None
+    water_m3: float | None = None
+    peak_flow_l_s: float | None = None
+    supply_l_s: float | None = None
+    fed_area_ha: float | None = None  # the supply runs only this much of the block at the full rate
+    fuel_l: float | None = None
+    fuel_l_per_h: float | None = None
+    energy_kwh: float | None = None
+    machines: int | None = None
+    machine_kw: float | None = None
+
+
+@dataclass(frozen=True)
+class MethodVerdict:
+    """Whether a method is advised tonight; if not, the one typed reason why not."""
+
+    method: Method
+    advised: bool
+    why_not: WhyNot | None = None
+    conditions: tuple[Condition, ...] = ()
+    alternatives: tuple[Alternative, ...] = ()
+    fans: FanFigures | None = None
+    sprinklers: SprinklerFigures | None = None
+    heaters: HeaterFigures | None = None
+    resources: Resources | None = None  # only when advised and protection may be needed
+
+
+@dataclass(frozen=True)
+class StopCheck:
+    """The morning stop rule: the trigger temperature against its limit, and its trend."""
+
+    trigger: Trigger
+    now_c: float | None
+    limit_c: float  # sprinklers: T10 (the wet bulb must be above it); others: T10 + margin
+    trend_c_per_h: float | None
+    stop_ok: bool | None  # None: looks met, but no recent trend to confirm it
+    stop_air_temp_c: float | None = None  # sprinklers: the air temperature where the wet bulb is at T10
+
+
+# ---- the plan ------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class AdvicePlan:
+    """What frostwatch advises for one block at one instant.
+
+    `step` is what the advice rules want now; the alert level (which holds for the night and
+    needs persistence) may lag it, so screens show `frostwatch.alerts.levels.step_for_level`.
+    `line_c` is T10 + margin, the line the trigger temperature must not reach unprotected;
+    `ready_by_utc` is the projected crossing of that line less the crew's mobilisation time.
+    """
+
+    block: str
+    time_utc: dt.datetime
+    method: Method
+    risk: Risk
+    step: Step
+    trigger: Trigger
+    t10_c: float
+    t90_c: float
+    margin_c: float
+    mobilisation_min: float
+    line_c: float
+    trigger_now_c: float | None
+    air_temp_c: float | None
+    predicted_min_c: float | None
+    predicted_min_at_utc: dt.datetime | None
+    band_c: float | None
+    crossing_utc: dt.datetime | None
+    ready_by_utc: dt.datetime | None
+    protection_running: bool | None
+    regime: str | None
+    wind_speed_m_s: float | None
+    verdicts: tuple[MethodVerdict, ...] = ()
+    stop: StopCheck | None = None
+    cautions: tuple[Caution, ...] = BASE_CAUTIONS
+    version: int = PLAN_VERSION
+
+    @property
+    def verdict(self) -> MethodVerdict | None:
+        """The verdict on the block's configured method (None when nothing could be judged)."""
+        return self.verdicts[0] if self.verdicts else None
+
+    @property
+    def advised(self) -> bool:
+        """True when the configured method is advised tonight."""
+        v = self.verdict
+        return v is not None and v.advised
+
+    @property
+    def active(self) -> bool:
+        """True when protection may be needed tonight (risk possible, likely or now)."""
+        return self.risk in (Risk.POSSIBLE, Risk.LIKELY, Risk.NOW)

@@ -1,0 +1,348 @@
+"""The one place advice becomes words: headline, action, reasons and cautions, from an `AdvicePlan`.
+
+Every screen (alerts, the status page, `frostwatch status`, the morning report, replay and demo
+output) calls these functions, so a level's headline and its action come from the same step and
+cannot disagree. Rules of the wording:
+
+- a standby ("get ready") text never says "start"; only the act and critical texts do;
+- a method that is not advised tonight gets one line saying why, and no resource estimate;
+- a missing number is left out of a sentence, never printed as "n/a".
+
+Temperatures and times go through `Display` (the site's unit and time zone).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from enum import StrEnum
+
+from frostwatch.advice.plan import (
+    AdvicePlan,
+    Alternative,
+    Caution,
+    Condition,
+    Method,
+    MethodVerdict,
+    Risk,
+    Step,
+    Trigger,
+    WhyNot,
+)
+from frostwatch.display import Display
+
+
+class Notice(StrEnum):
+    """What a message announces (the same level can be announced for different reasons)."""
+
+    STATE = "state"  # a screen showing the block's current state (page, status, report)
+    LEVEL = "level"  # a new level was reached
+    OUTLOOK = "outlook"  # the dusk outlook
+    RESOLVED = "resolved"  # the projection is back above the line
+    NIGHT_OVER = "night-over"  # morning, a block with no protection: the night is over
+    UPDATE = "update"  # the ready-by time moved earlier
+    MONITORED_AGAIN = "monitored-again"  # the block's sensor is reporting again
+
+
+METHOD_NAME = {
+    Method.WIND_MACHINE: "wind machines",
+    Method.OVERTREE_SPRINKLER: "over-tree sprinklers",
+    Method.UNDERTREE_SPRINKLER: "under-tree sprinklers",
+    Method.HEATERS: "heaters",
+    Method.NONE: "protection",
+}
+START = {
+    Method.WIND_MACHINE: "start the wind machines",
+    Method.OVERTREE_SPRINKLER: "start the over-tree sprinklers",
+    Method.UNDERTREE_SPRINKLER: "start the under-tree sprinklers",
+    Method.HEATERS: "light the heaters",
+}
+LEVEL_WORD = {
+    "critical": "CRITICAL", "act": "ACT", "standby": "STANDBY", "frost-possible": "FROST POSSIBLE",
+    "safe-to-stop": "SAFE TO STOP", "all-clear": "ALL CLEAR", "unmonitored": "NOT MONITORED",
+}
+TRIGGER_WORD = {Trigger.AIR: "air", Trigger.WET_BULB: "wet-bulb"}
+CAUTION_TEXT = {
+    Caution.GROWER_DECIDES: "frostwatch advises; the grower decides.",
+    Caution.CHECK_THERMOMETERS: "Check with your own calibrated thermometers at bud height before acting.",
+    Caution.LOCAL_RULES: "Local agronomic advice, codes and water rights prevail.",
+    Caution.FAN_SAFETY: "Keep clear of wind machines when starting them.",
+    Caution.SPRINKLER_SAFETY: "Ice-loaded trees and wet ground are hazards under sprinklers.",
+    Caution.HEATER_SAFETY: "Heaters are a fire hazard: keep fuel and people clear and follow local burning rules.",
+    Caution.SUPPLY_SHORT: "The water supply cannot run the whole block at the full rate: sprinkle only the part it "
+                          "can feed, never the whole block at a lower rate.",
+}
+# the cautions of every report and calculator output (all methods)
+GENERAL_CAUTIONS = tuple(CAUTION_TEXT[c] for c in (
+    Caution.GROWER_DECIDES, Caution.CHECK_THERMOMETERS, Caution.LOCAL_RULES, Caution.FAN_SAFETY,
+    Caution.SPRINKLER_SAFETY, Caution.HEATER_SAFETY))
+ALTERNATIVE_TEXT = {
+    Alternative.ADVECTIVE: "in wind (an advective frost) little works well: heaters lose their heat downwind, over-tree "
+                           "sprinklers need far more water (and none above about 4.5 m/s); protect what you can and "
+                           "ask your adviser",
+    Alternative.FOG_HEATERS_OR_SPRINKLERS: "in fog use heaters or sprinklers, not fans",
+    Alternative.HEATERS_WITH_FANS: "with a weak inversion, heaters together with the fans (the fans spread the heat) or "
+                                   "sprinklers help more",
+    Alternative.ADD_HEATERS: "add heaters to the fans (they combine well, common practice) or use sprinklers where you "
+                             "have them",
+    Alternative.SPRINKLERS_ASK_ADVISER: "too little water for the conditions leaves the buds near the wet bulb, colder "
+                                        "than dry buds: consult your adviser before relying on the sprinklers",
+    Alternative.COVERS_OR_MOIST_SOIL: "covers for small plantings, or irrigating dry ground in the afternoon (moist soil "
+                                      "stores and gives back more heat, FAO-FP) help a little",
+}
+
+
+def method_name(method: Method) -> str:
+    return METHOD_NAME[method]
+
+
+def _t(d: Display, t: dt.datetime | None) -> str:
+    return d.time(t)
+
+
+def _conditions(v: MethodVerdict | None) -> str:
+    if v is None or not v.conditions:
+        return ""
+    words = []
+    for c in v.conditions:
+        if c is Condition.WIND_BELOW_FAN_LIMIT:
+            words.append(f"the wind is below {v.fans.wind_limit_m_s:g} m/s" if v.fans else "the wind is light")
+        elif c is Condition.NO_FOG:
+            words.append("there is no fog")
+        elif c is Condition.CALM_AIR:
+            words.append("the air stays calm")
+    return " if " + " and ".join(words)
+
+
+def _reach(plan: AdvicePlan, d: Display) -> str:
+    """'the air temperature is projected to reach -0.2 °C at 23:11' (or the nearest true thing)."""
+    what = f"the {TRIGGER_WORD[plan.trigger]} temperature"
+    if plan.crossing_utc is not None:
+        return f"{what} is projected to reach {d.temp(plan.line_c)} at {_t(d, plan.crossing_utc)}"
+    if plan.risk in (Risk.LIKELY, Risk.NOW):
+        return f"the projection reaches T10 + margin {d.temp(plan.line_c)}"
+    return f"{what} may reach {d.temp(plan.line_c)} if the projection worsens"
+
+
+def _short_reach(plan: AdvicePlan, d: Display) -> str:
+    """The headline's form: 'air projected to reach -0.2 °C (T10 + margin) at 05:20'."""
+    if plan.crossing_utc is None:
+        return f"T10 + margin {d.temp(plan.line_c)} within reach"
+    return f"{TRIGGER_WORD[plan.trigger]} projected to reach {d.temp(plan.line_c)} (T10 + margin) at {_t(d, plan.crossing_utc)}"
+
+
+def _at_t10(plan: AdvicePlan, d: Display) -> str:
+    air = plan.air_temp_c
+    if air is not None and air <= plan.t10_c:
+        return f"crop-height air {d.temp(air)} is at or below T10 {d.temp(plan.t10_c)}"
+    now = f" (now {d.temp(air)})" if air is not None else ""
+    return f"crop-height air reached T10 {d.temp(plan.t10_c)} tonight{now}"
+
+
+def _trend(d: Display, tr: float | None) -> str:
+    return "" if tr is None else f" ({'+' if tr >= 0 else ''}{d.delta(tr)} per hour)"
+
+
+def _sprinkler_start(plan: AdvicePlan, d: Display) -> str:
+    v = plan.verdict
+    if v is None or not v.advised or v.sprinklers is None or v.sprinklers.start_air_temp_c is None:
+        return ""
+    return f"; sprinklers must be running before the air cools to {d.temp(v.sprinklers.start_air_temp_c)}"
+
+
+def action(step: Step, plan: AdvicePlan, d: Display) -> str:
+    """What to do, as one sentence without a final full stop."""
+    m, v = plan.method, plan.verdict
+    name = METHOD_NAME[m]
+    advised = plan.advised
+    if step is Step.CHECK_SENSORS:
+        return "go and check the block and its sensors: frostwatch cannot see it"
+    if step is Step.NOTHING:
+        return "nothing to do now; frostwatch keeps watching"
+    if step is Step.WATCH:
+        return "nothing to do yet: frost is possible later tonight; frostwatch will say when to get ready"
+    if step is Step.EASING:
+        low = f" (minimum {d.temp(plan.predicted_min_c)}, above {d.temp(plan.line_c)})" if plan.predicted_min_c is not None else ""
+        return (f"the projection has eased{low}; keep protection going if it is running until frostwatch gives "
+                "the all-clear")
+    if step is Step.GET_READY:
+        if advised:
+            who = f"get the {name} ready"
+        elif m is Method.NONE:
+            who = "get ready to protect the block if you can"
+        else:
+            who = "get ready to protect the block by other means"
+        ahead = plan.ready_by_utc is not None and plan.ready_by_utc > plan.time_utc
+        if ahead:
+            text = (f"{who} by {_t(d, plan.ready_by_utc)}{_conditions(v) if advised else ''} "
+                    f"({plan.mobilisation_min:.0f} min before {_reach(plan, d)})")
+        else:
+            text = f"{who} now{_conditions(v) if advised else ''}: {_reach(plan, d)}"
+        if not advised and m is not Method.NONE:
+            text += f"; the {name} are not advised tonight"
+        return text + _sprinkler_start(plan, d)
+    if step is Step.START_NOW:
+        if advised:
+            return f"{START[m]} now{_conditions(v)}: {_reach(plan, d)}{_sprinkler_start(plan, d)}"
+        if m is Method.NONE:
+            return f"protect the block now if you can: {_reach(plan, d)}"
+        return f"protect the block by other means now: {_reach(plan, d)}; the {name} are not advised tonight"
+    if step is Step.AT_CRITICAL:
+        fact = _at_t10(plan, d)
+        if advised and m.is_sprinkler:
+            return f"{START[m]} now if they are not running, and keep them running without a break: {fact}"
+        if advised:
+            return f"{START[m]} now{_conditions(v)}: {fact}"
+        if m is Method.NONE:
+            return f"protect the block now if you can: {fact}"
+        return f"protect the block by other means now: {fact}; the {name} are not advised tonight"
+    if step is Step.NOT_HOLDING:
+        return (f"the {name} are running but the block is at its critical temperature: check that every machine or "
+                "line is really working, and add protection if you can")
+    if step is Step.KEEP_RUNNING:
+        if not advised and m.is_sprinkler:
+            return (f"keep the {name} running without a break (stopping them would cool the wet buds): {_reach(plan, d)}; "
+                    "they may not be enough tonight, see why")
+        if not advised:
+            return f"the {name} are running but are not advised tonight, see why: {_reach(plan, d)}"
+        return f"keep the {name} running: {_reach(plan, d)}"
+    s = plan.stop
+    if step is Step.NIGHT_OVER or m is Method.NONE:
+        air = f"crop-height air is {d.temp(plan.air_temp_c)}; " if plan.air_temp_c is not None else ""
+        return f"the night is over: {air}check the buds for damage later today"
+    now_c = None if s is None else s.now_c
+    trend = None if s is None else s.trend_c_per_h
+    if step is Step.SAFE_TO_STOP and now_c is None:
+        return f"the {name} may stop: the stop rule was met this morning"
+    if m.is_sprinkler:
+        t10 = d.temp(plan.t10_c)
+        if step is Step.SAFE_TO_STOP:
+            return (f"the sprinklers may stop once the ice is melting (water running between ice and twig): the wet bulb "
+                    f"{d.temp(now_c)} is above T10 {t10} and rising{_trend(d, trend)}")
+        if step is Step.WATCH_TO_STOP:
+            return (f"the wet bulb {d.temp(now_c)} is above T10 {t10}: the sprinklers may stop once it keeps rising (watch "
+                    "it for 15-30 min; frostwatch has no recent trend) and the ice is melting")
+        if now_c is None:
+            return ("keep the sprinklers running until the ice is melting and the air is well above T10: the wet bulb is "
+                    "unknown (no humidity reading)")
+        if now_c <= plan.t10_c:
+            return (f"keep the sprinklers running: the wet bulb {d.temp(now_c)} is not above T10 {t10}; stopping now "
+                    "would cool the wet buds towards it")
+        return f"keep the sprinklers running: the wet bulb {d.temp(now_c)} is above T10 but not rising{_trend(d, trend)}"
+    limit = d.temp(plan.line_c)
+    if step is Step.SAFE_TO_STOP:
+        return f"the {name} may stop: crop-height air {d.temp(now_c)} is above {limit} and rising{_trend(d, trend)}"
+    if step is Step.WATCH_TO_STOP:
+        return (f"the {name} may stop once crop-height air ({d.temp(now_c)}) keeps rising above {limit} (watch it for "
+                "15-30 min; frostwatch has no recent trend)")
+    if now_c is None or now_c <= plan.line_c:
+        now = f" (now {d.temp(now_c)})" if now_c is not None else ""
+        return f"keep the {name} running until crop-height air is above {limit} and rising{now}"
+    return f"keep the {name} running: crop-height air {d.temp(now_c)} is not rising{_trend(d, trend)}"
+
+
+def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display, notice: Notice = Notice.STATE,
+             previous_ready_by_utc: dt.datetime | None = None) -> str:
+    """The first line of a message (and a card's title): the level and the step, never at odds."""
+    b, m = block_id, plan.method
+    word = LEVEL_WORD.get(level, level.upper())
+    pmin = plan.predicted_min_c
+    if notice is Notice.OUTLOOK:
+        around = f" around {_t(d, plan.predicted_min_at_utc)}" if plan.predicted_min_at_utc else ""
+        if level == "frost-possible":
+            return f"{b}: frost possible tonight: minimum {d.temp(pmin)}{around} (T10 {d.temp(plan.t10_c)})"
+        return f"{b}: tonight's outlook is clear: minimum {d.temp(pmin)}{around}"
+    if notice is Notice.RESOLVED:
+        return f"{b}: resolved: the projection is back above T10 + margin (minimum {d.temp(pmin)})"
+    if notice is Notice.NIGHT_OVER:
+        return f"{b}: resolved: the night is over and the block is warming"
+    prefix = f"{b}: "
+    if notice is Notice.MONITORED_AGAIN:
+        prefix = f"{b}: monitored again; "
+    if notice is Notice.UPDATE:
+        was = f" (was {_t(d, previous_ready_by_utc)})" if previous_ready_by_utc else ""
+        return f"{b}: UPDATE: {word}: get ready by {_t(d, plan.ready_by_utc)}{was}; {_short_reach(plan, d)}"
+    if step is Step.CHECK_SENSORS:
+        return f"{prefix}{word}: go and check the block"
+    if step is Step.AT_CRITICAL:
+        return f"{prefix}{word}: protect now: {_at_t10(plan, d)}"
+    if step is Step.NOT_HOLDING:
+        return f"{prefix}{word}: protection is not holding: {_at_t10(plan, d)}"
+    if step is Step.START_NOW:
+        if plan.advised:
+            what = START[m]
+        elif m is Method.NONE:
+            what = "protect the block if you can"
+        else:
+            what = f"protect the block by other means ({METHOD_NAME[m]} not advised tonight)"
+        now = " NOW" if level == "act" else ""
+        return f"{prefix}{word}{now}: {what}; {_short_reach(plan, d)}"
+    if step is Step.GET_READY:
+        ahead = plan.ready_by_utc is not None and plan.ready_by_utc > plan.time_utc
+        by = f" by {_t(d, plan.ready_by_utc)}" if ahead else " now"
+        return f"{prefix}{word}: get ready{by}; {_short_reach(plan, d)}"
+    if step is Step.KEEP_RUNNING:
+        return f"{prefix}{word}: keep the {METHOD_NAME[m]} running; {_short_reach(plan, d)}"
+    if step is Step.EASING:
+        return f"{prefix}{word}: the projection has eased"
+    if step in (Step.SAFE_TO_STOP, Step.WATCH_TO_STOP) and level == "safe-to-stop":
+        return f"{prefix}{word}: the {METHOD_NAME[m]} may stop"
+    if step is Step.WAIT_TO_STOP:
+        return f"{prefix}{word}: keep the {METHOD_NAME[m]} running for now"
+    if step is Step.WATCH_TO_STOP:
+        return f"{prefix}{word}: watch the trend before stopping"
+    if step is Step.NIGHT_OVER:
+        return f"{prefix}{word}: the night is over"
+    if step is Step.WATCH:
+        return f"{prefix}{word}: frost possible later tonight; nothing to do yet"
+    low = f": minimum {d.temp(pmin)}" if pmin is not None else ""
+    return f"{prefix}{word}: nothing to do{low}"
+
+
+def risk_reason(plan: AdvicePlan, d: Display) -> str:
+    """Why the block stands where it stands (one clause)."""
+    pmin, line = plan.predicted_min_c, d.temp(plan.line_c)
+    if plan.risk is Risk.UNKNOWN or pmin is None:
+        return "no healthy crop-height sensor"
+    if plan.risk is Risk.MORNING:
+        at = f" at {_t(d, plan.predicted_min_at_utc)}" if plan.predicted_min_at_utc else ""
+        return f"after sunrise: tonight's minimum was {d.temp(pmin)}{at}"
+    if plan.risk is Risk.NOW:
+        return _at_t10(plan, d)
+    band = plan.band_c if plan.band_c is not None and plan.band_c == plan.band_c else None
+    if plan.risk is Risk.LIKELY:
+        pm = f" (+/- {d.delta(band)})" if band is not None else ""
+        return f"projected minimum {d.temp(pmin)}{pm} reaches T10 + margin {line}"
+    if plan.risk is Risk.POSSIBLE:
+        return f"projected minimum {d.temp(pmin)} is within its uncertainty ({d.delta(band)}) of T10 + margin {line}"
+    return f"projected minimum {d.temp(pmin)} stays above T10 + margin {line}"
+
+
+def cautions(plan: AdvicePlan, d: Display) -> list[str]:
+    """The cautions that travel with the plan, as sentences."""
+    out = []
+    for c in plan.cautions:
+        if c is Caution.FOG_LOOK:
+            out.append("The air is near its dew point below freezing: fog is possible; look before running fans, and "
+                       "never run them in supercooled fog (FAO-FP p. 160).")
+        elif c is Caution.RATE_UNVERIFIED and plan.verdict is not None and plan.verdict.sprinklers is not None:
+            sp = plan.verdict.sprinklers
+            want = sp.required_mm_h if sp.required_mm_h is not None else sp.calm_air_mm_h
+            out.append(f"The application-rate table (typed from memory, not verified) asks for about {want:.1f} mm/h, "
+                       f"more than the system's {sp.capacity_mm_h:g} mm/h: check the rate with your adviser before "
+                       "relying on the sprinklers.")
+        elif c is Caution.WET_BULB_AT_T10:
+            out.append(f"The wet bulb ({d.temp(plan.trigger_now_c)}) is already at or below T10: sprinklers turned on "
+                       "now cool the buds towards it until ice forms; weigh this with your adviser.")
+        else:
+            out.append(CAUTION_TEXT[c])
+    return out
+
+
+def alternatives(v: MethodVerdict | None) -> list[str]:
+    return [] if v is None else [ALTERNATIVE_TEXT[a] for a in v.alternatives]
+
+
+__all__ = [
+    "Notice", "METHOD_NAME", "LEVEL_WORD", "GENERAL_CAUTIONS", "action", "headline", "risk_reason", "cautions", "alternatives",
+    "method_name", "WhyNot",
+]

@@ -1,0 +1,110 @@
+"""Sprinklers tonight (pure): start and stop air temperatures, the rate tonight needs, and whether
+the block's system can deliver it.
+
+Sprinklers must be running before the wet bulb reaches T10 + margin (FAO-FP 2005 Table 7.5 method
+with ASHRAE psychrometrics); over-tree sprinkling needs the rate tonight's heat budget asks for
+(the larger of the heat budget and the application-rate table, `physics.sprinklers.rate_tonight_mm_h`)
+and is not advised above about 4.5 m/s of wind; too little water can leave the buds colder than
+dry buds, so a system short of the heat budget's rate (a published lower bound) is not advised
+(consult an adviser); a system short only of the table's rate (typed from memory) stays advised with
+a caution, since no verdict may rest on a value from memory. Under-tree systems
+run at 1.7-2.2 mm/h, at least 0.84 mm/h so the lines do not freeze (Connell & Snyder, UCCE).
+"""
+
+from __future__ import annotations
+
+import math
+
+from frostwatch.advice.plan import Alternative, Condition, Method, MethodVerdict, SprinklerFigures, WhyNot
+from frostwatch.config import Block
+from frostwatch.models import Projection
+from frostwatch.physics import sprinklers
+
+# Under-tree sprinklers (Connell & Snyder, UCCE almonds): target 1.7-2.2 mm/h, at least 0.84 mm/h
+# so the lines do not freeze; warming 0.6-1.4 C at 1.2 m (Parsons 2015).
+UNDERTREE_TARGET_MM_H = (1.7, 2.2)
+UNDERTREE_MIN_MM_H = 0.84
+# Without a humidity reading the rate estimate assumes this dew-point depression below the minimum.
+ASSUMED_DEPRESSION_C = 6.0
+
+
+def _finite(v: float | None) -> float | None:
+    return None if v is None or not math.isfinite(v) else float(v)
+
+
+def start_stop_air_temps_c(dew_point_c: float | None, block: Block, pressure_hpa: float) -> tuple[float | None, float | None]:
+    """(start, stop) air temperatures [degC]: the wet bulb is at T10 + margin, and at T10.
+
+    References
+    ----------
+    FAO Frost Protection (2005) Table 7.5 method; ASHRAE Handbook Fundamentals psychrometrics
+    (`frostwatch.physics.sprinklers.sprinkler_start_air_temp_c`).
+    """
+    if dew_point_c is None:
+        return None, None
+    t10 = block.kill_10pct_c
+    s = float(sprinklers.sprinkler_start_air_temp_c(dew_point_c, t10, margin_c=block.margin_c, pressure_hpa=pressure_hpa))
+    e = float(sprinklers.sprinkler_start_air_temp_c(dew_point_c, t10, margin_c=0.0, pressure_hpa=pressure_hpa))
+    return _finite(s), _finite(e)
+
+
+def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> MethodVerdict:
+    """The verdict on the block's sprinklers for the night `p` projects.
+
+    Returns
+    -------
+    MethodVerdict
+        Not advised (with one reason: too windy, beyond the table, rate short, lines may freeze)
+        or advised, with the start/stop temperatures and the rate figures.
+    """
+    method = Method(block.protection)
+    start_air, stop_air = start_stop_air_temps_c(p.dew_point_c, block, pressure_hpa)
+    wind = p.wind_speed_m_s
+    cap = block.application_rate_mm_h
+    common = dict(dew_point_c=p.dew_point_c, start_air_temp_c=start_air, stop_air_temp_c=stop_air,
+                  wind_speed_m_s=wind, wind_limit_m_s=sprinklers.MAX_WIND_FOR_SPRINKLING_M_S, capacity_mm_h=cap)
+    if method is Method.UNDERTREE_SPRINKLER:
+        lo, hi = UNDERTREE_TARGET_MM_H
+        fig = SprinklerFigures(undertree=True, required_mm_h=lo, calm_air_mm_h=None, heat_budget_mm_h=None,
+                               table_mm_h=None, table_note=None, governed_by=None, beyond_table=False,
+                               net_loss_w_m2=None, target_low_mm_h=lo, target_high_mm_h=hi,
+                               min_mm_h=UNDERTREE_MIN_MM_H, **common)
+        short = cap is not None and cap < UNDERTREE_MIN_MM_H
+        return MethodVerdict(method=method, advised=not short, why_not=WhyNot.LINES_MAY_FREEZE if short else None,
+                             alternatives=(Alternative.SPRINKLERS_ASK_ADVISER,) if short else (), sprinklers=fig)
+    pmin = p.predicted_min_c
+    td = p.dew_point_c if p.dew_point_c is not None else pmin - ASSUMED_DEPRESSION_C
+    if wind is None:
+        # the wind is never taken as calm: the calm-air figure is a floor, and the advice is conditional
+        r = sprinklers.rate_tonight_mm_h(pmin, td, 0.0)
+        fig = SprinklerFigures(undertree=False, required_mm_h=None, calm_air_mm_h=_finite(r.required_mm_h),
+                               heat_budget_mm_h=_finite(r.heat_budget_mm_h), table_mm_h=None, table_note=None,
+                               governed_by=r.governed_by, beyond_table=False, net_loss_w_m2=_finite(r.net_loss_w_m2),
+                               **common)
+        # not advised only when short of the heat budget (the published lower bound); short of the
+        # table alone (from memory) is a caution, never the verdict
+        short = cap is not None and cap < r.heat_budget_mm_h
+        return MethodVerdict(
+            method=method, advised=not short, why_not=WhyNot.RATE_SHORT if short else None,
+            conditions=() if short or cap is None else (Condition.CALM_AIR,),
+            alternatives=(Alternative.SPRINKLERS_ASK_ADVISER,) if short else (), sprinklers=fig,
+        )
+    r = sprinklers.rate_tonight_mm_h(pmin, td, wind)
+    fig = SprinklerFigures(
+        undertree=False, required_mm_h=_finite(r.required_mm_h), calm_air_mm_h=None,
+        heat_budget_mm_h=_finite(r.heat_budget_mm_h), table_mm_h=_finite(r.table.rate_mm_h), table_note=r.table.note,
+        governed_by=r.governed_by, beyond_table=r.beyond_table, net_loss_w_m2=_finite(r.net_loss_w_m2), **common,
+    )
+    why: WhyNot | None = None
+    if wind > sprinklers.MAX_WIND_FOR_SPRINKLING_M_S:
+        why = WhyNot.TOO_WINDY_FOR_SPRINKLERS
+    elif r.beyond_table:
+        why = WhyNot.BEYOND_TABLE
+    elif cap is not None and math.isfinite(r.heat_budget_mm_h) and not sprinklers.capacity_adequate(r.heat_budget_mm_h, cap):
+        why = WhyNot.RATE_SHORT  # short of the heat budget, the published lower bound
+    alternatives: tuple[Alternative, ...] = ()
+    if why is WhyNot.TOO_WINDY_FOR_SPRINKLERS:
+        alternatives = (Alternative.ADVECTIVE,)
+    elif why is not None:
+        alternatives = (Alternative.SPRINKLERS_ASK_ADVISER,)
+    return MethodVerdict(method=method, advised=why is None, why_not=why, alternatives=alternatives, sprinklers=fig)

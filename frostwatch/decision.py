@@ -1,0 +1,147 @@
+"""The stored decision: what one evaluation decided for one block, as every screen shows it.
+
+Each evaluation (the daemon's and replay's alike) makes one `Decision` per block: the projection
+(minimum, time, band, crossings), the level the alert rules hold and its rank, the step shown, the
+advice plan, the monitoring state with its reason, the inputs' times, and `as_of`. The store keeps
+it (`frostwatch.store.decisions`); the status page, `frostwatch status`, the alerts and the morning
+report read it and never compute advice of their own. `frostwatch.status.decision_json` turns one
+into the JSON that `status --json` shows.
+
+JSON round trip: `decision_to_doc` / `decision_from_doc` (versioned; an unknown version raises
+ValueError, so a reader never misreads a newer store).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+from enum import StrEnum
+
+from frostwatch.advice.codec import from_dict, to_dict
+from frostwatch.advice.plan import PLAN_VERSION, AdvicePlan, Step
+from frostwatch.models import Projection
+
+DECISION_VERSION = 1
+CURVE_STEP_S = 1800.0  # the stored projected curve keeps one point per half hour (SD-card wear)
+
+
+class MonitorReason(StrEnum):
+    """Why a block is (not) monitored."""
+
+    OK = "ok"  # a fresh crop-height sensor and a running daemon
+    NO_CROP_SENSOR = "no-crop-sensor"  # no crop-height station declared for the block
+    NO_DATA = "no-data"  # no crop-height reading in the window looked at
+    SILENT = "silent"  # the crop-height sensors went silent
+    STUCK = "stuck"  # the crop-height sensors report a flat, stuck value
+    DAEMON_STOPPED = "daemon-stopped"  # readers only: the daemon's heartbeat is not current
+    NO_EVALUATION = "no-evaluation"  # readers only: no recent decision stored for the block
+
+
+@dataclass(frozen=True)
+class Monitoring:
+    """Whether anyone is watching the block: its crop-height sensor fresh and (for readers) the
+    daemon alive. `since_utc` is when it stopped being watched (the last reading, for a silent
+    sensor); `fresh_until_utc` is when the newest reading goes stale if nothing new comes."""
+
+    monitored: bool
+    reason: MonitorReason
+    stations: tuple[str, ...] = ()
+    since_utc: dt.datetime | None = None
+    last_reading_utc: dt.datetime | None = None
+    fresh_until_utc: dt.datetime | None = None
+
+
+@dataclass(frozen=True)
+class ProjectionSummary:
+    """The projection as stored with the decision (the curve thinned to half-hour points)."""
+
+    station: str | None
+    air_temp_c: float | None
+    dew_point_c: float | None
+    wet_bulb_c: float | None
+    predicted_min_c: float | None
+    predicted_min_at_utc: dt.datetime | None
+    band_c: float | None
+    band_low_c: float | None
+    band_high_c: float | None
+    crossings_utc: dict[str, dt.datetime | None] = field(default_factory=dict)
+    inversion_c: float | None = None
+    projected_inversion_c: float | None = None
+    wind_speed_m_s: float | None = None
+    regime: str | None = None
+    method: str | None = None
+    notes: tuple[str, ...] = ()
+    curve_time_utc: tuple[dt.datetime, ...] = ()
+    curve_air_temp_c: tuple[float, ...] = ()
+
+
+def summarise_projection(p: Projection) -> ProjectionSummary:
+    """The stored form of a projection. The band's ends come from the projection when it gives
+    them (`band_low_c`/`band_high_c`), else from the minimum -/+ `band_c`."""
+    band = p.band_c
+    lo = getattr(p, "band_low_c", None)
+    hi = getattr(p, "band_high_c", None)
+    if p.predicted_min_c is not None and band is not None and band == band:
+        lo = p.predicted_min_c - band if lo is None else lo
+        hi = p.predicted_min_c + band if hi is None else hi
+    times, temps = [], []
+    last = None
+    for t, c in zip(p.curve_time_utc, p.curve_air_temp_c, strict=False):
+        if last is None or (t - last).total_seconds() >= CURVE_STEP_S:
+            times.append(t)
+            temps.append(round(float(c), 2))
+            last = t
+    if p.curve_time_utc and (not times or times[-1] != p.curve_time_utc[-1]):
+        times.append(p.curve_time_utc[-1])
+        temps.append(round(float(p.curve_air_temp_c[-1]), 2))
+    r = lambda v: None if v is None else round(float(v), 2)  # noqa: E731
+    return ProjectionSummary(
+        station=p.station, air_temp_c=r(p.air_temp_c), dew_point_c=r(p.dew_point_c), wet_bulb_c=r(p.wet_bulb_c),
+        predicted_min_c=r(p.predicted_min_c), predicted_min_at_utc=p.predicted_min_at_utc, band_c=r(band),
+        band_low_c=r(lo), band_high_c=r(hi), crossings_utc=dict(p.crossings_utc), inversion_c=r(p.inversion_c),
+        projected_inversion_c=r(p.projected_inversion_c), wind_speed_m_s=r(p.wind_speed_m_s), regime=p.regime,
+        method=p.method, notes=tuple(p.notes), curve_time_utc=tuple(times), curve_air_temp_c=tuple(temps),
+    )
+
+
+@dataclass(frozen=True)
+class Decision:
+    """One block's decision at one evaluation (see the module docstring).
+
+    `level` is what every screen shows: "unmonitored" while the block is not monitored, else
+    `frost_level`, the level the alert rules hold tonight. `step` is the step shown with it
+    (`frostwatch.alerts.levels.step_for_level`). `inputs_utc` maps "station/quantity" to the time
+    of the newest reading the evaluation had.
+    """
+
+    block: str
+    as_of_utc: dt.datetime
+    night: dt.date
+    level: str
+    rank: int
+    frost_level: str
+    step: Step
+    monitoring: Monitoring
+    projection: ProjectionSummary
+    plan: AdvicePlan
+    alert_key: str | None = None
+    inputs_utc: dict[str, dt.datetime] = field(default_factory=dict)
+    version: int = DECISION_VERSION
+
+    @property
+    def monitored(self) -> bool:
+        return self.monitoring.monitored
+
+
+def decision_to_doc(d: Decision) -> dict:
+    """The decision as a JSON-ready dict (the stored form)."""
+    return to_dict(d)
+
+
+def decision_from_doc(doc: dict) -> Decision:
+    """A stored decision back as a `Decision`; ValueError when its version is not one this
+    frostwatch knows (a newer store) or it does not fit the type."""
+    v, pv = doc.get("version"), (doc.get("plan") or {}).get("version")
+    if v != DECISION_VERSION or pv != PLAN_VERSION:
+        raise ValueError(f"decision version {v} / plan version {pv}; this frostwatch reads {DECISION_VERSION} / {PLAN_VERSION}")
+    return from_dict(Decision, doc)

@@ -1,0 +1,78 @@
+"""Is a block monitored? (pure): its crop-height sensor must be fresh and trustworthy.
+
+The rules are the forecast's own (`forecast.station_state`: silent for `stale_after_intervals`
+of the sensor's usual interval, or stuck flat for an hour), so a block the projection cannot speak
+for is exactly a block reported here as not monitored. The daemon's heartbeat is the readers'
+half of the rule (`frostwatch.status`): the evaluation itself is proof that the daemon runs.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import numpy as np
+
+from frostwatch.config import Block, Config
+from frostwatch.decision import Monitoring, MonitorReason
+from frostwatch.forecast import Series, station_state, usual_interval_s
+from frostwatch.units import QUANTITIES
+
+
+def _utc(t_s: float) -> dt.datetime:
+    return dt.datetime.fromtimestamp(round(float(t_s), 3), tz=dt.UTC)
+
+
+def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float) -> Monitoring:
+    """The monitoring state of `block` at `now_s` from tonight's readings window.
+
+    Returns
+    -------
+    Monitoring
+        monitored when at least one crop-height station is healthy (fresh and not stuck); else
+        the reason (no crop station declared, no reading at all in the window, silent, stuck)
+        and since when (the newest crop-height reading, for a silent sensor).
+    """
+    crop = cfg.stations_of(block.id, "crop")
+    ids = tuple(s.id for s in crop)
+    if not crop:
+        return Monitoring(False, MonitorReason.NO_CROP_SENSOR, ids)
+    stale = cfg.forecast.stale_after_intervals
+    last: float | None = None
+    fresh_until: float | None = None
+    healthy = False
+    any_silent = False
+    for st in crop:
+        state = station_state(st, series, now_s, stale)
+        t = series.get((st.id, "air_temperature"), (np.empty(0), np.empty(0)))[0]
+        t = t[t <= now_s]
+        if len(t) == 0:
+            continue
+        newest = float(t[-1])
+        last = newest if last is None else max(last, newest)
+        limit = newest + stale * usual_interval_s(t, st.interval_s)
+        if state.healthy:
+            healthy = True
+            fresh_until = limit if fresh_until is None else max(fresh_until, limit)
+        elif now_s > limit:
+            any_silent = True
+    last_utc = None if last is None else _utc(last)
+    if healthy:
+        return Monitoring(True, MonitorReason.OK, ids, None, last_utc, _utc(fresh_until))
+    if last is None:
+        return Monitoring(False, MonitorReason.NO_DATA, ids)
+    reason = MonitorReason.SILENT if any_silent else MonitorReason.STUCK
+    return Monitoring(False, reason, ids, last_utc if reason is MonitorReason.SILENT else None, last_utc)
+
+
+def inputs_utc(cfg: Config, block: Block, series: Series, now_s: float) -> dict[str, dt.datetime]:
+    """{"station/quantity": time of the newest reading at or before now} for the block's stations."""
+    out: dict[str, dt.datetime] = {}
+    for st in cfg.stations_of(block.id):
+        for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
+            t = series.get((st.id, q), (None,))[0]
+            if t is None or not len(t):
+                continue
+            i = int(np.searchsorted(t, now_s, side="right")) - 1
+            if i >= 0:
+                out[f"{st.id}/{q}"] = _utc(t[i])
+    return out

@@ -1,0 +1,363 @@
+"""The advice engine per block: literals in, a typed AdvicePlan out (no clock, no I/O); its text
+comes from the one rendering (frostwatch.advice.render/explain/message).
+
+Physics references are those of the physics tests; here the advice must carry them through:
+FAO-FP p. 160 (fans: wind <= 2.5 m/s, no supercooled fog), FAO-FP Table 7.5 / psychrolib (start
+air temperature), frost-physics.md 4.2 and 10 (heat budget, table cross-check), UF/IFAS Circ. 348
+(stop rule). The 0.3-0.5 fan gain is an engineering assumption from memory.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import itertools
+import json
+import math
+
+import numpy as np
+import psychrolib
+import pytest
+
+from frostwatch.advice import STOP_AFTER_SUNRISE_H, explain, plan_advice, render
+from frostwatch.advice.message import compose
+from frostwatch.advice.plan import BASE_CAUTIONS, Caution, Condition, Risk, Step, WhyNot
+from frostwatch.alerts.levels import wanted_level
+from frostwatch.config import PROTECTION_METHODS, Block
+from frostwatch.display import Display
+from frostwatch.models import Projection
+from frostwatch.physics import sprinklers
+
+psychrolib.SetUnitSystem(psychrolib.SI)
+
+UTC = dt.UTC
+NOW = dt.datetime(2027, 4, 15, 8, 0, tzinfo=UTC)  # 01:00 local at a -7 h site
+SUNRISE = dt.datetime(2027, 4, 15, 13, 10, tzinfo=UTC)
+CROSSING = dt.datetime(2027, 4, 15, 10, 0, tzinfo=UTC)
+
+
+def block(**kw) -> Block:
+    base = dict(id="b1", crop="apple", stage="full bloom", kill_10pct_c=-2.2, kill_90pct_c=-3.9,
+                critical_source="test", protection="wind_machine", margin_c=2.0, mobilisation_min=30.0,
+                wind_machines=2)
+    base.update(kw)
+    return Block(**base)
+
+
+def sprinkler_block(**kw) -> Block:
+    base = dict(protection="overtree_sprinkler", margin_c=1.0, application_rate_mm_h=3.5, area_ha=4.0,
+                water_supply_l_s=45.0, mobilisation_min=20.0)
+    base.update(kw)
+    return block(**base)
+
+
+def projection(**kw) -> Projection:
+    base = dict(time_utc=NOW, block="b1", station="b1-low", air_temp_c=1.0, dew_point_c=-5.0, wet_bulb_c=-1.6,
+                predicted_min_c=-3.5, predicted_min_at_utc=SUNRISE, band_c=0.8,
+                crossings_utc={"t10_margin": CROSSING, "wet_bulb_t10_margin": CROSSING, "t10": None},
+                inversion_c=4.0, projected_inversion_c=4.0, inversion_class="strong", wind_speed_m_s=0.6,
+                regime="radiation", method="nowcast", sunset_utc=NOW - dt.timedelta(hours=6), sunrise_utc=SUNRISE)
+    base.update(kw)
+    return Projection(**base)
+
+
+def advise(p, b, now, display=None, **kw):
+    return plan_advice(p, b, now, **kw)
+
+
+def text(plan, p=None, d=None) -> str:
+    """The whole message the plan renders to, at the level it asks for (standby at least)."""
+    lvl = wanted_level(plan, plan.time_utc)
+    lvl = "standby" if lvl == "all-clear" else lvl
+    return compose(plan.block, lvl, plan.step, plan, p, d or Display()).text
+
+
+def action(plan, d=None) -> str:
+    return render.action(plan.step, plan, d or Display())
+
+
+# ---- cautions, risk, timing ------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("method", PROTECTION_METHODS)
+@pytest.mark.parametrize("pmin", [-5.0, -0.5, 5.0])
+def test_every_plan_carries_the_cautions(method, pmin):
+    b = sprinkler_block(protection=method) if "sprinkler" in method else block(protection=method)
+    plan = advise(projection(predicted_min_c=pmin), b, NOW)
+    assert plan.cautions[:3] == BASE_CAUTIONS
+    assert "grower decides" in text(plan, projection())
+    unknown = advise(projection(air_temp_c=None, predicted_min_c=None), b, NOW)
+    assert unknown.risk is Risk.UNKNOWN and unknown.step is Step.CHECK_SENSORS and unknown.cautions[:3] == BASE_CAUTIONS
+
+
+def test_ready_by_is_crossing_minus_mobilisation():
+    plan = advise(projection(), block(mobilisation_min=45), NOW)
+    assert plan.risk is Risk.LIKELY and plan.step is Step.GET_READY
+    assert plan.ready_by_utc == CROSSING - dt.timedelta(minutes=45)
+    assert plan.crossing_utc == CROSSING
+    assert "get the wind machines ready by" in action(plan)
+
+
+def test_risk_levels():
+    b = block()
+    assert advise(projection(air_temp_c=-2.5), b, NOW).risk is Risk.NOW
+    assert advise(projection(predicted_min_c=0.3, band_c=0.8), b, NOW).risk is Risk.POSSIBLE
+    assert advise(projection(predicted_min_c=3.0, band_c=0.8, crossings_utc={}), b, NOW).risk is Risk.LOW
+    assert advise(projection(), b, SUNRISE + dt.timedelta(minutes=5)).risk is Risk.MORNING
+
+
+def test_step_start_now_once_ready_by_passed_and_keep_running_when_running():
+    late = NOW + dt.timedelta(minutes=100)  # ready by 09:30 UTC
+    assert advise(projection(), block(), late).step is Step.START_NOW
+    assert advise(projection(), block(), late, protection_running=True).step is Step.KEEP_RUNNING
+    assert advise(projection(air_temp_c=-2.5), block(), NOW, protection_running=True).step is Step.NOT_HOLDING
+    assert advise(projection(air_temp_c=-2.5), block(), NOW).step is Step.AT_CRITICAL
+
+
+# ---- wind machines -----------------------------------------------------------------------------
+
+
+def test_wind_machine_useful_with_inversion_and_light_wind_gain_is_a_labelled_assumption():
+    plan = advise(projection(projected_inversion_c=4.0, predicted_min_c=-2.5), block(), NOW)
+    f = plan.verdict.fans
+    assert plan.advised and plan.verdict.why_not is None
+    assert f.gain_c == pytest.approx(0.4 * 4.0)
+    assert f.gain_low_c == pytest.approx(1.2) and f.gain_high_c == pytest.approx(2.0)
+    assert "engineering assumption" in text(plan, projection())
+    assert "get the wind machines ready" in action(plan)
+
+
+@pytest.mark.parametrize("wind", np.arange(2.6, 9.0, 0.7))
+@pytest.mark.parametrize("risk_pmin", [-3.5, -1.0])
+def test_no_advice_to_start_fans_in_wind_above_the_limit(wind, risk_pmin):
+    # FAO-FP p. 160: not above 2.5 m/s
+    plan = advise(projection(wind_speed_m_s=float(wind), predicted_min_c=risk_pmin), block(), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.TOO_WINDY_FOR_FANS
+    assert plan.verdict.resources is None  # no fuel estimate for a method not advised
+    t = text(plan, projection())
+    assert "start the wind machines" not in t and "too windy for fans" in t and "fuel" not in t
+    assert plan.verdict.alternatives  # and what else helps
+    now_plan = advise(projection(wind_speed_m_s=float(wind), air_temp_c=-2.5), block(), NOW)
+    assert "start the wind machines" not in action(now_plan) and "by other means" in action(now_plan)
+
+
+def test_weak_inversion_says_why_and_what_else_helps():
+    plan = advise(projection(inversion_c=0.8, projected_inversion_c=0.8), block(), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.INVERSION_WEAK
+    t = text(plan, projection())
+    assert "inversion weak" in t and "heaters" in t
+    assert "other means" in action(plan)
+
+
+def test_supercooled_fog_blocks_fans_and_possible_fog_is_flagged():
+    plan = advise(projection(), block(), NOW, supercooled_fog=True)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.SUPERCOOLED_FOG
+    assert "supercooled fog" in text(plan, projection())
+    near = advise(projection(air_temp_c=-0.5, dew_point_c=-0.8), block(), NOW)
+    assert Condition.NO_FOG in near.verdict.conditions and Caution.FOG_LOOK in near.cautions
+    assert "no fog" in action(near)
+
+
+def test_projected_minimum_far_below_critical_fans_alone_will_not_hold():
+    plan = advise(projection(predicted_min_c=-6.0, projected_inversion_c=2.0), block(), NOW)
+    assert plan.advised and not plan.verdict.fans.sufficient
+    assert "more than fans are expected to give" in text(plan, projection())
+    assert any("add heaters" in a for a in render.alternatives(plan.verdict))
+
+
+def test_stronger_inversion_gives_larger_gain():
+    gains = [advise(projection(projected_inversion_c=float(inv)), block(), NOW).verdict.fans.gain_c
+             for inv in np.arange(1.5, 9.0, 0.5)]
+    assert all(b > a for a, b in itertools.pairwise(gains))
+
+
+def test_unknown_wind_is_not_calm_for_fans():
+    plan = advise(projection(wind_speed_m_s=None), block(), NOW)
+    assert Condition.WIND_BELOW_FAN_LIMIT in plan.verdict.conditions
+    assert "wind unknown" in text(plan, projection())
+    assert "if the wind is below 2.5 m/s" in action(plan)
+
+
+def test_unknown_inversion_is_not_zero_and_not_useful():
+    plan = advise(projection(inversion_c=None, projected_inversion_c=None), block(), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.INVERSION_UNKNOWN
+    assert "inversion unknown" in text(plan, projection())
+
+
+# ---- sprinklers ----------------------------------------------------------------------------------
+
+
+def _psychrolib_wet_bulb_c(air_c, dew_point_c, pressure_hpa=1013.25):
+    # psychrolib (ASHRAE 2017), dew point over liquid water as hygrometers report it (see
+    # tests/physics/test_sprinklers.py for why the vapour pressure is computed over water).
+    t = dew_point_c + 273.15
+    pw = math.exp(-5.8002206e3 / t + 1.3914993 - 4.8640239e-2 * t + 4.1764768e-5 * t**2
+                  - 1.4452093e-8 * t**3 + 6.5459673 * math.log(t))
+    w = psychrolib.GetHumRatioFromVapPres(pw, pressure_hpa * 100)
+    return psychrolib.GetTWetBulbFromHumRatio(air_c, w, pressure_hpa * 100)
+
+
+@pytest.mark.parametrize("dew_point_c", [-12.0, -8.0, -5.0])
+def test_sprinkler_start_air_temp_vs_psychrolib(dew_point_c):
+    # the start air temperature: psychrolib's wet bulb there equals T10 + margin within 0.05 C
+    plan = advise(projection(dew_point_c=dew_point_c), sprinkler_block(), NOW)
+    s = plan.verdict.sprinklers
+    assert _psychrolib_wet_bulb_c(s.start_air_temp_c, dew_point_c) == pytest.approx(-1.2, abs=0.05)
+    assert _psychrolib_wet_bulb_c(s.stop_air_temp_c, dew_point_c) == pytest.approx(-2.2, abs=0.05)
+    assert "must be running before the air cools to" in action(plan)
+
+
+def test_sprinkler_start_vs_rechecked_table_frost_physics_10():
+    # frost-physics.md 10, rechecked table: Td -10, Tc -2 -> 2.0 C (margin 0 on T10 = -2)
+    plan = advise(projection(dew_point_c=-10.0), sprinkler_block(kill_10pct_c=-2.0, margin_c=0.0), NOW)
+    assert plan.verdict.sprinklers.start_air_temp_c == pytest.approx(2.0, abs=0.1)
+
+
+def test_drier_air_gives_higher_start_temperature():
+    starts = [advise(projection(dew_point_c=float(td)), sprinkler_block(), NOW).verdict.sprinklers.start_air_temp_c
+              for td in np.arange(-16.0, -2.0, 1.0)]
+    assert all(a > b for a, b in itertools.pairwise(starts))
+
+
+def test_more_wind_needs_a_higher_rate():
+    rates = [advise(projection(wind_speed_m_s=float(u)), sprinkler_block(), NOW).verdict.sprinklers.required_mm_h
+             for u in np.arange(0.0, 4.5, 0.3)]
+    assert all(b >= a for a, b in itertools.pairwise(rates)) and rates[-1] > rates[0]
+
+
+def test_required_rate_is_the_larger_of_heat_budget_and_table_and_says_which():
+    plan = advise(projection(predicted_min_c=-5.6, wind_speed_m_s=2.9), sprinkler_block(application_rate_mm_h=9.0), NOW)
+    s = plan.verdict.sprinklers
+    assert s.required_mm_h == pytest.approx(max(s.heat_budget_mm_h, s.table_mm_h), abs=0.01)
+    assert s.governed_by == "table (from memory)"
+    assert "table (from memory) governs" in text(plan, projection())
+
+
+def test_rate_short_is_not_advised_says_why_once_and_gives_no_water_estimate():
+    plan = advise(projection(predicted_min_c=-5.6, wind_speed_m_s=2.9), sprinkler_block(application_rate_mm_h=3.5), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.RATE_SHORT and plan.verdict.resources is None
+    t = text(plan, projection())
+    assert "not advised tonight" in t and "adviser" in t and "water about" not in t
+    assert t.count("not advised tonight: ") == 1  # one line saying why
+    ok = advise(projection(predicted_min_c=-3.0, wind_speed_m_s=0.3),
+                sprinkler_block(application_rate_mm_h=6.0, water_supply_l_s=100.0), NOW)
+    assert ok.advised and "not advised" not in text(ok, projection())
+
+
+def test_sprinkling_in_wind_above_4_5_m_s_is_not_advised():
+    plan = advise(projection(wind_speed_m_s=5.5), sprinkler_block(application_rate_mm_h=30.0), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.TOO_WINDY_FOR_SPRINKLERS
+    assert "does not protect in that wind" in text(plan, projection())
+
+
+def test_unknown_wind_is_not_calm_for_sprinklers():
+    plan = advise(projection(wind_speed_m_s=None), sprinkler_block(application_rate_mm_h=6.0), NOW)
+    s = plan.verdict.sprinklers
+    assert s.wind_speed_m_s is None and s.required_mm_h is None and s.calm_air_mm_h > 0
+    assert Condition.CALM_AIR in plan.verdict.conditions
+    t = text(plan, projection())
+    assert "even in calm air tonight needs at least" in t and "enough only if the air stays calm" in t
+
+
+def test_water_volume_hours_and_peak_flow():
+    plan = advise(projection(), sprinkler_block(), NOW)
+    r = plan.verdict.resources
+    start = CROSSING - dt.timedelta(minutes=20)
+    hours = (SUNRISE + dt.timedelta(hours=STOP_AFTER_SUNRISE_H) - start).total_seconds() / 3600
+    assert r.hours == pytest.approx(hours, abs=0.05)
+    assert r.water_m3 == pytest.approx(sprinklers.water_volume_m3(3.5, 4.0, r.hours), abs=1)
+    assert r.peak_flow_l_s == pytest.approx(38.9, abs=0.05)  # 3.5 mm/h on 4 ha
+    assert "peak flow 38.9 L/s" in text(plan, projection())
+    short = advise(projection(), sprinkler_block(water_supply_l_s=20.0), NOW)
+    assert short.verdict.resources.fed_area_ha == pytest.approx(20.0 / 38.89 * 4.0, abs=0.1)
+    assert Caution.SUPPLY_SHORT in short.cautions and "never the whole block at a lower rate" in text(short, projection())
+
+
+def test_wind_machine_fuel_and_energy():
+    r = advise(projection(), block(fuel_l_per_h=40.0), NOW).verdict.resources
+    assert r.fuel_l == pytest.approx(40.0 * r.hours, rel=0.02)
+    r = advise(projection(), block(), NOW).verdict.resources
+    assert r.energy_kwh == pytest.approx(2 * 75.0 * r.hours, rel=0.02)  # hours shown to 0.1 h
+
+
+def test_undertree_sprinkler_minimum_rate():
+    plan = advise(projection(), sprinkler_block(protection="undertree_sprinkler", application_rate_mm_h=0.5), NOW)
+    assert plan.verdict.why_not is WhyNot.LINES_MAY_FREEZE
+    assert "lines may freeze" in text(plan, projection())
+
+
+# ---- stopping ------------------------------------------------------------------------------------
+
+
+def _series(station, start_c, slope_c_per_h, now):
+    t = now.timestamp() + np.arange(-1800.0, 1.0, 120.0)
+    return {(station, "air_temperature"): (t, start_c + slope_c_per_h * (t - now.timestamp()) / 3600.0)}
+
+
+MORNING = SUNRISE + dt.timedelta(minutes=40)
+
+
+def test_sprinklers_stop_only_once_wet_bulb_above_t10_and_rising():
+    b = sprinkler_block()
+    p = projection(air_temp_c=0.5, dew_point_c=-4.0, wet_bulb_c=-1.5, time_utc=MORNING)
+    rising = advise(p, b, MORNING, series=_series("b1-low", 0.5, 1.5, MORNING))
+    assert rising.stop.stop_ok is True and rising.step is Step.SAFE_TO_STOP
+    assert "may stop once the ice is melting" in action(rising)
+    falling = advise(p, b, MORNING, series=_series("b1-low", 0.5, -0.5, MORNING))
+    assert falling.stop.stop_ok is False and "keep the sprinklers running" in action(falling)
+    no_trend = advise(p, b, MORNING)
+    assert no_trend.stop.stop_ok is None and "watch it" in action(no_trend)
+
+
+def test_sprinklers_never_stop_while_wet_bulb_at_or_below_t10():
+    p = projection(air_temp_c=-1.0, dew_point_c=-5.0, wet_bulb_c=-2.6, time_utc=MORNING)
+    plan = advise(p, sprinkler_block(), MORNING, series=_series("b1-low", -1.0, 3.0, MORNING))
+    assert plan.stop.stop_ok is False and plan.step is Step.WAIT_TO_STOP
+    assert "keep the sprinklers running" in action(plan)
+
+
+def test_fans_stop_once_air_above_t10_plus_margin_and_rising():
+    b = block()
+    warm = projection(air_temp_c=0.5, time_utc=MORNING)
+    assert advise(warm, b, MORNING, series=_series("b1-low", 0.5, 1.0, MORNING)).stop.stop_ok is True
+    assert advise(warm, b, MORNING, series=_series("b1-low", 0.5, -0.4, MORNING)).stop.stop_ok is False
+    cold = projection(air_temp_c=-0.5, time_utc=MORNING)
+    plan = advise(cold, b, MORNING, series=_series("b1-low", -0.5, 1.0, MORNING))
+    assert plan.stop.stop_ok is False and "keep the wind machines running" in action(plan)
+
+
+def test_stop_rule_is_given_with_the_start_advice():
+    d = Display()
+    assert "never while the wet bulb is at or below T10" in explain.stop_rule(advise(projection(), sprinkler_block(), NOW), d)
+    plan = advise(projection(), block(), NOW)
+    assert "after sunrise" in explain.stop_rule(plan, d) and "Stop: stop the wind machines" in text(plan, projection())
+
+
+# ---- display -------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("b", [block(), sprinkler_block(), block(protection="heaters"), block(protection="none")])
+def test_advice_text_uses_the_display_unit(b):
+    d = Display("degF", "America/Los_Angeles")
+    for p in (projection(), projection(inversion_c=0.8, projected_inversion_c=0.8, wind_speed_m_s=3.0),
+              projection(air_temp_c=-2.5)):
+        plan = advise(p, b, NOW)
+        t = text(plan, p, d)
+        assert "°F" in t
+        assert "°C" not in t and " C " not in t and " C)" not in t
+    assert "02:30" in action(advise(projection(), block(), NOW), d)  # ready by: 10:00 UTC = 03:00 PDT, less 30 min
+
+
+def test_advice_is_pure_same_inputs_same_output():
+    p, b = projection(), sprinkler_block()
+    assert advise(p, b, NOW) == advise(p, b, NOW)
+
+
+def test_plan_round_trips_through_its_json():
+    from frostwatch.advice.codec import from_dict, to_dict
+    from frostwatch.advice.plan import AdvicePlan
+
+    for b in (block(), sprinkler_block(), block(protection="heaters"), block(protection="none")):
+        for p, now in ((projection(), NOW), (projection(air_temp_c=-2.5), NOW), (projection(), MORNING),
+                       (projection(air_temp_c=None, predicted_min_c=None), NOW)):
+            plan = advise(p, b, now, series=_series("b1-low", 0.5, 1.0, now))
+            assert from_dict(AdvicePlan, json.loads(json.dumps(to_dict(plan)))) == plan
