@@ -9,6 +9,7 @@ who followed the README, while an editable install passed every test).
 from __future__ import annotations
 
 import importlib
+import os
 import pkgutil
 import subprocess
 import sys
@@ -105,3 +106,14 @@ def test_the_demo_logs_ship_inside_the_installed_package():
     expected = {p.name for p in (REPO / "sample_sensor_logs").iterdir() if p.suffix in {".csv", ".toml", ".md"}}
     assert expected and expected <= shipped, f"missing from the installed package: {sorted(expected - shipped)}"
     assert Path(str(data)).resolve().is_relative_to(SITE_PACKAGES)
+
+
+def test_the_benchmarks_import_the_installed_package_from_the_checkout():
+    """`python -m bench` runs from the checkout; bench/__init__ keeps its frostwatch/ from shadowing."""
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONSAFEPATH"}
+    code = ("import bench, frostwatch; from importlib import resources; "
+            "print(frostwatch.__file__); print(resources.files('frostwatch.sample_logs'))")
+    p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=REPO, env=env, timeout=60)
+    assert p.returncode == 0, p.stderr
+    for line in p.stdout.split():
+        assert Path(line).resolve().is_relative_to(SITE_PACKAGES), line
