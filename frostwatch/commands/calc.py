@@ -89,36 +89,32 @@ def cmd_calc(args) -> int:
             raise UsageError(f"--cloud {args.cloud}: expected a cloud fraction 0-1")
         assumed_td = args.dew_point is None
         td = t - 5.0 if assumed_td else min(_temp_in(args, args.dew_point), t)
-        r = sprinklers.rate_tonight_mm_h(t, td, args.wind, cloud_frac=args.cloud)
+        r = sprinklers.rate_tonight_mm_h(t, td, args.wind, cloud_frac=args.cloud, pressure_hpa=p_hpa)
         if not math.isfinite(r.required_mm_h):
             raise UsageError(f"--min-temp {args.min_temp}: outside the range the heat budget covers")
         windy = args.wind > sprinklers.MAX_WIND_FOR_SPRINKLING_M_S
         doc = {"required_rate_mm_h": round(r.required_mm_h, 2), "governed_by": r.governed_by,
                "heat_budget_rate_mm_h": round(r.heat_budget_mm_h, 2),
-               "table_rate_mm_h": None if r.table.rate_mm_h is None else round(r.table.rate_mm_h, 2),
-               "table_cell": r.table.note, "table_source": sprinklers.GERBER_HARRISON_SOURCE,
-               "beyond_table": r.beyond_table, "net_longwave_loss_w_m2": round(r.net_loss_w_m2, 1),
-               "wind_m_s": args.wind, "over_wind_limit": windy, "dew_point_assumed": assumed_td,
-               "note": "the larger of the heat budget (a lower bound) and the table governs; if more than about "
-                       "12 % of the water evaporates, sprinkling cools"}
-        table = (f"{r.table.rate_mm_h:.1f} mm/h ({r.table.note})" if r.table.rate_mm_h is not None
-                 else f"no cell ({r.table.note})")
-        lines = [f"required application rate about {r.required_mm_h:.1f} mm/h ({r.governed_by} governs)",
-                 f"  heat budget {r.heat_budget_mm_h:.1f} mm/h (a lower bound; net longwave loss of the iced plant "
-                 f"{r.net_loss_w_m2:.0f} W/m2, wind {args.wind:g} m/s)",
-                 f"  table cross-check {table}; {sprinklers.GERBER_HARRISON_SOURCE}"]
+               "net_longwave_loss_w_m2": round(r.net_loss_w_m2, 1), "sensible_loss_w_m2": round(r.sensible_w_m2, 1),
+               "sublimation_loss_w_m2": round(r.latent_w_m2, 1), "wind_m_s": args.wind,
+               "over_wind_limit": windy, "dew_point_assumed": assumed_td, "pressure_hpa": p_hpa,
+               "practice": sprinklers.PRACTICE_SOURCE,
+               "note": "the heat budget of the iced plant is a lower bound: a system below it cannot hold the buds "
+                       "at 0 °C; one above it may still fall short in wind"}
+        lines = [f"tonight needs at least {r.required_mm_h:.1f} mm/h (heat budget of the iced plant, a lower bound)",
+                 f"  losses at 0 °C: net longwave {r.net_loss_w_m2:.0f} W/m2, convection {r.sensible_w_m2:.0f} W/m2, "
+                 f"sublimation {r.latent_w_m2:.0f} W/m2 (wind {r.wind_used_m_s:g} m/s)",
+                 f"  published practice: {sprinklers.PRACTICE_SOURCE}"]
         if assumed_td:
             lines.append("  no --dew-point given: assumed 5 °C (9 °F) below the minimum")
-        if r.beyond_table:
-            lines.append("  colder or windier than any cell of the table: over-tree sprinkling is unlikely to protect")
         if windy:
             lines.append(f"  wind above about {sprinklers.MAX_WIND_FOR_SPRINKLING_M_S:g} m/s: over-tree sprinkling is not advised")
         if args.capacity is not None:
-            ok = sprinklers.capacity_adequate(r.required_mm_h, args.capacity) and not windy and not r.beyond_table
+            ok = sprinklers.capacity_adequate(r.required_mm_h, args.capacity) and not windy
             doc["capacity_mm_h"] = args.capacity
             doc["capacity_adequate"] = bool(ok)
-            lines.append(f"  your system's {args.capacity:g} mm/h is " + (
-                "enough" if ok else "NOT enough: running it may do more harm than good; consult your adviser"))
+            lines.append(f"  your system's {args.capacity:g} mm/h " + (
+                "covers this lower bound" if ok else "is NOT enough: running it may do more harm than good; consult your adviser"))
             if args.area is not None:
                 peak = sprinklers.peak_flow_l_s(args.capacity, args.area)
                 doc["area_ha"], doc["peak_flow_l_s"] = args.area, round(peak, 1)
@@ -201,7 +197,7 @@ def register(sub, common) -> None:
     c.add_argument("--crop", required=True)
     c.add_argument("--stage", required=True)
     c = add("sprinkler-rate", parents=[common],
-                        help="over-tree application rate tonight needs: heat budget, checked against the table")
+                        help="over-tree application rate tonight needs: the heat budget of the iced plant")
     c.add_argument("--min-temp", type=float, required=True, metavar="T", help="expected minimum air temperature")
     c.add_argument("--wind", type=float, required=True, metavar="M_S", help="wind speed, m/s (measure it: unknown is not calm)")
     c.add_argument("--dew-point", type=float, metavar="TD", help="dew point (default: 5 degrees below --min-temp)")

@@ -1,18 +1,29 @@
-"""Over-plant sprinkler physics: latent-heat budget, required rate, water volume, start/stop.
+"""Over-plant sprinkler physics: the heat budget of an iced plant, the rate it asks for, water
+volume, and the start and stop temperatures.
 
 Pure: no I/O, no clock. SI units, temperatures in degC.
+
+The application rate comes from the heat budget alone: an iced plant held at 0 degC loses heat
+by net longwave radiation, by convection to colder air and by sublimation to drier air, and the
+water freezing on it must release that much latent heat (FAO-FP 2005 ch. 7: protection lasts
+while freezing water replaces the energy lost). No application-rate table is used: the cells of
+the Gerber & Harrison (1964) / UF Circ. 287 table could not be read in a printed source
+(frost-physics.md 10), so they govern nothing here.
 
 References
 ----------
 .. [1] Snyder, R.L. & de Melo-Abreu, J.P. (2005). Frost Protection: fundamentals,
-   practice and economics, Vol. 1. FAO, Rome ("FAO-FP"). p. 168 and Table 7.5
+   practice and economics, Vol. 1. FAO, Rome ("FAO-FP"). ch. 7, p. 168 and Table 7.5
    (start and stop air temperatures from dew point and wet bulb).
 .. [2] Harrison, D.S., Gerber, J.F. & Choate, R.E. Sprinkler irrigation for cold
    protection. Univ. Florida IFAS Circular 348 (stopping rule, as quoted by UF/IFAS).
-.. [3] McAdams, W.H. (1954). Heat Transmission, 3rd ed. McGraw-Hill (wind convection
-   coefficient h = 5.7 + 3.8 u for a flat plate; from memory).
-.. [4] Allen, R.G., Pereira, L.S., Raes, D. & Smith, M. (1998). FAO Irrigation and
-   Drainage Paper 56, Annex 3 (latent heat of vaporisation, after Harrison 1963).
+.. [3] Allen, R.G. et al. (1998). FAO-56, ch. 3 eq. 4 (aerodynamic resistance), via
+   `frostwatch.physics.exchange`.
+.. [4] Longstroth, M. (2012). Using sprinklers to protect plants from spring freezes. MSU
+   Extension: 0.12-0.15 in/h (3.0-3.8 mm/h) protects to about 22 F (-5.6 degC) with no wind,
+   24-25 F (-4.4 to -3.9 degC) in light wind (frost-physics.md 4.2 and 10, confirmed).
+.. [5] Cooper, Smith & Martsolf (1997), J. Appl. Meteorol. 36: 155: over-tree systems under
+   2.5 mm/h were judged unsafe for citrus after the 1962 advective freeze (frost-physics.md 10).
 """
 
 from __future__ import annotations
@@ -21,55 +32,62 @@ import math
 from dataclasses import dataclass
 from typing import Final
 
-from frostwatch.physics.humidity import air_temp_c_for_wet_bulb
+from frostwatch.physics.exchange import aerodynamic_resistance_s_m, iced_surface_exchange_w_m2
+from frostwatch.physics.humidity import STANDARD_PRESSURE_HPA, vapour_pressure_hpa_from_dew_point
+from frostwatch.physics.sprinkler_timing import (  # noqa: F401 - the start and stop rules, re-exported
+    FALLBACK_STOP_MARGIN_C,
+    MIN_RISE_C_PER_H,
+    fallback_stop_air_temp_c,
+    sprinkler_start_air_temp_c,
+    sprinkler_stop_ok,
+)
 
 __all__ = [
-    "CONVECTION_A_W_M2_K",
-    "GERBER_HARRISON_SOURCE",
-    "RateTonight",
-    "TableRate",
-    "CONVECTION_B_J_M3_K",
+    "CALM_WIND_FLOOR_M_S",
+    "FALLBACK_STOP_MARGIN_C",
+    "IcedCanopyLoss",
     "LATENT_HEAT_FUSION_J_KG",
     "LATENT_HEAT_SUBLIMATION_J_KG",
     "LATENT_HEAT_VAPORISATION_J_KG",
     "MAX_WIND_FOR_SPRINKLING_M_S",
+    "MIN_RISE_C_PER_H",
+    "PRACTICE_RATE_MM_H",
+    "PRACTICE_SOURCE",
+    "RateTonight",
+    "TableRate",
     "capacity_adequate",
     "evaporation_break_even_frac",
-    "gerber_harrison_rate_mm_h",
-    "iced_surface_net_loss_w_m2",
+    "fallback_stop_air_temp_c",
     "heat_released_w_m2_per_mm_h",
+    "iced_canopy_heat_loss",
     "net_heat_w_m2",
     "peak_flow_l_s",
+    "rate_for_heat_loss_mm_h",
     "rate_shortfall_mm_h",
     "rate_tonight_mm_h",
-    "required_application_rate_mm_h",
     "sprinkler_start_air_temp_c",
     "sprinkler_stop_ok",
     "water_volume_m3",
 ]
 
-# Latent heat of fusion of water at 0 degC [J kg-1]: 0.334 MJ kg-1 (frost-physics.md 4.2;
-# standard value, from memory).
-LATENT_HEAT_FUSION_J_KG: Final = 333.6e3
-# Latent heat of vaporisation at 0 degC [J kg-1]: Lv(T) = 2.501 - 0.002361 T MJ kg-1
-# (Harrison 1963, as in FAO-56 Annex 3; from memory).
-LATENT_HEAT_VAPORISATION_J_KG: Final = 2.501e6
-# Latent heat of sublimation at 0 degC [J kg-1] = Lv + Lf = 2.834 MJ kg-1.
-LATENT_HEAT_SUBLIMATION_J_KG: Final = (
-    LATENT_HEAT_VAPORISATION_J_KG + LATENT_HEAT_FUSION_J_KG
-)
-
-# Bulk convective transfer coefficient h = a + b*u [W m-2 K-1], u in m s-1: the McAdams
-# (1954) flat-plate wind relation (from memory). An ENGINEERING ASSUMPTION: it treats the
-# iced plant as one surface per square metre of ground; real canopies expose more iced
-# area, so this runs low in wind (see required_application_rate_mm_h Notes).
-CONVECTION_A_W_M2_K: Final = 5.7
-CONVECTION_B_J_M3_K: Final = 3.8
+# Latent heats at 0 degC [J kg-1]: fusion 333.7 kJ kg-1, vaporisation 2.50084 MJ kg-1 and
+# sublimation their sum, the values of MetPy's constants module (metpy.constants.Lf, Lv, Ls;
+# checked in the tests). Lv/Lf is about 7.5 (frost-physics.md 4.2).
+LATENT_HEAT_FUSION_J_KG: Final = 333.7e3
+LATENT_HEAT_VAPORISATION_J_KG: Final = 2.50084e6
+LATENT_HEAT_SUBLIMATION_J_KG: Final = LATENT_HEAT_VAPORISATION_J_KG + LATENT_HEAT_FUSION_J_KG
 
 # Above about 10 mph (4.5 m s-1) over-plant sprinkling is not advised (Virginia Tech
 # extension text, frost-physics.md 4.2).
 MAX_WIND_FOR_SPRINKLING_M_S: Final = 4.5
-
+# Below this the wind is taken as this in the heat budget: calm air over a clear frost night still
+# mixes, and a cup anemometer stalls below about this speed (ENGINEERING CHOICE; it raises the
+# rate, never lowers it).
+CALM_WIND_FLOOR_M_S: Final = 0.5
+# The rate extension practice reports protecting, for the reasons: Longstroth (2012), MSU.
+PRACTICE_RATE_MM_H: Final = (3.0, 3.8)
+PRACTICE_SOURCE: Final = ("3.0-3.8 mm/h protects to about -5.6 degC in calm air and to -4.4 to -3.9 degC in "
+                          "light wind (Longstroth 2012, MSU Extension)")
 _SECONDS_PER_HOUR: Final = 3600.0
 _M3_PER_MM_HA: Final = 10.0  # 1 mm of water over 1 ha = 10 m3
 
@@ -136,95 +154,198 @@ def net_heat_w_m2(application_rate_mm_h: float, evaporated_frac: float) -> float
     -----
     ``Q = 92.7 * AR * (1 - 8.49 x)`` (frost-physics.md 4.2, [computed]).
     """
-    _check_frac(evaporated_frac)
+    if not 0.0 <= evaporated_frac <= 1.0:
+        raise ValueError(f"evaporated_frac {evaporated_frac!r}; expected a fraction 0-1")
     if application_rate_mm_h < 0:
-        raise ValueError(
-            f"application_rate_mm_h {application_rate_mm_h!r}; expected >= 0"
-        )
+        raise ValueError(f"application_rate_mm_h {application_rate_mm_h!r}; expected >= 0")
     factor = 1.0 - _sublimation_to_fusion_ratio() * evaporated_frac
     return heat_released_w_m2_per_mm_h() * application_rate_mm_h * factor
 
 
-def _check_frac(evaporated_frac: float) -> None:
-    if not 0.0 <= evaporated_frac <= 1.0:
-        raise ValueError(
-            f"evaporated_frac {evaporated_frac!r}; expected a fraction 0-1"
-        )
+# ---- the heat budget of the iced plant ----------------------------------------------------------
 
 
-def required_application_rate_mm_h(
-    net_longwave_loss_w_m2: float,
-    wind_speed_m_s: float,
+@dataclass(frozen=True)
+class IcedCanopyLoss:
+    """Heat an iced plant held at 0 degC loses, per square metre of ground [W m-2, upward].
+
+    Attributes
+    ----------
+    radiation_w_m2 : float
+        Net longwave loss of the 0 degC surface (Stefan-Boltzmann under a Brutsaert sky).
+    sensible_w_m2 : float
+        Convection to the colder air.
+    latent_w_m2 : float
+        Sublimation into drier air (negative if vapour deposits).
+    wind_used_m_s : float
+        The wind the transfer was computed for (at least `CALM_WIND_FLOOR_M_S`).
+    """
+
+    radiation_w_m2: float
+    sensible_w_m2: float
+    latent_w_m2: float
+    wind_used_m_s: float
+
+    @property
+    def total_w_m2(self) -> float:
+        """The sum, never below 0 (a plant gaining heat needs no water)."""
+        return max(0.0, self.radiation_w_m2 + self.sensible_w_m2 + self.latent_w_m2)
+
+
+def iced_canopy_heat_loss(
     air_temp_c: float,
-    target_temp_c: float,
-    evaporated_frac: float = 0.05,
-    convection_a_w_m2_k: float = CONVECTION_A_W_M2_K,
-    convection_b_j_m3_k: float = CONVECTION_B_J_M3_K,
-) -> float:
-    """Application rate whose latent heat of freezing balances the plant's heat loss.
+    dew_point_c: float,
+    wind_speed_m_s: float,
+    pressure_hpa: float = STANDARD_PRESSURE_HPA,
+    cloud_frac: float = 0.0,
+) -> IcedCanopyLoss:
+    """The heat budget of an iced plant held at 0 degC by freezing water.
 
     Parameters
     ----------
-    net_longwave_loss_w_m2 : float
-        Net longwave loss of the iced surface, positive upward [W m-2].
-    wind_speed_m_s : float
-        Wind speed near the crop [m s-1].
     air_temp_c : float
-        Air temperature expected at the crop (e.g. the projected minimum) [degC].
-    target_temp_c : float
-        Temperature at which the ice-water film is to be held [degC], e.g. 0 or the
-        critical temperature plus a margin.
-    evaporated_frac : float, optional
-        Fraction of applied water that evaporates or sublimes [-], default 0.05.
-    convection_a_w_m2_k, convection_b_j_m3_k : float, optional
-        Coefficients of ``h = a + b u`` [W m-2 K-1] and [W m-2 K-1 per m s-1];
-        defaults 5.7 and 3.8 (McAdams 1954, an engineering assumption).
+        Air temperature the plant is exposed to (tonight's expected minimum) [degC].
+    dew_point_c : float
+        Dew point over water [degC]; capped at the air temperature.
+    wind_speed_m_s : float
+        Wind speed near the crop [m s-1]; below `CALM_WIND_FLOOR_M_S` it is taken as that.
+    pressure_hpa : float, optional
+        Station pressure [hPa].
+    cloud_frac : float, optional
+        Cloud fraction [-], 0-1.
 
     Returns
     -------
-    float
-        Required rate [mm h-1]; 0 when there is no net loss; ``inf`` when
-        ``evaporated_frac`` is at or above the break-even fraction (no rate suffices);
-        NaN if an input is NaN.
-
-    Raises
-    ------
-    ValueError
-        If ``evaporated_frac`` is outside 0-1 or the wind speed is negative.
+    IcedCanopyLoss
+        The three losses; each NaN where an input is NaN or outside a formula's range.
 
     Notes
     -----
-    ``AR = (Rn + h (Tt - Ta)+) / (92.7 (1 - 8.49 x))`` with ``h = a + b u``. The sensible
-    term is floored at zero: air warmer than the target never lowers the rate, so the rate
-    never decreases with wind or with colder air.
+    Radiation: ``L* = sigma (273.15 K)^4 - eps_a sigma Ta^4`` for a 0 degC surface of emissivity
+    0.98 under a Brutsaert (1975) sky with the Jacobs (1978) cloud correction
+    (`frostwatch.physics.radiation.net_longwave_w_m2`). Convection and sublimation through one
+    aerodynamic resistance, FAO-56 eq. 4 for the reference surface at 2 m (208 / u2 s m-1), in
+    the psychrometric form with the WMO ice-bulb coefficient
+    (`frostwatch.physics.exchange.iced_surface_exchange_w_m2`).
 
-    This is a lower bound. It counts one iced surface per square metre of ground and a
-    fixed evaporated fraction, whereas a canopy exposes more iced area and evaporates more
-    in wind. Against the (from memory) Gerber & Harrison (1964) table of frost-physics.md
-    4.2 it agrees to within a factor of about 2 in calm and light wind down to about
-    -6 degC, and runs lower in colder or windier cells. Do not sprinkle above about
-    4.5 m s-1 (`MAX_WIND_FOR_SPRINKLING_M_S`).
+    It counts one iced surface per square metre of ground and the smooth reference surface's
+    transfer, so the rate it gives is a LOWER BOUND: a canopy exposes more iced area and mixes
+    more. It is consistent with the published practice checked in the tests: MSU's 3.0-3.8 mm/h
+    protects in calm air to about -5.6 degC, where the budget asks for about 1.7 mm/h, and in
+    light wind to -4.4 to -3.9 degC, where it asks for about 2.5 mm/h; in a windy, dry freeze it
+    asks for more than the 2.5 mm/h Cooper et al. (1997) found unsafe.
 
     References
     ----------
-    .. [1] frost-physics.md 4.2, heat budget [computed].
-    .. [2] McAdams, W.H. (1954). Heat Transmission, 3rd ed. (from memory).
+    .. [1] Snyder & de Melo-Abreu (2005), FAO-FP ch. 7 (the latent heat of freezing replaces
+       the energy lost).
+    .. [2] Allen et al. (1998), FAO-56 eq. 4; WMO-No. 8 Annex 4.B; Brutsaert (1975).
     """
-    _check_frac(evaporated_frac)
-    inputs = (net_longwave_loss_w_m2, wind_speed_m_s, air_temp_c, target_temp_c)
-    if any(math.isnan(v) for v in inputs):
+    from frostwatch.physics.radiation import net_longwave_w_m2
+
+    values = (air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
+    if any(math.isnan(float(v)) for v in values):
+        return IcedCanopyLoss(math.nan, math.nan, math.nan, math.nan)
+    wind = max(float(wind_speed_m_s), CALM_WIND_FLOOR_M_S)
+    e_hpa = float(vapour_pressure_hpa_from_dew_point(min(dew_point_c, air_temp_c)))
+    radiation = -float(net_longwave_w_m2(air_temp_c, e_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0))
+    r_a = float(aerodynamic_resistance_s_m(wind))
+    sensible, latent = iced_surface_exchange_w_m2(air_temp_c, e_hpa, r_a, pressure_hpa, 0.0)
+    return IcedCanopyLoss(radiation, sensible, latent, wind)
+
+
+def rate_for_heat_loss_mm_h(heat_loss_w_m2: float) -> float:
+    """Application rate whose freezing releases `heat_loss_w_m2` [mm h-1]: loss / (Lf / 3600 s).
+
+    0 for no loss; NaN for NaN.
+    """
+    if math.isnan(heat_loss_w_m2):
         return math.nan
-    if wind_speed_m_s < 0:
-        raise ValueError(f"wind_speed_m_s {wind_speed_m_s!r}; expected >= 0")
-    h_w_m2_k = convection_a_w_m2_k + convection_b_j_m3_k * wind_speed_m_s
-    sensible_loss_w_m2 = max(h_w_m2_k * (target_temp_c - air_temp_c), 0.0)
-    loss_w_m2 = max(net_longwave_loss_w_m2, 0.0) + sensible_loss_w_m2
-    if loss_w_m2 == 0.0:
-        return 0.0
-    factor = 1.0 - _sublimation_to_fusion_ratio() * evaporated_frac
-    if factor <= 0.0:
-        return math.inf
-    return loss_w_m2 / (heat_released_w_m2_per_mm_h() * factor)
+    return max(0.0, heat_loss_w_m2) / heat_released_w_m2_per_mm_h()
+
+
+@dataclass(frozen=True)
+class TableRate:
+    """Kept for callers that still read `RateTonight.table`: no table cell is ever looked up."""
+
+    rate_mm_h: float | None = None
+    row_min_temp_f: float | None = None
+    wind_class_mph: tuple[float, float] | None = None
+    note: str = "no printed application-rate table is cited; the heat budget governs"
+
+
+@dataclass(frozen=True)
+class RateTonight:
+    """The application rate tonight needs, from the heat budget of the iced plant.
+
+    Attributes
+    ----------
+    required_mm_h : float
+        The heat budget's rate [mm h-1], a lower bound (see `iced_canopy_heat_loss`); NaN when
+        unknown.
+    heat_budget_mm_h : float
+        The same figure (kept under this name for callers).
+    table : TableRate
+        Always empty: no table governs (kept for callers).
+    governed_by : str
+        "heat budget".
+    net_loss_w_m2 : float
+        Net longwave loss of the iced surface [W m-2].
+    beyond_table : bool
+        Always False (kept for callers).
+    sensible_w_m2, latent_w_m2 : float
+        Convection and sublimation losses [W m-2].
+    wind_used_m_s : float
+        The wind the budget was computed for [m s-1].
+    """
+
+    required_mm_h: float
+    heat_budget_mm_h: float
+    table: TableRate
+    governed_by: str
+    net_loss_w_m2: float
+    beyond_table: bool = False
+    sensible_w_m2: float = math.nan
+    latent_w_m2: float = math.nan
+    wind_used_m_s: float = math.nan
+
+
+def rate_tonight_mm_h(
+    min_temp_c: float,
+    dew_point_c: float,
+    wind_speed_m_s: float,
+    cloud_frac: float = 0.0,
+    pressure_hpa: float = STANDARD_PRESSURE_HPA,
+) -> RateTonight:
+    """The application rate tonight's expected minimum asks for: the iced plant's heat budget.
+
+    Parameters
+    ----------
+    min_temp_c : float
+        Expected minimum air temperature [degC].
+    dew_point_c : float
+        Dew point [degC] (capped at the air temperature).
+    wind_speed_m_s : float
+        Wind speed [m s-1]; NaN gives NaN (never pass 0 for unknown; pass 0 for the calm-air
+        floor).
+    cloud_frac : float, optional
+        Cloud fraction [-].
+    pressure_hpa : float, optional
+        Station pressure [hPa].
+
+    Notes
+    -----
+    ``AR = (L* + H + lambda E) / (Lf / 3600)``: see `iced_canopy_heat_loss`. A system below this
+    rate cannot hold the iced buds at 0 degC; one at or above it may still fall short (it is a
+    lower bound): compare with `PRACTICE_SOURCE`.
+    """
+    loss = iced_canopy_heat_loss(min_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
+    rate = rate_for_heat_loss_mm_h(loss.total_w_m2) if math.isfinite(loss.radiation_w_m2) else math.nan
+    return RateTonight(
+        required_mm_h=rate, heat_budget_mm_h=rate, table=TableRate(), governed_by="heat budget",
+        net_loss_w_m2=loss.radiation_w_m2, beyond_table=False, sensible_w_m2=loss.sensible_w_m2,
+        latent_w_m2=loss.latent_w_m2, wind_used_m_s=loss.wind_used_m_s,
+    )
 
 
 def rate_shortfall_mm_h(required_mm_h: float, capacity_mm_h: float) -> float:
@@ -264,298 +385,3 @@ def water_volume_m3(
 def peak_flow_l_s(application_rate_mm_h: float, area_ha: float) -> float:
     """Flow needed to run an area at once [L s-1]: 1 mm h-1 over 1 ha is 2.78 L s-1."""
     return application_rate_mm_h * area_ha * _M3_PER_MM_HA * 1000.0 / _SECONDS_PER_HOUR
-
-
-def sprinkler_start_air_temp_c(
-    dew_point_c: float,
-    critical_c: float,
-    margin_c: float = 0.0,
-    pressure_hpa: float = 1013.25,
-) -> float:
-    """Air temperature at which the wet bulb falls to the critical temperature plus a margin.
-
-    Sprinklers must be running before the air cools to this temperature: once water
-    starts evaporating, the wetted buds fall towards the wet bulb.
-
-    Parameters
-    ----------
-    dew_point_c : float
-        Dew point over liquid water, as hygrometers report it [degC].
-    critical_c : float
-        Critical bud temperature of the stage [degC].
-    margin_c : float, optional
-        Safety margin added to ``critical_c`` [degC].
-    pressure_hpa : float, optional
-        Station pressure [hPa].
-
-    Returns
-    -------
-    float
-        Start air temperature [degC]; NaN when the dew point is above the target wet
-        bulb. The wet bulb can never fall below the dew point, so the air temperature
-        itself then governs: start no later than the air reaching the target.
-
-    Notes
-    -----
-    Uses `frostwatch.physics.humidity.air_temp_c_for_wet_bulb` (ASHRAE psychrometrics,
-    ice bulb below 0 degC). This is the FAO-FP Table 7.5 method; frost-physics.md 10 gives
-    rechecked values (e.g. Td -10, Tc -2: 2.0 degC).
-
-    References
-    ----------
-    .. [1] Snyder & de Melo-Abreu (2005), FAO-FP p. 168, Table 7.5.
-    """
-    target_wet_bulb_c = critical_c + margin_c
-    if math.isnan(dew_point_c) or math.isnan(target_wet_bulb_c):
-        return math.nan
-    if dew_point_c > target_wet_bulb_c:
-        return math.nan
-    return float(air_temp_c_for_wet_bulb(target_wet_bulb_c, dew_point_c, pressure_hpa))
-
-
-def sprinkler_stop_ok(
-    after_sunrise: bool,
-    wet_bulb_c: float,
-    critical_c: float,
-    wet_bulb_trend_c_per_h: float,
-    margin_c: float = 0.0,
-) -> bool:
-    """Whether over-plant sprinklers may be stopped.
-
-    Parameters
-    ----------
-    after_sunrise : bool
-        True once the sun has risen at the site.
-    wet_bulb_c : float
-        Current (upwind) wet-bulb temperature [degC].
-    critical_c : float
-        Critical bud temperature of the stage [degC].
-    wet_bulb_trend_c_per_h : float
-        Recent rate of change of the wet bulb [degC h-1].
-    margin_c : float, optional
-        Margin the wet bulb must exceed the critical temperature by [degC].
-
-    Returns
-    -------
-    bool
-        True only after sunrise, with the wet bulb above ``critical_c + margin_c`` and
-        rising. Never True while the wet bulb is at or below critical, and False for any
-        NaN input.
-
-    Notes
-    -----
-    FAO-FP also allows stopping when all the ice is melting (water between ice and
-    twig); that observation is the grower's, not this rule's. UF/IFAS Circ. 348: a wet
-    bulb of 0 degC or more is safe for any part of the plant.
-
-    References
-    ----------
-    .. [1] Snyder & de Melo-Abreu (2005), FAO-FP p. 168.
-    .. [2] Harrison, Gerber & Choate, UF/IFAS Circular 348.
-    """
-    values = (wet_bulb_c, critical_c, wet_bulb_trend_c_per_h, margin_c)
-    if not all(math.isfinite(v) for v in values):
-        return False
-    return (
-        bool(after_sunrise)
-        and wet_bulb_c > critical_c + margin_c
-        and wet_bulb_trend_c_per_h > 0
-    )
-
-
-# ---- the Gerber & Harrison (1964) / UF Circ. 287 table: a labelled cross-check ----------------
-
-# FROM MEMORY, every cell unverified (frost-physics.md 4.2 and 10): application rate [in h-1] by
-# minimum temperature [degF] (rows, warm to cold) and wind class [mph] (columns, calm to windy).
-# None is a cell the table leaves empty. Used only as a cross-check of the heat budget, looked up
-# in the grower's favour: the windier class and the colder row, never interpolated.
-GERBER_HARRISON_WIND_CLASSES_MPH: Final = ((0.0, 1.0), (2.0, 4.0), (5.0, 8.0), (10.0, 14.0), (18.0, 22.0))
-GERBER_HARRISON_ROWS_F: Final = (
-    (27.0, (0.10, 0.10, 0.10, 0.10, 0.20)),
-    (26.0, (0.10, 0.10, 0.14, 0.20, 0.40)),
-    (24.0, (0.10, 0.16, 0.30, 0.40, 0.80)),
-    (22.0, (0.12, 0.24, 0.50, 0.60, 1.00)),
-    (20.0, (0.16, 0.30, 0.60, 0.80, None)),
-    (18.0, (0.20, 0.40, 0.70, 1.00, None)),
-    (15.0, (0.26, 0.50, 0.90, None, None)),
-    (11.0, (0.34, 0.70, None, None, None)),
-)
-GERBER_HARRISON_SOURCE: Final = (
-    "Gerber & Harrison (1964) / UF Ext. Circ. 287 table, from memory (cells unverified)"
-)
-_MM_PER_IN: Final = 25.4
-_M_S_PER_MPH: Final = 0.44704
-
-
-@dataclass(frozen=True)
-class TableRate:
-    """A cell of the Gerber & Harrison table as looked up for tonight.
-
-    Attributes
-    ----------
-    rate_mm_h : float or None
-        The cell [mm h-1]; None where the table has no cell this cold or this windy.
-    row_min_temp_f : float or None
-        The row used [degF] (the row at or colder than tonight's minimum).
-    wind_class_mph : tuple of float or None
-        The wind class used [mph] (the class whose upper bound is at or above tonight's wind).
-    note : str
-        How the cell was chosen, or why there is none.
-    """
-
-    rate_mm_h: float | None
-    row_min_temp_f: float | None
-    wind_class_mph: tuple[float, float] | None
-    note: str
-
-
-def gerber_harrison_rate_mm_h(min_temp_c: float, wind_speed_m_s: float) -> TableRate:
-    """Look up the (from memory) Gerber & Harrison application-rate table, in the grower's favour.
-
-    Parameters
-    ----------
-    min_temp_c : float
-        Expected minimum air temperature [degC].
-    wind_speed_m_s : float
-        Wind speed [m s-1].
-
-    Returns
-    -------
-    TableRate
-        The cell of the colder row (the first row at or below ``min_temp_c``; the 27 degF row
-        for anything warmer) and the windier class (the first class whose upper bound is at or
-        above the wind; a wind between two classes takes the windier one). ``rate_mm_h`` is
-        None when the minimum is colder than the table's last row, the wind is above its last
-        class, the cell is empty, or an input is NaN.
-
-    Notes
-    -----
-    Never interpolated: interpolation would put a value between two cells, and the lower of
-    them is the grower's disfavour. Every cell is from memory (frost-physics.md 10): this is a
-    labelled cross-check of `required_application_rate_mm_h`, never the only figure.
-
-    References
-    ----------
-    .. [1] Gerber, J.F. & Harrison, D.S. (1964); Univ. Florida Ext. Circ. 287 (from memory).
-    """
-    if math.isnan(min_temp_c) or math.isnan(wind_speed_m_s):
-        return TableRate(None, None, None, "temperature or wind unknown: no table cell")
-    min_f = min_temp_c * 9.0 / 5.0 + 32.0
-    wind_mph = max(wind_speed_m_s, 0.0) / _M_S_PER_MPH
-    row = next((r for r in GERBER_HARRISON_ROWS_F if r[0] <= min_f + 1e-9), None)
-    if min_f >= GERBER_HARRISON_ROWS_F[0][0]:
-        row = GERBER_HARRISON_ROWS_F[0]
-    col = next(
-        (i for i, (_lo, hi) in enumerate(GERBER_HARRISON_WIND_CLASSES_MPH) if wind_mph <= hi + 1e-9),
-        None,
-    )
-    if row is None:
-        return TableRate(None, None, None, f"{min_f:.0f} F is colder than the table's last row (11 F)")
-    if col is None:
-        return TableRate(None, row[0], None, f"wind {wind_mph:.0f} mph is above the table's last class (22 mph)")
-    cls = GERBER_HARRISON_WIND_CLASSES_MPH[col]
-    cell = row[1][col]
-    if cell is None:
-        return TableRate(None, row[0], cls, f"the table has no cell for {row[0]:.0f} F at {cls[0]:.0f}-{cls[1]:.0f} mph")
-    return TableRate(
-        cell * _MM_PER_IN,
-        row[0],
-        cls,
-        f"{row[0]:.0f} F row, {cls[0]:.0f}-{cls[1]:.0f} mph class: {cell:.2f} in/h (colder row, windier class)",
-    )
-
-
-def iced_surface_net_loss_w_m2(
-    air_temp_c: float, vapour_pressure_hpa: float, cloud_frac: float = 0.0
-) -> float:
-    """Net longwave loss of a plant held at 0 degC under freezing water, positive upward [W m-2].
-
-    Notes
-    -----
-    The radiating surface is the ice-water film at 0 degC (the point of sprinkling), under a
-    Brutsaert (1975) sky at the air temperature with the Jacobs (1978) cloud correction, via
-    `frostwatch.physics.radiation.net_longwave_w_m2`. NaN outside that function's range.
-    """
-    from frostwatch.physics.radiation import net_longwave_w_m2
-
-    return -float(net_longwave_w_m2(air_temp_c, vapour_pressure_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0))
-
-
-@dataclass(frozen=True)
-class RateTonight:
-    """The application rate tonight needs: heat budget, table cross-check, and which governed.
-
-    Attributes
-    ----------
-    required_mm_h : float
-        The larger of the two figures [mm h-1] (NaN when neither is known).
-    heat_budget_mm_h : float
-        From `required_application_rate_mm_h` [mm h-1].
-    table : TableRate
-        The cross-check cell.
-    governed_by : str
-        "heat budget" or "table (from memory)".
-    net_loss_w_m2 : float
-        Net longwave loss of the iced surface [W m-2].
-    beyond_table : bool
-        True when tonight is colder or windier than any cell of the table: the requirement is
-        then a floor only (the largest cell of the row at lower wind, or the heat budget), and
-        over-plant sprinkling is unlikely to protect.
-    """
-
-    required_mm_h: float
-    heat_budget_mm_h: float
-    table: TableRate
-    governed_by: str
-    net_loss_w_m2: float
-    beyond_table: bool = False
-
-
-def rate_tonight_mm_h(
-    min_temp_c: float,
-    dew_point_c: float,
-    wind_speed_m_s: float,
-    cloud_frac: float = 0.0,
-    evaporated_frac: float = 0.05,
-) -> RateTonight:
-    """Application rate for tonight: the heat budget, checked against the table, the larger governs.
-
-    Parameters
-    ----------
-    min_temp_c : float
-        Expected minimum air temperature [degC].
-    dew_point_c : float
-        Dew point [degC] (capped at the air temperature).
-    wind_speed_m_s : float
-        Wind speed [m s-1]; NaN gives a NaN heat-budget figure (do not pass 0 for unknown).
-    cloud_frac : float, optional
-        Cloud fraction [-].
-    evaporated_frac : float, optional
-        Evaporated fraction of the water [-], default 0.05.
-
-    Notes
-    -----
-    The heat budget holds the iced plant at 0 degC: net longwave of a 0 degC surface plus the
-    sensible loss ``(5.7 + 3.8 u) (0 - Ta)``, over ``92.7 (1 - 8.49 x)``. It is a lower bound
-    (it counts one iced surface per m2 of ground), so the table cell is taken whenever it is
-    higher, as frost-physics.md 10 asks.
-    """
-    from frostwatch.physics.humidity import vapour_pressure_hpa_from_dew_point
-
-    e_hpa = float(vapour_pressure_hpa_from_dew_point(min(dew_point_c, min_temp_c)))
-    loss = iced_surface_net_loss_w_m2(min_temp_c, e_hpa, cloud_frac)
-    budget = required_application_rate_mm_h(max(loss, 0.0), wind_speed_m_s, min_temp_c, 0.0, evaporated_frac) \
-        if math.isfinite(loss) else math.nan
-    table = gerber_harrison_rate_mm_h(min_temp_c, wind_speed_m_s)
-    beyond = table.rate_mm_h is None and not (math.isnan(min_temp_c) or math.isnan(wind_speed_m_s))
-    table_floor = table.rate_mm_h
-    if beyond:
-        # colder or windier than any cell: the largest cell of the row (or of the last row) is a floor
-        row = next((r for r in GERBER_HARRISON_ROWS_F if r[0] == table.row_min_temp_f), GERBER_HARRISON_ROWS_F[-1])
-        table_floor = max(c for c in row[1] if c is not None) * _MM_PER_IN
-    candidates = [v for v in (budget, table_floor) if v is not None and not math.isnan(v)]
-    if not candidates:
-        return RateTonight(math.nan, budget, table, "unknown", loss, beyond)
-    required = max(candidates)
-    governed = "table (from memory)" if table_floor is not None and (math.isnan(budget) or table_floor > budget) else "heat budget"
-    return RateTonight(required, budget, table, governed, loss, beyond)

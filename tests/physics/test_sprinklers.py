@@ -13,11 +13,11 @@ from frostwatch.physics.sprinklers import (
     LATENT_HEAT_VAPORISATION_J_KG,
     capacity_adequate,
     evaporation_break_even_frac,
+    fallback_stop_air_temp_c,
     heat_released_w_m2_per_mm_h,
     net_heat_w_m2,
     peak_flow_l_s,
     rate_shortfall_mm_h,
-    required_application_rate_mm_h,
     sprinkler_start_air_temp_c,
     sprinkler_stop_ok,
     water_volume_m3,
@@ -29,10 +29,15 @@ MPH_TO_M_S = 0.44704
 IN_TO_MM = 25.4
 
 
-def test_latent_heats_vs_frost_physics_4_2():
-    # frost-physics.md 4.2: Lf 0.334, Lv(0 C) 2.501, Ls 2.834 MJ/kg; Lv/Lf about 7.5.
+def test_latent_heats_vs_metpy_constants_and_frost_physics_4_2():
+    # MetPy's constants module (metpy.constants.Lf, Lv, Ls), and frost-physics.md 4.2: Lf 0.334,
+    # Lv(0 C) 2.501, Ls 2.834 MJ/kg; Lv/Lf about 7.5.
+    from metpy import constants
+
+    assert LATENT_HEAT_FUSION_J_KG == pytest.approx(constants.Lf.m_as("J/kg"))
+    assert LATENT_HEAT_VAPORISATION_J_KG == pytest.approx(constants.Lv.m_as("J/kg"))
+    assert LATENT_HEAT_SUBLIMATION_J_KG == pytest.approx(constants.Ls.m_as("J/kg"))
     assert LATENT_HEAT_FUSION_J_KG == pytest.approx(0.334e6, abs=0.5e3)
-    assert LATENT_HEAT_VAPORISATION_J_KG == pytest.approx(2.501e6)
     assert LATENT_HEAT_SUBLIMATION_J_KG == pytest.approx(2.834e6, abs=1e3)
     assert LATENT_HEAT_VAPORISATION_J_KG / LATENT_HEAT_FUSION_J_KG == pytest.approx(
         7.5, abs=0.05
@@ -41,7 +46,7 @@ def test_latent_heats_vs_frost_physics_4_2():
 
 def test_heat_released_w_m2_per_mm_h_vs_frost_physics_4_2():
     # frost-physics.md 4.2 [computed]: 92.8 W m-2 per mm h-1 from Lf = 0.334 MJ/kg;
-    # tolerance 0.15 because 333.6 kJ/kg gives 92.67 (the sheet rounds Lf to 0.334).
+    # tolerance 0.15 because 333.7 kJ/kg gives 92.69 (the sheet rounds Lf to 0.334).
     assert heat_released_w_m2_per_mm_h() == pytest.approx(92.8, abs=0.15)
 
 
@@ -53,7 +58,7 @@ def test_evaporation_break_even_frac_vs_frost_physics_4_2():
     )
     assert net_heat_w_m2(1.0, 0.0) == pytest.approx(heat_released_w_m2_per_mm_h())
     assert net_heat_w_m2(3.0, 0.05) == pytest.approx(
-        3.0 * 92.67 * (1 - 8.497 * 0.05), rel=1e-3
+        3.0 * 92.69 * (1 - 8.494 * 0.05), rel=1e-3
     )
     assert net_heat_w_m2(3.0, 0.2) < 0  # above break-even sprinkling cools
     with pytest.raises(ValueError):
@@ -158,84 +163,6 @@ def test_sprinkler_start_air_temp_c_margin_and_altitude():
     assert math.isnan(sprinkler_start_air_temp_c(math.nan, -2.2))
 
 
-def test_required_application_rate_mm_h_vs_frost_physics_4_2_formula():
-    # frost-physics.md 4.2 [computed]: AR = Q / (92.8 (1 - 8.49 x)); calm term only.
-    rate = required_application_rate_mm_h(100.0, 0.0, 0.0, 0.0, evaporated_frac=0.05)
-    # rel 3e-3: the sheet's 92.8 and 8.49 are rounded (Lf = 0.334 vs 0.3336 MJ/kg).
-    assert rate == pytest.approx(100.0 / (92.8 * (1 - 8.49 * 0.05)), rel=3e-3)
-    assert required_application_rate_mm_h(0.0, 1.0, 2.0, 0.0) == 0.0
-    assert (
-        required_application_rate_mm_h(100.0, 1.0, -5.0, 0.0, evaporated_frac=0.2)
-        == math.inf
-    )
-    assert math.isnan(required_application_rate_mm_h(math.nan, 1.0, -5.0, 0.0))
-
-
-def test_required_application_rate_mm_h_more_wind_and_colder_air_need_more():
-    winds = np.arange(0.0, 4.6, 0.25)
-    for air_temp_c in (-2.0, -5.0, -9.0):
-        rates = [
-            required_application_rate_mm_h(90.0, u, air_temp_c, 0.0) for u in winds
-        ]
-        assert all(b > a for a, b in itertools.pairwise(rates))
-    for wind_speed_m_s in (0.0, 1.0, 3.0):
-        rates = [
-            required_application_rate_mm_h(90.0, wind_speed_m_s, t, 0.0)
-            for t in np.arange(-12.0, 0.0, 0.5)
-        ]
-        assert all(
-            a > b for a, b in itertools.pairwise(rates)
-        )  # warmer air -> less water
-    # Air warmer than the target never lowers the requirement below the radiative need.
-    assert required_application_rate_mm_h(90.0, 3.0, 2.0, 0.0) == pytest.approx(
-        required_application_rate_mm_h(90.0, 0.0, 0.0, 0.0)
-    )
-
-
-# Gerber & Harrison (1964) / UF Ext. Circ. 287 table as reproduced in frost-physics.md 4.2:
-# FROM MEMORY, every cell unverified (section 10). Cross-check only, never a specification.
-# (Tmin degF, wind class midpoint mph, rate in h-1)
-GERBER_HARRISON_FROM_MEMORY = [
-    (27, 0.5, 0.10),
-    (26, 0.5, 0.10),
-    (24, 0.5, 0.10),
-    (22, 0.5, 0.12),
-    (20, 0.5, 0.16),
-    (18, 0.5, 0.20),
-    (27, 3.0, 0.10),
-    (26, 3.0, 0.10),
-    (24, 3.0, 0.16),
-]
-
-
-@pytest.mark.parametrize(
-    ("tmin_f", "wind_mph", "table_in_h"), GERBER_HARRISON_FROM_MEMORY
-)
-def test_required_application_rate_mm_h_vs_gerber_harrison_1964_from_memory(
-    tmin_f, wind_mph, table_in_h
-):
-    # From memory, Gerber & Harrison 1964 / UF Circ. 287 table, cross-check only: same ballpark
-    # (factor 2) in calm and light wind down to 18 F calm / 24 F light wind. Colder or windier
-    # cells of that table are higher than this lower-bound model (22 F light wind: 0.49x;
-    # 20 F at 5-8 mph: about 0.25x; see the
-    # function's Notes). Net loss 100 W m-2 (iced surface at 0 C, clear sky, section 2.5 range),
-    # 5 % evaporated.
-    air_temp_c = (tmin_f - 32) * 5 / 9
-    rate = required_application_rate_mm_h(100.0, wind_mph * MPH_TO_M_S, air_temp_c, 0.0)
-    ratio = rate / (table_in_h * IN_TO_MM)
-    assert 0.5 <= ratio <= 2.0
-
-
-def test_required_application_rate_mm_h_vs_msu_longstroth_2012():
-    # MSU Extension (Longstroth 2012), confirmed in frost-physics.md 10: 3.0-3.8 mm/h protects to
-    # about -5.6 C in calm air and -4.4 to -3.9 C in light wind. The model's need at those
-    # conditions must not exceed what those systems deliver.
-    calm = required_application_rate_mm_h(100.0, 0.3, -5.6, 0.0)
-    light = required_application_rate_mm_h(100.0, 1.3, -4.4, 0.0)
-    assert 2.0 <= calm <= 3.8
-    assert 2.0 <= light <= 3.8
-
-
 def test_rate_shortfall_and_capacity():
     assert rate_shortfall_mm_h(4.0, 3.2) == pytest.approx(0.8)
     assert rate_shortfall_mm_h(2.0, 3.2) == 0.0
@@ -266,3 +193,25 @@ def test_sprinkler_stop_ok_vs_uf_ifas_circ_348_and_fao_fp_p168():
     assert not sprinkler_stop_ok(True, -1.5, -2.2, 0.8, margin_c=1.0)
     assert not sprinkler_stop_ok(True, math.nan, -2.2, 0.8)
     assert not sprinkler_stop_ok(True, -1.0, -2.2, math.nan)
+    # a real rise, not sensor steps: +0.1 or +0.2 degC per hour over 30 min is within the 0.1 degC
+    # resolution of the readings (MIN_RISE_C_PER_H = 0.3, an engineering choice)
+    assert not sprinkler_stop_ok(True, -1.0, -2.2, 0.1)
+    assert not sprinkler_stop_ok(True, -1.0, -2.2, 0.2)
+    assert sprinkler_stop_ok(True, -1.0, -2.2, 0.3)
+    assert not sprinkler_stop_ok(True, -1.0, -2.2, 0.3, min_rise_c_per_h=0.5)
+
+
+def test_fallback_stop_air_temp_c_by_hand():
+    # No unsprinkled reference station: wait for the in-block air to pass max(0 C, the air
+    # temperature at which the night's driest air has its wet bulb at T10) plus 1 K.
+    # Td -10, T10 -2: frost-physics.md 10 rechecked table gives 2.0 C -> 3.0 C.
+    assert fallback_stop_air_temp_c(-10.0, -2.0) == pytest.approx(3.0, abs=0.1)
+    # Td -5.4 (the unsprinkled hill of the demo), T10 -2.2: the table method gives about -0.4 C,
+    # below 0 C, so 0 + 1 K.
+    assert fallback_stop_air_temp_c(-5.4, -2.2) == pytest.approx(1.0)
+    assert fallback_stop_air_temp_c(-10.0, -2.0, margin_c=2.0) == pytest.approx(4.0, abs=0.1)
+    # no dew point measured at all: the UF/IFAS Circ. 348 "0 C wet bulb is safe" air temperature
+    # for a very dry -15 C dew point (frost-physics.md 10 rechecked table, Tc = 0 column: Td -16 ->
+    # 7.5, Td -14 -> 6.5; that column moves by up to 0.4 C on the ice/water switch) plus the margin
+    assert 6.5 + 1.0 - 0.4 < fallback_stop_air_temp_c(math.nan, -2.2) < 7.5 + 1.0 + 0.4
+    assert math.isnan(fallback_stop_air_temp_c(-5.0, math.nan))
