@@ -51,9 +51,11 @@ INVERSION_STRONG_MIN_C: Final = 3.0
 # Wind machines not recommended above 2.5 m s-1: an inversion is unlikely (FAO-FP p. 160).
 MAX_WIND_FOR_FANS_M_S: Final = 2.5
 
-# Warming at crop height as a fraction of the inversion: ENGINEERING ASSUMPTION (from
-# memory / common practice; no published rule found, frost-physics.md 10). McMeeking et
-# al. (2002): 3.5 degC inversion -> 1-2 degC warming, i.e. a fraction of about 0.3-0.55.
+# Warming at crop height as a fraction of the inversion. No published rule exists
+# (frost-physics.md 10); the band is read from the one measured case, McMeeking et al. (2002):
+# a 3.5 degC inversion gave 1-2 degC of warming, a fraction of 0.29-0.57. The sufficiency
+# judgement uses only the low end (0.3, the measured lower bound); the default 0.4 and the high
+# end are an ENGINEERING ASSUMPTION within that measured band, shown as a range.
 GAIN_FRACTION_LOW: Final = 0.3
 GAIN_FRACTION_DEFAULT: Final = 0.4
 GAIN_FRACTION_HIGH: Final = 0.5
@@ -112,8 +114,8 @@ def wind_machine_gain_c(
     inversion_c : float
         T(tower) - T(crop height) [degC].
     gain_fraction : float, optional
-        Fraction of the inversion recovered at crop height [-]; default 0.4, usual band
-        0.3-0.5 (an engineering assumption, from memory / common practice).
+        Fraction of the inversion recovered at crop height [-]; default 0.4, band 0.3-0.5
+        (within McMeeking et al. 2002's measured 0.29-0.57; an engineering assumption).
 
     Returns
     -------
@@ -147,7 +149,7 @@ class WindMachineSuitability:
         True when wind, fog and inversion allow fans to warm the crop.
     sufficient : bool
         True when useful and the projected minimum plus the low-band gain stays at or
-        above the critical temperature.
+        above the critical temperature plus the margin.
     expected_gain_c : float
         Warming at the chosen gain fraction [degC]; 0 when not useful.
     expected_gain_low_c, expected_gain_high_c : float
@@ -173,6 +175,7 @@ def wind_machine_suitability(
     min_inversion_c: float = MIN_USEFUL_INVERSION_C,
     max_wind_m_s: float = MAX_WIND_FOR_FANS_M_S,
     gain_fraction: float = GAIN_FRACTION_DEFAULT,
+    margin_c: float = 0.0,
 ) -> WindMachineSuitability:
     """Judge whether wind machines will help and whether they alone will hold the crop.
 
@@ -194,6 +197,10 @@ def wind_machine_suitability(
         Wind above which fans are not used [m s-1]; default 2.5 (FAO-FP p. 160).
     gain_fraction : float, optional
         Fraction of the inversion recovered at crop height [-]; default 0.4.
+    margin_c : float, optional
+        Safety margin above the critical temperature [degC]: fans are sufficient only when the
+        projected minimum plus the low-band gain reaches ``critical_c + margin_c`` (buds run
+        1-2 degC below screen air on clear nights, so holding the air at T10 is not enough).
 
     Returns
     -------
@@ -253,30 +260,31 @@ def wind_machine_suitability(
         gain = gain_low = gain_high = 0.0
 
     sufficient = False
-    if math.isnan(projected_min_c) or math.isnan(critical_c):
+    line_c = critical_c + margin_c
+    if math.isnan(projected_min_c) or math.isnan(line_c):
         reasons.append("projected minimum or critical temperature unknown")
     else:
-        deficit_c = critical_c - projected_min_c
+        deficit_c = line_c - projected_min_c
         if deficit_c <= 0:
             reasons.append(
-                f"projected minimum {-deficit_c:.1f} C above critical: no protection needed "
-                "on this projection"
+                f"projected minimum {-deficit_c:.1f} C above critical + margin: no protection "
+                "needed on this projection"
             )
             sufficient = useful
         elif useful and gain_low >= deficit_c:
             sufficient = True
             reasons.append(
-                f"projected minimum {deficit_c:.1f} C below critical: fans should hold it"
+                f"projected minimum {deficit_c:.1f} C below critical + margin: fans should hold it"
             )
         elif useful:
             reasons.append(
-                f"projected minimum {deficit_c:.1f} C below critical: fans alone will not hold "
-                "it; consider sprinklers or heaters with fans"
+                f"projected minimum {deficit_c:.1f} C below critical + margin: fans alone will "
+                "not hold it; consider sprinklers or heaters with fans"
             )
         else:
             reasons.append(
-                f"projected minimum {deficit_c:.1f} C below critical and fans will not help: "
-                "consider sprinklers or heaters"
+                f"projected minimum {deficit_c:.1f} C below critical + margin and fans will not "
+                "help: consider sprinklers or heaters"
             )
     return WindMachineSuitability(
         useful=useful,

@@ -99,10 +99,26 @@ def test_wind_machine_suitability_fans_alone_not_enough():
     result = wind_machine_suitability(4.0, 0.8, -5.3, -2.2)
     assert result.useful and not result.sufficient
     assert any(
-        "projected minimum 3.1 C below critical: fans alone will not hold it; consider "
-        "sprinklers or heaters with fans" in reason
+        "projected minimum 3.1 C below critical + margin: fans alone will not hold it; "
+        "consider sprinklers or heaters with fans" in reason
         for reason in result.reasons
     )
+
+
+def test_wind_machine_suitability_judged_against_t10_plus_margin():
+    # Buds run 1-2 C below screen air on clear nights (frost-physics.md 5, common practice), so
+    # "fans should hold it" must mean the air is held at T10 + margin, not at T10. Hand
+    # computation: inversion 4 C, low-band gain 0.3 * 4 = 1.2 C (McMeeking et al. 2002's measured
+    # lower end); projected -3.0 C: -3.0 + 1.2 = -1.8 C. That holds T10 (-2.2) but not
+    # T10 + 2 (-0.2).
+    assert wind_machine_suitability(4.0, 0.8, -3.0, -2.2).sufficient
+    held = wind_machine_suitability(4.0, 0.8, -3.0, -2.2, margin_c=2.0)
+    assert held.useful and not held.sufficient
+    assert any("2.8 C below critical + margin" in r for r in held.reasons)
+    # with a 1 C margin the line is -1.2 C: -1.8 < -1.2, still not sufficient; 0.4 C margin: -1.8 is
+    # at the line, sufficient
+    assert not wind_machine_suitability(4.0, 0.8, -3.0, -2.2, margin_c=1.0).sufficient
+    assert wind_machine_suitability(4.0, 0.8, -3.0, -2.2, margin_c=0.4).sufficient
 
 
 def test_wind_machine_suitability_unknown_inputs_are_not_useful():
