@@ -218,9 +218,4 @@ def plan_advice(
         cautions.append(Caution.WET_BULB_AT_T10)
     if verdict.resources is not None and verdict.resources.fed_area_ha is not None:
         cautions.append(Caution.SUPPLY_SHORT)
-    sp = verdict.sprinklers
-    if verdict.advised and sp is not None and sp.capacity_mm_h is not None and not sp.undertree:
-        wanted = sp.required_mm_h if sp.required_mm_h is not None else sp.calm_air_mm_h
-        if wanted is not None and sp.capacity_mm_h < wanted:
-            cautions.append(Caution.RATE_UNVERIFIED)
     return AdvicePlan(**base, step=step, verdicts=(verdict,), stop=stop, cautions=tuple(cautions))

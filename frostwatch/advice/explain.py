@@ -8,6 +8,7 @@ from __future__ import annotations
 from frostwatch.advice.plan import AdvicePlan, Method, MethodVerdict, Risk, WhyNot
 from frostwatch.advice.render import METHOD_NAME, risk_reason
 from frostwatch.display import Display
+from frostwatch.physics import sprinklers
 
 _REGIME = {
     "windy": "windy night: the radiation model does not hold; the projection leans on the observed trend",
@@ -35,14 +36,12 @@ def why_not(v: MethodVerdict, d: Display) -> str:
     if w is WhyNot.TOO_WINDY_FOR_SPRINKLERS and s is not None:
         return (f"wind {s.wind_speed_m_s:.1f} m/s is above about {s.wind_limit_m_s:g} m/s: over-tree sprinkling "
                 "does not protect in that wind")
-    if w is WhyNot.BEYOND_TABLE:
-        return ("tonight is colder or windier than any cell of the application-rate table: over-tree sprinkling is "
-                "unlikely to protect")
     if w is WhyNot.RATE_SHORT and s is not None:
         if s.required_mm_h is None:
-            return (f"even in calm air tonight needs at least {s.calm_air_mm_h:.1f} mm/h but the system delivers "
-                    f"{s.capacity_mm_h:g} mm/h")
-        return f"tonight needs about {s.required_mm_h:.1f} mm/h but the system delivers {s.capacity_mm_h:g} mm/h"
+            return (f"even in calm air the heat budget of the iced buds asks for at least {s.calm_air_mm_h:.1f} mm/h "
+                    f"but the system delivers {s.capacity_mm_h:g} mm/h")
+        return (f"the heat budget of the iced buds asks for at least {s.required_mm_h:.1f} mm/h tonight but the system "
+                f"delivers {s.capacity_mm_h:g} mm/h")
     if w is WhyNot.LINES_MAY_FREEZE and s is not None:
         return f"the system's {s.capacity_mm_h:g} mm/h is below {s.min_mm_h:g} mm/h: the lines may freeze"
     return str(w)
@@ -95,11 +94,9 @@ def _sprinkler_facts(plan: AdvicePlan, v: MethodVerdict, d: Display) -> list[str
         if s.capacity_mm_h is not None:
             out.append(f"the system's {s.capacity_mm_h:g} mm/h is enough only if the air stays calm; check the wind")
     elif s.required_mm_h is not None:
-        table = (f"{s.table_mm_h:.1f} mm/h ({s.table_note})" if s.table_mm_h is not None else f"no cell ({s.table_note})")
-        budget = f"heat budget {s.heat_budget_mm_h:.1f} mm/h, a lower bound; " if s.heat_budget_mm_h is not None else ""
         wind = f" and {s.wind_speed_m_s:.1f} m/s" if s.wind_speed_m_s is not None else ""
-        out.append(f"tonight needs about {s.required_mm_h:.1f} mm/h at {d.temp(plan.predicted_min_c)}{wind} "
-                   f"({s.governed_by} governs: {budget}table {table})")
+        out.append(f"tonight needs at least {s.required_mm_h:.1f} mm/h at {d.temp(plan.predicted_min_c)}{wind} (heat "
+                   f"budget of the iced buds, a lower bound; in practice {sprinklers.PRACTICE_SOURCE})")
     return out
 
 

@@ -76,8 +76,7 @@ class WhyNot(StrEnum):
     INVERSION_UNKNOWN = "inversion-unknown"  # fans: no healthy tower sensor
     INVERSION_WEAK = "inversion-weak"  # fans: too little warmer air aloft
     TOO_WINDY_FOR_SPRINKLERS = "too-windy-for-sprinklers"  # over-tree: wind above about 4.5 m/s
-    BEYOND_TABLE = "beyond-table"  # over-tree: colder or windier than any cell of the rate table
-    RATE_SHORT = "rate-short"  # over-tree: tonight needs more water than the system delivers
+    RATE_SHORT = "rate-short"  # over-tree: the system delivers less than the heat budget's lower bound
     LINES_MAY_FREEZE = "lines-may-freeze"  # under-tree: rate below the minimum that keeps lines open
 
 
@@ -112,7 +111,6 @@ class Caution(StrEnum):
     FOG_LOOK = "fog-look"  # fog is possible: look before starting fans
     WET_BULB_AT_T10 = "wet-bulb-at-t10"  # sprinklers started now cool the buds towards the wet bulb
     SUPPLY_SHORT = "supply-short"  # the water supply feeds only part of the block at the full rate
-    RATE_UNVERIFIED = "rate-unverified"  # the table (from memory) asks for more than the system gives
 
 
 BASE_CAUTIONS = (Caution.GROWER_DECIDES, Caution.CHECK_THERMOMETERS, Caution.LOCAL_RULES)
@@ -148,14 +146,10 @@ class SprinklerFigures:
     stop_air_temp_c: float | None  # the wet bulb is at T10 at this air temperature
     wind_speed_m_s: float | None
     wind_limit_m_s: float
-    required_mm_h: float | None  # None where the wind is unknown (calm_air_mm_h is then the floor)
-    calm_air_mm_h: float | None
+    required_mm_h: float | None  # the heat budget (a lower bound); None where the wind is unknown
+    calm_air_mm_h: float | None  # the heat budget in calm air: the floor when the wind is unknown
     heat_budget_mm_h: float | None
-    table_mm_h: float | None
-    table_note: str | None
-    governed_by: str | None  # "heat budget" or "table"
-    beyond_table: bool
-    net_loss_w_m2: float | None
+    net_loss_w_m2: float | None  # net longwave loss of the iced plant at 0 degC
     capacity_mm_h: float | None
     target_low_mm_h: float | None = None  # under-tree: the usual target range
     target_high_mm_h: float | None = None

@@ -324,12 +324,6 @@ def cautions(plan: AdvicePlan, d: Display) -> list[str]:
         if c is Caution.FOG_LOOK:
             out.append("The air is near its dew point below freezing: fog is possible; look before running fans, and "
                        "never run them in supercooled fog (FAO-FP p. 160).")
-        elif c is Caution.RATE_UNVERIFIED and plan.verdict is not None and plan.verdict.sprinklers is not None:
-            sp = plan.verdict.sprinklers
-            want = sp.required_mm_h if sp.required_mm_h is not None else sp.calm_air_mm_h
-            out.append(f"The application-rate table (typed from memory, not verified) asks for about {want:.1f} mm/h, "
-                       f"more than the system's {sp.capacity_mm_h:g} mm/h: check the rate with your adviser before "
-                       "relying on the sprinklers.")
         elif c is Caution.WET_BULB_AT_T10:
             out.append(f"The wet bulb ({d.temp(plan.trigger_now_c)}) is already at or below T10: sprinklers turned on "
                        "now cool the buds towards it until ice forms; weigh this with your adviser.")

@@ -2,12 +2,10 @@
 the block's system can deliver it.
 
 Sprinklers must be running before the wet bulb reaches T10 + margin (FAO-FP 2005 Table 7.5 method
-with ASHRAE psychrometrics); over-tree sprinkling needs the rate tonight's heat budget asks for
-(the larger of the heat budget and the application-rate table, `physics.sprinklers.rate_tonight_mm_h`)
-and is not advised above about 4.5 m/s of wind; too little water can leave the buds colder than
-dry buds, so a system short of the heat budget's rate (a published lower bound) is not advised
-(consult an adviser); a system short only of the table's rate (typed from memory) stays advised with
-a caution, since no verdict may rest on a value from memory. Under-tree systems
+with ASHRAE psychrometrics); over-tree sprinkling needs at least the rate the heat budget of the
+iced plant asks for (`physics.sprinklers.rate_tonight_mm_h`, a lower bound) and is not advised
+above about 4.5 m/s of wind; too little water can leave the buds colder than dry buds, so a system
+short of the heat budget's rate is not advised (consult an adviser). Under-tree systems
 run at 1.7-2.2 mm/h, at least 0.84 mm/h so the lines do not freeze (Connell & Snyder, UCCE).
 """
 
@@ -66,7 +64,6 @@ def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> Metho
     if method is Method.UNDERTREE_SPRINKLER:
         lo, hi = UNDERTREE_TARGET_MM_H
         fig = SprinklerFigures(undertree=True, required_mm_h=lo, calm_air_mm_h=None, heat_budget_mm_h=None,
-                               table_mm_h=None, table_note=None, governed_by=None, beyond_table=False,
                                net_loss_w_m2=None, target_low_mm_h=lo, target_high_mm_h=hi,
                                min_mm_h=UNDERTREE_MIN_MM_H, **common)
         short = cap is not None and cap < UNDERTREE_MIN_MM_H
@@ -78,11 +75,9 @@ def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> Metho
         # the wind is never taken as calm: the calm-air figure is a floor, and the advice is conditional
         r = sprinklers.rate_tonight_mm_h(pmin, td, 0.0)
         fig = SprinklerFigures(undertree=False, required_mm_h=None, calm_air_mm_h=_finite(r.required_mm_h),
-                               heat_budget_mm_h=_finite(r.heat_budget_mm_h), table_mm_h=None, table_note=None,
-                               governed_by=r.governed_by, beyond_table=False, net_loss_w_m2=_finite(r.net_loss_w_m2),
+                               heat_budget_mm_h=_finite(r.heat_budget_mm_h), net_loss_w_m2=_finite(r.net_loss_w_m2),
                                **common)
-        # not advised only when short of the heat budget (the published lower bound); short of the
-        # table alone (from memory) is a caution, never the verdict
+        # not advised when short of the heat budget in calm air (a lower bound in any wind)
         short = cap is not None and cap < r.heat_budget_mm_h
         return MethodVerdict(
             method=method, advised=not short, why_not=WhyNot.RATE_SHORT if short else None,
@@ -92,16 +87,13 @@ def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> Metho
     r = sprinklers.rate_tonight_mm_h(pmin, td, wind)
     fig = SprinklerFigures(
         undertree=False, required_mm_h=_finite(r.required_mm_h), calm_air_mm_h=None,
-        heat_budget_mm_h=_finite(r.heat_budget_mm_h), table_mm_h=_finite(r.table.rate_mm_h), table_note=r.table.note,
-        governed_by=r.governed_by, beyond_table=r.beyond_table, net_loss_w_m2=_finite(r.net_loss_w_m2), **common,
+        heat_budget_mm_h=_finite(r.heat_budget_mm_h), net_loss_w_m2=_finite(r.net_loss_w_m2), **common,
     )
     why: WhyNot | None = None
     if wind > sprinklers.MAX_WIND_FOR_SPRINKLING_M_S:
         why = WhyNot.TOO_WINDY_FOR_SPRINKLERS
-    elif r.beyond_table:
-        why = WhyNot.BEYOND_TABLE
     elif cap is not None and math.isfinite(r.heat_budget_mm_h) and not sprinklers.capacity_adequate(r.heat_budget_mm_h, cap):
-        why = WhyNot.RATE_SHORT  # short of the heat budget, the published lower bound
+        why = WhyNot.RATE_SHORT  # short of the heat budget, a lower bound
     alternatives: tuple[Alternative, ...] = ()
     if why is WhyNot.TOO_WINDY_FOR_SPRINKLERS:
         alternatives = (Alternative.ADVECTIVE,)
