@@ -11,7 +11,9 @@ import dataclasses
 import difflib
 import math
 import os
+import re
 import tomllib
+import unicodedata
 import zoneinfo
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -22,6 +24,15 @@ from frostwatch.errors import ConfigError
 PROTECTION_METHODS = ("wind_machine", "overtree_sprinkler", "undertree_sprinkler", "heaters", "none")
 STATION_ROLES = ("crop", "tower", "sky", "weather")
 DISPLAY_UNITS = ("degC", "degF")
+SITE_ID_RE = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
+
+
+def site_id_from_name(name: str) -> str:
+    """The default [site] id: the name in lower case, accents dropped, every run of other
+    characters made one '-', at most 64 characters ("Cedar Bench Orchard" -> "cedar-bench-orchard").
+    Empty when the name has no letter or digit in the Latin alphabet."""
+    ascii_text = unicodedata.normalize("NFKD", name).encode("ascii", "ignore").decode("ascii")
+    return re.sub(r"[^a-z0-9]+", "-", ascii_text.lower()).strip("-")[:64].strip("-")
 
 
 @dataclass(frozen=True)
@@ -32,6 +43,9 @@ class Site:
     elevation_m: float
     timezone: str
     display_unit: str = "degC"
+    # the site's name on a broker network (topics `{prefix}/{id}/...`): [site] id, or a slug of
+    # the name (site_id_from_name); one topic level of letters, digits, '-' and '_'
+    id: str = ""
 
     @property
     def tz(self) -> zoneinfo.ZoneInfo:
@@ -138,6 +152,7 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "elevation_m": (_NUM, 0.0, False),
         "timezone": ((str,), None, True),
         "display_unit": ((str,), "degC", False),
+        "id": ((str,), None, False),
     },
     "blocks": {
         "id": ((str,), None, True),
@@ -189,7 +204,7 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
     },
 }
 # Sections whose keys belong to later parts of the product; accepted as tables, checked there.
-_OPEN_SECTIONS = ("alerts", "contacts", "report", "channels", "mappings", "status_page", "daemon")
+_OPEN_SECTIONS = ("alerts", "contacts", "report", "channels", "mappings", "status_page", "daemon", "fleet")
 _ARRAY_SECTIONS = ("blocks", "stations", "contacts", "channels", "mappings")
 SECRET_KEYS = ("password", "token", "secret", "api_key")
 
@@ -264,12 +279,13 @@ _SECTION_VALIDATORS = (
     ("frostwatch.reports.settings", "status_page_settings"),
     ("frostwatch.daemon", "daemon_settings"),
     ("frostwatch.ingest.mqtt", "mappings_from_config"),
+    ("frostwatch.fleet.settings", "fleet_settings"),
 )
 
 
 def check_open_sections(cfg: Config) -> list[str]:
-    """Every problem in [alerts], [[contacts]], [[channels]], [report], [status_page], [daemon]
-    and [[mappings]], as `section.key: ...` lines (empty when all is well)."""
+    """Every problem in [alerts], [[contacts]], [[channels]], [report], [status_page], [daemon],
+    [[mappings]] and [fleet], as `section.key: ...` lines (empty when all is well)."""
     import importlib
 
     problems: list[str] = []
@@ -315,6 +331,16 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
                     f"site.timezone: {tzname!r} is not an IANA time zone name{_did_you_mean(tzname, zones)}; "
                     "expected for example \"America/Los_Angeles\""
                 )
+        sid = site_v.get("id")
+        if sid is None and isinstance(site_v.get("name"), str):
+            sid = site_id_from_name(site_v["name"])
+            if not sid:
+                problems.append(f"site.id: cannot make one from site.name {site_v['name']!r}; set [site] id, "
+                                "e.g. id = \"north-ranch\" (letters, digits, '-' and '_')")
+        elif isinstance(sid, str) and not SITE_ID_RE.fullmatch(sid):
+            problems.append(f"site.id: {sid!r} is not valid; expected 1-64 letters, digits, '-' or '_', starting "
+                            "with a letter or digit (it is one MQTT topic level: no '/', '+', '#' or spaces)")
+        site_v["id"] = sid if isinstance(sid, str) else ""
         if site_v.get("display_unit") not in DISPLAY_UNITS:
             problems.append(f"site.display_unit: {site_v.get('display_unit')!r}; expected one of {', '.join(DISPLAY_UNITS)}")
 
@@ -372,6 +398,9 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
             problems.append(f"{label}.interval_s: {v['interval_s']} must be positive (seconds between readings)")
         if isinstance(h, _NUM):
             stations.append(Station(v["id"], v["block"], float(h), str(role), v["interval_s"]))
+    if site_v.get("id") and site_v["id"] in seen_st:
+        problems.append(f"site.id: {site_v['id']!r} is also a station id; the site's topics ({{prefix}}/{site_v['id']}/...) "
+                        "would mix with that station's readings; set [site] id to another name")
     for b in blocks:
         if not any(s.block == b.id and s.role == "crop" for s in stations):
             problems.append(f"blocks.{b.id}: no crop-height station; declare a [[stations]] with block = {b.id!r} and height_m <= 3")
@@ -511,8 +540,10 @@ def effective_settings(cfg: Config) -> dict:
     # the sections other modules own, with their defaults filled in (a valid config: load_config
     # has checked them already)
     from frostwatch.daemon import daemon_settings
+    from frostwatch.fleet.settings import fleet_settings
     from frostwatch.reports.settings import status_page_settings
 
     out["daemon"] = plain(daemon_settings(cfg))
     out["status_page"] = plain(status_page_settings(cfg))
+    out["fleet"] = plain(fleet_settings(cfg))
     return masked(out)

@@ -183,6 +183,7 @@ class Core:
             risk_band_c=settings.risk_band_c,
         )
         self.publish: Callable[[str, object], None] = lambda topic, doc: None
+        self.on_evaluated: Callable[[dt.datetime, dict], None] = lambda now, blocks: None  # the fleet publisher
         self.job_runs: dict[str, int] = {}
         self.job_log: list[tuple[str, dt.date, dt.datetime]] = []
 
@@ -230,6 +231,7 @@ class Core:
             daemon_state.save_evaluation(self.store, ev.projections, {BLOCKS_META: json.dumps(blocks)})
         for b, doc in blocks.items():
             self.publish(f"blocks/{b}", doc)
+        self.on_evaluated(now, blocks)
         log.info("evaluated %d blocks (%s)%s", len(blocks), reason, f", {len(ev.alerts)} alerts" if ev.alerts else "")
         return ev
 
@@ -418,6 +420,8 @@ def build_scheduler(cfg: Config, s: DaemonSettings, jobs: dict[str, Callable[[],
 class Daemon:
     def __init__(self, cfg: Config, clock: Callable[[], dt.datetime] = _utc_now):
         from frostwatch.alerts.outbox import Outbox
+        from frostwatch.fleet.settings import fleet_settings
+        from frostwatch.fleet.site import SiteTopics
         from frostwatch.ingest.mqtt import IngestSettings, MqttIngest, mappings_from_config
 
         self.cfg = cfg
@@ -435,11 +439,20 @@ class Daemon:
                 session_expiry_s=self.s.session_expiry_s, status_topic=self.s.status_topic,
                 heartbeat_s=self.s.heartbeat_s, max_future_s=self.s.max_future_s,
                 ack_topic=self.outbox.ac.ack_topic, urgent_delay_s=self.s.urgent_delay_s,
+                ignore_prefix=SiteTopics(cfg.broker.prefix, cfg.site.id).root + "/",
             ),
             mappings, on_committed=self._on_committed, clock=clock, on_ack=self._on_ack,
             urgent=lambda readings: self.core.wants_prompt_evaluation(readings, self.clock()),
         )
         self.core.publish = self.ingest.publish_json
+        # this site's state for a fleet view: its own connection and will (frostwatch.fleet.uplink)
+        self.fleet = fleet_settings(cfg)
+        self.uplink = None
+        if self.fleet.publish:
+            from frostwatch.fleet.uplink import SiteUplink
+
+            self.uplink = SiteUplink(cfg, self.fleet)
+            self.core.on_evaluated = self._publish_site_state
         self.stop_event = threading.Event()
         self.started_utc = clock()
         self.last_beat = time.monotonic()
@@ -479,6 +492,9 @@ class Daemon:
                 self.store_ok = False
                 log.exception("the store cannot be written")
         self.ingest.publish_json("daemon", doc)
+        if self.uplink is not None:
+            health_now = sorted(self.core.health_active.values(), key=lambda p: (not p.urgent, p.key))
+            self.uplink.beat(self.clock(), doc["problems"] + [f"{p.subject}: {p.detail}" for p in health_now])
         sdnotify.notify(f"STATUS=readings {self.ingest.stats.stored}, rejected {self.ingest.stats.rejected}, "
                         f"broker {'up' if self.ingest.connected else 'DOWN'}, last evaluation {_iso(self.core.last_eval_utc)}")
 
@@ -555,6 +571,16 @@ class Daemon:
             extra.append(health.Problem("broker:down", "broker", f"no connection to the MQTT broker at {self.cfg.broker.host}:{self.cfg.broker.port} for {down:.0f} s", urgent=self.core.in_watch_window(self.clock())))
         self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra)
 
+    def _publish_site_state(self, now: dt.datetime, blocks: dict) -> None:
+        """After each evaluation: the blocks' states to the fleet publisher (never raises)."""
+        from frostwatch.fleet.uplink import acknowledged_by_block, states_from_status_docs
+
+        try:
+            acked = acknowledged_by_block(self.store, now - dt.timedelta(hours=18), now)
+            self.uplink.evaluated(states_from_status_docs(blocks, acked))
+        except Exception:  # noqa: BLE001 - the fleet view must never disturb the site's own work
+            log.exception("could not publish the site state for the fleet view (the daemon carries on)")
+
     def _on_ack(self, payload: bytes, received_utc: dt.datetime) -> None:
         from frostwatch.alerts.acks import acknowledge_mqtt
 
@@ -616,6 +642,8 @@ class Daemon:
         log.info("frostwatch daemon starting: store %s, %d past night records learned", self.store.path, learned)
         self.store.add_event(now, "daemon", "start", f"pid {os.getpid()}")
         self.ingest.start()
+        if self.uplink is not None:
+            self.uplink.start()
         self.sched = build_scheduler(self.cfg, self.s, {
             "tick": self._guard("tick", self.core.tick),
             "heartbeat": self._guard("heartbeat", self._heartbeat),
@@ -658,6 +686,8 @@ class Daemon:
             except Exception:  # noqa: BLE001
                 log.exception("scheduler shutdown")
         self.ingest.stop()
+        if self.uplink is not None:
+            self.uplink.stop()
         try:
             doc = self.heartbeat_doc()
             doc["stopped"] = True

@@ -121,7 +121,7 @@ def test_init_writes_every_section_and_the_file_passes_check_config(tmp_path):
     assert p.returncode == 0 and p.stdout.startswith(f"{cfg}: ok"), p.stderr
 
     # the commented sections are valid as written: uncommented, they load, and the defaults shown are the defaults
-    for header in ("[status_page]", "[daemon]", "[[mappings]]"):
+    for header in ("[status_page]", "[daemon]", "[[mappings]]", "[fleet]"):
         text = _uncomment(text, header)
     cfg.write_text(text, encoding="utf-8")
     raw = tomllib.loads(text)

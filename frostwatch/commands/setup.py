@@ -42,7 +42,7 @@ def cmd_check_config(args) -> int:
     for b in cfg.blocks:
         print(f"  block {b.id}: {b.crop}, {b.stage}: T10 {b.kill_10pct_c:.1f} °C, T90 {b.kill_90pct_c:.1f} °C "
               f"({b.critical_source}); protection {b.protection}, margin {b.margin_c:g} °C, mobilisation {b.mobilisation_min:g} min")
-    print("effective settings, [daemon] and [status_page] included (secrets masked):")
+    print("effective settings, [daemon], [status_page] and [fleet] included (secrets masked):")
     print(json.dumps(eff, indent=2, default=str))
     return 0
 

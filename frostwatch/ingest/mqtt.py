@@ -183,6 +183,8 @@ class IngestSettings:
     # a batch holding a reading the `urgent` predicate flags (near a block's trigger in the watch
     # window) is committed this soon, whatever batch_delay_s says: alert latency on a risky night
     urgent_delay_s: float = 1.0
+    # topics under this prefix are the site's own fleet state (frostwatch.fleet): acknowledged, not read
+    ignore_prefix: str = ""
 
 
 @dataclass
@@ -478,6 +480,9 @@ class MqttIngest:
                 batch = []
                 urgent_at = None
 
+    def _ignored(self, topic: str) -> bool:
+        return bool(self.s.ignore_prefix) and topic.startswith(self.s.ignore_prefix)
+
     def _parse(self, m: _Msg) -> list:
         return parse_mqtt_message(
             m.topic, m.payload, self.b.prefix, m.received_utc, self.known,
@@ -486,7 +491,7 @@ class MqttIngest:
 
     def _is_urgent(self, m: _Msg) -> bool:
         """Parse a message on arrival (kept for its commit) and ask the urgency predicate."""
-        if m.topic.startswith(self.status() + "/") or m.topic == self.ack_topic:
+        if m.topic.startswith(self.status() + "/") or m.topic == self.ack_topic or self._ignored(m.topic):
             return False
         try:
             items = self._parse(m)
@@ -502,8 +507,8 @@ class MqttIngest:
         status_root = self.status() + "/"
         ack_msgs: list[_Msg] = []
         for m in batch:
-            if m.topic.startswith(status_root):
-                continue  # our own status and heartbeat echo: acknowledged, not stored
+            if m.topic.startswith(status_root) or self._ignored(m.topic):
+                continue  # our own status, heartbeat echo and fleet state: acknowledged, not stored
             if m.topic == self.ack_topic and self.on_ack is not None:
                 ack_msgs.append(m)  # an alert acknowledgement, not a reading
                 continue
