@@ -25,7 +25,10 @@ def test_installed_frostwatch_run_on_inits_config_stores_a_reading_and_stops_cle
     assert p.returncode == 0, p.stderr
     text = cfg.read_text(encoding="utf-8")
     assert "port = 1883" in text
-    cfg.write_text(text.replace("port = 1883", f"port = {mosquitto.port}", 1), encoding="utf-8")
+    text = text.replace("port = 1883", f"port = {mosquitto.port}", 1)
+    # as a grower edits it: uncomment [daemon] and commit each reading within a second (default 20 s)
+    assert "\n# [daemon]\n" in text
+    cfg.write_text(text.replace("\n# [daemon]\n", "\n[daemon]\nbatch_delay_s = 1\n", 1), encoding="utf-8")
     raw = tomllib.loads(cfg.read_text(encoding="utf-8"))
     station = raw["stations"][0]["id"]
     prefix = raw["broker"].get("prefix", "frostwatch")
