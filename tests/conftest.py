@@ -140,3 +140,20 @@ def mosquitto(tmp_path: Path):
     b.start()
     yield b
     b.kill()
+
+
+@pytest.fixture
+def make_broker(tmp_path: Path):
+    """More than one broker in a test (a site and a central one): make_broker(name, extra_conf)
+    gives a Broker on a free port, not yet started (its config may be rewritten first); every one
+    is killed after the test."""
+    made: list[Broker] = []
+
+    def make(name: str, extra_conf: str = "") -> Broker:
+        b = Broker(tmp_path / name, free_port(), extra_conf)
+        made.append(b)
+        return b
+
+    yield make
+    for b in made:
+        b.kill()

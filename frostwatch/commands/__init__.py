@@ -11,4 +11,5 @@ COMMAND_MODULES = (
     "frostwatch.commands.alerts",
     "frostwatch.commands.stage",
     "frostwatch.commands.calc",
+    "frostwatch.commands.fleet",
 )

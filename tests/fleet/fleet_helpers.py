@@ -7,6 +7,7 @@ from __future__ import annotations
 import datetime as dt
 import json
 import os
+import socket
 import subprocess
 import sys
 import threading
@@ -21,7 +22,15 @@ from daemon_helpers import DaemonProc, wait_until, write_config  # noqa: E402
 
 from frostwatch.fleet import site as fs  # noqa: E402
 
-__all__ = ["DaemonProc", "wait_until", "write_config", "Recorder", "fleet", "SimSite", "LEVELS"]
+__all__ = ["DaemonProc", "wait_until", "write_config", "Recorder", "fleet", "SimSite", "LEVELS", "REPO", "free_port"]
+
+REPO = Path(__file__).resolve().parents[2]
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
 
 LEVELS = [("all-clear", 0), ("frost-possible", 2), ("standby", 3), ("act", 4), ("critical", 5)]
 

@@ -1,0 +1,189 @@
+"""The fleet view's model (frostwatch.fleet.view), pure: messages in, the ordered picture out.
+Never green when blind: a site is reachable only on a fresh heartbeat, with no will and no
+bridge-down notice; bad messages are refused with a reason and the rest flows on."""
+
+import datetime as dt
+import json
+
+import pytest
+
+from frostwatch.fleet import site as fs
+from frostwatch.fleet.view import BLIND_RANK, CAUTION, FleetModel
+
+T0 = dt.datetime(2027, 4, 15, 9, 0, tzinfo=dt.UTC)
+
+
+def at(seconds: float) -> dt.datetime:
+    return T0 + dt.timedelta(seconds=seconds)
+
+
+def state(site: str, block: str, level: str, rank: int, as_of: dt.datetime, monitored: bool = True, **kw) -> tuple:
+    b = {"block": block, "level": level, "rank": rank, "monitored": monitored, "as_of": as_of, **kw}
+    return fs.state_messages("frostwatch", site, [b])[0]
+
+
+def heartbeat(site: str, time: dt.datetime, every_s: int = 60, evaluated: dt.datetime | None = None,
+              changed: dt.datetime | None = None) -> tuple:
+    return fs.heartbeat_message("frostwatch", site, fs.heartbeat_doc(time, every_s, fs.iso_utc(evaluated),
+                                                               fs.iso_utc(changed)))
+
+
+def live(m: FleetModel, msg: tuple, when: dt.datetime, retained: bool = False):
+    return m.on_message(msg[0], msg[1], when, retained)
+
+
+def site_of(doc: dict, site: str) -> dict:
+    return next(s for s in doc["sites"] if s["site"] == site)
+
+
+def test_a_site_with_a_fresh_heartbeat_is_reachable_and_its_blocks_are_listed():
+    m = FleetModel()
+    assert live(m, state("ridge", "east", "standby", 3, at(0), predicted_min_c=-1.2, band_c=0.8), at(1)) is None
+    assert live(m, heartbeat("ridge", at(2), evaluated=at(0), changed=at(0)), at(2)) is None
+    doc = m.snapshot(at(30))
+    s = site_of(doc, "ridge")
+    assert s["reachable"] is True and s["why_unreachable"] is None and s["last_contact"] == "2027-04-15T09:00:02Z"
+    (b,) = s["blocks"]
+    assert {k: b[k] for k in ("block", "level", "rank", "monitored", "as_of")} == {
+        "block": "east", "level": "standby", "rank": 3, "monitored": True, "as_of": "2027-04-15T09:00:00Z"}
+    assert b["predicted_min_c"] == -1.2 and doc["caution"] == CAUTION
+
+
+def test_a_site_whose_heartbeat_stops_becomes_unreachable_after_two_and_a_half_heartbeats():
+    m = FleetModel()
+    live(m, state("ridge", "east", "all-clear", 0, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0), every_s=60), at(0))
+    assert site_of(m.snapshot(at(179)), "ridge")["reachable"] is True
+    s = site_of(m.snapshot(at(181)), "ridge")
+    assert s["reachable"] is False and "no heartbeat for 3 min" in s["why_unreachable"]
+    assert s["last_contact"] == "2027-04-15T09:00:00Z"  # "no contact since 09:00"
+    live(m, heartbeat("ridge", at(200)), at(200))
+    assert site_of(m.snapshot(at(201)), "ridge")["reachable"] is True
+
+
+def test_the_will_and_the_bridge_notice_make_a_site_unreachable_at_once():
+    m = FleetModel()
+    live(m, state("ridge", "east", "act", 4, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    live(m, ("frostwatch/ridge/online", b"offline"), at(5))
+    s = site_of(m.snapshot(at(6)), "ridge")
+    assert s["reachable"] is False and "last will" in s["why_unreachable"]
+    live(m, ("frostwatch/ridge/online", b"online"), at(10))
+    live(m, heartbeat("ridge", at(11)), at(11))
+    assert site_of(m.snapshot(at(12)), "ridge")["reachable"] is True
+    live(m, ("frostwatch/ridge/bridge", b"0"), at(20))
+    s = site_of(m.snapshot(at(21)), "ridge")
+    assert s["reachable"] is False and "link" in s["why_unreachable"]
+    live(m, ("frostwatch/ridge/bridge", b"1"), at(30))
+    assert site_of(m.snapshot(at(31)), "ridge")["reachable"] is True
+
+
+def test_never_green_when_blind_a_site_with_states_but_no_heartbeat_is_unreachable():
+    m = FleetModel()
+    live(m, state("quiet", "east", "all-clear", 0, at(0)), at(0), retained=True)
+    s = site_of(m.snapshot(at(1)), "quiet")
+    assert s["reachable"] is False and s["why_unreachable"] == "no heartbeat received from this site"
+
+
+def test_a_retained_heartbeat_counts_from_its_own_time_never_from_its_arrival():
+    m = FleetModel()
+    # the view starts at 09:30 and gets the retained heartbeat of 09:00
+    live(m, heartbeat("old", at(0)), at(1800), retained=True)
+    live(m, state("old", "east", "all-clear", 0, at(0)), at(1800), retained=True)
+    s = site_of(m.snapshot(at(1801)), "old")
+    assert s["reachable"] is False and s["last_contact"] == "2027-04-15T09:00:00Z"
+    # a site clock 20 min ahead cannot keep a dead site green: its stamp is capped at arrival
+    live(m, heartbeat("ahead", at(3000)), at(1800), retained=True)
+    live(m, state("ahead", "east", "all-clear", 0, at(1800)), at(1800), retained=True)
+    s = site_of(m.snapshot(at(1800 + 200)), "ahead")
+    assert s["reachable"] is False and any("clock is 20 min ahead" in p for p in s["problems"])
+
+
+def test_sites_and_blocks_come_highest_rank_first_and_blind_counts_as_act():
+    m = FleetModel()
+    now = at(10)
+    for site, blocks in {"calm": [("a", "all-clear", 0, True)], "busy": [("a", "standby", 3, True),
+                                                                        ("b", "critical", 5, True)],
+                         "blindblock": [("a", "all-clear", 0, False), ("b", "frost-possible", 2, True)]}.items():
+        for block, lvl, rank, mon in blocks:
+            live(m, state(site, block, lvl, rank, at(0), monitored=mon), at(0))
+        live(m, heartbeat(site, at(5)), at(5))
+    live(m, state("gone", "a", "all-clear", 0, at(0)), at(0))  # no heartbeat: unreachable
+    doc = m.snapshot(now)
+    assert [s["site"] for s in doc["sites"]] == ["busy", "gone", "blindblock", "calm"]
+    assert [b["block"] for b in site_of(doc, "busy")["blocks"]] == ["b", "a"]
+    assert [b["block"] for b in site_of(doc, "blindblock")["blocks"]] == ["a", "b"]
+    assert site_of(doc, "blindblock")["order_rank"] == BLIND_RANK
+    assert site_of(doc, "blindblock")["blocks"][0]["rank"] == 0  # the rank shown is the site's own
+
+
+def test_a_state_is_current_as_of_the_latest_evaluation_when_no_newer_change_is_missing():
+    m = FleetModel()
+    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
+    live(m, heartbeat("ridge", at(600), evaluated=at(600), changed=at(0)), at(600))
+    assert site_of(m.snapshot(at(601)), "ridge")["blocks"][0]["as_of"] == "2027-04-15T09:10:00Z"
+    # the site says it sent a change at 09:08 that has not arrived: the state is only as of 09:00
+    live(m, heartbeat("ridge", at(660), evaluated=at(660), changed=at(480)), at(660))
+    b = site_of(m.snapshot(at(661)), "ridge")["blocks"][0]
+    assert b["as_of"] == "2027-04-15T09:00:00Z" and b["state_sent_at"] == "2027-04-15T09:00:00Z"
+
+
+@pytest.mark.parametrize("topic, payload, why", [
+    ("frostwatch/ridge/state/east", b"{not json", "is not JSON"),
+    ("frostwatch/ridge/state/east", b"[1, 2]", "is not a JSON object"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 2, "block": "east"}).encode(), "version 2"),
+    ("frostwatch/ridge/state/east", json.dumps({"block": "east"}).encode(), "no version number"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 1, "block": "west", "level": "x", "rank": 1,
+                                                "monitored": True, "as_of": "2027-04-15T09:00:00Z"}).encode(),
+     "not its topic's"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 1, "block": "east", "level": "x", "rank": True,
+                                                "monitored": True, "as_of": "2027-04-15T09:00:00Z"}).encode(),
+     ".rank"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 1, "block": "east", "level": "x", "rank": 1,
+                                                "monitored": "yes", "as_of": "2027-04-15T09:00:00Z"}).encode(),
+     ".monitored"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 1, "block": "east", "level": "x", "rank": 1,
+                                                "monitored": True, "as_of": "2027-04-15T09:00:00"}).encode(),
+     "no UTC offset"),
+    ("frostwatch/ridge/state/east", json.dumps({"v": 1, "block": "east", "level": "x", "rank": 1, "monitored": True,
+                                                "as_of": "2027-04-15T09:00:00Z", "predicted_min_c": 1e999}).encode(),
+     "predicted_min_c"),
+    ("frostwatch/ridge/heartbeat", json.dumps({"v": 1, "time": "2027-04-15T09:00:00Z", "every_s": 0}).encode(),
+     "every_s"),
+    ("frostwatch/ridge/online", b"maybe", "expected online or offline"),
+    ("frostwatch/ridge/bridge", b"2", "expected 1 or 0"),
+    ("frostwatch/ridge/other", b"x", "not a fleet topic"),
+    ("frostwatch/bad site/heartbeat", b"x", "not a site id"),
+    ("elsewhere/ridge/heartbeat", b"x", "is not frostwatch/SITE"),
+    ("frostwatch/ridge/state/east", b"\xff\xfe", "is not JSON"),
+])
+def test_a_bad_message_is_refused_with_its_reason_and_the_rest_flows_on(topic, payload, why):
+    m = FleetModel()
+    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    reason = m.on_message(topic, payload, at(1), False)
+    assert reason is not None and why in reason
+    doc = m.snapshot(at(2))
+    assert doc["rejected"]["count"] == 1 and why in doc["rejected"]["latest"][0]["reason"]
+    s = site_of(doc, "ridge")  # what was accepted before is still there
+    assert s["reachable"] is True and s["blocks"][0]["level"] == "standby"
+
+
+def test_the_sites_own_status_topics_and_flag_only_sites_are_passed_over():
+    m = FleetModel()
+    assert m.on_message("frostwatch/status/online", b"online", at(0), True) is None
+    assert m.on_message("frostwatch/status/heartbeat", b"1796257433.2", at(0), False) is None
+    assert m.on_message("frostwatch/newsite/bridge", b"1", at(0), True) is None
+    assert m.snapshot(at(1))["sites"] == [] and m.rejected_count == 0
+
+
+def test_a_cleared_retained_state_removes_the_block_and_info_names_the_site():
+    m = FleetModel()
+    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
+    live(m, state("ridge", "west", "standby", 3, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    live(m, fs.info_message("frostwatch", fs.info_doc("ridge", "Ridge Ranch", 3, ["east-low: silent"], at(0))), at(0))
+    assert m.on_message("frostwatch/ridge/state/west", b"", at(1), False) is None
+    s = site_of(m.snapshot(at(2)), "ridge")
+    assert [b["block"] for b in s["blocks"]] == ["east"] and s["name"] == "Ridge Ranch"
+    assert s["problems"] == ["east-low: silent", "2 of its 3 blocks have sent no state yet"]
