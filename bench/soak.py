@@ -88,11 +88,22 @@ def write_site(work: Path, port: int, daemon_extra: dict | None = None) -> Path:
 
 
 def proc_rss_kib(pid: int) -> int:
-    with open(f"/proc/{pid}/status") as f:
-        for line in f:
-            if line.startswith("VmRSS:"):
-                return int(line.split()[1])
-    return 0
+    return proc_status_kib(pid).get("VmRSS", 0)
+
+
+def proc_status_kib(pid: int) -> dict[str, int]:
+    """VmRSS and its parts (RssAnon: malloc and numpy; RssFile: mapped files such as the store's
+    -shm; RssShmem) in KiB, and the thread count, from /proc/<pid>/status."""
+    out: dict[str, int] = {}
+    try:
+        with open(f"/proc/{pid}/status") as f:
+            for line in f:
+                k, _, rest = line.partition(":")
+                if k in ("VmRSS", "RssAnon", "RssFile", "RssShmem", "Threads"):
+                    out[k] = int(rest.split()[0])
+    except OSError:
+        pass
+    return out
 
 
 def proc_write_bytes(pid: int) -> int:
@@ -163,7 +174,8 @@ class Sensors:
 
 
 def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, speed: float = 1.0,
-             sample_s: float = 10.0, verbose: bool = True, daemon_extra: dict | None = None) -> dict:
+             sample_s: float = 10.0, verbose: bool = True, daemon_extra: dict | None = None,
+             probe: bool = False) -> dict:
     from frostwatch.config import load_config
 
     work = Path(work or tempfile.mkdtemp(prefix="frostwatch-soak-"))
@@ -183,8 +195,14 @@ def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, spee
     samples = []
     try:
         with log.open("ab") as lf:
-            daemon = subprocess.Popen([sys.executable, "-m", "frostwatch", "run", "--config", str(cfg_path)],
-                                      stdout=lf, stderr=subprocess.STDOUT, env=env)
+            if probe:  # bench/probe.py inside the daemon: malloc, SQLite and (optionally) Python heap
+                env["PYTHONPATH"] = os.pathsep.join([str(Path(__file__).resolve().parent.parent), env.get("PYTHONPATH", "")])
+                code = (f"import sys, bench.probe; bench.probe.start({str(work / 'probe.jsonl')!r}, {sample_s!r}); "
+                        "from frostwatch.cli import main; sys.exit(main(sys.argv[1:]))")
+                argv = [sys.executable, "-c", code, "run", "--config", str(cfg_path)]
+            else:
+                argv = [sys.executable, "-m", "frostwatch", "run", "--config", str(cfg_path)]
+            daemon = subprocess.Popen(argv, stdout=lf, stderr=subprocess.STDOUT, env=env)
         deadline = time.monotonic() + 30
         while time.monotonic() < deadline and "connected to" not in log.read_text(errors="replace"):
             if daemon.poll() is not None:
@@ -199,13 +217,17 @@ def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, spee
             now = time.monotonic()
             if daemon.poll() is not None:
                 raise RuntimeError(f"the daemon exited {daemon.returncode} during the soak")
+            ps = proc_status_kib(daemon.pid)
             samples.append({
-                "t_s": round(now - t0, 1), "rss_kib": proc_rss_kib(daemon.pid), "fds": proc_fds(daemon.pid),
+                "t_s": round(now - t0, 1), "rss_kib": ps.get("VmRSS", 0), "anon_kib": ps.get("RssAnon", 0),
+                "file_kib": ps.get("RssFile", 0), "shmem_kib": ps.get("RssShmem", 0), "threads": ps.get("Threads", 0),
+                "fds": proc_fds(daemon.pid),
                 "wal_bytes": wal.stat().st_size if wal.exists() else 0,
                 "write_bytes": proc_write_bytes(daemon.pid) - wb0, "sent": sensors.sent,
             })
             s = samples[-1]
-            say(f"  {s['t_s']:>7.0f} s  rss {s['rss_kib'] / 1024:6.1f} MiB  fds {s['fds']:>3}  "
+            say(f"  {s['t_s']:>7.0f} s  rss {s['rss_kib'] / 1024:6.1f} MiB (anon {s['anon_kib'] / 1024:6.1f}, "
+                f"file {s['file_kib'] / 1024:5.1f}, shm {s['shmem_kib'] / 1024:4.1f})  thr {s['threads']:>2}  fds {s['fds']:>3}  "
                 f"wal {s['wal_bytes'] / 2**20:5.2f} MiB  written {s['write_bytes'] / 2**20:7.1f} MiB  sent {s['sent']}",
                 flush=True)
             if now >= end:
@@ -283,8 +305,11 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--speed", type=float, default=1.0, help="simulated seconds of readings per real second")
     ap.add_argument("--sample-s", type=float, default=10.0)
     ap.add_argument("--json", type=Path, help="write the result here too")
+    ap.add_argument("--work", type=Path, help="folder for the store, logs and probe (default: a new temp folder)")
+    ap.add_argument("--probe", action="store_true",
+                    help="sample malloc, SQLite and Python heap inside the daemon into WORK/probe.jsonl (bench/probe.py)")
     a = ap.parse_args(argv)
-    res = run_soak(a.minutes, rate_x=a.rate_x, speed=a.speed, sample_s=a.sample_s)
+    res = run_soak(a.minutes, work=a.work, rate_x=a.rate_x, speed=a.speed, sample_s=a.sample_s, probe=a.probe)
     report(res)
     if a.json:
         a.json.write_text(json.dumps(res, indent=2) + "\n", encoding="utf-8")

@@ -74,6 +74,7 @@ class DaemonSettings:
     health_interval_s: float = 60.0
     max_future_s: float = 600.0
     broker_down_alert_s: float = 60.0
+    store_stall_s: float = 30.0
 
 
 _DAEMON_KEYS: dict[str, tuple[type | tuple, str]] = {
@@ -97,6 +98,7 @@ _DAEMON_KEYS: dict[str, tuple[type | tuple, str]] = {
     "health_interval_s": ((int, float), "seconds between sensor-health checks"),
     "max_future_s": ((int, float), "seconds a reading's time may be ahead of its receipt"),
     "broker_down_alert_s": ((int, float), "seconds without the broker before a health event"),
+    "store_stall_s": ((int, float), "seconds the store may fail to take readings before the daemon reports it"),
 }
 
 
@@ -366,7 +368,12 @@ class Core:
         return n
 
     # -- health --------------------------------------------------------------------------------
-    def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = ()) -> list[health.Problem]:
+    def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = (),
+                     heard_s: dict[str, float] | None = None, judge_silence: bool = True) -> list[health.Problem]:
+        """Raise and clear health problems. `heard_s` (station -> receipt time of its latest valid
+        reading, stored or not) and `judge_silence=False` (the store cannot take readings, so
+        silence cannot be judged; problems already raised stay as they are) keep a store failure
+        from being blamed on sensors."""
         # 90 min: the stuck rule looks back an hour; a station silent for longer than the window
         # is still reported silent ("no reading in the window"). A longer window only costs
         # memory at high reading rates (bench/ingest.py).
@@ -376,8 +383,9 @@ class Core:
             b.id for b in self.cfg.blocks
             if health.risky(self.last_projection.get(b.id), b.kill_10pct_c + b.margin_c, window, self.rules)
         }
-        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, risky, self.rules)
-        report = health.HealthReport(report.problems + tuple(extra), report.healthy_stations)
+        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, risky, self.rules, heard_s, judge_silence)
+        held = () if judge_silence else tuple(p for k, p in self.health_active.items() if k.endswith(":silent"))
+        report = health.HealthReport(report.problems + tuple(extra) + held, report.healthy_stations)
         raised, cleared, self.health_active = health.transitions(self.health_active, report)
         for p in raised:
             self.outbox.submit_health(p.subject, p.detail, now, urgent=p.urgent)
@@ -440,6 +448,8 @@ class Daemon:
                 heartbeat_s=self.s.heartbeat_s, max_future_s=self.s.max_future_s,
                 ack_topic=self.outbox.ac.ack_topic, urgent_delay_s=self.s.urgent_delay_s,
                 ignore_prefix=SiteTopics(cfg.broker.prefix, cfg.site.id).root + "/",
+
+                store_stall_s=self.s.store_stall_s,
             ),
             mappings, on_committed=self._on_committed, clock=clock, on_ack=self._on_ack,
             urgent=lambda readings: self.core.wants_prompt_evaluation(readings, self.clock()),
@@ -459,6 +469,7 @@ class Daemon:
         self._last_beat_stored = -1e9
         self.last_outbox = time.monotonic()
         self.store_ok = True
+        self.store_reason = ""
         self._wall_mono = (time.time(), time.monotonic())
         self._soon_lock = threading.Lock()
         self._last_prompt = 0.0
@@ -488,9 +499,12 @@ class Daemon:
                 self.store.set_meta(HEARTBEAT_META, json.dumps(doc))
                 self.store_ok = True
                 self._last_beat_stored = time.monotonic()
-            except Exception:  # noqa: BLE001
+            except Exception as exc:  # noqa: BLE001
+                from frostwatch.store.db import store_failure
+
                 self.store_ok = False
-                log.exception("the store cannot be written")
+                self.store_reason = store_failure(exc) or f"{type(exc).__name__}: {exc}"
+                log.error("the store cannot be written: %s", self.store_reason)
         self.ingest.publish_json("daemon", doc)
         if self.uplink is not None:
             health_now = sorted(self.core.health_active.values(), key=lambda p: (not p.urgent, p.key))
@@ -569,7 +583,15 @@ class Daemon:
         down = self.ingest.broker_down_s()
         if down >= self.s.broker_down_alert_s:
             extra.append(health.Problem("broker:down", "broker", f"no connection to the MQTT broker at {self.cfg.broker.host}:{self.cfg.broker.port} for {down:.0f} s", urgent=self.core.in_watch_window(self.clock())))
-        self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra)
+        stalled = self.ingest.not_storing_s()
+        if stalled >= self.s.store_stall_s:
+            extra.append(health.Problem(
+                "store:not-storing", "store",
+                f"readings are not being stored: {self.ingest.failure_reason or 'a commit has not returned'} "
+                f"(store {self.store.path}); the sensors are reporting and their readings wait in the broker "
+                "until it is fixed", urgent=self.core.in_watch_window(self.clock())))
+        self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra, dict(self.ingest.heard),
+                               judge_silence=self.ingest.failing_since is None)
 
     def _publish_site_state(self, now: dt.datetime, blocks: dict) -> None:
         """After each evaluation: the blocks' states to the fleet publisher (never raises)."""
@@ -623,7 +645,7 @@ class Daemon:
         if now - self.last_outbox > 3 * self.s.outbox_interval_s + 60:
             out.append(f"the outbox worker has not looped for {now - self.last_outbox:.0f} s")
         if not self.store_ok:
-            out.append("the store cannot be written")
+            out.append(f"the store cannot be written ({self.store_reason})")
         return out
 
     def request_stop(self) -> None:

@@ -43,19 +43,28 @@ class HealthReport:
 
 
 def station_problems(
-    st: Station, series: Series, now_s: float, out_of_range_count: int, rules: HealthRules
+    st: Station, series: Series, now_s: float, out_of_range_count: int, rules: HealthRules,
+    heard_s: float | None = None,
+    judge_silence: bool = True,
 ) -> list[Problem]:
-    """What is wrong with one station now."""
+    """What is wrong with one station now. `heard_s` is the receipt time (epoch s) of its latest
+    valid reading whether or not the store could keep it: a sensor that is reporting is never
+    called silent because the store cannot write. `judge_silence=False` (the store cannot write,
+    so what is stored says nothing about the sensors) skips the silence rule."""
     out: list[Problem] = []
     times = [t for (sid, _q), (t, _v) in series.items() if sid == st.id and len(t)]
     air = series.get((st.id, "air_temperature"))
     ref_t = air[0] if air is not None and len(air[0]) else (max(times, key=lambda t: t[-1]) if times else None)
-    if ref_t is None:
-        out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"))
+    heard_age = now_s - heard_s if heard_s is not None else float("inf")
+    if not judge_silence:
+        pass
+    elif ref_t is None:
+        if heard_age > rules.silent_after_intervals * usual_interval_s(np.empty(0), st.interval_s):
+            out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"))
     else:
         upto = ref_t[ref_t <= now_s]
         interval = usual_interval_s(upto, st.interval_s)
-        age = now_s - float(upto[-1]) if len(upto) else float("inf")
+        age = min(now_s - float(upto[-1]) if len(upto) else float("inf"), heard_age)
         if age > rules.silent_after_intervals * interval:
             out.append(Problem(
                 f"{st.id}:silent", st.id,
@@ -87,13 +96,17 @@ def assess(
     out_of_range: dict[str, int],
     risky_blocks: set[str],
     rules: HealthRules,
+    heard_s: dict[str, float] | None = None,
+    judge_silence: bool = True,
 ) -> HealthReport:
     """Every station's problems, plus one urgent problem per risky block with no healthy
-    crop-height sensor (the block is then not monitored at all)."""
+    crop-height sensor (the block is then not monitored at all). `heard_s`: station -> receipt
+    time of its latest valid reading, stored or not (see `station_problems`)."""
     problems: list[Problem] = []
     healthy: set[str] = set()
+    heard_s = heard_s or {}
     for st in cfg.stations:
-        ps = station_problems(st, series, now_s, out_of_range.get(st.id, 0), rules)
+        ps = station_problems(st, series, now_s, out_of_range.get(st.id, 0), rules, heard_s.get(st.id), judge_silence)
         problems.extend(ps)
         if not any(p.key.endswith((":silent", ":stuck", ":range")) for p in ps):
             healthy.add(st.id)

@@ -156,3 +156,57 @@ def test_native_mqtt_forms():
         "frostwatch", now, STATIONS,
     )
     assert {r.quantity for r in multi} == {"air_temperature", "relative_humidity"}
+
+
+@pytest.mark.parametrize(
+    ("payload", "reason"),
+    [
+        (b'{"time": "2027-04-15T08:00:00Z", "value": 1' + b"0" * 400 + b"}", "401 digits"),
+        (b'{"time": "0001-01-01T00:00:00+14:00", "value": 3}', "out of range once converted to UTC"),
+        (b'{"time": "9999-12-31T23:59:59-14:00", "value": 3}', "out of range once converted to UTC"),
+        (b'{"time": "2027-04-15T08:00:00Z", "value": 1e99999}', "not a finite number"),
+        (b"1" + b"0" * 400, "401 digits"),
+        (b"7" * 5000, "more than 4300 digits"),
+        (b'{"time": "2027-04-15T08:00:00Z", "value": 2.0, "value": 40.0}', "appears more than once"),
+        (b'{"time": "2027-04-15T08:00:00Z", "time": "2027-04-15T08:01:00Z", "value": 2.0}', "appears more than once"),
+    ],
+)
+def test_overflowing_values_and_times_and_duplicate_keys_are_one_rejection_not_a_crash(payload, reason):
+    """Issue 18: these raised OverflowError (or were taken silently, last key winning)."""
+    now = dt.datetime(2027, 4, 15, 9, tzinfo=dt.UTC)
+    out = parse_mqtt_message("frostwatch/east-low/air_temperature", payload, "frostwatch", now, STATIONS)
+    assert len(out) == 1 and isinstance(out[0], Rejection), out
+    assert reason in out[0].reason and len(out[0].reason) <= 500
+
+
+def test_a_station_message_with_5000_unknown_keys_is_one_short_rejection_beside_its_good_reading():
+    """Issue 18: 5,000 unknown keys made 5,000 rejection rows each repeating the list of
+    quantities; now one row lists the offending keys once, cut short, and the good quantity is kept."""
+    import json
+
+    now = dt.datetime(2027, 4, 15, 9, tzinfo=dt.UTC)
+    doc = {"time": "2027-04-15T08:59:00Z", "air_temperature": 2.5, **{f"junk{i}": i for i in range(5000)}}
+    out = parse_mqtt_message("frostwatch/east-low", json.dumps(doc).encode(), "frostwatch", now, STATIONS,
+                             max_payload_bytes=200_000)
+    readings = [r for r in out if isinstance(r, Reading)]
+    rejections = [r for r in out if isinstance(r, Rejection)]
+    assert [r.quantity for r in readings] == ["air_temperature"]
+    assert len(rejections) == 1
+    reason = rejections[0].reason
+    assert "junk0" in reason and "4990 more" in reason and "5000 in all" in reason and len(reason) <= 500
+    assert reason.count("air_temperature") == 1  # the list of quantities once
+
+
+@pytest.mark.parametrize(
+    ("row", "reason"),
+    [
+        (b"0001-01-01T00:00:00+14:00,east-low,air_temperature,3.4,degC", "out of range once converted to UTC"),
+        (b"9999-12-31T23:59:59-14:00,east-low,air_temperature,3.4,degC", "out of range once converted to UTC"),
+        (b"2027-04-14T21:00:00-07:00,east-low,air_temperature,1" + b"0" * 400 + b",degC", "not a finite number"),
+    ],
+)
+def test_csv_rows_that_overflow_are_rejected_by_line_and_the_rest_is_kept(row, reason):
+    good = b"2027-04-14T21:05:00-07:00,east-low,air_temperature,3.4,degC"
+    readings, rejections = parse_sensor_log_bytes(HEADER + row + b"\n" + good + b"\n", "t.csv", STATIONS)
+    assert len(readings) == 1 and len(rejections) == 1
+    assert reason in rejections[0].reason and rejections[0].where() == "t.csv:2"

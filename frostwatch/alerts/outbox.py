@@ -194,7 +194,10 @@ class Outbox:
         The same subject raises once per local night (`once_per="night"`) or hour ("hour");
         urgent ones ("unmonitored") repeat and escalate like "act" until acknowledged.
         """
-        self.store.add_event(now_utc, "health", subject, detail)
+        try:
+            self.store.add_event(now_utc, "health", subject, detail)
+        except Exception:  # noqa: BLE001 - the store cannot write: the alert still goes out (from memory)
+            log.exception("could not record the health event %s", subject)
         level = level or ("unmonitored" if urgent else "sensor-trouble")
         tz = getattr(getattr(self.cfg, "site", None), "tz", None) or dt.UTC
         local = (now_utc - dt.timedelta(hours=12)).astimezone(tz)

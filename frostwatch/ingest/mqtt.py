@@ -9,6 +9,14 @@ Design (reliability.md findings 1-6 and section 1):
 - `manual_ack=True`: `on_message` only puts the message on a bounded queue; one writer thread
   parses a batch, commits it (readings and rejections) and then sends each PUBACK. A kill -9 at
   any point loses nothing: unacknowledged messages are redelivered and duplicates are stored once.
+- A poison message costs only itself: parsing is total (any exception becomes the message's
+  rejection), a batch that fails for one row is committed row by row (Store.add_ingest) and one
+  that fails for one message is committed message by message, the bad one set aside as a
+  rejection and acknowledged. Only a store that cannot write at all (disk full, I/O error) keeps
+  the batch unacknowledged and retried; after `store_stall_s` that is a problem the heartbeat,
+  the watchdog and the health alert name ("readings are not being stored: the disk is full").
+- A retained message is subscribed with retain handling 1 (sent when the subscription is new,
+  not on every reconnect) and a retained message already rejected once is not recorded again.
 - Mosquitto 2.0.11 does not enforce its inflight window (finding 6), so the queue is bounded and
   `on_message` blocks when it is full (TCP back-pressure), never drops.
 - Every callback is guarded: an exception in a paho callback silently kills its network thread.
@@ -42,6 +50,7 @@ from frostwatch.errors import ConfigError, StoreError, UsageError
 from frostwatch.ingest.parse import TIME_FORMATS, Mapping, parse_mqtt_message
 from frostwatch.models import Reading, Rejection
 from frostwatch.store import Store
+from frostwatch.store.db import store_failure
 from frostwatch.units import QUANTITIES
 
 log = logging.getLogger("frostwatch.mqtt")
@@ -186,6 +195,9 @@ class IngestSettings:
     # topics under this prefix are the site's own fleet state (frostwatch.fleet): acknowledged, not read
     ignore_prefix: str = ""
 
+    # a writer that cannot commit for this long is a problem (heartbeat, watchdog, health alert)
+    store_stall_s: float = 30.0
+
 
 @dataclass
 class IngestStats:
@@ -216,6 +228,7 @@ class _Msg:
     qos: int
     generation: int
     received_utc: dt.datetime
+    retain: bool = False
 
 
 def _utc_now() -> dt.datetime:
@@ -261,6 +274,13 @@ class MqttIngest:
         self.last_echo = time.monotonic()  # our own heartbeat came back: the path works end to end
         self.last_writer_loop = time.monotonic()
         self.last_commit = time.monotonic()
+        self.commit_started: float | None = None  # a commit in progress since (monotonic)
+        self.failing_since: float | None = None  # commits failing since (monotonic): the store cannot write
+        self.failure_reason = ""
+        self._failure_logged = 0.0
+        # station -> receipt time (epoch s) of its latest valid reading, stored or not: a sensor
+        # that reports while the store cannot write is not silent (health checks)
+        self.heard: dict[str, float] = {}
         self.disconnected_since: float | None = time.monotonic()
         self.out_of_range: dict[str, deque] = {}
         self._stop = threading.Event()
@@ -315,8 +335,11 @@ class MqttIngest:
         self.last_echo = self.last_flow = time.monotonic()
         self.stats.connects += 1
         self.stats.session_present = bool(flags.session_present)
-        subs = [(f"{self.b.prefix.strip('/')}/#", SubscribeOptions(qos=1))]
-        subs += [(m.subscription, SubscribeOptions(qos=1)) for m in self.mappings]
+        # retain handling 1: a retained message comes when the subscription is new, not again on
+        # every reconnect of a resumed session (a retained poison would cost a rejection each time)
+        opts = SubscribeOptions(qos=1, retainHandling=SubscribeOptions.RETAIN_SEND_IF_NEW_SUB)
+        subs = [(f"{self.b.prefix.strip('/')}/#", opts)]
+        subs += [(m.subscription, opts) for m in self.mappings]
         if not self.status().startswith(self.b.prefix.strip("/") + "/"):
             subs.append((self.status("heartbeat"), SubscribeOptions(qos=1)))
         if self.on_ack is not None and not self.ack_topic.startswith(self.b.prefix.strip("/") + "/"):
@@ -343,7 +366,7 @@ class MqttIngest:
         self.last_flow = time.monotonic()
         if msg.topic == self.status("heartbeat"):
             self.last_echo = self.last_flow
-        m = _Msg(msg.topic, bytes(msg.payload), msg.mid, msg.qos, self.generation, self.clock())
+        m = _Msg(msg.topic, bytes(msg.payload), msg.mid, msg.qos, self.generation, self.clock(), bool(msg.retain))
         while not self._stop.is_set():
             try:
                 self.q.put(m, timeout=0.5)  # full queue: block (back-pressure), never drop
@@ -408,12 +431,25 @@ class MqttIngest:
             out.append("the writer thread is dead")
         elif now - self.last_writer_loop > 60:
             out.append(f"the writer thread has been stuck for {now - self.last_writer_loop:.0f} s")
+        stalled = self.not_storing_s()
+        if stalled >= self.s.store_stall_s:
+            out.append(f"readings are not being stored ({self.failure_reason or 'a commit has not returned'}) "
+                       f"for {stalled:.0f} s")
         if not self.net_thread_alive():
             out.append("the MQTT network thread is dead")
         deaf_after = 3 * self.s.heartbeat_s + self.b.keepalive_s
-        if self.connected and not self.q.full() and now - self.last_echo > deaf_after:
+        # while commits fail nothing is acknowledged, so the broker's in-flight window holds our
+        # heartbeat back: that is the store's fault, not the broker's
+        if self.connected and not self.q.full() and not stalled and now - self.last_echo > deaf_after:
             out.append(f"connected but no message for {now - self.last_echo:.0f} s, not even our own heartbeat")
         return out
+
+    def not_storing_s(self) -> float:
+        """Seconds the writer has been unable to commit (failing commits, or one that has not
+        returned); 0 while commits succeed."""
+        now = time.monotonic()
+        since = [t for t in (self.failing_since, self.commit_started) if t is not None]
+        return now - min(since) if since else 0.0
 
     def broker_down_s(self) -> float:
         return 0.0 if self.disconnected_since is None else time.monotonic() - self.disconnected_since
@@ -468,20 +504,96 @@ class MqttIngest:
                 or (stopping and self.q.empty())
             )
             if due:
-                try:
-                    self._commit(batch)
-                except Exception:  # noqa: BLE001 - keep the batch, unacknowledged, and retry
-                    self.stats.store_errors += 1
-                    log.exception("could not commit %d messages; retrying in 1 s (nothing acknowledged)", len(batch))
+                batch = self._commit_or_keep(batch)
+                if batch:  # the store cannot write: kept unacknowledged, retried
                     if stopping:
                         return
                     time.sleep(1.0)
                     continue
-                batch = []
                 urgent_at = None
 
     def _ignored(self, topic: str) -> bool:
         return bool(self.s.ignore_prefix) and topic.startswith(self.s.ignore_prefix)
+
+    def _commit_or_keep(self, batch: list[_Msg]) -> list[_Msg]:
+        """Commit a batch; return the messages left uncommitted (empty unless the store itself
+        cannot write). A batch that fails for any other reason is committed message by message:
+        a message that still fails is set aside as a rejection and acknowledged, so one poison
+        message costs only itself."""
+        self.commit_started = time.monotonic()
+        try:
+            try:
+                self._commit(batch)
+                self._store_ok()
+                return []
+            except Exception as exc:  # noqa: BLE001 - sorted below
+                if self._store_failed(exc, len(batch)):
+                    return batch
+                log.warning("a batch of %d messages failed (%s: %s); committing them one by one",
+                            len(batch), type(exc).__name__, exc)
+            for i, m in enumerate(batch):
+                try:
+                    self._commit([m])
+                    continue
+                except Exception as exc:  # noqa: BLE001
+                    if self._store_failed(exc, len(batch) - i):
+                        return batch[i:]
+                    reason = f"could not be stored ({type(exc).__name__}: {str(exc)[:160]}); set aside"
+                    log.error("message on %s set aside: %s", m.topic, reason)
+                try:
+                    self.store.add_rejections([Rejection(f"mqtt:{m.topic}", None, reason, _raw(m.payload))], m.received_utc)
+                except Exception as exc:  # noqa: BLE001
+                    if self._store_failed(exc, len(batch) - i):
+                        return batch[i:]
+                    log.exception("could not record the rejection of a message on %s; acknowledged anyway", m.topic)
+                self.stats.rejected += 1
+                self.stats.received += 1
+                self._ack([m])
+            self._store_ok()
+            return []
+        finally:
+            self.commit_started = None
+
+    def _store_failed(self, exc: BaseException, n: int) -> bool:
+        """True (and noted) when `exc` says the store itself cannot write."""
+        why = store_failure(exc.__cause__ or exc) if isinstance(exc, StoreError) else store_failure(exc)
+        if why is None and isinstance(exc, StoreError):
+            why = str(exc)
+        if why is None:
+            return False
+        now = time.monotonic()
+        self.stats.store_errors += 1
+        self.failure_reason = why
+        if self.failing_since is None:
+            self.failing_since = now
+            self._failure_logged = now
+            log.error("cannot store readings: %s; %d messages kept unacknowledged and retried every second "
+                      "(the broker keeps them)", why, n)
+        elif now - self._failure_logged >= 60:
+            self._failure_logged = now
+            log.error("still cannot store readings after %.0f s: %s; %d messages waiting", now - self.failing_since, why, n)
+        return True
+
+    def _store_ok(self) -> None:
+        if self.failing_since is not None:
+            log.warning("readings are stored again after %.0f s (%s)", time.monotonic() - self.failing_since,
+                        self.failure_reason)
+        self.failing_since = None
+        self.failure_reason = ""
+
+    def _ack(self, batch: list[_Msg]) -> None:
+        for m in batch:
+            if m.qos > 0 and m.generation == self.generation:
+                self.client.ack(m.mid, m.qos)
+                self.stats.acked += 1
+            # a message from an earlier connection is redelivered by the broker; that copy is
+            # acknowledged then (and stored once)
+
+    def _already_rejected(self, r: Rejection) -> bool:
+        try:
+            return self.store.has_rejection(r.source, r.raw)
+        except Exception:  # noqa: BLE001 - when in doubt, record it
+            return False
 
     def _parse(self, m: _Msg) -> list:
         return parse_mqtt_message(
@@ -502,7 +614,10 @@ class MqttIngest:
             return False
 
     def _commit(self, batch: list[_Msg]) -> None:
+        """Parse, store (one transaction), handle acknowledgements, then PUBACK. Raises when
+        nothing was committed."""
         readings: list[Reading] = []
+        origins: list[tuple[str, int | None, str]] = []
         rejections: list[Rejection] = []
         status_root = self.status() + "/"
         ack_msgs: list[_Msg] = []
@@ -513,34 +628,38 @@ class MqttIngest:
                 ack_msgs.append(m)  # an alert acknowledgement, not a reading
                 continue
             items = self._parsed.get(id(m))
-            for r in items if items is not None else self._parse(m):
-                (readings if isinstance(r, Reading) else rejections).append(r)
+            items = items if items is not None else self._parse(m)
+            bad = [r for r in items if isinstance(r, Rejection)]
+            if bad and m.retain and self._already_rejected(bad[0]):
+                bad = []  # a retained message seen again (a new session): recorded once already
+            rejections += bad
+            for r in items:
+                if isinstance(r, Reading):
+                    readings.append(r)
+                    origins.append((f"mqtt:{m.topic}", None, _raw(m.payload)))
+                    self.heard[r.station] = m.received_utc.timestamp()
         stored = dups = 0
-        conflicts: list[Rejection] = []
-        if readings:
-            stored, dups, conflicts = self.store.add_readings(readings, "mqtt")
-        if rejections or conflicts:
-            self.store.add_rejections(rejections + conflicts, self.clock())
+        aside: list[Rejection] = []
+        if readings or rejections:
+            stored, dups, aside = self.store.add_ingest(readings, rejections, self.clock(), "mqtt", origins)
         for m in ack_msgs:  # recorded by the outbox (its own transaction) before the PUBACK
             try:
                 self.on_ack(m.payload, m.received_utc)
-            except Exception:  # noqa: BLE001 - a bad acknowledgement must not stop ingest
+            except Exception as exc:  # noqa: BLE001 - a bad acknowledgement must not stop ingest
+                if store_failure(exc) is not None:
+                    raise  # the store cannot write: keep it unacknowledged, retried with the batch
                 log.exception("could not handle an acknowledgement on %s", m.topic)
         # committed: now, and only now, acknowledge
-        for m in batch:
-            if m.qos > 0 and m.generation == self.generation:
-                self.client.ack(m.mid, m.qos)
-                self.stats.acked += 1
-            # a message from an earlier connection is redelivered by the broker; that copy is
-            # acknowledged then (and stored once)
+        self._ack(batch)
         for m in batch:
             self._parsed.pop(id(m), None)
+        conflicts = [r for r in aside if "already stored" in r.reason]
         st = self.stats
         st.received += len(batch)
         st.stored += stored
         st.duplicates += dups
         st.conflicts += len(conflicts)
-        st.rejected += len(rejections)
+        st.rejected += len(rejections) + len(aside) - len(conflicts)
         st.commits += 1
         self.last_commit = time.monotonic()
         for r in rejections:
@@ -556,6 +675,10 @@ class MqttIngest:
                 self.on_committed(readings)
             except Exception:  # noqa: BLE001
                 log.exception("error after committing readings (ignored)")
+
+
+def _raw(payload: bytes) -> str:
+    return payload[:200].decode("utf-8", "replace")
 
 
 __all__ = ["MqttIngest", "IngestSettings", "IngestStats", "mappings_from_config", "read_secret", "StoreError"]

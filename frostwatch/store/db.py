@@ -35,6 +35,40 @@ def to_ms(t: dt.datetime) -> int:
     return int(round(t.timestamp() * 1000))
 
 
+def store_failure(exc: BaseException) -> str | None:
+    """Why the store as a whole cannot write, in words for the health alert ("the disk is full
+    ..."), or None when the error belongs to the row being written (a constraint, a value SQLite
+    cannot take) and the rest of a batch may still be stored."""
+    if isinstance(exc, StoreError):
+        return str(exc)
+    if isinstance(exc, OSError):
+        return f"the file system refused a write ({exc.strerror or exc})"
+    row_errors = (sqlite3.IntegrityError, sqlite3.DataError, sqlite3.InterfaceError, sqlite3.ProgrammingError)
+    if not isinstance(exc, sqlite3.DatabaseError) or isinstance(exc, row_errors):
+        return None  # a constraint or trigger, OverflowError, TypeError: the row's own fault
+    text = str(exc).lower()
+    if "full" in text:
+        return "the disk is full (SQLite: database or disk is full); free space on it"
+    if "disk i/o" in text or "i/o error" in text:
+        return "the disk gives I/O errors (SQLite: disk I/O error); check the SD card or drive"
+    if "locked" in text or "busy" in text:
+        return "the store is locked by another process (SQLite: database is locked)"
+    if "readonly" in text or "read-only" in text:
+        return "the store is read-only (SQLite: attempt to write a readonly database); check its permissions"
+    if "malformed" in text or "not a database" in text:
+        return "the store file is damaged (SQLite: database disk image is malformed)"
+    if "unable to open" in text:
+        return "the store file cannot be opened"
+    return None
+
+
+def _iso_or_repr(t: object) -> str:
+    try:
+        return t.isoformat()  # type: ignore[attr-defined]
+    except Exception:  # noqa: BLE001
+        return repr(t)[:60]
+
+
 def from_ms(ms: int) -> dt.datetime:
     """Integer milliseconds since the epoch -> an aware UTC datetime."""
     return dt.datetime.fromtimestamp(ms / 1000.0, tz=dt.UTC)
@@ -179,6 +213,97 @@ class Store:
             raise StoreError(f"{self.path}: cannot store readings: {exc}") from None
         return stored, dup, conflicts
 
+    def add_ingest(
+        self,
+        readings: list[Reading],
+        rejections: list[Rejection],
+        received_utc: dt.datetime,
+        source: str,
+        origins: list[tuple[str, int | None, str]] | None = None,
+    ) -> tuple[int, int, list[Rejection]]:
+        """Readings and rejections of one ingest batch in one transaction (one fsync).
+
+        Returns (stored, exact duplicates, rows set aside): the set-aside rows are conflicts
+        (already stored) as `add_readings` reports them, and readings that could not be stored,
+        each stored as a rejection with its reason. A batch that fails for one row is retried
+        row by row, so the others commit and only the bad one is set aside. Raises `StoreError`
+        only when the store itself cannot write (`store_failure` says why: disk full, I/O
+        error, locked, read-only); nothing of the batch is then kept, so it can be retried whole.
+        `origins` gives each reading's (source, line, raw text) for its rejection.
+        """
+        try:
+            with self.transaction() as c:
+                stored, dup, conflicts = self._insert_readings(c, readings, source, origins)
+                self._insert_rejections(c, [*rejections, *conflicts], received_utc)
+            return stored, dup, conflicts
+        except Exception as exc:  # noqa: BLE001 - sorted below: the store's fault or one row's
+            if store_failure(exc) is not None:
+                raise StoreError(f"{self.path}: cannot store readings: {store_failure(exc)}") from exc
+            batch_error = exc
+        stored = dup = 0
+        aside: list[Rejection] = []
+        for i, r in enumerate(readings):
+            try:
+                with self.transaction() as c:
+                    s1, d1, c1 = self._insert_readings(c, [r], source, [origins[i]] if origins else None)
+                stored, dup = stored + s1, dup + d1
+                aside += c1
+            except Exception as exc:  # noqa: BLE001 - this row is set aside with its reason
+                if store_failure(exc) is not None:
+                    raise StoreError(f"{self.path}: cannot store readings: {store_failure(exc)}") from exc
+                where = origins[i] if origins else (source, None, "")
+                aside.append(Rejection(
+                    where[0], where[1],
+                    f"{r.station} {r.quantity} at {_iso_or_repr(r.time_utc)} could not be stored "
+                    f"({type(exc).__name__}: {str(exc)[:160]}); set aside, the rest of the batch was stored",
+                    where[2] or f"{_iso_or_repr(r.time_utc)},{r.station},{r.quantity},{r.value!r}"[:200],
+                ))
+        try:
+            with self.transaction() as c:
+                self._insert_rejections(c, [*rejections, *aside], received_utc)
+        except Exception as exc:  # noqa: BLE001
+            raise StoreError(
+                f"{self.path}: cannot store rejected rows: {store_failure(exc) or type(exc).__name__ + ': ' + str(exc)}"
+                f" (after the batch failed with {type(batch_error).__name__}: {batch_error})"
+            ) from exc
+        return stored, dup, aside
+
+    def _insert_readings(self, c: sqlite3.Connection, readings: Iterable[Reading], source: str,
+                         origins: list[tuple[str, int | None, str]] | None) -> tuple[int, int, list[Rejection]]:
+        stored = dup = 0
+        conflicts: list[Rejection] = []
+        for i, r in enumerate(readings):
+            ms = to_ms(r.time_utc)
+            cur = c.execute(
+                "INSERT OR IGNORE INTO readings(time_utc_ms, station, quantity, value, source) VALUES (?,?,?,?,?)",
+                (ms, r.station, r.quantity, r.value, source),
+            )
+            if cur.rowcount == 1:
+                stored += 1
+                continue
+            (old,) = c.execute(
+                "SELECT value FROM readings WHERE time_utc_ms=? AND station=? AND quantity=?",
+                (ms, r.station, r.quantity),
+            ).fetchone()
+            if math.isclose(old, r.value, rel_tol=0, abs_tol=1e-9):
+                dup += 1
+            else:
+                where = origins[i] if origins is not None else (source, None, "")
+                conflicts.append(Rejection(
+                    where[0], where[1],
+                    f"{r.station} {r.quantity} at {r.time_utc.isoformat()} is {r.value:g} here but "
+                    f"{old:g} is already stored; the first value is kept",
+                    f"{r.time_utc.isoformat()},{r.station},{r.quantity},{r.value}",
+                ))
+        return stored, dup, conflicts
+
+    @staticmethod
+    def _insert_rejections(c: sqlite3.Connection, rejections: Iterable[Rejection], received_utc: dt.datetime) -> int:
+        rows = [(to_ms(received_utc), r.source, r.line, r.reason, r.raw[:2000]) for r in rejections]
+        if rows:
+            c.executemany("INSERT INTO rejections(received_utc_ms, source, line, reason, raw) VALUES (?,?,?,?,?)", rows)
+        return len(rows)
+
     def add_rejections(self, rejections: Iterable[Rejection], received_utc: dt.datetime) -> int:
         rows = [
             (to_ms(received_utc), r.source, r.line, r.reason, r.raw[:2000]) for r in rejections
@@ -193,6 +318,13 @@ class Store:
         except sqlite3.Error as exc:
             raise StoreError(f"{self.path}: cannot store rejected rows: {exc}") from None
         return len(rows)
+
+    def has_rejection(self, source: str, raw: str) -> bool:
+        """Whether a rejection of this source with this raw text is already stored."""
+        with self.lock:
+            return self.conn.execute(
+                "SELECT 1 FROM rejections WHERE source=? AND raw=? LIMIT 1", (source, raw[:2000])
+            ).fetchone() is not None
 
     def count(self, table: str) -> int:
         return self.db[table].count

@@ -84,3 +84,83 @@ def test_full_disk_clear_error_alerts_still_delivered_writes_resume(small_fs, tm
     finally:
         box.close()
         store.close()
+
+
+DAEMON_STATIONS = ("east-low", "east-tower", "river-low", "river-low-b", "hill-low", "shed-sky")
+
+
+@pytest.mark.broker
+def test_daemon_on_a_full_disk_says_readings_are_not_being_stored_and_blames_no_sensor(small_fs, tmp_path, mosquitto):
+    """Pass (the real daemon, its store on a small tmpfs, every station reporting twice a second,
+    a 3 s silence limit): when the disk fills, within seconds the daemon's unhealthy reason is
+    "readings are not being stored (the disk is full ...)" (not the broker), the watchdog is no
+    longer fed, and the health alert saying so reaches the local siren channel from memory; no
+    sensor is called silent meanwhile although nothing is stored; once space is freed every
+    reading published during the outage is stored."""
+    import threading
+    import time
+
+    from fault_helpers import DaemonProc, connect_publisher, query, reading, wait_until, write_config
+    from test_supervision import NotifySocket
+
+    siren = tmp_path / "siren.txt"
+    tail = (f'\n[[channels]]\nname = "siren"\ntype = "command"\nargv = ["sh", "-c", "cat >> \'{siren}\'"]\n'
+            'address = "none"\ntimeout_s = 5\n')
+    cfg = write_config(tmp_path, mosquitto.port,
+                       daemon="store_stall_s = 2\nsilent_after_intervals = 0.05\n", tail=tail)
+    text = cfg.read_text().replace('path = "frostwatch.db"', f'path = "{small_fs / "fw.db"}"', 1)
+    text = text.replace('default = ["console"]', 'default = ["console", "siren"]')
+    cfg.write_text(text)
+    db = small_fs / "fw.db"
+    ns = NotifySocket()
+    d = DaemonProc(cfg, env={"NOTIFY_SOCKET": str(ns.path), "WATCHDOG_USEC": "1000000"})
+    pub = connect_publisher(mosquitto.port, "full-disk-sensors")
+    sent = [0]
+    stop = threading.Event()
+
+    def sensors():
+        k = 0
+        while not stop.wait(0.5) and k < 400:
+            k += 1
+            t = dt.datetime.now(dt.UTC).replace(microsecond=0) + dt.timedelta(milliseconds=500 * (k % 2))
+            for st in DAEMON_STATIONS:
+                pub.publish(*reading(st, t, 4.0), qos=1)
+                sent[0] += 1
+
+    th = threading.Thread(target=sensors, daemon=True)
+    filler = small_fs / "filler"
+    try:
+        d.start()
+        assert wait_until(lambda: "connected to" in d.log_text(), 20), d.log_text()[-2000:]
+        th.start()
+        assert wait_until(lambda: (query(db, "SELECT count(DISTINCT station) FROM readings") or [(0,)])[0][0] == 6, 20)
+        time.sleep(4)  # the start-up silence (no reading yet) has been raised and cleared by now
+        mark_log, mark_siren = len(d.log_text()), len(siren.read_text()) if siren.exists() else 0
+        ns.drain(0.5)
+        _fill(filler)
+        assert wait_until(lambda: "unhealthy: readings are not being stored" in d.log_text()[mark_log:], 20), \
+            d.log_text()[mark_log:][-3000:]
+        problems_at = time.monotonic()
+        ns.drain(1.5)
+        after = ns.drain(3.0)
+        assert not [s for _, s in after if s == "WATCHDOG=1"], "the watchdog was fed while nothing was stored"
+        assert wait_until(lambda: siren.exists() and "readings are not being stored" in siren.read_text()[mark_siren:], 15)
+        while time.monotonic() - problems_at < 6:  # twice the silence limit with sensors reporting
+            time.sleep(0.5)
+        log = d.log_text()[mark_log:]
+        unhealthy = [ln for ln in log.splitlines() if "unhealthy:" in ln]
+        assert any("disk is full" in ln for ln in unhealthy), unhealthy
+        assert not [ln for ln in unhealthy if "broker" in ln or "heartbeat" in ln], unhealthy
+        said = siren.read_text()[mark_siren:]
+        assert "disk is full" in said and "silent" not in said, said
+        filler.unlink()
+        stop.set()
+        th.join(5)
+        assert wait_until(lambda: query(db, "SELECT count(*) FROM readings") == [(sent[0],)], 40), \
+            (query(db, "SELECT count(*) FROM readings"), sent[0], d.log_text()[-2000:])
+        assert "readings are stored again" in d.log_text()
+    finally:
+        stop.set()
+        pub.loop_stop()
+        d.terminate()
+        ns.close()
