@@ -19,6 +19,7 @@ from __future__ import annotations
 import datetime as dt
 import hmac
 import html
+import io
 import ipaddress
 import json
 import logging
@@ -45,6 +46,13 @@ from frostwatch.store import reports as q
 log = logging.getLogger("frostwatch.statuspage")
 COOKIE = "frostwatch_token"
 CACHE_S = 20.0  # a page computed less than this long ago is served again (many phones, one Pi)
+# A request (line, headers, body) must arrive whole within this; a client that drips it byte by
+# byte is cut off then, so it holds a handler thread no longer. Connections beyond
+# MAX_CONNECTIONS at once are closed at once: the thread count stays bounded.
+REQUEST_DEADLINE_S = 10.0
+WRITE_TIMEOUT_S = 10.0
+MAX_CONNECTIONS = 16
+MAX_BODY_BYTES = 8192
 e = html.escape
 
 
@@ -298,6 +306,8 @@ def snapshot_json(snap: dict) -> dict:
 class StatusServer(ThreadingHTTPServer):
     daemon_threads = True
     allow_reuse_address = True
+    request_deadline_s = REQUEST_DEADLINE_S
+    max_connections = MAX_CONNECTIONS
 
     def __init__(self, addr, cfg: Config, store: Store, token: str | None, now_fn, refresh_s: int, evaluator):
         super().__init__(addr, _Handler)
@@ -305,6 +315,37 @@ class StatusServer(ThreadingHTTPServer):
         self.refresh_s, self.evaluator = refresh_s, evaluator
         self._cache: tuple[float, str, dict] | None = None
         self._cache_lock = threading.Lock()
+        self._slots = threading.BoundedSemaphore(self.max_connections)
+
+    def process_request(self, request, client_address):
+        """One thread per connection, at most `max_connections` at once; beyond that the
+        connection is closed at once (a flood of slow clients cannot grow the thread count)."""
+        if not self._slots.acquire(blocking=False):
+            log.warning("status page: %d connections already open; closing one from %s", self.max_connections,
+                        client_address[0])
+            self.shutdown_request(request)
+            return
+        try:
+            super().process_request(request, client_address)
+        except BaseException:
+            self._slots.release()
+            raise
+
+    def handle_error(self, request, client_address):
+        """A client that went away or timed out is routine (a phone losing signal): one log line."""
+        import sys
+
+        exc = sys.exc_info()[1]
+        if isinstance(exc, (ConnectionError, TimeoutError)):
+            log.info("status page: %s from %s", type(exc).__name__, client_address[0])
+            return
+        log.exception("status page: error while serving %s", client_address[0])
+
+    def process_request_thread(self, request, client_address):
+        try:
+            super().process_request_thread(request, client_address)
+        finally:
+            self._slots.release()
 
     def page(self) -> tuple[str, dict]:
         with self._cache_lock:
@@ -321,15 +362,55 @@ class StatusServer(ThreadingHTTPServer):
             self._cache = None
 
 
+class _DeadlineReader(io.RawIOBase):
+    """The socket's input with one deadline for the whole request: each read may wait only for
+    what is left of it (a per-read timeout alone lets a client drip a byte every few seconds
+    forever). Past the deadline a read raises TimeoutError, which ends the request."""
+
+    def __init__(self, sock, deadline: float):
+        self.sock, self.deadline = sock, deadline
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, b) -> int:
+        left = self.deadline - time.monotonic()
+        if left <= 0:
+            raise TimeoutError("the request did not arrive within its deadline")
+        self.sock.settimeout(left)
+        return self.sock.recv_into(b)
+
+
 class _Handler(BaseHTTPRequestHandler):
     server: StatusServer
     server_version = "frostwatch-status"
+
+    def setup(self):
+        super().setup()
+        deadline = time.monotonic() + self.server.request_deadline_s
+        self.rfile = io.BufferedReader(_DeadlineReader(self.connection, deadline))
+
+    def _body_length(self, limit: int) -> int | None:
+        """The request's Content-Length when it is a plain number from 0 to `limit`; else the
+        request is answered at once (400 for a malformed or negative length, 413 for too
+        large) and None is returned: the body is never read on the client's word."""
+        text = (self.headers.get("Content-Length") or "0").strip()
+        if not text.isdigit():
+            self._send(400, "<h1>400</h1><p>Bad Content-Length.</p>")
+            return None
+        n = int(text)
+        if n > limit:
+            self._send(413, "<h1>413</h1><p>The request body is too large.</p>")
+            return None
+        return n
 
     def log_message(self, fmt, *args):  # to the daemon's log, not stderr
         log.info("%s %s", self.address_string(), fmt % args)
 
     def _send(self, code: int, body: str, ctype: str = "text/html; charset=utf-8", extra: dict | None = None):
         data = body.encode("utf-8")
+        self.connection.settimeout(WRITE_TIMEOUT_S)  # a client that does not read is not waited for long
+        self.close_connection = True
         self.send_response(code)
         self.send_header("Content-Type", ctype)
         self.send_header("Content-Length", str(len(data)))
@@ -411,9 +492,9 @@ class _Handler(BaseHTTPRequestHandler):
         one-use token of the alert message is found; `from`/`who` names the sender for the log.
         The signed one-use token is the authority, as for a link; forged or reused ones are refused.
         """
-        length = int(self.headers.get("Content-Length") or 0)
-        if length > 8192:
-            return self._send(413, json.dumps({"ok": False, "message": "body too large"}), "application/json")
+        length = self._body_length(MAX_BODY_BYTES)
+        if length is None:
+            return None
         raw = self.rfile.read(length).decode("utf-8", "replace") if length else ""
         ctype = (self.headers.get("Content-Type") or "").split(";")[0].strip()
         fields: dict = {}
@@ -450,9 +531,9 @@ class _Handler(BaseHTTPRequestHandler):
             return self._gateway_ack()
         if not path.startswith("/ack/"):
             return self._send(405, "<h1>405</h1><p>This page is read-only.</p>")
-        length = int(self.headers.get("Content-Length") or 0)
-        if length > 4096:
-            return self._send(413, "<h1>413</h1>")
+        length = self._body_length(4096)
+        if length is None:
+            return None
         if length:
             self.rfile.read(length)
         token = urllib.parse.unquote(path[len("/ack/"):])
