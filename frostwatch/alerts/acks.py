@@ -154,14 +154,40 @@ def acknowledge_token(store: Store, cfg, token: str, now_utc: dt.datetime, via: 
 
 
 MAX_MQTT_ACK_BYTES = 4096
+MIN_CONTACT_SECRET_CHARS = 16
+_NEEDS = ('an acknowledgement over MQTT needs the signed one-use token of the alert\'s link, or '
+          '{"key": "<alert key>", "who": "<contact>", "secret": "<that contact\'s ack secret>"}')
+
+
+def contact_secret(cfg, contact) -> str | None:
+    """A contact's acknowledgement secret ([[contacts]] ack_secret_file or ack_secret_credential),
+    None when the contact has none. Raises OSError or ValueError when it cannot be used."""
+    from frostwatch.alerts.config import read_secret
+
+    if not contact.ack_secret:
+        return None
+    base = Path(cfg.path).parent if getattr(cfg, "path", None) else None
+    value = read_secret(contact.ack_secret, base, key="ack_secret")
+    if value is None:
+        return None
+    if len(value) < MIN_CONTACT_SECRET_CHARS:
+        raise ValueError(f"the ack secret of contact {contact.name!r} is shorter than {MIN_CONTACT_SECRET_CHARS} characters")
+    return value
 
 
 def acknowledge_mqtt(store: Store, cfg, outbox, payload: bytes, now_utc: dt.datetime) -> tuple[bool, str]:
     """An acknowledgement arriving on the MQTT ack topic (`[alerts] ack_topic`, default
-    `{prefix}/ack`). The payload is a signed token from `ack_link_token` (bare, or as
-    {"token": "..."}), or JSON {"key": "<alert key>", "who": "<name>"}. A forged or spent token,
-    an unknown key or an unreadable payload is refused, logged and recorded as an `ack` event.
-    Returns (ok, message)."""
+    `{prefix}/ack`). Accepted forms, each authenticated and good once:
+
+    - the signed one-use token of the alert's link (`ack_link_token`), bare or as {"token": "..."};
+    - {"key": "<alert key>", "who": "<contact name>", "secret": "<that contact's ack secret>"}
+      (`[[contacts]] ack_secret_file` or `ack_secret_credential`); a second one for the same alert
+      and person is a replay and is refused.
+
+    A bare alert key (alert keys follow a pattern anyone can guess) is refused, like a forged,
+    expired or spent token, a wrong secret or an unreadable payload: logged and recorded as an
+    `ack` event. Returns (ok, message).
+    """
     if len(payload) > MAX_MQTT_ACK_BYTES:
         return _refuse(store, now_utc, "mqtt", f"payload of {len(payload)} bytes is too large", "")
     try:
@@ -172,15 +198,35 @@ def acknowledge_mqtt(store: Store, cfg, outbox, payload: bytes, now_utc: dt.date
         return acknowledge_token(store, cfg, text, now_utc, via="mqtt")
     try:
         doc = json.loads(text)
-    except ValueError:
-        return _refuse(store, now_utc, "mqtt", 'neither a token nor JSON {"key": ..., "who": ...}', text)
+    except (ValueError, RecursionError):
+        return _refuse(store, now_utc, "mqtt", "neither a token nor JSON; " + _NEEDS, text)
     if isinstance(doc, dict) and isinstance(doc.get("token"), str):
         return acknowledge_token(store, cfg, doc["token"], now_utc, via="mqtt")
     if not isinstance(doc, dict) or not isinstance(doc.get("key"), str) or not doc["key"].strip():
-        return _refuse(store, now_utc, "mqtt", 'expected JSON {"key": "<alert key>", "who": "<name>"}', text)
+        return _refuse(store, now_utc, "mqtt", _NEEDS, text)
     key = doc["key"].strip()[:300]
     who = doc.get("who")
-    who = who.strip()[:100] if isinstance(who, str) and who.strip() else "someone (mqtt)"
-    if not outbox.acknowledge(key, who, "mqtt", now_utc):
+    secret = doc.get("secret")
+    if not isinstance(secret, str) or not secret:
+        return _refuse(store, now_utc, "mqtt", f"alert {key} named without a token or a contact's secret; " + _NEEDS, key)
+    if not isinstance(who, str) or not who.strip():
+        return _refuse(store, now_utc, "mqtt", f"alert {key}: no contact named in \"who\"", key)
+    who = who.strip()[:100]
+    person = outbox.ac.contact(who)
+    if person is None:
+        return _refuse(store, now_utc, "mqtt", f"alert {key}: {who!r} is not a contact", key)
+    try:
+        expected = contact_secret(cfg, person)
+    except (OSError, ValueError) as exc:
+        return _refuse(store, now_utc, "mqtt", f"alert {key}: the ack secret of {who!r} cannot be used: {exc}", key)
+    if expected is None:
+        return _refuse(store, now_utc, "mqtt", f"alert {key}: contact {who!r} has no ack secret configured", key)
+    if not hmac.compare_digest(secret.encode("utf-8"), expected.encode("utf-8")):
+        return _refuse(store, now_utc, "mqtt", f"alert {key}: wrong secret for {who!r}", key)
+    try:
+        known = outbox.acknowledge(key, who, "mqtt", now_utc, once=f"contact:{who}:{key}")
+    except sqlite3.IntegrityError:
+        return _refuse(store, now_utc, "mqtt", f"alert {key} was already acknowledged by {who} this way (a replay)", key)
+    if not known:
         return _refuse(store, now_utc, "mqtt", f"no alert {key} in this store", key)
     return True, f"acknowledged {key} for {who}"

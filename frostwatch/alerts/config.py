@@ -78,7 +78,8 @@ _CHANNEL_KEYS = {
     "command": {"argv": list},
     "console": {},
 }
-_CONTACT_KEYS = {"name": str, "roles": list, "email": str, "phone": str, "webhook": str, "command": str}
+_CONTACT_KEYS = {"name": str, "roles": list, "email": str, "phone": str, "webhook": str, "command": str,
+                 "ack_secret_file": str, "ack_secret_credential": str}
 
 
 @dataclass(frozen=True)
@@ -96,6 +97,9 @@ class Contact:
     name: str
     roles: tuple[str, ...]
     addresses: dict
+    # where this person's acknowledgement secret lives (ack_secret_file / ack_secret_credential):
+    # with it, an MQTT acknowledgement may name an alert key instead of carrying a signed token
+    ack_secret: dict = field(default_factory=dict)
 
     def address(self, field_name: str) -> str | None:
         return self.addresses.get(field_name) or None
@@ -245,7 +249,8 @@ def load_alerts_config(cfg) -> AlertsConfig:
         addr = {k: c[k] for k in ("email", "phone", "webhook", "command") if isinstance(c.get(k), str)}
         if "email" in addr and "@" not in addr["email"]:
             problems.append(f"{where}.email: {addr['email']!r} is not an address, expected name@domain")
-        contacts.append(Contact(name, tuple(r for r in roles if r in ROLES), addr))
+        ack_secret = {k: c[k] for k in ("ack_secret_file", "ack_secret_credential") if isinstance(c.get(k), str)}
+        contacts.append(Contact(name, tuple(r for r in roles if r in ROLES), addr, ack_secret))
     names = {c.name for c in contacts}
 
     # channels

@@ -223,9 +223,15 @@ class Outbox:
         return key
 
     # -- acknowledgement ---------------------------------------------------------------------
-    def acknowledge(self, key: str, who: str, via: str, now_utc: dt.datetime) -> bool:
-        """Record who answered and stop the alert's repeats (and those of the block's earlier ones)."""
+    def acknowledge(self, key: str, who: str, via: str, now_utc: dt.datetime, once: str | None = None) -> bool:
+        """Record who answered and stop the alert's repeats (and those of the block's earlier ones).
+
+        `once` is a one-use mark (spent in the same transaction): a second acknowledgement with
+        the same mark raises sqlite3.IntegrityError (a replay)."""
         with self.store.transaction() as c:
+            if once is not None and c.execute("SELECT 1 FROM alerts WHERE key=?", (key,)).fetchone() is not None:
+                c.execute("INSERT INTO ack_tokens_used(nonce, alert_key, recipient, via, used_utc_ms) VALUES (?,?,?,?,?)",
+                          (once, key, who, via, to_ms(now_utc)))
             if not ob.record_ack(c, key, who, via, now_utc):
                 log.warning("acknowledgement for unknown alert %s (by %s via %s) ignored", key, who, via)
                 return False

@@ -17,6 +17,7 @@ from frostwatch.alerts.outbox import Outbox
 from frostwatch.ingest.mqtt import IngestSettings, MqttIngest
 from frostwatch.models import Alert
 from frostwatch.store import Store
+from frostwatch.store import outbox as ob
 
 pytestmark = pytest.mark.broker
 
@@ -32,20 +33,29 @@ def _wait(pred, timeout_s=30.0):
     return bool(pred())
 
 
-def test_acknowledgements_over_mqtt_json_and_token_and_forgeries_refused(tmp_path, mosquitto, caplog):
-    """Pass: on `{prefix}/ack` through a real Mosquitto, JSON {"key", "who"} acknowledges that
-    alert (via "mqtt", by that person), a signed token acknowledges its alert once, and a forged
-    key, a forged token, a reused token and a non-JSON payload are each refused, logged and
-    recorded as "ack" events; nothing on the ack topic is stored as a reading or a rejection."""
-    cfg = make_cfg(tmp_path, {"roster": [{"blocks": ["*"], "order": ["ana"]}]}, PEOPLE,
+def test_mqtt_ack_takes_only_a_signed_token_or_a_contacts_secret_and_refuses_forgeries_and_replays(
+        tmp_path, mosquitto, caplog):
+    """Pass (issue 18, item 2), on `{prefix}/ack` through a real Mosquitto: a bare
+    {"key", "who"} (the form that acknowledged any alert by its guessable key before), a key with
+    a wrong secret, a key with the secret of a contact who has none, a forged token and a
+    non-JSON payload are each refused, logged and recorded as "ack" events, and their alerts keep
+    firing; a key with ana's own secret acknowledges its alert once and the same message again is
+    refused as a replay; a signed token acknowledges its alert once and its replay is refused;
+    nothing on the ack topic is stored as a reading or a rejection."""
+    secret_file = tmp_path / "ana.ack"
+    secret_file.write_text("ana-has-a-long-secret-0123456789\n")
+    secret_file.chmod(0o600)
+    people = [{"name": "ana", "roles": ["grower"], "email": "ana@example.org", "ack_secret_file": str(secret_file)},
+              {"name": "ben", "roles": ["grower"], "email": "ben@example.org"}]
+    cfg = make_cfg(tmp_path, {"roster": [{"blocks": ["*"], "order": ["ana", "ben"]}]}, people,
                    [{"name": "console", "type": "console"}])
     cfg = dataclasses.replace(cfg, broker=dataclasses.replace(cfg.broker, port=mosquitto.port, client_id="ack-test"))
     now = dt.datetime.now(dt.UTC)
     with Store.open(cfg.storage.path) as store:
         box = Outbox(store, cfg)
-        keys = [f"east/{now.date()}/act-{i}" for i in range(2)]
-        box.submit([Alert(time_utc=now, block="east", level="act", rank=4, advice="start", message=f"act {k}", key=k)
-                    for k in keys], now)
+        keys = [f"east/{now.date()}/00{i}-act" for i in range(4)]
+        box.submit([Alert(time_utc=now, block=f"b{i}", level="act", rank=4, advice="start", message=f"act {k}", key=k)
+                    for i, k in enumerate(keys)], now)
         secret = acks.install_secret(store, cfg)
         token = acks.ack_link_token(secret, keys[1], "ana", issued_utc=now)
         forged = token[:-4] + ("AAAA" if not token.endswith("AAAA") else "BBBB")
@@ -66,8 +76,15 @@ def test_acknowledgements_over_mqtt_json_and_token_and_forgeries_refused(tmp_pat
             pub.connect("127.0.0.1", mosquitto.port)
             pub.loop_start()
             topic = f"{cfg.broker.prefix.strip('/')}/ack"
-            payloads = [json.dumps({"key": keys[0], "who": "ana"}), token, token,
-                        json.dumps({"key": "east/2000-01-01/act-forged", "who": "mallory"}), forged, "not json"]
+            good = json.dumps({"key": keys[0], "who": "ana", "secret": "ana-has-a-long-secret-0123456789"})
+            payloads = [
+                json.dumps({"key": keys[2], "who": "mallory"}),                      # guessed key, no secret
+                json.dumps({"key": keys[2], "who": "ana", "secret": "wrong-wrong-wrong-wrong"}),
+                json.dumps({"key": keys[3], "who": "ben", "secret": "ana-has-a-long-secret-0123456789"}),
+                good, good,                                                          # accepted, then a replay
+                token, token,                                                        # accepted, then a replay
+                forged, "not json",
+            ]
             for p in payloads:
                 pub.publish(topic, p.encode(), qos=1).wait_for_publish(10)
 
@@ -79,14 +96,20 @@ def test_acknowledgements_over_mqtt_json_and_token_and_forgeries_refused(tmp_pat
                 with store.lock:
                     return store.conn.execute("SELECT detail FROM events WHERE kind='ack' AND subject='refused'").fetchall()
 
-            assert _wait(lambda: len(acks_rows()) >= 2 and len(refused()) >= 4), (acks_rows(), refused())
+            assert _wait(lambda: len(acks_rows()) >= 2 and len(refused()) >= 7), (acks_rows(), refused())
+            time.sleep(0.5)  # nothing else may arrive
         finally:
             pub.loop_stop()
             ing.stop()
             box.close()
-        assert acks_rows() == [(keys[0], "ana", "mqtt"), (keys[1], "ana", "mqtt")]
+        assert sorted(acks_rows()) == [(keys[0], "ana", "mqtt"), (keys[1], "ana", "mqtt")]
         text = " | ".join(r[0] for r in refused())
-        assert "already been used" in text and "act-forged" in text and "signature does not match" in text
-        assert "neither a token nor JSON" in text
+        assert len(refused()) == 7, text
+        assert "without a token or a contact's secret" in text and "wrong secret for 'ana'" in text
+        assert "'ben' has no ack secret" in text and "a replay" in text and "already been used" in text
+        assert "signature does not match" in text and "neither a token nor JSON" in text
+        states = {k: ob.state_of(store, k)["state"] for k in keys}
+        assert states == {keys[0]: "acked", keys[1]: "acked", keys[2]: "firing", keys[3]: "firing"}
         assert store.count("readings") == 0 and store.count("rejections") == 0
         assert "acknowledgement refused" in caplog.text
+        assert "ana-has-a-long-secret" not in caplog.text  # a secret never reaches the log
