@@ -87,6 +87,10 @@ class Station:
 class Storage:
     path: Path
     retention_days: float = 400.0
+    # rejected input is kept for this long, apart from readings (bad input must not fill the card)
+    rejection_retention_days: float = 30.0
+    # rejection rows (and log lines) per MQTT topic and hour; beyond it they are counted in one row
+    rejections_per_source_per_hour: int = 60
 
 
 @dataclass(frozen=True)
@@ -99,7 +103,7 @@ class Broker:
     password_file: str | None = None
     keepalive_s: int = 15
     tls: dict = field(default_factory=dict)
-    max_payload_bytes: int = 65536
+    max_payload_bytes: int = 8192  # as deploy/mosquitto/frostwatch.conf's max_packet_size
 
 
 @dataclass(frozen=True)
@@ -183,6 +187,8 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
     "storage": {
         "path": ((str,), "frostwatch.db", False),
         "retention_days": (_NUM, 400.0, False),
+        "rejection_retention_days": (_NUM, 30.0, False),
+        "rejections_per_source_per_hour": ((int,), 60, False),
     },
     "broker": {
         "host": ((str,), "127.0.0.1", False),
@@ -193,7 +199,7 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "password_file": ((str,), None, False),
         "keepalive_s": ((int,), 15, False),
         "tls": ((dict,), {}, False),
-        "max_payload_bytes": ((int,), 65536, False),
+        "max_payload_bytes": ((int,), 8192, False),
     },
     "forecast": {
         "calibration_nights": ((int,), 10, False),
@@ -406,6 +412,12 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
             problems.append(f"blocks.{b.id}: no crop-height station; declare a [[stations]] with block = {b.id!r} and height_m <= 3")
 
     storage_v = _check_table("storage", raw.get("storage", {}), _SCHEMA["storage"], problems)
+    for k, what in (("rejection_retention_days", "days to keep rejected input"),
+                    ("rejections_per_source_per_hour", "rejection rows per MQTT topic and hour")):
+        v = storage_v.get(k)
+        if isinstance(v, (int, float)) and not isinstance(v, bool) and not v > 0:
+            problems.append(f"storage.{k}: {v!r} must be positive; expected {what}")
+            storage_v[k] = _SCHEMA["storage"][k][1]
     base = path.parent if path else Path.cwd()
     raw_path = storage_v.get("path") or "frostwatch.db"
     if "\x00" in raw_path:
@@ -433,7 +445,9 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
         site=Site(**{k: site_v[k] for k in _SCHEMA["site"]}),
         blocks=tuple(blocks),
         stations=tuple(stations),
-        storage=Storage(path=storage_path, retention_days=float(storage_v["retention_days"])),
+        storage=Storage(path=storage_path, retention_days=float(storage_v["retention_days"]),
+                        rejection_retention_days=float(storage_v["rejection_retention_days"]),
+                        rejections_per_source_per_hour=int(storage_v["rejections_per_source_per_hour"])),
         broker=Broker(**broker_v),
         forecast=Forecast(**forecast_v),
         alerts=dict(raw.get("alerts", {})),

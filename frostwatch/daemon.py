@@ -326,9 +326,10 @@ class Core:
             log.info("no night report for %s: %s", night.date, exc)
 
     def job_housekeeping(self, now: dt.datetime, night: Night) -> None:
-        """Retention (readings and rejections older than storage.retention_days) and a WAL
-        checkpoint."""
+        """Retention (readings older than storage.retention_days, rejections older than
+        storage.rejection_retention_days) and a WAL checkpoint."""
         cut = to_ms(now - dt.timedelta(days=self.cfg.storage.retention_days))
+        rejections_cut = to_ms(now - dt.timedelta(days=self.cfg.storage.rejection_retention_days))
         removed = 0
         while True:  # bounded batches keep each write transaction short
             with self.store.transaction() as c:
@@ -337,7 +338,7 @@ class Core:
                     "(SELECT time_utc_ms, station, quantity FROM readings WHERE time_utc_ms < ? LIMIT 5000)",
                     (cut,),
                 ).rowcount
-                c.execute("DELETE FROM rejections WHERE received_utc_ms < ?", (cut,))
+                c.execute("DELETE FROM rejections WHERE received_utc_ms < ?", (rejections_cut,))
             removed += n
             if n < 5000:
                 break

@@ -47,6 +47,7 @@ from paho.mqtt.subscribeoptions import SubscribeOptions
 
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError, StoreError, UsageError
+from frostwatch.ingest.limits import RejectionLimiter
 from frostwatch.ingest.parse import TIME_FORMATS, Mapping, parse_mqtt_message
 from frostwatch.models import Reading, Rejection
 from frostwatch.store import Store
@@ -206,6 +207,7 @@ class IngestStats:
     duplicates: int = 0
     conflicts: int = 0
     rejected: int = 0
+    rejections_counted: int = 0  # beyond the per-source hourly limit: counted, not stored one by one
     acked: int = 0
     commits: int = 0
     store_errors: int = 0
@@ -281,6 +283,7 @@ class MqttIngest:
         # station -> receipt time (epoch s) of its latest valid reading, stored or not: a sensor
         # that reports while the store cannot write is not silent (health checks)
         self.heard: dict[str, float] = {}
+        self.limiter = RejectionLimiter(cfg.storage.rejections_per_source_per_hour)
         self.disconnected_since: float | None = time.monotonic()
         self.out_of_range: dict[str, deque] = {}
         self._stop = threading.Event()
@@ -391,6 +394,12 @@ class MqttIngest:
         self._stop.set()
         if self._writer:
             self._writer.join(timeout_s)
+        try:  # rejections counted beyond the hourly limit: their summary rows, before leaving
+            rows = self.limiter.flush(time.time())
+            if rows:
+                self.store.add_rejections(rows, self.clock())
+        except Exception:  # noqa: BLE001 - best effort on the way out
+            log.exception("could not store the summary of counted rejections")
         try:
             if self.connected:
                 info = self.client.publish(self.status("online"), b"offline", qos=1, retain=True)
@@ -638,10 +647,22 @@ class MqttIngest:
                     readings.append(r)
                     origins.append((f"mqtt:{m.topic}", None, _raw(m.payload)))
                     self.heard[r.station] = m.received_utc.timestamp()
+        now_s = time.time()
+        for r in rejections:
+            if "plausible range" in r.reason:  # every one counts here, stored or only counted
+                station = self.station_of(r.source.removeprefix("mqtt:"))
+                self.out_of_range.setdefault(station, deque(maxlen=1000)).append(time.monotonic())
+        n_bad = len(rejections)
+        saved = self.limiter.snapshot()
+        keep = self.limiter.admit(rejections, now_s) + self.limiter.due(now_s)
         stored = dups = 0
         aside: list[Rejection] = []
-        if readings or rejections:
-            stored, dups, aside = self.store.add_ingest(readings, rejections, self.clock(), "mqtt", origins)
+        try:
+            if readings or keep:
+                stored, dups, aside = self.store.add_ingest(readings, keep, self.clock(), "mqtt", origins)
+        except BaseException:
+            self.limiter.restore(saved)  # nothing stored: the retry admits these again
+            raise
         for m in ack_msgs:  # recorded by the outbox (its own transaction) before the PUBACK
             try:
                 self.on_ack(m.payload, m.received_utc)
@@ -659,13 +680,11 @@ class MqttIngest:
         st.stored += stored
         st.duplicates += dups
         st.conflicts += len(conflicts)
-        st.rejected += len(rejections) + len(aside) - len(conflicts)
+        st.rejected += n_bad + len(aside) - len(conflicts)
+        st.rejections_counted = self.limiter.counted_total
         st.commits += 1
         self.last_commit = time.monotonic()
-        for r in rejections:
-            if "plausible range" in r.reason:
-                station = self.station_of(r.source.removeprefix("mqtt:"))
-                self.out_of_range.setdefault(station, deque(maxlen=1000)).append(time.monotonic())
+        for r in keep:  # the log takes what the store takes: a flood costs a line per source and hour
             log.info("rejected %s: %s", r.source, r.reason)
         if readings:
             newest = max(r.time_utc for r in readings)
