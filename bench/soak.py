@@ -196,7 +196,7 @@ def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, spee
     try:
         with log.open("ab") as lf:
             if probe:  # bench/probe.py inside the daemon: malloc, SQLite and (optionally) Python heap
-                env["PYTHONPATH"] = os.pathsep.join([str(Path(__file__).resolve().parent.parent), env.get("PYTHONPATH", "")])
+                env["PYTHONPATH"] = os.pathsep.join([str(Path(__file__).absolute().parent.parent), env.get("PYTHONPATH", "")])
                 code = (f"import sys, bench.probe; bench.probe.start({str(work / 'probe.jsonl')!r}, {sample_s!r}); "
                         "from frostwatch.cli import main; sys.exit(main(sys.argv[1:]))")
                 argv = [sys.executable, "-c", code, "run", "--config", str(cfg_path)]

@@ -428,11 +428,13 @@ def build_scheduler(cfg: Config, s: DaemonSettings, jobs: dict[str, Callable[[],
 
 class Daemon:
     def __init__(self, cfg: Config, clock: Callable[[], dt.datetime] = _utc_now):
+        from frostwatch import native_memory
         from frostwatch.alerts.outbox import Outbox
         from frostwatch.fleet.settings import fleet_settings
         from frostwatch.fleet.site import SiteTopics
         from frostwatch.ingest.mqtt import IngestSettings, MqttIngest, mappings_from_config
 
+        native_memory.limit_arenas(2)  # before any thread: see frostwatch/native_memory.py
         self.cfg = cfg
         self.s = daemon_settings(cfg)
         mappings = mappings_from_config(cfg)
@@ -593,6 +595,9 @@ class Daemon:
                 "until it is fixed", urgent=self.core.in_watch_window(self.clock())))
         self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra, dict(self.ingest.heard),
                                judge_silence=self.ingest.failing_since is None)
+        from frostwatch import native_memory
+
+        native_memory.trim()  # the check's transient arrays are freed: give the pages back
 
     def _publish_site_state(self, now: dt.datetime, blocks: dict) -> None:
         """After each evaluation: the blocks' states to the fleet publisher (never raises)."""
