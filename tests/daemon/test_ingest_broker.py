@@ -128,7 +128,7 @@ POISON: list[tuple[str, bytes, str]] = [
     ("frostwatch/east-low/air_temperature", b'{"time": "%s", "value": "cold"}', "not a number"),
     ("frostwatch/east-low/air_temperature", b'{"time": "%s", "value": 999}', "plausible range"),
     ("frostwatch/east-low/air_temperature", b"\xff\xfe\x00garbage", "UTF-8"),
-    ("frostwatch/east-low/air_temperature", b"[" * 10000 + b"]" * 10000, "nests deeper"),
+    ("frostwatch/east-low/air_temperature", b"[" * 3000 + b"]" * 3000, "nests deeper"),
     ("frostwatch/east-low/air_temperature", b"7" * 5000, "more than 4300 digits"),
     ("frostwatch/east-low/air_temperature", b"x" * (1024 * 1024), "exceeds the limit"),
     ("frostwatch/east-low", b'{"time": "%s", "air_temperature": NaN}', "not a finite number"),
