@@ -762,8 +762,11 @@ class _JournalFormatter(logging.Formatter):
 
 
 def setup_logging() -> None:
+    from frostwatch import redact
+
     h = logging.StreamHandler(sys.stderr)
     h.setFormatter(_JournalFormatter(bool(os.environ.get("JOURNAL_STREAM"))))
+    redact.install(h)  # no URL query string (a webhook's api_key) reaches the journal, library lines included
     root = logging.getLogger()
     root.handlers[:] = [h]
     root.setLevel(os.environ.get("FROSTWATCH_LOG_LEVEL", "INFO").upper())

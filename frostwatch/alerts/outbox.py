@@ -47,12 +47,14 @@ from frostwatch.alerts.channels import OutMessage, Permanent, Transient, sender
 from frostwatch.alerts.config import AlertsConfig, Channel, Contact, load_alerts_config
 from frostwatch.alerts.levels import ALL_LEVELS, rank_of
 from frostwatch.models import Alert
+from frostwatch.redact import redact
 from frostwatch.store import Store, from_ms, to_ms
 from frostwatch.store import outbox as ob
 
 log = logging.getLogger("frostwatch.alerts")
 
 RESOLVING_LEVELS = ("all-clear", "safe-to-stop", "armed")
+DEADLINE_GRACE_S = 2.0  # a send's own deadline (timeout_s) comes first; the worker's wait ends this much later
 BROADCAST = "*"
 
 
@@ -319,7 +321,7 @@ class Outbox:
                 return
         msg = self._message(r, now)
         try:
-            receipt = send(ch, msg, to, self.base_dir)
+            receipt = self._send_within_deadline(send, ch, msg, to)
         except Permanent as exc:
             log.error("delivery %s on %s refused: %s", msg.idem_key, ch.name, exc)
             self._finish(r, "failed", now, str(exc), None)
@@ -339,8 +341,30 @@ class Outbox:
         self._finish(r, "sent", now, receipt, None)
         self._note_remote(ch, ok=True, now=now)
 
+    def _send_within_deadline(self, send, ch: Channel, msg: OutMessage, to: str) -> str:
+        """`send` on a thread of its own that the channel's worker waits for at most the
+        channel's `timeout_s` (plus a little): a delivery that outlives it is abandoned and
+        counts as a failure to retry, so a server that drips its answer frees the channel (the
+        channels also cut their own sockets at that deadline, which ends the abandoned thread)."""
+        box: dict = {}
+
+        def run() -> None:
+            try:
+                box["receipt"] = send(ch, msg, to, self.base_dir)
+            except BaseException as exc:  # noqa: BLE001 - handed to the worker below
+                box["error"] = exc
+
+        th = threading.Thread(target=run, name=f"send-{ch.name}", daemon=True)
+        th.start()
+        th.join(ch.timeout_s + DEADLINE_GRACE_S)
+        if th.is_alive():
+            raise Transient(f"{ch.name}: no complete answer within {ch.timeout_s:g} s; the attempt was abandoned")
+        if "error" in box:
+            raise box["error"]
+        return box.get("receipt", "")
+
     def _finish(self, r: dict, status: str, now: dt.datetime, detail: str, next_try_ms: int | None) -> None:
-        ob.finish_delivery(self.store, r["id"], status, to_ms(now), detail, next_try_ms)
+        ob.finish_delivery(self.store, r["id"], status, to_ms(now), redact(detail), next_try_ms)
 
     def _backoff_ms(self, r: dict, now: dt.datetime) -> int:
         n = max(1, int(r.get("attempt") or 1))

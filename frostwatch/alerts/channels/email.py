@@ -5,6 +5,13 @@ $CREDENTIALS_DIRECTORY), never from the config itself. The idempotency key trave
 Message-ID, so a resent notice threads with (and can be deduplicated against) the first one.
 An accepted message (250) means handed off, not read: escalation continues until someone
 acknowledges (reliability.md finding 20).
+
+Which failures are retried (issue 18, item 5): timeouts, connection errors and every 4xx; a 5xx
+too (a server that answers 4xx and then 5xx while it recovers must not lose the alerts of that
+window), with the outbox's backoff up to `[alerts] give_up_after_h`. Only a refused login
+(authentication, 530/534/535/538 or 5.7.x) or a refused address (the sender or every recipient,
+550/551/553 or 5.1.x) is permanent: it raises the "channel misconfigured" notice. `timeout_s`
+bounds the whole SMTP session (frostwatch/alerts/channels/deadline.py).
 """
 
 from __future__ import annotations
@@ -16,7 +23,28 @@ import ssl
 from email.message import EmailMessage
 
 from frostwatch.alerts.channels import Permanent, Transient
+from frostwatch.alerts.channels.deadline import Deadline
 from frostwatch.alerts.config import read_secret
+
+AUTH_CODES = (530, 534, 535, 538)
+ADDRESS_CODES = (550, 551, 553)
+
+
+def _enhanced(text: bytes | str) -> str:
+    """The enhanced status code (RFC 3463, e.g. "5.1.1") at the start of a reply, or ""."""
+    t = text.decode("utf-8", "replace") if isinstance(text, bytes) else str(text)
+    m = re.match(r"\s*([245]\.\d{1,3}\.\d{1,3})", t)
+    return m.group(1) if m else ""
+
+
+def is_misconfiguration(code: int, text: bytes | str) -> bool:
+    """A 5xx that retrying cannot fix: authentication or a refused address."""
+    if code < 500:
+        return False
+    enh = _enhanced(text)
+    if enh.startswith(("5.7.8", "5.7.0", "5.7.1", "5.7.9", "5.7.11")) and code in AUTH_CODES + (554,):
+        return True
+    return code in AUTH_CODES or code in ADDRESS_CODES or enh.startswith("5.1.")
 
 
 def message_id(idem_key: str, domain: str = "frostwatch.local") -> str:
@@ -63,29 +91,39 @@ def send_message(channel, message: EmailMessage, base_dir=None) -> str:
         password = read_secret(o, base_dir)
     except OSError as exc:
         raise Permanent(f"email channel {channel.name}: cannot read the password: {exc}") from None
+    deadline = Deadline(t)
     try:
-        if tls == "ssl":
-            smtp = smtplib.SMTP_SSL(host, port, timeout=t, context=ssl.create_default_context())
-        else:
-            smtp = smtplib.SMTP(host, port, timeout=t)
-        with smtp:
-            if tls == "starttls":
-                smtp.starttls(context=ssl.create_default_context())
-            if o.get("username"):
-                smtp.login(o["username"], password or "")
-            refused = smtp.send_message(message)
+        with deadline:
+            if tls == "ssl":
+                smtp = smtplib.SMTP_SSL(timeout=t, context=ssl.create_default_context())
+            else:
+                smtp = smtplib.SMTP(timeout=t)
+            deadline.watch(smtp)  # its socket is cut when the whole session's deadline passes
+            with smtp:
+                smtp.connect(host, port)
+                if tls == "starttls":
+                    smtp.starttls(context=ssl.create_default_context())
+                    deadline.watch(smtp)  # the TLS socket replaces the plain one
+                if o.get("username"):
+                    smtp.login(o["username"], password or "")
+                refused = smtp.send_message(message)
     except smtplib.SMTPAuthenticationError as exc:
         raise Permanent(f"email {host}:{port}: login refused ({exc.smtp_code})") from None
     except smtplib.SMTPRecipientsRefused as exc:
         codes = [c for c, _ in exc.recipients.values()]
-        cls = Permanent if all(c >= 500 for c in codes) else Transient
-        raise cls(f"email {host}:{port}: recipient refused {codes}") from None
+        bad_address = all(is_misconfiguration(c, m) for c, m in exc.recipients.values())
+        raise (Permanent if bad_address else Transient)(f"email {host}:{port}: recipient refused {codes}") from None
+    except smtplib.SMTPSenderRefused as exc:
+        cls = Permanent if is_misconfiguration(exc.smtp_code, exc.smtp_error) else Transient
+        raise cls(f"email {host}:{port}: sender refused ({exc.smtp_code})") from None
     except smtplib.SMTPResponseException as exc:
-        cls = Permanent if exc.smtp_code >= 500 else Transient
+        cls = Permanent if is_misconfiguration(exc.smtp_code, exc.smtp_error) else Transient
         raise cls(f"email {host}:{port}: {exc.smtp_code} {exc.smtp_error[:120]!r}") from None
     except TimeoutError:
         raise Transient(f"email {host}:{port}: no answer within {t:g} s") from None
     except (OSError, smtplib.SMTPException) as exc:
+        if deadline.expired:
+            raise Transient(f"email {host}:{port}: no complete answer within {t:g} s (the whole session's deadline)") from None
         raise Transient(f"email {host}:{port}: {type(exc).__name__}: {exc}") from None
     if refused:
         raise Transient(f"email {host}:{port}: refused {sorted(refused)}")

@@ -5,6 +5,9 @@ The body is rendered from `body_template`, where {key}, {seq}, {idempotency_key}
 content type is JSON, so a template stays valid JSON whatever the message holds). The
 idempotency key goes in the `Idempotency-Key` header (IETF httpapi draft). Timeouts, connection
 errors, 5xx, 408 and 429 are retried; any other 4xx is a configuration fault and is not.
+`timeout_s` bounds the whole request, answer included (frostwatch/alerts/channels/deadline.py):
+a server that drips its reply is cut off then. A reply cut short (mid-header or mid-body) is a
+failure, never "sent". The URL's query string (a gateway token) is never logged or stored.
 A secret header value (a gateway token) comes from `auth_header_file` or a systemd credential
 `auth_header_credential`, sent as Authorization.
 """
@@ -16,8 +19,10 @@ import re
 from pathlib import Path
 
 import requests
+from urllib3.connectionpool import HTTPConnectionPool, HTTPSConnectionPool
 
 from frostwatch.alerts.channels import Permanent, Transient
+from frostwatch.alerts.channels.deadline import Deadline
 from frostwatch.alerts.config import DEFAULT_WEBHOOK_BODY
 
 FIELDS = ("key", "seq", "idempotency_key", "level", "rank", "block", "to", "title", "message", "ack_url")
@@ -55,6 +60,37 @@ def _auth(o: dict, base_dir) -> str | None:
     return read_secret(o, Path(base_dir) if base_dir is not None else None, key="auth_header")
 
 
+def _session(deadline: Deadline) -> requests.Session:
+    """A session whose every connection is watched by `deadline` (and never retried by urllib3)."""
+
+    class Pool(HTTPConnectionPool):
+        def _new_conn(self):
+            return deadline.watch(super()._new_conn())
+
+    class TlsPool(HTTPSConnectionPool):
+        def _new_conn(self):
+            return deadline.watch(super()._new_conn())
+
+    adapter = requests.adapters.HTTPAdapter(max_retries=0)
+    adapter.poolmanager.pool_classes_by_scheme = {"http": Pool, "https": TlsPool}
+    s = requests.Session()
+    s.trust_env = True
+    s.mount("http://", adapter)
+    s.mount("https://", adapter)
+    return s
+
+
+def _complete(r: requests.Response) -> bool:
+    """A reply that ended properly: its length was given (and urllib3 checked the body against
+    it), or it was chunked, or it has no body by definition, or its body ran to the close. A reply
+    with none of these and no body was cut before its headers ended."""
+    if r.status_code in (204, 304) or "content-length" in r.headers:
+        return True
+    if "chunked" in r.headers.get("transfer-encoding", "").lower():
+        return True
+    return bool(r.content)
+
+
 def send(channel, msg, to, base_dir=None) -> str:
     o = channel.options
     url = o["url"]
@@ -73,13 +109,18 @@ def send(channel, msg, to, base_dir=None) -> str:
         headers["Authorization"] = auth
     shown = url.split("?")[0]  # never log a token carried in the query string
     t = channel.timeout_s
-    try:
-        r = requests.request(o.get("method", "POST"), url, data=body.encode("utf-8"), headers=headers,
-                             timeout=(min(3.05, t), t), allow_redirects=False)
-    except requests.Timeout:
-        raise Transient(f"webhook {shown}: no answer within {t:g} s") from None
-    except requests.RequestException as exc:
-        raise Transient(f"webhook {shown}: {type(exc).__name__}") from None
+    with Deadline(t) as deadline, _session(deadline) as session:
+        try:
+            r = session.request(o.get("method", "POST"), url, data=body.encode("utf-8"), headers=headers,
+                                timeout=(min(3.05, t), t), allow_redirects=False)
+        except requests.Timeout:
+            raise Transient(f"webhook {shown}: no answer within {t:g} s") from None
+        except requests.RequestException as exc:
+            if deadline.expired:
+                raise Transient(f"webhook {shown}: no complete answer within {t:g} s (the whole request's deadline)") from None
+            raise Transient(f"webhook {shown}: {type(exc).__name__} (the reply was refused or cut short)") from None
+        if not _complete(r):
+            raise Transient(f"webhook {shown}: HTTP {r.status_code} reply cut short (no length and no body); not delivered")
     if r.status_code >= 500 or r.status_code in (408, 429):
         raise Transient(f"webhook {shown}: HTTP {r.status_code}")
     if r.status_code >= 400:
