@@ -49,11 +49,14 @@ def test_shipped_broker_limits_fit_readings_and_match_the_daemon():
 def test_the_shipped_payload_limit_keeps_huge_messages_from_the_daemon(tmp_path, mosquitto):
     """Pass: a broker running the shipped limit lines drops 30 messages of 58.9 KB before the daemon
     sees them (no rejection row, no log line), and a good reading after them is stored."""
-    from conftest import Broker, free_port
+    import socket
 
+    with socket.socket() as s:  # a second broker of the same kind as the fixture's, with the limits
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
     limits = "".join(line + "\n" for line in SHIPPED_CONF.read_text().splitlines()
                       if line.startswith(("message_size_limit", "max_packet_size")))
-    b = Broker(tmp_path / "limited", free_port(), extra_conf=limits)
+    b = type(mosquitto)(tmp_path / "limited", port, extra_conf=limits)
     b.start()
     try:
         cfg = write_config(tmp_path, b.port)
