@@ -1,13 +1,15 @@
 """The `frostwatch` command line: parse arguments, call the library, print, map errors to exit codes.
 
 Exit status: 0 success; 2 bad usage, bad config or bad input (one clear sentence on stderr);
-1 any other failure (a traceback means a bug). Each command lives in `frostwatch.commands`.
+1 any other failure (a traceback means a bug; a damaged store file is one sentence naming it and
+what to do). Each command lives in `frostwatch.commands`.
 """
 
 from __future__ import annotations
 
 import argparse
 import importlib
+import sqlite3
 import sys
 
 from frostwatch import __version__
@@ -41,6 +43,13 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except FrostwatchError as exc:
         print(f"frostwatch: {exc}", file=sys.stderr)
+        return 1
+    except sqlite3.DatabaseError as exc:
+        from frostwatch.store.db import OPENED, damaged_message, is_damage
+
+        if not is_damage(exc):
+            raise
+        print(f"frostwatch: {damaged_message(OPENED[-1] if OPENED else 'the store', exc)}", file=sys.stderr)
         return 1
     except BrokenPipeError:
         return 0

@@ -484,7 +484,12 @@ class Daemon:
             try:
                 fn()
             except Exception as exc:  # noqa: BLE001
-                log.exception("job %s failed (recorded; the daemon carries on)", name)
+                from frostwatch.store.db import damaged_message, is_damage
+
+                if is_damage(exc):  # one clear line, not a traceback every round
+                    log.error("job %s failed: %s", name, damaged_message(self.store.path, exc))
+                else:
+                    log.exception("job %s failed (recorded; the daemon carries on)", name)
                 try:
                     self.store.add_event(self.clock(), "daemon", f"job {name} failed", f"{type(exc).__name__}: {exc}")
                 except Exception:  # noqa: BLE001

@@ -2,8 +2,11 @@
 
 WAL journal, synchronous=FULL (a committed reading survives power loss, reliability.md finding 9),
 readings keyed time first (time, station, quantity) so that batched commits stay cheap on an SD
-card (finding 10). One writer: a `Store` serialises its own use with a lock, and the daemon gives
-it to one writer thread. Raises `StoreError` when the file cannot be opened or migrated.
+card (finding 10). One connection, shared by the daemon's threads: every use of it holds the
+store's lock, reads included, and reads never open a transaction (sqlite-utils' `query` wraps
+each read in a SAVEPOINT, which on a shared connection let another thread's BEGIN IMMEDIATE land
+inside it: "cannot start a transaction within a transaction"). Raises `StoreError` when the file
+cannot be opened or migrated; `damaged_message` words a damaged file for the command line.
 
 Upgrading in place: an older store is migrated when it is opened, every row kept (the schema
 version is PRAGMA user_version); a store written by a newer frostwatch is refused before anything
@@ -93,6 +96,25 @@ def _refuse_newer_schema(path: Path) -> None:
         raise StoreError(_newer_schema_message(path, version))
 
 
+def damaged_message(path: Path | str, exc: BaseException, opening: bool = False) -> str:
+    """One sentence for a store file SQLite finds damaged: which file, and what to do."""
+    return (f"{path}: {'cannot open the store: ' if opening else ''}the store file is damaged "
+            f"(SQLite: {str(exc).splitlines()[0] if str(exc) else exc!r}); stop "
+            f"frostwatch, keep a copy of the file, then restore it from a backup or recover what it holds with "
+            f"`sqlite3 {path} .recover | sqlite3 {path}.recovered` and point [storage] path at the recovered file")
+
+
+def is_damage(exc: BaseException) -> bool:
+    """SQLite's words for a damaged file (a zeroed or corrupt page, or not a database at all)."""
+    text = str(exc).lower()
+    return isinstance(exc, sqlite3.DatabaseError) and ("malformed" in text or "not a database" in text)
+
+
+# stores opened by this process, most recent last (closed ones too): the command line names the
+# file when SQLite reports damage from deep inside a command
+OPENED: list[Path] = []
+
+
 class Store:
     """A frostwatch SQLite database. Use `Store.open(path)`; close with `close()` or `with`."""
 
@@ -122,9 +144,14 @@ class Store:
                 conn.close()
                 raise
         except sqlite3.DatabaseError as exc:
+            if is_damage(exc):
+                raise StoreError(damaged_message(p, exc, opening=True)) from None
             raise StoreError(f"{p}: cannot open the store: {exc}") from None
         except OSError as exc:
             raise StoreError(f"{p}: cannot open the store: {exc.strerror or exc}") from None
+        if p in OPENED:
+            OPENED.remove(p)
+        OPENED.append(p)
         return store
 
     def migrate(self) -> None:
@@ -145,11 +172,19 @@ class Store:
 
     @property
     def schema_version(self) -> int:
-        return self.conn.execute("PRAGMA user_version").fetchone()[0]
+        with self.lock:
+            return self.conn.execute("PRAGMA user_version").fetchone()[0]
 
     def close(self) -> None:
         with self.lock:
             self.conn.close()
+
+    def query(self, sql: str, args: Iterable = ()) -> list[dict]:
+        """Rows of a read as dicts, under the lock, without opening a transaction."""
+        with self.lock:
+            cur = self.conn.execute(sql, list(args))
+            keys = [d[0] for d in cur.description]
+            return [dict(zip(keys, row, strict=True)) for row in cur.fetchall()]
 
     def __enter__(self) -> Store:
         return self
@@ -164,11 +199,16 @@ class Store:
             self.conn.execute("BEGIN IMMEDIATE")
             try:
                 yield self.conn
-            except BaseException:
-                self.conn.execute("ROLLBACK")
-                raise
-            else:
                 self.conn.execute("COMMIT")
+            except BaseException:
+                # a failed COMMIT (a deferred constraint, a full disk) may leave the transaction
+                # open: end it, or the next BEGIN fails "within a transaction"
+                if self.conn.in_transaction:
+                    try:
+                        self.conn.execute("ROLLBACK")
+                    except sqlite3.Error:
+                        pass
+                raise
 
     # -- readings ------------------------------------------------------------------------------
     def add_readings(
@@ -211,6 +251,8 @@ class Store:
                             )
                         )
         except sqlite3.Error as exc:
+            if is_damage(exc):
+                raise StoreError(damaged_message(self.path, exc)) from None
             raise StoreError(f"{self.path}: cannot store readings: {exc}") from None
         return stored, dup, conflicts
 
@@ -317,6 +359,8 @@ class Store:
                     "INSERT INTO rejections(received_utc_ms, source, line, reason, raw) VALUES (?,?,?,?,?)", rows
                 )
         except sqlite3.Error as exc:
+            if is_damage(exc):
+                raise StoreError(damaged_message(self.path, exc)) from None
             raise StoreError(f"{self.path}: cannot store rejected rows: {exc}") from None
         return len(rows)
 
@@ -328,7 +372,10 @@ class Store:
             ).fetchone() is not None
 
     def count(self, table: str) -> int:
-        return self.db[table].count
+        if not table.replace("_", "").isalnum():
+            raise ValueError(f"not a table name: {table!r}")
+        with self.lock:
+            return self.conn.execute(f"SELECT count(*) FROM [{table}]").fetchone()[0]
 
     def readings_window(
         self,
@@ -380,7 +427,7 @@ class Store:
         yield from rows
 
     def rejections(self) -> list[dict]:
-        return list(self.db["rejections"].rows)
+        return self.query("SELECT * FROM rejections ORDER BY id")
 
     # -- projections, alerts, events ------------------------------------------------------------
     def add_projection(self, p: Projection) -> None:
@@ -417,7 +464,7 @@ class Store:
         if block:
             sql += " AND block = ?"
             args.append(block)
-        return list(self.db.query(sql + " ORDER BY time_utc_ms", args))
+        return self.query(sql + " ORDER BY time_utc_ms", args)
 
     def add_alert(self, a: Alert) -> bool:
         """Write an alert before anything sends it; False if its key is already stored."""
@@ -430,12 +477,8 @@ class Store:
             return cur.rowcount == 1
 
     def alerts(self, start_utc: dt.datetime, end_utc: dt.datetime) -> list[dict]:
-        return list(
-            self.db.query(
-                "SELECT * FROM alerts WHERE time_utc_ms BETWEEN ? AND ? ORDER BY time_utc_ms, id",
-                [to_ms(start_utc), to_ms(end_utc)],
-            )
-        )
+        return self.query("SELECT * FROM alerts WHERE time_utc_ms BETWEEN ? AND ? ORDER BY time_utc_ms, id",
+                          [to_ms(start_utc), to_ms(end_utc)])
 
     def add_event(self, time_utc: dt.datetime, kind: str, subject: str, detail: str) -> None:
         with self.transaction() as c:
@@ -450,10 +493,11 @@ class Store:
         if kind:
             sql += " AND kind = ?"
             args.append(kind)
-        return list(self.db.query(sql + " ORDER BY time_utc_ms, id", args))
+        return self.query(sql + " ORDER BY time_utc_ms, id", args)
 
     def get_meta(self, key: str) -> str | None:
-        row = self.conn.execute("SELECT value FROM meta WHERE key=?", (key,)).fetchone()
+        with self.lock:
+            row = self.conn.execute("SELECT value FROM meta WHERE key=?", (key,)).fetchone()
         return row[0] if row else None
 
     def set_meta(self, key: str, value: str) -> None:

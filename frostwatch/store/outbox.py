@@ -105,12 +105,12 @@ def record_ack(c: sqlite3.Connection, key: str, who: str, via: str, now_utc: dt.
 
 def due_repeats(store: Store, now_ms: int) -> list[dict]:
     with store.lock:
-        return list(store.db.query(
+        return store.query(
             "SELECT s.*, a.block, a.level, a.rank, a.message FROM alert_state s JOIN alerts a ON a.key = s.alert_key "
             "WHERE s.state='firing' AND s.next_repeat_utc_ms IS NOT NULL AND s.next_repeat_utc_ms <= ? "
             "ORDER BY s.next_repeat_utc_ms",
             [now_ms],
-        ))
+        )
 
 
 def count_notices(store: Store, block: str, since_ms: int) -> int:
@@ -144,12 +144,12 @@ def claim_due(store: Store, channel: str, now_ms: int, lease_ms: int, owner: str
     if not ids:
         return []
     with store.lock:
-        return list(store.db.query(
+        return store.query(
             f"SELECT d.*, a.block, a.level, a.rank, a.message, a.advice, a.time_utc_ms AS alert_time_utc_ms "
             f"FROM deliveries d JOIN alerts a ON a.key = d.alert_key WHERE d.id IN ({','.join('?' * len(ids))}) "
             f"ORDER BY d.id",
             ids,
-        ))
+        )
 
 
 def channels_with_due(store: Store, now_ms: int, owner: str) -> list[str]:
@@ -177,9 +177,9 @@ def deliveries_for(store: Store, keys: Iterable[str]) -> list[dict]:
     if not keys:
         return []
     with store.lock:
-        return list(store.db.query(
+        return store.query(
             f"SELECT * FROM deliveries WHERE alert_key IN ({','.join('?' * len(keys))}) ORDER BY id", keys
-        ))
+        )
 
 
 def acks_for(store: Store, keys: Iterable[str]) -> list[dict]:
@@ -187,14 +187,14 @@ def acks_for(store: Store, keys: Iterable[str]) -> list[dict]:
     if not keys:
         return []
     with store.lock:
-        return list(store.db.query(
+        return store.query(
             f"SELECT * FROM acks WHERE alert_key IN ({','.join('?' * len(keys))}) ORDER BY time_utc_ms, id", keys
-        ))
+        )
 
 
 def state_of(store: Store, key: str) -> dict | None:
     with store.lock:
-        rows = list(store.db.query("SELECT * FROM alert_state WHERE alert_key=?", [key]))
+        rows = store.query("SELECT * FROM alert_state WHERE alert_key=?", [key])
     return rows[0] if rows else None
 
 
