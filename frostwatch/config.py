@@ -72,6 +72,9 @@ class Block:
     biofix_date: str | None = None
     name: str = ""
     wind_machine_gain_frac: float = 0.4
+    reference_station: str | None = None
+    heater_kw: float | None = None
+    heaters_per_ha: float | None = None
 
 
 @dataclass(frozen=True)
@@ -81,6 +84,13 @@ class Station:
     height_m: float
     role: str
     interval_s: float | None = None
+    x_m: float | None = None
+    y_m: float | None = None
+
+    @property
+    def position_m(self) -> tuple[float, float] | None:
+        """(east, north) of the station in metres from the site's own origin, when configured."""
+        return None if self.x_m is None or self.y_m is None else (self.x_m, self.y_m)
 
 
 @dataclass(frozen=True)
@@ -176,6 +186,9 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "fuel_l_per_h": (_NUM, None, False),
         "biofix_date": ((str,), None, False),
         "wind_machine_gain_frac": (_NUM, 0.4, False),
+        "reference_station": ((str,), None, False),
+        "heater_kw": (_NUM, None, False),
+        "heaters_per_ha": (_NUM, None, False),
     },
     "stations": {
         "id": ((str,), None, True),
@@ -183,6 +196,8 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "height_m": (_NUM, None, True),
         "role": ((str,), None, False),
         "interval_s": (_NUM, None, False),
+        "x_m": (_NUM, None, False),
+        "y_m": (_NUM, None, False),
     },
     "storage": {
         "path": ((str,), "frostwatch.db", False),
@@ -402,14 +417,41 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
             problems.append(f"{label}.role: {role!r}; expected one of {', '.join(STATION_ROLES)}")
         if v["interval_s"] is not None and v["interval_s"] <= 0:
             problems.append(f"{label}.interval_s: {v['interval_s']} must be positive (seconds between readings)")
+        if (v["x_m"] is None) != (v["y_m"] is None):
+            problems.append(f"{label}: give both x_m and y_m (metres east and north of any point of your choosing), or neither")
+        if role == "weather" and v["block"] is not None:
+            problems.append(
+                f"{label}.role: \"weather\" is the site's reference air outside any wetted area; leave `block` out for it "
+                "(a block's own reference is named with the block's reference_station)"
+            )
         if isinstance(h, _NUM):
-            stations.append(Station(v["id"], v["block"], float(h), str(role), v["interval_s"]))
+            stations.append(Station(v["id"], v["block"], float(h), str(role), v["interval_s"], v["x_m"], v["y_m"]))
     if site_v.get("id") and site_v["id"] in seen_st:
         problems.append(f"site.id: {site_v['id']!r} is also a station id; the site's topics ({{prefix}}/{site_v['id']}/...) "
                         "would mix with that station's readings; set [site] id to another name")
+    by_id = {s.id: s for s in stations}
     for b in blocks:
         if not any(s.block == b.id and s.role == "crop" for s in stations):
             problems.append(f"blocks.{b.id}: no crop-height station; declare a [[stations]] with block = {b.id!r} and height_m <= 3")
+        ref = b.reference_station
+        if ref is not None:
+            st = by_id.get(ref)
+            if st is None:
+                problems.append(
+                    f"blocks.{b.id}.reference_station: {ref!r} is not a declared station"
+                    f"{_did_you_mean(ref, list(by_id))}; expected the id of a station outside the block's wetted area"
+                )
+            elif st.block == b.id:
+                problems.append(
+                    f"blocks.{b.id}.reference_station: {ref!r} is in the block itself, where the sprinklers wet the air; "
+                    "expected a station outside the wetted area (a site-wide role = \"weather\" station or one of an "
+                    "unsprinkled block)"
+                )
+            elif st.role not in ("crop", "weather"):
+                problems.append(
+                    f"blocks.{b.id}.reference_station: {ref!r} has role {st.role!r}; expected a station measuring air near "
+                    "crop height (role crop or weather)"
+                )
 
     storage_v = _check_table("storage", raw.get("storage", {}), _SCHEMA["storage"], problems)
     for k, what in (("rejection_retention_days", "days to keep rejected input"),
@@ -507,6 +549,10 @@ def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
             _dt.date.fromisoformat(v["biofix_date"])
         except ValueError:
             problems.append(f"{label}.biofix_date: {v['biofix_date']!r} is not a date; expected YYYY-MM-DD")
+    if v["heater_kw"] is not None and not 0 < v["heater_kw"] <= 1000:
+        problems.append(f"{label}.heater_kw: {v['heater_kw']} is out of range; expected one heater's heat output in kW, > 0")
+    if v["heaters_per_ha"] is not None and not 0 < v["heaters_per_ha"] <= 1000:
+        problems.append(f"{label}.heaters_per_ha: {v['heaters_per_ha']} is out of range; expected heaters installed per hectare")
     if v["area_ha"] is not None and not 0 < v["area_ha"] < 10000:
         problems.append(f"{label}.area_ha: {v['area_ha']} is out of range; expected hectares, > 0")
     if len(problems) > n_before or not isinstance(t10, _NUM):

@@ -103,3 +103,33 @@ def start_air_temp_at_c(grid_s: np.ndarray, crossing_s: float | None, dew_point_
     td = float(np.interp(at, g, np.asarray(dew_point_c, dtype=float)))
     v = float(air_temp_c_for_wet_bulb(threshold_c, td, pressure_hpa))
     return v if math.isfinite(v) else None
+
+
+def dew_point_history(series, station_ids: list[str], now_s: float, window_s: float = TREND_WINDOW_S
+                      ) -> tuple[np.ndarray, np.ndarray] | None:
+    """(times, dew points) of the first of `station_ids` with humidity readings in the window.
+
+    A station's own `dew_point_temperature` readings, or its `relative_humidity` with its air
+    temperature at the same moments (WMO convention, over water). None when no station has any.
+    """
+    from frostwatch.physics.humidity import dew_point_c_from_rel_humidity
+
+    for sid in station_ids:
+        for quantity in ("dew_point_temperature", "relative_humidity"):
+            if (sid, quantity) not in series:
+                continue
+            t, v = series[(sid, quantity)]
+            sel = (t > now_s - window_s) & (t <= now_s)
+            if not sel.any():
+                continue
+            t, v = np.asarray(t[sel], dtype=float), np.asarray(v[sel], dtype=float)
+            if quantity == "dew_point_temperature":
+                return t, v
+            if (sid, "air_temperature") not in series:
+                continue
+            ta_t, ta_v = series[(sid, "air_temperature")]
+            if len(ta_t) == 0:
+                continue
+            air = np.interp(t, np.asarray(ta_t, dtype=float), np.asarray(ta_v, dtype=float))
+            return t, np.asarray(dew_point_c_from_rel_humidity(air, np.clip(v, 1.0, 100.0)), dtype=float)
+    return None

@@ -25,6 +25,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from frostwatch import drying
+from frostwatch import towers as towers_mod
 from frostwatch.config import Block, Config, Station
 from frostwatch.models import Projection, StationState
 from frostwatch.night import Night
@@ -569,6 +571,7 @@ def project_block(
     cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
     # the wet bulb decides only for sprinkler blocks (and is shown in their alerts)
     wet_c = None  # computed with the wet-bulb curve below (one vectorised call)
+    td_trend = td_at_start = None  # the dew point's fall tonight, for sprinkler blocks (below)
     if cloud is None:
         notes.append("no sky or cloud sensor: clear sky assumed")
 
@@ -691,20 +694,28 @@ def project_block(
         }
         crossings = {k: _utc(crossing_time(grid_s, curve, thr)) for k, thr in thresholds.items()}
         if td_c is not None and block.protection in SPRINKLER_METHODS:
-            # At a fixed dew point the wet bulb rises monotonically with the air temperature (and
-            # equals it once the air is down at the dew point, which then falls with it), so the
-            # wet bulb crosses a threshold exactly where the air curve crosses the air temperature
-            # whose wet bulb is that threshold: a closed form (ASHRAE eqs. 33/35), no grid needed.
+            # the wet-bulb crossings follow tonight's dew point as it falls (frostwatch.drying):
+            # at each grid point the air temperature whose wet bulb is the threshold, at that
+            # point's projected dew point, in closed form (ASHRAE eqs. 33/35)
             wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
             wet_c = wet_c if math.isfinite(wet_c) else None
+            hist = drying.dew_point_history(series, [speaker.station] + [s.station for s in states + site_states
+                                                                          if s is not speaker], now_s)
+            td_trend = None if hist is None else drying.dew_point_trend_c_per_h(hist[0], hist[1], now_s)
+            td_curve = drying.projected_dew_point_c(grid_s, now_s, td_c, drying.projected_fall_c_per_h(td_trend), curve)
             for key, thr in (("wet_bulb_t10_margin", thresholds["t10_margin"]), ("wet_bulb_t10", thresholds["t10"])):
-                air_at = float(humidity.air_temp_c_for_wet_bulb(thr, td_c, p_hpa))
-                if not math.isfinite(air_at):
-                    air_at = thr  # dew point above the threshold: the wet bulb reaches it with the air
-                crossings[key] = _utc(crossing_time(grid_s, curve, air_at))
+                crossings[key] = _utc(drying.wet_bulb_crossing_s(grid_s, curve, td_curve, thr, p_hpa))
+            at = crossings["wet_bulb_t10_margin"] or tmin_at
+            td_at_start = float(np.interp(at.timestamp(), grid_s, td_curve)) if at is not None else td_c
 
-    # inversion: tower minus crop height, now and projected to the minimum
-    towers = [s for s in states if s.role == "tower" and s.healthy]
+    # inversion: tower minus crop height, now and projected to the minimum; a block without a
+    # tower of its own uses the nearest (or the site-wide) one (frostwatch.towers)
+    tower_states = {s.station: s for s in states + site_states}
+    for st in cfg.stations:
+        if st.role == "tower" and st.id not in tower_states:
+            tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
+    choice = towers_mod.tower_for_block(cfg, block, tower_states)
+    towers = [tower_states[choice.station]] if choice is not None else []
     inv_c = proj_inv_c = None
     inv_class = None
     if towers:
@@ -724,6 +735,12 @@ def project_block(
         inv_class = windmachine.classify_inversion(inv_c)
     else:
         notes.append("no tower sensor: inversion not measured")
+    tower_fields = {} if choice is None else dict(
+        tower_station=choice.station, tower_own=choice.own, tower_site_wide=choice.site_wide,
+        tower_distance_m=None if choice.distance_m is None else round(choice.distance_m, 0))
+    drying_fields = {} if td_trend is None and td_at_start is None else dict(
+        dew_point_trend_c_per_h=None if td_trend is None else round(td_trend, 2),
+        dew_point_at_start_c=None if td_at_start is None else round(td_at_start, 2))
 
     return Projection(
         **base,
@@ -744,6 +761,8 @@ def project_block(
         notes=tuple(notes),
         curve_time_utc=tuple(_utc(float(s)) for s in grid_s[:: max(1, len(grid_s) // 48)]) if now_s < sunrise_s else (),
         curve_air_temp_c=tuple(round(float(c), 2) for c in curve[:: max(1, len(grid_s) // 48)]) if now_s < sunrise_s else (),
+        **tower_fields,
+        **drying_fields,
     )
 
 

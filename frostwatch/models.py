@@ -79,6 +79,16 @@ class Projection:
     sunrise_utc: dt.datetime | None = None
     curve_time_utc: tuple[dt.datetime, ...] = ()
     curve_air_temp_c: tuple[float, ...] = ()
+    # the tower the inversion was measured on (frostwatch.towers): the block's own, or the nearest
+    # (with its distance when positions are configured), or the site-wide one
+    tower_station: str | None = None
+    tower_own: bool | None = None
+    tower_site_wide: bool | None = None
+    tower_distance_m: float | None = None
+    # sprinkler blocks: tonight's dew-point trend and the dew point projected at the wet-bulb
+    # crossing of T10 + margin (or at the minimum), which sets the start air temperature
+    dew_point_trend_c_per_h: float | None = None
+    dew_point_at_start_c: float | None = None
 
 
 @dataclass(frozen=True)

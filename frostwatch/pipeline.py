@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from frostwatch import forecast
+from frostwatch import forecast, reference
 from frostwatch.advice import AdvicePlan, plan_advice
 from frostwatch.alerts.levels import UNMONITORED, rank_of, step_for_level
 from frostwatch.alerts.rules import BlockAlertState, rule_settings, step
@@ -112,6 +112,18 @@ class Evaluator:
                 out.append(rec)
         return out
 
+    def reference_inputs(self, block, window: Series, night: Night, now_s: float) -> dict:
+        """For a sprinkler block after sunrise: the reference air outside the wetted area (its
+        station named even when silent) and the night's driest measured dew point (the fallback's
+        dry air); nothing for other blocks or before sunrise."""
+        if block.protection not in ("overtree_sprinkler", "undertree_sprinkler") or now_s < night.sunrise_utc.timestamp():
+            return {}
+        st = reference.reference_station_for(self.cfg, block)
+        ref = None if st is None else reference.reference_air(window, st.id, now_s, self.pressure_hpa)
+        ids = [s.id for s in self.cfg.stations_of(block.id)] + [s.id for s in self.cfg.stations if s.block is None]
+        driest = reference.driest_dew_point_c(window, ids, night.sunset_utc.timestamp(), now_s)
+        return dict(reference=ref, reference_station=None if st is None else st.id, driest_dew_point_c=driest)
+
     def evaluate(self, now_utc: dt.datetime, series: Series) -> Evaluation:
         """Project, advise and run the alert rules for every block at `now_utc`.
 
@@ -127,7 +139,9 @@ class Evaluator:
                 now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa
             )
             running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_s)
-            plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running)
+            ref_kw = self.reference_inputs(block, window, night, now_s)
+            plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running,
+                               **ref_kw)
             mon = block_monitoring(self.cfg, block, window, now_s)
             state = self.states.get(block.id, BlockAlertState())
             state, alerts = step(state, plan, proj, block, now_utc, night, self.display, None, self.rule_settings)

@@ -128,3 +128,46 @@ def test_problems_of_every_section_are_listed_together(tmp_path):
         load_config(p)
     text = "\n".join(exc.value.problems)
     assert "alerts.repeat_interval_mn" in text and "channels[0].type" in text and "daemon.bogus" in text
+
+
+def _with(blocks=None, stations=None):
+    raw = {k: (list(v) if isinstance(v, list) else dict(v)) for k, v in GOOD.items()}
+    if blocks is not None:
+        raw["blocks"] = blocks
+    if stations is not None:
+        raw["stations"] = stations
+    return raw
+
+
+def test_reference_station_and_weather_role():
+    # DESIGN.md 1.4 (second round): a station with no block and role "weather" is the site's
+    # reference air; a block may name its own reference_station
+    stations = GOOD["stations"] + [{"id": "met", "height_m": 2.0, "role": "weather"},
+                                   {"id": "b-low", "block": "b", "height_m": 1.5}, {"id": "mast", "height_m": 10.0}]
+    blocks = [{"id": "a", "crop": "apple", "stage": "full bloom", "protection": "overtree_sprinkler",
+               "application_rate_mm_h": 3.5, "reference_station": "b-low"},
+              {"id": "b", "crop": "pear", "stage": "full bloom"}]
+    cfg = config_from_dict(_with(blocks, stations))
+    assert cfg.block("a").reference_station == "b-low"
+    probs = problems_of(_with([dict(blocks[0], reference_station="a-low"), blocks[1]], stations))
+    assert any("blocks.a.reference_station: 'a-low' is in the block itself" in p for p in probs)
+    probs = problems_of(_with([dict(blocks[0], reference_station="mett"), blocks[1]], stations))
+    assert any("'mett' is not a declared station (did you mean 'met'?)" in p for p in probs)
+    probs = problems_of(_with([dict(blocks[0], reference_station="mast"), blocks[1]], stations))
+    assert any("has role 'tower'" in p for p in probs)
+    probs = problems_of(_with(None, GOOD["stations"] + [{"id": "met", "block": "a", "height_m": 2.0, "role": "weather"}]))
+    assert any("stations.met.role" in p and "leave `block` out" in p for p in probs)
+
+
+def test_station_positions_and_heater_keys():
+    stations = [dict(GOOD["stations"][0], x_m=10.0, y_m=-5.0), {"id": "mast", "height_m": 10.0, "x_m": 300, "y_m": 0}]
+    cfg = config_from_dict(_with(None, stations))
+    assert cfg.station("a-low").position_m == (10.0, -5.0) and cfg.station("mast").block is None
+    probs = problems_of(_with(None, [dict(GOOD["stations"][0], x_m=10.0)]))
+    assert any("give both x_m and y_m" in p for p in probs)
+    blocks = [{"id": "a", "crop": "apple", "stage": "full bloom", "protection": "heaters", "heater_kw": 0,
+               "heaters_per_ha": 90}]
+    probs = problems_of(_with(blocks))
+    assert any("blocks.a.heater_kw" in p for p in probs)
+    ok = config_from_dict(_with([dict(blocks[0], heater_kw=40)]))
+    assert ok.block("a").heater_kw == 40 and ok.block("a").heaters_per_ha == 90

@@ -102,3 +102,42 @@ def test_no_crossing_and_dew_point_above_threshold():
     got = wet_bulb_crossing_s(grid, air, np.full_like(grid, -1.0), -2.0, P_HPA)
     assert got / 3600.0 == pytest.approx(2.0 / 3.0, abs=0.02)
     assert math.isfinite(start_air_temp_at_c(grid, None, np.full_like(grid, -8.0), -1.2, P_HPA))
+
+
+def test_projection_on_a_drying_night_uses_the_falling_dew_point(tmp_path):
+    # a sprinkler block: air cooling along a square-root curve, dew point falling 0.6 K/h. The
+    # projected wet-bulb crossing of T10 + margin must come where the air curve meets the start
+    # temperature of the dew point projected for that moment (earlier than with today's held).
+    import datetime as dt
+
+    from forecast_site import make_cfg
+
+    from frostwatch import forecast
+    from frostwatch.night import night_of_date
+
+    cfg = make_cfg(tmp_path, "overtree_sprinkler")
+    block = cfg.block("b")
+    night = night_of_date(46.4, -120.3, cfg.site.tz, dt.date(2027, 4, 20))
+    t0 = night.sunset_utc.timestamp()
+    t = np.arange(t0 - 3 * 3600, t0 + 3 * 3600 + 1, 300.0)
+    air = 9.0 - 2.0 * np.sqrt(np.maximum(0.0, (t - t[0]) / 3600.0))
+    td = -2.0 - 0.6 * (t - t[0]) / 3600.0
+    series = {("b-low", "air_temperature"): (t, air), ("b-low-2", "air_temperature"): (t, air + 0.3),
+              ("b-low", "dew_point_temperature"): (t, td)}
+    now = dt.datetime.fromtimestamp(t[-1], dt.UTC)
+    p = forecast.project_block(now, block, cfg, series, night)
+    assert p.dew_point_trend_c_per_h == pytest.approx(-0.6, abs=0.01)
+    held = p.crossings_utc["wet_bulb_t10_margin"]
+    assert p.dew_point_at_start_c < p.dew_point_c
+    # the same curve with the dew point held: later
+    grid = np.array([c.timestamp() for c in p.curve_time_utc])
+    curve = np.array(p.curve_air_temp_c)
+    thr = block.kill_10pct_c + block.margin_c
+    from frostwatch.physics.humidity import pressure_hpa_from_elevation
+
+    fixed = wet_bulb_crossing_s(grid, curve, np.full_like(grid, p.dew_point_c), thr, pressure_hpa_from_elevation(300.0))
+    assert held is not None and fixed is not None
+    assert held.timestamp() < fixed - 600.0  # at least 10 min earlier (the curve is stored thinned)
+    assert p.dew_point_at_start_c == pytest.approx(
+        max(p.dew_point_c - 0.6 * ((held or p.predicted_min_at_utc).timestamp() - t[-1]) / 3600.0, p.dew_point_c - MAX_FALL_C),
+        abs=0.05)

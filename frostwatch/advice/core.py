@@ -19,13 +19,13 @@ import datetime as dt
 import math
 
 from frostwatch.advice.fans import fan_verdict, fog_possible
+from frostwatch.advice.heating import heater_verdict
 from frostwatch.advice.morning import Series, stop_check
 from frostwatch.advice.plan import (
     BASE_CAUTIONS,
     AdvicePlan,
     Alternative,
     Caution,
-    HeaterFigures,
     Method,
     MethodVerdict,
     Resources,
@@ -37,7 +37,8 @@ from frostwatch.advice.plan import (
 from frostwatch.advice.sprinkling import sprinkler_verdict
 from frostwatch.config import Block
 from frostwatch.models import Projection
-from frostwatch.physics import sprinklers, windmachine
+from frostwatch.physics import sprinklers
+from frostwatch.reference import ReferenceAir
 
 # A possible frost (within the band) asks the crew to get ready once the projected crossing of
 # T10 + margin is this close (the alert rules' standby horizon).
@@ -83,9 +84,7 @@ def verdict_for(p: Projection, block: Block, pressure_hpa: float, supercooled_fo
     if method.is_sprinkler:
         return sprinkler_verdict(p, block, pressure_hpa)
     if method is Method.HEATERS:
-        inv = p.inversion_c
-        return MethodVerdict(method=method, advised=True, heaters=HeaterFigures(
-            inversion_c=inv, min_useful_inversion_c=windmachine.MIN_USEFUL_INVERSION_C))
+        return heater_verdict(p, block)
     return MethodVerdict(method=method, advised=False, why_not=WhyNot.NO_PROTECTION,
                          alternatives=(Alternative.COVERS_OR_MOIST_SOIL,))
 
@@ -146,6 +145,9 @@ def plan_advice(
     series: Series | None = None,
     protection_running: bool | None = None,
     supercooled_fog: bool | None = None,
+    reference: ReferenceAir | None = None,
+    reference_station: str | None = None,
+    driest_dew_point_c: float | None = None,
 ) -> AdvicePlan:
     """What to do about `block` at `now_utc`, from its projection and recent readings.
 
@@ -166,6 +168,14 @@ def plan_advice(
         The block's running sensor: True while protection runs (then "keep it running").
     supercooled_fog : bool, optional
         True when fog is observed; fans are then never advised.
+    reference : ReferenceAir, optional
+        Fresh air outside the wetted area (`frostwatch.reference.reference_air`): the sprinkler
+        stop rule reads its wet bulb.
+    reference_station : str, optional
+        The reference station configured for the block (named in the advice even when silent).
+    driest_dew_point_c : float, optional
+        The night's lowest measured dew point: without reference air it sets the fallback stop
+        air temperature.
 
     Returns
     -------
@@ -206,11 +216,14 @@ def plan_advice(
     stop = None
     if risk is Risk.MORNING:
         stop_air = verdict.sprinklers.stop_air_temp_c if verdict.sprinklers else None
-        stop = stop_check(p, block, now_utc.timestamp(), series, pressure_hpa, stop_air)
+        stop = stop_check(p, block, now_utc.timestamp(), series, pressure_hpa, stop_air, reference,
+                          reference_station, driest_dew_point_c)
     step = step_of(risk, stop.stop_ok if stop else None, method, protection_running, now_utc, crossing, ready_by)
     cautions = list(BASE_CAUTIONS)
     if method in _SAFETY:
         cautions.append(_SAFETY[method])
+    if method is Method.HEATERS:
+        cautions.append(Caution.AIR_QUALITY)
     if method is Method.WIND_MACHINE and verdict.advised and fog_possible(p.air_temp_c, p.dew_point_c):
         cautions.append(Caution.FOG_LOOK)
     if (method.is_sprinkler and p.wet_bulb_c is not None and p.wet_bulb_c <= t10 and risk is not Risk.MORNING

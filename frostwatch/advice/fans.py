@@ -61,7 +61,7 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     inv_c, wind = _num(inv), _num(p.wind_speed_m_s)
     suit = windmachine.wind_machine_suitability(
         inv_c, 0.0 if math.isnan(wind) else wind, _num(p.predicted_min_c), block.kill_10pct_c,
-        supercooled_fog=bool(supercooled_fog), gain_fraction=block.wind_machine_gain_frac,
+        supercooled_fog=bool(supercooled_fog), gain_fraction=block.wind_machine_gain_frac, margin_c=block.margin_c,
     )
     limit = windmachine.MAX_WIND_FOR_FANS_M_S
     fog = fog_possible(p.air_temp_c, p.dew_point_c)
@@ -75,7 +75,8 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     elif inv_c < windmachine.MIN_USEFUL_INVERSION_C or not suit.useful:
         why = WhyNot.INVERSION_WEAK
     advised = why is None
-    shortfall = block.kill_10pct_c - _num(p.predicted_min_c)
+    # judged against T10 + margin: buds run 1-2 degC below screen air on clear nights
+    shortfall = block.kill_10pct_c + block.margin_c - (_num(p.predicted_min_c) + suit.expected_gain_low_c)
     sufficient = advised and suit.sufficient
     figures = FanFigures(
         inversion_c=None if math.isnan(inv_c) else inv_c, inversion_projected=projected,
@@ -87,6 +88,8 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
         gain_high_c=suit.expected_gain_high_c if advised else 0.0,
         sufficient=sufficient,
         shortfall_c=shortfall if advised and shortfall > 0 and not sufficient else None,
+        tower_station=p.tower_station, tower_own=p.tower_own, tower_site_wide=p.tower_site_wide,
+        tower_distance_m=p.tower_distance_m,
     )
     conditions: list[Condition] = []
     if advised and math.isnan(wind):
@@ -95,7 +98,7 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
         conditions.append(Condition.NO_FOG)
     return MethodVerdict(
         method=Method.WIND_MACHINE, advised=advised, why_not=why, conditions=tuple(conditions),
-        alternatives=fan_alternatives(why, advised and not sufficient and shortfall > 0), fans=figures,
+        alternatives=fan_alternatives(why, advised and not sufficient), fans=figures,
     )
 
 

@@ -1,8 +1,12 @@
 """The morning stop rules (pure): when protection may stop after sunrise.
 
-Sprinklers may stop only after sunrise once the wet bulb is above T10 and rising and the ice is
-melting (FAO-FP 2005 p. 168; UF/IFAS Circ. 348); fans and heaters once crop-height air is above
-T10 + margin and rising. A rise is judged from the least-squares slope of the last 30 min.
+Sprinklers may stop only after sunrise once the wet bulb of air outside the wetted area is above
+T10 and rising and the ice is melting (FAO-FP 2005 p. 168; UF/IFAS Circ. 348): the block's own
+hygrometer reads air the spray has moistened, so the wet bulb is read on the reference station
+(`frostwatch.reference`). Without reference air the block's own air must rise well above the
+ice-bulb rule (`physics.sprinkler_timing.fallback_stop_air_temp_c`). Fans and heaters stop once
+crop-height air is above T10 + margin and rising. A rise is the least-squares slope of the last
+30 min, and counts only at `MIN_RISE_C_PER_H` or more (a real rise, not sensor steps).
 """
 
 from __future__ import annotations
@@ -11,10 +15,11 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from frostwatch.advice.plan import Method, StopCheck, Trigger
+from frostwatch.advice.plan import Method, StopBasis, StopCheck, Trigger
 from frostwatch.config import Block
 from frostwatch.models import Projection
-from frostwatch.physics import humidity
+from frostwatch.physics.sprinkler_timing import MIN_RISE_C_PER_H, fallback_stop_air_temp_c
+from frostwatch.reference import ReferenceAir
 
 Series = Mapping[tuple[str, str], tuple[np.ndarray, np.ndarray]]
 TREND_WINDOW_S = 1800.0  # the last 30 min of readings give the trend for the stop rules
@@ -44,54 +49,62 @@ def trend_c_per_h(series: Series | None, station: str | None, quantity: str, now
     return float(np.polyfit((t - now_s) / 3600.0, v, 1)[0])
 
 
-def wet_bulb_trend_c_per_h(series: Series | None, station: str | None, dew_point_c: float | None,
-                           now_s: float, pressure_hpa: float) -> float | None:
-    """Slope of the wet bulb over the window [degC h-1], from the air readings and tonight's dew point."""
-    if dew_point_c is None:
+def _judge(now_c: float | None, limit_c: float, trend: float | None) -> bool | None:
+    """False at or below the limit; None above it without a trend; else whether it is really rising."""
+    if now_c is None or now_c <= limit_c:
+        return False
+    if trend is None:
         return None
-    w = _window(series, station, "air_temperature", now_s, TREND_WINDOW_S)
-    if w is None:
-        return None
-    t, v = w
-    wb = np.asarray(humidity.wet_bulb_c_from_dew_point(v, np.minimum(dew_point_c, v), pressure_hpa), dtype=float)
-    ok = np.isfinite(wb)
-    if ok.sum() < 3:
-        return None
-    return float(np.polyfit((t[ok] - now_s) / 3600.0, wb[ok], 1)[0])
+    return trend >= MIN_RISE_C_PER_H
 
 
 def stop_check(p: Projection, block: Block, now_s: float, series: Series | None, pressure_hpa: float,
-               stop_air_temp_c: float | None) -> StopCheck:
+               stop_air_temp_c: float | None, reference: ReferenceAir | None = None,
+               reference_station: str | None = None, driest_dew_point_c: float | None = None) -> StopCheck:
     """The stop rule of the block's method, judged now.
+
+    Parameters
+    ----------
+    reference : ReferenceAir, optional
+        Fresh reference air outside the wetted area (sprinkler blocks).
+    reference_station : str, optional
+        The reference station configured for the block (named even when it has no fresh reading).
+    driest_dew_point_c : float, optional
+        The night's lowest dew point measured (the fallback's dry air).
 
     Returns
     -------
     StopCheck
-        `stop_ok` True when the trigger temperature is above its limit and rising, False when it
-        is not (or unknown for sprinklers), None when it is above the limit but there is no recent
-        trend to confirm the rise.
+        `stop_ok` True when the trigger temperature is above its limit and rising by at least
+        `MIN_RISE_C_PER_H`, False when it is not, None when it is above the limit but there is no
+        recent trend to confirm the rise.
 
     References
     ----------
     FAO Frost Protection (2005) p. 168 and UF/IFAS Circular 348: sprinklers stop after sunrise
-    once the wet bulb is above the critical temperature and the ice is melting.
+    once the wet bulb upwind of the wetted area is above the critical temperature and the ice is
+    melting.
     """
     method = Method(block.protection)
-    if method.is_sprinkler:
+    common = dict(min_rise_c_per_h=MIN_RISE_C_PER_H)
+    if method.is_sprinkler and reference is not None:
         limit = block.kill_10pct_c
-        now_c = p.wet_bulb_c
-        trend = wet_bulb_trend_c_per_h(series, p.station, p.dew_point_c, now_s, pressure_hpa)
-        trigger = Trigger.WET_BULB
-    else:
-        limit = block.kill_10pct_c + block.margin_c
-        now_c = p.air_temp_c
+        return StopCheck(trigger=Trigger.WET_BULB, now_c=reference.wet_bulb_c, limit_c=limit,
+                         trend_c_per_h=reference.wet_bulb_trend_c_per_h,
+                         stop_ok=_judge(reference.wet_bulb_c, limit, reference.wet_bulb_trend_c_per_h),
+                         stop_air_temp_c=stop_air_temp_c, basis=StopBasis.REFERENCE_WET_BULB,
+                         reference_station=reference.station, **common)
+    if method.is_sprinkler:
+        # no unsprinkled air measured: the block's own air, well above the ice-bulb rule
+        limit = fallback_stop_air_temp_c(float("nan") if driest_dew_point_c is None else driest_dew_point_c,
+                                         block.kill_10pct_c, pressure_hpa)
         trend = trend_c_per_h(series, p.station, "air_temperature", now_s)
-        trigger = Trigger.AIR
-    if now_c is None or now_c <= limit:
-        ok: bool | None = False
-    elif trend is None:
-        ok = None
-    else:
-        ok = trend > 0
-    return StopCheck(trigger=trigger, now_c=now_c, limit_c=limit, trend_c_per_h=trend, stop_ok=ok,
-                     stop_air_temp_c=stop_air_temp_c if method.is_sprinkler else None)
+        return StopCheck(trigger=Trigger.AIR, now_c=p.air_temp_c, limit_c=limit, trend_c_per_h=trend,
+                         stop_ok=_judge(p.air_temp_c, limit, trend), stop_air_temp_c=stop_air_temp_c,
+                         basis=StopBasis.FALLBACK_AIR, reference_station=reference_station,
+                         reference_silent=reference_station is not None, driest_dew_point_c=driest_dew_point_c,
+                         **common)
+    limit = block.kill_10pct_c + block.margin_c
+    trend = trend_c_per_h(series, p.station, "air_temperature", now_s)
+    return StopCheck(trigger=Trigger.AIR, now_c=p.air_temp_c, limit_c=limit, trend_c_per_h=trend,
+                     stop_ok=_judge(p.air_temp_c, limit, trend), basis=StopBasis.BLOCK_AIR, **common)

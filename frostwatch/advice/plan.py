@@ -14,7 +14,7 @@ import datetime as dt
 from dataclasses import dataclass
 from enum import StrEnum
 
-PLAN_VERSION = 1  # bump when a field changes meaning; readers refuse versions they do not know
+PLAN_VERSION = 2  # bump when a field changes meaning; readers refuse versions they do not know
 
 
 class Risk(StrEnum):
@@ -96,6 +96,9 @@ class Alternative(StrEnum):
     HEATERS_WITH_FANS = "heaters-with-fans"  # weak inversion: heaters with fans, or sprinklers
     ADD_HEATERS = "add-heaters"  # fans help but not enough: add heaters or sprinklers
     SPRINKLERS_ASK_ADVISER = "sprinklers-ask-adviser"  # too little water may do harm
+    UNDERTREE_NOT_ENOUGH = "undertree-not-enough"  # under-tree warming alone will not hold T10 + margin
+    MORE_HEATERS = "more-heaters"  # the installed heaters fall short: borders, fans, all lit
+    HEATERS_WEAK_INVERSION = "heaters-weak-inversion"  # most heat rises away: sprinklers or fans with heaters
     COVERS_OR_MOIST_SOIL = "covers-or-moist-soil"  # no protection configured
 
 
@@ -108,6 +111,7 @@ class Caution(StrEnum):
     FAN_SAFETY = "fan-safety"
     SPRINKLER_SAFETY = "sprinkler-safety"
     HEATER_SAFETY = "heater-safety"
+    AIR_QUALITY = "air-quality"  # heaters: the air district's smoke rules; log burn hours
     FOG_LOOK = "fog-look"  # fog is possible: look before starting fans
     WET_BULB_AT_T10 = "wet-bulb-at-t10"  # sprinklers started now cool the buds towards the wet bulb
     SUPPLY_SHORT = "supply-short"  # the water supply feeds only part of the block at the full rate
@@ -132,8 +136,12 @@ class FanFigures:
     gain_c: float
     gain_low_c: float
     gain_high_c: float
-    sufficient: bool
-    shortfall_c: float | None  # T10 minus the projected minimum, beyond what fans give
+    sufficient: bool  # the projected minimum plus the low-band gain reaches T10 + margin
+    shortfall_c: float | None  # how far the projected minimum plus the low-band gain stays below T10 + margin
+    tower_station: str | None = None  # the tower the inversion was measured on
+    tower_own: bool | None = None  # False: another block's tower or the site-wide one
+    tower_site_wide: bool | None = None
+    tower_distance_m: float | None = None
 
 
 @dataclass(frozen=True)
@@ -154,14 +162,31 @@ class SprinklerFigures:
     target_low_mm_h: float | None = None  # under-tree: the usual target range
     target_high_mm_h: float | None = None
     min_mm_h: float | None = None  # under-tree: below this the lines may freeze
+    dew_point_trend_c_per_h: float | None = None  # tonight's dew-point trend (a fall moves the start earlier)
+    start_dew_point_c: float | None = None  # the dew point projected at the crossing: the start uses it
+    warming_low_c: float | None = None  # under-tree: expected warming (only under an inversion)
+    warming_high_c: float | None = None
+    inversion_c: float | None = None  # under-tree: the inversion the warming depends on
+    sufficient: bool | None = None  # under-tree: the projected minimum plus the low warming reaches T10 + margin
+    shortfall_c: float | None = None  # under-tree: how far it stays below T10 + margin
 
 
 @dataclass(frozen=True)
 class HeaterFigures:
-    """Heaters: the inversion that holds their heat."""
+    """Heaters: the heat tonight asks for at T10 + margin, the share the inversion holds, and the
+    heaters per hectare that makes with the block's heaters (`physics.heaters.heater_need`)."""
 
     inversion_c: float | None
     min_useful_inversion_c: float
+    target_c: float | None = None  # T10 + margin, the temperature the heaters are to hold
+    requirement_w_m2: float | None = None  # net longwave loss there
+    retained_frac: float | None = None  # share of the output the inversion holds (None: too weak)
+    output_kw_per_ha: float | None = None  # burning output needed per hectare
+    heater_kw: float | None = None  # one heater's output (config)
+    heaters_per_ha: int | None = None  # heaters of that rating needed per hectare
+    installed_per_ha: float | None = None  # heaters installed per hectare (config)
+    installed_kw_per_ha: float | None = None
+    enough: bool | None = None  # installed output at least the output needed
 
 
 @dataclass(frozen=True)
@@ -198,16 +223,35 @@ class MethodVerdict:
     resources: Resources | None = None  # only when advised and protection may be needed
 
 
+class StopBasis(StrEnum):
+    """What the morning stop rule is judged on."""
+
+    BLOCK_AIR = "block-air"  # fans and heaters: the block's crop-height air against T10 + margin
+    REFERENCE_WET_BULB = "reference-wet-bulb"  # sprinklers: the wet bulb of unsprinkled reference air
+    FALLBACK_AIR = "fallback-air"  # sprinklers without reference air: the block's air well above the ice-bulb rule
+
+
 @dataclass(frozen=True)
 class StopCheck:
-    """The morning stop rule: the trigger temperature against its limit, and its trend."""
+    """The morning stop rule: the trigger temperature against its limit, and its trend.
+
+    For sprinklers the wet bulb is read on air outside the wetted area (`reference_station`);
+    without such air the block's own air must pass `limit_c`, the fallback stop air temperature
+    (`physics.sprinkler_timing.fallback_stop_air_temp_c`). A trend counts as rising only at
+    `min_rise_c_per_h` or more.
+    """
 
     trigger: Trigger
     now_c: float | None
-    limit_c: float  # sprinklers: T10 (the wet bulb must be above it); others: T10 + margin
+    limit_c: float  # sprinklers: T10 (reference wet bulb) or the fallback air; others: T10 + margin
     trend_c_per_h: float | None
     stop_ok: bool | None  # None: looks met, but no recent trend to confirm it
     stop_air_temp_c: float | None = None  # sprinklers: the air temperature where the wet bulb is at T10
+    basis: StopBasis = StopBasis.BLOCK_AIR
+    reference_station: str | None = None  # the reference station used (or configured but silent)
+    reference_silent: bool = False  # a reference station is configured but has no fresh reading
+    driest_dew_point_c: float | None = None  # fallback: the night's driest air that set limit_c
+    min_rise_c_per_h: float = 0.3
 
 
 # ---- the plan ------------------------------------------------------------------------------------

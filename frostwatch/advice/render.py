@@ -25,6 +25,7 @@ from frostwatch.advice.plan import (
     MethodVerdict,
     Risk,
     Step,
+    StopBasis,
     Trigger,
     WhyNot,
 )
@@ -68,6 +69,8 @@ CAUTION_TEXT = {
     Caution.FAN_SAFETY: "Keep clear of wind machines when starting them.",
     Caution.SPRINKLER_SAFETY: "Ice-loaded trees and wet ground are hazards under sprinklers.",
     Caution.HEATER_SAFETY: "Heaters are a fire hazard: keep fuel and people clear and follow local burning rules.",
+    Caution.AIR_QUALITY: "Orchard heaters are regulated for smoke: follow your air district's rules (for example, no "
+                         "waste oil and no smudge pots, Lake County AQMD) and log the hours they burn.",
     Caution.SUPPLY_SHORT: "The water supply cannot run the whole block at the full rate: sprinkle only the part it "
                           "can feed, never the whole block at a lower rate.",
 }
@@ -86,6 +89,14 @@ ALTERNATIVE_TEXT = {
                              "have them",
     Alternative.SPRINKLERS_ASK_ADVISER: "too little water for the conditions leaves the buds near the wet bulb, colder "
                                         "than dry buds: consult your adviser before relying on the sprinklers",
+    Alternative.UNDERTREE_NOT_ENOUGH: "under-tree sprinklers warm the air only a little (0.6-1.4 °C, Parsons 2015) and "
+                                      "only under an inversion: add wind machines or heaters where you have them",
+    Alternative.MORE_HEATERS: "the installed heaters may fall short tonight: light them all, add heaters on the borders "
+                              "(double them on the upwind border, FAO-FP p. 147), or run wind machines with them to "
+                              "spread the heat",
+    Alternative.HEATERS_WEAK_INVERSION: "with a weak inversion most of the heaters' heat rises away (FAO-FP p. 147): "
+                                        "sprinklers, or heaters together with wind machines where there is some "
+                                        "inversion, hold more",
     Alternative.COVERS_OR_MOIST_SOIL: "covers for small plantings, or irrigating dry ground in the afternoon (moist soil "
                                       "stores and gives back more heat, FAO-FP) help a little",
 }
@@ -214,20 +225,7 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
     if step is Step.SAFE_TO_STOP and now_c is None:
         return f"the {name} may stop: the stop rule was met this morning"
     if m.is_sprinkler:
-        t10 = d.temp(plan.t10_c)
-        if step is Step.SAFE_TO_STOP:
-            return (f"the sprinklers may stop once the ice is melting (water running between ice and twig): the wet bulb "
-                    f"{d.temp(now_c)} is above T10 {t10} and rising{_trend(d, trend)}")
-        if step is Step.WATCH_TO_STOP:
-            return (f"the wet bulb {d.temp(now_c)} is above T10 {t10}: the sprinklers may stop once it keeps rising (watch "
-                    "it for 15-30 min; frostwatch has no recent trend) and the ice is melting")
-        if now_c is None:
-            return ("keep the sprinklers running until the ice is melting and the air is well above T10: the wet bulb is "
-                    "unknown (no humidity reading)")
-        if now_c <= plan.t10_c:
-            return (f"keep the sprinklers running: the wet bulb {d.temp(now_c)} is not above T10 {t10}; stopping now "
-                    "would cool the wet buds towards it")
-        return f"keep the sprinklers running: the wet bulb {d.temp(now_c)} is above T10 but not rising{_trend(d, trend)}"
+        return _sprinkler_stop_action(step, plan, d)
     limit = d.temp(plan.line_c)
     if step is Step.SAFE_TO_STOP:
         return f"the {name} may stop: crop-height air {d.temp(now_c)} is above {limit} and rising{_trend(d, trend)}"
@@ -238,6 +236,44 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
         now = f" (now {d.temp(now_c)})" if now_c is not None else ""
         return f"keep the {name} running until crop-height air is above {limit} and rising{now}"
     return f"keep the {name} running: crop-height air {d.temp(now_c)} is not rising{_trend(d, trend)}"
+
+
+def _ice(plan: AdvicePlan) -> str:
+    """The ice condition of the stop rule: on the twigs (over-tree) or on the ground (under-tree)."""
+    if plan.method is Method.UNDERTREE_SPRINKLER:
+        return "the ice on the ground has melted"
+    return "the ice is melting (water running between ice and twig)"
+
+
+def _sprinkler_stop_action(step: Step, plan: AdvicePlan, d: Display) -> str:
+    """The morning stop advice for sprinklers: on unsprinkled reference air, or the stated fallback."""
+    s = plan.stop
+    now_c, trend, t10 = s.now_c, s.trend_c_per_h, d.temp(plan.t10_c)
+    if s.basis is StopBasis.REFERENCE_WET_BULB:
+        wb = f"the wet bulb of unsprinkled air at {s.reference_station} {d.temp(now_c)}"
+        if step is Step.SAFE_TO_STOP:
+            return (f"the sprinklers may stop once {_ice(plan)}: {wb} is above T10 {t10} and rising"
+                    f"{_trend(d, trend)}")
+        if step is Step.WATCH_TO_STOP:
+            return (f"{wb} is above T10 {t10}: the sprinklers may stop once it keeps rising (watch it for 15-30 min; "
+                    f"frostwatch has no recent trend) and {_ice(plan)}")
+        if now_c <= plan.t10_c:
+            return (f"keep the sprinklers running: {wb} is not above T10 {t10}; stopping now would cool the wet buds "
+                    "towards it")
+        return (f"keep the sprinklers running: {wb} is above T10 but not rising by at least "
+                f"{d.delta(s.min_rise_c_per_h)} per hour{_trend(d, trend)}")
+    # no reference air: the block's own air must pass the fallback stop temperature
+    why = (f"the reference station {s.reference_station} has no fresh reading" if s.reference_silent
+           else "there is no reference station outside the sprinkled area")
+    basis = (f"frostwatch cannot judge the wet bulb from the block's own air, which the spray has moistened ({why}); "
+             f"it waits for the block's air to pass {d.temp(s.limit_c)} (well above the ice-bulb rule)")
+    air = f"the block's air {d.temp(now_c)}" if now_c is not None else "the block's air"
+    if step is Step.SAFE_TO_STOP:
+        return f"the sprinklers may stop once {_ice(plan)}: {air} is above {d.temp(s.limit_c)} and rising{_trend(d, trend)}; {basis}"
+    if step is Step.WATCH_TO_STOP:
+        return (f"{air} is above {d.temp(s.limit_c)}: the sprinklers may stop once it keeps rising (watch it for 15-30 "
+                f"min) and {_ice(plan)}; {basis}")
+    return f"keep the sprinklers running until {_ice(plan)} and {air} is above {d.temp(s.limit_c)} and rising; {basis}"
 
 
 def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display, notice: Notice = Notice.STATE,

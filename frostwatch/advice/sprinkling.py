@@ -5,8 +5,11 @@ Sprinklers must be running before the wet bulb reaches T10 + margin (FAO-FP 2005
 with ASHRAE psychrometrics); over-tree sprinkling needs at least the rate the heat budget of the
 iced plant asks for (`physics.sprinklers.rate_tonight_mm_h`, a lower bound) and is not advised
 above about 4.5 m/s of wind; too little water can leave the buds colder than dry buds, so a system
-short of the heat budget's rate is not advised (consult an adviser). Under-tree systems
-run at 1.7-2.2 mm/h, at least 0.84 mm/h so the lines do not freeze (Connell & Snyder, UCCE).
+short of the heat budget's rate is not advised (consult an adviser). The start follows tonight's
+dew point as it falls: the projection's dew point at the crossing sets it (`frostwatch.drying`).
+Under-tree systems are judged by `physics.undertree`: the published rates (UCCE almonds 1.7-2.2
+mm/h, at least 0.84 mm/h so the lines do not freeze; Parsons 2015, citrus 1.87 mm/h) and a warming
+of 0.6-1.4 degC only under an inversion, against T10 + margin.
 """
 
 from __future__ import annotations
@@ -16,12 +19,8 @@ import math
 from frostwatch.advice.plan import Alternative, Condition, Method, MethodVerdict, SprinklerFigures, WhyNot
 from frostwatch.config import Block
 from frostwatch.models import Projection
-from frostwatch.physics import sprinklers
+from frostwatch.physics import sprinklers, undertree
 
-# Under-tree sprinklers (Connell & Snyder, UCCE almonds): target 1.7-2.2 mm/h, at least 0.84 mm/h
-# so the lines do not freeze; warming 0.6-1.4 C at 1.2 m (Parsons 2015).
-UNDERTREE_TARGET_MM_H = (1.7, 2.2)
-UNDERTREE_MIN_MM_H = 0.84
 # Without a humidity reading the rate estimate assumes this dew-point depression below the minimum.
 ASSUMED_DEPRESSION_C = 6.0
 
@@ -56,21 +55,22 @@ def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> Metho
         or advised, with the start/stop temperatures and the rate figures.
     """
     method = Method(block.protection)
-    start_air, stop_air = start_stop_air_temps_c(p.dew_point_c, block, pressure_hpa)
+    # the start: the dew point projected at the crossing (a falling dew point starts warmer)
+    start_td = p.dew_point_at_start_c if p.dew_point_at_start_c is not None else p.dew_point_c
+    if start_td is not None and p.dew_point_c is not None:
+        start_td = min(start_td, p.dew_point_c)
+    start_air, _ = start_stop_air_temps_c(start_td, block, pressure_hpa)
+    _, stop_air = start_stop_air_temps_c(p.dew_point_c, block, pressure_hpa)
     wind = p.wind_speed_m_s
     cap = block.application_rate_mm_h
     common = dict(dew_point_c=p.dew_point_c, start_air_temp_c=start_air, stop_air_temp_c=stop_air,
-                  wind_speed_m_s=wind, wind_limit_m_s=sprinklers.MAX_WIND_FOR_SPRINKLING_M_S, capacity_mm_h=cap)
+                  wind_speed_m_s=wind, wind_limit_m_s=sprinklers.MAX_WIND_FOR_SPRINKLING_M_S, capacity_mm_h=cap,
+                  dew_point_trend_c_per_h=p.dew_point_trend_c_per_h, start_dew_point_c=start_td)
     if method is Method.UNDERTREE_SPRINKLER:
-        lo, hi = UNDERTREE_TARGET_MM_H
-        fig = SprinklerFigures(undertree=True, required_mm_h=lo, calm_air_mm_h=None, heat_budget_mm_h=None,
-                               net_loss_w_m2=None, target_low_mm_h=lo, target_high_mm_h=hi,
-                               min_mm_h=UNDERTREE_MIN_MM_H, **common)
-        short = cap is not None and cap < UNDERTREE_MIN_MM_H
-        return MethodVerdict(method=method, advised=not short, why_not=WhyNot.LINES_MAY_FREEZE if short else None,
-                             alternatives=(Alternative.SPRINKLERS_ASK_ADVISER,) if short else (), sprinklers=fig)
+        return _undertree_verdict(p, block, common)
     pmin = p.predicted_min_c
-    td = p.dew_point_c if p.dew_point_c is not None else pmin - ASSUMED_DEPRESSION_C
+    # the heat budget at the driest air expected before the crossing (more sublimation, more water)
+    td = start_td if start_td is not None else pmin - ASSUMED_DEPRESSION_C
     if wind is None:
         # the wind is never taken as calm: the calm-air figure is a floor, and the advice is conditional
         r = sprinklers.rate_tonight_mm_h(pmin, td, 0.0)
@@ -100,3 +100,23 @@ def sprinkler_verdict(p: Projection, block: Block, pressure_hpa: float) -> Metho
     elif why is not None:
         alternatives = (Alternative.SPRINKLERS_ASK_ADVISER,)
     return MethodVerdict(method=method, advised=why is None, why_not=why, alternatives=alternatives, sprinklers=fig)
+
+
+def _undertree_verdict(p: Projection, block: Block, common: dict) -> MethodVerdict:
+    """Under-tree sprinklers: the published rates and a warming counted only under an inversion,
+    judged against T10 + margin (`physics.undertree.judge_undertree`)."""
+    lo, hi = undertree.TARGET_RATE_MM_H
+    inv = p.projected_inversion_c if p.projected_inversion_c is not None else p.inversion_c
+    pmin = math.nan if p.predicted_min_c is None else p.predicted_min_c
+    j = undertree.judge_undertree(block.application_rate_mm_h, pmin, block.kill_10pct_c, block.margin_c, inv)
+    fig = SprinklerFigures(undertree=True, required_mm_h=round(lo, 2), calm_air_mm_h=None, heat_budget_mm_h=None,
+                           net_loss_w_m2=None, target_low_mm_h=round(lo, 2), target_high_mm_h=round(hi, 2),
+                           min_mm_h=round(undertree.LINES_FREEZE_BELOW_MM_H, 2), warming_low_c=j.warming_low_c,
+                           warming_high_c=j.warming_high_c, inversion_c=inv, sufficient=j.sufficient,
+                           shortfall_c=None if math.isnan(j.shortfall_c) or j.shortfall_c == 0 else round(j.shortfall_c, 2),
+                           **common)
+    if j.lines_may_freeze:
+        return MethodVerdict(method=Method.UNDERTREE_SPRINKLER, advised=False, why_not=WhyNot.LINES_MAY_FREEZE,
+                             alternatives=(Alternative.SPRINKLERS_ASK_ADVISER,), sprinklers=fig)
+    alternatives = (Alternative.UNDERTREE_NOT_ENOUGH,) if not j.sufficient else ()
+    return MethodVerdict(method=Method.UNDERTREE_SPRINKLER, advised=True, alternatives=alternatives, sprinklers=fig)

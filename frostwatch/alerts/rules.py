@@ -85,13 +85,16 @@ def _clear_enough(plan: AdvicePlan) -> bool:
 
 
 def _morning_stop_ok(plan: AdvicePlan) -> bool:
-    """Per-method stop rule: the plan's stop check (trend, after sunrise); without a trend, the
-    trigger temperature above its limit."""
+    """Per-method stop rule: the plan's stop check (trend, after sunrise). Without a trend, fans and
+    heaters may stop with the air above its limit; sprinklers never: their published rule needs
+    the wet bulb rising (FAO-FP p. 168), and stopping too soon cools the wet buds."""
     s = plan.stop
     if s is None:
         return False
     if s.stop_ok is not None:
         return bool(s.stop_ok)
+    if plan.method.is_sprinkler:
+        return False
     return s.now_c is not None and s.now_c > s.limit_c
 
 

@@ -142,8 +142,9 @@ def cmd_calc(args) -> int:
                           wet_bulb_c=None, predicted_min_c=tmin, predicted_min_at_utc=None, band_c=0.0, crossings_utc={},
                           inversion_c=inv, projected_inversion_c=inv, inversion_class=None, wind_speed_m_s=args.wind,
                           regime="radiation", method="calc")
+        margin = args.margin * 5.0 / 9.0 if _fahrenheit(args) else args.margin
         blk = Block(id="calc", crop="", stage="", kill_10pct_c=tc, kill_90pct_c=tc, critical_source="--critical",
-                    protection="wind_machine", wind_machine_gain_frac=args.gain_fraction)
+                    protection="wind_machine", wind_machine_gain_frac=args.gain_fraction, margin_c=margin)
         v = fan_verdict(proj, blk, args.fog)
         f = v.fans
         k = 9.0 / 5.0 if _fahrenheit(args) else 1.0
@@ -155,7 +156,9 @@ def cmd_calc(args) -> int:
                _key(args, "expected_gain_high"): round(f.gain_high_c * k, 2),
                "inversion_class": windmachine.classify_inversion(inv), "reasons": reasons,
                "why_not": None if v.why_not is None else v.why_not.value, "alternatives": alternatives,
-               "gain_note": "30-50 % of the inversion: an engineering assumption from memory, not a published rule"}
+               "gain_note": "30-50 % of the inversion: an engineering band within the one measured case (McMeeking "
+                            "et al. 2002: 1-2 °C from a 3.5 °C inversion), not a published rule; sufficiency uses 30 % "
+                            "and is judged against the critical temperature plus --margin"}
         head = ("wind machines should help" + ("" if f.sufficient else ", but not enough on their own")
                 if v.advised else "wind machines will not help much")
         text = head + "\n  " + "\n  ".join(reasons + alternatives)
@@ -211,6 +214,8 @@ def register(sub, common) -> None:
     c.add_argument("--min-temp", type=float, required=True, metavar="T", help="projected minimum at crop height")
     c.add_argument("--critical", type=float, required=True, metavar="TC", help="critical temperature (usually T10)")
     c.add_argument("--fog", action="store_true", help="supercooled fog is present")
+    c.add_argument("--margin", type=float, default=2.0, metavar="DT",
+                   help="safety margin above the critical temperature that fans must hold (default 2, common practice)")
     c.add_argument("--gain-fraction", type=float, default=0.4, metavar="FRAC",
                    help="fraction of the inversion recovered at crop height (engineering assumption, default 0.4)")
     calc.set_defaults(func=cmd_calc, calculators=tuple(listing))

@@ -51,6 +51,8 @@ __all__ = [
     "LATENT_HEAT_VAPORISATION_J_KG",
     "MAX_WIND_FOR_SPRINKLING_M_S",
     "MIN_RISE_C_PER_H",
+    "PRACTICE_CALM_PROTECTS_TO_C",
+    "PRACTICE_LIGHT_WIND_PROTECTS_TO_C",
     "PRACTICE_RATE_MM_H",
     "PRACTICE_SOURCE",
     "RateTonight",
@@ -86,7 +88,9 @@ MAX_WIND_FOR_SPRINKLING_M_S: Final = 4.5
 CALM_WIND_FLOOR_M_S: Final = 0.5
 # The rate extension practice reports protecting, for the reasons: Longstroth (2012), MSU.
 PRACTICE_RATE_MM_H: Final = (3.0, 3.8)
-PRACTICE_SOURCE: Final = ("3.0-3.8 mm/h protects to about -5.6 degC in calm air and to -4.4 to -3.9 degC in "
+PRACTICE_CALM_PROTECTS_TO_C: Final = -5.6  # 22 F
+PRACTICE_LIGHT_WIND_PROTECTS_TO_C: Final = (-4.4, -3.9)  # 24-25 F
+PRACTICE_SOURCE: Final = ("3.0-3.8 mm/h protects to about -5.6 °C in calm air and to -4.4 to -3.9 °C in "
                           "light wind (Longstroth 2012, MSU Extension)")
 _SECONDS_PER_HOUR: Final = 3600.0
 _M3_PER_MM_HA: Final = 10.0  # 1 mm of water over 1 ha = 10 m3
