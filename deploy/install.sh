@@ -201,17 +201,20 @@ else
     skipped broker-restart "--skip systemctl: mosquitto not enabled or restarted"
 fi
 
-echo "== service unit in $UNIT_DIR"
+echo "== service units in $UNIT_DIR"
 install -d -m 0755 "$UNIT_DIR"
-# the unit as shipped; only the paths, the user and the config move with the options
-sed -e "s|=/opt/frostwatch/|=$PREFIX/|" \
-    -e "s|file:///opt/frostwatch/|file://$PREFIX/|" \
-    -e "s| --config /etc/frostwatch/frostwatch.toml\$| --config $CONFIG|" \
-    -e "s|:/etc/frostwatch/credentials/|:$ETC/credentials/|" \
-    -e "s|^User=frostwatch\$|User=$USER_NAME|" \
-    -e "s|^Group=frostwatch\$|Group=$GROUP_NAME|" \
-    "$SRC/systemd/frostwatch.service" > "$UNIT_DIR/frostwatch.service"
-chmod 0644 "$UNIT_DIR/frostwatch.service"
+# the units as shipped (the daemon, and the status page as a process of its own); only the
+# paths, the user and the config move with the options
+for unit in frostwatch.service frostwatch-status-page.service; do
+    sed -e "s|=/opt/frostwatch/|=$PREFIX/|" \
+        -e "s|file:///opt/frostwatch/|file://$PREFIX/|" \
+        -e "s| --config /etc/frostwatch/frostwatch.toml\$| --config $CONFIG|" \
+        -e "s|:/etc/frostwatch/credentials/|:$ETC/credentials/|" \
+        -e "s|^User=frostwatch\$|User=$USER_NAME|" \
+        -e "s|^Group=frostwatch\$|Group=$GROUP_NAME|" \
+        "$SRC/systemd/$unit" > "$UNIT_DIR/$unit"
+    chmod 0644 "$UNIT_DIR/$unit"
+done
 ran unit
 
 echo "== check-config"
@@ -222,8 +225,8 @@ ran check-config
 if wanted systemctl; then
     echo "== service"
     systemctl daemon-reload
-    systemctl enable frostwatch.service
-    systemctl restart frostwatch.service
+    systemctl enable frostwatch.service frostwatch-status-page.service
+    systemctl restart frostwatch.service frostwatch-status-page.service
     ran service
 
     echo "== checks"
@@ -231,7 +234,7 @@ if wanted systemctl; then
     systemctl --no-pager status frostwatch.service | head -5 || true
     ran checks
 else
-    skipped service "--skip systemctl: frostwatch.service not enabled or started"
+    skipped service "--skip systemctl: frostwatch.service and frostwatch-status-page.service not enabled or started"
     skipped checks "--skip systemctl: the broker persistence check needs the broker running under systemd"
 fi
 
@@ -242,5 +245,5 @@ for s in "${SKIPPED[@]}"; do echo "   skipped $s"; done
 echo
 echo "Done. Sensors publish to frostwatch/STATION/QUANTITY with a broker user per station:"
 echo "   sudo mosquitto_passwd $MOSQ/frostwatch.passwd STATION && sudo systemctl reload mosquitto"
-echo "Live state:  $PREFIX/venv/bin/frostwatch status --config $CONFIG"
+echo "Live state:  $PREFIX/venv/bin/frostwatch status --config $CONFIG  (or the status page, port 8470)"
 echo "Logs:        journalctl -u frostwatch -f"

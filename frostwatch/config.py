@@ -101,6 +101,7 @@ class Storage:
     rejection_retention_days: float = 30.0
     # rejection rows (and log lines) per MQTT topic and hour; beyond it they are counted in one row
     rejections_per_source_per_hour: int = 60
+    decisions_days: float = 60.0  # stored decisions (about 2-3 KB per block and evaluation) are kept this long
 
 
 @dataclass(frozen=True)
@@ -204,6 +205,7 @@ _SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
         "retention_days": (_NUM, 400.0, False),
         "rejection_retention_days": (_NUM, 30.0, False),
         "rejections_per_source_per_hour": ((int,), 60, False),
+        "decisions_days": (_NUM, 60.0, False),
     },
     "broker": {
         "host": ((str,), "127.0.0.1", False),
@@ -489,7 +491,8 @@ def config_from_dict(raw: dict, path: Path | None = None) -> Config:
         stations=tuple(stations),
         storage=Storage(path=storage_path, retention_days=float(storage_v["retention_days"]),
                         rejection_retention_days=float(storage_v["rejection_retention_days"]),
-                        rejections_per_source_per_hour=int(storage_v["rejections_per_source_per_hour"])),
+                        rejections_per_source_per_hour=int(storage_v["rejections_per_source_per_hour"]),
+                        decisions_days=float(storage_v["decisions_days"])),
         broker=Broker(**broker_v),
         forecast=Forecast(**forecast_v),
         alerts=dict(raw.get("alerts", {})),

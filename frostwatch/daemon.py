@@ -30,19 +30,18 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from frostwatch import health, sdnotify
-from frostwatch.advice import render as advice_render
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError, UsageError
 from frostwatch.night import Night
 from frostwatch.nightcache import NightCache
 from frostwatch.pipeline import LOOKBACK, Evaluator
+from frostwatch.status import HEARTBEAT_META, Liveness, decision_json
 from frostwatch.store import Store, daemon_state, to_ms
+from frostwatch.store import decisions as stored_decisions
 
 log = logging.getLogger("frostwatch.daemon")
 
-HEARTBEAT_META = "daemon.heartbeat"
 CLOCK_JUMP_S = 30.0  # wall clock against monotonic clock, per supervision round (about 1 s)
-BLOCKS_META = "daemon.blocks"
 DONE_META = "daemon.done."  # + job name -> the evening date it last ran for
 
 
@@ -206,6 +205,7 @@ class Core:
 
     def evaluate(self, now: dt.datetime | None = None, reason: str = "scheduled"):
         now = (now or self.clock()).astimezone(dt.UTC)
+        now = now.replace(microsecond=now.microsecond // 1000 * 1000)  # the store keeps milliseconds
         with self.eval_lock:
             series = self.cache.series(now)
             ev = self.evaluator.evaluate(now, series)
@@ -213,24 +213,17 @@ class Core:
                 self.outbox.submit(ev.alerts, now)
             self.last_eval_utc = now
             self.evaluations += 1
-            blocks = {}
-            d = self.evaluator.display
-            for p, dcs in zip(ev.projections, ev.decisions, strict=True):
+            for p in ev.projections:
                 self.last_projection[p.block] = p.predicted_min_c
-                plan = dcs.plan
-                blocks[p.block] = {
-                    "time": _iso(now), "block": p.block, "reason": reason,
-                    "level": dcs.level, "monitored": dcs.monitored,
-                    "station": p.station, "air_temp_c": p.air_temp_c, "wet_bulb_c": _r(p.wet_bulb_c),
-                    "dew_point_c": _r(p.dew_point_c), "predicted_min_c": _r(p.predicted_min_c),
-                    "predicted_min_at": _iso(p.predicted_min_at_utc), "band_c": p.band_c,
-                    "t10_crossing_at": _iso(p.crossings_utc.get("t10")), "regime": p.regime,
-                    "risk": plan.risk.value, "step": dcs.step.value, "action": advice_render.action(dcs.step, plan, d),
-                    "start_by": _iso(plan.ready_by_utc), "cautions": advice_render.cautions(plan, d),
-                    "notes": list(p.notes),
-                }
-            # projections and the blocks document: one transaction, one fsync per evaluation
-            daemon_state.save_evaluation(self.store, ev.projections, {BLOCKS_META: json.dumps(blocks)})
+            # projections and decisions: one transaction, one fsync per evaluation
+            daemon_state.save_evaluation(self.store, ev.projections, {}, ev.decisions)
+        # the same JSON `frostwatch status --json` shows for each block, on the status topic
+        live = Liveness(True, now, False, 0.0)
+        d = self.evaluator.display
+        blocks = {}
+        for dcs in ev.decisions:
+            blocks[dcs.block] = decision_json(dcs, dcs.block, now, live, d, float("inf"), self.cfg.block(dcs.block).name)
+            blocks[dcs.block]["evaluation"] = reason
         for b, doc in blocks.items():
             self.publish(f"blocks/{b}", doc)
         self.on_evaluated(now, blocks)
@@ -327,7 +320,8 @@ class Core:
 
     def job_housekeeping(self, now: dt.datetime, night: Night) -> None:
         """Retention (readings older than storage.retention_days, rejections older than
-        storage.rejection_retention_days) and a WAL checkpoint."""
+        storage.rejection_retention_days, decisions older than storage.decisions_days) and a WAL
+        checkpoint."""
         cut = to_ms(now - dt.timedelta(days=self.cfg.storage.retention_days))
         rejections_cut = to_ms(now - dt.timedelta(days=self.cfg.storage.rejection_retention_days))
         removed = 0
@@ -342,6 +336,7 @@ class Core:
             removed += n
             if n < 5000:
                 break
+        stored_decisions.delete_before(self.store, now - dt.timedelta(days=self.cfg.storage.decisions_days))
         with self.store.lock:
             self.store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
         log.info("housekeeping: %d old readings removed, WAL checkpointed", removed)
@@ -582,7 +577,7 @@ class Daemon:
             "queue": self.ingest.q.qsize(), "ingest": st.as_dict(),
             "evaluations": self.core.evaluations, "last_evaluation": _iso(self.core.last_eval_utc),
             "health_problems": sorted(self.core.health_active),
-            "stored_every_s": self.s.heartbeat_store_s,
+            "stored_every_s": self.s.heartbeat_store_s, "heartbeat_s": self.s.heartbeat_s,
             "problems": self.problems(),
         }
 

@@ -134,8 +134,8 @@ class Decision:
 
 
 def decision_to_doc(d: Decision) -> dict:
-    """The decision as a JSON-ready dict (the stored form)."""
-    return to_dict(d)
+    """The decision as a JSON-ready dict (the stored form; fields that are None are left out)."""
+    return to_dict(d, drop_none=True)
 
 
 def decision_from_doc(doc: dict) -> Decision:

@@ -94,15 +94,19 @@ def test_install_sh_lays_out_program_config_secrets_state_and_unit_in_the_root(t
     assert f"\nExecStart={exe} run --config {config}\n" in unit
     assert f"\nUser={trial['user']}\n" in unit
     assert f"LoadCredential=broker-password:{cred}\n" in unit
+    page = (root / "etc/systemd/system/frostwatch-status-page.service").read_text()
+    assert f"\nExecStart={exe} status-page --config {config}\n" in page  # its own process beside the daemon
+    assert f"\nUser={trial['user']}\n" in page
 
 
 def test_installed_unit_passes_systemd_analyze_verify(trial):
     exe = shutil.which("systemd-analyze")
     if exe is None:
         pytest.skip("systemd-analyze is not on this machine: the unit's syntax is not checked here")
-    unit = trial["root"] / "etc/systemd/system/frostwatch.service"
-    p = subprocess.run([exe, "verify", str(unit)], capture_output=True, text=True, timeout=120)
-    assert p.returncode == 0 and "frostwatch.service" not in p.stderr, p.stderr
+    for name in ("frostwatch.service", "frostwatch-status-page.service"):
+        unit = trial["root"] / "etc/systemd/system" / name
+        p = subprocess.run([exe, "verify", str(unit)], capture_output=True, text=True, timeout=120)
+        assert p.returncode == 0 and name not in p.stderr, p.stderr
 
 
 def test_installed_check_config_passes_on_the_config_install_sh_wrote(trial):

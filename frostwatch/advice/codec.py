@@ -34,10 +34,17 @@ def parse_utc(s: str) -> dt.datetime:
     return t.astimezone(dt.UTC)
 
 
-def to_dict(obj):
-    """A dataclass (or a value inside one) as plain JSON-ready values."""
+def to_dict(obj, drop_none: bool = False):
+    """A dataclass (or a value inside one) as plain JSON-ready values; `drop_none` leaves out
+    fields whose value is None (they read back as None)."""
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-        return {f.name: to_dict(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
+        out = {}
+        for f in dataclasses.fields(obj):
+            v = getattr(obj, f.name)
+            if v is None and drop_none:
+                continue
+            out[f.name] = to_dict(v, drop_none)
+        return out
     if isinstance(obj, enum.Enum):
         return obj.value
     if isinstance(obj, dt.datetime):
@@ -47,9 +54,9 @@ def to_dict(obj):
     if isinstance(obj, float):
         return None if not math.isfinite(obj) else obj
     if isinstance(obj, (list, tuple)):
-        return [to_dict(x) for x in obj]
+        return [to_dict(x, drop_none) for x in obj]
     if isinstance(obj, dict):
-        return {str(k): to_dict(v) for k, v in obj.items()}
+        return {str(k): to_dict(v, drop_none) for k, v in obj.items()}
     return obj
 
 
@@ -60,18 +67,24 @@ def _hints(cls) -> dict:
 
 def from_dict(cls, doc: dict, where: str = ""):
     """The dataclass `cls` from `to_dict`'s output. Unknown keys are ignored; missing keys take
-    the field's default (a missing required field raises ValueError)."""
+    None where the field may be None, else the field's default (else ValueError)."""
     if not isinstance(doc, dict):
         raise ValueError(f"{where or cls.__name__}: expected an object, got {type(doc).__name__}")
     hints = _hints(cls)
     kw = {}
     for f in dataclasses.fields(cls):
         if f.name not in doc:
-            if f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING:
+            if _optional(hints[f.name]):
+                kw[f.name] = None  # to_dict(drop_none=True) leaves None out
+            elif f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING:
                 raise ValueError(f"{where}{f.name}: missing")
             continue
         kw[f.name] = _decode(hints[f.name], doc[f.name], f"{where}{f.name}.")
     return cls(**kw)
+
+
+def _optional(tp) -> bool:
+    return typing.get_origin(tp) in (typing.Union, types.UnionType) and type(None) in typing.get_args(tp)
 
 
 def _decode(tp, value, where: str):

@@ -127,6 +127,9 @@ def _conditions(v: MethodVerdict | None) -> str:
 def _reach(plan: AdvicePlan, d: Display) -> str:
     """'the air temperature is projected to reach -0.2 °C at 23:11' (or the nearest true thing)."""
     what = f"the {TRIGGER_WORD[plan.trigger]} temperature"
+    now_c = plan.trigger_now_c
+    if now_c is not None and now_c <= plan.line_c and plan.risk is not Risk.MORNING:
+        return f"{what} is already at or below {d.temp(plan.line_c)} (now {d.temp(now_c)})"
     if plan.crossing_utc is not None:
         return f"{what} is projected to reach {d.temp(plan.line_c)} at {_t(d, plan.crossing_utc)}"
     if plan.risk in (Risk.LIKELY, Risk.NOW):
@@ -136,6 +139,9 @@ def _reach(plan: AdvicePlan, d: Display) -> str:
 
 def _short_reach(plan: AdvicePlan, d: Display) -> str:
     """The headline's form: 'air projected to reach -0.2 °C (T10 + margin) at 05:20'."""
+    now_c = plan.trigger_now_c
+    if now_c is not None and now_c <= plan.line_c and plan.risk is not Risk.MORNING:
+        return f"{TRIGGER_WORD[plan.trigger]} {d.temp(now_c)}, at or below T10 + margin {d.temp(plan.line_c)}"
     if plan.crossing_utc is None:
         return f"T10 + margin {d.temp(plan.line_c)} within reach"
     return f"{TRIGGER_WORD[plan.trigger]} projected to reach {d.temp(plan.line_c)} (T10 + margin) at {_t(d, plan.crossing_utc)}"

@@ -66,14 +66,17 @@ def _series_from_readings(readings):
 
 
 def replay_into_store(cfg, store, readings, progress=None):
-    """Run the pipeline over the stored readings of the logs' span; store projections and alerts."""
+    """Run the pipeline over the stored readings of the logs' span; store the projections, the
+    decisions and the alerts, as the daemon does."""
     from frostwatch import pipeline
+    from frostwatch.store import decisions as stored_decisions
 
     first = min(r.time_utc for r in readings)
     last = max(r.time_utc for r in readings)
     series = store.readings_window(first, last)
     evals = pipeline.run_replay(cfg, series, progress=progress)
     store.add_projections(p for ev in evals for p in ev.projections)
+    stored_decisions.save_decisions(store, (d for ev in evals for d in ev.decisions))
     for ev in evals:
         for a in ev.alerts:
             store.add_alert(a)

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from frostwatch.config import Config
+from frostwatch.decision import Decision
 from frostwatch.display import Display
 from frostwatch.errors import UsageError
 from frostwatch.night import Night, night_of_date
@@ -25,6 +26,7 @@ from frostwatch.reports.plots import plot_block_night
 from frostwatch.reports.settings import INSURANCE_NOTICE_H, ReportSettings, report_settings
 from frostwatch.reports.summary import BlockNight, block_night, runs_from_acks
 from frostwatch.store import Store, from_ms
+from frostwatch.store import decisions as stored_decisions
 from frostwatch.store import reports as q
 
 SPRINKLERS = ("overtree_sprinkler", "undertree_sprinkler")
@@ -61,6 +63,7 @@ class NightData:
     readings_count: int
     readings_sha256: str
     files: dict[str, str] = field(default_factory=dict)
+    decisions: list[Decision] = field(default_factory=list)  # the changes of the stored decisions, in time order
 
     def loss_blocks(self) -> list[BlockSection]:
         return [s for s in self.sections if s.bn.min_c is not None and s.bn.min_c <= s.bn.kill_10pct_c]
@@ -112,13 +115,27 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
         ]
         sections.append(BlockSection(bn, dusk_c, proj_dicts))
     rows = q.readings_digest_rows(store, start, end)
+    changes = [c for b in cfg.blocks for c in decision_changes(
+        stored_decisions.between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id))]
     return NightData(
         cfg=cfg, settings=settings, display=d, night=night, sections=sections, alerts=alerts,
         deliveries=deliveries, acks=acks,
         health=store.events(start, end, kind="health"),
         stage_changes=store.events(night.sunset_utc - dt.timedelta(days=1), end, kind="stage_change"),
         readings_count=len(rows), readings_sha256=_readings_sha256(rows),
+        decisions=sorted(changes, key=lambda x: (x.as_of_utc, x.block)),
     ), series
+
+
+def decision_changes(decisions: list[Decision]) -> list[Decision]:
+    """The decisions where the level, the step or the monitoring state changed (and the last)."""
+    out: list[Decision] = []
+    for d in decisions:
+        if not out or (d.level, d.step, d.monitored) != (out[-1].level, out[-1].step, out[-1].monitored):
+            out.append(d)
+    if decisions and out[-1] is not decisions[-1]:
+        out.append(decisions[-1])
+    return out
 
 
 def _r(v, nd=2):
@@ -222,6 +239,11 @@ def night_record(data: NightData) -> dict:
         } for a in data.alerts],
         "sensor_incidents": [{"time": iso(from_ms(e["time_utc_ms"])), "subject": e["subject"], "detail": e["detail"]}
                              for e in data.health],
+        "decisions": [{
+            "time": iso(x.as_of_utc), "block": x.block, "level": x.level, "rank": x.rank, "monitored": x.monitored,
+            "step": x.step.value, "predicted_min_c": x.projection.predicted_min_c,
+            "ready_by": iso(x.plan.ready_by_utc), "alert_key": x.alert_key,
+        } for x in data.decisions],
         "possible_loss_blocks": [s.bn.block for s in data.loss_blocks()],
         "insurance_notice_due": iso(data.notice_deadline_utc()) if data.loss_blocks() else None,
     }

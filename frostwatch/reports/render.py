@@ -7,7 +7,7 @@ import datetime as dt
 import html
 
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
-from frostwatch.alerts.rules import LEVELS
+from frostwatch.alerts.levels import ALL_LEVELS as LEVELS
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
@@ -171,6 +171,30 @@ def _alerts(data) -> str:
             "<th>sent</th><th>acknowledged</th></tr>" + "".join(rows) + "</table></div>")
 
 
+def _decisions(data) -> str:
+    """What frostwatch decided through the night (each change of level, step or monitoring), from the
+    stored decisions: the same words the alerts and the status page showed."""
+    from frostwatch.advice.message import compose, monitoring_reason
+    from frostwatch.advice.render import Notice
+
+    d = data.display
+    if not data.decisions:
+        return '<p id="decisions" class="note">No decision stored for this night.</p>'
+    rows = []
+    for x in data.decisions:
+        if x.monitored:
+            what = compose(x.block, x.level, x.step, x.plan, x.projection, d, Notice.STATE).action
+        else:
+            what = "NOT MONITORED: " + monitoring_reason(x.monitoring, d, x.as_of_utc)
+        pmin = d.temp(x.projection.predicted_min_c) if x.projection.predicted_min_c is not None else ""
+        rows.append(f'<tr><td class="num">{d.time(x.as_of_utc)}</td><td>{e(x.block)}</td><td>{level_span(x.level)}</td>'
+                    f'<td>{e(what)}</td><td class="num">{pmin}</td></tr>')
+    return ('<div class="scroll"><table id="decisions"><tr><th>time</th><th>block</th><th>level</th><th>advice</th>'
+            "<th>projected minimum</th></tr>" + "".join(rows) + "</table></div>"
+            '<p class="note">Each change of level, advice or monitoring as the daemon decided it (and its last decision); '
+            "the status page showed the same.</p>")
+
+
 def _events(data, events, empty: str, ident: str) -> str:
     d = data.display
     if not events:
@@ -202,6 +226,8 @@ in 30 minutes at the block's stage.</p>
 {blocks}
 <h2>Alerts, deliveries and acknowledgements</h2>
 {_alerts(data)}
+<h2>What frostwatch decided</h2>
+{_decisions(data)}
 <h2>Sensor incidents</h2>
 {_events(data, data.health, "No sensor incidents recorded.", "incidents")}
 <h2>Stage changes</h2>

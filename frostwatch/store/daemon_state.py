@@ -1,13 +1,15 @@
-"""SQL the daemon writes once per evaluation: the projections and the blocks' status document in
-one transaction (one fsync per evaluation instead of two; SD-card wear, bench/storage.py), and
-the daemon's events of one moment in one transaction."""
+"""SQL the daemon writes once per evaluation: the projections and the blocks' decisions in one
+transaction (one fsync per evaluation; SD-card wear, bench/storage.py), and the daemon's events of
+one moment in one transaction."""
 
 from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Iterable
 
+from frostwatch.decision import Decision
 from frostwatch.models import Projection
+from frostwatch.store import decisions as stored_decisions
 from frostwatch.store.db import Store, to_ms
 
 _PROJECTION_SQL = (
@@ -16,12 +18,14 @@ _PROJECTION_SQL = (
 )
 
 
-def save_evaluation(store: Store, projections: Iterable[Projection], meta: dict[str, str]) -> None:
-    """Projections and meta values (key -> text) in one transaction."""
+def save_evaluation(store: Store, projections: Iterable[Projection], meta: dict[str, str],
+                    decisions: Iterable[Decision] = ()) -> None:
+    """Projections, decisions and meta values (key -> text) in one transaction."""
     rows = [Store._projection_row(p) for p in projections]
     with store.transaction() as c:
         if rows:
             c.executemany(_PROJECTION_SQL, rows)
+        stored_decisions.save(c, decisions)
         for k, v in meta.items():
             c.execute("INSERT OR REPLACE INTO meta(key, value) VALUES (?,?)", (k, v))
 

@@ -100,13 +100,15 @@ def _query_rows(store: Store, sql: str, args: Iterable) -> list[tuple]:
         raise StoreError(f"{store.path}: cannot read for the report: {exc}") from None
 
 
-def latest_readings(store: Store, since_utc: dt.datetime) -> dict[tuple[str, str], tuple[int, float]]:
-    """{(station, quantity): (time_utc_ms, value)} of the newest reading since `since_utc`."""
+def latest_readings(store: Store, since_utc: dt.datetime,
+                    until_utc: dt.datetime | None = None) -> dict[tuple[str, str], tuple[int, float]]:
+    """{(station, quantity): (time_utc_ms, value)} of the newest reading since `since_utc` (and at
+    or before `until_utc` when given)."""
     rows = _query_rows(
         store,
-        "SELECT station, quantity, max(time_utc_ms), value FROM readings WHERE time_utc_ms >= ? "
+        "SELECT station, quantity, max(time_utc_ms), value FROM readings WHERE time_utc_ms BETWEEN ? AND ? "
         "GROUP BY station, quantity",
-        (to_ms(since_utc),),
+        (to_ms(since_utc), 2**62 if until_utc is None else to_ms(until_utc)),
     )
     return {(s, q): (int(ms), float(v)) for s, q, ms, v in rows}
 

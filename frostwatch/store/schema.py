@@ -113,6 +113,28 @@ CREATE TABLE ack_tokens_used (
     used_utc_ms INTEGER NOT NULL
 );
 """,
+    3: """
+-- each evaluation's decision per block, what every screen shows (frostwatch/decision.py; the SQL
+-- is frostwatch/store/decisions.py): the level, the step shown, the monitoring state and the
+-- projection as columns for queries, and the whole decision (with the advice plan) as JSON
+CREATE TABLE decisions (
+    id INTEGER PRIMARY KEY,
+    block TEXT NOT NULL,
+    time_utc_ms INTEGER NOT NULL,       -- as_of: the evaluation instant
+    level TEXT NOT NULL,                -- the level shown: "unmonitored" while not monitored
+    rank INTEGER NOT NULL,
+    frost_level TEXT NOT NULL,          -- the level the alert rules hold tonight
+    monitored INTEGER NOT NULL,         -- 1 while the block's crop-height sensor is fresh
+    step TEXT NOT NULL,                 -- the step shown with the level (get-ready, start-now, ...)
+    predicted_min_c REAL,
+    predicted_min_at_utc_ms INTEGER,
+    crossing_utc_ms INTEGER,            -- the trigger temperature's projected crossing of T10 + margin
+    ready_by_utc_ms INTEGER,
+    version INTEGER NOT NULL,           -- of the JSON document below
+    doc TEXT NOT NULL,                  -- the decision as JSON: projection, plan, monitoring, inputs
+    UNIQUE (block, time_utc_ms)
+);
+""",
 }
 
 SCHEMA_VERSION = max(MIGRATIONS)

@@ -117,3 +117,93 @@ def wait_until(pred, timeout_s: float, step_s: float = 0.1) -> bool:
     return pred()
 
 
+
+
+# ---- a site where it is the middle of the night now, and the status page as its own process ------
+
+
+def night_site_config(tmp: Path, port: int, daemon: str, local_hour: float = 1.5) -> Path:
+    """The demo farm moved in longitude (and given a matching fixed-offset zone) so that it is about
+    `local_hour` local solar time now: after dusk and before sunrise whenever the test runs, so the
+    daemon's watch window, dusk outlook and night rules all apply. `daemon` is the [daemon] body."""
+    now = dt.datetime.now(dt.UTC)
+    offset_h = (local_hour - (now.hour + now.minute / 60.0) + 12.0) % 24.0 - 12.0
+    zone_h = round(offset_h)
+    tz = "Etc/GMT" if zone_h == 0 else f"Etc/GMT{-zone_h:+d}"  # Etc/GMT+5 is five hours behind UTC
+    text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    text = (text.replace("port = 1883", f"port = {port}")
+            .replace("longitude = -120.30", f"longitude = {offset_h * 15.0:.3f}")
+            .replace('timezone = "America/Los_Angeles"', f'timezone = "{tz}"'))
+    p = tmp / "site.toml"
+    p.write_text(text + "\n[daemon]\n" + daemon, encoding="utf-8")
+    return p
+
+
+def crop_history_msgs(stations: dict[str, list[tuple[dt.datetime, float]]], prefix: str = "frostwatch",
+                      quantity: str = "air_temperature") -> list[tuple[str, bytes]]:
+    """One MQTT message per (time, value) of each station, in time order within a station."""
+    out = []
+    for st, pts in stations.items():
+        for t, v in pts:
+            out.append((f"{prefix}/{st}/{quantity}",
+                        json.dumps({"time": t.isoformat().replace("+00:00", "Z"), "value": v}).encode()))
+    return out
+
+
+def free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+class StatusPageProc:
+    """`frostwatch status-page` in a subprocess on a free loopback port (stopped by its own pid)."""
+
+    def __init__(self, config: Path):
+        self.config = config
+        self.port = free_port()
+        self.log = config.parent / "status-page.log"
+        self.proc: subprocess.Popen | None = None
+
+    @property
+    def url(self) -> str:
+        return f"http://127.0.0.1:{self.port}/"
+
+    def start(self, timeout_s: float = 30.0) -> None:
+        import urllib.request
+
+        f = self.log.open("ab")
+        self.proc = subprocess.Popen(
+            [sys.executable, "-m", "frostwatch", "status-page", "--config", str(self.config), "--port", str(self.port)],
+            stdout=f, stderr=subprocess.STDOUT, env=dict(os.environ, PYTHONUNBUFFERED="1"),
+        )
+
+        def up() -> bool:
+            try:
+                with urllib.request.urlopen(self.url + "healthz", timeout=2) as r:
+                    return r.status == 200
+            except OSError:
+                return False
+
+        assert wait_until(up, timeout_s), self.log.read_text(errors="replace")
+
+    def get(self, path: str = "") -> str:
+        import urllib.request
+
+        with urllib.request.urlopen(self.url + path, timeout=20) as r:
+            return r.read().decode()
+
+    def stop(self) -> None:
+        if self.proc is not None and self.proc.poll() is None:
+            self.proc.send_signal(signal.SIGTERM)
+            try:
+                self.proc.wait(10)
+            except subprocess.TimeoutExpired:
+                self.proc.kill()
+                self.proc.wait(10)
+
+
+def run_cli(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "frostwatch", *args], capture_output=True, text=True, timeout=300, cwd=cwd)

@@ -1,9 +1,13 @@
 """The local status page on a real loopback HTTP server: content, phone rendering in headless
-Chromium, the token for LAN binds, and acknowledgement links."""
+Chromium, the token for LAN binds, and acknowledgement links.
+
+The page shows the stored decisions of the replayed demo night; a heartbeat written at the page's
+clock stands for a running daemon (without one every block is not monitored: see the last tests)."""
 
 from __future__ import annotations
 
 import datetime as dt
+import json
 import threading
 import urllib.error
 import urllib.request
@@ -24,8 +28,11 @@ TOKEN = "s3cret-token-for-tests-0123456789"
 def running(frost_night_store):
     servers = []
 
-    def start(bind="127.0.0.1", token=None, now=NOW):
+    def start(bind="127.0.0.1", token=None, now=NOW, daemon_alive=True):
         cfg = load_config(frost_night_store)
+        with Store.open(cfg.storage.path) as store:
+            beat = {"time": (now - dt.timedelta(seconds=40)).isoformat(), "stored_every_s": 300} if daemon_alive else None
+            store.set_meta("daemon.heartbeat", json.dumps(beat))
         srv = make_server(cfg, bind, 0, token=token, now_fn=lambda: now, refresh_s=30)
         threading.Thread(target=srv.serve_forever, daemon=True).start()
         servers.append(srv)
@@ -56,9 +63,43 @@ def test_page_shows_every_block_with_temperatures_alerts_and_refresh(running):
     assert '<meta http-equiv="refresh" content="30">' in body
     assert 'name="viewport"' in body and "<svg" in body
     assert "T10 -2.2 °C" in body and "2027-04-15 04:30 PDT" in body
-    assert "ACT" in body.upper() and "advises; the grower decides" in body
+    assert 'data-level="act"' in body and "keep the wind machines running" in body
+    assert "advises; the grower decides" in body and "NOT MONITORED" not in body
     code, doc, _ = _get(f"http://127.0.0.1:{port}/status.json")
     assert code == 200 and '"block": "east"' in doc
+
+
+def test_status_json_is_the_contract_document_of_the_stored_decisions(running, frost_night_store):
+    """DESIGN.md 1.4 second round: {site, as_of, daemon_alive, blocks: [{block, level, rank,
+    monitored, as_of, reason}]}, read from the stored decisions (the evaluation at or before now)."""
+    from frostwatch.store import decisions as stored
+
+    _, port = running()
+    code, body, headers = _get(f"http://127.0.0.1:{port}/status.json")
+    doc = json.loads(body)
+    assert code == 200 and headers["Content-Type"] == "application/json"
+    assert doc["site"] == "Cedar Bench Orchard" and doc["daemon_alive"] is True
+    assert doc["as_of"] == "2027-04-15T11:30:00Z"
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        latest = stored.latest(store, until_utc=NOW)
+    for b in doc["blocks"]:
+        assert {"block", "level", "rank", "monitored", "as_of", "reason"} <= set(b)
+        assert isinstance(b["rank"], int) and isinstance(b["monitored"], bool) and b["reason"]
+        dcs = latest[b["block"]]
+        assert (b["level"], b["rank"], b["monitored"]) == (dcs.level, dcs.rank, True)
+        assert b["as_of"] == dcs.as_of_utc.isoformat().replace("+00:00", "Z")
+        assert b["projection"]["predicted_min_c"] == dcs.projection.predicted_min_c
+
+
+def test_without_a_running_daemon_no_block_is_green_and_each_says_why(running):
+    _, port = running(daemon_alive=False)
+    _, body, _ = _get(f"http://127.0.0.1:{port}/")
+    assert body.count('class="card unmonitored"') == 3 and 'class="card monitored' not in body
+    assert "never run on this store" in body and "no alert" not in body.lower()
+    doc = json.loads(_get(f"http://127.0.0.1:{port}/status.json")[1])
+    assert doc["daemon_alive"] is False
+    assert {(b["level"], b["rank"], b["monitored"]) for b in doc["blocks"]} == {("unmonitored", 4, False)}
+    assert {b["frost_level"] for b in doc["blocks"]} >= {"act"}  # the last frost level is kept
 
 
 def test_page_renders_on_a_phone_in_headless_chromium(running, tmp_path):
