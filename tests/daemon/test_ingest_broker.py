@@ -196,7 +196,7 @@ def test_ready_watchdog_and_status(site, mosquitto, tmp_path):
         publish_all(pub, reading_msgs(30, NOW - dt.timedelta(minutes=30)))
         pub.loop_stop()
         assert wait_until(lambda: db_count(db) >= 30, 20)
-        assert wait_until(lambda: db_count(db, "SELECT count(*) FROM meta WHERE key='daemon.blocks'") == 1, 20)
+        assert wait_until(lambda: db_count(db, "SELECT count(DISTINCT block) FROM decisions") == 3, 20)
         out = subprocess.run(
             [sys.executable, "-m", "frostwatch", "status", "--config", str(cfg), "--json"],
             capture_output=True, text=True, timeout=60,
@@ -208,6 +208,7 @@ def test_ready_watchdog_and_status(site, mosquitto, tmp_path):
         assert {b["block"] for b in doc["blocks"]} == {"east", "river", "hill"}
         assert all(b["level"] for b in doc["blocks"])
         assert doc["daemon"]["pid"] == d.proc.pid and doc["daemon"]["broker_connected"] is True
+        assert doc["daemon_alive"] is True
         assert d.terminate() == 0
         got = []
         srv.settimeout(5)
