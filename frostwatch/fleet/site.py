@@ -245,17 +245,14 @@ class StateFilter:
 
 
 def block_state_from_status_doc(doc: Mapping, rank: int, acknowledged: bool | None) -> dict:
-    """A per-block state dict from the daemon's `{status}/blocks/BLOCK` document.
-
-    `monitored` is judged here as "the evaluation had a crop-height reading to project from"
-    (the document's `station` and `air_temp_c`); the stored decision of the one-truth issue
-    replaces this feed when it lands.
-    """
-    monitored = doc.get("station") is not None and doc.get("air_temp_c") is not None
-    reason = None if monitored else "no fresh crop-height reading at the last evaluation"
+    """A per-block state dict from the daemon's `{status}/blocks/BLOCK` document: the block as
+    `frostwatch status --json` shows it (`frostwatch.status.decision_json` of the stored decision),
+    so `monitored` and its `reason` are the decision's own."""
+    p = doc.get("projection") or {}
+    monitored = bool(doc.get("monitored"))
     return {
         "block": doc["block"], "level": doc.get("level") or "all-clear", "rank": rank, "monitored": monitored,
-        "as_of": doc.get("time"), "predicted_min_c": doc.get("predicted_min_c"), "band_c": doc.get("band_c"),
-        "predicted_min_at": doc.get("predicted_min_at"), "t10_crossing_at": doc.get("t10_crossing_at"),
-        "action": doc.get("action"), "acknowledged": acknowledged, "reason": reason,
+        "as_of": doc.get("as_of"), "predicted_min_c": p.get("predicted_min_c"), "band_c": p.get("band_c"),
+        "predicted_min_at": p.get("predicted_min_at"), "t10_crossing_at": p.get("t10_crossing_at"),
+        "action": doc.get("action"), "acknowledged": acknowledged, "reason": None if monitored else doc.get("reason"),
     }

@@ -179,10 +179,15 @@ def test_state_filter_sends_changes_and_refreshes_the_rest():
 
 
 def test_block_state_from_the_daemons_block_document():
-    d = {"time": "2027-04-15T09:12:00Z", "block": "east", "level": "act", "station": "east-low", "air_temp_c": 0.4,
-         "predicted_min_c": -2.0, "band_c": 0.9, "predicted_min_at": "2027-04-15T12:40:00Z",
-         "t10_crossing_at": None, "action": "start the wind machines now"}
+    """The daemon's block document is the block of `status --json` (the stored decision)."""
+    d = {"as_of": "2027-04-15T09:12:00Z", "block": "east", "level": "act", "rank": 4, "monitored": True,
+         "reason": "projected minimum -2.0 °C reaches T10 + margin -0.2 °C", "action": "start the wind machines now",
+         "projection": {"station": "east-low", "air_temp_c": 0.4, "predicted_min_c": -2.0, "band_c": 0.9,
+                        "predicted_min_at": "2027-04-15T12:40:00Z", "t10_crossing_at": None}}
     s = fs.block_state_from_status_doc(d, rank=4, acknowledged=True)
-    assert (s["level"], s["rank"], s["monitored"], s["acknowledged"], s["as_of"]) == ("act", 4, True, True, d["time"])
-    blind = fs.block_state_from_status_doc({**d, "station": None, "air_temp_c": None}, rank=4, acknowledged=None)
-    assert blind["monitored"] is False and "no fresh crop-height reading" in blind["reason"]
+    assert (s["level"], s["rank"], s["monitored"], s["acknowledged"], s["as_of"]) == ("act", 4, True, True, d["as_of"])
+    assert s["predicted_min_c"] == -2.0 and s["reason"] is None
+    blind = fs.block_state_from_status_doc({**d, "level": "unmonitored", "monitored": False,
+                                            "reason": "no reading from its crop-height sensor (east-low)"},
+                                           rank=4, acknowledged=None)
+    assert blind["monitored"] is False and "no reading" in blind["reason"] and blind["level"] == "unmonitored"
