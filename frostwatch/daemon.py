@@ -209,14 +209,17 @@ class Core:
         with self.eval_lock:
             series = self.cache.series(now)
             ev = self.evaluator.evaluate(now, series)
-            if ev.alerts:
-                self.outbox.submit(ev.alerts, now)
+            # projections and decisions first (one transaction, one fsync per evaluation), then
+            # the alerts written from them: a stored alert always has its decision beside it
+            try:
+                daemon_state.save_evaluation(self.store, ev.projections, {}, ev.decisions)
+            finally:
+                if ev.alerts:
+                    self.outbox.submit(ev.alerts, now)
             self.last_eval_utc = now
             self.evaluations += 1
             for p in ev.projections:
                 self.last_projection[p.block] = p.predicted_min_c
-            # projections and decisions: one transaction, one fsync per evaluation
-            daemon_state.save_evaluation(self.store, ev.projections, {}, ev.decisions)
         # the same JSON `frostwatch status --json` shows for each block, on the status topic
         live = Liveness(True, now, False, 0.0)
         d = self.evaluator.display

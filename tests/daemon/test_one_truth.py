@@ -88,7 +88,7 @@ def test_page_status_alert_and_report_show_the_same_decision(tmp_path, mosquitto
         east = next(b for b in doc["blocks"] if b["block"] == "east")
         # the page and the command agree
         assert without_ages(east) == without_ages(next(b for b in status["blocks"] if b["block"] == "east"))
-        assert (east["level"], east["rank"], east["monitored"]) == ("critical", 5, True), east
+        assert (east["level"], east["rank"], east["monitored"]) == ("critical", 5, True), json.dumps(east, indent=1)
         assert east["as_of"] == alert_time.isoformat().replace("+00:00", "Z")  # the alert's own evaluation
         assert east["action"] == advice and east["headline"] == message.splitlines()[0]
         assert f"Advice: {advice}." in message
