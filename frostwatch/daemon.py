@@ -30,6 +30,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from frostwatch import health, sdnotify
+from frostwatch import reload as config_reload
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError, UsageError
 from frostwatch.night import Night
@@ -187,6 +188,31 @@ class Core:
         self.on_evaluated: Callable[[dt.datetime, dict], None] = lambda now, blocks: None  # the fleet publisher
         self.job_runs: dict[str, int] = {}
         self.job_log: list[tuple[str, dt.date, dt.datetime]] = []
+        self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
+
+    # -- the config in force ---------------------------------------------------------------------
+    def reload_config(self, now: dt.datetime, force: bool = False) -> bool:
+        """Apply a changed config file's block keys (stage, thresholds, ...) from now on
+        (`frostwatch.reload`); called before every evaluation and on SIGHUP (`force`). A file that
+        does not load is refused, logged and recorded; the config in force stays."""
+        fp = config_reload.fingerprint(self.cfg.path)
+        if not force and (fp is None or fp == self._cfg_fingerprint):
+            return False
+        self._cfg_fingerprint = fp
+        r = config_reload.apply_config_change(self.cfg)
+        if r.error:
+            log.error("config %s changed but does not load; the config in force stays: %s", self.cfg.path, r.error)
+            self.store.add_event(now, "daemon", "config reload refused", r.error[:2000])
+            return False
+        if r.waiting:
+            log.warning("config changes that take effect only after a restart: %s", "; ".join(r.waiting))
+        if not r.changed:
+            return False
+        self.cfg = r.cfg
+        self.evaluator.cfg = r.cfg
+        log.info("config reloaded: %s", "; ".join(r.applied))
+        self.store.add_event(now, "daemon", "config reloaded", "; ".join(r.applied)[:2000])
+        return True
 
     # -- evaluations ---------------------------------------------------------------------------
     def in_watch_window(self, now: dt.datetime) -> bool:
@@ -207,6 +233,7 @@ class Core:
         now = (now or self.clock()).astimezone(dt.UTC)
         now = now.replace(microsecond=now.microsecond // 1000 * 1000)  # the store keeps milliseconds
         with self.eval_lock:
+            self.reload_config(now)  # a stage or threshold change takes effect at this evaluation
             series = self.cache.series(now)
             ev = self.evaluator.evaluate(now, series)
             # projections and decisions first (one transaction, one fsync per evaluation), then
@@ -465,6 +492,7 @@ class Daemon:
             self.uplink = SiteUplink(cfg, self.fleet)
             self.core.on_evaluated = self._publish_site_state
         self.stop_event = threading.Event()
+        self.reload_requested = threading.Event()
         self.started_utc = clock()
         self.last_beat = time.monotonic()
         self._last_beat_stored = -1e9
@@ -665,6 +693,12 @@ class Daemon:
         signal.signal(signal.SIGTERM, lambda *_: self.request_stop())
         signal.signal(signal.SIGINT, lambda *_: self.request_stop())
         signal.signal(signal.SIGUSR1, lambda *_: dump_stacks())
+        # SIGHUP (systemctl reload frostwatch): reload the config's block keys and evaluate now
+        signal.signal(signal.SIGHUP, lambda *_: self.reload_requested.set())
+
+    def _reload_now(self) -> None:
+        self.core.reload_config(self.clock(), force=True)
+        self.core.evaluate(reason="reload")
 
     def run(self) -> int:
         self._signals()
@@ -694,6 +728,9 @@ class Daemon:
         reported: tuple = ()
         self._wall_mono = (time.time(), time.monotonic())
         while not self.stop_event.wait(1.0):
+            if self.reload_requested.is_set():
+                self.reload_requested.clear()
+                self.sched.add_job(self._guard("reload", self._reload_now))
             try:
                 self.check_clock()
             except Exception:  # noqa: BLE001 - supervision carries on

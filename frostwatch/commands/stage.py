@@ -3,7 +3,8 @@
 `frostwatch stage --config C --block ID --stage STAGE` checks the stage against the block's crop
 table, rewrites that block's `stage = "..."` line of the TOML file in place (comments and every
 other line kept byte for byte), and records a `stage_change` event in the store so the night log
-shows it. `frostwatch stage --config C --suggest` prints, per block, the stage that growing-degree
+shows it. A running daemon rereads the changed file before its next evaluation and uses the new
+stage's T10 and T90 from then on (`frostwatch.reload`); SIGHUP makes it reload and evaluate at once. `frostwatch stage --config C --suggest` prints, per block, the stage that growing-degree
 hours since `biofix_date` suggest: a suggestion the grower confirms, never applied.
 
 Raises UsageError (exit 2) for an unknown block or stage (listing the known ones) and for a config
@@ -129,7 +130,8 @@ def cmd_stage(args) -> int:
     print(f"  T10 {d.temp(doc['kill_10pct_c'])}, T90 {d.temp(doc['kill_90pct_c'])} ({doc['source']})")
     if manual:
         print("  note: this block sets kill_10pct_c/kill_90pct_c by hand; that override still applies")
-    print("  a daemon already running uses the new stage once it is restarted or reloads its config")
+    print("  a running daemon uses the new stage from its next evaluation (it rereads the changed file); "
+          "`systemctl reload frostwatch` makes it evaluate at once")
     return 0
 
 
