@@ -14,7 +14,8 @@ record from 2027-04-14 12:00 to 2027-04-17 12:00 PDT (UTC-07:00):
 * 2027-04-15  windy, dry, well-mixed advective cold night; no protection runs.
 * 2027-04-16  low overcast, mild; no protection runs.
 
-plus ``broken-rows.csv``, a short log with one of each kind of bad row.
+plus ``broken-rows.csv``, a short log with one of each kind of bad row, and then the scenario
+nights of ``scenarios/`` (see "scenario nights" below; a seed of their own).
 
 Times in this script are hours after 12:00 local on the evening's date, so
 21.75 is 21:45 and 18.25 is 06:15 the next morning.
@@ -466,6 +467,178 @@ def write_broken_rows(path):
             fh.write(row + "\n")
 
 
+# ================================================================ scenario nights (scenarios/)
+#
+# Alder Flat, an invented farm, on nights when protection runs; each night has a config and an
+# expected-advice table worked by hand (.md) beside it in scenarios/:
+#
+# * 2027-04-20  sprinklers through sunrise: the sprinkled block's own air is wetted, a dry
+#               reference station outside it (scenario A; a second config, A', has no reference).
+# * 2027-04-21  a site-wide tower with a 4 C inversion and a wind-machine block with no tower of
+#               its own; a second fan block whose own tower shows 3 C, holding T10 but not
+#               T10 + margin (scenario B).
+# * 2027-04-22  a drying night (the dew point falls 0.75 C/h), with a heater block and an
+#               under-tree sprinkler block (scenario C).
+
+SCENARIOS = HERE / "scenarios"
+
+SCENARIO_SEED = 20270420  # the scenario nights have a seed of their own: the demo files stay as they were
+
+
+def night_air(t0_h, sunrise_h, t_day, t_sunset, t0_c, tmin_c, tend_c, sunset_h):
+    """Crop-height air on a clear night: the afternoon, Reuter's square-root fall from t0 to
+    `tmin_c` at sunrise, then the morning warming to `tend_c` at noon."""
+    temp = np.empty(N_T)
+    day = T_H < t0_h
+    temp[day] = hermite(T_H[day], [(0.0, t_day - 2.5, 1.2), (clock("15:30"), t_day, 0.0),
+                                   (sunset_h, t_sunset, -2.6), (t0_h, t0_c, -1.2)])
+    b = (tmin_c - t0_c) / np.sqrt(sunrise_h - t0_h)
+    night = (T_H >= t0_h) & (T_H <= sunrise_h)
+    temp[night] = t0_c + b * np.sqrt(T_H[night] - t0_h)
+    morning = T_H > sunrise_h
+    temp[morning] = tmin_c + (tend_c - tmin_c) * morning_shape(T_H[morning], sunrise_h, 24.0)
+    return temp
+
+
+def flag_times(on_h, off_h):
+    return [(on_h, off_h)] if on_h is not None else []
+
+
+def first_at_or_below(values, level, after_h=0.0):
+    idx = np.nonzero((values <= level) & (T_H >= after_h))[0]
+    return float(T_H[idx[0]]) if len(idx) else None
+
+
+def wet_bulb_magnus(t_c, td_c, p_hpa=975.0):
+    """A psychrometer-equation wet bulb (WMO ice-bulb coefficient, Magnus over ice below 0 C),
+    solved by bisection: only used here to place the sprinkler start in the invented data; the
+    tests check against psychrolib."""
+    e = e_water(td_c)
+    lo, hi = np.minimum(td_c, t_c) - 1.0, np.asarray(t_c, dtype=float) + 0.0
+    for _ in range(40):
+        mid = 0.5 * (lo + hi)
+        ei = np.where(mid < 0, 6.112 * np.exp(22.46 * mid / (272.62 + mid)), e_water(mid))
+        f = ei - 5.75e-4 * p_hpa * (t_c - mid) - e
+        hi = np.where(f > 0, mid, hi)
+        lo = np.where(f > 0, lo, mid)
+    return 0.5 * (lo + hi)
+
+
+# ------------------------------------------------------------ A: sprinklers through sunrise
+
+def sprinklers_sunrise(rng):
+    """2027-04-20: over-tree sprinklers in block vale through sunrise; `met` is a dry reference
+    station outside the sprinkled area."""
+    log = Log(dt.date(2027, 4, 20))
+    sunset, t0, sunrise = clock("19:56"), clock("21:56"), clock("06:04")
+    met_air = night_air(t0, sunrise, 13.5, 8.8, 3.0, -4.0, 9.0, sunset)
+    unprot = met_air - 0.2  # the block a little colder than the station outside it
+    td_dry = np.interp(T_H, [0, sunset, t0, sunrise, clock("09:00"), 24], [-3.0, -5.5, -6.5, -7.0, -6.0, -4.5])
+    td_dry = np.minimum(td_dry, met_air - 0.3)
+    wb = wet_bulb_magnus(unprot, np.minimum(td_dry, unprot))
+    cross = first_at_or_below(wb, -1.2, after_h=sunset)  # T10 + margin of sweet cherry, full bloom
+    spr_on = np.floor((cross - 0.25) * 6) / 6  # on the 10-minute grid, about 15-25 min before
+    spr_off = clock("09:30")
+    # running: latent heat holds the air near -1 C; after sunrise it follows the warming air
+    level = np.clip(-1.05 + 0.12 * (unprot + 0.9), -1.35, -1.05)
+    held = level + softplus(unprot - level, 0.3)
+    running = unprot + (held - unprot) * ramp_on(T_H, spr_on, 0.12)
+    after = unprot + (np.interp(spr_off, T_H, running) - unprot) * np.exp(-(T_H - spr_off) / 0.25)
+    vale = np.where(T_H < spr_on, unprot, np.where(T_H < spr_off, running, after))
+    wet = ramp_on(T_H, spr_on, 0.3) * (T_H < spr_off) + np.where(T_H >= spr_off, np.exp(-(T_H - spr_off) / 0.5), 0.0)
+    vale_td = td_dry + (np.minimum(vale - 0.6, 0.0) - td_dry).clip(0) * wet  # the spray moistens the block's air
+    vale_td = np.minimum(vale_td + rng.normal(0, 0.06, N_T), vale - 0.2)
+
+    vale_obs = vale + 0.6 * temp_noise(rng, white=0.03, red=0.04)
+    met_obs = met_air + temp_noise(rng, white=0.03, red=0.04)
+    log.add("vale-low", "air_temperature", T_H, vale_obs, "degC")
+    log.add("met", "air_temperature", T_H, met_obs, "degC")
+    ts = T_H[SLOW]
+    log.add("vale-low", "dew_point_temperature", ts, vale_td[SLOW], "degC")
+    log.add("met", "dew_point_temperature", ts, td_dry[SLOW] + rng.normal(0, 0.05, len(ts)), "degC")
+    calm = np.clip(np.interp(ts, [0, 6, 8.5, 20, 24], [2.4, 2.0, 0.7, 0.7, 2.2]) * (1 + red_noise(rng, len(ts), 0.25, 0.6)), 0.2, 3.5)
+    log.add("met", "wind_speed", ts, calm, "m s-1", fmt="{:.1f}")
+    add_flag(log, "vale-low", "sprinkler_running", [(spr_on, spr_off)])
+    return log, {"sprinklers_on": log.stamp(spr_on), "sprinklers_off": log.stamp(spr_off)}
+
+
+# -------------------------------------------------- B: a site-wide tower, and a margin case
+
+def site_tower(rng):
+    """2027-04-21: `mast`, a tower with no block, 4 C above block ridge (no tower of its own,
+    350 m away); block knoll's own tower 3 C above it."""
+    log = Log(dt.date(2027, 4, 21))
+    sunset, t0, sunrise = clock("19:57"), clock("21:57"), clock("06:02")
+    ridge = night_air(t0, sunrise, 14.0, 9.0, 3.2, -1.2, 9.5, sunset)
+    knoll = night_air(t0, sunrise, 13.8, 8.8, 2.8, -3.0, 9.3, sunset)
+    inv4 = hermite(T_H, [(0.0, -0.8, 0.0), (sunset, 0.5, 1.5), (clock("21:00"), 3.2, 0.9), (clock("22:30"), 4.0, 0.0),
+                         (clock("05:30"), 4.0, 0.0), (clock("07:30"), 1.0, -1.5), (clock("09:30"), -0.6, 0.0),
+                         (24.0, -0.8, 0.0)])
+    inv3 = inv4 * 0.75
+    td = np.interp(T_H, [0, sunset, t0, sunrise, 24], [-2.0, -4.5, -5.5, -6.0, -3.5])
+    for sid, air in (("ridge-low", ridge), ("knoll-low", knoll)):
+        log.add(sid, "air_temperature", T_H, air + temp_noise(rng, white=0.03, red=0.04), "degC")
+    log.add("mast", "air_temperature", T_H, ridge + inv4 + temp_noise(rng, white=0.03, red=0.04), "degC")
+    log.add("knoll-tower", "air_temperature", T_H, knoll + inv3 + temp_noise(rng, white=0.03, red=0.04), "degC")
+    ts = T_H[SLOW]
+    for sid, air in (("ridge-low", ridge), ("knoll-low", knoll)):
+        rh = rel_humidity(air[SLOW], np.minimum(td[SLOW], air[SLOW] - 0.3)) + rng.normal(0, 0.5, len(ts))
+        log.add(sid, "relative_humidity", ts, np.clip(rh, 1, 100), "%", fmt="{:.1f}")
+    calm = np.clip(np.interp(ts, [0, 6, 8.5, 20, 24], [2.2, 1.8, 0.6, 0.6, 2.0]) * (1 + red_noise(rng, len(ts), 0.25, 0.6)), 0.2, 2.3)
+    log.add("ridge-low", "wind_speed", ts, calm, "m s-1", fmt="{:.1f}")
+    add_flag(log, "ridge-low", "wind_machine_running", [])
+    add_flag(log, "knoll-low", "wind_machine_running", [])
+    return log, {}
+
+
+# --------------------------------------------- C: a drying night, heaters and under-tree water
+
+def drying_night(rng):
+    """2027-04-22: dry air moves in; block south (over-tree sprinklers, not yet running) sees its
+    dew point fall 0.75 C/h; block north has heaters; block flat has under-tree sprinklers that
+    run from 01:00 to 07:40; `met` is the site's dry reference station."""
+    log = Log(dt.date(2027, 4, 22))
+    sunset, t0, sunrise = clock("19:58"), clock("21:58"), clock("06:00")
+    south = night_air(t0, sunrise, 14.5, 9.5, 3.6, -2.0, 10.0, sunset)
+    north = night_air(t0, sunrise, 14.2, 9.2, 3.2, -2.5, 9.8, sunset)
+    flat = night_air(t0, sunrise, 14.0, 9.0, 2.8, -2.6, 9.6, sunset)
+    met = night_air(t0, sunrise, 14.3, 9.3, 3.4, -2.3, 9.9, sunset)
+    # the dew point: -1 C at 20:00, falling 0.75 C/h to -7 C at 04:00, then steady, rising by day
+    td = np.interp(T_H, [0, clock("20:00"), clock("04:00"), clock("08:00"), 24], [1.0, -1.0, -7.0, -7.0, -5.0])
+    under_on, under_off = clock("01:00"), clock("07:40")
+    flat_run = flat + 0.8 * ramp_on(T_H, under_on, 0.3) * (T_H < under_off) \
+        + np.where(T_H >= under_off, 0.8 * np.exp(-(T_H - under_off) / 0.3), 0.0)
+    inv_n = hermite(T_H, [(0.0, -0.8, 0.0), (sunset, 0.5, 1.5), (clock("22:30"), 3.5, 0.0), (clock("05:30"), 3.5, 0.0),
+                          (clock("08:00"), 0.0, -1.0), (24.0, -0.8, 0.0)])
+    inv_f = inv_n * (2.5 / 3.5)
+    blocks = (("south-low", south), ("north-low", north), ("flat-low", flat_run), ("met", met))
+    for sid, air in blocks:
+        log.add(sid, "air_temperature", T_H, air + temp_noise(rng, white=0.03, red=0.04), "degC")
+    log.add("north-tower", "air_temperature", T_H, north + inv_n + temp_noise(rng, white=0.03, red=0.04), "degC")
+    log.add("flat-tower", "air_temperature", T_H, flat + inv_f + temp_noise(rng, white=0.03, red=0.04), "degC")
+    ts = T_H[SLOW]
+    flat_td = td + (np.minimum(flat_run - 1.0, 0.0) - td).clip(0) * 0.5 * ramp_on(T_H, under_on, 0.3) * (T_H < under_off)
+    for sid, air, dew in (("south-low", south, td), ("north-low", north, td - 0.2), ("flat-low", flat_run, flat_td),
+                          ("met", met, td - 0.3)):
+        dew = np.minimum(dew, air - 0.3)
+        log.add(sid, "dew_point_temperature", ts, dew[SLOW] + rng.normal(0, 0.05, len(ts)), "degC")
+    calm = np.clip(np.interp(ts, [0, 6, 8.5, 20, 24], [2.5, 2.0, 0.8, 0.8, 2.0]) * (1 + red_noise(rng, len(ts), 0.25, 0.6)), 0.2, 2.4)
+    log.add("met", "wind_speed", ts, calm, "m s-1", fmt="{:.1f}")
+    add_flag(log, "south-low", "sprinkler_running", [])
+    add_flag(log, "flat-low", "sprinkler_running", [(under_on, under_off)])
+    return log, {"undertree_on": log.stamp(under_on), "undertree_off": log.stamp(under_off)}
+
+
+def write_scenarios():
+    rng = np.random.default_rng(SCENARIO_SEED)
+    for name, make in (("2027-04-20-sprinklers-sunrise.csv", sprinklers_sunrise),
+                       ("2027-04-21-site-tower.csv", site_tower),
+                       ("2027-04-22-drying-night.csv", drying_night)):
+        log, facts = make(rng)
+        n = log.write(SCENARIOS / name)
+        print(f"scenarios/{name}: {n} readings" + "".join(f"; {k} {v}" for k, v in facts.items()))
+
+
 # -------------------------------------------------------------------- main
 
 def crossing(times, values, level):
@@ -493,6 +666,7 @@ def main():
         for level in (-0.2, -2.2):
             hit = crossing(T_H, unprotected, level)
             print(f"  first <= {level} C at {frost.stamp(hit)}")
+    write_scenarios()  # with a seed of their own: the files above are unchanged
 
 
 if __name__ == "__main__":

@@ -65,6 +65,38 @@ def _series_from_readings(readings):
     return out
 
 
+def _signature(dc) -> tuple:
+    """What a grower would notice change in a block's decision: level, step, whether the method is
+    advised (and why not), whether it is enough, and the stop rule's verdict and basis."""
+    plan = dc.plan
+    v = plan.verdict
+    enough = None
+    if v is not None:
+        enough = (v.fans.sufficient if v.fans else v.sprinklers.sufficient if v.sprinklers else
+                  v.heaters.enough if v.heaters else None)
+    stop = plan.stop
+    return (dc.level, dc.step, None if v is None else v.advised, None if v is None else v.why_not, enough,
+            None if stop is None else (stop.basis, stop.stop_ok))
+
+
+def decision_changes(evals, display) -> list[dict]:
+    """Each block's decision whenever its `_signature` changes (and the first of each night): the
+    time, level, step, the advice as the grower reads it and the whole typed plan."""
+    from frostwatch.advice import codec
+    from frostwatch.advice import render as advice_render
+
+    out, last = [], {}
+    for ev in evals:
+        for dc in ev.decisions:
+            sig = (ev.night.date, _signature(dc))
+            if last.get(dc.block) == sig:
+                continue
+            last[dc.block] = sig
+            out.append({"time": _iso(ev.time_utc), "block": dc.block, "level": dc.level, "step": dc.step.value,
+                        "advice": advice_render.action(dc.step, dc.plan, display), "plan": codec.to_dict(dc.plan)})
+    return out
+
+
 def replay_into_store(cfg, store, readings, progress=None):
     """Run the pipeline over the stored readings of the logs' span; store the projections, the
     decisions and the alerts, as the daemon does."""
@@ -120,6 +152,7 @@ def cmd_replay(args) -> int:
                             "advice": a.advice, "message": a.message, "key": a.key, "resolves": a.resolves} for a in alerts],
                 "projections": [pipeline.with_time(p) for ev in evals for p in ev.projections
                                 if ev.night.contains(ev.time_utc, 0.0, 0.0)],
+                "decisions": decision_changes(evals, d),
                 "nights": summaries,
                 "readings": {"read": len(readings), "stored": stored, "duplicates": dup, "rejected": len(rejections)},
                 "reports": reports,
