@@ -281,3 +281,42 @@ def test_no_advice_rests_on_a_value_from_memory(a_ref, a_noref, b_towers, c_dryi
             assert "from memory" not in a["message"], a["message"]
         for d in doc["decisions"]:
             assert "from memory" not in d["advice"] and "from memory" not in json.dumps(d["plan"])
+
+
+def test_demo_river_never_told_to_stop_while_unsprinkled_air_is_below_t10(tmp_path_factory):
+    # the fault found by replay: at 06:26 on the demo's frost night river was told "safe to stop"
+    # from its own, spray-moistened air (wet bulb -1.45 C) while unsprinkled air at hill-low
+    # (-2.2 C, dew point -5.4 C) had a wet bulb of -3.2 C. river now names hill-low as its
+    # reference_station; psychrolib on hill-low's air and humidity is the outside reference.
+    from importlib import resources
+
+    logs = resources.files("frostwatch.sample_logs")
+    work = tmp_path_factory.mktemp("demo")
+    for name in ("demo-farm.toml", "2027-04-14-radiation-frost.csv"):
+        (work / name).write_bytes(logs.joinpath(name).read_bytes())
+    p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", str(work / "2027-04-14-radiation-frost.csv"),
+                        "--config", str(work / "demo-farm.toml"), "--json", "--no-report"],
+                       capture_output=True, text=True, timeout=600, cwd=work)
+    assert p.returncode == 0, p.stderr[-2000:]
+    doc = json.loads(p.stdout)
+    s = {}
+    with open(work / "2027-04-14-radiation-frost.csv", newline="") as f:
+        for r in csv.DictReader(f):
+            s.setdefault((r["station"], r["quantity"]), []).append(
+                (dt.datetime.fromisoformat(r["time"]).timestamp(), float(r["value"])))
+    ta = np.array(s[("hill-low", "air_temperature")])
+    rh = np.array(s[("hill-low", "relative_humidity")])
+
+    def hill_wet_bulb(t):
+        # relative humidity over water (the WMO convention hygrometers follow; psychrolib would
+        # read it over ice below 0 C), so through the vapour pressure
+        air = float(np.interp(t, ta[:, 0], ta[:, 1]))
+        e_pa = _e_water_hpa(air) * float(np.interp(t, rh[:, 0], rh[:, 1]))
+        w = psychrolib.GetHumRatioFromVapPres(e_pa, P_HPA * 100.0)
+        return psychrolib.GetTWetBulbFromHumRatio(air, w, P_HPA * 100.0)
+
+    assert hill_wet_bulb(dt.datetime(2027, 4, 15, 6, 26, tzinfo=PDT).timestamp()) < T10_CHERRY - 0.5
+    safe = [d for d in _of(doc, "river") if _safe(d)]
+    assert safe, "river is never told it may stop"
+    for d in safe:
+        assert hill_wet_bulb(_t(d["time"])) > T10_CHERRY, d["time"]
