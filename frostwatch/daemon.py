@@ -182,7 +182,6 @@ class Core:
         self.rules = health.HealthRules(
             silent_after_intervals=settings.silent_after_intervals,
             battery_low_v=settings.battery_low_v,
-            risk_band_c=settings.risk_band_c,
         )
         self.publish: Callable[[str, object], None] = lambda topic, doc: None
         self.on_evaluated: Callable[[dt.datetime, dict], None] = lambda now, blocks: None  # the fleet publisher
@@ -404,12 +403,7 @@ class Core:
         # is still reported silent ("no reading in the window"). A longer window only costs
         # memory at high reading rates (bench/ingest.py).
         series = self.store.readings_window(now - dt.timedelta(minutes=90), now)
-        window = self.in_watch_window(now)
-        risky = {
-            b.id for b in self.cfg.blocks
-            if health.risky(self.last_projection.get(b.id), b.kill_10pct_c + b.margin_c, window, self.rules)
-        }
-        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, risky, self.rules, heard_s, judge_silence)
+        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, self.rules, heard_s, judge_silence)
         held = () if judge_silence else tuple(p for k, p in self.health_active.items() if k.endswith(":silent"))
         report = health.HealthReport(report.problems + tuple(extra) + held, report.healthy_stations)
         raised, cleared, self.health_active = health.transitions(self.health_active, report)

@@ -1,5 +1,6 @@
-"""Sensor health rules (pure): silent, stuck, out of range, low battery; and which blocks are left
-with no healthy crop-height sensor on a risky night (urgent).
+"""Sensor health rules (pure): silent, stuck, out of range, low battery, for a maintainer. Whether a
+block is left unwatched is each evaluation's decision (`frostwatch.monitoring`, raised by the alert
+rules as the block's `unmonitored` alert), not a health problem.
 
 No clock and no I/O: `now_s` and the readings window are passed in. The silence and stuck rules
 are the forecast's own (`forecast.usual_interval_s`, STUCK_*), so a sensor the projection leaves
@@ -23,7 +24,6 @@ class HealthRules:
     silent_after_intervals: float = 3.0
     battery_low_v: float = 3.3
     out_of_range_per_hour: int = 3  # this many implausible values in an hour make a faulty sensor
-    risk_band_c: float = 3.0  # a night is risky when the projection comes within this of the trigger
 
 
 @dataclass(frozen=True)
@@ -94,13 +94,13 @@ def assess(
     series: Series,
     now_s: float,
     out_of_range: dict[str, int],
-    risky_blocks: set[str],
     rules: HealthRules,
     heard_s: dict[str, float] | None = None,
     judge_silence: bool = True,
 ) -> HealthReport:
-    """Every station's problems, plus one urgent problem per risky block with no healthy
-    crop-height sensor (the block is then not monitored at all). `heard_s`: station -> receipt
+    """Every station's problems (for a maintainer). A block left with no healthy crop-height
+    sensor is not reported here: each evaluation decides that (`frostwatch.monitoring`) and the
+    alert rules raise it as an `unmonitored` alert of the block. `heard_s`: station -> receipt
     time of its latest valid reading, stored or not (see `station_problems`)."""
     problems: list[Problem] = []
     healthy: set[str] = set()
@@ -110,25 +110,7 @@ def assess(
         problems.extend(ps)
         if not any(p.key.endswith((":silent", ":stuck", ":range")) for p in ps):
             healthy.add(st.id)
-    for b in cfg.blocks:
-        crop = [s.id for s in cfg.stations_of(b.id, "crop")]
-        if not any(s in healthy for s in crop):
-            urgent = b.id in risky_blocks
-            problems.append(Problem(
-                f"block:{b.id}:unmonitored", f"block {b.id}",
-                f"no healthy crop-height sensor ({', '.join(crop) or 'none declared'})"
-                + ("; frost is possible tonight: check the block by hand" if urgent else ""),
-                urgent=urgent,
-            ))
     return HealthReport(tuple(problems), frozenset(healthy))
-
-
-def risky(predicted_min_c: float | None, trigger_c: float, in_watch_window: bool, rules: HealthRules) -> bool:
-    """A risky night for a block: in the watch window and either no projection (unknown is
-    treated as risky) or a projected minimum within `risk_band_c` of the trigger."""
-    if not in_watch_window:
-        return False
-    return predicted_min_c is None or predicted_min_c <= trigger_c + rules.risk_band_c
 
 
 def transitions(active: dict[str, Problem], report: HealthReport) -> tuple[list[Problem], list[Problem], dict[str, Problem]]:

@@ -144,7 +144,7 @@ class Evaluator:
                                **ref_kw)
             mon = block_monitoring(self.cfg, block, window, now_s)
             state = self.states.get(block.id, BlockAlertState())
-            state, alerts = step(state, plan, proj, block, now_utc, night, self.display, None, self.rule_settings)
+            state, alerts = step(state, plan, proj, block, now_utc, night, self.display, mon, self.rule_settings)
             self.states[block.id] = state
             if not mon.monitored and state.unmonitored_since_utc is not None:
                 mon = dataclasses.replace(mon, since_utc=state.unmonitored_since_utc)

@@ -83,6 +83,8 @@ def effective_monitoring(decision: Decision | None, live: Liveness, now_utc: dt.
     """Monitoring as a reader sees it now: the stored state, unless the daemon stopped, the
     decision is stale, or its newest reading has gone stale since."""
     if decision is None:
+        if not live.alive:
+            return Monitoring(False, MonitorReason.DAEMON_STOPPED, since_utc=live.last_beat_utc)
         return Monitoring(False, MonitorReason.NO_EVALUATION)
     m = decision.monitoring
     if not live.alive:
@@ -120,11 +122,11 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
     m = effective_monitoring(decision, live, now_utc, limit_s)
     base = {"block": block_id, "name": name}
     if decision is None:
-        reason = monitoring_reason(m, display, now_utc)
+        reason = monitoring_reason(m, display, now_utc, daemon_stopped_utc=live.last_beat_utc)
         return {**base, "level": UNMONITORED, "rank": rank_of(UNMONITORED), "monitored": False,
-                "as_of": iso_utc(now_utc), "reason": reason, "since": None, "evaluated_at": None,
+                "as_of": iso_utc(now_utc), "reason": reason, "since": iso_utc(m.since_utc), "evaluated_at": None,
                 "frost_level": None, "frost_rank": None, "step": Step.CHECK_SENSORS.value,
-                "headline": f"{not_monitored_headline(block_id, None, display)}: {reason}",
+                "headline": f"{not_monitored_headline(block_id, m.since_utc, display)}: {reason}",
                 "action": "go and check the block and its sensors: frostwatch cannot see it",
                 "projection": None, "ready_by": None, "inputs": {}, "alert_key": None}
     plan = decision.plan

@@ -204,8 +204,9 @@ def _card(item: dict, snap: dict) -> str:
                     f"<b>{e(LEVEL_WORD.get(dcs.frost_level, dcs.frost_level))}</b>; {e(msg.action)}</p>")
         a = item["alert"]
         if a is not None:
+            ack = _ack_text(item, d)
             last += (f"<p class='note'>Last alert: {e(LEVEL_WORD.get(a['level'], a['level']))} at "
-                     f"{d.time(from_ms(a['time_utc_ms']))}; {_ack_text(item, d)}</p>")
+                     f"{d.time(from_ms(a['time_utc_ms']))}{'; ' + ack if ack else ''}</p>")
         return (f'<section class="card unmonitored" {attrs} data-monitored="false">{title}'
                 f'<div class="big not-monitored">NOT MONITORED{e(since)}</div><p class="reason">{e(j["reason"])}</p>'
                 f'<p class="action">{e(j["action"])}</p>{last}<div class="note">{crit}</div>{chart}'

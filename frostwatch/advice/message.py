@@ -102,7 +102,7 @@ def compose(block_id: str, level: str, step: Step, plan: AdvicePlan, proj, d: Di
 
 def _ago(d: Display, t: dt.datetime, now_utc: dt.datetime) -> str:
     s = max(0.0, (now_utc - t).total_seconds())
-    span = f"{s / 60:.0f} min" if s < 7200 else f"{s / 3600:.1f} h"
+    span = f"{s:.0f} s" if s < 120 else f"{s / 60:.0f} min" if s < 7200 else f"{s / 3600:.1f} h"
     return f"{d.time(t)} ({span} ago)"
 
 

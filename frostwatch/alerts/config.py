@@ -50,6 +50,7 @@ from pathlib import Path
 from frostwatch.errors import ConfigError
 
 CHANNEL_TYPES = ("email", "webhook", "mqtt", "command", "console")
+ROUTED_LIKE = {"unmonitored": "act"}  # a level without a route of its own takes this one's
 ROLES = ("grower", "maintainer", "manager")
 ADDRESS_FIELDS = ("none", "email", "phone", "webhook", "command")
 LOCAL_BY_DEFAULT = {"email": False, "webhook": False, "mqtt": True, "command": True, "console": True}
@@ -139,7 +140,13 @@ class AlertsConfig:
         return next((c for c in self.contacts if c.name == name), None)
 
     def channels_for(self, level: str) -> list[Channel]:
-        names = self.route.get(level, self.route.get("default", ["*"]))
+        """The channels of a level's route; `unmonitored` without a route of its own goes the way
+        of `act` (a block nobody watches at night is as urgent as a call to act), else `default`."""
+        names = self.route.get(level)
+        if names is None and level in ROUTED_LIKE:
+            names = self.route.get(ROUTED_LIKE[level])
+        if names is None:
+            names = self.route.get("default", ["*"])
         if "*" in names:
             return list(self.channels)
         return [c for c in self.channels if c.name in names]

@@ -207,3 +207,46 @@ class StatusPageProc:
 
 def run_cli(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
     return subprocess.run([sys.executable, "-m", "frostwatch", *args], capture_output=True, text=True, timeout=300, cwd=cwd)
+
+
+# ---- headless Chromium: the DOM after load, and screenshots kept as test artifacts ---------------
+
+ARTIFACTS = Path(os.environ.get("FROSTWATCH_TEST_ARTIFACTS") or Path(__file__).resolve().parents[2] / "test-artifacts")
+
+
+def chromium_page(url: str, workdir: Path, name: str, widths: tuple[int, ...] = (412, 1280),
+                  height: int = 1800) -> tuple[str, list[Path]]:
+    """Load `url` in headless Chromium (Debian's `chromium`): the DOM after load, and a screenshot
+    per width, copied to ARTIFACTS/status-page/NAME-WIDTH.png (kept after the test)."""
+    import shutil
+
+    exe = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
+    assert exe, "chromium is not installed; run the README's test command (bash tests/run), which installs it"
+    out_dir = ARTIFACTS / "status-page"
+    out_dir.mkdir(parents=True, exist_ok=True)
+    shots = []
+    base = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars", "--no-first-run"]
+    for w in widths:
+        prof = workdir / f"chromium-{name}-{w}"
+        prof.mkdir(parents=True, exist_ok=True)
+        shot = workdir / f"{name}-{w}.png"
+        subprocess.run(base + [f"--user-data-dir={prof}", f"--window-size={w},{height}", f"--screenshot={shot}", url],
+                       check=True, capture_output=True, timeout=90)
+        assert shot.exists() and shot.stat().st_size > 5000, f"no screenshot written for {url}"
+        shutil.copyfile(shot, out_dir / shot.name)
+        shots.append(shot)
+    prof = workdir / f"chromium-{name}-dom"
+    prof.mkdir(parents=True, exist_ok=True)
+    dom = subprocess.run(base + [f"--user-data-dir={prof}", f"--window-size={widths[0]},{height}", "--dump-dom", url],
+                         check=True, capture_output=True, timeout=90, text=True).stdout
+    return dom, shots
+
+
+def green_pixels(png: Path) -> int:
+    """Pixels of the status page's green (#2a2, an all-clear card's edge) in a screenshot."""
+    import matplotlib.image
+    import numpy as np
+
+    img = matplotlib.image.imread(str(png))[:, :, :3]
+    rgb = np.rint(img * 255).astype(int) if img.dtype != np.uint8 else img.astype(int)
+    return int(np.all(np.abs(rgb - np.array([0x22, 0xAA, 0x22])) <= 6, axis=-1).sum())

@@ -51,27 +51,29 @@ def test_silent_stuck_range_and_battery(demo_config):
     assert keys == {"east-low:stuck", "east-low:range", "east-low:battery"}
 
 
-def test_block_without_healthy_crop_sensor_is_urgent_only_on_a_risky_night(demo_config):
+def test_a_block_without_a_healthy_crop_sensor_is_not_monitored_and_no_health_problem(demo_config):
+    """The block's own monitoring state (frostwatch.monitoring) says it, not a health problem:
+    the alert rules raise it as the block's `unmonitored` alert."""
+    from frostwatch.decision import MonitorReason
+    from frostwatch.monitoring import block_monitoring
+
     cfg = load_config(demo_config)
     t = _every(5, 30)
     ok = 3.0 + 0.01 * np.arange(30)
     s = {(sid, "air_temperature"): (t, ok) for sid in ("east-low", "river-low", "river-low-b")}
-    rep = health.assess(cfg, s, NOW_S, {}, risky_blocks={"hill"}, rules=RULES)
-    block_probs = [p for p in rep.problems if p.key.startswith("block:")]
-    assert [(p.key, p.urgent) for p in block_probs] == [("block:hill:unmonitored", True)]
-    rep = health.assess(cfg, s, NOW_S, {}, risky_blocks=set(), rules=RULES)
-    assert [(p.key, p.urgent) for p in rep.problems if p.key.startswith("block:")] == [("block:hill:unmonitored", False)]
+    rep = health.assess(cfg, s, NOW_S, {}, rules=RULES)
+    assert not [p for p in rep.problems if p.key.startswith("block:")]
+    hill = block_monitoring(cfg, cfg.block("hill"), s, NOW_S)
+    assert (hill.monitored, hill.reason, hill.stations) == (False, MonitorReason.NO_DATA, ("hill-low",))
     # one of river's two crop sensors still speaks: river is monitored
     del s[("river-low", "air_temperature")]
-    rep = health.assess(cfg, s, NOW_S, {}, risky_blocks={"river"}, rules=RULES)
-    assert "block:river:unmonitored" not in {p.key for p in rep.problems}
+    assert block_monitoring(cfg, cfg.block("river"), s, NOW_S).monitored
+    # a silent sensor: not monitored since its last reading
+    late = {("hill-low", "air_temperature"): (t - 3600.0, ok)}
+    m = block_monitoring(cfg, cfg.block("hill"), late, NOW_S)
+    assert (m.monitored, m.reason) == (False, MonitorReason.SILENT)
+    assert m.since_utc.timestamp() == pytest.approx(t[-1] - 3600.0)
 
-
-def test_risky_night_rule():
-    assert health.risky(None, -2.0, True, RULES)  # no projection: unknown counts as risky
-    assert health.risky(0.5, -2.0, True, RULES)
-    assert not health.risky(5.0, -2.0, True, RULES)
-    assert not health.risky(-5.0, -2.0, False, RULES)  # by day: not a risky night
 
 
 def test_transitions_raise_once_and_clear_once():

@@ -146,7 +146,7 @@ def test_a_store_that_cannot_write_is_named_after_the_stall_time_and_nothing_is_
     assert _count(store, "SELECT count(*) FROM readings") == 0 and _count(store, "SELECT count(*) FROM rejections") == 0
     cfg = ing.cfg
     st = cfg.station("east-low")
-    report = health.assess(cfg, {}, time.time(), {}, set(), health.HealthRules(), dict(ing.heard))
+    report = health.assess(cfg, {}, time.time(), {}, health.HealthRules(), dict(ing.heard))
     assert f"{st.id}:silent" not in {p.key for p in report.problems}
     time.sleep(3 * 0.2 + 0.5)  # several heartbeats go unanswered while commits fail: still not the broker's fault
     assert not [p for p in ing.problems() if "broker" in p or "heartbeat" in p]
