@@ -56,9 +56,10 @@ def heat_requirement_w_m2(target_temp_c: float, vapour_pressure_hpa: float, clou
     Returns
     -------
     float
-        ``-L*`` of a surface at the target under a Brutsaert (1975) sky with the Jacobs (1978)
-        cloud correction (`frostwatch.physics.radiation.net_longwave_w_m2`); NaN outside its
-        range.
+        ``-L*`` of a surface at the target radiating as a black body (emissivity 1, an upper
+        bound: no tabulated emissivity is needed, and the need errs high) under a Brutsaert
+        (1975) sky with the Jacobs (1978) cloud correction
+        (`frostwatch.physics.radiation.net_longwave_w_m2`); NaN outside its range.
 
     Notes
     -----
@@ -69,7 +70,7 @@ def heat_requirement_w_m2(target_temp_c: float, vapour_pressure_hpa: float, clou
     from frostwatch.physics.radiation import net_longwave_w_m2
 
     return -float(net_longwave_w_m2(target_temp_c, vapour_pressure_hpa, cloud_frac=cloud_frac,
-                                    surface_temp_c=target_temp_c))
+                                    surface_temp_c=target_temp_c, surface_emissivity=1.0))
 
 
 def retained_frac_for_inversion(inversion_c: float | None) -> float | None:

@@ -225,8 +225,10 @@ def iced_canopy_heat_loss(
 
     Notes
     -----
-    Radiation: ``L* = sigma (273.15 K)^4 - eps_a sigma Ta^4`` for a 0 degC surface of emissivity
-    0.98 under a Brutsaert (1975) sky with the Jacobs (1978) cloud correction
+    Radiation: ``L* = sigma (273.15 K)^4 - eps_a sigma Ta^4`` for a 0 degC surface radiating as a
+    black body (emissivity 1, an upper bound for ice and water: no tabulated emissivity is needed,
+    and the loss errs high by at most a few percent) under a Brutsaert (1975) sky with the Jacobs
+    (1978) cloud correction
     (`frostwatch.physics.radiation.net_longwave_w_m2`). Convection and sublimation through one
     aerodynamic resistance, FAO-56 eq. 4 for the reference surface at 2 m (208 / u2 s m-1), in
     the psychrometric form with the WMO ice-bulb coefficient
@@ -252,7 +254,8 @@ def iced_canopy_heat_loss(
         return IcedCanopyLoss(math.nan, math.nan, math.nan, math.nan)
     wind = max(float(wind_speed_m_s), CALM_WIND_FLOOR_M_S)
     e_hpa = float(vapour_pressure_hpa_from_dew_point(min(dew_point_c, air_temp_c)))
-    radiation = -float(net_longwave_w_m2(air_temp_c, e_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0))
+    radiation = -float(net_longwave_w_m2(air_temp_c, e_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0,
+                                         surface_emissivity=1.0))
     r_a = float(aerodynamic_resistance_s_m(wind))
     sensible, latent = iced_surface_exchange_w_m2(air_temp_c, e_hpa, r_a, pressure_hpa, 0.0)
     return IcedCanopyLoss(radiation, sensible, latent, wind)

@@ -17,12 +17,11 @@ SIGMA = 5.670374419e-8  # CODATA 2018
 
 def test_heat_requirement_by_hand():
     # block held at -0.2 C, vapour pressure 4.0 hPa, clear sky: Brutsaert (1975) eps =
-    # 1.24 (4.0 / 272.95)^(1/7) = 0.6336; net loss = 0.98 sigma T^4 (1 - eps) (grey surface at the
-    # air temperature, 2 % of L-down reflected)
+    # 1.24 (4.0 / 272.95)^(1/7) = 0.6336; net loss = sigma T^4 (1 - eps) (the surface as a black
+    # body at the air temperature: an upper bound, no tabulated emissivity)
     t = -0.2 + 273.15
     eps = 1.24 * (4.0 / t) ** (1 / 7)
-    down = eps * SIGMA * t**4
-    expected = 0.98 * SIGMA * t**4 + 0.02 * down - down
+    expected = SIGMA * t**4 * (1.0 - eps)
     assert heat_requirement_w_m2(-0.2, 4.0) == pytest.approx(expected, rel=2e-3)
     assert 90.0 < expected < 115.0  # frost-physics.md 2.5: clear frost nights lose 50-110 W/m2
     assert heat_requirement_w_m2(-0.2, 4.0, cloud_frac=1.0) < expected
