@@ -4,7 +4,9 @@
     repeat_interval_min = 10      # an unanswered act/critical/unmonitored alert repeats this often
     escalate_after_min = 15       # ... and adds the next person of the roster after this long
     repeat_from_rank = 4          # alerts of this rank and above want an answer (act and up)
-    budget_per_hour = 6           # notifications per block per rolling hour; repeats beyond it wait
+    budget_per_hour = 6           # notifications per block per rolling hour; repeats and updates beyond it wait
+    update_earlier_min = 30       # a standby is updated when its crossing moves earlier by more than
+                                  # this or the block's mobilisation_min, whichever is less
     retry_base_s = 5              # delivery retries: full-jitter backoff from this ...
     retry_cap_s = 300             # ... capped here
     give_up_after_h = 12          # a delivery still failing after this is given up (and logged)
@@ -65,7 +67,7 @@ _ALERT_KEYS = {
     "repeat_interval_min": (float, 10.0), "escalate_after_min": (float, 15.0), "repeat_from_rank": (int, 4),
     "budget_per_hour": (int, 6), "retry_base_s": (float, 5.0), "retry_cap_s": (float, 300.0),
     "give_up_after_h": (float, 12.0), "degraded_after_failures": (int, 2), "status_url": (str, ""),
-    "ack_secret_file": (str, ""), "ack_topic": (str, ""),
+    "ack_secret_file": (str, ""), "ack_topic": (str, ""), "update_earlier_min": (float, 30.0),
 }
 _ARMED_KEYS = {"max_sensor_age_min": (float, 15.0), "min_battery_v": (float, 3.3), "test_channels": (bool, False)}
 _CHANNEL_KEYS = {
@@ -127,6 +129,7 @@ class AlertsConfig:
     status_url: str = ""
     ack_secret_file: str = ""
     ack_topic: str = ""
+    update_earlier_min: float = 30.0
     route: dict = field(default_factory=lambda: {"default": ["*"]})
     armed: dict = field(default_factory=lambda: {k: v[1] for k, v in _ARMED_KEYS.items()})
     roster: tuple[RosterEntry, ...] = ()
@@ -224,6 +227,8 @@ def load_alerts_config(cfg) -> AlertsConfig:
         values[k] = typ(v)
     if values.get("repeat_interval_min", 1) <= 0:
         problems.append("alerts.repeat_interval_min: must be above 0, expected minutes between repeats (e.g. 10)")
+    if values.get("update_earlier_min", 1) <= 0:
+        problems.append("alerts.update_earlier_min: must be above 0, expected minutes (e.g. 30)")
     if values.get("budget_per_hour", 1) < 1:
         problems.append("alerts.budget_per_hour: must be at least 1, expected notifications per block per hour (e.g. 6)")
 

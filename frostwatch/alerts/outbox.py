@@ -17,6 +17,9 @@ How it behaves (reliability.md section 6):
   process (one killed with -9) is reclaimed at once, so every alert is delivered at least once
   and a duplicate carries the same key. Failures retry with capped full-jitter backoff; a
   permanent failure (HTTP 4xx, SMTP 5xx, bad config) is not retried and tells a maintainer.
+- An update (a standby whose crossing moved earlier) counts against `budget_per_hour` like a
+  repeat and waits beyond it; a newer update of the block replaces one still waiting. The first
+  notice of a level and an escalation never wait.
 - An alert of rank >= `repeat_from_rank` (act, critical, unmonitored) repeats every
   `repeat_interval_min` until acknowledged, and every `escalate_after_min` it adds the next person
   of the block's roster. Repeats beyond `budget_per_hour` notifications per block wait; the first
@@ -151,8 +154,14 @@ class Outbox:
                 if st:
                     step = max(step, st["step"])
             people = roster[: step + 1]
-        rows = self._rows(a.level, people, seq=0, kind="resolved" if a.resolves else "alert", now_utc=now_utc)
+        kind = "resolved" if a.resolves else ("update" if a.kind == "update" else "alert")
+        rows = self._rows(a.level, people, seq=0, kind=kind, now_utc=now_utc)
         rows = [r for r in rows if r["channel"] not in exclude]
+        if kind == "update":  # an update counts against the block's hourly budget, and waits beyond it
+            release_ms = self._budget_frees_ms(a.block, now_utc)
+            for r in rows:
+                r["next_try_ms"] = max(r["next_try_ms"], release_ms)
+            ob.cancel_waiting_updates(self.store, self._block_keys(a.block, night), to_ms(now_utc))
         repeat_ms = to_ms(now_utc) + int(self.ac.repeat_interval_min * 60000)
         if wants_answer and len(roster) > step + 1:
             repeat_ms = min(repeat_ms, to_ms(now_utc) + int(self.ac.escalate_after_min * 60000))
@@ -165,6 +174,16 @@ class Outbox:
                 elif a.rank >= 3:
                     ob.set_state(c, [k for k in earlier if k != a.key], "superseded")
         return new
+
+    def _budget_frees_ms(self, block: str, now_utc: dt.datetime) -> int:
+        """Now, while the block has sent fewer than `budget_per_hour` notifications in the last
+        hour; else when the oldest of them leaves the hour."""
+        now_ms = to_ms(now_utc)
+        since = now_ms - 3600_000
+        if ob.count_notices(self.store, block, since) < self.ac.budget_per_hour:
+            return now_ms
+        oldest = ob.oldest_notice_ms(self.store, block, since)
+        return now_ms if oldest is None else oldest + 3600_000 + 1000
 
     def _block_keys(self, block: str, night: dt.date | None) -> list[str]:
         with self.store.lock:

@@ -13,7 +13,8 @@ Beyond the frost levels:
   has reported for two evaluations; meanwhile the frost rules hold (no outlook, no all-clear);
 - at standby, when the projected crossing moves earlier by more than the block's mobilisation
   time or `update_earlier_min` (whichever is less) for two evaluations, one update goes out with
-  the new ready-by time; the next update needs another such move.
+  the new ready-by time; the next update needs another such move, and comes at least
+  `update_earlier_min` later unless the ready-by time is nearer than that.
 
 Time is injected; nothing here reads a clock.
 """
@@ -73,6 +74,7 @@ class BlockAlertState:
     unmonitored_since_utc: dt.datetime | None = None
     monitored_count: int = 0
     announced_crossing_utc: dt.datetime | None = None  # the crossing the last standby/update gave
+    announced_at_utc: dt.datetime | None = None  # when the last standby/update went out
     update_count: int = 0
 
 
@@ -223,7 +225,7 @@ def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
             run.send(wanted, step_for_level(wanted, plan), Notice.LEVEL)
             peak = wanted if LEVELS[wanted] > LEVELS[st.peak_level] else st.peak_level
             run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak,
-                    announced_crossing_utc=plan.crossing_utc, update_count=0)
+                    announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)
     elif LEVELS[st.level] >= LEVELS["standby"] and _clear_enough(plan):
         n = st.clear_count + 1
         run.set(clear_count=n, candidate="all-clear", candidate_count=0)
@@ -233,11 +235,17 @@ def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
     else:
         run.set(clear_count=0, candidate=st.level if wanted == "all-clear" else st.candidate,
                 candidate_count=st.candidate_count if LEVELS[wanted] > LEVELS[st.level] else 0)
-        pass  # _standby_update(run, settings): part 4
+        _standby_update(run, settings)
 
 
 def _standby_update(run: _Run, settings: RuleSettings) -> None:
-    """One update when the crossing has moved earlier by more than the allowance, persistently."""
+    """One update when the crossing has moved earlier by more than the allowance (the block's
+    mobilisation time or `update_earlier_min`, whichever is less) for two evaluations in a row.
+
+    Updates of one block are at least `update_earlier_min` apart unless the new ready-by time is
+    nearer than that: a projection still settling after dusk then sends one update with all the
+    movement so far, not one per evaluation.
+    """
     plan, st, now = run.plan, run.state, run.now
     if st.level != "standby" or plan.step is not Step.GET_READY or plan.ready_by_utc is None or plan.ready_by_utc <= now:
         run.set(update_count=0)
@@ -247,11 +255,14 @@ def _standby_update(run: _Run, settings: RuleSettings) -> None:
         run.set(update_count=0)
         return
     n = st.update_count + 1
-    if n < UPDATE_PERSISTENCE:
+    spacing = dt.timedelta(minutes=settings.update_earlier_min)
+    spaced = st.announced_at_utc is None or now - st.announced_at_utc >= spacing
+    urgent = plan.ready_by_utc - now <= spacing
+    if n < UPDATE_PERSISTENCE or not (spaced or urgent):
         run.set(update_count=n)
         return
     previous = None
     if st.announced_crossing_utc is not None:
         previous = st.announced_crossing_utc - dt.timedelta(minutes=run.block.mobilisation_min)
     run.send("standby", Step.GET_READY, Notice.UPDATE, kind="update", previous=previous)
-    run.set(announced_crossing_utc=plan.crossing_utc, update_count=0)
+    run.set(announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)

@@ -114,14 +114,41 @@ def due_repeats(store: Store, now_ms: int) -> list[dict]:
 
 
 def count_notices(store: Store, block: str, since_ms: int) -> int:
-    """Notifications (distinct alert key and seq) for a block since a time: what the budget counts."""
+    """Notifications (distinct alert key and seq) for a block since a time, cancelled ones left out:
+    what the budget counts."""
     with store.lock:
         (n,) = store.conn.execute(
             "SELECT count(DISTINCT d.idem_key) FROM deliveries d JOIN alerts a ON a.key = d.alert_key "
-            "WHERE a.block=? AND d.updated_utc_ms >= ? AND d.kind != 'notice'",
+            "WHERE a.block=? AND d.updated_utc_ms >= ? AND d.kind != 'notice' AND d.status != 'cancelled'",
             (block, since_ms),
         ).fetchone()
     return n
+
+
+def oldest_notice_ms(store: Store, block: str, since_ms: int) -> int | None:
+    """When the oldest notification counted by `count_notices` was made (None when there is none)."""
+    with store.lock:
+        (ms,) = store.conn.execute(
+            "SELECT min(d.updated_utc_ms) FROM deliveries d JOIN alerts a ON a.key = d.alert_key "
+            "WHERE a.block=? AND d.updated_utc_ms >= ? AND d.kind != 'notice' AND d.status != 'cancelled'",
+            (block, since_ms),
+        ).fetchone()
+    return None if ms is None else int(ms)
+
+
+def cancel_waiting_updates(store: Store, keys: Iterable[str], now_ms: int) -> int:
+    """Cancel the not yet attempted deliveries of earlier updates among `keys` (a newer update
+    replaces them); returns how many."""
+    keys = list(keys)
+    if not keys:
+        return 0
+    with store.transaction() as c:
+        return c.execute(
+            f"UPDATE deliveries SET status='cancelled', detail='replaced by a newer update', updated_utc_ms=? "
+            f"WHERE kind='update' AND status='pending' AND attempt=0 AND next_try_utc_ms > ? "
+            f"AND alert_key IN ({','.join('?' * len(keys))})",
+            (now_ms, now_ms, *keys),
+        ).rowcount
 
 
 def claim_due(store: Store, channel: str, now_ms: int, lease_ms: int, owner: str, limit: int) -> list[dict]:
