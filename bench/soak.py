@@ -272,7 +272,26 @@ def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, spee
         "write_bytes": wb, "write_mib_per_day": round(wb / 2**20 * 86400.0 / max(1.0, elapsed), 1),
         "missed_jobs": missed, "error_lines": errors, "samples": samples, "work": str(work),
     }
+    res.update(rss_trend(samples, warm))
+    # tonight's readings held in memory by design (frostwatch/nightcache.py: a time and a value,
+    # 16 bytes, per reading of the night window): growth that is data, emptied each morning
+    res["night_cache_mib_at_end"] = round(stored * 16 / 2**20, 1)
     return res
+
+
+def rss_trend(samples: list[dict], warm: int, hours: float = 12.0) -> dict:
+    """Least-squares slope of RSS after warm-up (MiB per hour) and where it leads in `hours`
+    from the end of warm-up: the 12-hour projection of a shorter run."""
+    pts = [(s["t_s"] / 3600.0, s["rss_kib"] / 1024.0) for s in samples[warm:]]
+    if len(pts) < 3:
+        return {"rss_slope_mib_per_h": None, f"rss_{hours:g}h_projection_mib": None}
+    n = len(pts)
+    mx, my = sum(x for x, _ in pts) / n, sum(y for _, y in pts) / n
+    sxx = sum((x - mx) ** 2 for x, _ in pts)
+    slope = sum((x - mx) * (y - my) for x, y in pts) / sxx if sxx else 0.0
+    start = my + slope * (pts[0][0] - mx)  # the fitted value at the end of warm-up
+    return {"rss_slope_mib_per_h": round(slope, 3), f"rss_{hours:g}h_projection_mib": round(start + slope * hours, 1),
+            f"rss_{hours:g}h_projection_growth_pct": round(100.0 * slope * hours / start, 1) if start else None}
 
 
 def _count(db: Path, sql: str) -> int:
@@ -295,6 +314,9 @@ def report(res: dict) -> None:
     print(f"  open files: {res['fds_min']}..{res['fds_max']};  WAL max {res['wal_max_mib']} MiB;  "
           f"missed jobs {res['missed_jobs']};  ERROR lines {res['error_lines']}")
     print(f"  bytes written by the daemon: {res['write_bytes'] / 2**20:.1f} MiB = {res['write_mib_per_day']} MiB/day at this rate")
+    print(f"  RSS trend after warm-up: {res.get('rss_slope_mib_per_h')} MiB/h; 12 h from the end of warm-up: "
+          f"{res.get('rss_12h_projection_mib')} MiB ({res.get('rss_12h_projection_growth_pct')} %); tonight's readings "
+          f"held in the night cache at the end: {res.get('night_cache_mib_at_end')} MiB")
     print(f"  files: {res['work']}")
 
 
