@@ -11,7 +11,8 @@ too (a server that answers 4xx and then 5xx while it recovers must not lose the 
 window), with the outbox's backoff up to `[alerts] give_up_after_h`. Only a refused login
 (authentication, 530/534/535/538 or 5.7.x) or a refused address (the sender or every recipient,
 550/551/553 or 5.1.x) is permanent: it raises the "channel misconfigured" notice. `timeout_s`
-bounds the whole SMTP session (frostwatch/alerts/channels/deadline.py).
+bounds the whole SMTP session (frostwatch/alerts/channels/deadline.py), with time added for a big
+message (one second per 16 KiB: the morning report's attachments).
 """
 
 from __future__ import annotations
@@ -27,6 +28,7 @@ from frostwatch.alerts.channels.deadline import Deadline
 from frostwatch.alerts.config import read_secret
 
 AUTH_CODES = (530, 534, 535, 538)
+MIN_BYTES_PER_S = 16 * 1024  # a slow farm uplink still sends this much a second
 ADDRESS_CODES = (550, 551, 553)
 
 
@@ -91,7 +93,9 @@ def send_message(channel, message: EmailMessage, base_dir=None) -> str:
         password = read_secret(o, base_dir)
     except OSError as exc:
         raise Permanent(f"email channel {channel.name}: cannot read the password: {exc}") from None
-    deadline = Deadline(t)
+    # the whole session's deadline: timeout_s, plus time to send a big message (the morning
+    # report's attachments) at no less than MIN_BYTES_PER_S
+    deadline = Deadline(t + len(message.as_bytes()) / MIN_BYTES_PER_S)
     try:
         with deadline:
             if tls == "ssl":
