@@ -721,6 +721,7 @@ class Daemon:
         last_ping = 0.0
         reported: tuple = ()
         self._wall_mono = (time.time(), time.monotonic())
+        prompt_health = -1e9
         while not self.stop_event.wait(1.0):
             if self.reload_requested.is_set():
                 self.reload_requested.clear()
@@ -729,6 +730,13 @@ class Daemon:
                 self.check_clock()
             except Exception:  # noqa: BLE001 - supervision carries on
                 log.exception("clock check failed")
+            if (self.ingest.not_storing_s() >= self.s.store_stall_s
+                    and "store:not-storing" not in self.core.health_active
+                    and time.monotonic() - prompt_health >= self.s.store_stall_s):
+                # raise "readings are not being stored" now, not at the next health round: the
+                # watchdog is withheld from this moment and systemd may restart us before then
+                prompt_health = time.monotonic()
+                self._guard("health", self._health)()
             probs = self.problems()
             if tuple(probs) != reported:
                 for p in probs:
