@@ -187,8 +187,11 @@ def _print_alerts(alerts, d) -> None:
 def _print_summaries(summaries, d) -> None:
     print("\nNight summary per block:")
     for s in summaries:
-        at = d.datetime(dt.datetime.fromisoformat(s["min_at"].replace("Z", "+00:00"))) if s["min_at"] else "n/a"
-        print(f"  {s['night']}  {s['block']:<10} minimum {d.temp(s['min_c'])} at {at} ({s['station']}); "
+        if s["min_c"] is None:  # never "minimum n/a at n/a": say what is missing
+            print(f"  {s['night']}  {s['block']:<10} no crop-height reading this night")
+            continue
+        at = f" at {d.datetime(dt.datetime.fromisoformat(s['min_at'].replace('Z', '+00:00')))}" if s["min_at"] else ""
+        print(f"  {s['night']}  {s['block']:<10} minimum {d.temp(s['min_c'])}{at} ({s['station']}); "
               f"{s['minutes_below_t10']:.0f} min at or below T10 {d.temp(s['kill_10pct_c'])}")
 
 

@@ -45,8 +45,9 @@ def _overview(data) -> str:
     for s in coldest_first(data.sections):
         bn = s.bn
         rows.append(
-            f'<tr><td><a href="#block-{e(bn.block)}">{e(bn.block)}</a></td><td class="num">{d.temp(bn.min_c)}</td>'
-            f'<td class="num">{d.time(bn.min_at_utc)}</td><td class="num">{bn.minutes_below_t10:.0f} min</td>'
+            f'<tr><td><a href="#block-{e(bn.block)}">{e(bn.block)}</a></td>'
+            f'<td class="num">{d.temp(bn.min_c) if bn.min_c is not None else "no reading"}</td>'
+            f'<td class="num">{d.time(bn.min_at_utc) if bn.min_at_utc else ""}</td><td class="num">{bn.minutes_below_t10:.0f} min</td>'
             f'<td class="num">{bn.minutes_below_t90:.0f} min</td></tr>'
         )
     return ('<div class="scroll"><table id="blocks" class="compact"><tr><th>block</th><th>minimum</th><th>at</th>'
@@ -74,7 +75,7 @@ def _block_section(data, s) -> str:
     title = f"{bn.block}" + (f" — {b.name}" if b.name else "")
     err = s.forecast_error_c
     if err is None:
-        err_txt = "n/a"
+        err_txt = "no dusk forecast or no observed minimum to compare"
     else:
         err_txt = (f"forecast {d.temp(s.dusk_forecast_c)}, observed {d.temp(bn.min_c)}: the forecast was "
                    f"{d.delta(abs(err))} {'colder' if err < 0 else 'warmer'} than what happened")
@@ -86,7 +87,8 @@ def _block_section(data, s) -> str:
         ("crop, stage", f"{e(bn.crop)}, {e(bn.stage)}"),
         ("T10 / T90 (10 % / 90 % bud kill)", f"{d.temp(bn.kill_10pct_c)} / {d.temp(bn.kill_90pct_c)}"),
         ("coldest crop-height sensor", e(bn.station or "none reporting")),
-        ("minimum", f'<span class="minimum">{d.temp(bn.min_c)}</span> at {d.time(bn.min_at_utc)}'),
+        ("minimum", f'<span class="minimum">{d.temp(bn.min_c)}</span> at {d.time(bn.min_at_utc)}' if bn.min_c is not None
+         else "no crop-height reading this night"),
         ("minutes at or below T10", f"{bn.minutes_below_t10:.0f}"),
         ("minutes at or below T90", f"{bn.minutes_below_t90:.0f}"),
         ("dusk forecast error", err_txt),
