@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as dt
 import os
+import sys
 from pathlib import Path
 
 from frostwatch.commands.common import _out_json
@@ -111,10 +112,14 @@ def cmd_fleet(args) -> int:
     listener = FleetListener(addr)
     if not args.serve:
         try:
-            listener.gather(args.wait)
+            settled = listener.gather(args.wait)
             doc = listener.snapshot()
         finally:
             listener.stop()
+        doc["settled"] = settled
+        if not settled:
+            print(f"frostwatch fleet: the broker was still sending retained states after --wait {args.wait:g} s; "
+                  "sites may be missing: raise --wait", file=sys.stderr)
         if args.fahrenheit:
             doc = _fahrenheit_doc(doc)
         if args.json:

@@ -188,8 +188,9 @@ class FleetListener:
         finally:
             self.client.loop_stop()
 
-    def gather(self, wait_s: float = 10.0) -> None:
-        """Connect, take every retained message, return once they have settled (at most `wait_s`)."""
+    def gather(self, wait_s: float = 10.0) -> bool:
+        """Connect, take every retained message, return once they have settled (at most `wait_s`).
+        False when messages were still arriving at the end of the wait (the picture may lack sites)."""
         deadline = time.monotonic() + wait_s
         self.start()
         while not self.synced.is_set():
@@ -199,8 +200,11 @@ class FleetListener:
                 raise FleetBrokerError(f"no answer from the broker at {self.addr.host}:{self.addr.port} within "
                                        f"{wait_s:g} s; check --broker, TLS and credentials, or raise --wait")
             self.synced.wait(0.05)
-        while time.monotonic() < deadline and time.monotonic() - self.last_message_mono < QUIET_S:
+        while time.monotonic() - self.last_message_mono < QUIET_S:
+            if time.monotonic() >= deadline:
+                return False
             time.sleep(0.05)
+        return True
 
     def snapshot(self, now_utc: dt.datetime | None = None, only_site: str | None = None) -> dict:
         now = now_utc or dt.datetime.now(dt.UTC)

@@ -190,8 +190,11 @@ class SiteUplink:
 
 
 def states_from_status_docs(docs: dict[str, dict], acked: dict[str, bool | None]) -> list[dict]:
-    """Per-block state dicts from the daemon's block documents (its `{status}/blocks/BLOCK`)."""
+    """Per-block state dicts from the daemon's block documents (its `{status}/blocks/BLOCK`: the
+    stored decision as `frostwatch status --json` shows it). The decision's own rank is kept; a
+    document without one takes its level's rank."""
     from frostwatch.alerts.levels import rank_of
 
-    return [fs.block_state_from_status_doc(d, rank_of(d.get("level") or "all-clear"), acked.get(b))
+    return [fs.block_state_from_status_doc(d, d["rank"] if isinstance(d.get("rank"), int)
+                                           else rank_of(d.get("level") or "all-clear"), acked.get(b))
             for b, d in docs.items()]

@@ -60,6 +60,7 @@ def check_contract_shape(doc: dict) -> None:
 def test_fleet_json_lists_every_site_with_the_right_levels(sites, mosquitto):
     doc = fleet_json(mosquitto.port)
     check_contract_shape(doc)
+    assert doc["settled"] is True  # every retained state was in before it printed
     got = {s["site"]: s for s in doc["sites"]}
     assert sorted(got) == sorted(f"site-{i:02d}" for i in range(N_SITES))
     for i in range(N_SITES):
