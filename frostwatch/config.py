@@ -101,7 +101,7 @@ class Storage:
     rejection_retention_days: float = 30.0
     # rejection rows (and log lines) per MQTT topic and hour; beyond it they are counted in one row
     rejections_per_source_per_hour: int = 60
-    decisions_days: float = 60.0  # stored decisions (about 2-3 KB per block and evaluation) are kept this long
+    decisions_days: float = 60.0  # stored decisions (about 1.2 KB per block and evaluation) are kept this long
 
 
 @dataclass(frozen=True)

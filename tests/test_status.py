@@ -126,3 +126,23 @@ def test_status_document_reads_the_newest_decision_at_or_before_now(demo_config)
         assert east["level"] == "critical" and doc["daemon_alive"] is True
         others = [b for b in doc["blocks"] if b["block"] != "east"]
         assert all(b["level"] == "unmonitored" and "no evaluation" in b["reason"] for b in others)
+
+
+def test_decisions_are_stored_compressed_and_a_plain_json_row_still_reads(demo_config):
+    cfg = load_config(demo_config)
+    dcs = _decision(cfg)
+    with Store.open(cfg.storage.path) as store:
+        stored.save_decisions(store, [dcs])
+        with store.lock:
+            (doc,) = store.conn.execute("SELECT doc FROM decisions").fetchone()
+        assert isinstance(doc, bytes) and len(doc) < len(json.dumps(decision_to_doc(dcs))) / 2
+        later = dataclasses.replace(dcs, as_of_utc=NOW + dt.timedelta(minutes=2))
+        row = list(stored.row_of(later))
+        row[-1] = json.dumps(decision_to_doc(later))  # as a store written before compression holds it
+        with store.transaction() as c:
+            c.execute("INSERT INTO decisions(block, time_utc_ms, level, rank, frost_level, monitored, step, "
+                      "predicted_min_c, predicted_min_at_utc_ms, crossing_utc_ms, ready_by_utc_ms, version, doc) "
+                      "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)", row)
+        assert [d.as_of_utc for d in stored.between(store, NOW, NOW + dt.timedelta(minutes=5))] == \
+            [NOW, NOW + dt.timedelta(minutes=2)]
+        assert stored.latest(store)["east"] == later
