@@ -9,6 +9,7 @@ import signal
 import sqlite3
 import subprocess
 import sys
+import zlib
 
 from daemon_helpers import DaemonProc, wait_until, write_config
 
@@ -21,7 +22,10 @@ def _t10(db, block: str) -> float | None:
     try:
         row = con.execute("SELECT doc FROM decisions WHERE block = ? ORDER BY time_utc_ms DESC LIMIT 1",
                           (block,)).fetchone()
-        return json.loads(row[0])["plan"]["t10_c"] if row else None
+        if not row:
+            return None
+        doc = zlib.decompress(row[0]).decode() if isinstance(row[0], bytes) else row[0]  # stored compressed
+        return json.loads(doc)["plan"]["t10_c"]
     except sqlite3.OperationalError:
         return None
     finally:
