@@ -71,6 +71,7 @@ def _assert_blind_page(page: StatusPageProc, tmp_path, name: str, reason: str) -
     return doc
 
 
+@pytest.mark.slow  # about 25 s: the page keeps a computed page for CACHE_S (20 s)
 def test_an_empty_store_is_not_monitored_and_the_daemon_says_so_at_night(tmp_path, mosquitto):
     cfg_path = night_site_config(tmp_path, mosquitto.port, DAEMON)
     db = load_config(cfg_path).storage.path
@@ -131,6 +132,7 @@ def test_readings_three_hours_old_are_not_monitored_since_the_last_one(tmp_path,
             daemon.terminate()
 
 
+@pytest.mark.slow  # about 40 s: the heartbeat must go stale (2 store intervals + 15 s) and the page cache expire
 def test_after_the_daemon_is_killed_the_page_says_it_stopped_and_nothing_is_watched(tmp_path, mosquitto):
     cfg_path = night_site_config(tmp_path, mosquitto.port, DAEMON)
     cfg = load_config(cfg_path)
