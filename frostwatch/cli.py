@@ -9,12 +9,20 @@ from __future__ import annotations
 
 import argparse
 import importlib
-import sqlite3
 import sys
 
-from frostwatch import __version__
 from frostwatch.commands import COMMAND_MODULES
 from frostwatch.errors import FrostwatchError, UsageError
+
+
+class _VersionAction(argparse.Action):
+    """`--version`: the installed version, looked up only when asked for (start-up time)."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        import frostwatch
+
+        print(f"frostwatch {frostwatch.__version__}")
+        parser.exit()
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -22,7 +30,7 @@ def build_parser() -> argparse.ArgumentParser:
         prog="frostwatch",
         description="Frost-protection advice for orchards and vineyards. It advises; the grower decides.",
     )
-    p.add_argument("--version", action="version", version=f"frostwatch {__version__}")
+    p.add_argument("--version", action=_VersionAction, nargs=0, help="show program's version number and exit")
     common = argparse.ArgumentParser(add_help=False)
     common.add_argument("--config", metavar="PATH", help="the site's config file (TOML)")
     common.add_argument("--json", action="store_true", help="print one JSON document on stdout and nothing else there")
@@ -31,6 +39,13 @@ def build_parser() -> argparse.ArgumentParser:
     for name in COMMAND_MODULES:
         importlib.import_module(name).register(sub, common)
     return p
+
+
+def _store_damage_errors() -> type[BaseException] | tuple:
+    """sqlite3.DatabaseError once a command has used SQLite (none can have come from it before):
+    `--help` and `calc` start without importing sqlite3."""
+    sqlite3 = sys.modules.get("sqlite3")
+    return sqlite3.DatabaseError if sqlite3 is not None else ()
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -44,7 +59,7 @@ def main(argv: list[str] | None = None) -> int:
     except FrostwatchError as exc:
         print(f"frostwatch: {exc}", file=sys.stderr)
         return 1
-    except sqlite3.DatabaseError as exc:
+    except _store_damage_errors() as exc:
         from frostwatch.store.db import OPENED, damaged_message, is_damage
 
         if not is_damage(exc):

@@ -300,8 +300,8 @@ _SECTION_VALIDATORS = (
     ("frostwatch.alerts.config", "load_alerts_config"),
     ("frostwatch.reports.settings", "report_settings"),
     ("frostwatch.reports.settings", "status_page_settings"),
-    ("frostwatch.daemon", "daemon_settings"),
-    ("frostwatch.ingest.mqtt", "mappings_from_config"),
+    ("frostwatch.daemon_settings", "daemon_settings"),
+    ("frostwatch.ingest.mappings", "mappings_from_config"),
     ("frostwatch.fleet.settings", "fleet_settings"),
 )
 
@@ -602,7 +602,7 @@ def effective_settings(cfg: Config) -> dict:
     }
     # the sections other modules own, with their defaults filled in (a valid config: load_config
     # has checked them already)
-    from frostwatch.daemon import daemon_settings
+    from frostwatch.daemon_settings import daemon_settings
     from frostwatch.fleet.settings import fleet_settings
     from frostwatch.reports.settings import status_page_settings
 

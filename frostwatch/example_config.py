@@ -56,7 +56,7 @@ def daemon_section() -> str:
     """[daemon], commented out: every key with its default and what it means."""
     import dataclasses
 
-    from frostwatch.daemon import _DAEMON_KEYS, DaemonSettings
+    from frostwatch.daemon_settings import _DAEMON_KEYS, DaemonSettings
 
     defaults = {f.name: f.default for f in dataclasses.fields(DaemonSettings)}
     lines = ["# The daemon (`frostwatch run`); every key is optional, shown with its default.", "# [daemon]"]

@@ -71,7 +71,7 @@ def read_liveness(store: Store, now_utc: dt.datetime) -> Liveness:
 def evaluation_limit_s(cfg: Config, now_utc: dt.datetime) -> float:
     """How old the newest decision may be: two of the daemon's evaluation intervals and a minute
     (the night interval inside the watch window, the day interval outside it)."""
-    from frostwatch.daemon import daemon_settings
+    from frostwatch.daemon_settings import daemon_settings
 
     s = daemon_settings(cfg)
     night = night_at(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, now_utc)

@@ -16,7 +16,6 @@ from __future__ import annotations
 import datetime as dt
 import os
 import re
-import tempfile
 from pathlib import Path
 
 from frostwatch.commands.common import _iso, _load, _out_json
@@ -65,6 +64,8 @@ def rewrite_stage(text: str, block_id: str, new_stage: str) -> str:
 
 def _write_atomic(path: Path, text: str) -> None:
     """Write beside the file, fsync, then rename over it: a crash leaves the old or the new file."""
+    import tempfile
+
     mode = path.stat().st_mode & 0o777
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:

@@ -26,9 +26,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 import numpy as np
-import sqlite_utils
 
-from frostwatch import __version__
 from frostwatch.errors import StoreError
 from frostwatch.models import Alert, Projection, Reading, Rejection
 from frostwatch.store.schema import MIGRATIONS, SCHEMA_VERSION
@@ -79,6 +77,8 @@ def from_ms(ms: int) -> dt.datetime:
 
 
 def _newer_schema_message(path: Path, version: int) -> str:
+    from frostwatch import __version__
+
     return (f"{path}: this store has schema version {version}, newer than frostwatch {__version__} "
             f"understands (schema version {SCHEMA_VERSION}), so it was written by a newer frostwatch: "
             "install that version again; the file was left as it is")
@@ -120,9 +120,19 @@ class Store:
 
     def __init__(self, conn: sqlite3.Connection, path: Path):
         self.conn = conn
-        self.db = sqlite_utils.Database(conn)
+        self._db = None
         self.path = path
         self.lock = threading.RLock()
+
+    @property
+    def db(self):
+        """The connection as a `sqlite_utils.Database`, made on first use: sqlite_utils imports
+        pandas when it is installed, 0.2-0.4 s that `frostwatch status` should not pay."""
+        if self._db is None:
+            import sqlite_utils
+
+            self._db = sqlite_utils.Database(self.conn)
+        return self._db
 
     # -- opening and migrations ----------------------------------------------------------------
     @classmethod
