@@ -9,8 +9,10 @@ code behind `frostwatch backtest --json`, with extra projections at chosen times
 
 Night classes: "radiation" nights have a mean wind below 2 m s-1 and a total sky cover never above
 3 tenths from sunset to sunrise, and a minimum below the site's cold limit; "cold" nights are all
-nights with a minimum below it (10 degC; 15 degC at Miami, where frost never comes). A class needs
-5 nights to be scored.
+nights with a minimum below it (10 degC; 15 degC at Miami, where frost never comes); "all" is every
+scored night. A class needs 5 nights to be scored. The first two classes are chosen by what the
+night did, which the simple methods fitted or averaged on the class exploit and a forecast issued
+at dusk cannot: "all" is the comparison free of that selection.
 
 Simple methods, on the same nights, from the hourly rows alone (not from frostwatch's view):
 - regression Tmin = b0 + b1 T + b2 Td on the last hourly row at or before sunset + 2 h (the issue
@@ -227,13 +229,12 @@ def run_site(key: str, work: Path) -> dict:
         t_row, td_row = a("_t_row", rs), a("_td_row", rs)
         c: dict = {"nights": len(rs)}
         c["frostwatch"] = _stats(a("predicted_min_c", rs), obs)
-        if name != "all":
-            c["regression_loo"] = _stats(loo_regression(t_row, td_row, obs), obs)
-            c["regression_walk_forward"] = _stats(walk_forward_regression(t_row, td_row, obs), obs)
-            c["mean_drop_walk_forward"] = _stats(walk_forward_mean_drop(t_row, obs), obs)
-            c["in_sample_t_td"] = _stats(in_sample([t_row, td_row], obs), obs)
-            c["in_sample_t_td_cloud_wind"] = _stats(
-                in_sample([t_row, td_row, a("t0_cloud_frac", rs), a("t0_wind_m_s", rs)], obs), obs)
+        c["regression_loo"] = _stats(loo_regression(t_row, td_row, obs), obs)
+        c["regression_walk_forward"] = _stats(walk_forward_regression(t_row, td_row, obs), obs)
+        c["mean_drop_walk_forward"] = _stats(walk_forward_mean_drop(t_row, obs), obs)
+        c["in_sample_t_td"] = _stats(in_sample([t_row, td_row], obs), obs)
+        c["in_sample_t_td_cloud_wind"] = _stats(
+            in_sample([t_row, td_row, a("t0_cloud_frac", rs), a("t0_wind_m_s", rs)], obs), obs)
         # the projection 2 h before the observed minimum, beside the naive drop on the same nights
         nc = [r for r in rs if r["probe_min2h"] is not None]
         if nc:
@@ -353,7 +354,7 @@ def print_report(res: dict) -> None:
     for s in res["sites"].values():
         cls = s["classes"]
         names = [c for c in ("radiation", "cold", "all") if c in cls]
-        print(f"\n{s['source']}{'' if s['tuned_on'] else ' (held out: nothing tuned here)'}: {s['readings']} readings, "
+        print(f"\n{s['source']}{'' if s['tuned_on'] else ' (held out: not used to choose anything)'}: {s['readings']} readings, "
               f"{s['nights_scored']} nights scored; conversion agrees with the raw parse: {s['conversion_agrees_with_raw_parse']}")
         head = "".join(f"{c + ' (' + str(cls[c]['nights']) + ')':>22}" for c in names)
         print(f"{'method (n, MAE, bias in degC)':<46}{head}")

@@ -78,9 +78,12 @@ def backtest(
                     "observed_min_c": round(rec.observed_min_c, 2),
                     "observed_min_at": _iso(rec.observed_min_at_utc),
                     "band_c": proj.band_c,
+                    "band_low_c": proj.band_low_c,
+                    "band_high_c": proj.band_high_c,
                     "regime": proj.regime,
                     "radiation_night": rec.radiation_night,
                     "calibration_nights": cal.n_nights,
+                    "protected": rec.protected,
                     "t0_temp_c": round(rec.t0_temp_c, 2),
                     "t0_dew_point_c": None if rec.t0_dew_point_c is None else round(rec.t0_dew_point_c, 2),
                     "t0_wind_m_s": None if rec.t0_wind_m_s is None else round(rec.t0_wind_m_s, 2),
@@ -117,7 +120,7 @@ def backtest(
                         row[f"probe_{name}"] = None if pn is None else probe_row(pn)
                 rows.append(row)
             # walk-forward: the night joins the history only after it has been forecast
-            ev.history[block.id].append(rec)
+            ev.add_record(block.id, rec)
         ev.learned.add(d)
         if progress:
             progress(k + 1, len(nights))

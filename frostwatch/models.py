@@ -56,6 +56,10 @@ class Projection:
     """A block's projected night from one evaluation.
 
     `curve_*` hold the projected crop-height air temperature from `time_utc` to sunrise.
+    `band_low_c` and `band_high_c` are the 80 % band of the minimum (10 % and 90 % points);
+    `band_c` is the distance from the minimum down to the band's cold edge (the safe side).
+    `crossings_utc` holds each threshold's crossing on the middle curve and, under the same key
+    with `_cold_edge`, on the curve to the band's cold edge (`curve_cold_edge_c`).
     """
 
     time_utc: dt.datetime
@@ -89,6 +93,13 @@ class Projection:
     # crossing of T10 + margin (or at the minimum), which sets the start air temperature
     dew_point_trend_c_per_h: float | None = None
     dew_point_at_start_c: float | None = None
+    # the 80 % band of the minimum and the curve to its cold edge (frostwatch.forecast)
+    band_low_c: float | None = None
+    band_high_c: float | None = None
+    curve_cold_edge_c: tuple[float, ...] = ()
+    # while the site is still learning (fewer past nights than [forecast] calibration_nights)
+    calibration_nights_known: int | None = None
+    calibration_nights_needed: int | None = None
 
 
 @dataclass(frozen=True)

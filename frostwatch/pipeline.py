@@ -22,7 +22,7 @@ from frostwatch.alerts.rules import BlockAlertState, rule_settings, step
 from frostwatch.config import Config
 from frostwatch.decision import Decision, summarise_projection
 from frostwatch.display import Display
-from frostwatch.forecast import Calibration, NightRecord, Series
+from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series
 from frostwatch.models import Alert, Projection
 from frostwatch.monitoring import block_monitoring, inputs_utc
 from frostwatch.night import Night, evening_date, night_of_date
@@ -41,7 +41,7 @@ def slice_series(series: Series, start_s: float, end_s: float) -> Series:
     return out
 
 
-RUNNING_QUANTITIES = ("wind_machine_running", "sprinkler_running")
+RUNNING_QUANTITIES = PROTECTION_QUANTITIES
 RUNNING_FRESH_S = 1800.0  # a running flag older than this says nothing about now
 
 
@@ -80,6 +80,7 @@ class Evaluator:
         self.states: dict[str, BlockAlertState] = {}
         self.rule_settings = rule_settings(cfg)
         self.history: dict[str, list[NightRecord]] = {b.id: [] for b in cfg.blocks}
+        self.learners: dict[str, Learner] = {b.id: Learner(cfg.forecast.calibration_nights) for b in cfg.blocks}
         self.learned: set[dt.date] = set()
         self._nights: dict[dt.date, Night] = {}
 
@@ -93,7 +94,14 @@ class Evaluator:
         return self.night(evening_date(t_utc, self.cfg.site.tz))
 
     def calibration(self, block_id: str) -> Calibration:
-        return forecast.fit_calibration(self.history[block_id], self.cfg.forecast.calibration_nights)
+        return self.learners[block_id].calibration()
+
+    def add_record(self, block_id: str, rec: NightRecord) -> None:
+        """A finished night joins the block's history and calibration (walk-forward: only after
+        its window is over). A night with protection running is kept in the history but not
+        learned from (its minimum is the protection's doing)."""
+        self.history[block_id].append(rec)
+        self.learners[block_id].learn(rec)
 
     def learn_night(self, night: Night, series: Series) -> list[NightRecord]:
         """Add a finished night's record to each block's history (walk-forward: call only after
@@ -108,7 +116,7 @@ class Evaluator:
         for b in self.cfg.blocks:
             rec = forecast.night_record(b, self.cfg, win, night, self.pressure_hpa)
             if rec is not None:
-                self.history[b.id].append(rec)
+                self.add_record(b.id, rec)
                 out.append(rec)
         return out
 
@@ -247,8 +255,11 @@ def with_time(p: Projection) -> dict:
         "predicted_min_c": p.predicted_min_c,
         "predicted_min_at": iso(p.predicted_min_at_utc),
         "band_c": p.band_c,
+        "band_low_c": p.band_low_c,
+        "band_high_c": p.band_high_c,
         "t10_crossing_at": iso(p.crossings_utc.get("t10")),
         "t10_margin_crossing_at": iso(p.crossings_utc.get("t10_margin")),
+        "t10_margin_cold_edge_crossing_at": iso(p.crossings_utc.get("t10_margin_cold_edge")),
         "t90_crossing_at": iso(p.crossings_utc.get("t90")),
         "wet_bulb_t10_crossing_at": iso(p.crossings_utc.get("wet_bulb_t10")),
         "inversion_c": p.inversion_c,

@@ -163,5 +163,50 @@ def test_learned_nowcast_is_walk_forward_and_follows_tonight(tmp_path):
     now = night.dusk_utc + dt.timedelta(hours=3)
     win = slice_series(series, night.sunset_utc.timestamp() - 6 * 3600, now.timestamp())
     p = forecast.project_block(now, cfg.blocks[0], cfg, win, night, cal)
-    assert p.method.startswith("nowcast (site-learned")
+    assert p.method.startswith("nowcast (") and "learned" in p.method
     assert abs(p.predicted_min_c - full[-1]["observed_min_c"]) < 1.0
+
+
+def test_every_projection_sees_only_its_past(tmp_path):
+    """Perturb every reading after a projection's time (air, dew point, wind, on this night and
+    all later ones): the projection made then (minimum, band, crossings) does not move, nor does
+    anything about earlier nights."""
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg)
+    k = 9
+
+    def probes(night, rec, obs):
+        return {"late": night.dusk_utc + dt.timedelta(hours=3)}
+
+    full = bt.backtest(cfg, series, probes=probes)
+    at = dt.datetime.fromisoformat(full[k]["probe_late"]["time"].replace("Z", "+00:00")).timestamp()
+    rng = np.random.default_rng(11)
+    changed = {}
+    for key, (t, v) in series.items():
+        v2 = v.copy()
+        after = t > at
+        v2[after] += rng.normal(0.0, 3.0, after.sum()) - 2.0
+        if key[1] == "wind_speed":
+            v2 = np.abs(v2)
+        changed[key] = (t, v2)
+    rows = bt.backtest(cfg, changed, probes=probes)
+    assert rows[k]["probe_late"] == full[k]["probe_late"]
+    assert rows[k]["band_low_c"] == full[k]["band_low_c"] and rows[k]["band_high_c"] == full[k]["band_high_c"]
+    for a, b in zip(rows[:k], full[:k], strict=True):
+        assert a == b
+
+
+def test_live_features_match_the_training_features():
+    """The nowcast learns from features computed for past nights in one pass (feature_matrix) and
+    is applied to features computed at one instant (features_at): they must be the same numbers."""
+    from frostwatch.forecast import nowcast
+
+    rng = np.random.default_rng(5)
+    t = np.cumsum(rng.uniform(200, 400, 200))
+    v = 10 - 1.4 * np.sqrt(np.maximum(t - 7200, 0) / 3600) + rng.normal(0, 0.2, len(t))
+    for now in (9000.0, 20000.0, 41000.0, float(t[120])):
+        one = nowcast.features_at(t, v, 7200.0, 10.0, 50000.0, now, 1.3, 0.4, 2.5)
+        latest, feats, ok = nowcast.feature_matrix(t, v, 7200.0, 10.0, 50000.0, np.array([now]), np.array([1.3]),
+                                                   np.array([0.4]), np.array([2.5]))
+        assert ok[0] and one[0] == latest[0]
+        assert np.allclose(one[1], feats[0], atol=1e-9)

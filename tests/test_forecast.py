@@ -115,8 +115,8 @@ def test_windy_and_cloudy_nights_are_flagged(tmp_path):
     night = night_for(cfg)
     later = night.dusk_utc + dt.timedelta(hours=3)
     p = forecast.project_block(later, cfg.blocks[0], cfg, evening_series(cfg, night, wind=4.0, until=later), night)
-    assert p.regime == "windy" and "observed trend" in p.method
-    assert any("radiation model does not hold" in n for n in p.notes)
+    assert p.regime == "windy" and p.method.startswith("nowcast")
+    assert any("radiation model does not hold" in n and "tonight's observed cooling" in n for n in p.notes)
     p = forecast.project_block(later, cfg.blocks[0], cfg, evening_series(cfg, night, cloud=0.9, until=later), night)
     assert p.regime == "cloudy"
 
@@ -138,13 +138,18 @@ def test_nowcast_follows_tonight(tmp_path):
 def test_crossings_are_ordered(tmp_path):
     cfg = make_cfg(tmp_path)
     night = night_for(cfg)
-    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=2.0, td_c=-9.0), night)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=0.0, td_c=-9.0), night)
     c = p.crossings_utc
     assert p.predicted_min_c < cfg.blocks[0].kill_90pct_c or c["t90"] is None
     assert c["t10_margin"] is not None and c["t10"] is not None
     assert c["t10_margin"] <= c["t10"]
     if c["t90"] is not None:
         assert c["t10"] <= c["t90"]
+    # the band's cold edge reaches each threshold no later than the middle curve
+    for k in ("t10_margin", "t10"):
+        assert c[f"{k}_cold_edge"] is not None and c[f"{k}_cold_edge"] <= c[k]
+    assert p.band_low_c <= p.predicted_min_c <= p.band_high_c
+    assert p.band_c == pytest.approx(p.predicted_min_c - p.band_low_c, abs=0.011)
 
 
 def test_wet_bulb_only_for_sprinkler_blocks(tmp_path):
@@ -288,9 +293,9 @@ def test_dusk_regression_is_reuters_square_root_law():
     cal = forecast.fit_calibration(recs, 10)
     assert cal.weight == 1.0
     x = forecast.feature_vector(0.95, -4.0, 0.0, 0.5)
-    assert cal.predict_c(0.0, x, 13.0) == pytest.approx(-5.45, abs=0.01)
+    assert cal.regression_c(x, 13.0) == pytest.approx(-5.45, abs=0.01)
     # a shorter night cools less, by the square root of its length
-    assert cal.predict_c(0.0, x, 6.5) == pytest.approx(0.95 + k * 6.5**0.5, abs=0.01)
+    assert cal.regression_c(x, 6.5) == pytest.approx(0.95 + k * 6.5**0.5, abs=0.01)
     # d Tn / d T0 is one on this site (every night drops by the same amount)
     assert cal.coefs[0] == pytest.approx(1.0, abs=1e-6)
 

@@ -196,7 +196,10 @@ def plan_advice(
     risk = risk_of(p, block, after_sunrise)
     # sprinklers are governed by the wet bulb (grower-needs C3), everything else by the air
     trigger = Trigger.WET_BULB if method.is_sprinkler and p.wet_bulb_c is not None else Trigger.AIR
-    crossing = p.crossings_utc.get("wet_bulb_t10_margin" if trigger is Trigger.WET_BULB else "t10_margin")
+    # act on the band's cold edge (the safe side): the earliest the line is likely reached
+    key = "wet_bulb_t10_margin" if trigger is Trigger.WET_BULB else "t10_margin"
+    middle = p.crossings_utc.get(key)
+    crossing = p.crossings_utc.get(f"{key}_cold_edge") or middle
     ready_by = crossing - dt.timedelta(minutes=block.mobilisation_min) if crossing else None
     base = dict(
         block=block.id, time_utc=now_utc, method=method, risk=risk, trigger=trigger, t10_c=t10,
@@ -204,7 +207,8 @@ def plan_advice(
         trigger_now_c=p.wet_bulb_c if trigger is Trigger.WET_BULB else p.air_temp_c, air_temp_c=p.air_temp_c,
         predicted_min_c=p.predicted_min_c, predicted_min_at_utc=p.predicted_min_at_utc, band_c=p.band_c,
         crossing_utc=crossing, ready_by_utc=ready_by, protection_running=protection_running, regime=p.regime,
-        wind_speed_m_s=p.wind_speed_m_s,
+        wind_speed_m_s=p.wind_speed_m_s, crossing_middle_utc=middle,
+        learning_nights_known=p.calibration_nights_known, learning_nights_needed=p.calibration_nights_needed,
     )
     if risk is Risk.UNKNOWN:
         return AdvicePlan(**base, step=Step.CHECK_SENSORS)

@@ -174,6 +174,13 @@ def reasons(plan: AdvicePlan, d: Display) -> list[str]:
         return out
     if plan.regime in _REGIME:
         out.append(_REGIME[plan.regime])
+    if plan.crossing_utc is not None and plan.crossing_middle_utc != plan.crossing_utc:
+        middle = f"at {d.time(plan.crossing_middle_utc)}" if plan.crossing_middle_utc else "not before sunrise"
+        out.append(f"times are from the cold edge of the 80 % band (the safe side): T10 + margin may be reached by "
+                   f"{d.time(plan.crossing_utc)}; the middle projection reaches it {middle}")
+    if plan.learning_nights_known is not None:
+        out.append(f"site still learning: {plan.learning_nights_known} of about {plan.learning_nights_needed} past "
+                   "nights known, so the projection's band is wide")
     v = plan.verdict
     if v is None or not v.advised:
         if plan.wind_speed_m_s is None:

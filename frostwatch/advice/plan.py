@@ -291,6 +291,12 @@ class AdvicePlan:
     verdicts: tuple[MethodVerdict, ...] = ()
     stop: StopCheck | None = None
     cautions: tuple[Caution, ...] = BASE_CAUTIONS
+    # `crossing_utc` is where the 80 % band's cold edge reaches T10 + margin (the safe side, which
+    # sets the ready-by time); the middle projection's crossing is kept beside it
+    crossing_middle_utc: dt.datetime | None = None
+    # while the site is still learning: past nights known and about how many it needs
+    learning_nights_known: int | None = None
+    learning_nights_needed: int | None = None
     version: int = PLAN_VERSION
 
     @property

@@ -130,6 +130,8 @@ def _reach(plan: AdvicePlan, d: Display) -> str:
     now_c = plan.trigger_now_c
     if now_c is not None and now_c <= plan.line_c and plan.risk is not Risk.MORNING:
         return f"{what} is already at or below {d.temp(plan.line_c)} (now {d.temp(now_c)})"
+    if plan.crossing_utc is not None and _from_cold_edge(plan):
+        return f"{what} may reach {d.temp(plan.line_c)} by {_t(d, plan.crossing_utc)} (the band's cold edge)"
     if plan.crossing_utc is not None:
         return f"{what} is projected to reach {d.temp(plan.line_c)} at {_t(d, plan.crossing_utc)}"
     if plan.risk in (Risk.LIKELY, Risk.NOW):
@@ -144,7 +146,14 @@ def _short_reach(plan: AdvicePlan, d: Display) -> str:
         return f"{TRIGGER_WORD[plan.trigger]} {d.temp(now_c)}, at or below T10 + margin {d.temp(plan.line_c)}"
     if plan.crossing_utc is None:
         return f"T10 + margin {d.temp(plan.line_c)} within reach"
+    if _from_cold_edge(plan):
+        return f"{TRIGGER_WORD[plan.trigger]} may reach {d.temp(plan.line_c)} (T10 + margin) by {_t(d, plan.crossing_utc)}"
     return f"{TRIGGER_WORD[plan.trigger]} projected to reach {d.temp(plan.line_c)} (T10 + margin) at {_t(d, plan.crossing_utc)}"
+
+
+def _from_cold_edge(plan: AdvicePlan) -> bool:
+    """True when the act time comes from the band's cold edge, earlier than the middle projection."""
+    return plan.crossing_utc is not None and plan.crossing_middle_utc != plan.crossing_utc
 
 
 def _at_t10(plan: AdvicePlan, d: Display) -> str:

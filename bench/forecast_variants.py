@@ -1,0 +1,166 @@
+"""The variants tried for the projection (issue 15), each measured by bench/forecast_skill.py on the
+same three open years, as a change from what ships; writes bench/results/forecast_variants.json.
+
+    python -m bench.forecast_variants          (about 2 minutes; not part of `python -m bench`)
+
+Each variant sets module constants of `frostwatch.forecast.calibration` for the run and restores
+them. Figures per site: dusk forecast MAE/bias on radiation, cold and all nights; the projection 2 h
+before the minimum (beside the naive drop) and 2 h before sunrise; the 80 % band's coverage at dusk
+and 2 h before the minimum; the median crossing error 3 h ahead; the cold-start bias; the "below
+0 degC" event's POD/FAR at dusk. Choices were made on Greensboro and Sand Point; Miami's figures
+are shown, not used to choose.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import tempfile
+from pathlib import Path
+
+from bench import forecast_skill as fs
+
+RESULTS = Path(__file__).resolve().parent / "results"
+
+VARIANTS: dict[str, dict[str, object]] = {
+    "shipped": {},
+    "dusk: K regression alone (no skill blend)": {"FORCE_DUSK_METHOD": "regression"},
+    "dusk: fall regression alone": {"FORCE_DUSK_METHOD": "drop_regression"},
+    "dusk: physics prior blended on every dusk (not only clear calm ones)": {"PRIOR_CLEAR_CALM_ONLY": False},
+    "dusk: one skill record (not split clear-calm / other)": {"SKILL_BY_REGIME": False},
+    "dusk: skill covariance shrunk halfway to its diagonal": {"SKILL_SHRINK": 0.5},
+    "dusk: all nights alike (no weighting toward similar T0)": {"SIMILAR_T0_C": None},
+    "dusk: nights weighted toward similar T0, s = 5 degC (not 8)": {"SIMILAR_T0_C": 5.0},
+    "dusk: no pressure tendency input": {"USE_PRESSURE_TREND": False},
+    "dusk: no evening curve": {"USE_EVENING": False},
+    "cold start: evening curve weight 0.5 (not 0.75)": {"COLD_EVENING_WEIGHT": 0.5},
+    "cold start: evening curve weight 1.0": {"COLD_EVENING_WEIGHT": 1.0},
+    "cold start: regression alone from the 3rd night (no learning mean)": {"LEARNING_MEAN": False},
+    "nowcast: learned alone (no skill blend)": {"NOWCAST_BLEND": False},
+    "nowcast: 40 points per bin before the learned nowcast (not 20)": {"NOWCAST_MIN_SAMPLES": 40},
+    "band: normal from the residual spread (not quantiles)": {"BAND_FROM_QUANTILES": False},
+    "band: dusk residuals not scaled by sqrt(hours to sunrise)": {"BAND_PER_SQRT_HOUR": False},
+}
+
+# What main had before this issue (commit 2a3d308, the same bench), for the record.
+BEFORE = {
+    "greensboro": {
+        "dusk_radiation": "1.57/+0.41",
+        "dusk_cold": "2.08/+0.34",
+        "dusk_all": "2.09/-0.59",
+        "before_min_2h_cold": "0.97/-0.37 (naive 0.72)",
+        "before_sunrise_2h_cold": "0.90",
+        "band_dusk_inside_below": "0.65/0.13",
+        "band_2h_inside_below": "0.81/0.09",
+        "crossing_3h_median_min": 80.7,
+        "cold_start_bias": 1.568,
+        "event_below_0_pod_far": "0.912/0.307"
+    },
+    "sand_point": {
+        "dusk_cold": "0.86/+0.08",
+        "dusk_all": "0.82/+0.05",
+        "before_min_2h_cold": "0.50/+0.26 (naive 0.40)",
+        "before_sunrise_2h_cold": "0.52",
+        "band_dusk_inside_below": "0.86/0.09",
+        "band_2h_inside_below": "0.70/0.26",
+        "crossing_3h_median_min": 124.6,
+        "cold_start_bias": -0.371,
+        "event_below_0_pod_far": "0.989/0.231"
+    },
+    "miami": {
+        "dusk_cold": "3.00/+1.35",
+        "dusk_all": "4.22/-3.41",
+        "before_min_2h_cold": "1.06/-0.50 (naive 0.56)",
+        "before_sunrise_2h_cold": "0.96",
+        "band_dusk_inside_below": "0.27/0.08",
+        "band_2h_inside_below": "0.55/0.07",
+        "crossing_3h_median_min": None,
+        "cold_start_bias": 0.609,
+        "event_below_0_pod_far": "None/None"
+    }
+}
+
+# Tried in a scratch walk-forward harness on the hourly rows (same nights, same classes), not
+# shipped; figures are MAE/bias in degC unless said.
+HARNESS = [
+    {"variant": "dusk regression + wind direction (north and east wind components)",
+     "figures": "Greensboro radiation 1.59/+0.88, cold 2.06; Miami cold 2.58 (from 3.30): no gain where frost matters"},
+    {"variant": "dusk regression + 24 h change of T, of Td; + 3 h dew-point trend; + yesterday's minimum",
+     "figures": "each within +-0.05 of the base on every site; all of them together worse (Greensboro radiation 1.95)"},
+    {"variant": "dusk regression weighted toward nights whose outcome was near tonight's first guess (s = 2, 3, 5 degC)",
+     "figures": "Greensboro cold 2.10-2.16 (base 2.04), Sand Point 0.88-0.91 (0.86): worse"},
+    {"variant": "exponentially recent-weighted dusk regression (half-life 30 / 90 nights)",
+     "figures": "Greensboro cold 2.05 / 2.02 (base 2.04): no gain"},
+    {"variant": "running bias correction of the dusk regression (EWMA of errors, half-life 5 / 15 nights)",
+     "figures": "Greensboro radiation bias +0.17 / +0.48 but cold MAE 2.19 / 2.10 (base 2.04)"},
+    {"variant": "inverse-MSE weights (no error covariance) for the skill blend",
+     "figures": "Greensboro cold 2.12, Sand Point 0.93: the prior kept a third of the weight with twice the error"},
+    {"variant": "nowcast: per-hour-left constant (the mean fall still to come at that hour left)",
+     "figures": "2 h before the minimum Greensboro 0.95, Sand Point 0.49, naive 0.72 / 0.39"},
+    {"variant": "nowcast: path model (T 1..8 h ahead regressed per lead) for crossing times",
+     "figures": "T10 + margin crossing 3 h ahead, median |error| Greensboro 93 min, Sand Point 193 min (shipped curve ~110 / ~110)"},
+    {"variant": "physics prior: latent heat of the deposit kept in the layer's capacity (before)",
+     "figures": "FAO-FP sample MAE 1.25 (1.07 without); Greensboro clear calm nights bias +1.3 (+0.7 without)"},
+    {"variant": "physics prior: Brunt's clock from sunset (onset 2 h before t0), constant retuned (700)",
+     "figures": "FAO-FP sample MAE 1.06 (same); Greensboro clear calm nights +0.8 (+0.6 from t0): not taken"},
+]
+
+
+def _row(res: dict) -> dict:
+    out = {}
+    for key, s in res.items():
+        c = s["classes"]
+        row: dict = {}
+        for cl in ("radiation", "cold", "all"):
+            if cl in c:
+                f = c[cl]["frostwatch"]
+                row[f"dusk_{cl}"] = f"{f['mae_c']:.2f}/{f['bias_c']:+.2f}"
+        cc = c["cold"]
+        p, n = cc.get("projection_2h_before_min"), cc.get("naive_2h_before_min")
+        row["before_min_2h_cold"] = f"{p['mae_c']:.2f}/{p['bias_c']:+.2f} (naive {n['mae_c']:.2f})"
+        sr = cc.get("projection_2h_before_sunrise")
+        row["before_sunrise_2h_cold"] = f"{sr['mae_c']:.2f}"
+        a = c["all"]
+        row["band_dusk_inside_below"] = f"{a['band_inside_frac']:.2f}/{a['band_below_frac']:.2f}"
+        row["band_2h_inside_below"] = f"{a.get('band_2h_inside_frac', 0):.2f}/{a.get('band_2h_below_frac', 0):.2f}"
+        x = s["crossings"].get("lead_3h", {})
+        row["crossing_3h_median_min"] = x.get("median_abs_min")
+        row["cold_start_bias"] = s["cold_start"].get("bias_c")
+        ev = s["events"].get("below 0 degC", {})
+        row["event_below_0_pod_far"] = f"{ev.get('pod')}/{ev.get('far')}"
+        out[key] = row
+    return out
+
+
+def run_variant(patch: dict[str, object]) -> dict:
+    from frostwatch.forecast import calibration as cal
+    from frostwatch.forecast import projection as proj
+
+    old = {k: getattr(cal, k) for k in patch}
+    try:
+        for k, v in patch.items():
+            setattr(cal, k, v)
+        proj._prior_cached.cache_clear()
+        return {k: fs.run_site(k, Path(tempfile.mkdtemp(prefix="fw-variant-"))) for k in fs.tmy.SITES}
+    finally:
+        for k, v in old.items():
+            setattr(cal, k, v)
+
+
+def main(argv: list[str] | None = None) -> int:
+    rows = []
+    for name, patch in VARIANTS.items():
+        res = run_variant(patch)
+        rows.append({"variant": name, "change": {k: v for k, v in patch.items()}, "sites": _row(res)})
+        print(name, json.dumps(rows[-1]["sites"]), flush=True)
+    doc = {"about": __doc__.split("\n\n")[0] + " " + __doc__.split("\n\n")[2].replace("\n", " "),
+           "cells": "MAE/bias in degC; band: share inside / share below the lower edge; event: POD/FAR",
+           "before_2a3d308": BEFORE, "variants": rows, "harness": HARNESS}
+    RESULTS.mkdir(parents=True, exist_ok=True)
+    (RESULTS / "forecast_variants.json").write_text(json.dumps(doc, indent=1) + "\n", encoding="utf-8")
+    print(f"results: {RESULTS / 'forecast_variants.json'}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,39 @@
+"""A block's night, projected (`project_block`), and the site's calibration learned from its own
+past nights (`Learner`, `Calibration`, `night_record`). Topics: `sensors` (which sensor speaks,
+values known at an instant), `calibration` (the learned models, skill weights and band),
+`nowcast` (tonight's cooling as features), `projection` (the projection and what a night did),
+`inversion` (tower minus crop height).
+"""
+
+from frostwatch.forecast.calibration import (
+    FEATURES,
+    MIN_REGRESSION_NIGHTS,
+    NOWCAST_FEATURES,
+    PRIOR_BAND_C,
+    PROTECTION_QUANTITIES,
+    Calibration,
+    Learner,
+    NightRecord,
+    feature_vector,
+    fit_calibration,
+)
+from frostwatch.forecast.nowcast import feature_matrix, features_at
+from frostwatch.forecast.projection import crossing_time, night_record, prior_c, project_block
+from frostwatch.forecast.sensors import (
+    STUCK_MIN_READINGS,
+    STUCK_WINDOW_S,
+    DuskInputs,
+    Series,
+    as_of,
+    dusk_inputs,
+    speaking_station,
+    station_state,
+    usual_interval_s,
+)
+
+__all__ = [
+    "FEATURES", "MIN_REGRESSION_NIGHTS", "NOWCAST_FEATURES", "PRIOR_BAND_C", "PROTECTION_QUANTITIES",
+    "STUCK_MIN_READINGS", "STUCK_WINDOW_S", "Calibration", "DuskInputs", "Learner", "NightRecord", "Series",
+    "as_of", "crossing_time", "dusk_inputs", "feature_matrix", "feature_vector", "features_at", "fit_calibration",
+    "night_record", "prior_c", "project_block", "speaking_station", "station_state", "usual_interval_s",
+]

@@ -1,0 +1,433 @@
+"""A block's night, projected: the dusk forecast, the nowcast, the 80 % band and the crossing times
+of the stage's critical temperatures. Pure: readings, config, a calibration and an injected `now`
+in, a `Projection` out. Also what a finished night did (`night_record`), for the calibration.
+
+The dusk forecast follows FAO-FP ch. 5 (Snyder & de Melo-Abreu 2005): at t0 = sunset + 2 h the
+night minimum comes from the site's regression on what is known then, or from the physics prior
+(`frostwatch.physics.cooling.clear_night_minimum_prior_c`) while the site is still learning (see
+`calibration.Calibration`). The trend from now to sunrise is Reuter's square-root curve
+T(t) = T0 + b' sqrt(t - t0). After t0 the minimum is re-projected at every evaluation from
+tonight's own cooling (the nowcast). The band's cold edge gets its own curve and crossings: the
+alerts take the act time from it (the safe side).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import math
+
+import numpy as np
+
+from frostwatch import drying
+from frostwatch import towers as towers_mod
+from frostwatch.config import Block, Config, Station
+from frostwatch.forecast import inversion as inv
+from frostwatch.forecast.calibration import PROTECTION_QUANTITIES, Calibration, NightRecord, feature_vector
+from frostwatch.forecast.nowcast import feature_matrix, features_at
+from frostwatch.forecast.sensors import (
+    ASSUMED_DEPRESSION_C,
+    INPUT_WINDOW_S,
+    Series,
+    as_of,
+    cloud_frac_now,
+    dew_point_of,
+    dusk_inputs,
+    mean_as_of,
+    means_as_of,
+    speaking_station,
+    station_state,
+    usual_interval_s,
+    window_stat,
+)
+from frostwatch.models import Projection
+from frostwatch.night import Night
+from frostwatch.physics import cooling, humidity
+
+RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean wind was below this
+RADIATION_NIGHT_CLOUD_FRAC = 0.3  # ... and its cloud never above this (FAO-FP ch. 5 usage)
+CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is flagged as not holding
+GRID_STEP_S = 300.0
+SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
+NOWCAST_SAMPLE_STEP_S = 1800.0  # one training point per half hour of a past night
+NOWCAST_START_S = 1800.0  # the nowcast's training points start half an hour after t0
+MIN_BAND_C = 0.3
+
+
+@functools.lru_cache(maxsize=4096)
+def _prior_cached(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
+    return float(cooling.clear_night_minimum_prior_c(
+        t0_c, td_c, hours, wind_speed_m_s=wind, cloud_frac=cloud, pressure_hpa=p_hpa
+    ))
+
+
+def prior_c(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
+    """The physics prior, memoised on inputs rounded well inside their measurement error."""
+    return _prior_cached(round(t0_c, 2), round(td_c, 2), round(hours, 2), round(wind, 1), round(cloud, 2), round(p_hpa))
+
+
+def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
+    """First time the curve is at or below the threshold, interpolated; None if it never is."""
+    below = np.nonzero(curve_c <= threshold_c)[0]
+    if len(below) == 0:
+        return None
+    i = int(below[0])
+    if i == 0:
+        return float(grid_s[0])
+    c0, c1 = curve_c[i - 1], curve_c[i]
+    f = (c0 - threshold_c) / (c0 - c1) if c0 != c1 else 1.0
+    return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
+
+
+def _utc(t_s: float | None) -> dt.datetime | None:
+    return None if t_s is None else dt.datetime.fromtimestamp(round(t_s), tz=dt.UTC)
+
+
+EVENING_FROM_S = 3600.0  # the evening curve is fitted to readings from an hour before sunset
+
+
+def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float) -> float | None:
+    """Tonight's evening cooling carried to sunrise: T = a + b sqrt(t - sunset) fitted by least
+    squares to the readings from an hour before sunset to t0 (time before sunset counts as 0),
+    b <= 0, and the fall b (sqrt(sunrise - sunset) - sqrt(t0 - sunset)) added to T0. Reuter's
+    curve from the evening itself, known at dusk before any past night; None with fewer than 3
+    readings."""
+    i0 = int(np.searchsorted(t_s, sunset_s - EVENING_FROM_S, side="left"))
+    i1 = int(np.searchsorted(t_s, t0_s, side="right"))
+    if i1 - i0 < 3:
+        return None
+    x = np.sqrt(np.maximum(0.0, (t_s[i0:i1] - sunset_s) / 3600.0))
+    y = v_c[i0:i1]
+    xm = x.mean()
+    den = float(np.sum((x - xm) ** 2))
+    if den <= 1e-9:
+        return None
+    b = min(0.0, float(np.sum((x - xm) * (y - y.mean())) / den))
+    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
+
+
+def _learning_note(cal: Calibration) -> str | None:
+    if not cal.learning:
+        return None
+    if cal.n_nights == 0:
+        return (f"site still learning: no past night known yet (needs about {cal.calibration_nights}); "
+                "the minimum is from tonight's evening cooling and the physics prior alone, treat it with care")
+    return (f"site still learning: {cal.n_nights} of about {cal.calibration_nights} past nights known; "
+            "the band is wide until more are")
+
+
+def project_block(
+    now_utc: dt.datetime,
+    block: Block,
+    cfg: Config,
+    series: Series,
+    night: Night,
+    calibration: Calibration | None = None,
+    pressure_hpa: float | None = None,
+) -> Projection:
+    """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise."""
+    now_s = now_utc.timestamp()
+    fc = cfg.forecast
+    cal = calibration or Calibration(calibration_nights=fc.calibration_nights)
+    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+    stations = cfg.stations_of(block.id)
+    site_stations = [s for s in cfg.stations if s.block is None]
+    states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in stations]
+    site_states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in site_stations]
+    notes = [p for s in states for p in s.problems]
+    speaker = speaking_station(states)
+    base = dict(time_utc=now_utc, block=block.id, sunset_utc=night.sunset_utc, sunrise_utc=night.sunrise_utc)
+    if speaker is None:
+        notes.append(f"block {block.id}: no healthy crop-height sensor; no projection can be made")
+        return Projection(
+            **base, station=None, air_temp_c=None, dew_point_c=None, wet_bulb_c=None,
+            predicted_min_c=None, predicted_min_at_utc=None, band_c=None, crossings_utc={},
+            inversion_c=None, projected_inversion_c=None, inversion_class=None, wind_speed_m_s=None,
+            regime="unmonitored", method="none", notes=tuple(notes),
+        )
+
+    air_c = speaker.latest["air_temperature"]
+    td_c = dew_point_of(speaker, [s for s in states if s is not speaker] + site_states)
+    if td_c is not None:
+        td_c = min(td_c, air_c)
+    wind = mean_as_of(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
+    if wind is None:
+        # no anemometer in the block or site-wide: the farm's wind is better than none
+        others = [s.id for s in cfg.stations if s.block not in (block.id, None)]
+        wind = mean_as_of(series, others, "wind_speed", now_s, INPUT_WINDOW_S)
+        if wind is not None:
+            notes.append("no wind sensor in this block: wind from the farm's other sensors")
+    cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
+    if cloud is None:
+        notes.append("no sky or cloud sensor: clear sky assumed")
+    regime = "radiation"
+    if wind is not None and wind > fc.radiation_wind_limit_m_s:
+        regime = "windy"
+        notes.append(f"wind {wind:.1f} m/s is above {fc.radiation_wind_limit_m_s:g} m/s: radiation model does not hold; "
+                     "projection leans on tonight's observed cooling")
+    elif cloud is not None and cloud >= CLOUDY_FRAC:
+        regime = "cloudy"
+        notes.append(f"cloud fraction {cloud:.1f}: radiation model does not hold; projection leans on tonight's observed cooling")
+    learning = _learning_note(cal)
+    if learning:
+        notes.append(learning)
+    if cal.n_protected:
+        notes.append(f"{cal.n_protected} past night(s) with protection running left out of the calibration")
+
+    sunrise_s, dusk_s = night.sunrise_utc.timestamp(), night.dusk_utc.timestamp()
+    hours_left = max(0.0, (sunrise_s - now_s) / 3600.0)
+    t_air, v_air = series[(speaker.station, "air_temperature")]
+    upto = t_air <= now_s
+    t_air, v_air = t_air[upto], v_air[upto]
+
+    # the dusk forecast: at t0 if we are past it, else from the latest values
+    di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s) if now_s >= dusk_s else None
+    if di is not None:
+        t0_c, td0_c, wind0, cloud0, trend0 = di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s
+        p_trend0 = di.pressure_trend_hpa
+        t0_s, method = dusk_s, "dusk forecast"
+    else:
+        t0_c, td0_c, wind0, cloud0, t0_s, method = air_c, td_c, wind, cloud, now_s, "pre-dusk estimate"
+        trend0 = p_trend0 = None
+    h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
+    x = feature_vector(t0_c, td0_c, cloud0, wind0, trend0, p_trend0)
+    prior = prior_c(t0_c, x[1], h_from_t0, x[3], x[2], p_hpa)
+    if not math.isfinite(prior):
+        notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
+        prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
+    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s) if di is not None else None
+    tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
+    if td0_c is None:
+        notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
+    b_dusk = (tp_dusk - t0_c) / math.sqrt(h_from_t0)
+    lo_off, hi_off = cal.dusk_band_c(h_from_t0)
+
+    e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
+    anchor_c = as_of(series, speaker.station, "air_temperature", now_s, math.inf) or air_c
+    tp_c = tp_dusk
+    if di is not None and now_s > t0_s and now_s < sunrise_s:
+        f = features_at(t_air, v_air, t0_s, t0_c, sunrise_s, now_s, wind, cloud, td_c)
+        if f is not None:
+            latest_c, feats = f
+            dusk_drop = b_dusk * (math.sqrt(h_from_t0) - e_now)
+            drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now)
+            tp_c = latest_c + drop
+            lo_off, hi_off, _ = cal.nowcast_band(hours_left)
+            method = f"nowcast ({spoke})"
+    tp_c = min(tp_c, anchor_c)
+
+    grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, GRID_STEP_S)
+    if grid_s[-1] < sunrise_s:
+        grid_s = np.append(grid_s, sunrise_s)
+    e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+    span = math.sqrt(h_from_t0) - e_now
+
+    def sqrt_curve(target_c: float) -> np.ndarray:
+        """From the air now to `target_c` at sunrise on the square-root clock since t0."""
+        if span <= 0.05:
+            return np.full(len(grid_s), min(anchor_c, target_c))
+        return anchor_c + (min(target_c, anchor_c) - anchor_c) / span * (e_grid - e_now)
+
+    band_low_c = tp_c + min(lo_off, -MIN_BAND_C / 2)
+    band_high_c = tp_c + max(hi_off, MIN_BAND_C / 2)
+    curve = sqrt_curve(tp_c)
+    cold_curve = sqrt_curve(band_low_c)
+
+    wet_c = None
+    td_trend = td_at_start = None  # the dew point's fall tonight, for sprinkler blocks (below)
+    crossings: dict[str, dt.datetime | None] = {}
+    if now_s >= sunrise_s:
+        # after sunrise: report what was observed, project nothing
+        night_sel = t_air >= night.sunset_utc.timestamp()
+        obs = v_air[night_sel] if night_sel.any() else v_air
+        i = int(np.argmin(obs))
+        tmin_c = float(obs[i])
+        tmin_at = _utc(float(t_air[night_sel][i] if night_sel.any() else t_air[i]))
+        if td_c is not None and block.protection in SPRINKLER_METHODS:
+            wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+            wet_c = wet_c if math.isfinite(wet_c) else None
+        method = "observed (after sunrise)"
+        band_low_c = band_high_c = tmin_c
+    else:
+        i = int(np.argmin(curve))
+        tmin_c = float(curve[i])
+        tmin_at = _utc(float(grid_s[i]))
+        thresholds = {"t10_margin": block.kill_10pct_c + block.margin_c, "t10": block.kill_10pct_c, "t90": block.kill_90pct_c}
+        for k, thr in thresholds.items():
+            crossings[k] = _utc(crossing_time(grid_s, curve, thr))
+            crossings[f"{k}_cold_edge"] = _utc(crossing_time(grid_s, cold_curve, thr))
+        if td_c is not None and block.protection in SPRINKLER_METHODS:
+            # the wet-bulb crossings follow tonight's dew point as it falls (frostwatch.drying):
+            # at each grid point the air temperature whose wet bulb is the threshold, at that
+            # point's projected dew point, in closed form (ASHRAE eqs. 33/35)
+            wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+            wet_c = wet_c if math.isfinite(wet_c) else None
+            hist = drying.dew_point_history(series, [speaker.station] + [s.station for s in states + site_states
+                                                                          if s is not speaker], now_s)
+            td_trend = None if hist is None else drying.dew_point_trend_c_per_h(hist[0], hist[1], now_s)
+            fall = drying.projected_fall_c_per_h(td_trend)
+            td_curve = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, curve)
+            td_cold = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, cold_curve)
+            for key, thr in (("wet_bulb_t10_margin", thresholds["t10_margin"]), ("wet_bulb_t10", thresholds["t10"])):
+                crossings[key] = _utc(drying.wet_bulb_crossing_s(grid_s, curve, td_curve, thr, p_hpa))
+                crossings[f"{key}_cold_edge"] = _utc(drying.wet_bulb_crossing_s(grid_s, cold_curve, td_cold, thr, p_hpa))
+            at = crossings["wet_bulb_t10_margin"] or tmin_at
+            td_at_start = float(np.interp(at.timestamp(), grid_s, td_curve)) if at is not None else td_c
+
+    # inversion: tower minus crop height, now and projected to the minimum; a block without a
+    # tower of its own uses the nearest (or the site-wide) one (frostwatch.towers)
+    tower_states = {s.station: s for s in states + site_states}
+    for st in cfg.stations:
+        if st.role == "tower" and st.id not in tower_states:
+            tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
+    choice = towers_mod.tower_for_block(cfg, block, tower_states)
+    inv_c, proj_inv_c, inv_class = inv.inversion(
+        tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s, tmin_c, tmin_at.timestamp() if tmin_at else None, regime == "radiation")
+    if inv_c is None:
+        notes.append("no tower sensor: inversion not measured")
+    tower_fields = {} if choice is None else dict(
+        tower_station=choice.station, tower_own=choice.own, tower_site_wide=choice.site_wide,
+        tower_distance_m=None if choice.distance_m is None else round(choice.distance_m, 0))
+    drying_fields = {} if td_trend is None and td_at_start is None else dict(
+        dew_point_trend_c_per_h=None if td_trend is None else round(td_trend, 2),
+        dew_point_at_start_c=None if td_at_start is None else round(td_at_start, 2))
+    step = max(1, len(grid_s) // 48)
+    projecting = now_s < sunrise_s
+    return Projection(
+        **base,
+        station=speaker.station,
+        air_temp_c=air_c,
+        dew_point_c=td_c,
+        wet_bulb_c=wet_c,
+        predicted_min_c=round(tmin_c, 2),
+        predicted_min_at_utc=tmin_at,
+        band_c=round(max(0.0, tmin_c - band_low_c), 2) if projecting else 0.0,
+        crossings_utc=crossings,
+        inversion_c=None if inv_c is None else round(inv_c, 2),
+        projected_inversion_c=None if proj_inv_c is None else round(proj_inv_c, 2),
+        inversion_class=inv_class,
+        wind_speed_m_s=None if wind is None else round(wind, 2),
+        regime=regime,
+        method=method,
+        notes=tuple(notes),
+        curve_time_utc=tuple(_utc(float(s)) for s in grid_s[::step]) if projecting else (),
+        curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if projecting else (),
+        band_low_c=round(min(band_low_c, tmin_c), 2),
+        band_high_c=round(max(band_high_c, tmin_c), 2),
+        curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if projecting else (),
+        calibration_nights_known=cal.n_nights if cal.learning else None,
+        calibration_nights_needed=cal.calibration_nights if cal.learning else None,
+        **tower_fields,
+        **drying_fields,
+    )
+
+
+# ---- what a night did, for calibration and backtests -------------------------------------------
+
+
+def _protected(series: Series, stations: list[Station], start_s: float, end_s: float) -> bool:
+    """True when any running flag of the block's stations reads on in [start, end]."""
+    for s in stations:
+        for q in PROTECTION_QUANTITIES:
+            if (s.id, q) in series:
+                t, v = series[(s.id, q)]
+                i, j = int(np.searchsorted(t, start_s, side="left")), int(np.searchsorted(t, end_s, side="right"))
+                if np.any(v[i:j] >= 0.5):
+                    return True
+    return False
+
+
+def night_record(
+    block: Block, cfg: Config, series: Series, night: Night, pressure_hpa: float | None = None
+) -> NightRecord | None:
+    """What a finished night did at a block's speaking sensor: its inputs at t0, as a forecast
+    issued then saw them (readings up to t0 only), and the observed minimum from t0 to one hour
+    after sunrise. None when the night is not covered: no healthy crop-height sensor at t0, or a
+    gap of more than `stale_after_intervals` intervals in its readings over the window.
+    """
+    dusk_s = night.dusk_utc.timestamp()
+    sunset_s = night.sunset_utc.timestamp()
+    sunrise_s = night.sunrise_utc.timestamp()
+    end_s = sunrise_s + 3600.0
+    stations = cfg.stations_of(block.id)
+    site = [s for s in cfg.stations if s.block is None]
+    states = [station_state(s, series, dusk_s, cfg.forecast.stale_after_intervals) for s in stations]
+    speaker = speaking_station(states)
+    if speaker is None:
+        return None
+    t, v = series[(speaker.station, "air_temperature")]
+    st = next(s for s in stations if s.id == speaker.station)
+    max_gap = cfg.forecast.stale_after_intervals * usual_interval_s(t[t <= dusk_s], st.interval_s)
+    i0, i1 = int(np.searchsorted(t, dusk_s, side="left")), int(np.searchsorted(t, end_s, side="right"))
+    tw, vw = t[i0:i1], v[i0:i1]
+    if len(tw) < 3 or tw[0] - dusk_s > max_gap or sunrise_s - tw[-1] > max_gap or np.any(np.diff(tw) > max_gap):
+        return None
+    di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s)
+    if di is None:
+        return None
+    i = int(np.argmin(vw))
+    ids = [s.id for s in stations + site]
+    wind = window_stat(series, ids, "wind_speed", sunset_s, sunrise_s, np.mean)
+    cloud = window_stat(series, [s.id for s in cfg.stations], "cloud_area_fraction", sunset_s, sunrise_s, np.max)
+    if cloud is None and di.cloud_frac is not None:
+        cloud = di.cloud_frac  # a sky sensor: its estimate at t0
+    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+    h = night.hours_to_sunrise(night.dusk_utc)
+    x = feature_vector(di.temp_c, di.dew_point_c, di.cloud_frac, di.wind_m_s, di.wind_trend_m_s, di.pressure_trend_hpa)
+    radiation = (wind is None or wind < RADIATION_NIGHT_WIND_M_S) and (cloud is None or cloud <= RADIATION_NIGHT_CLOUD_FRAC)
+    return NightRecord(
+        night=night.date,
+        station=speaker.station,
+        t0_temp_c=di.temp_c,
+        t0_dew_point_c=di.dew_point_c,
+        hours_to_sunrise=h,
+        observed_min_c=float(vw[i]),
+        observed_min_at_utc=_utc(float(tw[i])),
+        mean_wind_m_s=wind,
+        max_cloud_frac=cloud,
+        prior_c=prior_c(di.temp_c, x[1], h, x[3], x[2], p_hpa),
+        radiation_night=radiation,
+        t0_wind_m_s=di.wind_m_s,
+        t0_cloud_frac=di.cloud_frac,
+        t0_wind_trend_m_s=di.wind_trend_m_s,
+        t0_pressure_trend_hpa=di.pressure_trend_hpa,
+        evening_curve_c=evening_curve_c(t, v, sunset_s, dusk_s, di.temp_c, sunrise_s),
+        nowcast_samples=_nowcast_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
+        protected=_protected(series, stations, dusk_s - 3600.0, end_s),
+    )
+
+
+def _nowcast_samples(
+    cfg: Config, series: Series, station: str, stations: list[Station], t: np.ndarray, v: np.ndarray,
+    t0_s: float, t0_c: float, sunrise_s: float, end_s: float,
+) -> tuple[tuple[tuple[float, ...], float], ...]:
+    """Training points for the nowcast: the first reading at or after each half hour from t0 +
+    30 min to sunrise, the features as known then and the fall still to come (the minimum from
+    then to `end_s`, minus the reading then). Built from arrays, no loop over readings."""
+    i_end = int(np.searchsorted(t, end_s, side="right"))
+    grid = np.arange(t0_s + NOWCAST_START_S, sunrise_s + 1.0, NOWCAST_SAMPLE_STEP_S)
+    idx = np.unique(np.searchsorted(t, grid, side="left"))
+    idx = idx[(idx < i_end) & (t[np.minimum(idx, len(t) - 1)] <= sunrise_s)]
+    if not len(idx):
+        return ()
+    times = t[idx]
+    ids = [s.id for s in stations] + [s.id for s in cfg.stations if s.block is None]
+    wind = means_as_of(series, ids, "wind_speed", times, INPUT_WINDOW_S)
+    cloud = means_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", times, INPUT_WINDOW_S)
+    td = np.full(len(times), np.nan)
+    for sid in [station] + [i for i in ids if i != station]:
+        missing = np.isnan(td)
+        if not missing.any():
+            break
+        d = means_as_of(series, [sid], "dew_point_temperature", times, INPUT_WINDOW_S)
+        rh = means_as_of(series, [sid], "relative_humidity", times, INPUT_WINDOW_S)
+        ta = v[idx] if sid == station else means_as_of(series, [sid], "air_temperature", times, INPUT_WINDOW_S)
+        ok = np.isfinite(rh) & np.isfinite(ta)
+        from_rh = np.full(len(times), np.nan)
+        if ok.any():
+            from_rh[ok] = np.asarray(humidity.dew_point_c_from_rel_humidity(ta[ok], np.clip(rh[ok], 1.0, 100.0)), dtype=float)
+        td = np.where(missing, np.where(np.isfinite(d), d, from_rh), td)
+    latest, feats, ok = feature_matrix(t, v, t0_s, t0_c, sunrise_s, times, wind, cloud, td)
+    tail_min = np.minimum.accumulate(v[: i_end][::-1])[::-1]
+    drops = tail_min[idx] - v[idx]
+    return tuple((tuple(float(x) for x in feats[k]), float(drops[k])) for k in range(len(idx)) if ok[k])

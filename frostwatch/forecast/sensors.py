@@ -1,0 +1,275 @@
+"""Which sensor speaks for a block, and what the readings say at an instant, from readings up to
+that instant only. Pure: series in, values out.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from frostwatch.config import Config, Station
+from frostwatch.models import StationState
+from frostwatch.physics import humidity
+from frostwatch.units import QUANTITIES
+
+Series = dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]
+
+MIN_INTERVAL_S = 60.0  # a sensor is never expected more often than once a minute
+DEFAULT_INTERVAL_S = 300.0  # assumed when a sensor has too few readings to tell
+STUCK_WINDOW_S = 3600.0  # a crop-height air sensor flat to the last digit this long is suspect
+STUCK_MIN_READINGS = 10  # a 5-min sensor gives 12-13 readings an hour
+EXTRAPOLATE_AFTER_S = 600.0  # a value older than this is carried along the last slope
+INPUT_WINDOW_S = 3600.0  # wind and cloud at an instant: the mean of the last hour (or one interval)
+WIND_TREND_S = 3 * 3600.0  # the dusk wind (and pressure) trend: value at t0 minus this long before
+ASSUMED_DEPRESSION_C = 6.0  # dew-point depression assumed with no humidity sensor
+
+
+def usual_interval_s(t_s: np.ndarray, configured_s: float | None) -> float:
+    """A station's usual reporting interval: the config's, or the median gap of its last readings."""
+    if configured_s:
+        return float(configured_s)
+    if len(t_s) < 3:
+        return DEFAULT_INTERVAL_S
+    gaps = np.diff(t_s[-20:])
+    gaps = gaps[gaps > 0]
+    return max(MIN_INTERVAL_S, float(np.median(gaps))) if len(gaps) else DEFAULT_INTERVAL_S
+
+
+def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float) -> StationState:
+    """Latest values of a station and whether its air temperature can be trusted now."""
+    latest: dict[str, float] = {}
+    latest_at: dict[str, dt.datetime] = {}
+    problems: list[str] = []
+    for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
+        if (st.id, q) not in series:
+            continue
+        t, v = series[(st.id, q)]
+        if len(t) == 0:
+            continue
+        idx = np.searchsorted(t, now_s, side="right") - 1
+        if idx < 0:
+            continue
+        latest[q] = float(v[idx])
+        latest_at[q] = dt.datetime.fromtimestamp(float(t[idx]), tz=dt.UTC)
+    healthy = True
+    key = (st.id, "air_temperature")
+    if st.role in ("crop", "tower"):
+        if key not in series or "air_temperature" not in latest:
+            healthy = False
+            problems.append(f"{st.id}: no air temperature reading")
+        else:
+            t, v = series[key]
+            upto = t <= now_s
+            t, v = t[upto], v[upto]
+            interval = usual_interval_s(t, st.interval_s)
+            age = now_s - t[-1]
+            if age > stale_after_intervals * interval:
+                healthy = False
+                problems.append(
+                    f"{st.id}: silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min); left out"
+                )
+            recent = v[t >= now_s - STUCK_WINDOW_S]
+            if len(recent) >= STUCK_MIN_READINGS and np.all(recent == recent[0]):
+                healthy = False
+                problems.append(f"{st.id}: air temperature stuck at {recent[0]:g} degC for an hour; left out")
+    return StationState(st.id, st.height_m, st.role, latest, latest_at, healthy, tuple(problems))
+
+
+def speaking_station(states: list[StationState]) -> StationState | None:
+    """The coldest healthy crop-height sensor (grower-needs E4/F1: never a stale value)."""
+    ok = [s for s in states if s.role == "crop" and s.healthy and "air_temperature" in s.latest]
+    return min(ok, key=lambda s: s.latest["air_temperature"]) if ok else None
+
+
+def dew_point_of(state: StationState | None, site_states: list[StationState]) -> float | None:
+    """Dew point at crop height: measured, or from relative humidity (liquid-water convention)."""
+    for s in ([state] if state else []) + site_states:
+        if s is None:
+            continue
+        if "dew_point_temperature" in s.latest:
+            return s.latest["dew_point_temperature"]
+        if "relative_humidity" in s.latest and "air_temperature" in s.latest:
+            rh = max(1.0, min(100.0, s.latest["relative_humidity"]))
+            return float(humidity.dew_point_c_from_rel_humidity(s.latest["air_temperature"], rh))
+    return None
+
+
+def as_of(
+    series: Series, station: str, quantity: str, t_s: float, max_age_s: float, extrapolate: bool = True
+) -> float | None:
+    """The value at `t_s` from readings up to `t_s` only (what a forecast issued then could know).
+
+    The latest reading; with `extrapolate`, carried forward along the slope of the last two
+    readings when it is older than `EXTRAPOLATE_AFTER_S` (an hourly log's last air temperature can
+    be most of an hour old at the dusk point; the evening fall then is steady). Humidity is not
+    extrapolated: its hour-to-hour steps are noise as often as trend. None if the latest reading is
+    older than `max_age_s`.
+    """
+    key = (station, quantity)
+    if key not in series:
+        return None
+    t, v = series[key]
+    i = int(np.searchsorted(t, t_s, side="right")) - 1
+    if i < 0 or t_s - t[i] > max_age_s:
+        return None
+    val = float(v[i])
+    age = t_s - float(t[i])
+    if extrapolate and age > EXTRAPOLATE_AFTER_S and i >= 1:
+        gap = float(t[i] - t[i - 1])
+        if 0 < gap <= 2.0 * max(age, EXTRAPOLATE_AFTER_S):
+            val += (val - float(v[i - 1])) / gap * age
+    return val
+
+
+_INDEX: list = [None, {}]  # (the series last indexed, {quantity: set of stations}); one entry
+
+
+def stations_with(series: Series, quantity: str) -> set[str]:
+    """The stations that have `quantity` in `series` (indexed once per series object: a farm's
+    evaluation asks for every block, and must not loop over every station each time)."""
+    if _INDEX[0] is not series:
+        index: dict[str, set[str]] = {}
+        for sid, q in series:
+            index.setdefault(q, set()).add(sid)
+        _INDEX[0], _INDEX[1] = series, index
+    return _INDEX[1].get(quantity, set())
+
+
+def mean_as_of(series: Series, stations: list[str], quantity: str, t_s: float, window_s: float) -> float | None:
+    """Mean of the readings in (t_s - window, t_s]; if none, the latest one within two windows."""
+    vals, last = [], None
+    have = stations_with(series, quantity)
+    for sid in stations:
+        if sid not in have:
+            continue
+        t, v = series[(sid, quantity)]
+        j = int(np.searchsorted(t, t_s, side="right"))
+        i = int(np.searchsorted(t, t_s - window_s, side="right"))
+        if j > i:
+            vals.extend(v[i:j].tolist())
+        elif j > 0 and t_s - t[j - 1] <= 2.0 * window_s:
+            last = float(v[j - 1])
+    if vals:
+        return float(np.mean(vals))
+    return last
+
+
+def means_as_of(series: Series, stations: list[str], quantity: str, times_s: np.ndarray, window_s: float) -> np.ndarray:
+    """`mean_as_of` at many instants at once (NaN where nothing is known): for training samples."""
+    times_s = np.asarray(times_s, dtype=float)
+    total = np.zeros(len(times_s))
+    count = np.zeros(len(times_s))
+    last = np.full(len(times_s), np.nan)
+    for sid in stations:
+        if (sid, quantity) not in series:
+            continue
+        t, v = series[(sid, quantity)]
+        if not len(t):
+            continue
+        csum = np.concatenate([[0.0], np.cumsum(v)])
+        j = np.searchsorted(t, times_s, side="right")
+        i = np.searchsorted(t, times_s - window_s, side="right")
+        total += csum[j] - csum[i]
+        count += j - i
+        has = (j > 0) & (times_s - t[np.maximum(j - 1, 0)] <= 2.0 * window_s)
+        last = np.where(np.isnan(last) & has, v[np.maximum(j - 1, 0)], last)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(count > 0, total / np.maximum(count, 1), last)
+
+
+def window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
+    """`stat` over the stations' readings in [start, end], or None."""
+    vals = []
+    for sid in stations:
+        if (sid, quantity) in series:
+            t, v = series[(sid, quantity)]
+            i, j = int(np.searchsorted(t, start_s, side="left")), int(np.searchsorted(t, end_s, side="right"))
+            vals.extend(v[i:j].tolist())
+    return float(stat(vals)) if vals else None
+
+
+def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None) -> float | None:
+    """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists."""
+    measured = mean_as_of(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", now_s, INPUT_WINDOW_S)
+    if measured is not None:
+        return measured
+    sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
+    if sky is None or dew_point_c is None:
+        return None
+    from frostwatch.physics import radiation
+
+    e = humidity.vapour_pressure_hpa_from_dew_point(dew_point_c)
+    return float(radiation.cloud_frac_from_sky_temperature(sky, air_temp_c, e))
+
+
+@dataclass(frozen=True)
+class DuskInputs:
+    """What is known at the dusk point t0 (sunset + 2 h) from readings up to t0."""
+
+    station: str
+    temp_c: float
+    dew_point_c: float | None
+    wind_m_s: float | None
+    cloud_frac: float | None
+    wind_trend_m_s: float | None = None
+    pressure_trend_hpa: float | None = None
+
+
+def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[Station], t0_s: float) -> DuskInputs | None:
+    """Temperature, dew point, wind and cloud at t0 for `station`, from readings up to t0 only."""
+    site = [s for s in cfg.stations if s.block is None]
+    st = next((s for s in block_stations if s.id == station), None)
+    interval = st.interval_s if st and st.interval_s else None
+    if interval is None and (station, "air_temperature") in series:
+        interval = usual_interval_s(series[(station, "air_temperature")][0], None)
+    max_age = cfg.forecast.stale_after_intervals * (interval or DEFAULT_INTERVAL_S)
+    t0_c = as_of(series, station, "air_temperature", t0_s, max_age)
+    if t0_c is None:
+        return None
+    others = [station] + [s.id for s in block_stations if s.id != station] + [s.id for s in site]
+
+    def age_limit(sid: str, quantity: str) -> float:
+        # each series is judged by its own usual interval (humidity often reports less often than air)
+        if (sid, quantity) not in series:
+            return max_age
+        return max(max_age, cfg.forecast.stale_after_intervals * usual_interval_s(series[(sid, quantity)][0], None))
+
+    td = None
+    for sid in others:
+        td = as_of(series, sid, "dew_point_temperature", t0_s, age_limit(sid, "dew_point_temperature"), extrapolate=False)
+        if td is None:
+            rh = as_of(series, sid, "relative_humidity", t0_s, age_limit(sid, "relative_humidity"), extrapolate=False)
+            ta = t0_c if sid == station else as_of(series, sid, "air_temperature", t0_s, age_limit(sid, "air_temperature"))
+            if rh is not None and ta is not None:
+                td = float(humidity.dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh))))
+        if td is not None:
+            break
+    if td is not None:
+        td = min(td, t0_c)
+    window = max(INPUT_WINDOW_S, interval or 0.0)
+    ids = [s.id for s in block_stations] + [s.id for s in site]
+    if not stations_with(series, "wind_speed").intersection(ids):
+        ids = sorted(stations_with(series, "wind_speed"))  # no anemometer in the block: the farm's wind
+    wind = mean_as_of(series, ids, "wind_speed", t0_s, window)
+    wind_then = mean_as_of(series, ids, "wind_speed", t0_s - WIND_TREND_S, window)
+    wind_trend = None if wind is None or wind_then is None else wind - wind_then
+    cloud = mean_as_of(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", t0_s, window)
+    if cloud is None and td is not None:
+        sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", t0_s, window)
+        if sky is not None:
+            from frostwatch.physics import radiation
+
+            e = humidity.vapour_pressure_hpa_from_dew_point(td)
+            cloud = float(radiation.cloud_frac_from_sky_temperature(sky, t0_c, e))
+    baro = sorted(stations_with(series, "air_pressure"))  # one barometer serves the farm
+    p_now = mean_as_of(series, baro, "air_pressure", t0_s, window)
+    p_then = mean_as_of(series, baro, "air_pressure", t0_s - WIND_TREND_S, window)
+    p_trend = None if p_now is None or p_then is None else p_now - p_then
+    return DuskInputs(station, t0_c, td, wind, None if cloud is None else max(0.0, min(1.0, cloud)), wind_trend, p_trend)
+
+
+def finite_or(x: float | None, default: float) -> float:
+    return default if x is None or not math.isfinite(x) else float(x)
