@@ -195,7 +195,9 @@ def project_block(
     if not math.isfinite(prior):
         notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
         prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
-    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s) if di is not None else None
+    # before dusk the same evening curve on the readings so far, so the estimate runs into the
+    # dusk forecast without a jump
+    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s)
     tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
     if td0_c is None:
         notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
