@@ -321,3 +321,22 @@ def test_wet_bulb_crossing_closed_form_matches_a_brute_force_curve():
                 assert fast is None
             else:
                 assert abs(fast - brute) <= 60.0, (td, thr, fast, brute)  # within one grid step
+
+
+def test_act_time_comes_from_the_band_cold_edge_and_says_so(tmp_path):
+    """The ready-by time is taken where the 80 % band's cold edge reaches T10 + margin (the safe
+    side, issue 15), the middle projection's crossing is kept beside it, and the reasons say both,
+    and that the site is still learning."""
+    from frostwatch.advice import explain, plan_advice
+    from frostwatch.display import Display
+
+    cfg = make_cfg(tmp_path)
+    night = night_for(cfg)
+    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=0.0, td_c=-9.0), night)
+    plan = plan_advice(p, cfg.blocks[0], night.dusk_utc, 1000.0)
+    assert plan.crossing_utc == p.crossings_utc["t10_margin_cold_edge"]
+    assert plan.crossing_middle_utc == p.crossings_utc["t10_margin"]
+    assert plan.crossing_utc < plan.crossing_middle_utc
+    assert plan.ready_by_utc == plan.crossing_utc - dt.timedelta(minutes=cfg.blocks[0].mobilisation_min)
+    why = " ".join(explain.reasons(plan, Display()))
+    assert "cold edge of the 80 % band" in why and "still learning" in why
