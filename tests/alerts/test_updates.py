@@ -162,7 +162,10 @@ def test_the_demo_updates_each_say_the_ready_by_time_the_last_message_gave(tmp_p
     alerts = json.loads(p.stdout)["alerts"]
     east = [a for a in alerts if a["block"] == "east" and a["time"] < "2027-04-15T12:00"]
     ups = [a for a in east if "UPDATE" in a["message"].splitlines()[0]]
-    assert 1 <= len(ups) <= 4, [a["message"].splitlines()[0] for a in east]
+    # act and standby times come from the projection band's cold edge (issue 15): the first standby
+    # already gives the earliest likely time, so the demo's crossing may only move later and need
+    # no update; the rules' own tests above send updates on purpose
+    assert len(ups) <= 4, [a["message"].splitlines()[0] for a in east]
     last_ready = None
     for a in east:
         head = a["message"].splitlines()[0]
