@@ -279,9 +279,12 @@ def project_block(
     # inversion: tower minus crop height, now and projected to the minimum; a block without a
     # tower of its own uses the nearest (or the site-wide) one (frostwatch.towers)
     tower_states = {s.station: s for s in states + site_states}
-    for st in cfg.stations:
-        if st.role == "tower" and st.id not in tower_states:
-            tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
+    if not any(s.role == "tower" and s.healthy and "air_temperature" in s.latest for s in states):
+        # only a block without a healthy tower of its own looks at the others (the farm's towers
+        # are not all read for every block)
+        for st in cfg.stations:
+            if st.role == "tower" and st.id not in tower_states:
+                tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     inv_c, proj_inv_c, inv_class = inv.inversion(
         tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s, tmin_c, tmin_at.timestamp() if tmin_at else None, regime == "radiation")
