@@ -8,7 +8,9 @@ sensors). Each sensor sends one message a minute with two quantities (native JSO
 `frostwatch/<station>`), at QoS 1; `--rate-x 10` sends ten times as often (reliability.md 9,
 test 23: "10x the expected rate"). `--speed S` compresses time: S simulated seconds of readings
 per real second, stamped in the past so that they are all accepted (the memory benchmark uses
-this to push an hour of readings through in minutes).
+this to push an hour of readings through in minutes). `--morning` starts the daemon in the
+site's morning (longitude and time zone chosen for the current time) with last night's readings
+stored, so it draws that night's report at once: the memory figure then includes the report.
 
 Every `--sample-s` seconds the daemon's /proc/<pid>/status (VmRSS), /proc/<pid>/fd, /proc/<pid>/io
 (write_bytes) and the store's -wal file are read. Missed jobs are the scheduler warnings the
@@ -79,12 +81,45 @@ class Broker:
                 self.proc.wait(10)
 
 
-def write_site(work: Path, port: int, daemon_extra: dict | None = None) -> Path:
+def write_site(work: Path, port: int, daemon_extra: dict | None = None, morning: bool = False) -> Path:
     raw = synth.site_raw(12, work / "frostwatch.db", extra_stations=2, broker_port=port)
     raw["daemon"] = {"learn_nights": 3, **(daemon_extra or {})}
+    if morning:
+        raw["site"].update(morning_site(time.time()))
     p = work / "site.toml"
     p.write_text(synth.toml_of(raw), encoding="utf-8")
     return p
+
+
+def morning_site(now_s: float, solar_hour: float = 9.5) -> dict:
+    """[site] longitude and time zone that put `now_s` at about 09:30 local solar time: after
+    sunrise + 1 h (the morning report is due) and before local noon at the site's latitude all
+    year, so a daemon started now draws the night report at once."""
+    return site_at_solar_hour(now_s, solar_hour)
+
+
+def site_at_solar_hour(now_s: float, solar_hour: float) -> dict:
+    """[site] longitude and time zone (a whole-hour Etc/GMT zone) that put `now_s` at about
+    `solar_hour` local solar time."""
+    utc_h = (now_s % 86400.0) / 3600.0
+    lon = ((solar_hour - utc_h) % 24.0) * 15.0
+    lon = lon - 360.0 if lon > 180.0 else lon
+    k = round(lon / 15.0)
+    tz = "Etc/GMT" if k == 0 else f"Etc/GMT{'-' if k > 0 else '+'}{abs(k)}"  # Etc/GMT-8 is UTC+8
+    return {"longitude": round(lon, 3), "timezone": tz}
+
+
+def fill_last_night(cfg) -> int:
+    """Every station's 1-minute readings of the night now ending (sunset - 6 h to now), so that
+    its report has twelve blocks to draw."""
+    from frostwatch.night import night_at
+    from frostwatch.pipeline import LOOKBACK
+
+    s = cfg.site
+    now = dt.datetime.now(dt.UTC)
+    night = night_at(s.latitude, s.longitude, s.tz, now)
+    return synth.fill_store(cfg.storage.path, synth.station_rows(cfg, night.sunset_utc - LOOKBACK, now,
+                                                                 sunset=night.sunset_utc))
 
 
 def proc_rss_kib(pid: int) -> int:
@@ -175,15 +210,17 @@ class Sensors:
 
 def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, speed: float = 1.0,
              sample_s: float = 10.0, verbose: bool = True, daemon_extra: dict | None = None,
-             probe: bool = False) -> dict:
+             probe: bool = False, morning: bool = False) -> dict:
     from frostwatch.config import load_config
 
     work = Path(work or tempfile.mkdtemp(prefix="frostwatch-soak-"))
     work.mkdir(parents=True, exist_ok=True)
     broker = Broker(work / "broker")
     broker.start()
-    cfg_path = write_site(work, broker.port, daemon_extra)
+    cfg_path = write_site(work, broker.port, daemon_extra, morning)
     cfg = load_config(str(cfg_path))
+    if morning:  # the daemon starts in the site's morning with last night stored: it draws the report
+        fill_last_night(cfg)
     db = cfg.storage.path
     wal = db.with_name(db.name + "-wal")
     log = work / "daemon.log"
@@ -271,6 +308,8 @@ def run_soak(minutes: float, work: Path | None = None, rate_x: float = 1.0, spee
         "wal_max_mib": round(max(s["wal_bytes"] for s in samples) / 2**20, 2),
         "write_bytes": wb, "write_mib_per_day": round(wb / 2**20 * 86400.0 / max(1.0, elapsed), 1),
         "missed_jobs": missed, "error_lines": errors, "samples": samples, "work": str(work),
+        "morning": morning, "night_reports": [ln.split("night report for ", 1)[1] for ln in text.splitlines()
+                                              if "night report for " in ln],
     }
     res.update(rss_trend(samples, warm))
     # tonight's readings held in memory by design (frostwatch/nightcache.py: a time and a value,
@@ -317,6 +356,8 @@ def report(res: dict) -> None:
     print(f"  RSS trend after warm-up: {res.get('rss_slope_mib_per_h')} MiB/h; 12 h from the end of warm-up: "
           f"{res.get('rss_12h_projection_mib')} MiB ({res.get('rss_12h_projection_growth_pct')} %); tonight's readings "
           f"held in the night cache at the end: {res.get('night_cache_mib_at_end')} MiB")
+    for line in res.get("night_reports", []):
+        print(f"  night report for {line}")
     print(f"  files: {res['work']}")
 
 
@@ -328,10 +369,13 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--sample-s", type=float, default=10.0)
     ap.add_argument("--json", type=Path, help="write the result here too")
     ap.add_argument("--work", type=Path, help="folder for the store, logs and probe (default: a new temp folder)")
+    ap.add_argument("--morning", action="store_true",
+                    help="start in the site's morning with last night stored, so the daemon draws the night report at once")
     ap.add_argument("--probe", action="store_true",
                     help="sample malloc, SQLite and Python heap inside the daemon into WORK/probe.jsonl (bench/probe.py)")
     a = ap.parse_args(argv)
-    res = run_soak(a.minutes, work=a.work, rate_x=a.rate_x, speed=a.speed, sample_s=a.sample_s, probe=a.probe)
+    res = run_soak(a.minutes, work=a.work, rate_x=a.rate_x, speed=a.speed, sample_s=a.sample_s, probe=a.probe,
+                   morning=a.morning)
     report(res)
     if a.json:
         a.json.write_text(json.dumps(res, indent=2) + "\n", encoding="utf-8")

@@ -245,10 +245,11 @@ class Core:
         series = self.store.readings_window(night.sunset_utc - LOOKBACK, night.sunrise_utc + dt.timedelta(hours=1))
         with self.eval_lock:
             self.evaluator.learn_night(night, series)
-        from frostwatch.reports.night import write_night_report
+        # drawn by a short-lived child: matplotlib's memory leaves with it (the daemon stays small)
+        from frostwatch.reports.child import write_night_report_in_child
 
         try:
-            path = write_night_report(self.cfg, self.store, night.date, self.s.report_dir)
+            path = write_night_report_in_child(self.cfg, night.date, self.s.report_dir)
             log.info("night report for %s written: %s", night.date, path)
             self.store.add_event(now, "daemon", "report", str(path))
         except UsageError as exc:
