@@ -29,7 +29,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 RESULTS = HERE / "results"
 NOT_BENCHMARKS = {"__init__", "__main__", "synth", "soak"}
-ORDER = ["ingest", "alert_latency", "evaluation", "storage", "memory", "forecast_skill", "fleet"]
+ORDER = ["ingest", "alert_latency", "evaluation", "storage", "memory", "startup", "replay", "forecast_skill", "fleet"]
 
 
 def discover() -> list[str]:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -203,29 +204,53 @@ def nights_spanned(cfg: Config, first_utc: dt.datetime, last_utc: dt.datetime) -
 def run_replay(cfg: Config, series: Series, progress=None) -> list[Evaluation]:
     """Every night-time evaluation over the series, as the daemon would have made them.
 
-    Nights are learned walk-forward: a night's record joins the calibration only once its
-    observation window is over, so no evaluation sees its own night's outcome.
+    Nights are learned walk-forward, as the daemon's morning job learns them: right after the
+    first evaluation at or past sunrise + 1 h, so no evaluation sees its own night's outcome
+    before the night is over.
     """
+    return [ev for night in iter_replay(cfg, series, progress) for ev in night]
+
+
+def _any_reading(times: list[np.ndarray], start_s: float, end_s: float) -> bool:
+    """Whether any of the sorted time arrays has a reading with start <= t <= end."""
+    return any(np.searchsorted(t, start_s, side="left") < np.searchsorted(t, end_s, side="right") for t in times)
+
+
+def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Evaluation]]:
+    """As `run_replay`, one night's evaluations at a time (a season need not be held in memory).
+
+    A night without a single reading of any station from 6 h before its sunset to the end of its
+    morning watch is not evaluated: the logs do not cover it (typical-year files splice months of
+    different years; logs of two springs leave a year between them)."""
     if not series:
-        return []
+        return
     first = min(float(t[0]) for t, _ in series.values())
     last = max(float(t[-1]) for t, _ in series.values())
     ev = Evaluator(cfg)
-    out: list[Evaluation] = []
-    nights = nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC))
+    starts = [t for t, _ in series.values()]
+    nights = []
+    for d in nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC)):
+        night = ev.night(d)
+        window_end = night.sunrise_utc.timestamp() + MORNING_WATCH_H * 3600.0
+        if _any_reading(starts, (night.sunset_utc - LOOKBACK).timestamp(), window_end):
+            nights.append(night)  # covered by the logs (a night without any reading is not)
     pending: list[Night] = []
     total = len(nights)
-    for k, d in enumerate(nights):
-        night = ev.night(d)
+    for k, night in enumerate(nights):
+        out: list[Evaluation] = []
+        learn_at = night.sunrise_utc.timestamp() + 3600.0
         for now in evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last):
             for n in [n for n in pending if now.timestamp() >= n.sunrise_utc.timestamp() + 3600.0]:
                 ev.learn_night(n, series)
                 pending.remove(n)
             out.append(ev.evaluate(now, series))
-        pending.append(night)
+            if now.timestamp() >= learn_at and night.date not in ev.learned:
+                ev.learn_night(night, series)  # the daemon's morning job, after that tick's evaluation
+        if night.date not in ev.learned:
+            pending.append(night)  # the logs end before its morning: learned before the next night
+        yield out
         if progress:
             progress(k + 1, total)
-    return out
 
 
 def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None) -> list[dict]:
@@ -273,6 +298,6 @@ def with_time(p: Projection) -> dict:
 
 
 __all__ = [
-    "Evaluator", "Evaluation", "run_replay", "backtest", "backtest_summary", "slice_series",
+    "Evaluator", "Evaluation", "run_replay", "iter_replay", "backtest", "backtest_summary", "slice_series",
     "evaluation_times", "with_time", "dataclasses",
 ]

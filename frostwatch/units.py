@@ -133,6 +133,16 @@ def to_canonical(quantity: str, value: float, unit: str | None) -> float:
     return float(fn(value))
 
 
+def array_converter(quantity: str, unit: str | None) -> Callable | None:
+    """The conversion `to_canonical` applies for (quantity, unit), as a function that also takes a
+    numpy array (the same arithmetic, element by element); None when the unit is unknown or does
+    not fit the quantity (`to_canonical` says why)."""
+    if unit is None or unit.strip() == "":
+        return _ident
+    fn = _converter(quantity, unit)
+    return _ident if fn is _IDENT_MARK else fn
+
+
 def c_to_f(temp_c: float) -> float:
     """Degrees Celsius to degrees Fahrenheit."""
     return temp_c * 9.0 / 5.0 + 32.0

@@ -24,7 +24,9 @@ def iso_utc(t: dt.datetime | None) -> str | None:
     """An aware datetime as ISO 8601 UTC with `Z` (None stays None)."""
     if t is None:
         return None
-    return t.astimezone(dt.UTC).isoformat().replace("+00:00", "Z")
+    if t.tzinfo is not dt.UTC:
+        t = t.astimezone(dt.UTC)
+    return t.isoformat().replace("+00:00", "Z")
 
 
 def parse_utc(s: str) -> dt.datetime:
@@ -34,16 +36,35 @@ def parse_utc(s: str) -> dt.datetime:
     return t.astimezone(dt.UTC)
 
 
+_PLAIN = frozenset((str, int, bool, type(None)))  # exact types returned as they are
+_FIELDS: dict[type, tuple[str, ...] | None] = {}  # class -> its dataclass field names (None: not one)
+
+
+def _field_names(cls: type) -> tuple[str, ...] | None:
+    names = _FIELDS.get(cls, False)
+    if names is False:
+        names = tuple(f.name for f in dataclasses.fields(cls)) if dataclasses.is_dataclass(cls) else None
+        _FIELDS[cls] = names
+    return names
+
+
 def to_dict(obj, drop_none: bool = False):
     """A dataclass (or a value inside one) as plain JSON-ready values; `drop_none` leaves out
     fields whose value is None (they read back as None)."""
-    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+    cls = type(obj)
+    if cls in _PLAIN:  # the common case first: a decision holds about a hundred values
+        return obj
+    if cls is float:
+        return obj if math.isfinite(obj) else None
+    names = _field_names(cls)
+    if names is not None:
         out = {}
-        for f in dataclasses.fields(obj):
-            v = getattr(obj, f.name)
+        for name in names:
+            v = getattr(obj, name)
             if v is None and drop_none:
                 continue
-            out[f.name] = to_dict(v, drop_none)
+            t = type(v)  # plain values inline: no call for each of them
+            out[name] = v if t in _PLAIN else (v if math.isfinite(v) else None) if t is float else to_dict(v, drop_none)
         return out
     if isinstance(obj, enum.Enum):
         return obj.value
@@ -54,7 +75,7 @@ def to_dict(obj, drop_none: bool = False):
     if isinstance(obj, float):
         return None if not math.isfinite(obj) else obj
     if isinstance(obj, (list, tuple)):
-        return [to_dict(x, drop_none) for x in obj]
+        return [x if type(x) in _PLAIN else to_dict(x, drop_none) for x in obj]
     if isinstance(obj, dict):
         return {str(k): to_dict(v, drop_none) for k, v in obj.items()}
     return obj

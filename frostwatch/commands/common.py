@@ -78,14 +78,25 @@ def _iso(t):
     return None if t is None else t.isoformat().replace("+00:00", "Z")
 
 
-def _progress(label: str):
+def _progress(label: str, unit: str = "night"):
+    """A progress line on a terminal (nothing when stderr is not one): done/total, time spent and
+    about how long is left."""
     if not sys.stderr.isatty():
         return None
+    import time
+
+    t0 = time.monotonic()
 
     def show(k: int, n: int) -> None:
-        sys.stderr.write(f"\r{label}: night {k}/{n}")
+        spent = time.monotonic() - t0
+        left = f", about {_duration(spent / k * (n - k))} left" if 0 < k < n and spent > 2 else ""
+        sys.stderr.write(f"\r{label}: {unit} {k:,}/{n:,} ({_duration(spent)}{left})\x1b[K")
         if k == n:
             sys.stderr.write("\n")
         sys.stderr.flush()
 
     return show
+
+
+def _duration(s: float) -> str:
+    return f"{s:.0f} s" if s < 90 else f"{s // 60:.0f} min {s % 60:.0f} s"

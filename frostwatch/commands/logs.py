@@ -9,6 +9,7 @@ import io
 import json
 import shlex
 import sys
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from frostwatch.commands.common import (
@@ -23,33 +24,47 @@ from frostwatch.commands.common import (
 
 
 def _read_logs(args, cfg, store=None):
-    """Read every log given; report bad rows on stderr; store readings and rejections if a store is given."""
+    """Read every log given; report bad rows on stderr; store readings and rejections if a store is given.
+
+    Returns (readings, rejections, stored, duplicates) with the readings as Reading objects; the
+    season-scale commands use `_read_log_columns` instead."""
+    cols, rejections, stored, dup, _ = _read_log_columns(args, cfg, store)
+    return cols.readings(), rejections, stored, dup
+
+
+def _read_log_columns(args, cfg, store=None, progress=None):
+    """Read every log given (vectorised, frostwatch.ingest.bulk; every bad row still named
+    FILE:LINE on stderr); store the readings in large transactions and the rejections if a store
+    is given. Returns (columns, rejections, stored, duplicates, what was stored)."""
     from frostwatch.errors import IngestError
-    from frostwatch.ingest.csvlog import read_sensor_log
+    from frostwatch.ingest.bulk import concat, read_log_columns
 
     known = {s.id for s in cfg.stations}
-    readings, rejections, origins = [], [], []
+    parts, rejections = [], []
     for log in args.logs:
-        lines: list[int] = []
-        r, rej = read_sensor_log(log, known, lines)
-        readings += r
+        c, rej = read_log_columns(log, known)
+        parts.append(c)
         rejections += rej
-        origins += [(str(log), n) for n in lines]
+    cols = concat(parts)
     for rej in rejections:
         print(f"{rej.where()}: {rej.reason}", file=sys.stderr)
-    if not readings:
+    if not len(cols):
         raise IngestError(f"{', '.join(args.logs)}: no usable row ({len(rejections)} rejected)")
     if args.strict and rejections:
         raise IngestError(f"{len(rejections)} bad row(s) and --strict was given; nothing was stored")
     stored = dup = 0
+    done = None
     if store is not None:
+        from frostwatch.store.bulk import add_reading_columns
+
         now = dt.datetime.now(dt.UTC)
-        stored, dup, conflicts = store.add_readings(readings, source=",".join(Path(x).name for x in args.logs), origins=origins)
+        done = add_reading_columns(store, cols, ",".join(Path(x).name for x in args.logs), progress)
+        stored, dup, conflicts = done.stored, done.duplicates, done.conflicts
         for c in conflicts:
             print(f"{c.where()}: {c.reason}", file=sys.stderr)
         store.add_rejections(rejections + conflicts, now)
         rejections += conflicts
-    return readings, rejections, stored, dup
+    return cols, rejections, stored, dup, done
 
 
 def _series_from_readings(readings):
@@ -82,54 +97,123 @@ def _signature(dc) -> tuple:
 def decision_changes(evals, display) -> list[dict]:
     """Each block's decision whenever its `_signature` changes (and the first of each night): the
     time, level, step, the advice as the grower reads it and the whole typed plan."""
-    from frostwatch.advice import codec
-    from frostwatch.advice import render as advice_render
+    changes = DecisionChanges(display)
+    changes.add(evals)
+    return changes.out
 
-    out, last = [], {}
-    for ev in evals:
-        for dc in ev.decisions:
-            sig = (ev.night.date, _signature(dc))
-            if last.get(dc.block) == sig:
-                continue
-            last[dc.block] = sig
-            out.append({"time": _iso(ev.time_utc), "block": dc.block, "level": dc.level, "step": dc.step.value,
-                        "advice": advice_render.action(dc.step, dc.plan, display), "plan": codec.to_dict(dc.plan)})
-    return out
+
+class DecisionChanges:
+    """`decision_changes`, fed a night of evaluations at a time (a season is not held in memory)."""
+
+    def __init__(self, display):
+        self.display = display
+        self.out: list[dict] = []
+        self.last: dict = {}
+
+    def add(self, evals) -> None:
+        from frostwatch.advice import codec
+        from frostwatch.advice import render as advice_render
+
+        for ev in evals:
+            for dc in ev.decisions:
+                sig = (ev.night.date, _signature(dc))
+                if self.last.get(dc.block) == sig:
+                    continue
+                self.last[dc.block] = sig
+                self.out.append({"time": _iso(ev.time_utc), "block": dc.block, "level": dc.level,
+                                 "step": dc.step.value, "advice": advice_render.action(dc.step, dc.plan, self.display),
+                                 "plan": codec.to_dict(dc.plan)})
+
+
+
+def _first_rows(cols):
+    """The first row of each (time, station, quantity) in file order: the one the store keeps."""
+    import numpy as np
+
+    n_st, n_q = max(1, len(cols.stations)), max(1, len(cols.quantities))
+    keys = (cols.time_ms.astype(np.int64) * n_st + cols.station) * n_q + cols.quantity
+    _, first = np.unique(keys, return_index=True)
+    mask = np.zeros(len(cols), dtype=bool)
+    mask[first] = True
+    return mask
+
+
+@dataclass
+class Replayed:
+    """What a replay keeps for its output: the alerts, the nights, and (for --json) the
+    projections; the evaluations themselves go to the store night by night."""
+
+    alerts: list = field(default_factory=list)
+    nights: list = field(default_factory=list)
+    projections: list = field(default_factory=list)
+    decisions: list = field(default_factory=list)  # decision_changes (for --json)
+    evaluations: int = 0
+
+
+def replay_series(cfg, store, series, progress=None, keep_projections=False, keep_evaluations=False, display=None):
+    """Run the pipeline over `series` as the daemon would have (pipeline.iter_replay) and store
+    each night's projections, decisions and alerts in one transaction each, night by night.
+    Returns a Replayed (and the evaluations themselves with keep_evaluations, for small logs)."""
+    from frostwatch import pipeline
+    from frostwatch.store import decisions as stored_decisions
+
+    out = Replayed()
+    kept = []
+    nights = set()
+    changes = DecisionChanges(display) if keep_projections else None
+    for night_evals in pipeline.iter_replay(cfg, series, progress=progress):
+        if not night_evals:
+            continue
+        store.add_projections(p for ev in night_evals for p in ev.projections)
+        stored_decisions.save_decisions(store, (d for ev in night_evals for d in ev.decisions))
+        for ev in night_evals:
+            nights.add(ev.night.date)
+            out.evaluations += 1
+            for a in ev.alerts:
+                store.add_alert(a)
+                out.alerts.append(a)
+            if keep_projections and ev.night.contains(ev.time_utc, 0.0, 0.0):
+                out.projections += [pipeline.with_time(p) for p in ev.projections]
+        if changes is not None:
+            changes.add(night_evals)
+        if keep_evaluations:
+            kept += night_evals
+    out.nights = sorted(nights)
+    out.decisions = changes.out if changes is not None else []
+    return (out, kept) if keep_evaluations else out
 
 
 def replay_into_store(cfg, store, readings, progress=None):
     """Run the pipeline over the stored readings of the logs' span; store the projections, the
-    decisions and the alerts, as the daemon does."""
-    from frostwatch import pipeline
-    from frostwatch.store import decisions as stored_decisions
-
+    decisions and the alerts, as the daemon does. Returns (evaluations, series)."""
     first = min(r.time_utc for r in readings)
     last = max(r.time_utc for r in readings)
     series = store.readings_window(first, last)
-    evals = pipeline.run_replay(cfg, series, progress=progress)
-    store.add_projections(p for ev in evals for p in ev.projections)
-    stored_decisions.save_decisions(store, (d for ev in evals for d in ev.decisions))
-    for ev in evals:
-        for a in ev.alerts:
-            store.add_alert(a)
+    _, evals = replay_series(cfg, store, series, progress, keep_evaluations=True)
     return evals, series
 
 
 def cmd_replay(args) -> int:
-    from frostwatch import pipeline
     from frostwatch.display import Display
     from frostwatch.night import night_of_date
     from frostwatch.reports.summary import block_night
-    from frostwatch.store import Store
+    from frostwatch.store import Store, from_ms
+    from frostwatch.store.bulk import series_of_columns
 
     cfg = _load(args)
     store = Store.open(cfg.storage.path)
     try:
-        readings, rejections, stored, dup = _read_logs(args, cfg, store)
-        evals, series = replay_into_store(cfg, store, readings, _progress("replay"))
+        cols, rejections, stored, dup, done = _read_log_columns(args, cfg, store, _progress("store", "readings"))
+        if done.store_had_readings:  # other readings in the span: the pipeline sees what the store holds
+            series = store.readings_window(from_ms(int(cols.time_ms.min())), from_ms(int(cols.time_ms.max())))
+        else:
+            series = series_of_columns(cols, done.kept)
+        n_read = len(cols)
+        del cols, done
         d = Display("degF" if _fahrenheit(args) else cfg.site.display_unit, cfg.site.tz)
-        alerts = [a for ev in evals for a in ev.alerts]
-        nights = sorted({ev.night.date for ev in evals})
+        res = replay_series(cfg, store, series, _progress("replay"), keep_projections=args.json, display=d)
+        alerts = res.alerts
+        nights = res.nights
         summaries = []
         for nd in nights:
             night = night_of_date(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, nd)
@@ -150,15 +234,14 @@ def cmd_replay(args) -> int:
             _out_json({
                 "alerts": [{"time": _iso(a.time_utc), "block": a.block, "level": a.level, "rank": a.rank,
                             "advice": a.advice, "message": a.message, "key": a.key, "resolves": a.resolves} for a in alerts],
-                "projections": [pipeline.with_time(p) for ev in evals for p in ev.projections
-                                if ev.night.contains(ev.time_utc, 0.0, 0.0)],
-                "decisions": decision_changes(evals, d),
+                "projections": res.projections,
+                "decisions": res.decisions,
                 "nights": summaries,
-                "readings": {"read": len(readings), "stored": stored, "duplicates": dup, "rejected": len(rejections)},
+                "readings": {"read": n_read, "stored": stored, "duplicates": dup, "rejected": len(rejections)},
                 "reports": reports,
             })
             return 0
-        print(f"{cfg.site.name}: {len(readings)} readings read, {stored} stored, {dup} duplicates, {len(rejections)} rejected "
+        print(f"{cfg.site.name}: {n_read} readings read, {stored} stored, {dup} duplicates, {len(rejections)} rejected "
               f"(store {cfg.storage.path})")
         _print_alerts(alerts, d)
         _print_summaries(summaries, d)
@@ -199,8 +282,11 @@ def cmd_backtest(args) -> int:
     from frostwatch import pipeline
 
     cfg = _load(args)
-    readings, rejections, _, _ = _read_logs(args, cfg, None)
-    series = _series_from_readings(readings)
+    from frostwatch.store.bulk import series_of_columns
+
+    cols, _, _, _, _ = _read_log_columns(args, cfg, None)
+    series = series_of_columns(cols, _first_rows(cols), key_order="file")
+    del cols
     rows = pipeline.backtest(cfg, series, progress=_progress("backtest"))
     summary = pipeline.backtest_summary(rows)
     if args.json:
