@@ -33,6 +33,7 @@ from frostwatch.config import Config
 
 # [daemon] is validated in frostwatch.daemon_settings, so load_config need not import this module
 from frostwatch.daemon_settings import _DAEMON_KEYS, DaemonSettings, daemon_settings  # noqa: F401 - re-exported
+from frostwatch.decision import decision_signature
 from frostwatch.errors import UsageError
 from frostwatch.night import Night
 from frostwatch.nightcache import NightCache
@@ -45,6 +46,7 @@ log = logging.getLogger("frostwatch.daemon")
 
 CLOCK_JUMP_S = 30.0  # wall clock against monotonic clock, per supervision round (about 1 s)
 DONE_META = "daemon.done."  # + job name -> the evening date it last ran for
+PROMPT_REASON = "new reading"  # an evaluation prompted by a reading near a trigger (not scheduled)
 
 
 
@@ -56,15 +58,32 @@ def _utc_now() -> dt.datetime:
 # SQLite's default checkpoints every 1000 WAL pages (4 MiB). A page changed by many commits in a row
 # (the newest readings leaf, meta) is written once per checkpoint, so fewer checkpoints write less
 # (bench/storage.py); the WAL file is truncated back to the limit after each checkpoint.
-WAL_AUTOCHECKPOINT_PAGES = 4000
+WAL_AUTOCHECKPOINT_BYTES = 16 * 2**20
+WAL_AUTOCHECKPOINT_PAGES = WAL_AUTOCHECKPOINT_BYTES // 4096  # at SQLite's default page size (kept for readers)
 WAL_SIZE_LIMIT_BYTES = 8 * 2**20
+
+
+def wal_autocheckpoint_pages(page_size_bytes: int) -> int:
+    """Pages of WAL between automatic checkpoints: WAL_AUTOCHECKPOINT_BYTES whatever the page size."""
+    return max(1000, WAL_AUTOCHECKPOINT_BYTES // page_size_bytes)
 
 
 def tune_store(store: Store) -> None:
     """The daemon's write settings on top of Store.open (synchronous=FULL stays: finding 9)."""
     with store.lock:
-        store.conn.execute(f"PRAGMA wal_autocheckpoint={WAL_AUTOCHECKPOINT_PAGES}")
+        page = store.conn.execute("PRAGMA page_size").fetchone()[0]
+        store.conn.execute(f"PRAGMA wal_autocheckpoint={wal_autocheckpoint_pages(page)}")
         store.conn.execute(f"PRAGMA journal_size_limit={WAL_SIZE_LIMIT_BYTES}")
+
+
+def commit_urgently(core: Core, readings, now: dt.datetime, since_prompt_s: float, debounce_s: float) -> bool:
+    """Whether the ingest writer should commit these readings within urgent_delay_s rather than
+    batch_delay_s: only when they would get a prompt evaluation at once, i.e. a crop-height
+    reading near a block's trigger in the watch window (Core.wants_prompt_evaluation) and no
+    prompt evaluation in the last debounce_s. A reading that arrives while the debounce holds
+    would wait for the next evaluation anyway, so it waits for the ordinary batch: on a frost
+    night that is one urgent commit per debounce_s instead of one a second (bench/storage.py)."""
+    return since_prompt_s >= debounce_s and core.wants_prompt_evaluation(readings, now)
 
 
 class Core:
@@ -94,6 +113,8 @@ class Core:
         self.on_evaluated: Callable[[dt.datetime, dict], None] = lambda now, blocks: None  # the fleet publisher
         self.job_runs: dict[str, int] = {}
         self.job_log: list[tuple[str, dt.date, dt.datetime]] = []
+        self._stored_signatures: dict[str, tuple] = {}  # block -> decision_signature, last stored evaluation
+        self.evaluations_not_stored = 0
         self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
 
     # -- the config in force ---------------------------------------------------------------------
@@ -142,10 +163,12 @@ class Core:
             self.reload_config(now)  # a stage or threshold change takes effect at this evaluation
             series = self.cache.series(now)
             ev = self.evaluator.evaluate(now, series)
+            stored = self._worth_storing(ev, reason)
             # projections and decisions first (one transaction, one fsync per evaluation), then
             # the alerts written from them: a stored alert always has its decision beside it
             try:
-                daemon_state.save_evaluation(self.store, ev.projections, {}, ev.decisions)
+                if stored:
+                    daemon_state.save_evaluation(self.store, ev.projections, {}, ev.decisions)
             finally:
                 if ev.alerts:
                     self.outbox.submit(ev.alerts, now)
@@ -153,6 +176,10 @@ class Core:
             self.evaluations += 1
             for p in ev.projections:
                 self.last_projection[p.block] = p.predicted_min_c
+        if not stored:  # nothing a grower would notice changed: screens keep the stored decision
+            self.evaluations_not_stored += 1
+            log.info("evaluated %d blocks (%s): no change, not stored", len(ev.decisions), reason)
+            return ev
         # the same JSON `frostwatch status --json` shows for each block, on the status topic
         live = Liveness(True, now, False, 0.0)
         d = self.evaluator.display
@@ -165,6 +192,19 @@ class Core:
         self.on_evaluated(now, blocks)
         log.info("evaluated %d blocks (%s)%s", len(blocks), reason, f", {len(ev.alerts)} alerts" if ev.alerts else "")
         return ev
+
+    def _worth_storing(self, ev, reason: str) -> bool:
+        """Every evaluation is stored (and published) except one prompted by a new reading
+        (PROMPT_REASON: on a frost night up to one per debounce_s) that raised no alert and changed
+        nothing a grower would notice in any block since the last stored one (decision_signature):
+        its numbers moved a little, its advice did not. Scheduled evaluations, every
+        night_interval_min, are always stored, so the stored decision stays fresh for every
+        screen. This keeps the SD card's frost-night writes down (bench/storage.py)."""
+        sigs = {d.block: decision_signature(d) for d in ev.decisions}
+        if reason != PROMPT_REASON or ev.alerts or sigs != self._stored_signatures:
+            self._stored_signatures = sigs
+            return True
+        return False
 
     def readings_committed(self, readings) -> None:
         """The ingest writer has just committed these readings: tonight's cache takes them."""
@@ -382,7 +422,7 @@ class Daemon:
                 store_stall_s=self.s.store_stall_s,
             ),
             mappings, on_committed=self._on_committed, clock=clock, on_ack=self._on_ack,
-            urgent=lambda readings: self.core.wants_prompt_evaluation(readings, self.clock()),
+            urgent=self._urgent,
         )
         self.core.publish = self.ingest.publish_json
         # this site's state for a fleet view: its own connection and will (frostwatch.fleet.uplink)
@@ -547,6 +587,10 @@ class Daemon:
 
         acknowledge_mqtt(self.store, self.cfg, self.outbox, payload, received_utc)
 
+    def _urgent(self, readings) -> bool:
+        """The ingest writer's question: commit these readings within urgent_delay_s?"""
+        return commit_urgently(self.core, readings, self.clock(), time.monotonic() - self._last_prompt, self.s.debounce_s)
+
     def _on_committed(self, readings) -> None:
         self.core.readings_committed(readings)
         now = self.clock()
@@ -560,7 +604,7 @@ class Daemon:
         from apscheduler.triggers.date import DateTrigger
 
         self.sched.add_job(
-            self._guard("evaluate-soon", lambda: self.core.evaluate(self.clock(), "new reading")),
+            self._guard("evaluate-soon", lambda: self.core.evaluate(self.clock(), PROMPT_REASON)),
             DateTrigger(run_date=dt.datetime.now(dt.UTC)), id="evaluate-soon", replace_existing=True,
         )
 

@@ -133,6 +133,26 @@ class Decision:
         return self.monitoring.monitored
 
 
+def plan_signature(d: Decision) -> tuple:
+    """What a grower would notice change in a block's decision: level, step, whether the method is
+    advised (and why not), whether it is enough, and the stop rule's verdict and basis."""
+    plan = d.plan
+    v = plan.verdict
+    enough = None
+    if v is not None:
+        enough = (v.fans.sufficient if v.fans else v.sprinklers.sufficient if v.sprinklers else
+                  v.heaters.enough if v.heaters else None)
+    stop = plan.stop
+    return (d.level, d.step, None if v is None else v.advised, None if v is None else v.why_not, enough,
+            None if stop is None else (stop.basis, stop.stop_ok))
+
+
+def decision_signature(d: Decision) -> tuple:
+    """`plan_signature` with the monitoring state, the level the rules hold and the newest alert:
+    two decisions with the same signature read the same to the grower (only the numbers moved)."""
+    return (plan_signature(d), d.frost_level, d.monitoring.monitored, d.monitoring.reason, d.alert_key)
+
+
 def decision_to_doc(d: Decision) -> dict:
     """The decision as a JSON-ready dict (the stored form; fields that are None are left out)."""
     return to_dict(d, drop_none=True)

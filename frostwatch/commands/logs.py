@@ -81,17 +81,10 @@ def _series_from_readings(readings):
 
 
 def _signature(dc) -> tuple:
-    """What a grower would notice change in a block's decision: level, step, whether the method is
-    advised (and why not), whether it is enough, and the stop rule's verdict and basis."""
-    plan = dc.plan
-    v = plan.verdict
-    enough = None
-    if v is not None:
-        enough = (v.fans.sufficient if v.fans else v.sprinklers.sufficient if v.sprinklers else
-                  v.heaters.enough if v.heaters else None)
-    stop = plan.stop
-    return (dc.level, dc.step, None if v is None else v.advised, None if v is None else v.why_not, enough,
-            None if stop is None else (stop.basis, stop.stop_ok))
+    """What a grower would notice change in a block's decision (frostwatch.decision.plan_signature)."""
+    from frostwatch.decision import plan_signature
+
+    return plan_signature(dc)
 
 
 def decision_changes(evals, display) -> list[dict]:

@@ -69,6 +69,11 @@ def test_full_disk_clear_error_alerts_still_delivered_writes_resume(small_fs, tm
             for k in range(100):  # the WAL may hold a few more pages before it needs new space
                 store.add_readings(_readings(1000 + 100 * k, 100), "mqtt")
         assert str(cfg.storage.path) in str(e.value) and "full" in str(e.value)
+        for k in range(1000):  # a store's 1 KiB pages: a few one-row commits may still fit in the WAL file's last page
+            try:
+                store.add_readings(_readings(20_000 + k, 1), "mqtt")
+            except StoreError:
+                break
         a = Alert(T0, "east", "act", 4, "start the wind machines", "east: ACT: start protection",
                   "east/2027-04-14/001-act")
         box.submit([a], T0)  # must not raise
