@@ -36,7 +36,7 @@ def slice_series(series: Series, start_s: float, end_s: float) -> Series:
     """The part of each series with start <= t <= end (arrays are sorted by time)."""
     out: Series = {}
     for key, (t, v) in series.items():
-        i, j = np.searchsorted(t, start_s, side="left"), np.searchsorted(t, end_s, side="right")
+        i, j = t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right")
         if j > i:
             out[key] = (t[i:j], v[i:j])
     return out

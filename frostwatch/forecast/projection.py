@@ -79,8 +79,14 @@ def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -
     return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
 
 
+@functools.lru_cache(maxsize=16384)
+def _utc_second(t_s: int) -> dt.datetime:
+    # a night's grid instants recur from one evaluation to the next: made once each
+    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
+
+
 def _utc(t_s: float | None) -> dt.datetime | None:
-    return None if t_s is None else dt.datetime.fromtimestamp(round(t_s), tz=dt.UTC)
+    return None if t_s is None else _utc_second(round(t_s))
 
 
 EVENING_FROM_S = 3600.0  # the evening curve is fitted to readings from an hour before sunset
@@ -315,7 +321,7 @@ def project_block(
         regime=regime,
         method=method,
         notes=tuple(notes),
-        curve_time_utc=tuple(_utc(float(s)) for s in grid_s[::step]) if projecting else (),
+        curve_time_utc=tuple(map(_utc, grid_s[::step].tolist())) if projecting else (),
         curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if projecting else (),
         band_low_c=round(min(band_low_c, tmin_c), 2),
         band_high_c=round(max(band_high_c, tmin_c), 2),

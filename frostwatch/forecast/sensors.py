@@ -5,6 +5,7 @@ that instant only. Pure: series in, values out.
 from __future__ import annotations
 
 import datetime as dt
+import functools
 import math
 from dataclasses import dataclass
 
@@ -33,9 +34,19 @@ def usual_interval_s(t_s: np.ndarray, configured_s: float | None) -> float:
         return float(configured_s)
     if len(t_s) < 3:
         return DEFAULT_INTERVAL_S
-    gaps = np.diff(t_s[-20:])
-    gaps = gaps[gaps > 0]
-    return max(MIN_INTERVAL_S, float(np.median(gaps))) if len(gaps) else DEFAULT_INTERVAL_S
+    tail = t_s[-20:].tolist()
+    gaps = sorted(b - a for a, b in zip(tail, tail[1:], strict=False) if b > a)
+    if not gaps:
+        return DEFAULT_INTERVAL_S
+    n = len(gaps)  # the median, as np.median takes it (the mean of the middle two of an even count)
+    median = gaps[n // 2] if n % 2 else (gaps[n // 2 - 1] + gaps[n // 2]) / 2.0
+    return max(MIN_INTERVAL_S, float(median))
+
+
+@functools.lru_cache(maxsize=16384)
+def _utc_at(t_s: float) -> dt.datetime:
+    # a reading's time as a datetime, made once (every evaluation of the night asks again)
+    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
 
 
 def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float) -> StationState:
@@ -49,11 +60,11 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
         t, v = series[(st.id, q)]
         if len(t) == 0:
             continue
-        idx = np.searchsorted(t, now_s, side="right") - 1
+        idx = int(t.searchsorted(now_s, side="right")) - 1
         if idx < 0:
             continue
         latest[q] = float(v[idx])
-        latest_at[q] = dt.datetime.fromtimestamp(float(t[idx]), tz=dt.UTC)
+        latest_at[q] = _utc_at(float(t[idx]))
     healthy = True
     key = (st.id, "air_temperature")
     if st.role in ("crop", "tower"):
@@ -62,8 +73,8 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
             problems.append(f"{st.id}: no air temperature reading")
         else:
             t, v = series[key]
-            upto = t <= now_s
-            t, v = t[upto], v[upto]
+            j = int(t.searchsorted(now_s, side="right"))  # sorted: views up to now, no copies
+            t, v = t[:j], v[:j]
             interval = usual_interval_s(t, st.interval_s)
             age = now_s - t[-1]
             if age > stale_after_intervals * interval:
@@ -71,7 +82,7 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
                 problems.append(
                     f"{st.id}: silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min); left out"
                 )
-            recent = v[t >= now_s - STUCK_WINDOW_S]
+            recent = v[int(t.searchsorted(now_s - STUCK_WINDOW_S, side="left")):]
             if len(recent) >= STUCK_MIN_READINGS and np.all(recent == recent[0]):
                 healthy = False
                 problems.append(f"{st.id}: air temperature stuck at {recent[0]:g} degC for an hour; left out")
@@ -112,7 +123,7 @@ def as_of(
     if key not in series:
         return None
     t, v = series[key]
-    i = int(np.searchsorted(t, t_s, side="right")) - 1
+    i = int(t.searchsorted(t_s, side="right")) - 1
     if i < 0 or t_s - t[i] > max_age_s:
         return None
     val = float(v[i])
@@ -146,8 +157,8 @@ def mean_as_of(series: Series, stations: list[str], quantity: str, t_s: float, w
         if sid not in have:
             continue
         t, v = series[(sid, quantity)]
-        j = int(np.searchsorted(t, t_s, side="right"))
-        i = int(np.searchsorted(t, t_s - window_s, side="right"))
+        j = int(t.searchsorted(t_s, side="right"))
+        i = int(t.searchsorted(t_s - window_s, side="right"))
         if j > i:
             vals.extend(v[i:j].tolist())
         elif j > 0 and t_s - t[j - 1] <= 2.0 * window_s:
