@@ -142,9 +142,10 @@ def run_site(key: str, work: Path) -> dict:
     import pandas as pd
 
     from frostwatch import backtest as bt
-    from frostwatch.commands.logs import _series_from_readings
+    from frostwatch.commands.logs import _first_rows
     from frostwatch.config import load_config
-    from frostwatch.ingest.csvlog import read_sensor_log
+    from frostwatch.ingest.bulk import read_log_columns
+    from frostwatch.store.bulk import series_of_columns
 
     site = tmy.SITES[key]
     hourly = tmy.read_pvlib(site)
@@ -161,8 +162,10 @@ def run_site(key: str, work: Path) -> dict:
 
     t = time.perf_counter()
     cfg = load_config(str(cfg_path))
-    readings, rejections = read_sensor_log(log, {s.id for s in cfg.stations})
-    series = _series_from_readings(readings)
+    # as `frostwatch backtest` reads a log (frostwatch.commands.logs): the bulk parse, first value of a key
+    cols, rejections = read_log_columns(log, {s.id for s in cfg.stations})
+    series = series_of_columns(cols, _first_rows(cols), key_order="file")
+    n_readings = len(cols)
     plain = bt.backtest(cfg, series)
     wall_s = time.perf_counter() - t
 
@@ -219,7 +222,7 @@ def run_site(key: str, work: Path) -> dict:
     out: dict = {
         "site": key, "source": f"pvlib {site.file} ({hourly.name}, {site.kind.upper()})",
         "tuned_on": site.tuned_on, "conversion_agrees_with_raw_parse": agree,
-        "readings": len(readings), "rejected_rows": len(rejections), "nights_scored": len(rows),
+        "readings": n_readings, "rejected_rows": len(rejections), "nights_scored": len(rows),
         "cold_below_c": cold_below, "t10_margin_c": round(thr_c, 2), "classes": {},
     }
     for name, rs in classes.items():
