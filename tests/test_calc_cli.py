@@ -142,3 +142,67 @@ def test_wind_machine_fahrenheit_text_in_fahrenheit(capsys):
 def test_readable_output_by_default(capsys):
     rc, out, _ = run(capsys, "critical", "--crop", "grape", "--stage", "bud burst")
     assert rc == 0 and out.startswith("grape, bud burst: 10 % kill -3.9 °C") and "Cautions:" in out
+
+
+# ---- units: suffixes, --units us, the pressure and humidity guards (issue 13) ---------------------
+
+
+def test_wet_bulb_pressure_in_inhg_is_refused_with_the_hint(capsys):
+    # the issue's case: 29.92 taken as hPa gave -6.08 C instead of -1.35 C
+    rc, out, err = run(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure", "29.92")
+    assert rc == 2 and out == ""
+    assert "29.92 looks like inHg: pass --pressure-inhg 29.92" in err
+    as_inhg = run_json(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure-inhg", "29.92")
+    as_hpa = run_json(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure", "1013.2")
+    suffixed = run_json(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure", "29.92inHg")
+    assert as_inhg["wet_bulb_c"] == pytest.approx(as_hpa["wet_bulb_c"], abs=0.01) == suffixed["wet_bulb_c"]
+    assert as_inhg["pressure_hpa"] == pytest.approx(1013.2, abs=0.1)  # JSON keys keep their unit
+    rc, _, err = run(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure", "101.3")
+    assert rc == 2 and "looks like kPa" in err
+    rc, _, err = run(capsys, "wet-bulb", "--air-temp", "1", "--dew-point", "-3", "--pressure", "1013", "--units", "us")
+    assert rc == 2 and "looks like hPa: pass --pressure 1013hPa" in err
+
+
+def test_dew_point_humidity_that_looks_like_a_fraction_asks(capsys):
+    rc, out, err = run(capsys, "dew-point", "--air-temp", "5", "--humidity", "0.5")
+    assert rc == 2 and out == "" and "did you mean 50 %" in err and "--humidity-low-ok" in err
+    confirmed = run_json(capsys, "dew-point", "--air-temp", "5", "--humidity", "0.5", "--humidity-low-ok")
+    written = run_json(capsys, "dew-point", "--air-temp", "5", "--humidity", "0.5%")
+    assert confirmed["dew_point_c"] == written["dew_point_c"] < -40
+    assert run_json(capsys, "dew-point", "--air-temp", "5", "--humidity", "1.5")["relative_humidity_pct"] == 1.5
+
+
+def test_unit_suffixes_and_negative_values_with_a_unit(capsys):
+    c = run_json(capsys, "wet-bulb", "--air-temp", "5C", "--dew-point", "-3C")
+    f = run_json(capsys, "wet-bulb", "--air-temp", "41F", "--dew-point", "26.6F")
+    assert c["wet_bulb_c"] == pytest.approx(f["wet_bulb_c"], abs=0.02)
+    neg = run_json(capsys, "sprinkler-start", "--dew-point", "-10C", "--critical", "-2.2C", "--margin", "1.8F")
+    assert neg["target_wet_bulb_c"] == pytest.approx(-1.2)
+    rc, _, err = run(capsys, "wet-bulb", "--air-temp", "5mph", "--dew-point", "-3")
+    assert rc == 2 and "--air-temp" in err and "does not fit" in err
+
+
+def test_fahrenheit_applies_to_every_temperature_option(capsys):
+    c = run_json(capsys, "wind-machine", "--inversion", "4", "--wind", "0.8", "--min-temp", "-3", "--critical", "-2.2")
+    f = run_json(capsys, "wind-machine", "--inversion", "7.2", "--wind", "0.8", "--min-temp", "26.6", "--critical", "28.04",
+                 "--margin", "3.6", "--fahrenheit")
+    assert f["expected_gain_f"] == pytest.approx(c["expected_gain_c"] * 1.8, abs=0.01)
+    assert f["sufficient"] == c["sufficient"]
+
+
+def test_units_us_reads_and_answers_in_us_units(capsys):
+    si = run_json(capsys, "sprinkler-rate", "--min-temp", "-4.4", "--wind", "1.34", "--capacity", "3.556", "--area", "4.047",
+                  "--hours", "8")
+    us = run_json(capsys, "sprinkler-rate", "--units", "us", "--min-temp", "24", "--wind", "3", "--capacity", "0.14",
+                  "--area", "10", "--hours", "8")
+    assert us["required_rate_mm_h"] == pytest.approx(si["required_rate_mm_h"], abs=0.02)
+    assert us["capacity_mm_h"] == pytest.approx(3.556) and us["area_ha"] == pytest.approx(4.047, abs=0.001)
+    assert us["peak_flow_l_s"] == pytest.approx(si["peak_flow_l_s"], abs=0.1)
+    assert us["peak_flow_gpm"] == pytest.approx(us["peak_flow_l_s"] * 15.850323, abs=1.0)
+    assert us["water_acre_ft"] == pytest.approx(us["water_m3"] / 1233.48, abs=0.001)
+    rc, out, _ = run(capsys, "sprinkler-rate", "--units", "us", "--min-temp", "24", "--wind", "3", "--capacity", "0.14",
+                     "--area", "10", "--hours", "8")
+    text = out.split("Cautions:")[0]
+    assert rc == 0 and "in/h" in text and "gal/min" in text and "acre-ft" in text and "acres" in text and "mph" in text
+    for si_unit in ("mm/h", "L/s", "m3", " ha", "m/s", "°C"):
+        assert si_unit not in text, si_unit
