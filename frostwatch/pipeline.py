@@ -19,7 +19,7 @@ import numpy as np
 from frostwatch import forecast, reference
 from frostwatch.advice import AdvicePlan, plan_advice
 from frostwatch.alerts.levels import UNMONITORED, rank_of, step_for_level
-from frostwatch.alerts.rules import BlockAlertState, rule_settings, step
+from frostwatch.alerts.rules import BlockAlertState, protection_ran, rule_settings, step
 from frostwatch.config import Config
 from frostwatch.decision import Decision, summarise_projection
 from frostwatch.display import Display
@@ -162,7 +162,7 @@ class Evaluator:
             ev.plans.append(plan)
             ev.decisions.append(Decision(
                 block=block.id, as_of_utc=now_utc, night=night.date, level=level, rank=rank_of(level),
-                frost_level=state.level, step=step_for_level(level, plan), monitoring=mon,
+                frost_level=state.level, step=step_for_level(level, plan, protection_ran(state)), monitoring=mon,
                 projection=summarise_projection(proj), plan=plan, alert_key=state.last_key,
                 inputs_utc=inputs_utc(self.cfg, block, window, now_s),
             ))

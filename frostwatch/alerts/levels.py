@@ -44,13 +44,15 @@ def rank_of(level: str) -> int:
     return ALL_LEVELS.get(level, 2)
 
 
-def step_for_level(level: str, plan: AdvicePlan) -> Step:
+def step_for_level(level: str, plan: AdvicePlan, ran: bool = True) -> Step:
     """The step a screen shows with `level`, so that the two never disagree.
 
     The level holds for the night (it needs persistence to rise and never falls back but through
     an all-clear), while the plan's own step follows each evaluation. The shown step is the
     plan's where it fits the level, else the one the level stands for: a standby never says
     "start", an act never says "get ready", and running protection is never told to start.
+    In the morning, protection that never ran tonight (`ran` False) is never told to keep running
+    or that it may stop.
     """
     running = bool(plan.protection_running)
     if level == UNMONITORED or plan.risk is Risk.UNKNOWN:
@@ -59,6 +61,8 @@ def step_for_level(level: str, plan: AdvicePlan) -> Step:
         if level == "safe-to-stop":
             return Step.SAFE_TO_STOP
         if level in ("standby", "act", "critical"):
+            if not ran:
+                return Step.NIGHT_OVER if plan.step in (Step.SAFE_TO_STOP, Step.WATCH_TO_STOP) else Step.NOTHING
             return plan.step if plan.step in _MORNING_STEPS else Step.WAIT_TO_STOP
         return Step.NOTHING
     if level == "critical":

@@ -76,6 +76,16 @@ class BlockAlertState:
     announced_crossing_utc: dt.datetime | None = None  # the crossing the last standby/update gave
     announced_at_utc: dt.datetime | None = None  # when the last standby/update went out
     update_count: int = 0
+    ran_tonight: bool = False  # the block's running flag read "running" at least once tonight
+    told_to_start: bool = False  # an act or critical alert told the grower to run the block's method
+
+
+def protection_ran(state: BlockAlertState) -> bool:
+    """Whether the block's protection may have run tonight: its running flag said so, or an act or
+    critical alert told the grower to start the block's own method (a flag can be wrong; a grower
+    who was told to start must hear when to stop). Protection that never ran (no running flag and
+    no such alert) gets no stop message in the morning, at most the night-over summary."""
+    return state.ran_tonight or state.told_to_start
 
 
 def _clear_enough(plan: AdvicePlan) -> bool:
@@ -161,6 +171,8 @@ def step(
     key_night = night.date.isoformat()
     if state.night != key_night:
         state = BlockAlertState(night=key_night)
+    if plan.protection_running and not state.ran_tonight:
+        state = dataclasses.replace(state, ran_tonight=True)
     run = _Run(state, plan, proj, block, now, key_night, display)
     monitored = monitoring.monitored if monitoring is not None else plan.risk is not Risk.UNKNOWN
     if not monitored:
@@ -184,7 +196,7 @@ def step(
             run.alerts[0] = dataclasses.replace(run.alerts[0], resolves=run.alerts[0].resolves or reopened)
         else:
             lvl = run.state.level
-            run.send(lvl, step_for_level(lvl, plan), Notice.MONITORED_AGAIN, resolves=reopened)
+            run.send(lvl, step_for_level(lvl, plan, protection_ran(run.state)), Notice.MONITORED_AGAIN, resolves=reopened)
         run.set(unmonitored_key=None, unmonitored_since_utc=None, monitored_count=0)
     return run.state, run.alerts
 
@@ -208,7 +220,7 @@ def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
         if st.level == "frost-possible":
             run.set(level="all-clear")  # the night is over without a call to protect
         elif LEVELS[st.level] >= LEVELS["standby"] and _morning_stop_ok(plan):
-            if plan.method is Method.NONE:
+            if plan.method is Method.NONE or not protection_ran(st):  # nothing ran: nothing to stop
                 run.send("all-clear", Step.NIGHT_OVER, Notice.NIGHT_OVER, resolves=st.last_key)
                 run.set(level="all-clear", candidate="all-clear", candidate_count=0)
             else:
@@ -224,7 +236,8 @@ def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
         if count >= PERSISTENCE[wanted]:
             run.send(wanted, step_for_level(wanted, plan), Notice.LEVEL)
             peak = wanted if LEVELS[wanted] > LEVELS[st.peak_level] else st.peak_level
-            run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak,
+            told = st.told_to_start or (LEVELS[wanted] >= LEVELS["act"] and plan.advised)
+            run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak, told_to_start=told,
                     announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)
     elif LEVELS[st.level] >= LEVELS["standby"] and _clear_enough(plan):
         n = st.clear_count + 1
