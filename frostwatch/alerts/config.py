@@ -412,7 +412,7 @@ def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
                 problems.append(f"{where}.body_template: {err}")
     elif typ == "mqtt":
         if not isinstance(ch.get("topic"), str) or not ch.get("topic"):
-            problems.append(f"{where}.topic: missing, expected the siren or relay topic (e.g. \"frostwatch/siren\")")
+            problems.append(f"{where}.topic: missing, expected the siren or relay topic (e.g. \"farm/siren\", outside the readings prefix)")
         if ch.get("qos", 1) not in (0, 1, 2):
             problems.append(f"{where}.qos: {ch.get('qos')!r} is not 0, 1 or 2, expected 1")
         if ch.get("payload", "json") not in ("json", "text", "on"):
