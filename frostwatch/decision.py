@@ -73,6 +73,7 @@ class ProjectionSummary:
     notes: tuple[str, ...] = ()
     curve_time_utc: tuple[dt.datetime, ...] = ()
     curve_air_temp_c: tuple[float, ...] = ()
+    wind_from_farm: bool = False  # the block has no anemometer: the wind is the farm's
 
 
 def summarise_projection(p: Projection) -> ProjectionSummary:
@@ -101,6 +102,7 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
         band_low_c=r(lo), band_high_c=r(hi), crossings_utc=dict(p.crossings_utc), inversion_c=r(p.inversion_c),
         projected_inversion_c=r(p.projected_inversion_c), wind_speed_m_s=r(p.wind_speed_m_s), regime=p.regime,
         method=p.method, notes=tuple(p.notes), curve_time_utc=tuple(times), curve_air_temp_c=tuple(temps),
+        wind_from_farm=bool(getattr(p, "wind_from_farm", False)),
     )
 
 

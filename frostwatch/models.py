@@ -100,6 +100,8 @@ class Projection:
     # while the site is still learning (fewer past nights than [forecast] calibration_nights)
     calibration_nights_known: int | None = None
     calibration_nights_needed: int | None = None
+    # the block has no anemometer of its own (nor a site-wide one): the wind is the farm's
+    wind_from_farm: bool = False
 
 
 @dataclass(frozen=True)

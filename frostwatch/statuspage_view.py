@@ -182,7 +182,7 @@ def _stations(item: dict, d: Display) -> str:
     rows = []
     for s in item["stations"]:
         age = "no reading" if s["age_min"] is None else f"{_ago(s['age_min'] * 60)} ago"
-        rows.append(f"<tr><td>{e(s['station'])} ({s['height_m']:g} m)</td><td>{d.temp(s['air_temp_c']) if s['air_temp_c'] is not None else ''}</td>"
+        rows.append(f"<tr><td>{e(s['station'])} ({d.length(s['height_m'])})</td><td>{d.temp(s['air_temp_c']) if s['air_temp_c'] is not None else ''}</td>"
                     f"<td>{age}</td></tr>")
     return f"<table class='sensors'>{''.join(rows)}</table>"
 
@@ -230,7 +230,8 @@ def _card(item: dict, snap: dict) -> str:
     if p.get("wet_bulb_c") is not None:
         extra.append(f"wet bulb {d.temp(p['wet_bulb_c'])}")
     if p.get("wind_speed_m_s") is not None:
-        extra.append(f"wind {p['wind_speed_m_s']:.1f} m/s")
+        farm = "farm " if dcs is not None and dcs.projection.wind_from_farm else ""
+        extra.append(f"{farm}wind {d.wind(p['wind_speed_m_s'])}")
     return (f'<section class="card monitored r{j["rank"]}" {attrs} data-monitored="true">{title}'
             f'<div class="big now-temp">{now}</div><div class="note">{where}; {crit}</div>'
             f'<p><span class="lvl">{e(LEVEL_WORD.get(j["level"], j["level"]))}</span>{since} '

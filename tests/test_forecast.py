@@ -339,4 +339,4 @@ def test_act_time_comes_from_the_band_cold_edge_and_says_so(tmp_path):
     assert plan.crossing_utc < plan.crossing_middle_utc
     assert plan.ready_by_utc == plan.crossing_utc - dt.timedelta(minutes=cfg.blocks[0].mobilisation_min)
     why = " ".join(explain.reasons(plan, Display()))
-    assert "cold edge of the 80 % band" in why and "still learning" in why
+    assert "times are set early" in why and "still learning" in why

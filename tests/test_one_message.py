@@ -37,6 +37,16 @@ NOW = dt.datetime(2027, 4, 15, 8, 0, tzinfo=UTC)
 SUNRISE = dt.datetime(2027, 4, 15, 13, 10, tzinfo=UTC)
 
 
+def level_of_headline(head: str) -> str:
+    """The level a printed headline announces ("east: STANDBY: ..." -> "standby")."""
+    from frostwatch.advice.render import LEVEL_WORD
+
+    words = sorted(LEVEL_WORD.items(), key=lambda kv: -len(kv[1]))
+    found = [(head.find(f": {w}"), lvl) for lvl, w in words if f": {w}" in head]
+    assert found, head
+    return min(found)[1]
+
+
 def check_message(level: str, text: str) -> list[str]:
     """What is wrong with one alert's text (empty when headline and action agree)."""
     problems = []
@@ -153,13 +163,15 @@ def test_demo_prints_only_consistent_alerts(tmp_path):
     assert p.returncode == 0, p.stderr[-2000:]
     out = p.stdout
     assert "n/a" not in out
-    blocks = re.split(r"\n  (?=\d{4}-\d{2}-\d{2} \d{2}:\d{2} \w+  \[)", out.split("\nAlerts:\n", 1)[1].split("\nNight summary")[0])
+    blocks = re.split(r"\n  (?=\d{4}-\d{2}-\d{2} \d{2}:\d{2} \w+  )", out.split("\nAlerts:\n", 1)[1].split("\nNight summary")[0])
     checked = 0
     for blk in blocks:
-        m = re.match(r"\s*\d{4}-\d{2}-\d{2} \d{2}:\d{2} \w+  \[(\S+) rank \d\]  (.*)", blk, re.S)
+        m = re.match(r"\s*\d{4}-\d{2}-\d{2} \d{2}:\d{2} \w+  (.*)", blk, re.S)
         if not m:
             continue
-        level, text = m.group(1), "\n".join(line.strip() for line in m.group(2).splitlines())
+        assert " rank " not in m.group(1)  # the printed alerts speak words, not ranks
+        text = "\n".join(line.strip() for line in m.group(1).splitlines())
+        level = level_of_headline(text.splitlines()[0])
         assert check_message(level, text) == [], text
         checked += 1
     assert checked > 10

@@ -42,14 +42,15 @@ def now_line(proj, d: Display) -> str | None:
     if proj.inversion_c is not None:
         bits.append(f"inversion {d.delta(proj.inversion_c)}")
     if proj.wind_speed_m_s is not None:
-        bits.append(f"wind {proj.wind_speed_m_s:.1f} m/s")
+        farm = "farm " if getattr(proj, "wind_from_farm", False) else ""
+        bits.append(f"{farm}wind {d.wind(proj.wind_speed_m_s)}")
     return f"Now at {proj.station}: " + ", ".join(bits) + "."
 
 
 def projection_line(plan: AdvicePlan, proj, d: Display) -> str | None:
     if plan.predicted_min_c is None:
         return None
-    band = f" +/- {d.delta(plan.band_c)}" if plan.band_c is not None and plan.band_c == plan.band_c else ""
+    band = f" ± {d.delta(plan.band_c)}" if plan.band_c is not None and plan.band_c == plan.band_c else ""
     around = f" around {d.time(plan.predicted_min_at_utc)}" if plan.predicted_min_at_utc else ""
     return (f"Projected minimum {d.temp(plan.predicted_min_c)}{band}{around}; T10 {d.temp(plan.t10_c)}, "
             f"T90 {d.temp(plan.t90_c)}, margin {d.delta(plan.margin_c)}; the {render.TRIGGER_WORD[plan.trigger]} "
@@ -86,11 +87,12 @@ def compose(block_id: str, level: str, step: Step, plan: AdvicePlan, proj, d: Di
         lines.append(rl)
     why = explain.reasons(plan, d)
     if why:
-        lines.append("Why: " + "; ".join(why) + ".")
+        lines.append("Why:")
+        lines += [f"- {w}." for w in why]
     stop = explain.stop_rule(plan, d) if calls_for_protection else None
     if stop:
         lines.append(f"Stop: {stop}.")
-    also = render.alternatives(plan.verdict) if calls_for_protection else []
+    also = render.alternatives(plan.verdict, d) if calls_for_protection else []
     if also:
         lines.append("Also: " + "; ".join(also) + ".")
     lines.append("Cautions: " + " ".join(render.cautions(plan, d)))

@@ -57,10 +57,18 @@ START = {
     Method.UNDERTREE_SPRINKLER: "start the under-tree sprinklers",
     Method.HEATERS: "light the heaters",
 }
+LIGHTING = "; light the upwind border and the low spots first"  # heaters (lighting order, common practice)
 LEVEL_WORD = {
     "critical": "CRITICAL", "act": "ACT", "standby": "STANDBY", "frost-possible": "FROST POSSIBLE",
     "safe-to-stop": "SAFE TO STOP", "all-clear": "ALL CLEAR", "unmonitored": "NOT MONITORED",
 }
+
+
+def level_word(level: str) -> str:
+    """The level as a person reads it ("STANDBY"), for any level name stored or received."""
+    return LEVEL_WORD.get(level, level.replace("-", " ").upper())
+
+
 TRIGGER_WORD = {Trigger.AIR: "air", Trigger.WET_BULB: "wet-bulb"}
 CAUTION_TEXT = {
     Caution.GROWER_DECIDES: "frostwatch advises; the grower decides.",
@@ -69,8 +77,8 @@ CAUTION_TEXT = {
     Caution.FAN_SAFETY: "Keep clear of wind machines when starting them.",
     Caution.SPRINKLER_SAFETY: "Ice-loaded trees and wet ground are hazards under sprinklers.",
     Caution.HEATER_SAFETY: "Heaters are a fire hazard: keep fuel and people clear and follow local burning rules.",
-    Caution.AIR_QUALITY: "Orchard heaters are regulated for smoke: follow your air district's rules (for example, no "
-                         "waste oil and no smudge pots, Lake County AQMD) and log the hours they burn.",
+    Caution.AIR_QUALITY: "Orchard heaters are regulated for smoke: follow your air district's rules (no waste oil, "
+                         "no smudge pots) and log the hours they burn.",
     Caution.SUPPLY_SHORT: "The water supply cannot run the whole block at the full rate: sprinkle only the part it "
                           "can feed, never the whole block at a lower rate.",
 }
@@ -78,28 +86,28 @@ CAUTION_TEXT = {
 GENERAL_CAUTIONS = tuple(CAUTION_TEXT[c] for c in (
     Caution.GROWER_DECIDES, Caution.CHECK_THERMOMETERS, Caution.LOCAL_RULES, Caution.FAN_SAFETY,
     Caution.SPRINKLER_SAFETY, Caution.HEATER_SAFETY))
-ALTERNATIVE_TEXT = {
-    Alternative.ADVECTIVE: "in wind (an advective frost) little works well: heaters lose their heat downwind, over-tree "
-                           "sprinklers need far more water (and none above about 4.5 m/s); protect what you can and "
-                           "ask your adviser",
-    Alternative.FOG_HEATERS_OR_SPRINKLERS: "in fog use heaters or sprinklers, not fans",
-    Alternative.HEATERS_WITH_FANS: "with a weak inversion, heaters together with the fans (the fans spread the heat) or "
-                                   "sprinklers help more",
-    Alternative.ADD_HEATERS: "add heaters to the fans (they combine well, common practice) or use sprinklers where you "
-                             "have them",
-    Alternative.SPRINKLERS_ASK_ADVISER: "too little water for the conditions leaves the buds near the wet bulb, colder "
-                                        "than dry buds: consult your adviser before relying on the sprinklers",
-    Alternative.UNDERTREE_NOT_ENOUGH: "under-tree sprinklers warm the air only a little (0.6-1.4 °C, Parsons 2015) and "
-                                      "only under an inversion: add wind machines or heaters where you have them",
-    Alternative.MORE_HEATERS: "the installed heaters may fall short tonight: light them all, add heaters on the borders "
-                              "(double them on the upwind border, FAO-FP p. 147), or run wind machines with them to "
-                              "spread the heat",
-    Alternative.HEATERS_WEAK_INVERSION: "with a weak inversion most of the heaters' heat rises away (FAO-FP p. 147): "
-                                        "sprinklers, or heaters together with wind machines where there is some "
-                                        "inversion, hold more",
-    Alternative.COVERS_OR_MOIST_SOIL: "covers for small plantings, or irrigating dry ground in the afternoon (moist soil "
-                                      "stores and gives back more heat, FAO-FP) help a little",
-}
+
+
+def alternative_text(a: Alternative, d: Display) -> str:
+    """What else helps, in one short clause (sources in the report's notes, never here)."""
+    return {
+        Alternative.ADVECTIVE: ("in wind little works well: heaters lose their heat downwind and over-tree sprinklers "
+                                f"need far more water (none above about {d.wind_limit(4.5)}); protect what you can and "
+                                "ask your adviser"),
+        Alternative.FOG_HEATERS_OR_SPRINKLERS: "in fog use heaters or sprinklers, not fans",
+        Alternative.HEATERS_WITH_FANS: "with little warm air aloft, heaters with the fans, or sprinklers, help more",
+        Alternative.ADD_HEATERS: "add heaters to the fans, or use sprinklers where you have them",
+        Alternative.SPRINKLERS_ASK_ADVISER: ("too little water leaves the buds colder than dry ones: ask your adviser "
+                                             "before relying on the sprinklers"),
+        Alternative.UNDERTREE_NOT_ENOUGH: (f"under-tree sprinklers add only about {d.delta(0.6)} to {d.delta(1.4)}, and "
+                                           "only with warm air aloft: add wind machines or heaters where you have them"),
+        Alternative.MORE_HEATERS: ("the heaters may fall short tonight: light them all, add more on the borders "
+                                   "(double on the upwind side), or run wind machines with them"),
+        Alternative.HEATERS_WEAK_INVERSION: ("with little warm air aloft most of the heaters' heat rises away: "
+                                             "sprinklers, or heaters with wind machines, hold more"),
+        Alternative.COVERS_OR_MOIST_SOIL: ("covers for small plantings, or watering dry ground in the afternoon "
+                                           "(moist soil gives back more heat), help a little"),
+    }[a]
 
 
 def method_name(method: Method) -> str:
@@ -110,13 +118,13 @@ def _t(d: Display, t: dt.datetime | None) -> str:
     return d.time(t)
 
 
-def _conditions(v: MethodVerdict | None) -> str:
+def _conditions(v: MethodVerdict | None, d: Display) -> str:
     if v is None or not v.conditions:
         return ""
     words = []
     for c in v.conditions:
         if c is Condition.WIND_BELOW_FAN_LIMIT:
-            words.append(f"the wind is below {v.fans.wind_limit_m_s:g} m/s" if v.fans else "the wind is light")
+            words.append(f"the wind is below {d.wind_limit(v.fans.wind_limit_m_s)}" if v.fans else "the wind is light")
         elif c is Condition.NO_FOG:
             words.append("there is no fog")
         elif c is Condition.CALM_AIR:
@@ -131,7 +139,7 @@ def _reach(plan: AdvicePlan, d: Display) -> str:
     if now_c is not None and now_c <= plan.line_c and plan.risk is not Risk.MORNING:
         return f"{what} is already at or below {d.temp(plan.line_c)} (now {d.temp(now_c)})"
     if plan.crossing_utc is not None and _from_cold_edge(plan):
-        return f"{what} may reach {d.temp(plan.line_c)} by {_t(d, plan.crossing_utc)} (the band's cold edge)"
+        return f"{what} may reach {d.temp(plan.line_c)} by {_t(d, plan.crossing_utc)}"
     if plan.crossing_utc is not None:
         return f"{what} is projected to reach {d.temp(plan.line_c)} at {_t(d, plan.crossing_utc)}"
     if plan.risk in (Risk.LIKELY, Risk.NOW):
@@ -165,7 +173,20 @@ def _at_t10(plan: AdvicePlan, d: Display) -> str:
 
 
 def _trend(d: Display, tr: float | None) -> str:
-    return "" if tr is None else f" ({'+' if tr >= 0 else ''}{d.delta(tr)} per hour)"
+    """' (rising 1.3 °C per hour)', ' (steady)'; nothing without a trend."""
+    return "" if tr is None else f" ({d.trend(tr)})"
+
+
+def _above(d: Display, what: str, now_c: float, limit_c: float, trend: float | None = None, name: str = "") -> str:
+    """'crop-height air 1.2 °C is above 0.0 °C and rising 1.3 °C per hour', or, when both read
+    the same once rounded, 'crop-height air has just passed 0.0 °C and is rising ...' (never
+    "x is above x"; a trend that rounds to zero is "steady", never "rising")."""
+    limit = f"{name} {d.temp(limit_c)}" if name else d.temp(limit_c)
+    if d.same_temp(now_c, limit_c):
+        text, verb = f"{what} has just passed {limit}", "is "
+    else:
+        text, verb = f"{what} {d.temp(now_c)} is above {limit}", ""
+    return text if trend is None else f"{text} and {verb}{d.trend(trend)}"
 
 
 def _sprinkler_start(plan: AdvicePlan, d: Display) -> str:
@@ -185,7 +206,7 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
     if step is Step.NOTHING:
         return "nothing to do now; frostwatch keeps watching"
     if step is Step.WATCH:
-        return "nothing to do yet: frost is possible later tonight; frostwatch will say when to get ready"
+        return "nothing to do yet: frost may come later tonight; frostwatch will say when to get ready"
     if step is Step.EASING:
         low = f" (minimum {d.temp(plan.predicted_min_c)}, above {d.temp(plan.line_c)})" if plan.predicted_min_c is not None else ""
         return (f"the projection has eased{low}; keep protection going if it is running until frostwatch gives "
@@ -199,16 +220,17 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
             who = "get ready to protect the block by other means"
         ahead = plan.ready_by_utc is not None and plan.ready_by_utc > plan.time_utc
         if ahead:
-            text = (f"{who} by {_t(d, plan.ready_by_utc)}{_conditions(v) if advised else ''} "
+            text = (f"{who} by {_t(d, plan.ready_by_utc)}{_conditions(v, d) if advised else ''} "
                     f"({plan.mobilisation_min:.0f} min before {_reach(plan, d)})")
         else:
-            text = f"{who} now{_conditions(v) if advised else ''}: {_reach(plan, d)}"
+            text = f"{who} now{_conditions(v, d) if advised else ''}: {_reach(plan, d)}"
         if not advised and m is not Method.NONE:
             text += f"; the {name} are not advised tonight"
-        return text + _sprinkler_start(plan, d)
+        return text + _sprinkler_start(plan, d) + (LIGHTING if advised and m is Method.HEATERS else "")
     if step is Step.START_NOW:
         if advised:
-            return f"{START[m]} now{_conditions(v)}: {_reach(plan, d)}{_sprinkler_start(plan, d)}"
+            lit = LIGHTING if m is Method.HEATERS else ""
+            return f"{START[m]} now{_conditions(v, d)}: {_reach(plan, d)}{_sprinkler_start(plan, d)}{lit}"
         if m is Method.NONE:
             return f"protect the block now if you can: {_reach(plan, d)}"
         return f"protect the block by other means now: {_reach(plan, d)}; the {name} are not advised tonight"
@@ -217,7 +239,7 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
         if advised and m.is_sprinkler:
             return f"{START[m]} now if they are not running, and keep them running without a break: {fact}"
         if advised:
-            return f"{START[m]} now{_conditions(v)}: {fact}"
+            return f"{START[m]} now{_conditions(v, d)}: {fact}{LIGHTING if m is Method.HEATERS else ''}"
         if m is Method.NONE:
             return f"protect the block now if you can: {fact}"
         return f"protect the block by other means now: {fact}; the {name} are not advised tonight"
@@ -243,7 +265,7 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
         return _sprinkler_stop_action(step, plan, d)
     limit = d.temp(plan.line_c)
     if step is Step.SAFE_TO_STOP:
-        return f"the {name} may stop: crop-height air {d.temp(now_c)} is above {limit} and rising{_trend(d, trend)}"
+        return f"the {name} may stop: {_above(d, 'crop-height air', now_c, plan.line_c, trend)}"
     if step is Step.WATCH_TO_STOP:
         return (f"the {name} may stop once crop-height air ({d.temp(now_c)}) keeps rising above {limit} (watch it for "
                 "15-30 min; frostwatch has no recent trend)")
@@ -267,24 +289,26 @@ def _sprinkler_stop_action(step: Step, plan: AdvicePlan, d: Display) -> str:
     if s.basis is StopBasis.REFERENCE_WET_BULB:
         wb = f"the wet bulb of unsprinkled air at {s.reference_station} {d.temp(now_c)}"
         if step is Step.SAFE_TO_STOP:
-            return (f"the sprinklers may stop once {_ice(plan)}: {wb} is above T10 {t10} and rising"
-                    f"{_trend(d, trend)}")
+            where = f"the wet bulb of unsprinkled air at {s.reference_station}"
+            return f"the sprinklers may stop once {_ice(plan)}: {_above(d, where, now_c, plan.t10_c, trend, 'T10')}"
         if step is Step.WATCH_TO_STOP:
             return (f"{wb} is above T10 {t10}: the sprinklers may stop once it keeps rising (watch it for 15-30 min; "
                     f"frostwatch has no recent trend) and {_ice(plan)}")
         if now_c <= plan.t10_c:
             return (f"keep the sprinklers running: {wb} is not above T10 {t10}; stopping now would cool the wet buds "
                     "towards it")
-        return (f"keep the sprinklers running: {wb} is above T10 but not rising by at least "
-                f"{d.delta(s.min_rise_c_per_h)} per hour{_trend(d, trend)}")
+        return (f"keep the sprinklers running: {wb} is above T10 but not yet rising by "
+                f"{d.delta(s.min_rise_c_per_h)} an hour{_trend(d, trend)}")
     # no reference air: the block's own air must pass the fallback stop temperature
     why = (f"the reference station {s.reference_station} has no fresh reading" if s.reference_silent
            else "there is no reference station outside the sprinkled area")
-    basis = (f"frostwatch cannot judge the wet bulb from the block's own air, which the spray has moistened ({why}); "
-             f"it waits for the block's air to pass {d.temp(s.limit_c)} (well above the ice-bulb rule)")
+    basis = (f"the spray wets the block's own air ({why}), so frostwatch waits for it to pass "
+             f"{d.temp(s.limit_c)}, well above the usual stop temperature")
     air = f"the block's air {d.temp(now_c)}" if now_c is not None else "the block's air"
     if step is Step.SAFE_TO_STOP:
-        return f"the sprinklers may stop once {_ice(plan)}: {air} is above {d.temp(s.limit_c)} and rising{_trend(d, trend)}; {basis}"
+        above = (_above(d, "the block's air", now_c, s.limit_c, trend) if now_c is not None
+                 else f"{air} is above {d.temp(s.limit_c)} and rising")
+        return f"the sprinklers may stop once {_ice(plan)}: {above}; {basis}"
     if step is Step.WATCH_TO_STOP:
         return (f"{air} is above {d.temp(s.limit_c)}: the sprinklers may stop once it keeps rising (watch it for 15-30 "
                 f"min) and {_ice(plan)}; {basis}")
@@ -300,12 +324,12 @@ def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display
     if notice is Notice.OUTLOOK:
         around = f" around {_t(d, plan.predicted_min_at_utc)}" if plan.predicted_min_at_utc else ""
         if level == "frost-possible":
-            return f"{b}: frost possible tonight: minimum {d.temp(pmin)}{around} (T10 {d.temp(plan.t10_c)})"
-        return f"{b}: tonight's outlook is clear: minimum {d.temp(pmin)}{around}"
+            return f"{b}: {word}: frost may come tonight: minimum {d.temp(pmin)}{around} (T10 {d.temp(plan.t10_c)})"
+        return f"{b}: {word}: tonight looks safe: minimum {d.temp(pmin)}{around}"
     if notice is Notice.RESOLVED:
-        return f"{b}: resolved: the projection is back above T10 + margin (minimum {d.temp(pmin)})"
+        return f"{b}: {word}: the projection is back above T10 + margin (minimum {d.temp(pmin)})"
     if notice is Notice.NIGHT_OVER:
-        return f"{b}: resolved: the night is over and the block is warming"
+        return f"{b}: {word}: the night is over and the block is warming"
     prefix = f"{b}: "
     if notice is Notice.MONITORED_AGAIN:
         prefix = f"{b}: monitored again; "
@@ -344,7 +368,7 @@ def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display
     if step is Step.NIGHT_OVER:
         return f"{prefix}{word}: the night is over"
     if step is Step.WATCH:
-        return f"{prefix}{word}: frost possible later tonight; nothing to do yet"
+        return f"{prefix}{word}: frost may come later tonight; nothing to do yet"
     low = f": minimum {d.temp(pmin)}" if pmin is not None else ""
     return f"{prefix}{word}: nothing to do{low}"
 
@@ -361,10 +385,11 @@ def risk_reason(plan: AdvicePlan, d: Display) -> str:
         return _at_t10(plan, d)
     band = plan.band_c if plan.band_c is not None and plan.band_c == plan.band_c else None
     if plan.risk is Risk.LIKELY:
-        pm = f" (+/- {d.delta(band)})" if band is not None else ""
-        return f"projected minimum {d.temp(pmin)}{pm} reaches T10 + margin {line}"
+        pm = f" ± {d.delta(band)}" if band is not None else ""
+        return f"projected minimum {d.temp(pmin)}{pm}, below T10 + margin {line}"
     if plan.risk is Risk.POSSIBLE:
-        return f"projected minimum {d.temp(pmin)} is within its uncertainty ({d.delta(band)}) of T10 + margin {line}"
+        within = f"within {d.delta(band)} of" if band is not None else "near"
+        return f"projected minimum {d.temp(pmin)}, {within} T10 + margin {line}"
     return f"projected minimum {d.temp(pmin)} stays above T10 + margin {line}"
 
 
@@ -374,7 +399,7 @@ def cautions(plan: AdvicePlan, d: Display) -> list[str]:
     for c in plan.cautions:
         if c is Caution.FOG_LOOK:
             out.append("The air is near its dew point below freezing: fog is possible; look before running fans, and "
-                       "never run them in supercooled fog (FAO-FP p. 160).")
+                       "never run them in fog below freezing.")
         elif c is Caution.WET_BULB_AT_T10:
             out.append(f"The wet bulb ({d.temp(plan.trigger_now_c)}) is already at or below T10: sprinklers turned on "
                        "now cool the buds towards it until ice forms; weigh this with your adviser.")
@@ -383,8 +408,8 @@ def cautions(plan: AdvicePlan, d: Display) -> list[str]:
     return out
 
 
-def alternatives(v: MethodVerdict | None) -> list[str]:
-    return [] if v is None else [ALTERNATIVE_TEXT[a] for a in v.alternatives]
+def alternatives(v: MethodVerdict | None, d: Display | None = None) -> list[str]:
+    return [] if v is None else [alternative_text(a, d or Display()) for a in v.alternatives]
 
 
 __all__ = [

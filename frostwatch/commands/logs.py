@@ -251,7 +251,7 @@ def _print_alerts(alerts, d) -> None:
         print("  none")
     for a in alerts:
         head, *rest = a.message.splitlines()
-        print(f"  {d.datetime(a.time_utc)}  [{a.level} rank {a.rank}]  {head}")
+        print(f"  {d.datetime(a.time_utc)}  {head}")
         for line in rest:
             if line.startswith("Cautions:"):
                 continue

@@ -23,6 +23,7 @@ from collections.abc import Callable
 from http import cookies
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 
+from frostwatch.advice.render import level_word
 from frostwatch.display import Display
 from frostwatch.errors import UsageError
 from frostwatch.fleet.site import parse_utc
@@ -66,7 +67,7 @@ def _ago(text: str | None, now: dt.datetime) -> str:
 
 
 def render_block(b: dict, d: Display, now: dt.datetime, reachable: bool) -> str:
-    lvl = f'<span class="lvl">{e(b["level"])}</span> <span class="note">rank {b["rank"]}</span>'
+    lvl = f'<span class="lvl">{e(level_word(b["level"]))}</span>'
     why = b.get("reason") or "no fresh crop-height reading"
     mon = "" if b["monitored"] else f'<div class="unmon">NOT MONITORED: {e(why)}</div>'
     proj = ""
@@ -111,7 +112,7 @@ def render_page(doc: dict, d: Display, refresh_s: int, now: dt.datetime) -> str:
         banner = (f'<p class="banner">This view has lost the central broker {doc.get("broker", "")} since '
                   f'{_when(doc.get("broker_lost_since"), d, now)}: everything below is old.</p>')
     head = (f'<p class="sub">{len(doc["sites"])} sites; <b class="{"bad" if n_blind else ""}">{n_blind} not reachable</b>; '
-            f'highest rank first. As of <b id="as-of">{d.datetime(now)}</b>; refreshes every {refresh_s} s.</p>')
+            f'most urgent first. As of <b id="as-of">{d.datetime(now)}</b>; refreshes every {refresh_s} s.</p>')
     rej = doc.get("rejected") or {}
     rejected = (f'<p class="note">{rej["count"]} messages could not be read; latest: '
                 f'{e(rej["latest"][-1]["topic"])}: {e(rej["latest"][-1]["reason"])}</p>' if rej.get("count") else "")

@@ -157,11 +157,13 @@ def project_block(
     if td_c is not None:
         td_c = min(td_c, air_c)
     wind = mean_as_of(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
+    wind_from_farm = False
     if wind is None:
         # no anemometer in the block or site-wide: the farm's wind is better than none
         others = [s.id for s in cfg.stations if s.block not in (block.id, None)]
         wind = mean_as_of(series, others, "wind_speed", now_s, INPUT_WINDOW_S)
         if wind is not None:
+            wind_from_farm = True
             notes.append("no wind sensor in this block: wind from the farm's other sensors")
     cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
     if cloud is None:
@@ -328,6 +330,7 @@ def project_block(
         curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if projecting else (),
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,
+        wind_from_farm=wind_from_farm,
         **tower_fields,
         **drying_fields,
     )

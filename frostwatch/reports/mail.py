@@ -38,7 +38,7 @@ def _key_rows(html_path: Path) -> tuple[dict, list[dict]]:
 
 
 def _fmt_c(d: Display, v: str) -> str:
-    return d.temp(float(v)) if v not in ("", None) else "n/a"
+    return d.temp(float(v)) if v not in ("", None) else "no reading"
 
 
 def build_report_email(
@@ -64,12 +64,13 @@ def build_report_email(
     m["Date"] = email.utils.formatdate(localtime=False)
     m["Message-ID"] = email.utils.make_msgid(idstring=f"report.{night}", domain="frostwatch.local")
     lines = [f"{cfg.site.name}, night of {night} (local times, {cfg.site.timezone}; temperatures in {d.symbol})", ""]
-    head = ["block", "minimum", "at", "min<=T10", "min<=T90", "ran (h)", "water m3"]
+    head = ["block", "minimum", "at", "min<=T10", "min<=T90", "ran (h)", "water"]
     table = [head]
     for r in rows:
-        at = dt.datetime.fromisoformat(r["min_at_local"]).strftime("%H:%M") if r["min_at_local"] else "n/a"
+        at = dt.datetime.fromisoformat(r["min_at_local"]).strftime("%H:%M") if r["min_at_local"] else "-"
+        water = d.water(float(r["water_m3"])) if r["water_m3"] not in ("", None) else "-"
         table.append([r["block"], _fmt_c(d, r["min_c"]), at, f"{float(r['minutes_below_t10']):.0f}",
-                      f"{float(r['minutes_below_t90']):.0f}", r["protection_hours"], r["water_m3"] or "-"])
+                      f"{float(r['minutes_below_t90']):.0f}", r["protection_hours"], water])
     widths = [max(len(str(row[i])) for row in table) for i in range(len(head))]
     lines += ["  ".join(str(c).ljust(w) for c, w in zip(row, widths, strict=True)) for row in table]
     lines.append("")

@@ -22,6 +22,7 @@ from frostwatch.display import Display
 from frostwatch.errors import UsageError
 from frostwatch.night import Night, night_of_date
 from frostwatch.pipeline import LOOKBACK
+from frostwatch.reports.panels import lower_panel
 from frostwatch.reports.plots import plot_block_night
 from frostwatch.reports.settings import INSURANCE_NOTICE_H, ReportSettings, report_settings
 from frostwatch.reports.summary import BlockNight, block_night, runs_from_acks
@@ -39,6 +40,8 @@ class BlockSection:
     dusk_forecast_c: float | None
     projections: list[dict]
     png: str = ""
+    lower_note: str = ""  # what the plot's lower panel leaves out, and why (frostwatch.reports.panels)
+    lower_shown: bool = True
 
     @property
     def forecast_error_c(self) -> float | None:
@@ -113,7 +116,9 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
             {"time": from_ms(p["time_utc_ms"]).isoformat(), "predicted_min_c": p["predicted_min_c"], "band_c": p["band_c"]}
             for p in projs if p["predicted_min_c"] is not None
         ]
-        sections.append(BlockSection(bn, dusk_c, proj_dicts))
+        lower = lower_panel(block, cfg, series, night.sunset_utc.timestamp() - 3 * 3600,
+                            night.sunrise_utc.timestamp() + 3 * 3600)
+        sections.append(BlockSection(bn, dusk_c, proj_dicts, lower_note=lower.note, lower_shown=lower.shown))
     rows = q.readings_digest_rows(store, start, end)
     changes = [c for b in cfg.blocks for c in decision_changes(
         stored_decisions.between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id))]

@@ -6,7 +6,9 @@ from __future__ import annotations
 import datetime as dt
 import html
 
+from frostwatch.advice.explain import SOURCES
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
+from frostwatch.advice.render import level_word
 from frostwatch.alerts.levels import ALL_LEVELS as LEVELS
 from frostwatch.store import from_ms
 
@@ -32,7 +34,7 @@ e = html.escape
 
 
 def level_span(level: str) -> str:
-    return f'<span class="lvl lvl{LEVELS.get(level, 0)}">{e(level)}</span>'
+    return f'<span class="lvl lvl{LEVELS.get(level, 0)}">{e(level_word(level))}</span>'
 
 
 def coldest_first(sections):
@@ -96,17 +98,19 @@ def _block_section(data, s) -> str:
         ("protection ran", e(_runs_text(data, bn))),
     ]
     if bn.water_m3 is not None:
-        rows.append(("water used", f"{bn.water_m3:.0f} m³ ({bn.water_m3 / 1233.48:.2f} acre-ft)"))
-        rows.append(("peak flow", f"{bn.peak_flow_l_s:.1f} L/s (nominal: rate × area)"))
+        rows.append(("water used", d.water(bn.water_m3)))
+        rows.append(("peak flow", f"{d.flow(bn.peak_flow_l_s)} (nominal: rate × area)"))
     if bn.fuel_l is not None:
-        rows.append(("fuel (estimated)", f"{bn.fuel_l:.0f} L ({b.fuel_l_per_h:g} L/h × {bn.run_hours:.1f} h)"))
+        rows.append(("fuel (estimated)", f"{d.fuel(bn.fuel_l)} ({d.fuel_rate(b.fuel_l_per_h)} × {bn.run_hours:.1f} h)"))
     if bn.energy_kwh is not None:
         rows.append(("energy (estimated)", f"{bn.energy_kwh:.0f} kWh"))
     table = "".join(f"<tr><th>{k}</th><td>{v}</td></tr>" for k, v in rows)
+    lower = (" Lower panel: how much warmer the tower is than crop height, and the wind." if s.lower_shown else "")
+    note = f" {e(s.lower_note)}" if s.lower_note else ""
     fig = (f'<figure><img src="{e(s.png)}" alt="block {e(bn.block)}: temperatures through the night">'
-           '<figcaption class="note">Solid: crop-height air; dashed: tower; red lines: T10 and T90; purple: dusk '
-           'forecast and nowcast band; shaded: protection running. Lower panel: inversion (tower minus crop) and '
-           'wind.</figcaption></figure>') if s.png else ""
+           '<figcaption class="note">Solid: crop-height air; dashed: tower; red lines: T10 and T90; purple: the dusk '
+           f'forecast and the projected minimum with its range, as projected through the night; shaded: protection '
+           f'running.{lower}{note}</figcaption></figure>') if s.png else ""
     return (f'<section id="block-{e(bn.block)}"><h3>Block {e(title)}</h3><div class="scroll"><table class="kv">'
             f"{table}</table></div>{fig}</section>")
 
@@ -127,7 +131,7 @@ def _loss(data) -> str:
         f"<p>If you carry crop insurance, notice of a possible loss is usually due within {h:g} hours of "
         f"discovering it: by <b>{d.datetime(data.notice_deadline_utc())}</b> at the latest. Check your policy "
         "for the exact period and keep this page, its CSV files and its record hash.</p>"
-        "<p><b>Assessing the buds</b> (Utah State University / Intermountain Fruit method): the day after, "
+        "<p><b>Assessing the buds</b>: the day after, "
         "collect about 100 buds or blossoms across the block (low spots and high spots), let them warm at room "
         "temperature for at least 2 hours, cut them across with a sharp blade and count the pistils that have "
         "turned brown or black (dead) against the green ones (alive). Record the percentage per block.</p></div>"
@@ -235,6 +239,7 @@ in 30 minutes at the block's stage.</p>
 <h2>Stage changes</h2>
 {_events(data, data.stage_changes, "No stage change recorded for this night.", "stage-changes")}
 <h2>Cautions</h2><ul id="cautions">{cautions}</ul>
+<section id="notes"><h2>Notes and sources</h2><ul class="note">{"".join(f"<li>{e(x)}</li>" for x in SOURCES)}</ul></section>
 <h2>Record</h2>
 <p id="record" class="note">{data.readings_count} readings from {d.datetime(n.sunset_utc - dt.timedelta(hours=6))}
 to {d.datetime(n.sunrise_utc + dt.timedelta(hours=6))}; SHA-256 of those readings:

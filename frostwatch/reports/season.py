@@ -145,8 +145,8 @@ def write_season_report(cfg: Config, store: Store, year: int, out_dir: Path) -> 
     return page
 
 
-def _m3(v: float | None) -> str:
-    return "" if v is None else f"{v:.0f} m³"
+def _m3(v: float | None, d: Display) -> str:
+    return "" if v is None else d.water(v)
 
 
 def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
@@ -159,7 +159,7 @@ def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
         f"<td class='num'>{d.temp(t['season_min_c'])}</td>"
         f"<td class='num'>{d.delta(t['forecast_mae_c'])}</td><td class='num'>{d.delta(t['forecast_bias_c'])}</td>"
         f"<td class='num'>{t['protection_hours']:.1f} h</td>"
-        f"<td class='num'>{_m3(t['water_m3'])}</td></tr>"
+        f"<td class='num'>{_m3(t['water_m3'], d)}</td></tr>"
         for t in totals
     )
     n_rows = "".join(

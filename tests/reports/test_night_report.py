@@ -144,7 +144,7 @@ def test_water_volume_matches_the_log(report):
     # peak flow at the nominal rate: 3.5 mm/h over 4 ha = 140 m3/h = 38.9 L/s
     assert float(rows[0]["peak_flow_l_s"]) == pytest.approx(140 / 3.6, abs=0.01)
     assert rows[0]["start_local"].startswith("2027-04-15T00:50:00-07:00")
-    assert f"{want_m3:.0f} m³" in report.read_text(encoding="utf-8")
+    assert f"{want_m3:,.0f} m3" in report.read_text(encoding="utf-8")
 
 
 def test_html_parses_and_every_plot_exists_and_nothing_is_fetched_from_outside(report):
