@@ -109,7 +109,8 @@ class Alert:
     """A notification decided by the alert rules: level, rank (0 = all clear) and text.
 
     `kind` is "alert" for a new level (or health event) and "update" for a standby whose ready-by
-    time moved earlier (updates count against the hourly budget; see the outbox).
+    time moved earlier (updates count against the hourly budget; see the outbox). `short` is the
+    text-message form (at most 131 GSM-7 characters; a delivery adds "Ack: reply CODE").
     """
 
     time_utc: dt.datetime
@@ -121,3 +122,4 @@ class Alert:
     key: str
     resolves: str | None = None
     kind: str = "alert"
+    short: str = ""  # the text-message body (frostwatch.advice.short); each delivery adds its ack code

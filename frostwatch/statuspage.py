@@ -250,9 +250,12 @@ class _Handler(BaseHTTPRequestHandler):
     def _gateway_ack(self) -> None:
         """POST /gateway/ack: an SMS or push gateway's callback carrying a person's reply.
 
-        The body (JSON, or a form) holds `token`, or a `text` (the reply as typed) in which the
-        one-use token of the alert message is found; `from`/`who` names the sender for the log.
-        The signed one-use token is the authority, as for a link; forged or reused ones are refused.
+        The body (JSON, or a form) holds `token`, or `code`, or a `text` (the reply as typed, e.g.
+        "ok K7QM4X") in which the one-use token or the acknowledgement code of the message is
+        found; `from`/`who` names the sender. The signed one-use token or the one-use code is the
+        authority; forged, unknown, reused and expired ones are refused, wrong codes count against
+        the guessing limits (frostwatch.alerts.ackcodes), and a code sent to a contact is accepted
+        only from that contact's phone when the gateway gives `from`.
         """
         length = self._body_length(MAX_BODY_BYTES)
         if length is None:
@@ -269,18 +272,31 @@ class _Handler(BaseHTTPRequestHandler):
         except ValueError:
             fields = {}
         token = fields.get("token")
+        reply = str(fields.get("text") or fields.get("body") or "")[:500]
         if not isinstance(token, str) or not token:
-            found = GATEWAY_TOKEN_RE.findall(str(fields.get("text") or fields.get("body") or ""))
+            found = GATEWAY_TOKEN_RE.findall(reply)
             token = max(found, key=len) if found else ""
-        if not token:
-            return self._send(400, json.dumps({"ok": False, "message": "no acknowledgement token in the callback"}),
+        code = fields.get("code") if isinstance(fields.get("code"), str) else ""
+        from frostwatch.alerts.ackcodes import find_code
+
+        if not token and not code and find_code(reply):
+            code = reply
+        if not token and not code:
+            return self._send(400, json.dumps({"ok": False, "message": "no acknowledgement code or token in the callback"}),
                               "application/json")
         from frostwatch.alerts.acks import acknowledge_token
 
         who = str(fields.get("from") or fields.get("who") or "gateway")[:80]
         try:
-            ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(),
-                                            via=f"gateway:{who}")
+            if token:
+                ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(),
+                                                via=f"gateway:{who}")
+            else:
+                from frostwatch.alerts.ackcodes import acknowledge_code
+
+                sender = fields.get("from") if isinstance(fields.get("from"), str) else None
+                ok, message = acknowledge_code(self.server.store, self.server.cfg, code[:500], self.server.now_fn(),
+                                               via="sms", source=f"gateway {self.client_address[0]}", sender=sender)
         except Exception as exc:
             log.exception("gateway acknowledgement failed")
             ok, message = False, f"the acknowledgement could not be recorded: {exc}"

@@ -155,7 +155,8 @@ def acknowledge_token(store: Store, cfg, token: str, now_utc: dt.datetime, via: 
 
 MAX_MQTT_ACK_BYTES = 4096
 MIN_CONTACT_SECRET_CHARS = 16
-_NEEDS = ('an acknowledgement over MQTT needs the signed one-use token of the alert\'s link, or '
+_NEEDS = ('an acknowledgement over MQTT needs the signed one-use token of the alert\'s link, the '
+          'acknowledgement code of the message ({"code": "K7QM4X"} or the bare code), or '
           '{"key": "<alert key>", "who": "<contact>", "secret": "<that contact\'s ack secret>"}')
 
 
@@ -180,6 +181,8 @@ def acknowledge_mqtt(store: Store, cfg, outbox, payload: bytes, now_utc: dt.date
     `{prefix}/ack`). Accepted forms, each authenticated and good once:
 
     - the signed one-use token of the alert's link (`ack_link_token`), bare or as {"token": "..."};
+    - the message's one-use acknowledgement code (`frostwatch.alerts.ackcodes`), bare or as
+      {"code": "K7QM4X"}, with the guessing limits of every code path;
     - {"key": "<alert key>", "who": "<contact name>", "secret": "<that contact's ack secret>"}
       (`[[contacts]] ack_secret_file` or `ack_secret_credential`); a second one for the same alert
       and person is a replay and is refused.
@@ -196,12 +199,18 @@ def acknowledge_mqtt(store: Store, cfg, outbox, payload: bytes, now_utc: dt.date
         return _refuse(store, now_utc, "mqtt", "payload is not UTF-8", "")
     if text.startswith(TOKEN_VERSION + "."):
         return acknowledge_token(store, cfg, text, now_utc, via="mqtt")
+    from frostwatch.alerts import ackcodes
+
+    if ackcodes.looks_like_code(text):
+        return ackcodes.acknowledge_code(store, cfg, text, now_utc, via="mqtt", source="mqtt")
     try:
         doc = json.loads(text)
     except (ValueError, RecursionError):
         return _refuse(store, now_utc, "mqtt", "neither a token nor JSON; " + _NEEDS, text)
     if isinstance(doc, dict) and isinstance(doc.get("token"), str):
         return acknowledge_token(store, cfg, doc["token"], now_utc, via="mqtt")
+    if isinstance(doc, dict) and isinstance(doc.get("code"), str):
+        return ackcodes.acknowledge_code(store, cfg, doc["code"][:40], now_utc, via="mqtt", source="mqtt")
     if not isinstance(doc, dict) or not isinstance(doc.get("key"), str) or not doc["key"].strip():
         return _refuse(store, now_utc, "mqtt", _NEEDS, text)
     key = doc["key"].strip()[:300]

@@ -75,10 +75,10 @@ _CHANNEL_KEYS = {
     "email": {"host": str, "port": int, "tls": str, "username": str, "password_file": str,
               "password_credential": str, "from": str, "subject_prefix": str},
     "webhook": {"url": str, "method": str, "headers": dict, "body_template": str, "content_type": str,
-                "auth_header_file": str, "auth_header_credential": str},
+                "auth_header_file": str, "auth_header_credential": str, "form": str},
     "mqtt": {"host": str, "port": int, "topic": str, "qos": int, "retain": bool, "username": str,
              "password_file": str, "password_credential": str, "payload": str},
-    "command": {"argv": list},
+    "command": {"argv": list, "form": str},
     "console": {},
 }
 _CONTACT_KEYS = {"name": str, "roles": list, "email": str, "phone": str, "webhook": str, "command": str,
@@ -417,7 +417,10 @@ def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
             problems.append(f"{where}.qos: {ch.get('qos')!r} is not 0, 1 or 2, expected 1")
         if ch.get("payload", "json") not in ("json", "text", "on"):
             problems.append(f"{where}.payload: {ch.get('payload')!r} is not a payload form, expected json, text or on")
-    elif typ == "command":
+    if typ in ("webhook", "command") and ch.get("form", "short") not in ("short", "long"):
+        problems.append(f"{where}.form: {ch.get('form')!r} is not a form, expected short (one text message, the "
+                        "default) or long (the full message)")
+    if typ == "command":
         argv = ch.get("argv")
         if not isinstance(argv, list) or not argv or not all(isinstance(a, str) for a in argv):
             problems.append(f"{where}.argv: {argv!r} is not a command, expected a list like [\"/usr/bin/sms-send\", \"{{to}}\"]")

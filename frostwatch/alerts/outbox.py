@@ -45,7 +45,8 @@ import threading
 import time
 from pathlib import Path
 
-from frostwatch.alerts import acks
+from frostwatch.advice.short import notice_body, short_message
+from frostwatch.alerts import ackcodes, acks
 from frostwatch.alerts.channels import OutMessage, Permanent, Transient, sender
 from frostwatch.alerts.config import AlertsConfig, Channel, Contact, load_alerts_config
 from frostwatch.alerts.levels import ALL_LEVELS, rank_of
@@ -119,8 +120,10 @@ class Outbox:
         ok = 0
         people = self.ac.roster_for(a.block, night_of_key(a.key))[:1] or list(self.ac.contacts[:1])
         lines = (a.message or a.key).splitlines() or [a.key]
+        short = short_message(a.short or notice_body(a.block, a.level, a.message or a.key), None, "STORAGE FAILING: ")
         msg = OutMessage(idem_key=f"{a.key}:0", alert_key=a.key, seq=0, level=a.level, rank=a.rank, block=a.block,
-                         title="STORAGE FAILING - " + lines[0], body="\n".join(lines), kind="alert", ack_url="")
+                         title="STORAGE FAILING - " + lines[0], body="\n".join(lines), kind="alert", ack_url="",
+                         short=short)
         for ch in self.ac.channels:
             if not ch.local:
                 continue
@@ -400,9 +403,16 @@ class Outbox:
                 url = self.ack_url(r["alert_key"], r["recipient"], now)
             except Exception:  # noqa: BLE001
                 log.exception("cannot make an acknowledgement link")
+        code = ""
+        try:  # this delivery's own code (the same on every retry); a failure never holds the alert back
+            code = ackcodes.code_for_delivery(self.store, r["alert_key"], r["channel"], r["recipient"], r["seq"], now)
+        except Exception:  # noqa: BLE001
+            log.exception("cannot make an acknowledgement code for %s", r["alert_key"])
+        prefix = {"repeat": f"AGAIN {r['seq']}: ", "escalation": "ESCALATED: "}.get(r["kind"], "")
+        base = r.get("short") or notice_body(r["block"], r["level"], r["message"] or r["alert_key"])
         return OutMessage(idem_key=r["idem_key"] or f"{r['alert_key']}:{r['seq']}", alert_key=r["alert_key"],
                           seq=r["seq"], level=r["level"], rank=r["rank"], block=r["block"], title=title, body=body,
-                          kind=r["kind"], ack_url=url)
+                          kind=r["kind"], ack_url=url, short=short_message(base, code or None, prefix), code=code)
 
     # -- repeats and escalation ----------------------------------------------------------------
     def _plan_repeats(self, now_utc: dt.datetime) -> None:
@@ -498,6 +508,23 @@ class Outbox:
             rows += self._rows("degraded", people, seq=0, kind="notice", now_utc=now_utc, only_local=True)
             ob.add_alert_with_deliveries(self.store, a, rows, False, None)
             log.error("remote alerting degraded: local channels fire; a notice waits for the remote channels")
+
+
+def replay_channel(cfg) -> str:
+    """The console channel's name in a config (`replay` records its deliveries there)."""
+    try:
+        ac = load_alerts_config(cfg)
+    except Exception:  # noqa: BLE001 - replay works with an alerts section the daemon would refuse
+        return "console"
+    return next((c.name for c in ac.channels if c.type == "console"), "console")
+
+
+def record_replayed(store: Store, a: Alert, channel: str) -> str:
+    """Store a replayed alert with its console delivery (sent: replay prints it) and that
+    delivery's acknowledgement code; returns the short form as a phone would receive it."""
+    ob.add_replayed_alert(store, a, channel)
+    code = ackcodes.code_for_delivery(store, a.key, channel, BROADCAST, 0, a.time_utc)
+    return short_message(a.short or notice_body(a.block, a.level, a.message or a.key), code)
 
 
 def _unique(people: list[Contact]) -> list[Contact]:

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 from frostwatch.advice.message import compose, not_monitored
 from frostwatch.advice.plan import AdvicePlan, Method, Risk, Step
 from frostwatch.advice.render import Notice
+from frostwatch.advice.short import not_monitored_body, short_body
 from frostwatch.alerts.levels import LEVELS, UNMONITORED, rank_of, step_for_level, wanted_level
 from frostwatch.config import Block
 from frostwatch.decision import Monitoring
@@ -141,14 +142,17 @@ class _Run:
              previous: dt.datetime | None = None) -> None:
         key = self._key(level + ("-update" if kind == "update" else ""))
         msg = compose(self.block.id, level, shown, self.plan, self.proj, self.d, notice, previous)
+        short = short_body(self.block.id, level, shown, self.plan, self.d, notice, previous)
         self.alerts.append(Alert(time_utc=self.now, block=self.block.id, level=level, rank=rank_of(level),
-                                 advice=msg.action, message=msg.text, key=key, resolves=resolves, kind=kind))
+                                 advice=msg.action, message=msg.text, key=key, resolves=resolves, kind=kind,
+                                 short=short))
 
     def send_unmonitored(self, m: Monitoring) -> None:
         key = self._key(UNMONITORED)
         msg = not_monitored(self.block.id, m, self.plan, self.d, self.now, self.state.level)
+        short = not_monitored_body(self.block.id, UNMONITORED, m.since_utc, m.stations, self.plan, self.d)
         self.alerts.append(Alert(time_utc=self.now, block=self.block.id, level=UNMONITORED, rank=rank_of(UNMONITORED),
-                                 advice=msg.action, message=msg.text, key=key))
+                                 advice=msg.action, message=msg.text, key=key, short=short))
         self.set(unmonitored_key=key)
 
 

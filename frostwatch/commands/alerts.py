@@ -11,7 +11,9 @@ from frostwatch.errors import UsageError
 
 def register(sub, common) -> None:
     s = sub.add_parser("ack", parents=[common], help="acknowledge an alert: its repeats and escalation stop")
-    s.add_argument("key", metavar="KEY", help="the alert key (shown in every message and by `frostwatch alerts`)")
+    s.add_argument("key", metavar="CODE|KEY",
+                   help="the acknowledgement code of the message (6 characters, e.g. K7QM4X), or the alert key "
+                        "(shown by `frostwatch alerts`)")
     s.add_argument("--who", default=None, metavar="NAME", help="who answers (default: $USER)")
     s.set_defaults(func=cmd_ack)
     s = sub.add_parser("alerts", parents=[common], help="list a night's alerts with deliveries and acknowledgements")
@@ -26,11 +28,22 @@ def _now() -> dt.datetime:
 def cmd_ack(args) -> int:
     import getpass
 
+    from frostwatch.alerts import ackcodes
     from frostwatch.alerts.outbox import Outbox
     from frostwatch.store import Store
 
     cfg = _load(args)
     who = args.who or getpass.getuser()
+    if ackcodes.looks_like_code(args.key):
+        with Store.open(cfg.storage.path) as store:
+            ok, message = ackcodes.acknowledge_code(store, cfg, args.key, _now(), via="cli", source="cli")
+        if not ok:
+            raise UsageError(f"{args.key}: {message}")
+        if getattr(args, "json", False):
+            _out_json({"code": args.key.upper(), "acknowledged": True, "message": message})
+        else:
+            print(message)
+        return 0
     with Store.open(cfg.storage.path) as store:
         box = Outbox(store, cfg)
         if not box.acknowledge(args.key, who, "cli", _now()):

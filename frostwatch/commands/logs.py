@@ -140,6 +140,7 @@ class Replayed:
     nights: list = field(default_factory=list)
     projections: list = field(default_factory=list)
     decisions: list = field(default_factory=list)  # decision_changes (for --json)
+    shorts: dict = field(default_factory=dict)  # alert key -> the short form with its console delivery's code
     evaluations: int = 0
 
 
@@ -148,8 +149,10 @@ def replay_series(cfg, store, series, progress=None, keep_projections=False, kee
     each night's projections, decisions and alerts in one transaction each, night by night.
     Returns a Replayed (and the evaluations themselves with keep_evaluations, for small logs)."""
     from frostwatch import pipeline
+    from frostwatch.alerts.outbox import record_replayed, replay_channel
     from frostwatch.store import decisions as stored_decisions
 
+    console = replay_channel(cfg)
     out = Replayed()
     kept = []
     nights = set()
@@ -163,7 +166,7 @@ def replay_series(cfg, store, series, progress=None, keep_projections=False, kee
             nights.add(ev.night.date)
             out.evaluations += 1
             for a in ev.alerts:
-                store.add_alert(a)
+                out.shorts[a.key] = record_replayed(store, a, console)
                 out.alerts.append(a)
             if keep_projections and ev.night.contains(ev.time_utc, 0.0, 0.0):
                 out.projections += [pipeline.with_time(p) for p in ev.projections]
@@ -226,7 +229,8 @@ def cmd_replay(args) -> int:
         if args.json:
             _out_json({
                 "alerts": [{"time": _iso(a.time_utc), "block": a.block, "level": a.level, "rank": a.rank,
-                            "advice": a.advice, "message": a.message, "key": a.key, "resolves": a.resolves} for a in alerts],
+                            "advice": a.advice, "message": a.message, "short": res.shorts.get(a.key, ""), "key": a.key,
+                            "resolves": a.resolves} for a in alerts],
                 "projections": res.projections,
                 "decisions": res.decisions,
                 "nights": summaries,
@@ -236,7 +240,7 @@ def cmd_replay(args) -> int:
             return 0
         print(f"{cfg.site.name}: {n_read} readings read, {stored} stored, {dup} duplicates, {len(rejections)} rejected "
               f"(store {cfg.storage.path})")
-        _print_alerts(alerts, d)
+        _print_alerts(alerts, d, res.shorts)
         _print_summaries(summaries, d)
         for r in reports:
             print(f"night report: {r}")
@@ -245,13 +249,15 @@ def cmd_replay(args) -> int:
         store.close()
 
 
-def _print_alerts(alerts, d) -> None:
+def _print_alerts(alerts, d, shorts=None) -> None:
     print("\nAlerts:")
     if not alerts:
         print("  none")
     for a in alerts:
         head, *rest = a.message.splitlines()
         print(f"  {d.datetime(a.time_utc)}  {head}")
+        if shorts and shorts.get(a.key):
+            print(f"      Text message: {shorts[a.key]}")
         for line in rest:
             if line.startswith("Cautions:"):
                 continue

@@ -489,9 +489,9 @@ class Store:
         """Write an alert before anything sends it; False if its key is already stored."""
         with self.transaction() as c:
             cur = c.execute(
-                "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves) "
-                "VALUES (?,?,?,?,?,?,?,?)",
-                (a.key, to_ms(a.time_utc), a.block, a.level, a.rank, a.advice, a.message, a.resolves),
+                "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves, short) "
+                "VALUES (?,?,?,?,?,?,?,?,?)",
+                (a.key, to_ms(a.time_utc), a.block, a.level, a.rank, a.advice, a.message, a.resolves, a.short or None),
             )
             return cur.rowcount == 1
 

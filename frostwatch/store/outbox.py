@@ -29,10 +29,10 @@ def add_alert_with_deliveries(
     """
     with store.transaction() as c:
         cur = c.execute(
-            "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves) "
-            "VALUES (?,?,?,?,?,?,?,?)",
+            "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves, short) "
+            "VALUES (?,?,?,?,?,?,?,?,?)",
             (alert.key, to_ms(alert.time_utc), alert.block, alert.level, alert.rank, alert.advice,
-             alert.message, alert.resolves),
+             alert.message, alert.resolves, alert.short or None),
         )
         if cur.rowcount != 1:
             return False
@@ -43,6 +43,28 @@ def add_alert_with_deliveries(
             (alert.key, "firing" if firing else "info", now_ms, next_repeat_ms if firing else None),
         )
         insert_deliveries(c, alert.key, deliveries, now_ms)
+    return True
+
+
+def add_replayed_alert(store: Store, alert: Alert, channel: str) -> bool:
+    """`replay`: the alert and its one delivery, on the console (replay prints every alert), recorded
+    as sent at the alert's time, so the night report shows the real state. False (nothing written)
+    when the alert key is already stored."""
+    with store.transaction() as c:
+        cur = c.execute(
+            "INSERT OR IGNORE INTO alerts(key, time_utc_ms, block, level, rank, advice, message, resolves, short) "
+            "VALUES (?,?,?,?,?,?,?,?,?)",
+            (alert.key, to_ms(alert.time_utc), alert.block, alert.level, alert.rank, alert.advice,
+             alert.message, alert.resolves, alert.short or None),
+        )
+        if cur.rowcount != 1:
+            return False
+        ms = to_ms(alert.time_utc)
+        c.execute(
+            "INSERT OR IGNORE INTO deliveries(alert_key, channel, recipient, attempt, status, next_try_utc_ms, detail, "
+            "updated_utc_ms, seq, idem_key, local, kind) VALUES (?,?,?,1,'sent',NULL,?,?,0,?,1,?)",
+            (alert.key, channel, "*", "printed by replay", ms, f"{alert.key}:0", "resolved" if alert.resolves else "alert"),
+        )
     return True
 
 
@@ -106,7 +128,7 @@ def record_ack(c: sqlite3.Connection, key: str, who: str, via: str, now_utc: dt.
 def due_repeats(store: Store, now_ms: int) -> list[dict]:
     with store.lock:
         return store.query(
-            "SELECT s.*, a.block, a.level, a.rank, a.message FROM alert_state s JOIN alerts a ON a.key = s.alert_key "
+            "SELECT s.*, a.block, a.level, a.rank, a.message, a.short FROM alert_state s JOIN alerts a ON a.key = s.alert_key "
             "WHERE s.state='firing' AND s.next_repeat_utc_ms IS NOT NULL AND s.next_repeat_utc_ms <= ? "
             "ORDER BY s.next_repeat_utc_ms",
             [now_ms],
@@ -172,7 +194,7 @@ def claim_due(store: Store, channel: str, now_ms: int, lease_ms: int, owner: str
         return []
     with store.lock:
         return store.query(
-            f"SELECT d.*, a.block, a.level, a.rank, a.message, a.advice, a.time_utc_ms AS alert_time_utc_ms "
+            f"SELECT d.*, a.block, a.level, a.rank, a.message, a.advice, a.short, a.time_utc_ms AS alert_time_utc_ms "
             f"FROM deliveries d JOIN alerts a ON a.key = d.alert_key WHERE d.id IN ({','.join('?' * len(ids))}) "
             f"ORDER BY d.id",
             ids,

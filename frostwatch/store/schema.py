@@ -135,6 +135,25 @@ CREATE TABLE decisions (
     UNIQUE (block, time_utc_ms)
 );
 """,
+    4: """
+-- the short form of each alert (frostwatch/advice/short.py): the text-message body, at most 131
+-- GSM-7 characters; each delivery adds its own acknowledgement code
+ALTER TABLE alerts ADD COLUMN short TEXT;
+-- one-use acknowledgement codes, one per delivery (frostwatch/alerts/ackcodes.py)
+CREATE TABLE ack_codes (
+    code TEXT PRIMARY KEY,              -- six characters, e.g. K7QM4X
+    alert_key TEXT NOT NULL,
+    channel TEXT NOT NULL,
+    recipient TEXT NOT NULL,            -- a contact's name, or * for a broadcast channel
+    seq INTEGER NOT NULL,               -- the delivery's seq (0 first notice; repeats count up)
+    issued_utc_ms INTEGER NOT NULL,
+    expires_utc_ms INTEGER NOT NULL,
+    used_utc_ms INTEGER,                -- spent: a second use is refused
+    used_via TEXT,
+    UNIQUE (alert_key, channel, recipient, seq)
+);
+CREATE INDEX ack_codes_alert ON ack_codes(alert_key);
+""",
 }
 
 SCHEMA_VERSION = max(MIGRATIONS)

@@ -113,3 +113,61 @@ def test_mqtt_ack_takes_only_a_signed_token_or_a_contacts_secret_and_refuses_for
         assert store.count("readings") == 0 and store.count("rejections") == 0
         assert "acknowledgement refused" in caplog.text
         assert "ana-has-a-long-secret" not in caplog.text  # a secret never reaches the log
+
+
+def test_mqtt_ack_takes_the_messages_code_once(tmp_path, mosquitto):
+    """Pass (issue 13): on `{prefix}/ack` through a real Mosquitto, the acknowledgement code of a
+    delivered message, as {"code": ...} or bare, acknowledges its alert once; the same code again
+    is refused as used, and an unknown code is refused and counted as a guess."""
+    from frostwatch.alerts import ackcodes
+
+    cfg = make_cfg(tmp_path, {"roster": [{"blocks": ["*"], "order": ["ana"]}]}, PEOPLE,
+                   [{"name": "console", "type": "console"}])
+    cfg = dataclasses.replace(cfg, broker=dataclasses.replace(cfg.broker, port=mosquitto.port, client_id="ack-code"))
+    now = dt.datetime.now(dt.UTC)
+    with Store.open(cfg.storage.path) as store:
+        box = Outbox(store, cfg)
+        keys = [f"east/{now.date()}/00{i}-act" for i in range(2)]
+        box.submit([Alert(time_utc=now, block=f"b{i}", level="act", rank=4, advice="start", message=f"act {k}", key=k)
+                    for i, k in enumerate(keys)], now)
+        box.deliver_due(now, wait=True)
+        codes = [store.conn.execute("SELECT code FROM ack_codes WHERE alert_key=?", (k,)).fetchone()[0] for k in keys]
+        ing = MqttIngest(cfg, store, IngestSettings(batch_delay_s=0.2, status_topic="fwtest/status"),
+                         on_ack=lambda payload, t: acks.acknowledge_mqtt(store, cfg, box, payload, t))
+        ing.start()
+        pub = paho.Client(paho.CallbackAPIVersion.VERSION2, client_id="ack-code-pub", protocol=paho.MQTTv5)
+        try:
+            assert _wait(lambda: ing.connected and ing.stats.connects >= 1)
+            t_echo = ing.last_echo
+
+            def echoed():
+                ing.heartbeat()
+                return ing.last_echo > t_echo
+
+            assert _wait(echoed)
+            pub.connect("127.0.0.1", mosquitto.port)
+            pub.loop_start()
+            topic = f"{cfg.broker.prefix.strip('/')}/ack"
+            wrong = "ZZZZ22" if "ZZZZ22" not in codes else "ZZZZ33"
+            for p in (json.dumps({"code": codes[0]}), json.dumps({"code": codes[0]}), codes[1].lower(), wrong):
+                pub.publish(topic, p.encode(), qos=1).wait_for_publish(10)
+
+            def rows():
+                with store.lock:
+                    return store.conn.execute("SELECT alert_key, who, via FROM acks ORDER BY id").fetchall()
+
+            def refused():
+                with store.lock:
+                    return store.conn.execute("SELECT subject, detail FROM events WHERE kind='ack'").fetchall()
+
+            assert _wait(lambda: len(rows()) >= 2 and len(refused()) >= 2), (rows(), refused())
+            time.sleep(0.5)
+        finally:
+            pub.loop_stop()
+            ing.stop()
+            box.close()
+        # the console's codes: a broadcast delivery, so the acknowledgement names no one in particular
+        assert sorted(rows()) == [(keys[0], "someone", "mqtt"), (keys[1], "someone", "mqtt")]
+        subjects = sorted(s for s, _ in refused())
+        assert subjects == ["refused", "refused-code"], refused()
+        assert ackcodes.looks_like_code(codes[0]) and all(ob.state_of(store, k)["state"] == "acked" for k in keys)

@@ -86,4 +86,8 @@ def test_replay_records_alerts_without_sending(tmp_path, demo_logs, name):
     with Store.open(cfg.storage.path) as store:
         store.add_readings(readings, path.name)
         replay_into_store(cfg, store, readings)
-        assert store.count("alerts") > 0 and store.count("deliveries") == 0
+        # replay sends nothing: it prints each alert, and records that one console delivery (sent)
+        assert store.count("alerts") > 0 and store.count("deliveries") == store.count("alerts")
+        rows = store.query("SELECT channel, recipient, status, detail FROM deliveries")
+        assert {(r["channel"], r["recipient"], r["status"], r["detail"]) for r in rows} == {
+            ("console", "*", "sent", "printed by replay")}

@@ -151,6 +151,31 @@ def test_ack_link_confirms_then_acknowledges_once(running, frost_night_store):
     assert "acknowledged by manager@example.org" in page
 
 
+def test_gateway_callback_acknowledges_an_sms_reply_by_its_code(running, frost_night_store):
+    """The grower replies "ok" and the code of the text message (replay recorded the console
+    delivery of each alert with its code): the alert is acknowledged once; the same reply again is
+    refused as used; a wrong code is refused and counted; a reply without a code is a 400."""
+    import json
+
+    srv, port = running()
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        key = next(a["key"] for a in store.alerts(NOW - dt.timedelta(hours=12), NOW) if a["block"] == "hill")
+        code = store.conn.execute("SELECT code FROM ack_codes WHERE alert_key=?", (key,)).fetchone()[0]
+    headers = {"Content-Type": "application/json"}
+    reply = json.dumps({"from": "+15550100", "text": f"ok {code.lower()} on my way"}).encode()
+    code_, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=reply)
+    assert code_ == 200 and json.loads(body)["ok"] is True, body
+    code_, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=reply)
+    assert code_ == 403 and "already been used" in json.loads(body)["message"]
+    code_, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", data=b"code=Z2Z2Z2&from=mallory")
+    assert code_ == 403 and "not a code frostwatch sent" in json.loads(body)["message"]
+    code_, _, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers=headers, data=b'{"text": "thanks"}')
+    assert code_ == 400
+    with Store.open(load_config(frost_night_store).storage.path) as store:
+        rows = list(store.db.query("SELECT who, via FROM acks WHERE alert_key = ?", [key]))
+    assert [(r["who"], r["via"]) for r in rows] == [("+15550100", "sms")]
+
+
 def test_gateway_callback_acknowledges_from_an_sms_reply(running, frost_night_store):
     """An SMS gateway forwards the grower's reply (the token somewhere in the text) as a POST:
     the alert is acknowledged once; the same reply again, or a forged token, is refused."""

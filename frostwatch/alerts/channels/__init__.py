@@ -31,6 +31,15 @@ class OutMessage:
     body: str
     kind: str = "alert"
     ack_url: str = ""
+    short: str = ""      # the whole text message (at most 160 GSM-7 characters, the code included)
+    code: str = ""       # this delivery's acknowledgement code (frostwatch.alerts.ackcodes)
+
+    def text_for(self, form: str) -> tuple[str, str]:
+        """(title, whole message) in the form a channel sends: "short" (one text message; the
+        default of SMS and push channels) or "long" (the full message, as email sends it)."""
+        if form == "short" and self.short:
+            return self.short, self.short
+        return self.title, self.body
 
 
 def sender(channel_type: str):

@@ -8,6 +8,6 @@ log = logging.getLogger("frostwatch.alerts.console")
 
 
 def send(channel, msg, to, base_dir=None) -> str:
-    log.warning("ALERT [%s rank %d] %s (key %s)%s", msg.level, msg.rank, msg.title, msg.idem_key,
-                f" for {to}" if to and to != "*" else "")
+    log.warning("ALERT [%s rank %d] %s (key %s%s)%s", msg.level, msg.rank, msg.title, msg.idem_key,
+                f", ack code {msg.code}" if msg.code else "", f" for {to}" if to and to != "*" else "")
     return "logged"

@@ -67,7 +67,12 @@ def build(channel, msg, to: str) -> EmailMessage:
         m["References"] = message_id(f"{msg.alert_key}:0")
     body = msg.body
     if msg.ack_url:
-        body += f"\n\nAcknowledge (one use): {msg.ack_url}\nor run: frostwatch ack {msg.alert_key}"
+        body += f"\n\nAcknowledge (one use): {msg.ack_url}"
+    if msg.code:
+        body += (f"\n{'or ' if msg.ack_url else ''}acknowledge with the code {msg.code}: reply {msg.code} to the text "
+                 f"message, or run: frostwatch ack {msg.code}")
+    elif msg.ack_url:
+        body += f"\nor run: frostwatch ack {msg.alert_key}"
     m.set_content(body)
     return m
 

@@ -3,8 +3,9 @@
 This is the only place besides frostwatch/ingest/mqtt.py that imports paho: the ingest client
 subscribes to readings, this publisher connects per notification to the configured broker (often
 the same local Mosquitto), publishes and disconnects, every step bounded by `timeout_s`.
-Payload "json" (default) carries key, seq, level, rank, block and title; "text" the title;
-"on" the bare word ON for a relay. Counts as local (a LAN broker needs no internet).
+Payload "json" (default) carries key, seq, level, rank, block, title, the short form and the
+acknowledgement code; "text" the short form (the title where there is none); "on" the bare word
+ON for a relay. Counts as local (a LAN broker needs no internet).
 """
 
 from __future__ import annotations
@@ -24,9 +25,10 @@ def payload_for(channel, msg) -> bytes:
     if form == "on":
         return b"ON"
     if form == "text":
-        return msg.title.encode("utf-8")
+        return (msg.short or msg.title).encode("utf-8")
     return json.dumps({"key": msg.alert_key, "seq": msg.seq, "idempotency_key": msg.idem_key, "level": msg.level,
-                       "rank": msg.rank, "block": msg.block, "title": msg.title, "kind": msg.kind}).encode("utf-8")
+                       "rank": msg.rank, "block": msg.block, "title": msg.title, "kind": msg.kind,
+                       "short": msg.short, "code": msg.code}).encode("utf-8")
 
 
 def send(channel, msg, to, base_dir=None) -> str:

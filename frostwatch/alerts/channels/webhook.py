@@ -1,8 +1,11 @@
 """An HTTP webhook (requests): SMS gateways, push services, a farm chat.
 
 The body is rendered from `body_template`, where {key}, {seq}, {idempotency_key}, {level},
-{rank}, {block}, {to}, {title}, {message}, {ack_url} are replaced (JSON-escaped when the
-content type is JSON, so a template stays valid JSON whatever the message holds). The
+{rank}, {block}, {to}, {title}, {message}, {ack_url}, {code}, {short} and {long} are replaced
+(JSON-escaped when the content type is JSON, so a template stays valid JSON whatever the message
+holds). With `form = "short"` (the default: SMS gateways and push services) {title} and {message}
+are the short form, one text message of at most 160 GSM-7 characters ending "Ack: reply CODE";
+`form = "long"` sends the full message as email does. {short} and {long} are always both there. The
 idempotency key goes in the `Idempotency-Key` header (IETF httpapi draft). Timeouts, connection
 errors, 5xx, 408 and 429 are retried; any other 4xx is a configuration fault and is not.
 `timeout_s` bounds the whole request, answer included (frostwatch/alerts/channels/deadline.py):
@@ -25,7 +28,8 @@ from frostwatch.alerts.channels import Permanent, Transient
 from frostwatch.alerts.channels.deadline import Deadline
 from frostwatch.alerts.config import DEFAULT_WEBHOOK_BODY
 
-FIELDS = ("key", "seq", "idempotency_key", "level", "rank", "block", "to", "title", "message", "ack_url")
+FIELDS = ("key", "seq", "idempotency_key", "level", "rank", "block", "to", "title", "message", "ack_url", "code",
+          "short", "long")
 _PLACEHOLDER = re.compile(r"\{([a-z_]+)\}")
 
 
@@ -95,9 +99,10 @@ def send(channel, msg, to, base_dir=None) -> str:
     o = channel.options
     url = o["url"]
     ctype = o.get("content_type", "application/json")
+    title, message = msg.text_for(o.get("form", "short"))
     values = {"key": msg.alert_key, "seq": msg.seq, "idempotency_key": msg.idem_key, "level": msg.level,
-              "rank": msg.rank, "block": msg.block, "to": to if to and to != "*" else "", "title": msg.title,
-              "message": msg.body, "ack_url": msg.ack_url}
+              "rank": msg.rank, "block": msg.block, "to": to if to and to != "*" else "", "title": title,
+              "message": message, "ack_url": msg.ack_url, "code": msg.code, "short": msg.short, "long": msg.body}
     body = render(o.get("body_template", DEFAULT_WEBHOOK_BODY), values, "json" in ctype)
     headers = {"Content-Type": ctype, "Idempotency-Key": msg.idem_key, "User-Agent": "frostwatch"}
     headers.update({k: str(v) for k, v in (o.get("headers") or {}).items()})
