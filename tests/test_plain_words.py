@@ -59,7 +59,7 @@ FORMAT = [
 ]
 # SI units a US reader must not meet (degF farm)
 SI_UNITS = [
-    r"°C", r"\d ?C\b", r"\bm/s\b", r"km/h", r"mm/h", r"\bL/s\b", r"\bL/h\b", r"\bm3\b", r"m³", r"\d L\b",
+    r"°C", r"(?<![\w.])-?\d+(?:\.\d+)? ?C\b", r"\bm/s\b", r"km/h", r"mm/h", r"\bL/s\b", r"\bL/h\b", r"\bm3\b", r"m³", r"\d L\b",
     r"litre", r"\bha\b", r"hectare", r"hPa", r"kPa", r"W/m2", r"\d(\.\d+)? ?(m|mm|cm|km)\b",
 ]
 

@@ -94,7 +94,9 @@ def test_replay_gives_the_alerts_and_projections_of_the_daemons_path(demo_config
 
     want = [{"time": a.time_utc.isoformat().replace("+00:00", "Z"), "block": a.block, "level": a.level, "rank": a.rank,
              "advice": a.advice, "message": a.message, "key": a.key, "resolves": a.resolves} for a in box.alerts]
-    assert doc["alerts"] == want
+    # each alert's short form carries its own random acknowledgement code: compared without it
+    assert all(a["short"] for a in doc["alerts"])
+    assert [{k: v for k, v in a.items() if k != "short"} for a in doc["alerts"]] == want
     assert any(a["rank"] >= 4 for a in want)  # the frost night acts: the comparison covers real alerts
 
 
