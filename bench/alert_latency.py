@@ -5,7 +5,7 @@ What runs, all real and on loopback: a Mosquitto broker, a paho subscriber, the 
 the SQLite store (synchronous=FULL), the alert rules (rules.step), the outbox (alert and delivery
 rows written before sending), the email channel (smtplib) and an aiosmtpd server. The projection
 and advice for the arriving reading are built directly from it (the forecast is benchmarked in
-forecast_skill); the block enters each trial one evaluation into "act" persistence, so this
+forecast_skill); the block enters each trial one evaluation into "protect" persistence, so this
 reading is the one that raises it. The daemon is not driven: this measures the alert path itself.
 
 Floor, measured in the same run: smtplib sending the same message straight to the same server.
@@ -108,7 +108,7 @@ def run(verbose: bool = True) -> dict:
                 plan = plan_advice(proj, block, now)  # ready by 5 min ago: start now
                 night = Night(dt.date(2027, 4, 1) + dt.timedelta(days=trial["n"]), now - dt.timedelta(hours=5),
                               now + dt.timedelta(hours=6))
-                state = BlockAlertState(night=night.date.isoformat(), level="standby", candidate="act",
+                state = BlockAlertState(night=night.date.isoformat(), level="ready", candidate="protect",
                                         candidate_count=1, outlook_sent=True)
                 _, alerts = step(state, plan, proj, block, now, night, d)
                 box.submit(alerts, now)

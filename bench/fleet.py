@@ -52,7 +52,7 @@ RESULTS = Path(__file__).resolve().parent / "results"
 REPO = Path(__file__).resolve().parent.parent
 TARGET_VISIBLE_S = 5.0
 TARGET_RSS_MB = 150.0
-LEVELS = [("all-clear", 0), ("frost-possible", 2), ("standby", 3), ("act", 4), ("critical", 5)]
+LEVELS = [("rest", 0), ("wait", 2), ("ready", 3), ("protect", 4), ("all-hands", 5)]
 TCPIP_HEADER_B = 52  # IPv4 20 + TCP 20 + timestamps 12, per segment (an estimate: ACK-only segments not counted)
 
 

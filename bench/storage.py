@@ -12,7 +12,7 @@ Two scenarios (simulated time, real writes through the daemon's own code):
 - frost night: 8 h from 22:00 (2 h with --quick), crop-height air falling from 1.5 to -3.5 degC,
   inside every block's band of T10 + margin + risk_band_c: the ingest writer commits urgently,
   readings prompt evaluations (at most one per debounce_s), each stored evaluation writes its
-  projections and decisions, the alert rules raise standby, act and critical and the outbox
+  projections and decisions, the alert rules raise ready, protect and all-hands and the outbox
   delivers and repeats them (console channel). Scaled to 24 h: MiB/day at the frost night's rate.
 - quiet day: 24 h from 12:00 (4 h with --quick), every reading near 6 degC.
 

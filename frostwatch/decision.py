@@ -110,7 +110,7 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
 class Decision:
     """One block's decision at one evaluation (see the module docstring).
 
-    `level` is what every screen shows: "unmonitored" while the block is not monitored, else
+    `level` is what every screen shows: "go-look" while the block is not monitored, else
     `frost_level`, the level the alert rules hold tonight. `step` is the step shown with it
     (`frostwatch.alerts.levels.step_for_level`). `inputs_utc` maps "station/quantity" to the time
     of the newest reading the evaluation had.

@@ -5,7 +5,7 @@
 
 A block is monitored only while its stored decision says its crop-height sensor was fresh, that
 reading has not gone stale since, the decision itself is recent, and the daemon's heartbeat is
-current. Otherwise its level is "unmonitored" with the reason and since when, whatever the last
+current. Otherwise its level is "go-look" with the reason and since when, whatever the last
 frost level was (that stays in `frost_level`). Raises `StoreError` when the store cannot be read.
 """
 
@@ -20,7 +20,7 @@ from frostwatch.advice.codec import iso_utc, parse_utc
 from frostwatch.advice.message import compose, monitoring_reason, not_monitored_headline
 from frostwatch.advice.plan import Step
 from frostwatch.advice.render import Notice, risk_reason
-from frostwatch.alerts.levels import UNMONITORED, rank_of, step_for_level
+from frostwatch.alerts.levels import UNMONITORED, level_name, rank_of, step_for_level
 from frostwatch.config import Config
 from frostwatch.decision import Decision, Monitoring, MonitorReason
 from frostwatch.display import Display
@@ -131,7 +131,7 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
                 "projection": None, "ready_by": None, "inputs": {}, "alert_key": None}
     plan = decision.plan
     if m.monitored:
-        level, step = decision.level, decision.step
+        level, step = level_name(decision.level), decision.step  # a decision stored before 0.2: the new name
         msg = compose(block_id, level, step, plan, decision.projection, display, Notice.STATE)
         reason = risk_reason(plan, display)
         headline, action = msg.headline, msg.action
@@ -145,7 +145,8 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
         **base, "level": level, "rank": rank_of(level), "monitored": m.monitored,
         "as_of": iso_utc(decision.as_of_utc), "reason": reason,
         "since": None if m.monitored else iso_utc(m.since_utc), "evaluated_at": iso_utc(decision.as_of_utc),
-        "frost_level": decision.frost_level, "frost_rank": rank_of(decision.frost_level), "step": step.value,
+        "frost_level": level_name(decision.frost_level), "frost_rank": rank_of(decision.frost_level),
+        "step": step.value,
         "headline": headline, "action": action, "projection": _proj_json(decision),
         "ready_by": iso_utc(plan.ready_by_utc), "alert_key": decision.alert_key,
         "inputs": {k: {"at": iso_utc(t), "age_s": round((now_utc - t).total_seconds(), 1)}

@@ -17,8 +17,8 @@ import html
 
 from frostwatch.advice.codec import parse_utc
 from frostwatch.advice.message import compose
-from frostwatch.advice.render import GENERAL_CAUTIONS, LEVEL_WORD, Notice
-from frostwatch.alerts.levels import LEVELS, step_for_level
+from frostwatch.advice.render import GENERAL_CAUTIONS, Notice, level_word
+from frostwatch.alerts.levels import LEVELS, level_name, step_for_level
 from frostwatch.config import Config
 from frostwatch.display import Display
 from frostwatch.night import night_at
@@ -175,7 +175,7 @@ def _ack_text(item: dict, d: Display) -> str:
                 f"{d.time(from_ms(ack[-1]['time_utc_ms']))}{of}")
     if st and st.get("state") == "acked":
         return "acknowledged"
-    return "not acknowledged" if a["rank"] >= LEVELS["standby"] else ""
+    return "not acknowledged" if a["rank"] >= LEVELS["ready"] else ""
 
 
 def _stations(item: dict, d: Display) -> str:
@@ -197,15 +197,15 @@ def _card(item: dict, snap: dict) -> str:
     if not j["monitored"]:
         since = f" since {d.time(parse_utc(j['since']))}" if j["since"] else ""
         last = ""
-        if dcs is not None and dcs.frost_level != "all-clear":
+        if dcs is not None and level_name(dcs.frost_level) != "rest":
             msg = compose(b.id, dcs.frost_level, step_for_level(dcs.frost_level, dcs.plan), dcs.plan, dcs.projection,
                           d, Notice.STATE)
             last = (f"<p class='note'>Last decision, {d.datetime(dcs.as_of_utc)}: "
-                    f"<b>{e(LEVEL_WORD.get(dcs.frost_level, dcs.frost_level))}</b>; {e(msg.action)}</p>")
+                    f"<b>{e(level_word(dcs.frost_level))}</b>; {e(msg.action)}</p>")
         a = item["alert"]
         if a is not None:
             ack = _ack_text(item, d)
-            last += (f"<p class='note'>Last alert: {e(LEVEL_WORD.get(a['level'], a['level']))} at "
+            last += (f"<p class='note'>Last alert: {e(level_word(a['level']))} at "
                      f"{d.time(from_ms(a['time_utc_ms']))}{'; ' + ack if ack else ''}</p>")
         return (f'<section class="card unmonitored" {attrs} data-monitored="false">{title}'
                 f'<div class="big not-monitored">NOT MONITORED{e(since)}</div><p class="reason">{e(j["reason"])}</p>'
@@ -216,7 +216,7 @@ def _card(item: dict, snap: dict) -> str:
     where = f"crop-height air at {e(p['station'])}, {d.time(dcs.as_of_utc)}" if p.get("station") else ""
     ack = _ack_text(item, d)
     a = item["alert"]
-    since = f" since {d.time(from_ms(a['time_utc_ms']))}" if a and a["level"] == j["level"] else ""
+    since = f" since {d.time(from_ms(a['time_utc_ms']))}" if a and level_name(a["level"]) == level_name(j["level"]) else ""
     pmin = ""
     if p.get("predicted_min_c") is not None:
         band = f" ± {d.delta(p['band_c'])}" if p.get("band_c") is not None else ""
@@ -234,7 +234,7 @@ def _card(item: dict, snap: dict) -> str:
         extra.append(f"{farm}wind {d.wind(p['wind_speed_m_s'])}")
     return (f'<section class="card monitored r{j["rank"]}" {attrs} data-monitored="true">{title}'
             f'<div class="big now-temp">{now}</div><div class="note">{where}; {crit}</div>'
-            f'<p><span class="lvl">{e(LEVEL_WORD.get(j["level"], j["level"]))}</span>{since} '
+            f'<p><span class="lvl">{e(level_word(j["level"]))}</span>{since} '
             f'<span class="note">{ack}</span></p><p class="headline">{e(j["headline"])}</p>'
             f'<p class="action">{e(j["action"])}</p>{pmin}<p class="note">{e("; ".join(extra))}</p>'
             f'<p class="note">why: {e(j["reason"])}</p>{chart}{_stations(item, d)}</section>')
@@ -261,7 +261,7 @@ def _header(snap: dict) -> str:
         head = f'<p class="banner" id="summary">NOT MONITORED: {e(", ".join(blind))}</p>'
     else:
         worst = max(watched, key=lambda j: j["rank"])
-        head = (f'<p class="sub" id="summary">Highest level: <b>{e(LEVEL_WORD.get(worst["level"], worst["level"]))}</b> '
+        head = (f'<p class="sub" id="summary">Highest level: <b>{e(level_word(worst["level"]))}</b> '
                 f'(block {e(worst["block"])})</p>')
     return (f'<p class="sub">As of <b id="as-of">{d.datetime(now)}</b>; <span id="data-age">{data}</span>; '
             f"sunset {d.time(snap['night'].sunset_utc)}, sunrise {d.time(snap['night'].sunrise_utc)}.</p>{daemon}{head}")

@@ -68,7 +68,7 @@ def advise(p, b, now, display=None, **kw):
 def text(plan, p=None, d=None) -> str:
     """The whole message the plan renders to, at the level it asks for (standby at least)."""
     lvl = wanted_level(plan, plan.time_utc)
-    lvl = "standby" if lvl == "all-clear" else lvl
+    lvl = "ready" if lvl == "rest" else lvl
     return compose(plan.block, lvl, plan.step, plan, p, d or Display()).text
 
 

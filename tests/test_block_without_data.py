@@ -30,8 +30,8 @@ def test_a_block_whose_sensor_never_reported_is_not_monitored_and_never_all_clea
     assert p.returncode == 0, p.stderr[-2000:]
     doc = json.loads(p.stdout)
     hill = [a for a in doc["alerts"] if a["block"] == "hill"]
-    assert [a["level"] for a in hill] == ["unmonitored"], [a["message"].splitlines()[0] for a in hill]
-    assert hill[0]["message"].startswith("hill: NOT MONITORED since ")
+    assert [a["level"] for a in hill] == ["go-look"], [a["message"].splitlines()[0] for a in hill]
+    assert hill[0]["message"].startswith("hill: GO LOOK: NOT MONITORED since ")
     assert "no reading at all from its crop-height sensor (hill-low)" in hill[0]["message"]
     outlooks = [a for a in doc["alerts"] if "tonight looks safe" in a["message"].splitlines()[0]]
     assert {a["block"] for a in outlooks} == {"east", "river"}  # the clear outlook only where there are data

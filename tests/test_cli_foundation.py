@@ -94,7 +94,7 @@ def test_demo_needs_nothing_and_names_its_report(tmp_path):
                        env=env, timeout=300)
     assert p.returncode == 0, p.stderr
     assert "night report:" in p.stdout and ".html" in p.stdout
-    assert "ACT NOW" in p.stdout and "Cautions:" in p.stdout
+    assert "PROTECT" in p.stdout and "Cautions:" in p.stdout
     page = Path(p.stdout.split("night report: ")[1].split()[0])
     assert page.exists()
 

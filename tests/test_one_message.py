@@ -38,7 +38,7 @@ SUNRISE = dt.datetime(2027, 4, 15, 13, 10, tzinfo=UTC)
 
 
 def level_of_headline(head: str) -> str:
-    """The level a printed headline announces ("east: STANDBY: ..." -> "standby")."""
+    """The level a printed headline announces ("east: READY: ..." -> "ready")."""
     from frostwatch.advice.render import LEVEL_WORD
 
     words = sorted(LEVEL_WORD.items(), key=lambda kv: -len(kv[1]))
@@ -55,21 +55,21 @@ def check_message(level: str, text: str) -> list[str]:
     advice = next((ln for ln in lines if ln.startswith("Advice: ")), "")
     if "n/a" in text:
         problems.append("prints n/a")
-    if level == "standby" and START_WORD.search(text):
-        problems.append("a standby says start")
-    if level == "standby" and "UPDATE" not in head and "STANDBY" not in head:
-        problems.append("standby headline without STANDBY")
-    if level == "act" and "ACT" not in head:
-        problems.append("act headline without ACT")
-    if level == "critical" and "CRITICAL" not in head:
-        problems.append("critical headline without CRITICAL")
-    if level in ("act", "critical") and not any(w in advice for w in ("start ", "light ", "protect the block",
+    if level == "ready" and START_WORD.search(text):
+        problems.append("a ready says start")
+    if level == "ready" and "READY" not in head:
+        problems.append("ready headline without READY")
+    if level == "protect" and "PROTECT" not in head:
+        problems.append("protect headline without PROTECT")
+    if level == "all-hands" and "ALL HANDS" not in head:
+        problems.append("all-hands headline without ALL HANDS")
+    if level in ("protect", "all-hands") and not any(w in advice for w in ("start ", "light ", "protect the block",
                                                                          "keep the", "keep protection", "are running but")):
-        problems.append("act/critical advice that does not say to protect")
-    if level in ("act", "critical") and "get ready" in advice:
-        problems.append("act/critical advice that says get ready")
-    if level == "unmonitored" and "NOT MONITORED" not in head:
-        problems.append("unmonitored without NOT MONITORED")
+        problems.append("protect/all-hands advice that does not say to protect")
+    if level in ("protect", "all-hands") and "get ready" in advice:
+        problems.append("protect/all-hands advice that says get ready")
+    if level == "go-look" and ("NOT MONITORED" not in head or "GO LOOK" not in head):
+        problems.append("go-look without GO LOOK and NOT MONITORED")
     for method, name in METHOD_NAME.items():
         if f"{name.capitalize()}: not advised tonight" in text:
             if method in START and START[method] in text:
@@ -115,15 +115,15 @@ def test_every_level_with_every_plan_renders_a_headline_and_action_that_agree(pr
     d = Display("degC", "America/Los_Angeles")
     b = _block(protection)
     checked = 0
-    for (name, kw), running, level in itertools.product(PROJECTIONS.items(), (None, True), [*LEVELS, "unmonitored"]):
+    for (name, kw), running, level in itertools.product(PROJECTIONS.items(), (None, True), [*LEVELS, "go-look"]):
         p = _projection(**kw)
         plan = plan_advice(p, b, NOW, protection_running=running)
         shown = step_for_level(level, plan)
         msg = compose(b.id, level, shown, plan, p, d, Notice.LEVEL)
         assert check_message(level, msg.text) == [], (name, running, level, msg.text)
-        if level == "standby":
+        if level == "ready":
             assert shown in (Step.GET_READY, Step.KEEP_RUNNING, Step.EASING), (name, running)
-        if level == "act" and running:
+        if level == "protect" and running:
             assert "start " not in msg.action, (name, msg.action)  # running protection is never told to start
         checked += 1
     assert checked == len(PROJECTIONS) * 2 * (len(LEVELS) + 1)
@@ -152,7 +152,7 @@ def test_no_demo_alert_has_a_headline_and_action_that_disagree(demo_replay):
     bad = {a["key"]: check_message(a["level"], a["message"]) for a in alerts}
     assert {k: v for k, v in bad.items() if v} == {}
     levels = {a["level"] for a in alerts}
-    assert {"standby", "act", "critical", "safe-to-stop"} <= levels
+    assert {"ready", "protect", "all-hands", "may-stop"} <= levels
     # the advice field is the message's own advice line
     for a in alerts:
         assert f"Advice: {a['advice']}." in a["message"]

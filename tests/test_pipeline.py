@@ -21,7 +21,7 @@ def test_critical_with_machines_running_says_they_are_not_holding(demo_config, d
     """The frost night: east's fans run from 01:40 yet air reaches T10 at 04:58; the advice must
     not say 'start the wind machines' but that they are running and not holding the block."""
     evals, _ = _evals(demo_config, demo_logs[0])
-    crit = [a for ev in evals for a in ev.alerts if a.block == "east" and a.level == "critical"]
+    crit = [a for ev in evals for a in ev.alerts if a.block == "east" and a.level == "all-hands"]
     assert crit and "running but the block is at its critical temperature" in crit[0].advice
 
 

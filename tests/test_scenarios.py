@@ -147,7 +147,7 @@ def _in_force(doc, block, start_s, end_s):
 
 
 def _safe(d):
-    return d["step"] == "safe-to-stop" or d["level"] == "safe-to-stop"
+    return d["step"] == "safe-to-stop" or d["level"] == "may-stop"
 
 
 @pytest.fixture(scope="module")
@@ -177,7 +177,7 @@ def test_a_no_safe_to_stop_while_the_reference_wet_bulb_is_at_or_below_t10(a_ref
             now = _t(d["time"])
             assert float(np.interp(now, t, wb)) > T10_CHERRY, d
     for a in a_ref["alerts"]:
-        if a["block"] == "vale" and a["level"] == "safe-to-stop":
+        if a["block"] == "vale" and a["level"] == "may-stop":
             assert float(np.interp(_t(a["time"]), t, wb)) > T10_CHERRY
     first = _first(a_ref, "vale", _safe)
     assert first is not None and 0 <= _t(first["time"]) - _at(A_DAY, "07:34") <= 720
@@ -189,7 +189,7 @@ def test_a_keep_running_through_the_night_and_the_stop_rule_reads_unsprinkled_ai
     night = [d for d in _in_force(a_ref, "vale", _at(A_DAY, "21:40"), _at(A_DAY, "06:03"))
              if _t(d["time"]) >= _at(A_DAY, "21:40")]
     assert night and all(d["step"] == "keep-running" for d in night)
-    msgs = [a["message"] for a in a_ref["alerts"] if a["block"] == "vale" and a["level"] in ("standby", "act")]
+    msgs = [a["message"] for a in a_ref["alerts"] if a["block"] == "vale" and a["level"] in ("ready", "protect")]
     assert msgs and all("the wet bulb outside the sprinkled area" in m for m in msgs)
 
 
@@ -225,11 +225,11 @@ def test_b_site_tower_recommends_fans_with_its_measured_inversion(b_towers):
         when = max(_t(d["time"]), _at(B_DAY, "22:30"))  # the standing decision was made before 22:30
         if _t(d["time"]) >= _at(B_DAY, "22:30"):
             assert f["inversion_c"] == pytest.approx(float(np.interp(when, *inv)), abs=0.6)
-    act = _first(b_towers, "ridge", lambda d: d["level"] == "act")
+    act = _first(b_towers, "ridge", lambda d: d["level"] == "protect")
     assert _on_time(act, _at(B_DAY, "02:18")) and "start the wind machines" in act["advice"]
     late = _in_force(b_towers, "ridge", _at(B_DAY, "04:00"), _at(B_DAY, "05:30"))
     assert late and all(d["plan"]["verdicts"][0]["fans"]["sufficient"] for d in late)
-    ridge_msgs = [a["message"] for a in b_towers["alerts"] if a["block"] == "ridge" and a["level"] in ("standby", "act")]
+    ridge_msgs = [a["message"] for a in b_towers["alerts"] if a["block"] == "ridge" and a["level"] in ("ready", "protect")]
     assert ridge_msgs and all("tower mast, 350 m away" in m for m in ridge_msgs)
 
 
@@ -239,42 +239,42 @@ def test_b_fans_that_hold_t10_but_not_t10_plus_margin(b_towers):
     assert last["advised"] and not last["fans"]["sufficient"]
     assert last["fans"]["shortfall_c"] == pytest.approx(1.9, abs=0.3)
     assert "add-heaters" in last["alternatives"]
-    act = _first(b_towers, "knoll", lambda d: d["level"] == "act")
-    crit = _first(b_towers, "knoll", lambda d: d["level"] == "critical")
+    act = _first(b_towers, "knoll", lambda d: d["level"] == "protect")
+    crit = _first(b_towers, "knoll", lambda d: d["level"] == "all-hands")
     assert _on_time(act, _at(B_DAY, "23:46"))
     assert abs(_t(crit["time"]) - _at(B_DAY, "03:56")) <= 240
 
 
 def test_c_drying_night_start_comes_early_enough(c_drying):
-    standby = _first(c_drying, "south", lambda d: d["level"] == "standby")
+    standby = _first(c_drying, "south", lambda d: d["level"] == "ready")
     sp = standby["plan"]["verdicts"][0]["sprinklers"]
     # standby comes from the band's cold edge (issue 15), earlier in the evening, when the
     # dew point had fallen about 0.3 degC/h over the two hours before (0.64 by 21:28)
     assert sp["dew_point_trend_c_per_h"] < -0.2 and sp["start_dew_point_c"] < sp["dew_point_c"]
     assert sp["start_air_temp_c"] > -0.74  # the start with the 21:28 dew point held
-    act = _first(c_drying, "south", lambda d: d["level"] == "act")
+    act = _first(c_drying, "south", lambda d: d["level"] == "protect")
     assert act is not None and _t(act["time"]) <= _at(C_DAY, "00:06")
     assert "start the over-tree sprinklers now" in act["advice"]
 
 
 def test_c_heater_plan(c_drying):
-    act = _first(c_drying, "north", lambda d: d["level"] == "act")
+    act = _first(c_drying, "north", lambda d: d["level"] == "protect")
     assert _on_time(act, _at(C_DAY, "00:13")) and "light the heaters now" in act["advice"]
     h = act["plan"]["verdicts"][0]["heaters"]
     assert h["requirement_w_m2"] == pytest.approx(98.1, abs=2.0) and h["retained_frac"] == 0.15
     assert abs(h["heaters_per_ha"] - 164) <= 5 and h["enough"] is False
     assert "more-heaters" in act["plan"]["verdicts"][0]["alternatives"]
     assert {"heater-safety", "air-quality"} <= set(act["plan"]["cautions"])
-    crit = _first(c_drying, "north", lambda d: d["level"] == "critical")
+    crit = _first(c_drying, "north", lambda d: d["level"] == "all-hands")
     assert abs(_t(crit["time"]) - _at(C_DAY, "05:16")) <= 240
 
 
 def test_c_undertree_rates_warming_and_stop(c_drying):
-    act = _first(c_drying, "flat", lambda d: d["level"] == "act")
+    act = _first(c_drying, "flat", lambda d: d["level"] == "protect")
     assert _on_time(act, _at(C_DAY, "00:14"))
     sp = act["plan"]["verdicts"][0]["sprinklers"]
     assert sp["undertree"] and (sp["warming_low_c"], sp["warming_high_c"]) == (0.6, 1.4) and sp["sufficient"] is False
-    msgs = [a["message"] for a in c_drying["alerts"] if a["block"] == "flat" and a["level"] in ("standby", "act")]
+    msgs = [a["message"] for a in c_drying["alerts"] if a["block"] == "flat" and a["level"] in ("ready", "protect")]
     assert msgs and all("ice on the ground has melted" in m and "between ice and twig" not in m for m in msgs)
     for block, when in (("flat", "06:52"), ("south", "07:12")):
         first = _first(c_drying, block, _safe)

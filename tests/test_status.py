@@ -43,8 +43,8 @@ def _decision(cfg, monitored=True, as_of=NOW, fresh_until=NOW + dt.timedelta(min
     plan = plan_advice(p, b, as_of)
     mon = Monitoring(monitored, MonitorReason.OK if monitored else MonitorReason.SILENT, ("east-low",),
                      None if monitored else as_of - dt.timedelta(hours=1), as_of - dt.timedelta(minutes=1), fresh_until)
-    level = "act" if monitored else "unmonitored"
-    return Decision(block="east", as_of_utc=as_of, night=dt.date(2027, 4, 14), level=level, rank=4, frost_level="act",
+    level = "protect" if monitored else "go-look"
+    return Decision(block="east", as_of_utc=as_of, night=dt.date(2027, 4, 14), level=level, rank=4, frost_level="protect",
                     step=Step.START_NOW if monitored else Step.CHECK_SENSORS, monitoring=mon,
                     projection=summarise_projection(p), plan=plan, alert_key="east/2027-04-14/003-act",
                     inputs_utc={"east-low/air_temperature": as_of - dt.timedelta(minutes=1)})
@@ -98,34 +98,34 @@ def test_block_json_carries_the_contract_keys_and_never_green_words_when_not_mon
     d = Display("degC", cfg.site.tz)
     up = Liveness(True, NOW, False, 1.0)
     j = decision_json(_decision(cfg), "east", NOW, up, d, 300)
-    assert (j["level"], j["rank"], j["monitored"], j["as_of"]) == ("act", 4, True, "2027-04-15T09:00:00Z")
-    assert j["action"].startswith("start the wind machines now") and j["headline"].startswith("east: ACT NOW")
+    assert (j["level"], j["rank"], j["monitored"], j["as_of"]) == ("protect", 4, True, "2027-04-15T09:00:00Z")
+    assert j["action"].startswith("start the wind machines now") and j["headline"].startswith("east: PROTECT")
     assert j["projection"]["band_low_c"] == pytest.approx(-3.8) and j["ready_by"] is not None
     down = Liveness(False, NOW - dt.timedelta(minutes=30), False, 1800.0)
     j = decision_json(_decision(cfg), "east", NOW, down, d, 300)
-    assert (j["level"], j["rank"], j["monitored"], j["frost_level"]) == ("unmonitored", 4, False, "act")
-    assert j["headline"].startswith("east: NOT MONITORED since 01:30") and "daemon is not running" in j["reason"]
+    assert (j["level"], j["rank"], j["monitored"], j["frost_level"]) == ("go-look", 4, False, "protect")
+    assert j["headline"].startswith("east: GO LOOK: NOT MONITORED since 01:30") and "daemon is not running" in j["reason"]
     for text in (j["headline"], j["action"], j["reason"]):
         assert "n/a" not in text and "no alert" not in text and "start" not in text
     none = decision_json(None, "east", NOW, up, d, 300)
-    assert (none["level"], none["monitored"], none["evaluated_at"]) == ("unmonitored", False, None)
+    assert (none["level"], none["monitored"], none["evaluated_at"]) == ("go-look", False, None)
 
 
 def test_status_document_reads_the_newest_decision_at_or_before_now(demo_config):
     cfg = load_config(demo_config)
     with Store.open(cfg.storage.path) as store:
         first, second = _decision(cfg), _decision(cfg, as_of=NOW + dt.timedelta(minutes=2))
-        second = dataclasses.replace(second, level="critical", rank=5, frost_level="critical")
+        second = dataclasses.replace(second, level="all-hands", rank=5, frost_level="all-hands")
         stored.save_decisions(store, [first, second])
         store.set_meta("daemon.heartbeat", json.dumps({"time": NOW.isoformat(), "stored_every_s": 300}))
         doc = status_document(cfg, store, NOW + dt.timedelta(minutes=1))
         east = next(b for b in doc["blocks"] if b["block"] == "east")
-        assert east["as_of"] == "2027-04-15T09:00:00Z" and east["level"] == "act"
+        assert east["as_of"] == "2027-04-15T09:00:00Z" and east["level"] == "protect"
         doc = status_document(cfg, store, NOW + dt.timedelta(minutes=3))
         east = next(b for b in doc["blocks"] if b["block"] == "east")
-        assert east["level"] == "critical" and doc["daemon_alive"] is True
+        assert east["level"] == "all-hands" and doc["daemon_alive"] is True
         others = [b for b in doc["blocks"] if b["block"] != "east"]
-        assert all(b["level"] == "unmonitored" and "no evaluation" in b["reason"] for b in others)
+        assert all(b["level"] == "go-look" and "no evaluation" in b["reason"] for b in others)
 
 
 def test_decisions_are_stored_compressed_and_a_plain_json_row_still_reads(demo_config):

@@ -27,7 +27,7 @@ def damaged(demo_config):
             rs = [Reading(start + dt.timedelta(seconds=3 * i), st, "air_temperature", 1.0 + (i % 7) / 10)
                   for i in range(2400) for st in ("east-low", "river-low")]
             s.add_readings(rs, "test")
-        s.add_alert(Alert(T0, "east", "act", 4, "start", "east: ACT", "east/2027-04-14/001-act"))
+        s.add_alert(Alert(T0, "east", "protect", 4, "start", "east: ACT", "east/2027-04-14/001-act"))
         with s.lock:
             s.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
             page = s.conn.execute("PRAGMA page_size").fetchone()[0]

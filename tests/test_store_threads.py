@@ -30,7 +30,7 @@ def test_reads_on_one_thread_never_break_transactions_on_another(store):
     """Pass: one thread reads alerts, events, projections and rejections in a tight loop while
     another writes events and alerts; not one write fails (before: "cannot start a transaction
     within a transaction", or "no such savepoint" on the reading side)."""
-    store.add_alert(Alert(T0, "east", "act", 4, "start", "east: ACT", "east/2027-04-14/001-act"))
+    store.add_alert(Alert(T0, "east", "protect", 4, "start", "east: ACT", "east/2027-04-14/001-act"))
     errors: list[str] = []
     stop = threading.Event()
 

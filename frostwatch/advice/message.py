@@ -1,6 +1,6 @@
 """Whole messages from the plan: an alert's text, and the "not monitored" texts.
 
-    msg = compose("east", "standby", step, plan, projection, display, Notice.LEVEL)
+    msg = compose("east", "ready", step, plan, projection, display, Notice.LEVEL)
     msg.headline, msg.action, msg.text
 
 `compose` is what the alert rules send and what the page and the report show for the same
@@ -134,7 +134,7 @@ def monitoring_reason(m: Monitoring, d: Display, now_utc: dt.datetime, daemon_st
 
 def not_monitored_headline(block_id: str, since_utc: dt.datetime | None, d: Display) -> str:
     since = f" since {d.time(since_utc)}" if since_utc is not None else ""
-    return f"{block_id}: NOT MONITORED{since}"
+    return f"{block_id}: {render.level_word('go-look')}: NOT MONITORED{since}"
 
 
 def not_monitored(block_id: str, m: Monitoring, plan: AdvicePlan | None, d: Display, now_utc: dt.datetime,
@@ -143,8 +143,8 @@ def not_monitored(block_id: str, m: Monitoring, plan: AdvicePlan | None, d: Disp
     head = not_monitored_headline(block_id, m.since_utc, d) + ": " + monitoring_reason(m, d, now_utc)
     act = render.action(Step.CHECK_SENSORS, plan, d) if plan is not None else "go and check the block and its sensors"
     lines = [head, f"Advice: {act}; until it reports again, judge the block by hand."]
-    if frost_level and frost_level not in ("all-clear",):
-        lines.append(f"Last level before it went quiet: {frost_level}.")
+    if frost_level and render.level_word(frost_level) != render.level_word("rest"):
+        lines.append(f"Last level before it went quiet: {render.level_word(frost_level)}.")
     cautions = render.cautions(plan, d) if plan is not None else [render.CAUTION_TEXT[c] for c in BASE_CAUTIONS]
     lines.append("Cautions: " + " ".join(cautions))
     return Message(head, act, "\n".join(lines))

@@ -59,13 +59,22 @@ START = {
 }
 LIGHTING = "; light the upwind border and the low spots first"  # heaters (lighting order, common practice)
 LEVEL_WORD = {
-    "critical": "CRITICAL", "act": "ACT", "standby": "STANDBY", "frost-possible": "FROST POSSIBLE",
-    "safe-to-stop": "SAFE TO STOP", "all-clear": "ALL CLEAR", "unmonitored": "NOT MONITORED",
+    "all-hands": "ALL HANDS", "protect": "PROTECT", "ready": "READY", "wait": "WAIT", "may-stop": "MAY STOP",
+    "rest": "REST", "go-look": "GO LOOK", "all-set": "ALL SET", "fix": "FIX", "check": "CHECK",
 }
 
 
+# the level names before release 0.2 (frostwatch.alerts.levels.OLD_NAMES; kept here, since the
+# alert levels import this module)
+_OLD_NAMES = {"all-clear": "rest", "safe-to-stop": "may-stop", "frost-possible": "wait", "standby": "ready",
+              "act": "protect", "critical": "all-hands", "armed": "all-set", "sensor-trouble": "fix",
+              "degraded": "check", "unmonitored": "go-look"}
+
+
 def level_word(level: str) -> str:
-    """The level as a person reads it ("STANDBY"), for any level name stored or received."""
+    """The level as a person reads it ("READY"), for any level name stored or received (a level
+    stored under its old name reads as the new one)."""
+    level = _OLD_NAMES.get(level, level)
     return LEVEL_WORD.get(level, level.replace("-", " ").upper())
 
 
@@ -319,11 +328,12 @@ def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display
              previous_ready_by_utc: dt.datetime | None = None) -> str:
     """The first line of a message (and a card's title): the level and the step, never at odds."""
     b, m = block_id, plan.method
-    word = LEVEL_WORD.get(level, level.upper())
+    word = level_word(level)
+    level = _OLD_NAMES.get(level, level)
     pmin = plan.predicted_min_c
     if notice is Notice.OUTLOOK:
         around = f" around {_t(d, plan.predicted_min_at_utc)}" if plan.predicted_min_at_utc else ""
-        if level == "frost-possible":
+        if level == "wait":
             return f"{b}: {word}: frost may come tonight: minimum {d.temp(pmin)}{around} (T10 {d.temp(plan.t10_c)})"
         return f"{b}: {word}: tonight looks safe: minimum {d.temp(pmin)}{around}"
     if notice is Notice.RESOLVED:
@@ -337,20 +347,19 @@ def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display
         was = f" (was {_t(d, previous_ready_by_utc)})" if previous_ready_by_utc else ""
         return f"{b}: UPDATE: {word}: get ready by {_t(d, plan.ready_by_utc)}{was}; {_short_reach(plan, d)}"
     if step is Step.CHECK_SENSORS:
-        return f"{prefix}{word}: go and check the block"
+        return f"{prefix}{word}: NOT MONITORED: go and check the block"
     if step is Step.AT_CRITICAL:
         return f"{prefix}{word}: protect now: {_at_t10(plan, d)}"
     if step is Step.NOT_HOLDING:
         return f"{prefix}{word}: protection is not holding: {_at_t10(plan, d)}"
     if step is Step.START_NOW:
         if plan.advised:
-            what = START[m]
+            what = f"{START[m]} now"
         elif m is Method.NONE:
-            what = "protect the block if you can"
+            what = "protect the block now if you can"
         else:
-            what = f"protect the block by other means ({METHOD_NAME[m]} not advised tonight)"
-        now = " NOW" if level == "act" else ""
-        return f"{prefix}{word}{now}: {what}; {_short_reach(plan, d)}"
+            what = f"protect the block by other means now ({METHOD_NAME[m]} not advised tonight)"
+        return f"{prefix}{word}: {what}; {_short_reach(plan, d)}"
     if step is Step.GET_READY:
         ahead = plan.ready_by_utc is not None and plan.ready_by_utc > plan.time_utc
         by = f" by {_t(d, plan.ready_by_utc)}" if ahead else " now"
@@ -359,8 +368,8 @@ def headline(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Display
         return f"{prefix}{word}: keep the {METHOD_NAME[m]} running; {_short_reach(plan, d)}"
     if step is Step.EASING:
         return f"{prefix}{word}: the projection has eased"
-    if step in (Step.SAFE_TO_STOP, Step.WATCH_TO_STOP) and level == "safe-to-stop":
-        return f"{prefix}{word}: the {METHOD_NAME[m]} may stop"
+    if step in (Step.SAFE_TO_STOP, Step.WATCH_TO_STOP) and level == "may-stop":
+        return f"{prefix}{word}: the stop rule for the {METHOD_NAME[m]} is met"
     if step is Step.WAIT_TO_STOP:
         return f"{prefix}{word}: keep the {METHOD_NAME[m]} running for now"
     if step is Step.WATCH_TO_STOP:

@@ -1,10 +1,10 @@
 """The short form of every message: one text message (160 GSM-7 characters) a grower reads half
 awake, rendered from the same plan and step as the long form (`frostwatch.advice.message`).
 
-    body = short_body("east", "act", Step.START_NOW, plan, display)   # stored with the alert
+    body = short_body("east", "protect", Step.START_NOW, plan, display)  # stored with the alert
     text = short_message(body, code="K7QM4X")                           # what a phone receives
 
-    "east START: start wind machines now. Air 0.7C now, may reach -0.2C by 22:55. Ack: reply K7QM4X"
+    "east PROTECT: start wind machines now. Air 0.7C now, may reach -0.2C by 22:55. Ack: reply K7QM4X"
 
 The body holds the block, the level's word and the action, the trigger temperature now, the line
 it must not reach (T10 + margin, or T10) and by when; the acknowledgement code is added for each

@@ -6,7 +6,7 @@ Checks that every station reported within `[alerts.armed] max_sensor_age_min`, t
 battery_voltage is below `min_battery_v`, that every channel answers (a connection and a polite
 no-op, or a real test message with `test_channels = true`), that each block has someone on its
 roster tonight, and that a projection exists for every block in the last hour. Then it submits
-one alert: "armed" (rank 0) or "degraded" (rank 2) listing what is wrong (grower-needs F2).
+one alert: "all-set" (rank 0) or "check" (rank 2) listing what is wrong (grower-needs F2).
 The daemon calls it once at dusk; the clock is the caller's.
 """
 
@@ -19,7 +19,7 @@ import shutil
 import smtplib
 import socket
 
-from frostwatch.alerts.levels import ALL_LEVELS
+from frostwatch.alerts.levels import ALL_LEVELS, ALL_SET, CHECK
 from frostwatch.models import Alert
 from frostwatch.night import evening_date
 
@@ -89,10 +89,10 @@ def armed_check(store, cfg, outbox, now_utc: dt.datetime, send: bool = True) -> 
             problems.append(f"block {b.id}: no projection in the last hour")
     ok = not problems
     if send:
-        level = "armed" if ok else "degraded"
-        text = (f"frostwatch is armed for tonight ({night}): {len(cfg.stations)} sensors fresh, "
+        level = ALL_SET if ok else CHECK
+        text = (f"farm: ALL SET for tonight ({night}): {len(cfg.stations)} sensors fresh, "
                 f"{len(ac.channels)} channels answer, roster set, projections made" if ok else
-                f"frostwatch is DEGRADED for tonight ({night}): " + "; ".join(problems))
+                f"farm: CHECK before tonight ({night}): " + "; ".join(problems))
         a = Alert(time_utc=now_utc, block="farm", level=level, rank=ALL_LEVELS[level],
                   advice="nothing to do" if ok else "fix what is listed before the night gets cold",
                   message=text, key=f"farm/{night}/armed-check")
@@ -108,5 +108,5 @@ def armed_check(store, cfg, outbox, now_utc: dt.datetime, send: bool = True) -> 
             rows = outbox._rows(level, people, seq=0, kind="notice", now_utc=now_utc, every_channel=True)
             with store.transaction() as c:
                 ob.insert_deliveries(c, a.key, rows, to_ms(now_utc))
-    log.warning("dusk check: %s", "armed" if ok else "degraded: " + "; ".join(problems))
+    log.warning("dusk check: %s", "all set" if ok else "check: " + "; ".join(problems))
     return ok, problems

@@ -1,9 +1,9 @@
 """The alert sections of a config: [alerts], [[alerts.roster]], [[contacts]], [[channels]].
 
     [alerts]
-    repeat_interval_min = 10      # an unanswered act/critical/unmonitored alert repeats this often
+    repeat_interval_min = 10      # an unanswered protect/all-hands/go-look alert repeats this often
     escalate_after_min = 15       # ... and adds the next person of the roster after this long
-    repeat_from_rank = 4          # alerts of this rank and above want an answer (act and up)
+    repeat_from_rank = 4          # alerts of this rank and above want an answer (protect and up)
     budget_per_hour = 6           # notifications per block per rolling hour; repeats and updates beyond it wait
     update_earlier_min = 30       # a standby is updated when its crossing moves earlier by more than
                                   # this or the block's mobilisation_min, whichever is less
@@ -45,14 +45,18 @@ together as ConfigError, each as `section.key: what is wrong, what is expected`.
 from __future__ import annotations
 
 import datetime as dt
+import logging
 import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from frostwatch.errors import ConfigError
 
+log = logging.getLogger("frostwatch.alerts.config")
+_WARNED: set[str] = set()
+
 CHANNEL_TYPES = ("email", "webhook", "mqtt", "command", "console")
-ROUTED_LIKE = {"unmonitored": "act"}  # a level without a route of its own takes this one's
+ROUTED_LIKE = {"go-look": "protect"}  # a level without a route of its own takes this one's
 ROLES = ("grower", "maintainer", "manager")
 ADDRESS_FIELDS = ("none", "email", "phone", "webhook", "command")
 LOCAL_BY_DEFAULT = {"email": False, "webhook": False, "mqtt": True, "command": True, "console": True}
@@ -131,6 +135,7 @@ class AlertsConfig:
     ack_topic: str = ""
     update_earlier_min: float = 30.0
     route: dict = field(default_factory=lambda: {"default": ["*"]})
+    deprecations: tuple[str, ...] = ()  # old names read from the config, each as a sentence to show
     armed: dict = field(default_factory=lambda: {k: v[1] for k, v in _ARMED_KEYS.items()})
     roster: tuple[RosterEntry, ...] = ()
     contacts: tuple[Contact, ...] = ()
@@ -143,8 +148,12 @@ class AlertsConfig:
         return next((c for c in self.contacts if c.name == name), None)
 
     def channels_for(self, level: str) -> list[Channel]:
-        """The channels of a level's route; `unmonitored` without a route of its own goes the way
-        of `act` (a block nobody watches at night is as urgent as a call to act), else `default`."""
+        """The channels of a level's route; `go-look` without a route of its own goes the way of
+        `protect` (a block nobody watches at night is as urgent as a call to protect), else
+        `default`. A level stored under its old name is routed as the new one."""
+        from frostwatch.alerts.levels import level_name
+
+        level = level_name(level)
         names = self.route.get(level)
         if names is None and level in ROUTED_LIKE:
             names = self.route.get(ROUTED_LIKE[level])
@@ -304,17 +313,27 @@ def load_alerts_config(cfg) -> AlertsConfig:
         channels.append(Channel("console", "console", DEFAULT_TIMEOUT_S, True, "none", {}))
     chan_names = {c.name for c in channels}
 
-    # route
+    # route (level names before 0.2 are read, each with a deprecation message)
     route_raw = alerts_raw.get("route", {"default": ["*"]})
     route: dict = {}
+    deprecations: list[str] = []
     if not isinstance(route_raw, dict):
         problems.append("alerts.route: is not a table, expected level = [channel names]")
     else:
-        from frostwatch.alerts.levels import ALL_LEVELS
-        for lvl, lst in route_raw.items():
+        from frostwatch.alerts.levels import ALL_LEVELS, OLD_NAMES, OLD_NAMES_UNTIL, RENAMED_IN
+        for old_lvl, lst in route_raw.items():
+            lvl = OLD_NAMES.get(old_lvl, old_lvl)
             if lvl != "default" and lvl not in ALL_LEVELS:
                 problems.append(f"alerts.route.{lvl}: not a level, expected default or one of {', '.join(ALL_LEVELS)}")
                 continue
+            if lvl != old_lvl:
+                deprecations.append(
+                    f"alerts.route.{old_lvl}: the level {old_lvl!r} is called {lvl!r} since frostwatch {RENAMED_IN}; "
+                    f"the old name is read in this release and refused from {OLD_NAMES_UNTIL}: rename the key to {lvl}")
+                if lvl in route_raw:
+                    problems.append(f"alerts.route.{old_lvl}: both {old_lvl} (the old name) and {lvl} are given, "
+                                    f"expected only {lvl}")
+                    continue
             if not isinstance(lst, list) or not all(isinstance(x, str) for x in lst):
                 problems.append(f"alerts.route.{lvl}: {lst!r} is not a list of channel names, expected e.g. [\"sms\", \"mail\"]")
                 continue
@@ -378,8 +397,12 @@ def load_alerts_config(cfg) -> AlertsConfig:
 
     if problems:
         raise ConfigError(str(getattr(cfg, "path", None) or "<config>"), problems)
+    for text in deprecations:
+        if text not in _WARNED:  # once per process: the daemon reloads its config
+            _WARNED.add(text)
+            log.warning("%s: %s", getattr(cfg, "path", None) or "<config>", text)
     return AlertsConfig(**values, route=route, armed=armed, roster=tuple(roster), contacts=tuple(contacts),
-                        channels=tuple(channels))
+                        channels=tuple(channels), deprecations=tuple(deprecations))
 
 
 def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:

@@ -20,11 +20,11 @@ How it behaves (reliability.md section 6):
 - An update (a standby whose crossing moved earlier) counts against `budget_per_hour` like a
   repeat and waits beyond it; a newer update of the block replaces one still waiting. The first
   notice of a level and an escalation never wait.
-- An alert of rank >= `repeat_from_rank` (act, critical, unmonitored) repeats every
+- An alert of rank >= `repeat_from_rank` (protect, all-hands, go-look) repeats every
   `repeat_interval_min` until acknowledged, and every `escalate_after_min` it adds the next person
   of the block's roster. Repeats beyond `budget_per_hour` notifications per block wait; the first
-  notice of a level and an escalation are never held back. A resolving alert (all-clear,
-  safe-to-stop) stops the block's repeats and goes once to everyone who was told.
+  notice of a level and an escalation are never held back. A resolving alert (rest,
+  may-stop) stops the block's repeats and goes once to everyone who was told.
 - When `degraded_after_failures` remote attempts in a row fail with no remote success, every
   unsent alert also goes out on every local channel (siren, GSM command, console), and one
   "remote alerting degraded" notice is queued on the remote channels for when they return.
@@ -46,10 +46,10 @@ import time
 from pathlib import Path
 
 from frostwatch.advice.short import notice_body, short_message
-from frostwatch.alerts import ackcodes, acks
+from frostwatch.alerts import ackcodes, acks, levels
 from frostwatch.alerts.channels import OutMessage, Permanent, Transient, sender
 from frostwatch.alerts.config import AlertsConfig, Channel, Contact, load_alerts_config
-from frostwatch.alerts.levels import ALL_LEVELS, rank_of
+from frostwatch.alerts.levels import ALL_LEVELS, level_name, rank_of
 from frostwatch.models import Alert
 from frostwatch.redact import redact
 from frostwatch.store import Store, from_ms, to_ms
@@ -57,7 +57,7 @@ from frostwatch.store import outbox as ob
 
 log = logging.getLogger("frostwatch.alerts")
 
-RESOLVING_LEVELS = ("all-clear", "safe-to-stop", "armed")
+RESOLVING_LEVELS = levels.RESOLVING_LEVELS
 DEADLINE_GRACE_S = 2.0  # a send's own deadline (timeout_s) comes first; the worker's wait ends this much later
 BROADCAST = "*"
 
@@ -139,17 +139,17 @@ class Outbox:
     def _submit_one(self, a: Alert, now_utc: dt.datetime, exclude: tuple[str, ...] = ()) -> bool:
         night = night_of_key(a.key)
         roster = self.ac.roster_for(a.block, night)
-        wants_answer = a.rank >= self.ac.repeat_from_rank and a.level not in RESOLVING_LEVELS
+        wants_answer = a.rank >= self.ac.repeat_from_rank and level_name(a.level) not in RESOLVING_LEVELS
         step = 0
         people: list[Contact]
         earlier = ob.firing_keys(self.store, a.block) if a.block else []
         earlier = [k for k in earlier if night_of_key(k) == night] if night else earlier
-        if a.level in RESOLVING_LEVELS or a.resolves:
+        if level_name(a.level) in RESOLVING_LEVELS or a.resolves:
             told = {d["recipient"] for d in ob.deliveries_for(self.store, self._block_keys(a.block, night))}
             people = [c for c in self.ac.contacts if c.name in told] or roster[:1]
-        elif a.level in ("sensor-trouble", "degraded"):
+        elif level_name(a.level) in (levels.FIX, levels.CHECK):
             people = self.ac.with_role("maintainer") or roster[:1]
-        elif a.level == "unmonitored":
+        elif level_name(a.level) == levels.GO_LOOK:
             people = _unique(roster[:1] + self.ac.with_role("maintainer"))
         else:
             for k in earlier:  # a new level continues the escalation the block has reached
@@ -172,7 +172,7 @@ class Outbox:
         if new:
             with self.store.transaction() as c:
                 c.execute("UPDATE alert_state SET step=? WHERE alert_key=?", (step, a.key))
-                if a.level in RESOLVING_LEVELS or a.resolves:
+                if level_name(a.level) in RESOLVING_LEVELS or a.resolves:
                     ob.set_state(c, earlier, "resolved", ("firing", "acked"))
                 elif a.rank >= 3:
                     ob.set_state(c, [k for k in earlier if k != a.key], "superseded")
@@ -216,24 +216,24 @@ class Outbox:
         """A health alert (sensor silent, broker down, no healthy sensor, ...). Returns its key.
 
         The same subject raises once per local night (`once_per="night"`) or hour ("hour");
-        urgent ones ("unmonitored") repeat and escalate like "act" until acknowledged.
+        urgent ones ("go-look") repeat and escalate like "protect" until acknowledged.
         """
         try:
             self.store.add_event(now_utc, "health", subject, detail)
         except Exception:  # noqa: BLE001 - the store cannot write: the alert still goes out (from memory)
             log.exception("could not record the health event %s", subject)
-        level = level or ("unmonitored" if urgent else "sensor-trouble")
+        level = level_name(level) if level else (levels.GO_LOOK if urgent else levels.FIX)
         tz = getattr(getattr(self.cfg, "site", None), "tz", None) or dt.UTC
         local = (now_utc - dt.timedelta(hours=12)).astimezone(tz)
         stamp = local.date().isoformat() + (now_utc.strftime("T%H") if once_per == "hour" else "")
         slug = re.sub(r"[^A-Za-z0-9_.-]+", "-", subject).strip("-")[:60] or "health"
         key = f"{block}/{stamp}/health-{slug}"
-        if detail.startswith("recovered"):  # the daemon's all-clear for a health condition: one resolved message
+        if detail.startswith("recovered"):  # the daemon's rest for a health condition: one resolved message
             with self.store.lock:
                 (n,) = self.store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key + "%",)).fetchone()
             if n == 0 or n % 2 == 0:
                 return key  # nothing raised, or already resolved
-            a = Alert(time_utc=now_utc, block=block, level="all-clear", rank=0, advice="nothing to do",
+            a = Alert(time_utc=now_utc, block=block, level=levels.REST, rank=0, advice="nothing to do",
                       message=f"{subject}: {detail}", key=f"{key}~{n}", resolves=key if n == 1 else f"{key}~{n - 1}")
             self.submit([a], now_utc, exclude)
             return a.key
@@ -422,7 +422,7 @@ class Outbox:
         for s in ob.due_repeats(self.store, now_ms):
             key, block = s["alert_key"], s["block"]
             roster = self.ac.roster_for(block, night_of_key(key))
-            if s["level"] == "unmonitored":
+            if level_name(s["level"]) == levels.GO_LOOK:
                 roster = _unique(roster + self.ac.with_role("maintainer"))
             elapsed = now_ms - s["started_utc_ms"]
             step = min(max(len(roster) - 1, 0), max(s["step"], elapsed // esc_ms if esc_ms > 0 else 0))
@@ -494,7 +494,7 @@ class Outbox:
             people = self.ac.with_role("maintainer") or self.ac.roster_for("farm", None)[:1]
             tz = getattr(getattr(self.cfg, "site", None), "tz", None) or dt.UTC
             key = f"farm/{(now_utc - dt.timedelta(hours=12)).astimezone(tz).date()}/remote-degraded-{now_utc:%H%M%S}"
-            a = Alert(time_utc=now_utc, block="farm", level="degraded", rank=ALL_LEVELS["degraded"],
+            a = Alert(time_utc=now_utc, block="farm", level=levels.CHECK, rank=ALL_LEVELS[levels.CHECK],
                       advice="check the internet link, the mail server and the gateway",
                       message=(f"remote alerting degraded since {from_ms(now_ms).isoformat(timespec='minutes')}: "
                                f"{self._remote_fail_streak} remote deliveries failed in a row "
@@ -505,7 +505,7 @@ class Outbox:
                 targets = [BROADCAST] if ch.address == "none" else [p.name for p in people if p.address(ch.address)]
                 rows += [{"channel": ch.name, "recipient": t, "seq": 0, "kind": "notice", "local": False,
                           "next_try_ms": now_ms} for t in targets]
-            rows += self._rows("degraded", people, seq=0, kind="notice", now_utc=now_utc, only_local=True)
+            rows += self._rows(levels.CHECK, people, seq=0, kind="notice", now_utc=now_utc, only_local=True)
             ob.add_alert_with_deliveries(self.store, a, rows, False, None)
             log.error("remote alerting degraded: local channels fire; a notice waits for the remote channels")
 

@@ -8,10 +8,10 @@ headline and its advice never disagree.
 
 Beyond the frost levels:
 
-- a block that is not monitored (no fresh crop-height sensor) gets an `unmonitored` alert of its
+- a block that is not monitored (no fresh crop-height sensor) gets a `go-look` alert of its
   own inside the night's watch window, once, and one "monitored again" message when its sensor
-  has reported for two evaluations; meanwhile the frost rules hold (no outlook, no all-clear);
-- at standby, when the projected crossing moves earlier by more than the block's mobilisation
+  has reported for two evaluations; meanwhile the frost rules hold (no dusk message, no rest);
+- at ready, when the projected crossing moves earlier by more than the block's mobilisation
   time or `update_earlier_min` (whichever is less) for two evaluations, one update goes out with
   the new ready-by time; the next update needs another such move, and comes at least
   `update_earlier_min` later unless the ready-by time is nearer than that.
@@ -29,14 +29,26 @@ from frostwatch.advice.message import compose, not_monitored
 from frostwatch.advice.plan import AdvicePlan, Method, Risk, Step
 from frostwatch.advice.render import Notice
 from frostwatch.advice.short import not_monitored_body, short_body
-from frostwatch.alerts.levels import LEVELS, UNMONITORED, rank_of, step_for_level, wanted_level
+from frostwatch.alerts.levels import (
+    ALL_HANDS,
+    LEVELS,
+    MAY_STOP,
+    PROTECT,
+    READY,
+    REST,
+    UNMONITORED,
+    WAIT,
+    rank_of,
+    step_for_level,
+    wanted_level,
+)
 from frostwatch.config import Block
 from frostwatch.decision import Monitoring
 from frostwatch.display import Display
 from frostwatch.models import Alert, Projection
 from frostwatch.night import Night
 
-PERSISTENCE = {"standby": 2, "act": 2, "critical": 1}  # consecutive evaluations before raising
+PERSISTENCE = {READY: 2, PROTECT: 2, ALL_HANDS: 1}  # consecutive evaluations before raising
 CLEAR_PERSISTENCE = 3  # consecutive evaluations beyond the off threshold before clearing
 MONITORED_PERSISTENCE = 2  # evaluations with a fresh sensor before "monitored again"
 UPDATE_PERSISTENCE = 2  # evaluations with the crossing moved before an update goes out
@@ -63,27 +75,27 @@ class BlockAlertState:
     """What the rules remember about a block between evaluations."""
 
     night: str = ""
-    level: str = "all-clear"
-    candidate: str = "all-clear"
+    level: str = REST
+    candidate: str = REST
     candidate_count: int = 0
     clear_count: int = 0
     outlook_sent: bool = False
     last_key: str | None = None
     sequence: int = 0
-    peak_level: str = "all-clear"
-    unmonitored_key: str | None = None  # the open "unmonitored" alert, until monitored again
+    peak_level: str = REST
+    unmonitored_key: str | None = None  # the open "go-look" alert, until monitored again
     unmonitored_since_utc: dt.datetime | None = None
     monitored_count: int = 0
-    announced_crossing_utc: dt.datetime | None = None  # the crossing the last standby/update gave
-    announced_at_utc: dt.datetime | None = None  # when the last standby/update went out
+    announced_crossing_utc: dt.datetime | None = None  # the crossing the last ready/update gave
+    announced_at_utc: dt.datetime | None = None  # when the last ready/update went out
     update_count: int = 0
     ran_tonight: bool = False  # the block's running flag read "running" at least once tonight
-    told_to_start: bool = False  # an act or critical alert told the grower to run the block's method
+    told_to_start: bool = False  # a protect or all-hands alert told the grower to run the block's method
 
 
 def protection_ran(state: BlockAlertState) -> bool:
-    """Whether the block's protection may have run tonight: its running flag said so, or an act or
-    critical alert told the grower to start the block's own method (a flag can be wrong; a grower
+    """Whether the block's protection may have run tonight: its running flag said so, or a protect or
+    all-hands alert told the grower to start the block's own method (a flag can be wrong; a grower
     who was told to start must hear when to stop). Protection that never ran (no running flag and
     no such alert) gets no stop message in the morning, at most the night-over summary."""
     return state.ran_tonight or state.told_to_start
@@ -116,7 +128,7 @@ def _moved_earlier_min(plan: AdvicePlan, state: BlockAlertState) -> float:
     if plan.crossing_utc is None:
         return 0.0
     if state.announced_crossing_utc is None:
-        return float("inf")  # standby went out without a time; now there is one
+        return float("inf")  # ready went out without a time; now there is one
     return (state.announced_crossing_utc - plan.crossing_utc).total_seconds() / 60.0
 
 
@@ -184,7 +196,7 @@ def step(
         run.set(monitored_count=0, unmonitored_since_utc=since)
         if state.unmonitored_key is None and monitoring is not None and night.contains(now):
             run.send_unmonitored(dataclasses.replace(monitoring, since_utc=since))
-        return run.state, run.alerts  # no data: the frost rules hold (no outlook, no all-clear)
+        return run.state, run.alerts  # no data: the frost rules hold (no dusk message, no rest)
 
     back = False
     if state.unmonitored_key is not None:
@@ -206,56 +218,56 @@ def step(
 
 
 def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
-    """The dusk outlook, the morning stop, level rises, the all-clear and standby updates."""
+    """The dusk outlook, the morning stop, level rises, the rest and the ready updates."""
     plan, now, st = run.plan, run.now, run.state
     # the dusk outlook, once a night, for a monitored block only
     if not st.outlook_sent and now >= night.dusk_utc and plan.risk is not Risk.MORNING:
         run.set(outlook_sent=True)
-        if LEVELS[st.level] < LEVELS["frost-possible"]:
+        if LEVELS[st.level] < LEVELS[WAIT]:
             if plan.active:
-                run.send("frost-possible", step_for_level("frost-possible", plan), Notice.OUTLOOK)
-                run.set(level="frost-possible")
+                run.send(WAIT, step_for_level(WAIT, plan), Notice.OUTLOOK)
+                run.set(level=WAIT)
             else:
-                run.send("all-clear", Step.NOTHING, Notice.OUTLOOK)
+                run.send(REST, Step.NOTHING, Notice.OUTLOOK)
 
     st = run.state
     # morning: one safe-to-stop message where protection was called for
     if plan.risk is Risk.MORNING:
-        if st.level == "frost-possible":
-            run.set(level="all-clear")  # the night is over without a call to protect
-        elif LEVELS[st.level] >= LEVELS["standby"] and _morning_stop_ok(plan):
+        if st.level == WAIT:
+            run.set(level=REST)  # the night is over without a call to protect
+        elif LEVELS[st.level] >= LEVELS[READY] and _morning_stop_ok(plan):
             if plan.method is Method.NONE or not protection_ran(st):  # nothing ran: nothing to stop
-                run.send("all-clear", Step.NIGHT_OVER, Notice.NIGHT_OVER, resolves=st.last_key)
-                run.set(level="all-clear", candidate="all-clear", candidate_count=0)
+                run.send(REST, Step.NIGHT_OVER, Notice.NIGHT_OVER, resolves=st.last_key)
+                run.set(level=REST, candidate=REST, candidate_count=0)
             else:
-                run.send("safe-to-stop", Step.SAFE_TO_STOP, Notice.LEVEL, resolves=st.last_key)
-                run.set(level="safe-to-stop", candidate="safe-to-stop", candidate_count=0)
+                run.send(MAY_STOP, Step.SAFE_TO_STOP, Notice.LEVEL, resolves=st.last_key)
+                run.set(level=MAY_STOP, candidate=MAY_STOP, candidate_count=0)
         return
 
     wanted = wanted_level(plan, now)
-    if LEVELS[wanted] > LEVELS[st.level] and wanted != "all-clear":
+    if LEVELS[wanted] > LEVELS[st.level] and wanted != REST:
         count = st.candidate_count + 1 if LEVELS[st.candidate] >= LEVELS[wanted] else 1
         cand = wanted if LEVELS[wanted] >= LEVELS[st.candidate] or count == 1 else st.candidate
         run.set(candidate=cand, candidate_count=count, clear_count=0)
         if count >= PERSISTENCE[wanted]:
             run.send(wanted, step_for_level(wanted, plan), Notice.LEVEL)
             peak = wanted if LEVELS[wanted] > LEVELS[st.peak_level] else st.peak_level
-            told = st.told_to_start or (LEVELS[wanted] >= LEVELS["act"] and plan.advised)
+            told = st.told_to_start or (LEVELS[wanted] >= LEVELS[PROTECT] and plan.advised)
             run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak, told_to_start=told,
                     announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)
-    elif LEVELS[st.level] >= LEVELS["standby"] and _clear_enough(plan):
+    elif LEVELS[st.level] >= LEVELS[READY] and _clear_enough(plan):
         n = st.clear_count + 1
-        run.set(clear_count=n, candidate="all-clear", candidate_count=0)
+        run.set(clear_count=n, candidate=REST, candidate_count=0)
         if n >= CLEAR_PERSISTENCE:
-            run.send("all-clear", Step.NOTHING, Notice.RESOLVED, resolves=st.last_key)
-            run.set(level="all-clear", clear_count=0)
+            run.send(REST, Step.NOTHING, Notice.RESOLVED, resolves=st.last_key)
+            run.set(level=REST, clear_count=0)
     else:
-        run.set(clear_count=0, candidate=st.level if wanted == "all-clear" else st.candidate,
+        run.set(clear_count=0, candidate=st.level if wanted == REST else st.candidate,
                 candidate_count=st.candidate_count if LEVELS[wanted] > LEVELS[st.level] else 0)
-        _standby_update(run, settings)
+        _ready_update(run, settings)
 
 
-def _standby_update(run: _Run, settings: RuleSettings) -> None:
+def _ready_update(run: _Run, settings: RuleSettings) -> None:
     """One update when the crossing has moved earlier by more than the allowance (the block's
     mobilisation time or `update_earlier_min`, whichever is less) for two evaluations in a row.
 
@@ -264,7 +276,7 @@ def _standby_update(run: _Run, settings: RuleSettings) -> None:
     movement so far, not one per evaluation.
     """
     plan, st, now = run.plan, run.state, run.now
-    if st.level != "standby" or plan.step is not Step.GET_READY or plan.ready_by_utc is None or plan.ready_by_utc <= now:
+    if st.level != READY or plan.step is not Step.GET_READY or plan.ready_by_utc is None or plan.ready_by_utc <= now:
         run.set(update_count=0)
         return
     allowance = min(run.block.mobilisation_min, settings.update_earlier_min)
@@ -281,5 +293,5 @@ def _standby_update(run: _Run, settings: RuleSettings) -> None:
     previous = None
     if st.announced_crossing_utc is not None:
         previous = st.announced_crossing_utc - dt.timedelta(minutes=run.block.mobilisation_min)
-    run.send("standby", Step.GET_READY, Notice.UPDATE, kind="update", previous=previous)
+    run.send(READY, Step.GET_READY, Notice.UPDATE, kind="update", previous=previous)
     run.set(announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)

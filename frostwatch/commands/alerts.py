@@ -96,6 +96,7 @@ def night_alerts(store, cfg, night: dt.date) -> list[dict]:
 
 
 def cmd_alerts(args) -> int:
+    from frostwatch.advice.render import level_word
     from frostwatch.display import Display
     from frostwatch.night import evening_date
     from frostwatch.store import Store, from_ms
@@ -120,7 +121,7 @@ def cmd_alerts(args) -> int:
         print("  none")
     for a in items:
         t = dt.datetime.fromisoformat(a["time"].replace("Z", "+00:00"))
-        print(f"\n{d.time(t)}  [{a['level']} rank {a['rank']}] {a['message'].splitlines()[0] if a['message'] else ''}")
+        print(f"\n{d.time(t)}  [{level_word(a['level'])}] {a['message'].splitlines()[0] if a['message'] else ''}")
         print(f"    key {a['key']}  state {a['state']}")
         for x in a["deliveries"]:
             print(f"    -> {x['channel']}:{x['recipient']} #{x['seq']} {x['kind']}: {x['status']} after "

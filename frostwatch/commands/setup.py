@@ -31,14 +31,18 @@ def cmd_init(args) -> int:
 
 
 def cmd_check_config(args) -> int:
+    from frostwatch.alerts.config import load_alerts_config
     from frostwatch.config import effective_settings
 
     cfg = _load(args)
     eff = effective_settings(cfg)
+    deprecations = list(load_alerts_config(cfg).deprecations)
     if args.json:
-        _out_json(eff)
+        _out_json({**eff, "deprecations": deprecations})
         return 0
     print(f"{args.config}: ok ({len(cfg.blocks)} blocks, {len(cfg.stations)} stations)")
+    for text in deprecations:
+        print(f"  deprecated: {text}")
     for b in cfg.blocks:
         print(f"  block {b.id}: {b.crop}, {b.stage}: T10 {b.kill_10pct_c:.1f} °C, T90 {b.kill_90pct_c:.1f} °C "
               f"({b.critical_source}); protection {b.protection}, margin {b.margin_c:g} °C, mobilisation {b.mobilisation_min:g} min")

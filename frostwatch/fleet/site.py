@@ -14,7 +14,7 @@ Pure: no MQTT, no clock (times are passed in). Topics, under the site's `[broker
 
 A state payload (about 300 bytes) for the central view:
 
-    {"v": 1, "site": "cedar-bench", "block": "east", "level": "standby", "rank": 3,
+    {"v": 1, "site": "cedar-bench", "block": "east", "level": "ready", "rank": 3,
      "monitored": true, "as_of": "2027-04-15T09:12:00Z", "predicted_min_c": -1.2, "band_c": 0.8,
      "predicted_min_at": "...", "t10_crossing_at": "..." or null, "action": "...",
      "acknowledged": false or null, "reason": "..."}
@@ -251,7 +251,7 @@ def block_state_from_status_doc(doc: Mapping, rank: int, acknowledged: bool | No
     p = doc.get("projection") or {}
     monitored = bool(doc.get("monitored"))
     return {
-        "block": doc["block"], "level": doc.get("level") or "all-clear", "rank": rank, "monitored": monitored,
+        "block": doc["block"], "level": doc.get("level") or "rest", "rank": rank, "monitored": monitored,
         "as_of": doc.get("as_of"), "predicted_min_c": p.get("predicted_min_c"), "band_c": p.get("band_c"),
         "predicted_min_at": p.get("predicted_min_at"), "t10_crossing_at": p.get("t10_crossing_at"),
         "action": doc.get("action"), "acknowledged": acknowledged, "reason": None if monitored else doc.get("reason"),

@@ -196,5 +196,5 @@ def states_from_status_docs(docs: dict[str, dict], acked: dict[str, bool | None]
     from frostwatch.alerts.levels import rank_of
 
     return [fs.block_state_from_status_doc(d, d["rank"] if isinstance(d.get("rank"), int)
-                                           else rank_of(d.get("level") or "all-clear"), acked.get(b))
+                                           else rank_of(d.get("level") or "rest"), acked.get(b))
             for b, d in docs.items()]

@@ -12,7 +12,7 @@ raised. `snapshot(now_utc)` gives the contract document of `frostwatch fleet --j
 A site is reachable only while its heartbeat is fresh (younger than 2.5 of its intervals + 30 s),
 its publisher has not said "offline" (its will, or a clean stop) and its bridge has not said "0".
 Never green when blind: a site never heard from is unreachable. Sites come highest rank first,
-where an unreachable site or a block not monitored counts as BLIND_RANK (as urgent as "act").
+where an unreachable site or a block not monitored counts as BLIND_RANK (as urgent as "protect").
 """
 
 from __future__ import annotations
@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 from frostwatch.config import SITE_ID_RE
 from frostwatch.fleet.site import HEARTBEAT_VERSION, INFO_VERSION, STATE_VERSION, iso_utc, parse_utc
 
-BLIND_RANK = 4  # an unreachable site or an unmonitored block sorts with "act" (health level "unmonitored")
+BLIND_RANK = 4  # an unreachable site or an unmonitored block sorts with "protect" (health level "go-look")
 STALE_HEARTBEATS = 2.5  # heartbeats missed before a site is unreachable ...
 STALE_SLACK_S = 30.0  # ... plus this for a slow link
 CLOCK_AHEAD_S = 120.0  # a heartbeat stamped further ahead of our clock is reported

@@ -9,7 +9,7 @@ import html
 from frostwatch.advice.explain import SOURCES
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.advice.render import level_word
-from frostwatch.alerts.levels import ALL_LEVELS as LEVELS
+from frostwatch.alerts.levels import rank_of
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
@@ -34,7 +34,7 @@ e = html.escape
 
 
 def level_span(level: str) -> str:
-    return f'<span class="lvl lvl{LEVELS.get(level, 0)}">{e(level_word(level))}</span>'
+    return f'<span class="lvl lvl{rank_of(level)}">{e(level_word(level))}</span>'
 
 
 def coldest_first(sections):
@@ -168,7 +168,7 @@ def _alerts(data) -> str:
     for a in data.alerts:
         head = (a["message"] or a["advice"] or "").splitlines()[0] if (a["message"] or a["advice"]) else ""
         ack = _acks(data, a["key"])
-        if not ack and a["rank"] >= LEVELS["standby"]:
+        if not ack and a["rank"] >= rank_of("ready"):
             ack = '<span class="note">not acknowledged</span>'
         rows.append(f'<tr><td class="num">{d.time(from_ms(a["time_utc_ms"]))}</td><td>{e(a["block"])}</td>'
                     f"<td>{level_span(a['level'])}</td><td>{e(head)}</td><td>{_deliveries(data, a['key'])}</td>"

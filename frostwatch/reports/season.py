@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
-from frostwatch.alerts.rules import LEVELS
+from frostwatch.alerts.levels import level_name, rank_of
 from frostwatch.config import Config
 from frostwatch.display import Display
 from frostwatch.errors import UsageError
@@ -72,8 +72,8 @@ def season_summary(cfg: Config, store: Store, year: int) -> Season:
         end = night.sunrise_utc + dt.timedelta(hours=6)
         series = store.readings_window(night.sunset_utc - LOOKBACK, end)
         alerts = store.alerts(night.sunset_utc - dt.timedelta(hours=2), end)
-        levels.update(a["level"] for a in alerts)
-        if any(a["rank"] >= LEVELS["act"] for a in alerts):
+        levels.update(level_name(a["level"]) for a in alerts)
+        if any(a["rank"] >= rank_of("protect") for a in alerts):
             act_nights += 1
         acks = q.acks_for(store, [a["key"] for a in alerts])
         ran = False
@@ -91,7 +91,7 @@ def season_summary(cfg: Config, store: Store, year: int) -> Season:
                 "below_t10": bool(bn.min_c is not None and bn.min_c <= bn.kill_10pct_c),
                 "dusk_forecast_c": None if dusk_c is None else round(dusk_c, 2),
                 "forecast_error_c": None if (dusk_c is None or bn.min_c is None) else round(dusk_c - bn.min_c, 2),
-                "max_alert": max((a["level"] for a in alerts if a["block"] == b.id), key=lambda lv: LEVELS.get(lv, 0),
+                "max_alert": max((level_name(a["level"]) for a in alerts if a["block"] == b.id), key=rank_of,
                                  default=""),
                 "protection_hours": round(bn.run_hours, 2),
                 "water_m3": None if bn.water_m3 is None else round(bn.water_m3, 1),
@@ -151,7 +151,7 @@ def _m3(v: float | None, d: Display) -> str:
 
 def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
     d = Display(cfg.site.display_unit, cfg.site.tz)
-    lv = sorted(s.alerts_per_level.items(), key=lambda kv: -LEVELS.get(kv[0], 0))
+    lv = sorted(s.alerts_per_level.items(), key=lambda kv: -rank_of(kv[0]))
     lv_rows = "".join(f"<tr><td>{level_span(k)}</td><td class='num'>{n}</td></tr>" for k, n in lv) or \
         "<tr><td colspan=2>no alerts</td></tr>"
     t_rows = "".join(
@@ -175,7 +175,7 @@ def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
 <title>{e(cfg.site.name)}: frost season {s.year}</title><style>{PAGE_CSS}</style></head><body>
 <h1>{e(cfg.site.name)}: frost season {s.year}</h1>
 <table class="kv" id="season"><tr><th>nights recorded</th><td>{len(s.nights)} ({s.nights[0]} to {s.nights[-1]})</td></tr>
-<tr><th>nights with an act or critical alert</th><td>{s.alert_nights_act}</td></tr>
+<tr><th>nights with a protect or all-hands alert</th><td>{s.alert_nights_act}</td></tr>
 <tr><th>nights protection ran (acted on)</th><td>{s.nights_acted_on}</td></tr></table>
 <h2>Alerts per level</h2><table id="levels"><tr><th>level</th><th>alerts</th></tr>{lv_rows}</table>
 <h2>Per block</h2>

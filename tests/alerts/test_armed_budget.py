@@ -42,8 +42,8 @@ def test_dusk_check_says_degraded_and_why_then_armed(tmp_path):
             box.deliver_due(now, wait=True)
             alerts = store.alerts(now - dt.timedelta(1), now + dt.timedelta(1))
             # one dusk message; the broken command channel also tells the maintainer, once
-            assert sorted(a["level"] for a in alerts) == ["degraded", "sensor-trouble"]
-            assert smtp.messages and "DEGRADED" in smtp.messages[0]["Subject"]
+            assert sorted(a["level"] for a in alerts) == ["check", "fix"]
+            assert smtp.messages and "CHECK before tonight" in smtp.messages[0]["Subject"]
             box.close()
     finally:
         smtp.stop()

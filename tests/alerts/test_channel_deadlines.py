@@ -22,9 +22,9 @@ from frostwatch.store import outbox as ob
 PEOPLE = [{"name": "ana", "roles": ["grower", "maintainer"], "email": "ana@example.org", "phone": "+15550101"}]
 
 
-def _alert(i: int, level: str = "act") -> Alert:
+def _alert(i: int, level: str = "protect") -> Alert:
     return Alert(time_utc=T0, block="east", level=level, rank=4, advice="start the wind machines",
-                 message=f"east: ACT NOW {i}", key=f"east/2027-04-14/{i:03d}-{level}")
+                 message=f"east: PROTECT {i}", key=f"east/2027-04-14/{i:03d}-{level}")
 
 
 class RawHttp:

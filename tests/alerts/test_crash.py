@@ -29,7 +29,7 @@ CHILD = textwrap.dedent("""
     box = Outbox(store, cfg)
     t0 = dt.datetime(2027, 4, 15, 9, 0, tzinfo=dt.UTC)
     if sys.argv[2] == "submit":
-        box.submit([Alert(t0, "east", "act", 4, "start", f"east: ACT {i}", f"east/2027-04-14/{i:03d}-act")
+        box.submit([Alert(t0, "east", "protect", 4, "start", f"east: ACT {i}", f"east/2027-04-14/{i:03d}-act")
                     for i in range(int(sys.argv[3]))], t0)
     for step in range(400):
         box.deliver_due(t0 + dt.timedelta(seconds=step), wait=True)

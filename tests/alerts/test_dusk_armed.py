@@ -16,10 +16,10 @@ PEOPLE = [{"name": "ana", "roles": ["grower", "maintainer"], "email": "ana@examp
 
 def test_dusk_job_sends_one_armed_message_per_night_through_the_outbox(tmp_path):
     """Pass: ticking the daemon's Core through a night's dusk (sunset + 2 h) with every sensor
-    fresh and a working mail channel queues exactly one "armed" alert for that night (key
+    fresh and a working mail channel queues exactly one "all-set" alert for that night (key
     farm/<night>/armed-check), the outbox delivers it to the SMTP server, and further ticks the
     same night add no second one; a sensor left silent the next night makes that night's message
-    "degraded" and names the sensor."""
+    "check" and names the sensor."""
     smtp = SmtpServer().start()
     try:
         channels = [{"name": "mail", "type": "email", "host": "127.0.0.1", "port": smtp.port, "tls": "none",
@@ -47,11 +47,11 @@ def test_dusk_job_sends_one_armed_message_per_night_through_the_outbox(tmp_path)
             box.deliver_due(t, wait=True)
             alerts = [a for a in store.alerts(t - dt.timedelta(days=3), t) if a["key"].endswith("armed-check")]
             assert [a["key"] for a in alerts] == keys
-            assert alerts[0]["level"] == "armed", alerts[0]["message"]
-            assert alerts[1]["level"] == "degraded" and cfg.stations[0].id in alerts[1]["message"]
+            assert alerts[0]["level"] == "all-set", alerts[0]["message"]
+            assert alerts[1]["level"] == "check" and cfg.stations[0].id in alerts[1]["message"]
             assert core.job_runs["dusk"] == 2
             subjects = [m["Subject"] for m in smtp.messages]
-            assert any("armed for tonight" in s for s in subjects), subjects
+            assert any("ALL SET for tonight" in s for s in subjects), subjects
             box.close()
     finally:
         smtp.stop()

@@ -65,23 +65,23 @@ def _night(wind: float, running: bool | None):
 def test_fans_never_advised_and_never_running_get_no_stop_message():
     alerts, state, plan = _night(wind=5.0, running=False)
     levels = [a.level for a in alerts]
-    assert "act" in levels and "safe-to-stop" not in levels
-    assert alerts[-1].level == "all-clear" and "night is over" in alerts[-1].message
+    assert "protect" in levels and "may-stop" not in levels
+    assert alerts[-1].level == "rest" and "night is over" in alerts[-1].message
     assert "may stop" not in alerts[-1].message and "wind machines" not in alerts[-1].message.splitlines()[0]
     assert not protection_ran(state)
     # and the screens never tell the grower to keep never-started machines running
-    assert step_for_level("act", plan, ran=False) in (Step.NIGHT_OVER, Step.NOTHING)
+    assert step_for_level("protect", plan, ran=False) in (Step.NIGHT_OVER, Step.NOTHING)
 
 
 def test_fans_advised_to_start_get_their_stop_message_even_without_a_running_flag():
     alerts, state, _ = _night(wind=0.5, running=None)
-    assert [a.level for a in alerts][-1] == "safe-to-stop"
+    assert [a.level for a in alerts][-1] == "may-stop"
     assert "the wind machines may stop" in alerts[-1].message and protection_ran(state)
 
 
 def test_a_running_flag_means_it_ran_even_when_not_advised():
     alerts, state, _ = _night(wind=5.0, running=True)
-    assert protection_ran(state) and alerts[-1].level == "safe-to-stop"
+    assert protection_ran(state) and alerts[-1].level == "may-stop"
 
 
 def test_the_demo_windy_night_has_no_safe_to_stop(tmp_path, demo_config, demo_logs):
@@ -89,7 +89,7 @@ def test_the_demo_windy_night_has_no_safe_to_stop(tmp_path, demo_config, demo_lo
                         "--json", "--no-report"], capture_output=True, text=True, timeout=600)
     assert p.returncode == 0, p.stderr[-2000:]
     alerts = json.loads(p.stdout)["alerts"]
-    assert any(a["level"] == "act" for a in alerts)
-    assert not any(a["level"] == "safe-to-stop" for a in alerts)
+    assert any(a["level"] == "protect" for a in alerts)
+    assert not any(a["level"] == "may-stop" for a in alerts)
     mornings = [a for a in alerts if "night is over" in a["message"]]
     assert {a["block"] for a in mornings} >= {"east", "river"}

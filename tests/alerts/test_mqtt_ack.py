@@ -54,7 +54,7 @@ def test_mqtt_ack_takes_only_a_signed_token_or_a_contacts_secret_and_refuses_for
     with Store.open(cfg.storage.path) as store:
         box = Outbox(store, cfg)
         keys = [f"east/{now.date()}/00{i}-act" for i in range(4)]
-        box.submit([Alert(time_utc=now, block=f"b{i}", level="act", rank=4, advice="start", message=f"act {k}", key=k)
+        box.submit([Alert(time_utc=now, block=f"b{i}", level="protect", rank=4, advice="start", message=f"act {k}", key=k)
                     for i, k in enumerate(keys)], now)
         secret = acks.install_secret(store, cfg)
         token = acks.ack_link_token(secret, keys[1], "ana", issued_utc=now)
@@ -128,7 +128,7 @@ def test_mqtt_ack_takes_the_messages_code_once(tmp_path, mosquitto):
     with Store.open(cfg.storage.path) as store:
         box = Outbox(store, cfg)
         keys = [f"east/{now.date()}/00{i}-act" for i in range(2)]
-        box.submit([Alert(time_utc=now, block=f"b{i}", level="act", rank=4, advice="start", message=f"act {k}", key=k)
+        box.submit([Alert(time_utc=now, block=f"b{i}", level="protect", rank=4, advice="start", message=f"act {k}", key=k)
                     for i, k in enumerate(keys)], now)
         box.deliver_due(now, wait=True)
         codes = [store.conn.execute("SELECT code FROM ack_codes WHERE alert_key=?", (k,)).fetchone()[0] for k in keys]

@@ -26,7 +26,7 @@ PEOPLE = [
 ]
 
 
-def act_alert(t=T0, key="east/2027-04-14/003-act", level="act", rank=4, resolves=None):
+def act_alert(t=T0, key="east/2027-04-14/003-act", level="protect", rank=4, resolves=None):
     return Alert(time_utc=t, block="east", level=level, rank=rank, advice="start the wind machines",
                  message=f"east: {level.upper()}: start protection\nmore", key=key, resolves=resolves)
 
@@ -92,7 +92,7 @@ def test_resolved_goes_once_to_everyone_told(tmp_path):
         box.submit([a], T0)
         for minute in range(0, 20):
             box.deliver_due(T0 + dt.timedelta(minutes=minute), wait=True)
-        r = act_alert(T0 + dt.timedelta(minutes=20), "east/2027-04-14/004-all-clear", "all-clear", 0, resolves=a.key)
+        r = act_alert(T0 + dt.timedelta(minutes=20), "east/2027-04-14/004-all-clear", "rest", 0, resolves=a.key)
         box.submit([r, r], T0 + dt.timedelta(minutes=20))
         for minute in range(20, 60):
             box.deliver_due(T0 + dt.timedelta(minutes=minute), wait=True)
@@ -260,7 +260,7 @@ def test_health_alert_raises_once_and_recovers_once(tmp_path):
         k2 = box.submit_health("sensor east-low silent", "recovered (no reading no longer)", T0)
         assert box.submit_health("sensor east-low silent", "recovered (no reading no longer)", T0) == k1
         rows = store.alerts(T0 - dt.timedelta(1), T0 + dt.timedelta(1))
-        assert [(r["level"], r["resolves"]) for r in rows] == [("sensor-trouble", None), ("all-clear", k1)]
+        assert [(r["level"], r["resolves"]) for r in rows] == [("fix", None), ("rest", k1)]
         assert k2 != k1
         u = box.submit_health("no healthy sensor in east", "every sensor silent", T0, urgent=True)
         assert ob.state_of(store, u)["state"] == "firing"  # unmonitored repeats until acknowledged

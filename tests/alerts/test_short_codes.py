@@ -91,7 +91,7 @@ def test_every_level_short_body_fits_with_any_prefix_and_code(protection, unit):
     for air, pmin, running in ((1.0, -3.5, None), (-2.5, -3.5, True), (3.0, 0.3, None), (-3.0, -4.0, None)):
         p = _projection(air_temp_c=air, predicted_min_c=pmin)
         plan = plan_advice(p, b, NOW, protection_running=running)
-        for level in [*LEVELS, "unmonitored"]:
+        for level in [*LEVELS, "go-look"]:
             for notice in (Notice.LEVEL, Notice.OUTLOOK, Notice.RESOLVED, Notice.UPDATE, Notice.MONITORED_AGAIN):
                 body = short_body(b.id, level, step_for_level(level, plan), plan, d, notice, NOW)
                 assert septets(body) <= BODY_SEPTETS and is_gsm7(body), body
@@ -139,14 +139,14 @@ def test_every_demo_and_scenario_alert_has_a_short_form_of_160_gsm7_characters_w
         m = CODE_TAIL.search(s)
         assert m, (a["key"], s)  # the acknowledgement code
         assert s.startswith(f"{a['block']} {words[a['level']]}"), (a["key"], s)  # block and action word
-        if a["level"] == "unmonitored":
+        if a["level"] == "go-look":
             assert re.search(r"since \d\d:\d\d", s) and re.search(TEMP, s), s
             continue
         temps = re.findall(TEMP, s)
         # the temperature now and the trigger (one number where the two read the same: "has just passed")
         assert len(temps) >= 2 or "has just passed" in s, (a["key"], s)
         assert " now" in s or "has just passed" in s, (a["key"], s)
-        if LEVELS[a["level"]] >= LEVELS["standby"] and "eased" not in s:
+        if LEVELS[a["level"]] >= LEVELS["ready"] and "eased" not in s:
             assert re.search(r"(by \d\d:\d\d|now)", s), (a["key"], s)  # by when
 
 
@@ -173,9 +173,9 @@ def _box(tmp_path, channels=None):
     return cfg, store, Outbox(store, cfg)
 
 
-def _alert(now, key="east/2027-04-14/001-act", level="act"):
+def _alert(now, key="east/2027-04-14/001-act", level="protect"):
     return Alert(time_utc=now, block="east", level=level, rank=LEVELS[level], advice="start the wind machines now",
-                 message="east: ACT NOW: start the wind machines\nAdvice: start the wind machines now.", key=key,
+                 message="east: PROTECT: start the wind machines\nAdvice: start the wind machines now.", key=key,
                  short="east START: start wind machines now. Air 0.7C now, may reach -0.2C by 22:55.")
 
 
@@ -193,7 +193,7 @@ def test_webhook_sends_the_short_form_by_default_and_the_long_one_on_request(tmp
         assert sent["to"] == "+1 555 0100" and septets(sent["text"]) <= 160 and is_gsm7(sent["text"])
         assert sent["text"].endswith(f"Ack: reply {sent['code']}") and ackcodes.looks_like_code(sent["code"])
         (long_form,) = web.json_bodies()
-        assert long_form["message"].startswith("east: ACT NOW") and "Advice:" in long_form["message"]
+        assert long_form["message"].startswith("east: PROTECT") and "Advice:" in long_form["message"]
         store.close()
     finally:
         sms.stop()
@@ -246,7 +246,7 @@ def test_a_code_acknowledges_once_by_cli_and_the_state_says_so(tmp_path):
 def test_code_limits_expiry_and_the_phone_it_was_sent_to(tmp_path):
     cfg, store, box = _box(tmp_path)
     now = dt.datetime.now(UTC)
-    a, b = _alert(now), _alert(now, key="east/2027-04-14/002-critical", level="critical")
+    a, b = _alert(now), _alert(now, key="east/2027-04-14/002-critical", level="all-hands")
     box.submit([a, b], now)
     ca = ackcodes.code_for_delivery(store, a.key, "sms", "ana", 0, now)
     cb = ackcodes.code_for_delivery(store, b.key, "sms", "ana", 0, now, ttl_s=60)
@@ -298,7 +298,7 @@ def test_email_keeps_the_long_form_and_names_the_code():
     from frostwatch.alerts.channels.email import build
 
     ch = dataclasses.make_dataclass("Ch", ["options"])({"from": "fw@example.org"})
-    msg = OutMessage(idem_key="k:0", alert_key="k", seq=0, level="act", rank=4, block="east", title="east: ACT NOW",
-                     body="east: ACT NOW\nAdvice: start.", short="east START: x. Ack: reply K7QM4X", code="K7QM4X")
+    msg = OutMessage(idem_key="k:0", alert_key="k", seq=0, level="protect", rank=4, block="east", title="east: PROTECT",
+                     body="east: PROTECT\nAdvice: start.", short="east START: x. Ack: reply K7QM4X", code="K7QM4X")
     text = build(ch, msg, "ana@example.org").get_content()
     assert "Advice: start." in text and "K7QM4X" in text and "frostwatch ack K7QM4X" in text

@@ -52,10 +52,10 @@ def _every(start, n, minutes=2):
 def test_no_data_at_night_is_one_unmonitored_alert_and_never_an_all_clear():
     times = _every(SUNSET + dt.timedelta(hours=3), 10)  # after the dusk point
     state, alerts = _run(times, [BLIND] * 10)
-    assert [(a.level, a.rank) for a in alerts] == [("unmonitored", 4)]
+    assert [(a.level, a.rank) for a in alerts] == [("go-look", 4)]
     a = alerts[0]
-    assert a.message.startswith("east: NOT MONITORED since 22:45: no reading at all from its crop-height sensor")
-    assert "n/a" not in a.message and "all-clear" not in a.message and "outlook" not in a.message
+    assert a.message.startswith("east: GO LOOK: NOT MONITORED since 22:45: no reading at all from its crop-height sensor")
+    assert "n/a" not in a.message and "REST" not in a.message and "outlook" not in a.message
     assert not state.outlook_sent and state.unmonitored_key == a.key
 
 
@@ -63,7 +63,7 @@ def test_stale_data_says_since_the_last_reading():
     last = SUNSET + dt.timedelta(hours=1)
     stale = Monitoring(False, MonitorReason.SILENT, ("east-low",), last, last)
     _, alerts = _run([SUNSET + dt.timedelta(hours=4)], [stale])
-    assert alerts[0].message.startswith("east: NOT MONITORED since 20:45: no reading from its crop-height sensor "
+    assert alerts[0].message.startswith("east: GO LOOK: NOT MONITORED since 20:45: no reading from its crop-height sensor "
                                         "(east-low) since 20:45 (3.0 h ago)")
 
 
@@ -80,7 +80,7 @@ def test_monitored_again_after_two_evaluations_once_then_the_outlook():
     levels = [(a.level, a.resolves is not None) for a in alerts]
     # the dusk outlook comes with the first watched evaluation; the second one closes the
     # unmonitored alert (attached to no other message: its own "monitored again")
-    assert levels == [("unmonitored", False), ("all-clear", False), ("all-clear", True)], [a.message for a in alerts]
+    assert levels == [("go-look", False), ("rest", False), ("rest", True)], [a.message for a in alerts]
     assert alerts[2].message.startswith("east: monitored again;") and alerts[2].resolves == alerts[0].key
     assert state.unmonitored_key is None
 
@@ -91,10 +91,10 @@ def test_an_unmonitored_alert_goes_the_way_of_act_unless_routed_itself(tmp_path)
            "stations": [{"id": "east-low", "block": "east", "height_m": 1.5}],
            "storage": {"path": str(tmp_path / "x.db")},
            "channels": [{"name": "log", "type": "console"}, {"name": "siren", "type": "mqtt", "topic": "s"}],
-           "alerts": {"route": {"default": ["log"], "act": ["log", "siren"]}}}
+           "alerts": {"route": {"default": ["log"], "protect": ["log", "siren"]}}}
     ac = load_alerts_config(config_from_dict(raw, tmp_path / "x.toml"))
-    assert [c.name for c in ac.channels_for("unmonitored")] == ["log", "siren"]
-    assert [c.name for c in ac.channels_for("standby")] == ["log"]
-    raw["alerts"]["route"]["unmonitored"] = ["log"]
+    assert [c.name for c in ac.channels_for("go-look")] == ["log", "siren"]
+    assert [c.name for c in ac.channels_for("ready")] == ["log"]
+    raw["alerts"]["route"]["go-look"] = ["log"]
     ac = load_alerts_config(config_from_dict(raw, tmp_path / "x.toml"))
-    assert [c.name for c in ac.channels_for("unmonitored")] == ["log"]
+    assert [c.name for c in ac.channels_for("go-look")] == ["log"]

@@ -73,10 +73,10 @@ def test_a_crossing_moved_earlier_once_sends_exactly_one_update_with_the_new_rea
     # projected 45 min earlier, and stays there (with a little jitter)
     crossings = [240] * 4 + [195, 196, 194, 195, 197, 195] * 5
     _, alerts = _night(crossings)
-    assert [a.level for a in alerts if a.kind == "alert"][:2] == ["frost-possible", "standby"]
+    assert [a.level for a in alerts if a.kind == "alert"][:2] == ["wait", "ready"]
     (u,) = _updates(alerts)
-    assert u.level == "standby" and u.rank == 3 and u.key.endswith("-standby-update")
-    assert u.message.startswith("east: UPDATE: STANDBY: get ready by 01:") and "(was 02:15)" in u.message
+    assert u.level == "ready" and u.rank == 3 and u.key.endswith("-ready-update")
+    assert u.message.startswith("east: UPDATE: READY: get ready by 01:") and "(was 02:15)" in u.message
     assert u.advice.startswith("get the wind machines ready by 01:")
     assert not re.search(r"\bstart\b", u.message, re.I)
 
@@ -133,7 +133,7 @@ def test_updates_count_against_the_budget_and_a_newer_one_replaces_one_waiting(t
     cfg = make_cfg(tmp_path, {"budget_per_hour": 2, "roster": [{"blocks": ["*"], "order": ["ana"]}]}, people,
                    [{"name": "log", "type": "console", "address": "email"}])
     t = T0
-    mk = lambda k, kind, minutes: Alert(t + dt.timedelta(minutes=minutes), "east", "standby", 3, "get ready",  # noqa: E731
+    mk = lambda k, kind, minutes: Alert(t + dt.timedelta(minutes=minutes), "east", "ready", 3, "get ready",  # noqa: E731
                                         f"east: {k}", f"east/2027-04-14/{k}", kind=kind)
     with Store.open(cfg.storage.path) as store:
         box = Outbox(store, cfg)

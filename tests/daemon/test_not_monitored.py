@@ -56,10 +56,10 @@ def _rows(db, sql, args=()):
 def _assert_blind_page(page: StatusPageProc, tmp_path, name: str, reason: str) -> dict:
     """Every block NOT MONITORED on the page, in its JSON and in Chromium's DOM; never green."""
     doc = json.loads(page.get("status.json"))
-    assert [(b["level"], b["rank"], b["monitored"]) for b in doc["blocks"]] == [("unmonitored", 4, False)] * 3, doc
+    assert [(b["level"], b["rank"], b["monitored"]) for b in doc["blocks"]] == [("go-look", 4, False)] * 3, doc
     for b in doc["blocks"]:
         assert re.search(reason, b["reason"]), b["reason"]
-        assert b["headline"].startswith(f"{b['block']}: NOT MONITORED")
+        assert b["headline"].startswith(f"{b['block']}: GO LOOK: NOT MONITORED")
     dom, shots = chromium_page(page.url, tmp_path, name)
     cards = re.findall(r'<section class="card ([^"]*)"[^>]*data-monitored="(\w+)"', dom)
     assert len(cards) == 3 and all(cls == "unmonitored" and m == "false" for cls, m in cards), cards
@@ -82,16 +82,16 @@ def test_an_empty_store_is_not_monitored_and_the_daemon_says_so_at_night(tmp_pat
         doc = _assert_blind_page(page, tmp_path, "empty-store-no-daemon", "never run")
         assert doc["daemon_alive"] is False and doc["data_as_of"] is None
         daemon.start()
-        assert wait_until(lambda: len(_rows(db, "SELECT DISTINCT block FROM alerts WHERE level='unmonitored'")) == 3, 60), \
+        assert wait_until(lambda: len(_rows(db, "SELECT DISTINCT block FROM alerts WHERE level='go-look'")) == 3, 60), \
             daemon.log_text()
         time.sleep(0.5)
         alerts = _rows(db, "SELECT block, level, message FROM alerts")
-        assert {(b, lvl) for b, lvl, _ in alerts if b != "farm"} == {(b, "unmonitored") for b in ("east", "river", "hill")}
-        assert not [m for _, lvl, m in alerts if lvl == "all-clear"]  # never an all-clear for a block with no data
+        assert {(b, lvl) for b, lvl, _ in alerts if b != "farm"} == {(b, "go-look") for b in ("east", "river", "hill")}
+        assert not [m for _, lvl, m in alerts if lvl == "rest"]  # never an all-clear for a block with no data
         for _, _, message in alerts:
             assert "n/a" not in message
         east = next(m for b, lvl, m in alerts if b == "east")
-        assert east.startswith("east: NOT MONITORED since ") and "no reading at all from its crop-height sensor" in east
+        assert east.startswith("east: GO LOOK: NOT MONITORED since ") and "no reading at all from its crop-height sensor" in east
         # the page keeps what it computed for CACHE_S (20 s): wait for it to see the daemon
         assert wait_until(lambda: json.loads(page.get("status.json"))["daemon_alive"], 40, step_s=1.0)
         doc = _assert_blind_page(page, tmp_path, "empty-store-daemon-running", "no reading at all")
@@ -124,8 +124,8 @@ def test_readings_three_hours_old_are_not_monitored_since_the_last_one(tmp_path,
         doc = _assert_blind_page(page, tmp_path, "readings-3h-old", rf"since {local} \(3\.0 h ago\)")
         assert doc["daemon_alive"] is True
         assert all(b["since"] == last.isoformat().replace("+00:00", "Z") for b in doc["blocks"])
-        assert wait_until(lambda: len(_rows(cfg.storage.path, "SELECT block FROM alerts WHERE level='unmonitored'")) == 3, 30)
-        assert not _rows(cfg.storage.path, "SELECT key FROM alerts WHERE level='all-clear'")
+        assert wait_until(lambda: len(_rows(cfg.storage.path, "SELECT block FROM alerts WHERE level='go-look'")) == 3, 30)
+        assert not _rows(cfg.storage.path, "SELECT key FROM alerts WHERE level='rest'")
     finally:
         page.stop()
         if daemon.alive():

@@ -68,7 +68,7 @@ def test_page_status_alert_and_report_show_the_same_decision(tmp_path, mosquitto
         publish_all(pub, crop_history_msgs({"east-low": [(t, 1.0) for t in times]}, quantity="wind_machine_running"))
         # the cold reading comes last: at or below T10 with the wind machines running
         publish_all(pub, crop_history_msgs({"east-low": [(now - dt.timedelta(seconds=5), -2.6)]}))
-        crit = "SELECT key, time_utc_ms, level, advice, message FROM alerts WHERE block='east' AND level='critical'"
+        crit = "SELECT key, time_utc_ms, level, advice, message FROM alerts WHERE block='east' AND level='all-hands'"
         assert wait_until(lambda: _rows(db, crit), 60), daemon.log_text()
         daemon.proc.send_signal(signal.SIGSTOP)  # freeze it: this evaluation stays the newest
         key, t_ms, level, advice, message = _rows(db, crit)[0]
@@ -88,7 +88,7 @@ def test_page_status_alert_and_report_show_the_same_decision(tmp_path, mosquitto
         east = next(b for b in doc["blocks"] if b["block"] == "east")
         # the page and the command agree
         assert without_ages(east) == without_ages(next(b for b in status["blocks"] if b["block"] == "east"))
-        assert (east["level"], east["rank"], east["monitored"]) == ("critical", 5, True), json.dumps(east, indent=1)
+        assert (east["level"], east["rank"], east["monitored"]) == ("all-hands", 5, True), json.dumps(east, indent=1)
         assert east["as_of"] == alert_time.isoformat().replace("+00:00", "Z")  # the alert's own evaluation
         assert east["action"] == advice and east["headline"] == message.splitlines()[0]
         assert f"Advice: {advice}." in message
@@ -100,12 +100,12 @@ def test_page_status_alert_and_report_show_the_same_decision(tmp_path, mosquitto
             assert "start the wind machines" not in text
 
         card = body.split('id="block-east"', 1)[1].split("</section>", 1)[0]
-        assert 'data-level="critical"' in card and 'data-monitored="true"' in card
+        assert 'data-level="all-hands"' in card and 'data-monitored="true"' in card
         assert html.escape(advice) in card and html.escape(east["headline"]) in card
         assert f"<b>{d.temp(proj['predicted_min_c'])}</b>" in card
         for other in ("river", "hill"):
             b = next(x for x in doc["blocks"] if x["block"] == other)
-            assert b["monitored"] is True and b["level"] != "unmonitored"
+            assert b["monitored"] is True and b["level"] != "go-look"
 
         night = dt.datetime.fromisoformat(east["as_of"].replace("Z", "+00:00")).astimezone(cfg.site.tz)
         evening = (night - dt.timedelta(hours=12)).date().isoformat()
@@ -114,10 +114,10 @@ def test_page_status_alert_and_report_show_the_same_decision(tmp_path, mosquitto
         assert p.returncode == 0, p.stderr
         report = (out / f"night-{evening}.html").read_text(encoding="utf-8")
         table = report.split('id="decisions"', 1)[1].split("</table>", 1)[0]
-        row = next(r for r in table.split("<tr>") if f">{d.time(alert_time)}<" in r and ">east<" in r and "critical" in r)
+        row = next(r for r in table.split("<tr>") if f">{d.time(alert_time)}<" in r and ">east<" in r and "ALL HANDS" in r)
         assert html.escape(advice) in row
         record = json.loads((out / f"night-{evening}.json").read_text())
-        assert {"time": east["as_of"], "level": "critical"}.items() <= next(
+        assert {"time": east["as_of"], "level": "all-hands"}.items() <= next(
             x for x in record["decisions"] if x["block"] == "east" and x["time"] == east["as_of"]).items()
         assert "start the wind machines" not in report
     finally:

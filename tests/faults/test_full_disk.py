@@ -74,7 +74,7 @@ def test_full_disk_clear_error_alerts_still_delivered_writes_resume(small_fs, tm
                 store.add_readings(_readings(20_000 + k, 1), "mqtt")
             except StoreError:
                 break
-        a = Alert(T0, "east", "act", 4, "start the wind machines", "east: ACT: start protection",
+        a = Alert(T0, "east", "protect", 4, "start the wind machines", "east: ACT: start protection",
                   "east/2027-04-14/001-act")
         box.submit([a], T0)  # must not raise
         assert out.exists() and "east: ACT" in out.read_text(), "the alert did not reach a local channel"

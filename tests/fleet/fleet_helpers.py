@@ -32,7 +32,7 @@ def free_port() -> int:
         s.bind(("127.0.0.1", 0))
         return s.getsockname()[1]
 
-LEVELS = [("all-clear", 0), ("frost-possible", 2), ("standby", 3), ("act", 4), ("critical", 5)]
+LEVELS = [("rest", 0), ("wait", 2), ("ready", 3), ("protect", 4), ("all-hands", 5)]
 
 
 class Recorder:

@@ -103,7 +103,7 @@ def site_config(tmp: Path, port: int) -> Path:
 
 def block_state(block: str, step: int, as_of: dt.datetime) -> dict:
     """Step k of a night getting colder: the projection drops 1 degC a step, the level climbs."""
-    levels = [("all-clear", 0), ("frost-possible", 2), ("standby", 3), ("act", 4), ("critical", 5)]
+    levels = [("rest", 0), ("wait", 2), ("ready", 3), ("protect", 4), ("all-hands", 5)]
     level, rank = levels[min(step // 2, len(levels) - 1)]
     return {"block": block, "level": level, "rank": rank, "monitored": True, "as_of": as_of,
             "predicted_min_c": 3.0 - step, "band_c": 1.0, "predicted_min_at": as_of + dt.timedelta(hours=4),
@@ -153,7 +153,7 @@ def test_states_cross_the_bridge_and_survive_an_outage_in_order(net, tmp_path):
         doc = fleet_json(central.port, *view_args)
         (s,) = doc["sites"]
         assert s["site"] == SITE and s["reachable"] is True and s["name"] == "Cedar Bench Orchard"
-        assert {b["block"]: b["level"] for b in s["blocks"]} == dict.fromkeys(blocks, "all-clear")
+        assert {b["block"]: b["level"] for b in s["blocks"]} == dict.fromkeys(blocks, "rest")
 
         # -- the link goes down: the central broker stops --------------------------------------
         central.stop()
@@ -164,14 +164,14 @@ def test_states_cross_the_bridge_and_survive_an_outage_in_order(net, tmp_path):
             from frostwatch.alerts.outbox import Outbox
 
             now = dt.datetime.now(dt.UTC)
-            Outbox(store, cfg).submit([Alert(now, "east", "act", 4, "start the wind machines now",
+            Outbox(store, cfg).submit([Alert(now, "east", "protect", 4, "start the wind machines now",
                                              "east: start the wind machines now", "bridge-test/act-east")], now)
         finally:
             store.close()
         # (the daemon may have sent its own alerts first: at night, blocks with no data yet are
         # `unmonitored`, routed like act)
         def act_on_siren() -> bool:
-            return any(json.loads(m[1]).get("level") == "act" for m in list(siren.msgs))
+            return any(json.loads(m[1]).get("level") == "protect" for m in list(siren.msgs))
 
         assert wait_until(act_on_siren, min(30.0, OUTAGE_S)), daemon.log_text()[-3000:]
         siren_s = time.monotonic() - outage_start
@@ -217,13 +217,13 @@ def test_states_cross_the_bridge_and_survive_an_outage_in_order(net, tmp_path):
             assert e not in seen, f"an older state came after a newer one: {[x['action'] for x in after]}"
             seen.append(e)
         seen.append(newest)
-        assert [e["level"] for e in seen][-1] == "critical"
+        assert [e["level"] for e in seen][-1] == "all-hands"
 
         doc = fleet_json(central.port, *view_args)
         (s,) = doc["sites"]
         assert s["reachable"] is True
         b = {x["block"]: x for x in s["blocks"]}
-        assert b["east"]["level"] == "critical" and b["east"]["predicted_min_c"] == 3.0 - steps
+        assert b["east"]["level"] == "all-hands" and b["east"]["predicted_min_c"] == 3.0 - steps
         assert [x["block"] for x in s["blocks"]][0] == "east"  # highest rank first
         print(f"\nbridge outage {outage_s:.0f} s: {len(seen)} east changes after it, in order "
               f"({len(after)} messages with the bridge's re-sent copies); "

@@ -90,7 +90,7 @@ def test_a_site_whose_connection_dies_is_shown_unreachable(sites, mosquitto):
 
 def test_a_site_whose_heartbeat_is_stale_is_unreachable_without_a_will(mosquitto):
     old = dt.datetime.now(dt.UTC) - dt.timedelta(minutes=10)
-    s = SimSite(mosquitto.port, "stale-ranch", {"east": ("standby", 3)})
+    s = SimSite(mosquitto.port, "stale-ranch", {"east": ("ready", 3)})
     try:
         s.publish_all(now=old)  # a retained heartbeat from 10 min ago, as after a bridge cut
         s.wait()
@@ -105,7 +105,7 @@ def test_a_site_whose_heartbeat_is_stale_is_unreachable_without_a_will(mosquitto
 def test_fahrenheit_keys_and_an_empty_broker(mosquitto):
     doc = fleet_json(mosquitto.port)
     assert doc["sites"] == [] and doc["broker_connected"] is True
-    s = SimSite(mosquitto.port, "f-ranch", {"east": ("act", 4)})
+    s = SimSite(mosquitto.port, "f-ranch", {"east": ("protect", 4)})
     try:
         s.publish_all()
         s.wait()

@@ -109,8 +109,8 @@ def test_an_acknowledged_alert_is_published_as_acknowledged(tmp_path):
         ob = Outbox(store, cfg)
         mk = lambda key, block, level, rank, minutes: Alert(now - dt.timedelta(minutes=minutes), block, level, rank,  # noqa: E731
                                                            "advice", f"{level} {block}", key)
-        ob.submit([mk("k-east", "east", "act", 4, 30), mk("k-river", "river", "frost-possible", 2, 20),
-                   mk("k-hill", "hill", "standby", 3, 10)], now - dt.timedelta(minutes=30))
+        ob.submit([mk("k-east", "east", "protect", 4, 30), mk("k-river", "river", "wait", 2, 20),
+                   mk("k-hill", "hill", "ready", 3, 10)], now - dt.timedelta(minutes=30))
         assert ob.acknowledge("k-east", "maria", "cli", now)
         got = acknowledged_by_block(store, now - dt.timedelta(hours=18), now)
     finally:

@@ -95,7 +95,7 @@ def test_the_demo_config_and_its_fleet_section_load(demo_config):
     assert fleet_settings(cfg).publish is True
 
 
-BLOCK = {"block": "east", "level": "standby", "rank": 3, "monitored": True,
+BLOCK = {"block": "east", "level": "ready", "rank": 3, "monitored": True,
          "as_of": "2027-04-15T09:12:00.123456Z", "predicted_min_c": -1.234, "band_c": 0.81,
          "predicted_min_at": "2027-04-15T12:40:00Z", "t10_crossing_at": dt.datetime(2027, 4, 15, 11, 10, tzinfo=dt.UTC),
          "action": "get ready: the wind machines may be needed by 04:10", "acknowledged": False}
@@ -103,10 +103,10 @@ BLOCK = {"block": "east", "level": "standby", "rank": 3, "monitored": True,
 
 def test_state_messages_are_retained_topics_per_block_with_versioned_json():
     msgs = fs.state_messages("frostwatch/", "cedar-bench", [BLOCK, {**BLOCK, "block": "river", "rank": 0,
-                                                                    "level": "all-clear", "acknowledged": None}])
+                                                                    "level": "rest", "acknowledged": None}])
     assert [t for t, _ in msgs] == ["frostwatch/cedar-bench/state/east", "frostwatch/cedar-bench/state/river"]
     doc = json.loads(msgs[0][1])
-    assert doc == {"v": 1, "site": "cedar-bench", "block": "east", "level": "standby", "rank": 3, "monitored": True,
+    assert doc == {"v": 1, "site": "cedar-bench", "block": "east", "level": "ready", "rank": 3, "monitored": True,
                    "as_of": "2027-04-15T09:12:00Z", "predicted_min_c": -1.2, "band_c": 0.8,
                    "predicted_min_at": "2027-04-15T12:40:00Z", "t10_crossing_at": "2027-04-15T11:10:00Z",
                    "action": "get ready: the wind machines may be needed by 04:10", "acknowledged": False}
@@ -151,7 +151,7 @@ def doc(**kw):
     ({"t10_crossing_at": "2027-04-15T11:20:00Z"}, False),
     ({"t10_crossing_at": "2027-04-15T10:50:00Z"}, True),
     ({"t10_crossing_at": None}, True),
-    ({"level": "act", "rank": 4}, True),
+    ({"level": "protect", "rank": 4}, True),
     ({"monitored": False}, True),
     ({"acknowledged": True}, True),
     ({"action": "start the wind machines now"}, True),
@@ -170,7 +170,7 @@ def test_state_filter_sends_changes_and_refreshes_the_rest():
     f.mark_sent([east, river], 0.0)
     drift = doc(predicted_min_c=-1.4, as_of="2027-04-15T09:14:00Z")
     assert f.select([drift, river], 120.0) == []
-    act = doc(level="act", rank=4, as_of="2027-04-15T09:16:00Z")
+    act = doc(level="protect", rank=4, as_of="2027-04-15T09:16:00Z")
     assert f.select([act, river], 240.0) == [act]
     f.mark_sent([act], 240.0)
     assert f.select([act, river], 3600.0) == [river]  # river not sent for an hour: refreshed
@@ -180,14 +180,14 @@ def test_state_filter_sends_changes_and_refreshes_the_rest():
 
 def test_block_state_from_the_daemons_block_document():
     """The daemon's block document is the block of `status --json` (the stored decision)."""
-    d = {"as_of": "2027-04-15T09:12:00Z", "block": "east", "level": "act", "rank": 4, "monitored": True,
+    d = {"as_of": "2027-04-15T09:12:00Z", "block": "east", "level": "protect", "rank": 4, "monitored": True,
          "reason": "projected minimum -2.0 °C reaches T10 + margin -0.2 °C", "action": "start the wind machines now",
          "projection": {"station": "east-low", "air_temp_c": 0.4, "predicted_min_c": -2.0, "band_c": 0.9,
                         "predicted_min_at": "2027-04-15T12:40:00Z", "t10_crossing_at": None}}
     s = fs.block_state_from_status_doc(d, rank=4, acknowledged=True)
-    assert (s["level"], s["rank"], s["monitored"], s["acknowledged"], s["as_of"]) == ("act", 4, True, True, d["as_of"])
+    assert (s["level"], s["rank"], s["monitored"], s["acknowledged"], s["as_of"]) == ("protect", 4, True, True, d["as_of"])
     assert s["predicted_min_c"] == -2.0 and s["reason"] is None
-    blind = fs.block_state_from_status_doc({**d, "level": "unmonitored", "monitored": False,
+    blind = fs.block_state_from_status_doc({**d, "level": "go-look", "monitored": False,
                                             "reason": "no reading from its crop-height sensor (east-low)"},
                                            rank=4, acknowledged=None)
-    assert blind["monitored"] is False and "no reading" in blind["reason"] and blind["level"] == "unmonitored"
+    assert blind["monitored"] is False and "no reading" in blind["reason"] and blind["level"] == "go-look"

@@ -38,20 +38,20 @@ def site_of(doc: dict, site: str) -> dict:
 
 def test_a_site_with_a_fresh_heartbeat_is_reachable_and_its_blocks_are_listed():
     m = FleetModel()
-    assert live(m, state("ridge", "east", "standby", 3, at(0), predicted_min_c=-1.2, band_c=0.8), at(1)) is None
+    assert live(m, state("ridge", "east", "ready", 3, at(0), predicted_min_c=-1.2, band_c=0.8), at(1)) is None
     assert live(m, heartbeat("ridge", at(2), evaluated=at(0), changed=at(0)), at(2)) is None
     doc = m.snapshot(at(30))
     s = site_of(doc, "ridge")
     assert s["reachable"] is True and s["why_unreachable"] is None and s["last_contact"] == "2027-04-15T09:00:02Z"
     (b,) = s["blocks"]
     assert {k: b[k] for k in ("block", "level", "rank", "monitored", "as_of")} == {
-        "block": "east", "level": "standby", "rank": 3, "monitored": True, "as_of": "2027-04-15T09:00:00Z"}
+        "block": "east", "level": "ready", "rank": 3, "monitored": True, "as_of": "2027-04-15T09:00:00Z"}
     assert b["predicted_min_c"] == -1.2 and doc["caution"] == CAUTION
 
 
 def test_a_site_whose_heartbeat_stops_becomes_unreachable_after_two_and_a_half_heartbeats():
     m = FleetModel()
-    live(m, state("ridge", "east", "all-clear", 0, at(0)), at(0))
+    live(m, state("ridge", "east", "rest", 0, at(0)), at(0))
     live(m, heartbeat("ridge", at(0), every_s=60), at(0))
     assert site_of(m.snapshot(at(179)), "ridge")["reachable"] is True
     s = site_of(m.snapshot(at(181)), "ridge")
@@ -63,7 +63,7 @@ def test_a_site_whose_heartbeat_stops_becomes_unreachable_after_two_and_a_half_h
 
 def test_the_will_and_the_bridge_notice_make_a_site_unreachable_at_once():
     m = FleetModel()
-    live(m, state("ridge", "east", "act", 4, at(0)), at(0))
+    live(m, state("ridge", "east", "protect", 4, at(0)), at(0))
     live(m, heartbeat("ridge", at(0)), at(0))
     live(m, ("frostwatch/ridge/online", b"offline"), at(5))
     s = site_of(m.snapshot(at(6)), "ridge")
@@ -80,7 +80,7 @@ def test_the_will_and_the_bridge_notice_make_a_site_unreachable_at_once():
 
 def test_never_green_when_blind_a_site_with_states_but_no_heartbeat_is_unreachable():
     m = FleetModel()
-    live(m, state("quiet", "east", "all-clear", 0, at(0)), at(0), retained=True)
+    live(m, state("quiet", "east", "rest", 0, at(0)), at(0), retained=True)
     s = site_of(m.snapshot(at(1)), "quiet")
     assert s["reachable"] is False and s["why_unreachable"] == "no heartbeat received from this site"
 
@@ -89,12 +89,12 @@ def test_a_retained_heartbeat_counts_from_its_own_time_never_from_its_arrival():
     m = FleetModel()
     # the view starts at 09:30 and gets the retained heartbeat of 09:00
     live(m, heartbeat("old", at(0)), at(1800), retained=True)
-    live(m, state("old", "east", "all-clear", 0, at(0)), at(1800), retained=True)
+    live(m, state("old", "east", "rest", 0, at(0)), at(1800), retained=True)
     s = site_of(m.snapshot(at(1801)), "old")
     assert s["reachable"] is False and s["last_contact"] == "2027-04-15T09:00:00Z"
     # a site clock 20 min ahead cannot keep a dead site green: its stamp is capped at arrival
     live(m, heartbeat("ahead", at(3000)), at(1800), retained=True)
-    live(m, state("ahead", "east", "all-clear", 0, at(1800)), at(1800), retained=True)
+    live(m, state("ahead", "east", "rest", 0, at(1800)), at(1800), retained=True)
     s = site_of(m.snapshot(at(1800 + 200)), "ahead")
     assert s["reachable"] is False and any("clock is 20 min ahead" in p for p in s["problems"])
 
@@ -102,13 +102,13 @@ def test_a_retained_heartbeat_counts_from_its_own_time_never_from_its_arrival():
 def test_sites_and_blocks_come_highest_rank_first_and_blind_counts_as_act():
     m = FleetModel()
     now = at(10)
-    for site, blocks in {"calm": [("a", "all-clear", 0, True)], "busy": [("a", "standby", 3, True),
-                                                                        ("b", "critical", 5, True)],
-                         "blindblock": [("a", "all-clear", 0, False), ("b", "frost-possible", 2, True)]}.items():
+    for site, blocks in {"calm": [("a", "rest", 0, True)], "busy": [("a", "ready", 3, True),
+                                                                        ("b", "all-hands", 5, True)],
+                         "blindblock": [("a", "rest", 0, False), ("b", "wait", 2, True)]}.items():
         for block, lvl, rank, mon in blocks:
             live(m, state(site, block, lvl, rank, at(0), monitored=mon), at(0))
         live(m, heartbeat(site, at(5)), at(5))
-    live(m, state("gone", "a", "all-clear", 0, at(0)), at(0))  # no heartbeat: unreachable
+    live(m, state("gone", "a", "rest", 0, at(0)), at(0))  # no heartbeat: unreachable
     doc = m.snapshot(now)
     assert [s["site"] for s in doc["sites"]] == ["busy", "gone", "blindblock", "calm"]
     assert [b["block"] for b in site_of(doc, "busy")["blocks"]] == ["b", "a"]
@@ -119,7 +119,7 @@ def test_sites_and_blocks_come_highest_rank_first_and_blind_counts_as_act():
 
 def test_a_state_is_current_as_of_the_latest_evaluation_when_no_newer_change_is_missing():
     m = FleetModel()
-    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
     live(m, heartbeat("ridge", at(600), evaluated=at(600), changed=at(0)), at(600))
     assert site_of(m.snapshot(at(601)), "ridge")["blocks"][0]["as_of"] == "2027-04-15T09:10:00Z"
     # the site says it sent a change at 09:08 that has not arrived: the state is only as of 09:00
@@ -159,14 +159,14 @@ def test_a_state_is_current_as_of_the_latest_evaluation_when_no_newer_change_is_
 ])
 def test_a_bad_message_is_refused_with_its_reason_and_the_rest_flows_on(topic, payload, why):
     m = FleetModel()
-    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
     live(m, heartbeat("ridge", at(0)), at(0))
     reason = m.on_message(topic, payload, at(1), False)
     assert reason is not None and why in reason
     doc = m.snapshot(at(2))
     assert doc["rejected"]["count"] == 1 and why in doc["rejected"]["latest"][0]["reason"]
     s = site_of(doc, "ridge")  # what was accepted before is still there
-    assert s["reachable"] is True and s["blocks"][0]["level"] == "standby"
+    assert s["reachable"] is True and s["blocks"][0]["level"] == "ready"
 
 
 def test_the_sites_own_status_topics_and_flag_only_sites_are_passed_over():
@@ -179,8 +179,8 @@ def test_the_sites_own_status_topics_and_flag_only_sites_are_passed_over():
 
 def test_a_cleared_retained_state_removes_the_block_and_info_names_the_site():
     m = FleetModel()
-    live(m, state("ridge", "east", "standby", 3, at(0)), at(0))
-    live(m, state("ridge", "west", "standby", 3, at(0)), at(0))
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
+    live(m, state("ridge", "west", "ready", 3, at(0)), at(0))
     live(m, heartbeat("ridge", at(0)), at(0))
     live(m, fs.info_message("frostwatch", fs.info_doc("ridge", "Ridge Ranch", 3, ["east-low: silent"], at(0))), at(0))
     assert m.on_message("frostwatch/ridge/state/west", b"", at(1), False) is None

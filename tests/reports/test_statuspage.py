@@ -63,7 +63,7 @@ def test_page_shows_every_block_with_temperatures_alerts_and_refresh(running):
     assert '<meta http-equiv="refresh" content="30">' in body
     assert 'name="viewport"' in body and "<svg" in body
     assert "T10 -2.2 °C" in body and "2027-04-15 04:30 PDT" in body
-    assert 'data-level="act"' in body and "keep the wind machines running" in body
+    assert 'data-level="protect"' in body and "keep the wind machines running" in body
     assert "advises; the grower decides" in body and "NOT MONITORED" not in body
     code, doc, _ = _get(f"http://127.0.0.1:{port}/status.json")
     assert code == 200 and '"block": "east"' in doc
@@ -98,8 +98,8 @@ def test_without_a_running_daemon_no_block_is_green_and_each_says_why(running):
     assert "never run on this store" in body and "no alert" not in body.lower()
     doc = json.loads(_get(f"http://127.0.0.1:{port}/status.json")[1])
     assert doc["daemon_alive"] is False
-    assert {(b["level"], b["rank"], b["monitored"]) for b in doc["blocks"]} == {("unmonitored", 4, False)}
-    assert {b["frost_level"] for b in doc["blocks"]} >= {"act"}  # the last frost level is kept
+    assert {(b["level"], b["rank"], b["monitored"]) for b in doc["blocks"]} == {("go-look", 4, False)}
+    assert {b["frost_level"] for b in doc["blocks"]} >= {"protect"}  # the last frost level is kept
 
 
 def test_page_renders_on_a_phone_in_headless_chromium(running, tmp_path):
