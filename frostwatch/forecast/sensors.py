@@ -43,6 +43,13 @@ def usual_interval_s(t_s: np.ndarray, configured_s: float | None) -> float:
     return max(MIN_INTERVAL_S, float(median))
 
 
+@functools.lru_cache(maxsize=4096)
+def dew_point_c_from_rel_humidity(air_c: float, rh_pct: float) -> float:
+    """`physics.humidity.dew_point_c_from_rel_humidity` of one reading, solved once: the same
+    reading is asked for at every evaluation until a newer one comes (and the dusk's all night)."""
+    return float(humidity.dew_point_c_from_rel_humidity(air_c, rh_pct))
+
+
 @functools.lru_cache(maxsize=16384)
 def _utc_at(t_s: float) -> dt.datetime:
     # a reading's time as a datetime, made once (every evaluation of the night asks again)
@@ -104,7 +111,7 @@ def dew_point_of(state: StationState | None, site_states: list[StationState]) ->
             return s.latest["dew_point_temperature"]
         if "relative_humidity" in s.latest and "air_temperature" in s.latest:
             rh = max(1.0, min(100.0, s.latest["relative_humidity"]))
-            return float(humidity.dew_point_c_from_rel_humidity(s.latest["air_temperature"], rh))
+            return dew_point_c_from_rel_humidity(s.latest["air_temperature"], rh)
     return None
 
 
@@ -255,7 +262,7 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
             rh = as_of(series, sid, "relative_humidity", t0_s, age_limit(sid, "relative_humidity"), extrapolate=False)
             ta = t0_c if sid == station else as_of(series, sid, "air_temperature", t0_s, age_limit(sid, "air_temperature"))
             if rh is not None and ta is not None:
-                td = float(humidity.dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh))))
+                td = dew_point_c_from_rel_humidity(ta, max(1.0, min(100.0, rh)))
         if td is not None:
             break
     if td is not None:
