@@ -100,9 +100,13 @@ def page_text(page: str, skip_id: str | None = None) -> str:
     return "".join(p.parts)
 
 
+ACK_CODE = re.compile(r"(?<=Ack: reply )[2-9A-Z]{6}\b")  # random; "6MKN9M" is no unit
+
+
 def problems(texts: dict[str, str], patterns, label: str) -> list[str]:
     out = []
     for where, text in texts.items():
+        text = ACK_CODE.sub("CODE", text)
         for pat in patterns:
             pat, name = pat if isinstance(pat, tuple) else (pat, pat)
             m = re.search(pat, text, re.IGNORECASE if label != "format" else 0)
