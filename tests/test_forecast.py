@@ -340,3 +340,36 @@ def test_act_time_comes_from_the_band_cold_edge_and_says_so(tmp_path):
     assert plan.ready_by_utc == plan.crossing_utc - dt.timedelta(minutes=cfg.blocks[0].mobilisation_min)
     why = " ".join(explain.reasons(plan, Display()))
     assert "times are set early" in why and "still learning" in why
+
+
+def _air_mass_night(d: int, t0: float, td: float, humid: bool, hours: float = 10.0) -> forecast.NightRecord:
+    """A night whose cooling coefficient depends on T0 one way in humid air and the other way in
+    dry air (a made-up site: the point is only that the two air masses cool differently)."""
+    k = -0.5 - 0.08 * (t0 - 21.0) if humid else -1.5 + 0.08 * (t0 - 11.0)
+    day = dt.date(2027, 1, 1) + dt.timedelta(days=d)
+    return forecast.NightRecord(day, "b-low", t0, td, hours, t0 + k * hours**0.5,
+                                dt.datetime.combine(day, dt.time(12), tzinfo=dt.UTC), 0.5, 0.0, 0.0, True, 0.5, 0.0)
+
+
+def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
+    """Sixty humid nights and eight dry ones: the dusk regression weighs past nights by how close
+    their dew point at t0 was, so a new dry night is forecast from the dry nights' cooling, not
+    carried over from the humid majority (issue 15: weight toward similar nights)."""
+    from frostwatch.forecast import calibration
+
+    rng = np.random.default_rng(7)
+    recs = []
+    for d in range(68):
+        if d % 8 == 3:
+            recs.append(_air_mass_night(d, rng.uniform(8, 14), rng.uniform(-2, 4), humid=False))
+        else:
+            recs.append(_air_mass_night(d, rng.uniform(18, 24), rng.uniform(14, 20), humid=True))
+    new_dry = [_air_mass_night(100 + i, t0, td, humid=False) for i, (t0, td) in enumerate([(8.5, 0.0), (13.5, 2.0), (10.0, -1.0)])]
+
+    def mae(cal):
+        return float(np.mean([abs(cal.regression_c(r.features, r.hours_to_sunrise) - r.observed_min_c) for r in new_dry]))
+
+    weighted = mae(forecast.fit_calibration(recs, 10))
+    monkeypatch.setattr(calibration, "SIMILAR_WIDTH_C", None)
+    alike = mae(forecast.fit_calibration(list(recs), 10))
+    assert weighted < 0.15 and alike > 0.4  # measured 0.05 and 0.52

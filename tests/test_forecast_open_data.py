@@ -43,11 +43,11 @@ def test_band_covers_80_percent_of_a_held_out_year(miami_rows):
     high = np.array([r["band_high_c"] for r in miami_rows])
     assert len(obs) > 300
     inside = np.mean((obs >= low) & (obs <= high))
-    assert 0.72 <= inside <= 0.88  # measured 0.79
+    assert 0.72 <= inside <= 0.88  # measured 0.80
     assert np.mean(obs < low) <= 0.12  # measured 0.09
 
 
 def test_dusk_forecast_has_no_bias_over_a_held_out_year(miami_rows):
     err = np.array([r["predicted_min_c"] - r["observed_min_c"] for r in miami_rows])
-    assert abs(err.mean()) <= 0.3  # measured +0.16
-    assert np.mean(np.abs(err)) <= 1.6  # measured 1.46; regression on T, Td walk-forward: 1.64
+    assert abs(err.mean()) <= 0.3  # measured +0.19
+    assert np.mean(np.abs(err)) <= 1.6  # measured 1.44; regression on T, Td walk-forward: 1.64

@@ -45,8 +45,9 @@ BAND_QUANTILES = (0.1, 0.9)  # the 80 % band
 BAND_Z = 1.2816  # the 10 % and 90 % points of a normal distribution, before residuals are known
 BAND_MIN_RESIDUALS = 20
 BAND_MEMORY = 300  # residuals kept per band bin (the most recent)
-SIMILAR_T0_C = 8.0  # dusk regression weighted toward nights of similar T0 (Gaussian width); None: all alike
-T0_STRATUM_C = 2.0
+SIMILAR_WIDTH_C = 5.0  # dusk regression weighted toward similar nights (Gaussian width); None: all alike
+SIMILAR_BY = 1  # ... similar in this input of FEATURES: 1 the dew point at t0 (the air mass), 0 T0
+T0_STRATUM_C = 2.0  # nights are pooled in strata this wide of that input
 PROTECTION_QUANTITIES = ("sprinkler_running", "wind_machine_running")
 DUSK_CLEAR_CLOUD_FRAC = 0.3  # a dusk is "clear and calm" (the physics prior's own ground) at or below this
 DUSK_CALM_WIND_M_S = 2.5  # ... and this wind (the wind-machine cut-off, FAO-FP)
@@ -215,7 +216,10 @@ class Calibration:
     d cloud0 + e wind0 + f (wind0 - wind 3 h earlier) (Dalla Nora et al. 2005's use of Reuter's
     model; the inputs are FAO-FP ch. 5's, after Allen 1957, plus cloud and wind), ridge-shrunk
     toward the site's mean cooling coefficient (the "T0 minus the usual fall" rule), harder while
-    few nights are known. The physics prior carries the first nights, corrected by its mean error
+    few nights are known. The regression weighs each past night by how close its dew point at t0
+    was to tonight's (Gaussian, `SIMILAR_WIDTH_C`): the dew point marks the air mass (dry air lets
+    more longwave out), so the few dry cold nights of a humid site are not forecast with the
+    warm humid nights' cooling. The physics prior carries the first nights, corrected by its mean error
     on the nights seen so far. Once both have been scored on a few nights they are blended by
     their recent skill (weights ~ 1 / mean squared error).
 
@@ -245,7 +249,7 @@ class Calibration:
     nc_weights: tuple = (None,) * NOWCAST_BINS  # per bin: ((method, weight), ...) or None
     nc_bands: tuple = ()  # per bin: (low, high, n)
     mean_min_c: float = 0.0
-    dusk_strata: tuple = ()  # (T0 of the stratum, moment matrix) when nights are weighted by similarity
+    dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
     calibration_lambda: float = RIDGE_LAMBDA
     extra: dict = field(default_factory=dict, compare=False)
 
@@ -267,13 +271,13 @@ class Calibration:
         c[0] += 1.0
         return tuple(c)
 
-    def _k_model(self, t0_c: float) -> tuple:
-        if not self.dusk_strata or SIMILAR_T0_C is None:
+    def _k_model(self, similar_c: float) -> tuple:
+        if not self.dusk_strata or SIMILAR_WIDTH_C is None:
             return self.means, self.k_coefs, self.k_mean
-        key = round(t0_c * 2) / 2
+        key = round(similar_c * 2) / 2
         hit = self.extra.get(key)
         if hit is None:
-            m = sum((math.exp(-0.5 * ((c - key) / SIMILAR_T0_C) ** 2) + 1e-3) * mm for c, mm in self.dusk_strata)
+            m = sum((math.exp(-0.5 * ((c - key) / SIMILAR_WIDTH_C) ** 2) + 1e-3) * mm for c, mm in self.dusk_strata)
             fit = _ridge_solve(m, self.calibration_lambda)
             hit = (self.means, self.k_coefs, self.k_mean) if fit is None else (tuple(fit[0]), tuple(fit[1]), fit[2])
             self.extra[key] = hit
@@ -282,7 +286,7 @@ class Calibration:
     def regression_c(self, x: tuple[float, ...], hours: float | None = None) -> float:
         """Tn = T0 + K(x) sqrt(h); `hours` defaults to the fitted nights' mean night length."""
         sq = self.mean_sqrt_h if hours is None else math.sqrt(max(0.0, hours))
-        means, k_coefs, k_mean = self._k_model(x[0])
+        means, k_coefs, k_mean = self._k_model(x[SIMILAR_BY])
         k = k_mean + sum(c * (xi - m) for c, xi, m in zip(k_coefs, x, means, strict=True))
         return x[0] + k * sq
 
@@ -441,7 +445,7 @@ class Learner:
         z = np.concatenate([[1.0], x, [k]])
         zz = np.outer(z, z)
         self.dusk_m += zz
-        stratum = round(rec.t0_temp_c / T0_STRATUM_C)
+        stratum = round(x[SIMILAR_BY] / T0_STRATUM_C)
         self.dusk_strata[stratum] = self.dusk_strata.get(stratum, 0.0) + zz
         zd = np.concatenate([[1.0], x, [rec.observed_min_c - rec.t0_temp_c]])
         self.drop_m += np.outer(zd, zd)
@@ -467,7 +471,7 @@ class Learner:
             out["prior_offset_c"] = self.prior_err_sum / (n + PRIOR_OFFSET_SHRINK_NIGHTS)
             lam = RIDGE_LAMBDA * max(1.0, self.calibration_nights / n)
             out["calibration_lambda"] = lam
-            if SIMILAR_T0_C is not None:
+            if SIMILAR_WIDTH_C is not None:
                 out["dusk_strata"] = tuple((b * T0_STRATUM_C, m.copy()) for b, m in sorted(self.dusk_strata.items()))
             fit = _ridge_solve(self.dusk_m, lam)
             if fit is not None:
