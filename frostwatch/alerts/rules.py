@@ -6,6 +6,9 @@ reached) keep it from flapping (grower-needs E3). Every message is rendered from
 `frostwatch.advice.message.compose` with the step the level shows (`levels.step_for_level`), so a
 headline and its advice never disagree.
 
+Alerts of one block from one evaluation are merged into the most urgent of them (`merged`): a
+grower gets one message, never two in the same minute.
+
 Beyond the frost levels:
 
 - a block that is not monitored (no fresh crop-height sensor) gets a `go-look` alert of its
@@ -214,7 +217,20 @@ def step(
             lvl = run.state.level
             run.send(lvl, step_for_level(lvl, plan, protection_ran(run.state)), Notice.MONITORED_AGAIN, resolves=reopened)
         run.set(unmonitored_key=None, unmonitored_since_utc=None, monitored_count=0)
+    if len(run.alerts) > 1:
+        kept = merged(run.alerts)
+        run.alerts = [kept]
+        run.set(last_key=kept.key)
     return run.state, run.alerts
+
+
+def merged(alerts: list[Alert]) -> Alert:
+    """One message for a block's alerts of the same instant: the most urgent (the later one of
+    equal rank), carrying what the others resolve. The dusk message and a rise to ready in the
+    same evaluation, say, reach the grower once, as ready."""
+    kept = max(enumerate(alerts), key=lambda ia: (ia[1].rank, ia[0]))[1]
+    resolves = kept.resolves or next((a.resolves for a in alerts if a.resolves), None)
+    return dataclasses.replace(kept, resolves=resolves)
 
 
 def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
