@@ -70,6 +70,17 @@ def _age(s) -> str:
     return f"{s / 3600:.1f} h ago" if s < 172800 else f"{s / 86400:.0f} days ago"
 
 
+def _shown(d, quantity: str, value: float) -> str:
+    """A station's last value in the site's units (temperatures, wind, humidity); others as stored."""
+    if quantity.endswith("temperature"):
+        return d.temp(value)
+    if quantity == "wind_speed":
+        return d.wind(value)
+    if quantity == "relative_humidity":
+        return f"{value:.0f} %"
+    return f"{value:g}"
+
+
 def cmd_status(args) -> int:
     import datetime as dt
 
@@ -105,8 +116,11 @@ def cmd_status(args) -> int:
         if b["monitored"]:
             print(f"             why: {b['reason']}")
     print("stations:")
+    from frostwatch.display import Display
+
+    d = Display(cfg.site.display_unit, cfg.site.tz)
     for s in doc["stations"]:
-        vals = ", ".join(f"{q} {v['value']:g}" for q, v in sorted(s["last"].items()))
+        vals = ", ".join(f"{q.replace('_', ' ')} {_shown(d, q, v['value'])}" for q, v in sorted(s["last"].items()))
         print(f"  {s['station']:<16} {_age(s['age_s']):>12}   {vals or 'no reading in 7 days'}")
     return 0
 

@@ -1,5 +1,10 @@
 """HTML of the night log: one self-contained page (inline CSS, no scripts, no fonts or links
-outside its own folder), readable on a phone and printable."""
+outside its own folder), readable on a phone and printable.
+
+On a phone (narrower than 700 px) every wide table is stacked: each row becomes a small card, each
+cell labelled with its column, so nothing runs off the screen and nothing hides in a box that
+scrolls sideways; long words (a record hash, a station name) wrap.
+"""
 
 from __future__ import annotations
 
@@ -8,13 +13,14 @@ import html
 
 from frostwatch.advice.explain import SOURCES
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
-from frostwatch.advice.render import level_word
+from frostwatch.advice.plan import Method
+from frostwatch.advice.render import level_word, method_name
 from frostwatch.alerts.levels import rank_of
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
 body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,sans-serif;margin:0 auto;padding:0 12px 2em;
-max-width:72em;font-size:17px;line-height:1.4;color:#111}
+max-width:72em;font-size:17px;line-height:1.4;color:#111;overflow-wrap:anywhere}
 h1{font-size:1.5em;margin:.6em 0 .2em}h2{font-size:1.25em;margin:1.4em 0 .4em;border-bottom:2px solid #ddd}
 h3{font-size:1.1em;margin:1em 0 .3em}
 .scroll{overflow-x:auto;-webkit-overflow-scrolling:touch}
@@ -26,8 +32,16 @@ table.kv th{width:45%;font-weight:600;background:#f5f5f5}
 .note{color:#444;font-size:.92em}.lvl{font-weight:700;white-space:nowrap}
 .lvl5{color:#a00}.lvl4{color:#c40}.lvl3{color:#a60}.lvl2{color:#660}.lvl1,.lvl0{color:#070}
 figure{margin:.5em 0}img{max-width:100%;height:auto;border:1px solid #ddd}
-code{font-size:.85em;word-break:break-all}
+code{font-size:.85em;word-break:break-all;overflow-wrap:anywhere}
 table.compact td,table.compact th{padding:4px 5px}
+@media (max-width:700px){
+table.stack,table.stack tbody,table.stack tr,table.stack td{display:block;width:auto}
+table.stack thead{display:none}
+table.stack tr{border:1px solid #bbb;border-left:4px solid #999;margin:.5em 0;padding:.2em .5em}
+table.stack td{border:0;padding:1px 0;text-align:left;white-space:normal}
+table.stack td::before{content:attr(data-label) ": ";font-weight:600;color:#444}
+table.kv th{width:40%}
+}
 @media print{.scroll{overflow:visible}}
 """
 e = html.escape
@@ -35,6 +49,20 @@ e = html.escape
 
 def level_span(level: str) -> str:
     return f'<span class="lvl lvl{rank_of(level)}">{e(level_word(level))}</span>'
+
+
+def stacked_table(ident: str, headers: list[str], rows: list[list[tuple[str, bool]]], cls: str = "") -> str:
+    """A table that stacks on a phone: a header row, then each row's cells as (html, numeric),
+    every cell labelled with its column for the stacked form."""
+    head = "".join(f"<th>{e(h)}</th>" for h in headers)
+    num_class = ' class="num"'
+    body = "".join(
+        "<tr>" + "".join(f'<td{num_class if num else ""} data-label="{e(h)}">{cell}</td>'
+                         for h, (cell, num) in zip(headers, row, strict=True)) + "</tr>"
+        for row in rows)
+    classes = f"stack {cls}".strip()
+    return (f'<div class="scroll"><table id="{ident}" class="{classes}"><thead><tr>{head}</tr></thead>'
+            f"<tbody>{body}</tbody></table></div>")
 
 
 def coldest_first(sections):
@@ -46,15 +74,12 @@ def _overview(data) -> str:
     rows = []
     for s in coldest_first(data.sections):
         bn = s.bn
-        rows.append(
-            f'<tr><td><a href="#block-{e(bn.block)}">{e(bn.block)}</a></td>'
-            f'<td class="num">{d.temp(bn.min_c) if bn.min_c is not None else "no reading"}</td>'
-            f'<td class="num">{d.time(bn.min_at_utc) if bn.min_at_utc else ""}</td><td class="num">{bn.minutes_below_t10:.0f} min</td>'
-            f'<td class="num">{bn.minutes_below_t90:.0f} min</td></tr>'
-        )
-    return ('<div class="scroll"><table id="blocks" class="compact"><tr><th>block</th><th>minimum</th><th>at</th>'
-            '<th>below T10</th><th>below T90</th></tr>' + "".join(rows) + "</table></div>"
-            '<p class="note">"below T10/T90": minutes at or below it, interpolated between readings.</p>')
+        rows.append([(f'<a href="#block-{e(bn.block)}">{e(bn.block)}</a>', False),
+                     (d.temp(bn.min_c) if bn.min_c is not None else "no reading", True),
+                     (d.time(bn.min_at_utc) if bn.min_at_utc else "", True),
+                     (f"{bn.minutes_below_t10:.0f} min", True), (f"{bn.minutes_below_t90:.0f} min", True)])
+    return (stacked_table("blocks", ["block", "minimum", "at", "below T10", "below T90"], rows, "compact")
+            + '<p class="note">"below T10/T90": minutes at or below it, interpolated between readings.</p>')
 
 
 def _runs_text(data, bn) -> str:
@@ -94,7 +119,7 @@ def _block_section(data, s) -> str:
         ("minutes at or below T10", f"{bn.minutes_below_t10:.0f}"),
         ("minutes at or below T90", f"{bn.minutes_below_t90:.0f}"),
         ("dusk forecast error", err_txt),
-        ("protection", e(b.protection.replace("_", " "))),
+        ("protection", e(method_name(Method(b.protection)) if b.protection != "none" else "none")),
         ("protection ran", e(_runs_text(data, bn))),
     ]
     if bn.water_m3 is not None:
@@ -139,15 +164,18 @@ def _loss(data) -> str:
 
 
 def _deliveries(data, key: str) -> str:
+    """Each delivery as recorded: '19:50 console: sent', 'sms to maria: sent after 2 attempts 19:51'."""
     rows = data.deliveries.get(key, [])
     if not rows:
         return '<span class="note">none recorded</span>'
     parts = []
     for r in rows:
         when = from_ms(r["updated_utc_ms"]) if r.get("updated_utc_ms") else None
-        parts.append(f"{e(str(r.get('channel') or ''))} → {e(str(r.get('recipient') or ''))}: "
+        who = r.get("recipient") or "*"
+        attempts = int(r.get("attempt") or 0)
+        parts.append(f"{e(str(r.get('channel') or ''))}{'' if who == '*' else ' to ' + e(str(who))}: "
                      f"{e(str(r.get('status') or ''))}"
-                     + (f" (attempt {r['attempt']})" if r.get("attempt") else "")
+                     + (f" after {attempts} attempts" if attempts > 1 else "")
                      + (f" {data.display.time(when)}" if when else ""))
     return "<br>".join(parts)
 
@@ -170,11 +198,9 @@ def _alerts(data) -> str:
         ack = _acks(data, a["key"])
         if not ack and a["rank"] >= rank_of("ready"):
             ack = '<span class="note">not acknowledged</span>'
-        rows.append(f'<tr><td class="num">{d.time(from_ms(a["time_utc_ms"]))}</td><td>{e(a["block"])}</td>'
-                    f"<td>{level_span(a['level'])}</td><td>{e(head)}</td><td>{_deliveries(data, a['key'])}</td>"
-                    f"<td>{ack}</td></tr>")
-    return ('<div class="scroll"><table id="alerts"><tr><th>time</th><th>block</th><th>level</th><th>message</th>'
-            "<th>sent</th><th>acknowledged</th></tr>" + "".join(rows) + "</table></div>")
+        rows.append([(d.time(from_ms(a["time_utc_ms"])), True), (e(a["block"]), False), (level_span(a["level"]), False),
+                     (e(head), False), (_deliveries(data, a["key"]), False), (ack, False)])
+    return stacked_table("alerts", ["time", "block", "level", "message", "sent", "acknowledged"], rows)
 
 
 def _decisions(data) -> str:
@@ -193,11 +219,10 @@ def _decisions(data) -> str:
         else:
             what = "NOT MONITORED: " + monitoring_reason(x.monitoring, d, x.as_of_utc)
         pmin = d.temp(x.projection.predicted_min_c) if x.projection.predicted_min_c is not None else ""
-        rows.append(f'<tr><td class="num">{d.time(x.as_of_utc)}</td><td>{e(x.block)}</td><td>{level_span(x.level)}</td>'
-                    f'<td>{e(what)}</td><td class="num">{pmin}</td></tr>')
-    return ('<div class="scroll"><table id="decisions"><tr><th>time</th><th>block</th><th>level</th><th>advice</th>'
-            "<th>projected minimum</th></tr>" + "".join(rows) + "</table></div>"
-            '<p class="note">Each change of level, advice or monitoring as the daemon decided it (and its last decision); '
+        rows.append([(d.time(x.as_of_utc), True), (e(x.block), False), (level_span(x.level), False), (e(what), False),
+                     (pmin, True)])
+    return (stacked_table("decisions", ["time", "block", "level", "advice", "projected minimum"], rows)
+            + '<p class="note">Each change of level, advice or monitoring as the daemon decided it (and its last decision); '
             "the status page showed the same.</p>")
 
 
