@@ -12,8 +12,8 @@ import datetime as dt
 import html
 
 from frostwatch.advice.explain import SOURCES
-from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.advice.plan import Method
+from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.advice.render import level_word, method_name
 from frostwatch.alerts.levels import rank_of
 from frostwatch.store import from_ms
