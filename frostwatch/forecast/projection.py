@@ -4,7 +4,7 @@ in, a `Projection` out. Also what a finished night did (`night_record`), for the
 
 The dusk forecast follows FAO-FP ch. 5 (Snyder & de Melo-Abreu 2005): at t0 = sunset + 2 h the
 night minimum comes from the site's regression on what is known then, or from the physics prior
-(`frostwatch.physics.cooling.clear_night_minimum_prior_c`) while the site is still learning (see
+(`frostwatch.physics.clear_night_prior.clear_night_minimum_prior_c`) while the site is still learning (see
 `calibration.Calibration`). The trend from now to sunrise is Reuter's square-root curve
 T(t) = T0 + b' sqrt(t - t0). After t0 the minimum is re-projected at every evaluation from
 tonight's own cooling (the nowcast). The band's cold edge gets its own curve and crossings: the
@@ -42,7 +42,7 @@ from frostwatch.forecast.sensors import (
 )
 from frostwatch.models import Projection
 from frostwatch.night import Night
-from frostwatch.physics import cooling, humidity
+from frostwatch.physics import clear_night_prior, humidity
 
 RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean wind was below this
 RADIATION_NIGHT_CLOUD_FRAC = 0.3  # ... and its cloud never above this (FAO-FP ch. 5 usage)
@@ -56,7 +56,7 @@ MIN_BAND_C = 0.3
 
 @functools.lru_cache(maxsize=4096)
 def _prior_cached(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
-    return float(cooling.clear_night_minimum_prior_c(
+    return float(clear_night_prior.clear_night_minimum_prior_c(
         t0_c, td_c, hours, wind_speed_m_s=wind, cloud_frac=cloud, pressure_hpa=p_hpa
     ))
 

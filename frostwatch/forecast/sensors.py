@@ -217,10 +217,10 @@ def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float,
     sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
     if sky is None or dew_point_c is None:
         return None
-    from frostwatch.physics import radiation
+    from frostwatch.physics import cloud_cover
 
     e = humidity.vapour_pressure_hpa_from_dew_point(dew_point_c)
-    return float(radiation.cloud_frac_from_sky_temperature(sky, air_temp_c, e))
+    return float(cloud_cover.cloud_frac_from_sky_temperature(sky, air_temp_c, e))
 
 
 @dataclass(frozen=True)
@@ -278,10 +278,10 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
     if cloud is None and td is not None:
         sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", t0_s, window)
         if sky is not None:
-            from frostwatch.physics import radiation
+            from frostwatch.physics import cloud_cover
 
             e = humidity.vapour_pressure_hpa_from_dew_point(td)
-            cloud = float(radiation.cloud_frac_from_sky_temperature(sky, t0_c, e))
+            cloud = float(cloud_cover.cloud_frac_from_sky_temperature(sky, t0_c, e))
     baro = sorted(stations_with(series, "air_pressure"))  # one barometer serves the farm
     p_now = mean_as_of(series, baro, "air_pressure", t0_s, window)
     p_then = mean_as_of(series, baro, "air_pressure", t0_s - WIND_TREND_S, window)

@@ -2,7 +2,7 @@
 
 Pure: no I/O, no clock. Temperatures in degC unless a name says otherwise.
 
-The tables are stored in the unit they were published in (degF for the WSU, MSU and
+The tables (`frostwatch.physics.crop_stage_tables`) are stored in the unit they were published in (degF for the WSU, MSU and
 Utah State tables, degC for the FAO grape table) and converted once, on lookup.
 
 References
@@ -31,6 +31,8 @@ from typing import Final
 
 import numpy as np
 from numpy.typing import ArrayLike
+
+from frostwatch.physics.crop_stage_tables import CRITICAL_TEMP_TABLES, CROP_ALIASES
 
 __all__ = [
     "CriticalTemps",
@@ -79,137 +81,6 @@ class CriticalTemps:
     source: str
 
 
-@dataclass(frozen=True)
-class _CropTable:
-    unit: str  # "degF" or "degC": the unit the values were published in
-    source: str
-    rows: tuple[tuple[str, float, float | None], ...]  # (stage, T10, T90) in `unit`
-
-
-_PENN_STATE = (
-    "Penn State Extension 'Orchard Frost - Critical Temperatures for Various Fruits'"
-)
-
-# Values exactly as published (see frost-physics.md section 5). Stage order is phenological.
-_TABLES: Final[dict[str, _CropTable]] = {
-    "apple": _CropTable(
-        "degF",
-        f"WSU Extension EB0913 via {_PENN_STATE} (Red Delicious)",
-        (
-            ("silver tip", 15, 2),
-            ("green tip", 18, 10),
-            ("half-inch green", 23, 15),
-            ("tight cluster", 27, 21),
-            ("first pink", 28, 24),
-            ("full pink", 28, 25),
-            ("first bloom", 28, 25),
-            ("full bloom", 28, 25),
-            ("post bloom", 28, 25),
-        ),
-    ),
-    "pear": _CropTable(
-        "degF",
-        f"WSU Extension EB0978 via {_PENN_STATE} (Bartlett)",
-        (
-            ("scales separating", 15, 0),
-            ("blossom buds exposed", 20, 6),
-            ("tight cluster", 24, 15),
-            ("first white", 25, 19),
-            ("full white", 26, 22),
-            ("first bloom", 27, 23),
-            ("full bloom", 28, 24),
-            ("post bloom", 28, 24),
-        ),
-    ),
-    "sweet cherry": _CropTable(
-        "degF",
-        f"WSU Extension EB1128 via {_PENN_STATE}",
-        (
-            ("first swelling", 17, 5),
-            ("side green", 22, 9),
-            ("green tip", 25, 14),
-            ("tight cluster", 26, 17),
-            ("open cluster", 27, 21),
-            ("first white", 27, 24),
-            ("first bloom", 28, 25),
-            ("full bloom", 28, 25),
-            ("post bloom", 28, 25),
-        ),
-    ),
-    "tart cherry": _CropTable(
-        "degF",
-        "Utah State University Extension tart cherry table (cited origin MSU Research "
-        "Report 220; MSU's extra side-green and open-cluster stages not included)",
-        (
-            ("swollen bud", 15, 0),
-            ("green tip", 26, 22),
-            ("tight cluster", 26, 24),
-            ("first white", 28, 24),
-            ("first bloom", 28, 24),
-            ("full bloom", 28, 25),
-            ("petal fall", 28, 25),
-        ),
-    ),
-    "peach": _CropTable(
-        "degF",
-        f"WSU Extension EB0914 via {_PENN_STATE}",
-        (
-            ("first swelling", 18, 1),
-            ("calyx green", 21, 5),
-            ("calyx red", 23, 9),
-            ("first pink", 25, 15),
-            ("first bloom", 26, 21),
-            ("full bloom", 27, 24),
-            ("post bloom", 28, 25),
-        ),
-    ),
-    "apricot": _CropTable(
-        "degF",
-        "WSU Extension EB1240 via MSU Extension (Longstroth); "
-        "no 90 % kill value published for first swelling",
-        (
-            ("first swelling", 15, None),
-            ("tip separates", 20, 0),
-            ("red calyx", 22, 9),
-            ("first white", 24, 14),
-            ("first bloom", 25, 19),
-            ("full bloom", 27, 22),
-            ("in the shuck", 27, 24),
-            ("green fruit", 28, 25),
-        ),
-    ),
-    "european plum": _CropTable(
-        "degF",
-        "WSU/MSU Extension European plum table via MSU Extension (Longstroth)",
-        (
-            ("first swelling", 14, 0),
-            ("side white", 17, 3),
-            ("tip green", 20, 7),
-            ("tight cluster", 24, 16),
-            ("first white", 26, 22),
-            ("first bloom", 27, 23),
-            ("full bloom", 28, 23),
-            ("post bloom", 28, 23),
-        ),
-    ),
-    "grape": _CropTable(
-        "degC",
-        "FAO-FP (Snyder & de Melo-Abreu 2005) Table 4.8, after Proebsting, Brummund & "
-        "Clore 1988, WSU (Concord)",
-        (
-            ("first swell", -10.6, -19.4),
-            ("late swell", -6.1, -12.2),
-            ("bud burst", -3.9, -8.9),
-            ("first leaf", -2.8, -6.1),
-            ("second leaf", -2.2, -5.6),
-            ("third leaf", -2.2, -3.3),
-            ("fourth leaf", -2.2, -2.8),
-        ),
-    ),
-}
-
-# Accepted alternative names -> stored crop name.
-_CROP_ALIASES: Final[dict[str, str]] = {"plum": "european plum"}
 
 
 def normalise_name(text: str) -> str:
@@ -237,15 +108,15 @@ def _f_to_c(value_f: float) -> float:
 
 def _resolve_crop(crop: str) -> str:
     key = normalise_name(crop)
-    for name in _TABLES:
+    for name in CRITICAL_TEMP_TABLES:
         if normalise_name(name) == key:
             return name
-    for alias, name in _CROP_ALIASES.items():
+    for alias, name in CROP_ALIASES.items():
         if normalise_name(alias) == key:
             return name
     raise UnknownCropError(
         f"unknown crop {crop!r}; known crops: {', '.join(known_crops())} "
-        f"(also accepted: {', '.join(_CROP_ALIASES)})"
+        f"(also accepted: {', '.join(CROP_ALIASES)})"
     )
 
 
@@ -257,7 +128,7 @@ def known_crops() -> list[str]:
     list of str
         Crop names (lower case); "plum" is also accepted as an alias of "european plum".
     """
-    return list(_TABLES)
+    return list(CRITICAL_TEMP_TABLES)
 
 
 def known_stages(crop: str) -> list[str]:
@@ -278,7 +149,7 @@ def known_stages(crop: str) -> list[str]:
     UnknownCropError
         If the crop has no table; the message lists the known crops.
     """
-    return [row[0] for row in _TABLES[_resolve_crop(crop)].rows]
+    return [row[0] for row in CRITICAL_TEMP_TABLES[_resolve_crop(crop)].rows]
 
 
 def critical_temps(
@@ -330,7 +201,7 @@ def critical_temps(
             f"hardiness_offset_c {hardiness_offset_c!r}; expected a finite degC value"
         )
     name = _resolve_crop(crop)
-    table = _TABLES[name]
+    table = CRITICAL_TEMP_TABLES[name]
     key = normalise_name(stage)
     for stage_name, t10, t90 in table.rows:
         if normalise_name(stage_name) == key:

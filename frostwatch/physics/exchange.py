@@ -24,7 +24,7 @@ from typing import Final
 
 import numpy as np
 
-from frostwatch.physics.humidity import saturation_vapour_pressure_ice_hpa
+from frostwatch.physics.saturation import saturation_vapour_pressure_ice_hpa
 
 __all__ = [
     "AIR_GAS_CONSTANT_J_KG_K",

@@ -59,7 +59,7 @@ def heat_requirement_w_m2(target_temp_c: float, vapour_pressure_hpa: float, clou
         ``-L*`` of a surface at the target radiating as a black body (emissivity 1, an upper
         bound: no tabulated emissivity is needed, and the need errs high) under a Brutsaert
         (1975) sky with the Jacobs (1978) cloud correction
-        (`frostwatch.physics.radiation.net_longwave_w_m2`); NaN outside its range.
+        (`frostwatch.physics.longwave.net_longwave_w_m2`); NaN outside its range.
 
     Notes
     -----
@@ -67,7 +67,7 @@ def heat_requirement_w_m2(target_temp_c: float, vapour_pressure_hpa: float, clou
     heat and the inversion's sensible heat supply part of it on a real night, so this figure
     errs on the side of more heat.
     """
-    from frostwatch.physics.radiation import net_longwave_w_m2
+    from frostwatch.physics.longwave import net_longwave_w_m2
 
     return -float(net_longwave_w_m2(target_temp_c, vapour_pressure_hpa, cloud_frac=cloud_frac,
                                     surface_temp_c=target_temp_c, surface_emissivity=1.0))

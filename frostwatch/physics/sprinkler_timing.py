@@ -18,7 +18,8 @@ from __future__ import annotations
 import math
 from typing import Final
 
-from frostwatch.physics.humidity import STANDARD_PRESSURE_HPA, air_temp_c_for_wet_bulb
+from frostwatch.physics.air_pressure import STANDARD_PRESSURE_HPA
+from frostwatch.physics.wet_bulb import air_temp_c_for_wet_bulb
 
 __all__ = [
     "FALLBACK_STOP_MARGIN_C",
@@ -68,7 +69,7 @@ def sprinkler_start_air_temp_c(
 
     Notes
     -----
-    Uses `frostwatch.physics.humidity.air_temp_c_for_wet_bulb` (ASHRAE psychrometrics,
+    Uses `frostwatch.physics.wet_bulb.air_temp_c_for_wet_bulb` (ASHRAE psychrometrics,
     ice bulb below 0 degC). This is the FAO-FP Table 7.5 method; frost-physics.md 10 gives
     rechecked values (e.g. Td -10, Tc -2: 2.0 degC).
 

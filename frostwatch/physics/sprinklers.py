@@ -32,8 +32,9 @@ import math
 from dataclasses import dataclass
 from typing import Final
 
+from frostwatch.physics.air_pressure import STANDARD_PRESSURE_HPA
 from frostwatch.physics.exchange import aerodynamic_resistance_s_m, iced_surface_exchange_w_m2
-from frostwatch.physics.humidity import STANDARD_PRESSURE_HPA, vapour_pressure_hpa_from_dew_point
+from frostwatch.physics.saturation import vapour_pressure_hpa_from_dew_point
 from frostwatch.physics.sprinkler_timing import (  # noqa: F401 - the start and stop rules, re-exported
     FALLBACK_STOP_MARGIN_C,
     MIN_RISE_C_PER_H,
@@ -229,7 +230,7 @@ def iced_canopy_heat_loss(
     black body (emissivity 1, an upper bound for ice and water: no tabulated emissivity is needed,
     and the loss errs high by at most a few percent) under a Brutsaert (1975) sky with the Jacobs
     (1978) cloud correction
-    (`frostwatch.physics.radiation.net_longwave_w_m2`). Convection and sublimation through one
+    (`frostwatch.physics.longwave.net_longwave_w_m2`). Convection and sublimation through one
     aerodynamic resistance, FAO-56 eq. 4 for the reference surface at 2 m (208 / u2 s m-1), in
     the psychrometric form with the WMO ice-bulb coefficient
     (`frostwatch.physics.exchange.iced_surface_exchange_w_m2`).
@@ -247,7 +248,7 @@ def iced_canopy_heat_loss(
        the energy lost).
     .. [2] Allen et al. (1998), FAO-56 eq. 4; WMO-No. 8 Annex 4.B; Brutsaert (1975).
     """
-    from frostwatch.physics.radiation import net_longwave_w_m2
+    from frostwatch.physics.longwave import net_longwave_w_m2
 
     values = (air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
     if any(math.isnan(float(v)) for v in values):

@@ -1,4 +1,4 @@
-"""Tests for frostwatch.physics.cooling: Brunt, the FAO-FP square-root trend, the projection.
+"""Tests for the night-cooling modules (sqrt_time_cooling, wind_mixing, night_energy_balance, clear_night_prior): Brunt, the FAO-FP square-root trend, the projection.
 
 "Reference sheet" is shared/reference/frost-physics.md; each check names the section.
 """
@@ -10,7 +10,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from frostwatch.physics import cooling
+from frostwatch.physics import clear_night_prior, night_energy_balance, sqrt_time_cooling, wind_mixing
 
 # FAO-FP Ch. 5 sample of ten radiation nights, as given in reference sheet 1.1 (fixture:
 # T0 and Td at sunset + 2 h, observed minimum Tn, degC).
@@ -21,7 +21,7 @@ FAO_HOURS_T0_TO_SUNRISE_H = 12.0  # assumption for April nights: the sample give
 
 
 def _minimum_c(start_temp_c, dew_point_c, hours=10.0, **kwargs):
-    _, temps, _ = cooling.project_night_energy_balance(start_temp_c, dew_point_c, hours, **kwargs)
+    _, temps, _ = night_energy_balance.project_night_energy_balance(start_temp_c, dew_point_c, hours, **kwargs)
     return float(np.min(temps))
 
 
@@ -30,20 +30,20 @@ def _minimum_c(start_temp_c, dew_point_c, hours=10.0, **kwargs):
 
 def test_surface_cooling_k_brunt_1941_vs_reference_sheet_1_3():
     # Reference sheet 1.3 [computed]: 80 W m-2, mu 1200, 10 h -> 14.3 K; tolerance 0.05 K (rounding).
-    assert cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, 10 * 3600.0) == pytest.approx(14.3, abs=0.05)
+    assert sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, 10 * 3600.0) == pytest.approx(14.3, abs=0.05)
 
 
 def test_surface_cooling_k_brunt_1941_grows_as_sqrt_time_and_masks_bad_input():
     t_s = np.array([1.0, 4.0, 9.0]) * 3600.0
-    dt = cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, t_s)
+    dt = sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, t_s)
     assert dt / dt[0] == pytest.approx([1.0, 2.0, 3.0])
-    assert math.isnan(cooling.surface_cooling_k_brunt_1941(80.0, 0.0, 3600.0))
-    assert math.isnan(cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, -1.0))
+    assert math.isnan(sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 0.0, 3600.0))
+    assert math.isnan(sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, -1.0))
 
 
 def test_thermal_admittance_table_vs_oke_1987_table_2_1():
     # Oke (1987) Table 2.1 via reference sheet 1.3 (from memory there, too).
-    table = cooling.THERMAL_ADMITTANCE_J_M2_K_S05
+    table = sqrt_time_cooling.THERMAL_ADMITTANCE_J_M2_K_S05
     assert table["dry_sandy_soil"] == 600.0 and table["saturated_sandy_soil"] == 2550.0
     assert table["fresh_snow"] < table["dry_peat"] < table["dry_clay"] < table["saturated_clay"]
 
@@ -68,37 +68,37 @@ def test_reuter_sqrt_trend_c_vs_fao_fp_check_b():
         -5.45,
     ]
     hours = np.arange(14.0)
-    trend = cooling.reuter_sqrt_trend_c(0.95, -5.45, hours, 13.0)
+    trend = sqrt_time_cooling.reuter_sqrt_trend_c(0.95, -5.45, hours, 13.0)
     assert trend == pytest.approx(expected, abs=0.01)
-    assert cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 13.0) == pytest.approx(-1.7750, abs=5e-5)
+    assert sqrt_time_cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 13.0) == pytest.approx(-1.7750, abs=5e-5)
 
 
 def test_reuter_sqrt_trend_c_is_nan_outside_t0_to_sunrise():
-    assert math.isnan(cooling.reuter_sqrt_trend_c(0.95, -5.45, -0.5, 13.0))
-    assert math.isnan(cooling.reuter_sqrt_trend_c(0.95, -5.45, 13.5, 13.0))
-    assert math.isnan(cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 0.0))
+    assert math.isnan(sqrt_time_cooling.reuter_sqrt_trend_c(0.95, -5.45, -0.5, 13.0))
+    assert math.isnan(sqrt_time_cooling.reuter_sqrt_trend_c(0.95, -5.45, 13.5, 13.0))
+    assert math.isnan(sqrt_time_cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 0.0))
 
 
 def test_crossing_elapsed_h_round_trips_the_trend():
-    coeff = cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 13.0)
+    coeff = sqrt_time_cooling.reuter_coefficient_c_per_sqrt_h(0.95, -5.45, 13.0)
     thresholds = np.array([-0.5, -2.2, -4.0, -5.45])
-    t_h = cooling.crossing_elapsed_h(0.95, coeff, thresholds)
-    assert cooling.reuter_sqrt_trend_c(0.95, -5.45, t_h, 13.0) == pytest.approx(thresholds, abs=1e-9)
+    t_h = sqrt_time_cooling.crossing_elapsed_h(0.95, coeff, thresholds)
+    assert sqrt_time_cooling.reuter_sqrt_trend_c(0.95, -5.45, t_h, 13.0) == pytest.approx(thresholds, abs=1e-9)
     assert t_h[-1] == pytest.approx(13.0)
 
 
 def test_crossing_elapsed_h_edge_cases():
-    assert cooling.crossing_elapsed_h(2.0, -1.5, 2.0) == 0.0  # already at the threshold
-    assert cooling.crossing_elapsed_h(2.0, -1.5, 3.0) == 0.0  # already below it
-    assert math.isnan(cooling.crossing_elapsed_h(2.0, 0.0, -1.0))  # never cools
-    assert math.isnan(cooling.crossing_elapsed_h(2.0, 0.4, -1.0))  # warming
-    assert math.isnan(cooling.crossing_elapsed_h(float("nan"), -1.0, -1.0))
+    assert sqrt_time_cooling.crossing_elapsed_h(2.0, -1.5, 2.0) == 0.0  # already at the threshold
+    assert sqrt_time_cooling.crossing_elapsed_h(2.0, -1.5, 3.0) == 0.0  # already below it
+    assert math.isnan(sqrt_time_cooling.crossing_elapsed_h(2.0, 0.0, -1.0))  # never cools
+    assert math.isnan(sqrt_time_cooling.crossing_elapsed_h(2.0, 0.4, -1.0))  # warming
+    assert math.isnan(sqrt_time_cooling.crossing_elapsed_h(float("nan"), -1.0, -1.0))
 
 
 def test_fit_sqrt_cooling_recovers_known_coefficients():
     t_h = np.linspace(0.0, 8.0, 33)
     temps = 4.2 - 1.6 * np.sqrt(t_h)
-    a, b, std = cooling.fit_sqrt_cooling(t_h, temps)
+    a, b, std = sqrt_time_cooling.fit_sqrt_cooling(t_h, temps)
     assert (a, b) == pytest.approx((4.2, -1.6), abs=1e-9)
     assert std == pytest.approx(0.0, abs=1e-9)
 
@@ -107,21 +107,21 @@ def test_fit_sqrt_cooling_with_noise_and_recent_weighting():
     rng = np.random.default_rng(7)
     t_h = np.linspace(0.0, 8.0, 97)
     temps = 3.0 - 1.2 * np.sqrt(t_h) + rng.normal(0.0, 0.2, t_h.size)
-    a, b, std = cooling.fit_sqrt_cooling(t_h, temps)
+    a, b, std = sqrt_time_cooling.fit_sqrt_cooling(t_h, temps)
     assert a == pytest.approx(3.0, abs=0.15) and b == pytest.approx(-1.2, abs=0.08)
     assert std == pytest.approx(0.2, abs=0.05)
-    a_w, b_w, _ = cooling.fit_sqrt_cooling(t_h, 3.0 - 1.2 * np.sqrt(t_h), recent_half_life_h=1.0)
+    a_w, b_w, _ = sqrt_time_cooling.fit_sqrt_cooling(t_h, 3.0 - 1.2 * np.sqrt(t_h), recent_half_life_h=1.0)
     assert (a_w, b_w) == pytest.approx((3.0, -1.2), abs=1e-9)
 
 
 def test_fit_sqrt_cooling_drops_bad_points_and_needs_two():
-    a, b, std = cooling.fit_sqrt_cooling([0.0, 1.0, float("nan"), 4.0, -1.0], [2.0, 1.0, 0.0, 0.0, 9.0])
+    a, b, std = sqrt_time_cooling.fit_sqrt_cooling([0.0, 1.0, float("nan"), 4.0, -1.0], [2.0, 1.0, 0.0, 0.0, 9.0])
     assert (a, b) == pytest.approx((2.0, -1.0)) and std == pytest.approx(0.0, abs=1e-12)
-    assert all(math.isnan(v) for v in cooling.fit_sqrt_cooling([1.0], [2.0]))
-    assert all(math.isnan(v) for v in cooling.fit_sqrt_cooling([1.0, 1.0], [2.0, 3.0]))
-    assert math.isnan(cooling.fit_sqrt_cooling([0.0, 4.0], [2.0, 0.0])[2])
+    assert all(math.isnan(v) for v in sqrt_time_cooling.fit_sqrt_cooling([1.0], [2.0]))
+    assert all(math.isnan(v) for v in sqrt_time_cooling.fit_sqrt_cooling([1.0, 1.0], [2.0, 3.0]))
+    assert math.isnan(sqrt_time_cooling.fit_sqrt_cooling([0.0, 4.0], [2.0, 0.0])[2])
     with pytest.raises(ValueError):
-        cooling.fit_sqrt_cooling([0.0, 1.0], [1.0])
+        sqrt_time_cooling.fit_sqrt_cooling([0.0, 1.0], [1.0])
 
 
 # ----------------------------------------------------------------------------- projection
@@ -130,11 +130,11 @@ def test_fit_sqrt_cooling_drops_bad_points_and_needs_two():
 def test_project_night_energy_balance_vs_brunt_1941_constant_loss(monkeypatch):
     # With a constant 80 W m-2 loss, no air layer, no wind and air too dry to saturate, the
     # projection is Brunt's solution: 14.3 K after 10 h at mu 1200 (reference sheet 1.3).
-    monkeypatch.setattr(cooling, "net_longwave_w_m2", lambda t, *a, **k: np.full(np.shape(t), -80.0))
-    hours, temps, _ = cooling.project_night_energy_balance(
+    monkeypatch.setattr(night_energy_balance, "net_longwave_w_m2", lambda t, *a, **k: np.full(np.shape(t), -80.0))
+    hours, temps, _ = night_energy_balance.project_night_energy_balance(
         10.0, -30.0, 10.0, air_admittance_j_m2_k_s05=0.0, thermal_admittance_j_m2_k_s05=1200.0
     )
-    brunt = cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, hours * 3600.0)
+    brunt = sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, hours * 3600.0)
     assert 10.0 - temps == pytest.approx(brunt, abs=1e-9)
 
 
@@ -142,9 +142,9 @@ def test_project_night_energy_balance_saturated_air_follows_its_frost_point_down
     # Same constant loss: the deposit's latent heat is not added to the layer's capacity (see
     # the function's notes), so saturated air cools as dry air does, and its dew point falls
     # with it, never above the air temperature.
-    monkeypatch.setattr(cooling, "net_longwave_w_m2", lambda t, *a, **k: np.full(np.shape(t), -80.0))
-    _, dry, _ = cooling.project_night_energy_balance(2.0, -25.0, 10.0)
-    _, wet, dew = cooling.project_night_energy_balance(2.0, 2.0, 10.0)
+    monkeypatch.setattr(night_energy_balance, "net_longwave_w_m2", lambda t, *a, **k: np.full(np.shape(t), -80.0))
+    _, dry, _ = night_energy_balance.project_night_energy_balance(2.0, -25.0, 10.0)
+    _, wet, dew = night_energy_balance.project_night_energy_balance(2.0, 2.0, 10.0)
     assert wet == pytest.approx(dry, abs=1e-9)
     assert np.all(dew <= wet + 1e-12)
     assert dew[-1] < 2.0 - 2.0 and np.all(np.diff(dew) <= 1e-12)
@@ -153,14 +153,14 @@ def test_project_night_energy_balance_saturated_air_follows_its_frost_point_down
 def test_stable_transfer_factor_louis_1979_hand_values():
     # 1 / (1 + 3 b Ri sqrt(1 + d Ri)), b = d = 5 (Louis 1979): by hand, Ri 0.1 -> 1/(1 + 1.5 sqrt 1.5)
     # = 0.35247; Ri 0.5 -> 1/(1 + 7.5 sqrt 3.5) = 0.06653; neutral and unstable -> 1.
-    assert cooling.stable_transfer_factor(0.1) == pytest.approx(0.35247, abs=1e-5)
-    assert cooling.stable_transfer_factor(0.5) == pytest.approx(0.06653, abs=1e-5)
-    assert cooling.stable_transfer_factor([0.0, -0.3]) == pytest.approx([1.0, 1.0])
+    assert wind_mixing.stable_transfer_factor(0.1) == pytest.approx(0.35247, abs=1e-5)
+    assert wind_mixing.stable_transfer_factor(0.5) == pytest.approx(0.06653, abs=1e-5)
+    assert wind_mixing.stable_transfer_factor([0.0, -0.3]) == pytest.approx([1.0, 1.0])
     # bulk Richardson number by hand: 9.80665 * 10 m * 3 K / (273.15 K * 2^2 m2 s-2) = 0.26927
-    assert cooling.bulk_richardson_frac(3.0, 0.0, 2.0) == pytest.approx(0.26927, abs=1e-5)
-    assert math.isnan(cooling.bulk_richardson_frac(3.0, 0.0, 0.0))
+    assert wind_mixing.bulk_richardson_frac(3.0, 0.0, 2.0) == pytest.approx(0.26927, abs=1e-5)
+    assert math.isnan(wind_mixing.bulk_richardson_frac(3.0, 0.0, 0.0))
     # log-law neutral coefficient at 10 m over z0 = 0.1 m: (0.4 / ln 100)^2 = 0.0075445
-    assert cooling.NEUTRAL_TRANSFER_COEFF_FRAC == pytest.approx(0.0075445, abs=1e-7)
+    assert wind_mixing.NEUTRAL_TRANSFER_COEFF_FRAC == pytest.approx(0.0075445, abs=1e-7)
 
 
 def test_evening_wind_decouples_as_the_inversion_grows():
@@ -174,12 +174,12 @@ def test_evening_wind_decouples_as_the_inversion_grows():
 
 
 def test_project_night_energy_balance_shapes_and_dew_point():
-    hours, temps, dew = cooling.project_night_energy_balance(3.0, -5.0, 10.0, step_s=300)
+    hours, temps, dew = night_energy_balance.project_night_energy_balance(3.0, -5.0, 10.0, step_s=300)
     assert hours.shape == temps.shape == dew.shape == (121,)
     assert hours[0] == 0.0 and hours[-1] == pytest.approx(10.0)
     assert temps[0] == 3.0 and np.all(np.diff(temps) <= 0.0)
     assert dew[0] == pytest.approx(-5.0, abs=1e-9) and np.all(dew <= temps + 1e-12)
-    hours, _, _ = cooling.project_night_energy_balance(3.0, -5.0, 1.1, step_s=600)
+    hours, _, _ = night_energy_balance.project_night_energy_balance(3.0, -5.0, 1.1, step_s=600)
     assert hours[-1] == pytest.approx(1.1) and hours.size == 8
 
 
@@ -193,46 +193,46 @@ def test_project_night_energy_balance_out_of_domain_is_nan_and_bad_structure_rai
         {"start_temp_c": float("nan")},
     ):
         args = {"start_temp_c": 3.0, "dew_point_c": -5.0, **kwargs}
-        _, temps, dew = cooling.project_night_energy_balance(hours=10.0, **args)
+        _, temps, dew = night_energy_balance.project_night_energy_balance(hours=10.0, **args)
         assert np.all(np.isnan(temps)) and np.all(np.isnan(dew))
     for hours, step in ((0.0, 300), (-1.0, 300), (30.0, 300), (10.0, 0.0), (float("nan"), 300)):
         with pytest.raises(ValueError):
-            cooling.project_night_energy_balance(3.0, -5.0, hours, step_s=step)
+            night_energy_balance.project_night_energy_balance(3.0, -5.0, hours, step_s=step)
 
 
 def test_project_night_energy_balance_takes_slight_supersaturation_as_saturated():
     # Hygrometers read a little over 100 % RH in dew; up to 105 % counts as saturated air.
-    _, sat, _ = cooling.project_night_energy_balance(2.0, 2.0, 10.0)
-    _, over, dew = cooling.project_night_energy_balance(2.0, 2.3, 10.0)
+    _, sat, _ = night_energy_balance.project_night_energy_balance(2.0, 2.0, 10.0)
+    _, over, dew = night_energy_balance.project_night_energy_balance(2.0, 2.3, 10.0)
     assert over == pytest.approx(sat, abs=1e-12) and dew[0] == pytest.approx(2.0)
-    _, far_over, _ = cooling.project_night_energy_balance(2.0, 3.5, 10.0)
+    _, far_over, _ = night_energy_balance.project_night_energy_balance(2.0, 3.5, 10.0)
     assert np.all(np.isnan(far_over))
-    assert math.isnan(cooling.clear_night_minimum_prior_c(2.0, -300.0, 10.0))
+    assert math.isnan(clear_night_prior.clear_night_minimum_prior_c(2.0, -300.0, 10.0))
 
 
 def test_clear_night_minimum_prior_c_sanity_calm_clear():
     # Brief: T0 3, Td -5, 10 h, calm and clear should land about -3..-6 degC, the range of the
     # FAO-FP sample minima.
-    assert -6.0 <= cooling.clear_night_minimum_prior_c(3.0, -5.0, 10.0) <= -3.0
+    assert -6.0 <= clear_night_prior.clear_night_minimum_prior_c(3.0, -5.0, 10.0) <= -3.0
 
 
 def test_clear_night_minimum_prior_c_vs_fao_fp_ch5_sample():
     # FAO-FP Ch. 5 ten-night sample (reference sheet 1.1), 12 h from t0 to sunrise (assumed).
     # The free constant was tuned on these nights: measured MAE 1.066 degC, bias -0.17 degC.
     # Tolerance: MAE <= 1.3 and |bias| <= 0.5 degC (Reuter-type methods reach +-1.5, sheet 8).
-    prior = cooling.clear_night_minimum_prior_c(FAO_T0_C, FAO_TD_C, FAO_HOURS_T0_TO_SUNRISE_H)
+    prior = clear_night_prior.clear_night_minimum_prior_c(FAO_T0_C, FAO_TD_C, FAO_HOURS_T0_TO_SUNRISE_H)
     err = prior - np.array(FAO_TN_C)
     assert np.mean(np.abs(err)) <= 1.3
     assert abs(np.mean(err)) <= 0.5
 
 
 def test_clear_night_minimum_prior_c_broadcasts_and_masks():
-    prior = cooling.clear_night_minimum_prior_c(np.array([[1.0], [3.0]]), -5.0, [8.0, 10.0, 12.0])
+    prior = clear_night_prior.clear_night_minimum_prior_c(np.array([[1.0], [3.0]]), -5.0, [8.0, 10.0, 12.0])
     assert prior.shape == (2, 3)
     assert np.all(np.diff(prior, axis=1) <= 0.0)  # a longer night is never warmer
-    assert math.isnan(cooling.clear_night_minimum_prior_c(3.0, -5.0, 0.0))
-    assert math.isnan(cooling.clear_night_minimum_prior_c(3.0, 5.0, 10.0))
-    assert isinstance(cooling.clear_night_minimum_prior_c(3.0, -5.0, 10.0), float)
+    assert math.isnan(clear_night_prior.clear_night_minimum_prior_c(3.0, -5.0, 0.0))
+    assert math.isnan(clear_night_prior.clear_night_minimum_prior_c(3.0, 5.0, 10.0))
+    assert isinstance(clear_night_prior.clear_night_minimum_prior_c(3.0, -5.0, 10.0), float)
 
 
 def test_project_night_energy_balance_wind_and_cloud_raise_the_minimum():
@@ -293,7 +293,7 @@ def test_project_night_energy_balance_monotone_in_start_temperature(
 @settings(max_examples=60, deadline=None)
 @given(TEMP, SPREAD, WIND, CLOUD, HOURS)
 def test_project_night_energy_balance_dew_point_never_above_air(t0, spread, wind, cloud, hours):
-    _, temps, dew = cooling.project_night_energy_balance(
+    _, temps, dew = night_energy_balance.project_night_energy_balance(
         t0, t0 - spread, hours, wind_speed_m_s=wind, cloud_frac=cloud
     )
     assert np.all(dew <= temps + 1e-9)

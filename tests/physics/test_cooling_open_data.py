@@ -20,7 +20,7 @@ import pytest
 pytest.importorskip("pvlib")
 
 from frostwatch.night import night_of_date  # noqa: E402
-from frostwatch.physics import cooling  # noqa: E402
+from frostwatch.physics import clear_night_prior  # noqa: E402
 
 _SPEC = importlib.util.spec_from_file_location("bench_tmy", Path(__file__).resolve().parents[2] / "bench" / "tmy.py")
 tmy = importlib.util.module_from_spec(_SPEC)
@@ -61,7 +61,7 @@ def clear_calm_nights(site_key: str) -> list[dict]:
 def test_prior_on_greensboro_clear_calm_nights_has_no_large_warm_bias():
     nights = clear_calm_nights("greensboro")
     assert len(nights) >= 30
-    prior = np.array([cooling.clear_night_minimum_prior_c(n["t0"], n["td0"], n["h"], n["u0"], n["c0"], n["p"]) for n in nights])
+    prior = np.array([clear_night_prior.clear_night_minimum_prior_c(n["t0"], n["td0"], n["h"], n["u0"], n["c0"], n["p"]) for n in nights])
     err = prior - np.array([n["tmin"] for n in nights])
     assert abs(np.mean(err)) <= 1.0  # measured +0.7 K (before: +1.3 K)
     assert np.mean(np.abs(err)) <= 1.6  # measured 1.5 K (before: 1.7 K)
