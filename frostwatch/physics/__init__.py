@@ -1,6 +1,8 @@
 """Pure, vectorised physics: SI units in and out (temperatures in degC unless a name says _k).
 
-Every function cites its published source in its docstring. No I/O, no clock. The rooms:
+Every function cites its published source in its docstring. No I/O, no clock. Physical constants
+(zero Celsius, Stefan-Boltzmann, latent heats, the Magnus coefficients) come from
+`frostwatch.constants`, degF conversions from `frostwatch.units`. The rooms:
 
 Moist air (psychrometrics; `humidity` gathers them for callers that want one import)
     saturation          saturation vapour pressure over water and ice (Hyland & Wexler 1983)

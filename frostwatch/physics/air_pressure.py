@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from frostwatch.constants import STANDARD_PRESSURE_HPA  # noqa: F401 - re-exported with the pressure function
 from frostwatch.physics._broadcast import _inputs, _result
 
-STANDARD_PRESSURE_HPA = 1013.25  # [hPa] ISO 2533 / ICAO standard atmosphere at sea level
 ELEVATION_MIN_M = -500.0  # [m] below the lowest dry land (Dead Sea shore, about -430 m)
 ELEVATION_MAX_M = 11000.0  # [m] standard tropopause; the formula's lapse rate ends there
 

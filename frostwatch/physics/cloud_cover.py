@@ -9,8 +9,8 @@ from collections.abc import Callable
 
 import numpy as np
 
+from frostwatch.constants import ZERO_CELSIUS_K
 from frostwatch.physics.sky_emissivity import (
-    ZERO_CELSIUS_K,
     _frac_ok,
     _lookup,
     _masked,

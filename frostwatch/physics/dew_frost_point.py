@@ -13,9 +13,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from frostwatch.constants import MAGNUS_E0_HPA, MAGNUS_WATER_B, MAGNUS_WATER_C_C, PA_PER_HPA
 from frostwatch.physics._broadcast import _inputs, _result
 from frostwatch.physics.saturation import (
-    PA_PER_HPA,
     SAT_ICE_MAX_C,
     SAT_ICE_MIN_C,
     SAT_WATER_MAX_C,
@@ -38,9 +38,9 @@ def _dew_point_c(vapour_pressure_hpa: np.ndarray) -> np.ndarray:
         ln_e_pa = np.log(
             np.where(vapour_pressure_hpa > 0.0, vapour_pressure_hpa, np.nan) * PA_PER_HPA
         )
-        # First guess: Magnus over water (WMO-No. 8, 6.112, 17.62, 243.12).
-        gamma = np.log(vapour_pressure_hpa / 6.112)
-        guess_c = 243.12 * gamma / (17.62 - gamma)
+        # First guess: Magnus over water (WMO-No. 8, frostwatch.constants).
+        gamma = np.log(vapour_pressure_hpa / MAGNUS_E0_HPA)
+        guess_c = MAGNUS_WATER_C_C * gamma / (MAGNUS_WATER_B - gamma)
     guess_c = np.where(np.isfinite(guess_c), guess_c, 0.0)
     return _invert_ln_curve(
         ln_e_pa,

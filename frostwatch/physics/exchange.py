@@ -24,11 +24,15 @@ from typing import Final
 
 import numpy as np
 
+from frostwatch.constants import (
+    DRY_AIR_GAS_CONSTANT_J_KG_K,
+    DRY_AIR_SPECIFIC_HEAT_J_KG_K,
+    PA_PER_HPA,
+    ZERO_CELSIUS_K,
+)
 from frostwatch.physics.saturation import saturation_vapour_pressure_ice_hpa
 
 __all__ = [
-    "AIR_GAS_CONSTANT_J_KG_K",
-    "AIR_SPECIFIC_HEAT_J_KG_K",
     "VON_KARMAN",
     "PSYCHROMETER_COEFF_ICE_PER_K",
     "aerodynamic_resistance_s_m",
@@ -36,17 +40,11 @@ __all__ = [
     "iced_surface_exchange_w_m2",
 ]
 
-# Gas constant of dry air [J kg-1 K-1] and its specific heat at constant pressure [J kg-1 K-1],
-# the values of MetPy's constants module (metpy.constants.Rd, Cp_d; checked in the tests).
-AIR_GAS_CONSTANT_J_KG_K: Final = 287.047
-AIR_SPECIFIC_HEAT_J_KG_K: Final = 1004.67
 # von Karman's constant, 0.41 as FAO-56 eq. 4 uses it.
 VON_KARMAN: Final = 0.41
 # Psychrometer coefficient of a ventilated ice bulb [K-1], WMO-No. 8 Annex 4.B: e = ei(Ti) -
 # A p (T - Ti). Theory gives cp / (eps Ls) = 1004.67 / (0.622 * 2.8345e6) = 5.70e-4 K-1.
 PSYCHROMETER_COEFF_ICE_PER_K: Final = 5.75e-4
-_ZERO_C_K: Final = 273.15
-_PA_PER_HPA: Final = 100.0
 
 
 def aerodynamic_resistance_s_m(
@@ -99,10 +97,10 @@ def air_density_kg_m3(air_temp_c, pressure_hpa):
     Water vapour changes it by well under 1 % on frost nights. NaN for a temperature at or
     below absolute zero or a pressure at or below 0.
     """
-    t_k = np.asarray(air_temp_c, dtype=float) + _ZERO_C_K
-    p_pa = np.asarray(pressure_hpa, dtype=float) * _PA_PER_HPA
+    t_k = np.asarray(air_temp_c, dtype=float) + ZERO_CELSIUS_K
+    p_pa = np.asarray(pressure_hpa, dtype=float) * PA_PER_HPA
     with np.errstate(divide="ignore", invalid="ignore"):
-        rho = np.where((t_k > 0.0) & (p_pa > 0.0), p_pa / (AIR_GAS_CONSTANT_J_KG_K * t_k), math.nan)
+        rho = np.where((t_k > 0.0) & (p_pa > 0.0), p_pa / (DRY_AIR_GAS_CONSTANT_J_KG_K * t_k), math.nan)
     return float(rho) if rho.ndim == 0 else rho
 
 
@@ -145,7 +143,7 @@ def iced_surface_exchange_w_m2(
     values = (air_temp_c, vapour_pressure_hpa, resistance_s_m, pressure_hpa, surface_temp_c)
     if not all(math.isfinite(float(v)) for v in values) or resistance_s_m <= 0 or pressure_hpa <= 0:
         return math.nan, math.nan
-    rho_cp = float(air_density_kg_m3(air_temp_c, pressure_hpa)) * AIR_SPECIFIC_HEAT_J_KG_K
+    rho_cp = float(air_density_kg_m3(air_temp_c, pressure_hpa)) * DRY_AIR_SPECIFIC_HEAT_J_KG_K
     sensible = rho_cp * (surface_temp_c - air_temp_c) / resistance_s_m
     gamma_hpa_k = PSYCHROMETER_COEFF_ICE_PER_K * pressure_hpa
     e_surface = float(saturation_vapour_pressure_ice_hpa(surface_temp_c))

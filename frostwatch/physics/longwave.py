@@ -12,10 +12,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from frostwatch.constants import SECONDS_PER_HOUR_S, STEFAN_BOLTZMANN_W_M2_K4, ZERO_CELSIUS_K
 from frostwatch.physics.cloud_cover import all_sky_emissivity
 from frostwatch.physics.sky_emissivity import (
-    STEFAN_BOLTZMANN_W_M2_K4,
-    ZERO_CELSIUS_K,
     _air_ok,
     _frac_ok,
     _masked,
@@ -26,7 +25,6 @@ from frostwatch.physics.sky_emissivity import (
 
 FAO56_SIGMA_MJ_M2_H_K4 = 2.043e-10  # [MJ m-2 h-1 K-4] Allen et al. 1998 (FAO-56), hourly; FAO-56 only
 SURFACE_EMISSIVITY_DEFAULT_FRAC = 0.98  # [-] leaves, soil, ice 0.95-0.99 (from memory, common default)
-SECONDS_PER_HOUR_S = 3600.0  # [s]
 FAO56_RS_RSO_MIN_FRAC = 0.35 / 1.35  # [-] below this the FAO-56 cloud factor 1.35 r - 0.35 < 0
 
 

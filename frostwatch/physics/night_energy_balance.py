@@ -13,18 +13,25 @@ import numbers
 
 import numpy as np
 
+from frostwatch.constants import (
+    GRAVITY_M_S2,
+    MAGNUS_E0_HPA,
+    MAGNUS_ICE_B,
+    MAGNUS_ICE_C_C,
+    MAGNUS_WATER_B,
+    MAGNUS_WATER_C_C,
+    SECONDS_PER_HOUR_S,
+    ZERO_CELSIUS_K,
+)
 from frostwatch.physics.longwave import SURFACE_EMISSIVITY_DEFAULT_FRAC, net_longwave_w_m2
 from frostwatch.physics.sky_emissivity import AIR_TEMP_MAX_C, AIR_TEMP_MIN_C, SUPERSATURATION_MAX_FRAC
 from frostwatch.physics.sqrt_time_cooling import GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05, SQRT_PI
 from frostwatch.physics.wind_mixing import (
     ANEMOMETER_HEIGHT_M,
-    GRAVITY_M_S2,
     LOUIS_B,
     LOUIS_D,
     NEUTRAL_TRANSFER_COEFF_FRAC,
 )
-
-SECONDS_PER_HOUR_S = 3600.0  # [s]
 
 # Effective admittance of the cooling air layer above the crop, rho c_p sqrt(K_eff).
 # The one free constant of the projection. Tuned by a grid search over 500..6000 in steps
@@ -37,16 +44,10 @@ SECONDS_PER_HOUR_S = 3600.0  # [s]
 # earlier form with it was tuned to 1600 (MAE 1.249 degC).
 AIR_ADMITTANCE_EFFECTIVE_J_M2_K_S05 = 1700.0
 
+# Rounded values the prior was tuned with; frostwatch.constants holds MetPy's 1004.67 and 287.047
+# (rho c_p differs by 0.03 %). Switching belongs with the prior's refit, not with a restructuring.
 CP_DRY_AIR_J_KG_K = 1005.0  # [J kg-1 K-1] common value near 0 degC (from memory)
 R_DRY_AIR_J_KG_K = 287.05  # [J kg-1 K-1] specific gas constant of dry air
-# Magnus coefficients, WMO-No. 8 (CIMO Guide) Annex 4.B: over water -45..60 degC,
-# over ice -65..0.01 degC (reference sheet, section 10).
-MAGNUS_E0_HPA = 6.112  # [hPa]
-MAGNUS_WATER_B = 17.62  # [-]
-MAGNUS_WATER_C_C = 243.12  # [degC]
-MAGNUS_ICE_B = 22.46  # [-]
-MAGNUS_ICE_C_C = 272.62  # [degC]
-ZERO_CELSIUS_K = 273.15  # [K]
 
 PRESSURE_MIN_HPA = 500.0  # [hPa] about 5.5 km altitude; lower is a units error here
 PRESSURE_MAX_HPA = 1100.0  # [hPa]

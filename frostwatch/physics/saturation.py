@@ -12,6 +12,7 @@ import math
 
 import numpy as np
 
+from frostwatch.constants import PA_PER_HPA, TRIPLE_POINT_WATER_C, ZERO_CELSIUS_K
 from frostwatch.physics._broadcast import _inputs, _result
 
 # Hyland & Wexler (1983), ASHRAE Handbook-Fundamentals (2017) ch. 1 eq. 5: ln(pws [Pa]) over
@@ -32,14 +33,11 @@ _HW_WATER_C11 = 4.1764768e-5
 _HW_WATER_C12 = -1.4452093e-8
 _HW_WATER_C13 = 6.5459673
 
-ZERO_CELSIUS_K = 273.15  # [K] ITS-90 ice point
-TRIPLE_POINT_C = 0.01  # [degC] triple point of water, ITS-90
-PA_PER_HPA = 100.0  # [Pa hPa-1]
 
 SAT_WATER_MIN_C = -100.0  # [degC] lower end of the over-water formula as used here
 SAT_WATER_MAX_C = 200.0  # [degC] upper end, ASHRAE ch. 1
 SAT_ICE_MIN_C = -100.0  # [degC] lower end of the over-ice formula, ASHRAE ch. 1
-SAT_ICE_MAX_C = TRIPLE_POINT_C  # [degC] upper end of the over-ice formula
+SAT_ICE_MAX_C = TRIPLE_POINT_WATER_C  # [degC] upper end of the over-ice formula
 
 _NEWTON_ITERATIONS = 50
 _NEWTON_TOLERANCE_K = 1e-9

@@ -12,10 +12,14 @@ from collections.abc import Callable
 
 import numpy as np
 
+from frostwatch.constants import (
+    MAGNUS_E0_HPA,
+    MAGNUS_WATER_B,
+    MAGNUS_WATER_C_C,
+    STEFAN_BOLTZMANN_W_M2_K4,
+    ZERO_CELSIUS_K,
+)
 from frostwatch.physics._broadcast import _out
-
-STEFAN_BOLTZMANN_W_M2_K4 = 5.670374419e-8  # [W m-2 K-4] CODATA 2018, exact since the 2019 SI
-ZERO_CELSIUS_K = 273.15  # [K] definition of the Celsius scale
 
 # Range over which the clear-sky formulas are applied (degC, hPa). The published fits
 # were made on screen-level data well inside it (Flerchinger et al. 2009, Table 1 sites).
@@ -37,7 +41,7 @@ def _vapour_ok(vapour_pressure_hpa, air_temp_c):
     e = np.asarray(vapour_pressure_hpa, dtype=float)
     t = np.asarray(air_temp_c, dtype=float)
     with np.errstate(all="ignore"):
-        es_hpa = 6.112 * np.exp(17.62 * t / (243.12 + t))  # Magnus over water, WMO-No. 8 Annex 4.B
+        es_hpa = MAGNUS_E0_HPA * np.exp(MAGNUS_WATER_B * t / (MAGNUS_WATER_C_C + t))  # Magnus over water
     return (
         np.isfinite(e) & (e > 0.0) & (e <= VAPOUR_PRESSURE_MAX_HPA) & (e <= SUPERSATURATION_MAX_FRAC * es_hpa)
     )

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from typing import Final
 
-from frostwatch.physics.air_pressure import STANDARD_PRESSURE_HPA
+from frostwatch.constants import STANDARD_PRESSURE_HPA
 from frostwatch.physics.wet_bulb import air_temp_c_for_wet_bulb
 
 __all__ = [

@@ -32,7 +32,12 @@ import math
 from dataclasses import dataclass
 from typing import Final
 
-from frostwatch.physics.air_pressure import STANDARD_PRESSURE_HPA
+from frostwatch.constants import (
+    LATENT_HEAT_FUSION_J_KG,
+    LATENT_HEAT_SUBLIMATION_J_KG,
+    SECONDS_PER_HOUR_S,
+    STANDARD_PRESSURE_HPA,
+)
 from frostwatch.physics.exchange import aerodynamic_resistance_s_m, iced_surface_exchange_w_m2
 from frostwatch.physics.saturation import vapour_pressure_hpa_from_dew_point
 from frostwatch.physics.sprinkler_timing import (  # noqa: F401 - the start and stop rules, re-exported
@@ -47,9 +52,6 @@ __all__ = [
     "CALM_WIND_FLOOR_M_S",
     "FALLBACK_STOP_MARGIN_C",
     "IcedCanopyLoss",
-    "LATENT_HEAT_FUSION_J_KG",
-    "LATENT_HEAT_SUBLIMATION_J_KG",
-    "LATENT_HEAT_VAPORISATION_J_KG",
     "MAX_WIND_FOR_SPRINKLING_M_S",
     "MIN_RISE_C_PER_H",
     "PRACTICE_CALM_PROTECTS_TO_C",
@@ -73,13 +75,6 @@ __all__ = [
     "water_volume_m3",
 ]
 
-# Latent heats at 0 degC [J kg-1]: fusion 333.7 kJ kg-1, vaporisation 2.50084 MJ kg-1 and
-# sublimation their sum, the values of MetPy's constants module (metpy.constants.Lf, Lv, Ls;
-# checked in the tests). Lv/Lf is about 7.5 (frost-physics.md 4.2).
-LATENT_HEAT_FUSION_J_KG: Final = 333.7e3
-LATENT_HEAT_VAPORISATION_J_KG: Final = 2.50084e6
-LATENT_HEAT_SUBLIMATION_J_KG: Final = LATENT_HEAT_VAPORISATION_J_KG + LATENT_HEAT_FUSION_J_KG
-
 # Above about 10 mph (4.5 m s-1) over-plant sprinkling is not advised (Virginia Tech
 # extension text, frost-physics.md 4.2).
 MAX_WIND_FOR_SPRINKLING_M_S: Final = 4.5
@@ -93,7 +88,6 @@ PRACTICE_CALM_PROTECTS_TO_C: Final = -5.6  # 22 F
 PRACTICE_LIGHT_WIND_PROTECTS_TO_C: Final = (-4.4, -3.9)  # 24-25 F
 PRACTICE_SOURCE: Final = ("3.0-3.8 mm/h protects to about -5.6 °C in calm air and to -4.4 to -3.9 °C in "
                           "light wind (Longstroth 2012, MSU Extension)")
-_SECONDS_PER_HOUR: Final = 3600.0
 _M3_PER_MM_HA: Final = 10.0  # 1 mm of water over 1 ha = 10 m3
 
 
@@ -110,7 +104,7 @@ def heat_released_w_m2_per_mm_h() -> float:
     -----
     1 mm h-1 is 1 kg m-2 h-1, so the flux is Lf / 3600 s.
     """
-    return LATENT_HEAT_FUSION_J_KG / _SECONDS_PER_HOUR
+    return LATENT_HEAT_FUSION_J_KG / SECONDS_PER_HOUR_S
 
 
 def _sublimation_to_fusion_ratio() -> float:
@@ -392,4 +386,4 @@ def water_volume_m3(
 
 def peak_flow_l_s(application_rate_mm_h: float, area_ha: float) -> float:
     """Flow needed to run an area at once [L s-1]: 1 mm h-1 over 1 ha is 2.78 L s-1."""
-    return application_rate_mm_h * area_ha * _M3_PER_MM_HA * 1000.0 / _SECONDS_PER_HOUR
+    return application_rate_mm_h * area_ha * _M3_PER_MM_HA * 1000.0 / SECONDS_PER_HOUR_S

@@ -12,12 +12,11 @@ import math
 
 import numpy as np
 
+from frostwatch.constants import MOLAR_MASS_RATIO_WATER_AIR, STANDARD_PRESSURE_HPA
 from frostwatch.physics._broadcast import _inputs, _result
-from frostwatch.physics.air_pressure import STANDARD_PRESSURE_HPA
 from frostwatch.physics.dew_frost_point import DEW_POINT_EXCESS_TOLERANCE_K, dew_point_c_from_rel_humidity
 from frostwatch.physics.saturation import _sat_hpa_f, _sat_ice_hpa, _sat_water_hpa
 
-MOLAR_MASS_RATIO_WATER_AIR = 0.621945  # [-] ASHRAE Handbook-Fundamentals (2017) ch. 1 eq. 20
 _BISECTION_ITERATIONS = 16  # fixed count (same answer scalar or array); Illinois reaches 1e-9 K in ~10
 
 

@@ -9,6 +9,7 @@ import math
 
 import numpy as np
 
+from frostwatch.constants import GRAVITY_M_S2, ZERO_CELSIUS_K
 from frostwatch.physics._broadcast import _out
 
 # Heat brought down by wind from the air aloft: H = rho c_p C_H u (T_aloft - T), with the
@@ -23,10 +24,8 @@ VON_KARMAN = 0.4  # [-] von Karman constant (common value)
 ANEMOMETER_HEIGHT_M = 10.0  # [m] WMO standard exposure of wind sensors
 ROUGHNESS_LENGTH_M = 0.1  # [m] orchard floor, short crops (common practice; engineering choice)
 NEUTRAL_TRANSFER_COEFF_FRAC = (VON_KARMAN / math.log(ANEMOMETER_HEIGHT_M / ROUGHNESS_LENGTH_M)) ** 2
-GRAVITY_M_S2 = 9.80665  # [m s-2] standard gravity (CGPM 1901)
 LOUIS_B = 5.0  # [-] Louis (1979) stable-side constants b = d = 5
 LOUIS_D = 5.0  # [-]
-ZERO_CELSIUS_K = 273.15  # [K]
 
 
 def stable_transfer_factor(richardson_frac):
