@@ -13,9 +13,9 @@ import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
+from frostwatch.constants import ZERO_CELSIUS_K
 from frostwatch.errors import UnitError
 
-ZERO_CELSIUS_K = 273.15  # K, definition of the Celsius scale (SI Brochure, 9th ed., 2019)
 KNOT_M_S = 1852.0 / 3600.0  # m s-1, international nautical mile (1852 m) per hour
 MILE_M = 1609.344  # m, international mile (1959 agreement)
 INHG_HPA = 33.8638866667  # hPa per inch of mercury at 0 degC (NIST SP 811, 2008)
@@ -67,7 +67,7 @@ def _fold(unit: str) -> str:
 # (kind, spellings, converter to the kind's canonical unit)
 _TABLE: tuple[tuple[str, tuple[str, ...], Callable[[float], float]], ...] = (
     ("temperature", ("degC", "C", "°C", "celsius", "deg C"), _ident),
-    ("temperature", ("degF", "F", "°F", "fahrenheit", "deg F"), lambda v: (v - 32.0) * 5.0 / 9.0),
+    ("temperature", ("degF", "F", "°F", "fahrenheit", "deg F"), lambda v: f_to_c(v)),
     ("temperature", ("K", "kelvin"), lambda v: v - ZERO_CELSIUS_K),
     ("ratio_pct", ("%", "percent", "pct"), _ident),
     ("ratio_pct", ("1", "fraction"), lambda v: v * 100.0),
@@ -143,14 +143,31 @@ def array_converter(quantity: str, unit: str | None) -> Callable | None:
     return _ident if fn is _IDENT_MARK else fn
 
 
-def c_to_f(temp_c: float) -> float:
-    """Degrees Celsius to degrees Fahrenheit."""
+# ---- degrees Fahrenheit: the one place frostwatch converts them ---------------------------------
+# Every reader of degF (ingest, the display, the status and fleet pages, the reports, the calculator
+# and its arguments, the published crop tables) calls these four. Each takes a float or a numpy
+# array (plain arithmetic, element by element) and returns the same kind. A temperature converts
+# with the 32-degree offset; a difference (a margin, an inversion, a trend) without it.
+
+
+def c_to_f(temp_c):
+    """A temperature in degrees Celsius to degrees Fahrenheit: F = C * 9/5 + 32 (float or array)."""
     return temp_c * 9.0 / 5.0 + 32.0
 
 
-def delta_c_to_f(delta_c: float) -> float:
-    """A temperature difference in kelvin (= degC) to a difference in degrees Fahrenheit."""
+def f_to_c(temp_f):
+    """A temperature in degrees Fahrenheit to degrees Celsius: C = (F - 32) * 5/9 (float or array)."""
+    return (temp_f - 32.0) * 5.0 / 9.0
+
+
+def delta_c_to_f(delta_c):
+    """A temperature difference in kelvin (= degC) to a difference in degrees Fahrenheit (x 9/5)."""
     return delta_c * 9.0 / 5.0
+
+
+def delta_f_to_c(delta_f):
+    """A temperature difference in degrees Fahrenheit to kelvin (= degC) (x 5/9)."""
+    return delta_f * 5.0 / 9.0
 
 
 def is_finite_number(value: object) -> bool:

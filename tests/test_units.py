@@ -2,12 +2,14 @@
 
 import math
 
+import numpy as np
 import pytest
+import scipy.constants as si
 from hypothesis import given
 from hypothesis import strategies as st
 
 from frostwatch.errors import UnitError
-from frostwatch.units import QUANTITIES, c_to_f, known_units, to_canonical
+from frostwatch.units import QUANTITIES, c_to_f, delta_c_to_f, delta_f_to_c, f_to_c, known_units, to_canonical
 
 
 @pytest.mark.parametrize(
@@ -58,3 +60,22 @@ def test_every_quantity_has_units_and_a_finite_range():
     for q in QUANTITIES.values():
         assert known_units(q.kind), q.name
         assert math.isfinite(q.low) and math.isfinite(q.high) and q.low < q.high
+
+
+@pytest.mark.parametrize(("temp_c", "temp_f"), [(0.0, 32.0), (100.0, 212.0), (-40.0, -40.0), (-2.2, 28.04)])
+def test_fahrenheit_helpers_vs_scipy_convert_temperature(temp_c, temp_f):
+    # scipy.constants.convert_temperature (NIST SP 811: t/degF = 1.8 t/degC + 32) and the fixed
+    # points of water; 28.04 F is the -2.2 C of the apple T10 rows.
+    assert c_to_f(temp_c) == pytest.approx(si.convert_temperature(temp_c, "Celsius", "Fahrenheit"), abs=1e-9)
+    assert c_to_f(temp_c) == pytest.approx(temp_f, abs=1e-9)
+    assert f_to_c(temp_f) == pytest.approx(si.convert_temperature(temp_f, "Fahrenheit", "Celsius"), abs=1e-9)
+    assert f_to_c(temp_f) == pytest.approx(temp_c, abs=1e-9)
+
+
+def test_fahrenheit_difference_helpers_have_no_offset_and_take_arrays():
+    # a difference of 1 K is 1.8 degF (NIST SP 811); the helpers take numpy arrays as well
+    assert delta_c_to_f(1.0) == pytest.approx(1.8) and delta_f_to_c(1.8) == pytest.approx(1.0)
+    assert delta_f_to_c(delta_c_to_f(2.5)) == pytest.approx(2.5)
+    temps_c = np.array([-5.0, 0.0, 5.0])
+    assert np.allclose(f_to_c(c_to_f(temps_c)), temps_c)
+    assert np.allclose(c_to_f(temps_c), si.convert_temperature(temps_c, "Celsius", "Fahrenheit"))

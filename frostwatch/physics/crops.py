@@ -33,6 +33,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from frostwatch.physics.crop_stage_tables import CRITICAL_TEMP_TABLES, CROP_ALIASES
+from frostwatch.units import f_to_c
 
 __all__ = [
     "CriticalTemps",
@@ -100,10 +101,6 @@ def normalise_name(text: str) -> str:
         The name in matching form.
     """
     return "".join(ch for ch in text.strip().lower() if ch not in " -_\t")
-
-
-def _f_to_c(value_f: float) -> float:
-    return (value_f - 32.0) * 5.0 / 9.0
 
 
 def _resolve_crop(crop: str) -> str:
@@ -205,7 +202,7 @@ def critical_temps(
     key = normalise_name(stage)
     for stage_name, t10, t90 in table.rows:
         if normalise_name(stage_name) == key:
-            convert = _f_to_c if table.unit == "degF" else float
+            convert = f_to_c if table.unit == "degF" else float
             t10_c = convert(t10)
             t90_c = math.nan if t90 is None else convert(t90)
             return CriticalTemps(
