@@ -22,6 +22,7 @@ from typing import Any
 from frostwatch.errors import ConfigError
 
 PROTECTION_METHODS = ("wind_machine", "overtree_sprinkler", "undertree_sprinkler", "heaters", "none")
+SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")  # the protections that wet the block
 STATION_ROLES = ("crop", "tower", "sky", "weather")
 DISPLAY_UNITS = ("degC", "degF")
 SITE_ID_RE = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
@@ -534,7 +535,7 @@ def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
         problems.append(f"{label}.margin_c: {v['margin_c']} is out of range; expected 0..10 degC above T10 (common practice about 2)")
     if not 0 <= v["mobilisation_min"] <= 600:
         problems.append(f"{label}.mobilisation_min: {v['mobilisation_min']} is out of range; expected 0..600 minutes")
-    if v["protection"] in ("overtree_sprinkler", "undertree_sprinkler"):
+    if v["protection"] in SPRINKLER_METHODS:
         rate = v["application_rate_mm_h"]
         if rate is None:
             problems.append(f"{label}.application_rate_mm_h: missing; a sprinkler block needs its application rate in mm per hour")

@@ -21,7 +21,7 @@ import numpy as np
 
 from frostwatch import drying
 from frostwatch import towers as towers_mod
-from frostwatch.config import Block, Config, Station
+from frostwatch.config import SPRINKLER_METHODS, Block, Config, Station
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import PROTECTION_QUANTITIES, Calibration, NightRecord, feature_vector
 from frostwatch.forecast.nowcast import feature_matrix, features_at
@@ -48,7 +48,6 @@ RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean 
 RADIATION_NIGHT_CLOUD_FRAC = 0.3  # ... and its cloud never above this (FAO-FP ch. 5 usage)
 CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is flagged as not holding
 GRID_STEP_S = 300.0
-SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")
 NOWCAST_SAMPLE_STEP_S = 1800.0  # one training point per half hour of a past night
 NOWCAST_START_S = 1800.0  # the nowcast's training points start half an hour after t0
 MIN_BAND_C = 0.3
