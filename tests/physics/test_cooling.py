@@ -41,11 +41,29 @@ def test_surface_cooling_k_brunt_1941_grows_as_sqrt_time_and_masks_bad_input():
     assert math.isnan(sqrt_time_cooling.surface_cooling_k_brunt_1941(80.0, 1200.0, -1.0))
 
 
-def test_thermal_admittance_table_vs_oke_1987_table_2_1():
-    # Oke (1987) Table 2.1 via reference sheet 1.3 (from memory there, too).
+# Oke (1987), Boundary Layer Climates, 2nd ed., Table 2.1: thermal conductivity k [W m-1 K-1] and
+# heat capacity C [MJ m-3 K-1] of natural surfaces (from memory, like the admittances themselves;
+# reference sheet 1.3). mu = sqrt(k C) is the definition of the thermal admittance.
+OKE_K_C = {
+    "dry_sandy_soil": (0.30, 1.28),
+    "saturated_sandy_soil": (2.20, 2.96),
+    "dry_clay": (0.25, 1.42),
+    "saturated_clay": (1.58, 3.10),
+    "dry_peat": (0.06, 0.58),
+    "fresh_snow": (0.08, 0.21),
+    "still_water": (0.57, 4.18),
+}
+
+
+def test_thermal_admittance_table_vs_sqrt_k_c_of_oke_1987_table_2_1():
+    # Each tabulated admittance against sqrt(k C) from the same table's conductivity and heat
+    # capacity columns; tolerance 4 % (Oke rounds mu; dry sandy soil prints 600 for 620).
     table = sqrt_time_cooling.THERMAL_ADMITTANCE_J_M2_K_S05
-    assert table["dry_sandy_soil"] == 600.0 and table["saturated_sandy_soil"] == 2550.0
-    assert table["fresh_snow"] < table["dry_peat"] < table["dry_clay"] < table["saturated_clay"]
+    assert set(table) == set(OKE_K_C)
+    for surface, (k_w_m_k, c_mj_m3_k) in OKE_K_C.items():
+        assert table[surface] == pytest.approx(math.sqrt(k_w_m_k * c_mj_m3_k * 1e6), rel=0.04), surface
+    # the default ground lies between Oke's dry and saturated mineral soils
+    assert table["dry_sandy_soil"] < sqrt_time_cooling.GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05 < table["saturated_clay"]
 
 
 def test_reuter_sqrt_trend_c_vs_fao_fp_check_b():
@@ -216,14 +234,29 @@ def test_clear_night_minimum_prior_c_sanity_calm_clear():
     assert -6.0 <= clear_night_prior.clear_night_minimum_prior_c(3.0, -5.0, 10.0) <= -3.0
 
 
-def test_clear_night_minimum_prior_c_vs_fao_fp_ch5_sample():
-    # FAO-FP Ch. 5 ten-night sample (reference sheet 1.1), 12 h from t0 to sunrise (assumed).
-    # The free constant was tuned on these nights: measured MAE 1.066 degC, bias -0.17 degC.
-    # Tolerance: MAE <= 1.3 and |bias| <= 0.5 degC (Reuter-type methods reach +-1.5, sheet 8).
-    prior = clear_night_prior.clear_night_minimum_prior_c(FAO_T0_C, FAO_TD_C, FAO_HOURS_T0_TO_SUNRISE_H)
-    err = prior - np.array(FAO_TN_C)
-    assert np.mean(np.abs(err)) <= 1.3
-    assert abs(np.mean(err)) <= 0.5
+def test_air_admittance_tuning_vs_fao_fp_ch5_sample_held_out_night_by_night():
+    # The prior's one free constant is tuned on this sample, so checking the shipped constant on it
+    # would check the fit against itself. Instead, the tuning procedure is cross-validated: for each
+    # of the ten nights, the admittance is tuned on the other nine (grid 500..6000 in steps of 100,
+    # least MAE) and that night is projected with it. The shipped constant itself is checked on
+    # held-out open data (test_cooling_open_data.py, pvlib's Greensboro TMY3 year).
+    # Tolerance: MAE <= 1.5 degC, the tolerance Reuter-type minimum forecasts reach (Dalla Nora,
+    # de Franceschi & Zardi 2005; reference sheet 1.2 and 8), and |bias| <= 0.5 degC. Measured:
+    # MAE 1.19, bias -0.30, RMSE 1.41 (the same procedure's in-sample MAE was 1.07).
+    grid = np.arange(500.0, 6001.0, 100.0)
+    err = np.array([
+        [_minimum_c(t0, td, FAO_HOURS_T0_TO_SUNRISE_H, air_admittance_j_m2_k_s05=mu) - tn
+         for t0, td, tn in zip(FAO_T0_C, FAO_TD_C, FAO_TN_C, strict=True)]
+        for mu in grid
+    ])
+    held_out = []
+    for night in range(len(FAO_TN_C)):
+        others = np.arange(len(FAO_TN_C)) != night
+        best = int(np.argmin(np.mean(np.abs(err[:, others]), axis=1)))
+        held_out.append(err[best, night])
+    held_out = np.array(held_out)
+    assert np.mean(np.abs(held_out)) <= 1.5
+    assert abs(np.mean(held_out)) <= 0.5
 
 
 def test_clear_night_minimum_prior_c_broadcasts_and_masks():

@@ -7,6 +7,7 @@ import math
 
 import numpy as np
 import pytest
+import scipy.constants
 
 from frostwatch.physics import cloud_cover, longwave, sky_emissivity
 
@@ -94,9 +95,13 @@ def test_downwelling_longwave_w_m2_blackbody_vs_stefan_boltzmann(air_temp_c, dow
     assert longwave.downwelling_longwave_w_m2(air_temp_c, 1.0) == pytest.approx(down_ref_w_m2, abs=0.05)
 
 
-def test_stefan_boltzmann_constant_vs_codata_2018():
-    # CODATA 2018, exact since the 2019 SI redefinition; FAO-56 hourly value kept for FAO checks only.
-    assert sky_emissivity.STEFAN_BOLTZMANN_W_M2_K4 == 5.670374419e-8
+def test_fao56_hourly_sigma_vs_scipy_stefan_boltzmann_and_fao56_daily_value():
+    # FAO-56's hourly sigma is the Stefan-Boltzmann constant (scipy.constants, CODATA 2018) in
+    # MJ m-2 h-1 K-4, rounded to four figures by FAO (tolerance 0.1 %), and the daily value FAO-56
+    # prints, 4.903e-9 MJ m-2 d-1 K-4 (Allen et al. 1998, ch. 3), over 24 hours. The constant
+    # itself is checked in tests/test_constants.py.
+    sigma_mj_m2_h_k4 = scipy.constants.Stefan_Boltzmann * scipy.constants.hour / 1e6
+    assert longwave.FAO56_SIGMA_MJ_M2_H_K4 == pytest.approx(sigma_mj_m2_h_k4, rel=1e-3)
     assert longwave.FAO56_SIGMA_MJ_M2_H_K4 == pytest.approx(4.903e-9 / 24.0, rel=1e-3)
 
 
