@@ -1,23 +1,44 @@
-"""Sunrise, sunset and solar elevation: the NOAA Solar Calculator equations (after Meeus).
+"""Sunrise, sunset and solar elevation of a site, computed by astral (NOAA Solar Calculator).
+
+astral does the astronomy (the NOAA equations after Meeus); this module says what "the sunrise
+and sunset of a local date" are at any site and in any time zone, and gives a clear result where
+the Sun does not rise or set (polar day, polar night) instead of raising.
 
 Pure: no clock is read; every instant is a timezone-aware ``datetime`` passed in. Longitude is
 east-positive. Sunrise and sunset are when the Sun's centre is 0.833 degrees below a flat
-sea-level horizon (34' of standard refraction plus 16' of semidiameter).
+sea-level horizon (34' of standard refraction plus 16' of semidiameter), geometric: the same
+definition as the NOAA Solar Calculator.
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from datetime import UTC, date, datetime, time, timedelta, tzinfo
 from zoneinfo import ZoneInfo
 
-SUNRISE_SUNSET_ZENITH_DEG = 90.833  # [deg] NOAA Solar Calculator / Meeus (1998) ch. 15
-JULIAN_DAY_UNIX_EPOCH = 2440587.5  # [d] Julian day of 1970-01-01T00:00Z
-JULIAN_DAY_J2000 = 2451545.0  # [d] Julian day of J2000.0
-DAYS_PER_JULIAN_CENTURY = 36525.0  # [d]
-SECONDS_PER_DAY = 86400.0  # [s]
-MINUTES_PER_DEGREE = 4.0  # [min deg-1] the Earth turns 360 degrees in 1440 minutes
-_EVENT_ITERATIONS = 3  # NOAA suggests re-evaluating at the event time once or twice
+import astral
+import astral.sun
+
+SUNRISE_SUNSET_ELEVATION_DEG = -0.833  # [deg] NOAA Solar Calculator / Meeus (1998) ch. 15
+_HALF_DAY = timedelta(hours=12)
+_ONE_SECOND = timedelta(seconds=1)
+POLAR_DAY = "polar day"  # the Sun stays above the horizon: no sunset (or no sunrise) that day
+POLAR_NIGHT = "polar night"  # the Sun stays below the horizon: no sunrise and no sunset
+
+
+@dataclass(frozen=True)
+class SunDay:
+    """The Sun's day at a site around the solar noon of one local date (UTC instants).
+
+    ``sunrise_utc`` or ``sunset_utc`` is None when that event does not happen; ``polar`` then
+    says why (:data:`POLAR_DAY` or :data:`POLAR_NIGHT`), else it is the empty string.
+    """
+
+    solar_noon_utc: datetime
+    sunrise_utc: datetime | None
+    sunset_utc: datetime | None
+    polar: str
 
 
 def _zone(tz: tzinfo | str) -> tzinfo:
@@ -42,98 +63,48 @@ def _check_aware(when_utc: datetime) -> None:
         )
 
 
-def _julian_century(when_utc: datetime) -> float:
-    julian_day = JULIAN_DAY_UNIX_EPOCH + when_utc.timestamp() / SECONDS_PER_DAY
-    return (julian_day - JULIAN_DAY_J2000) / DAYS_PER_JULIAN_CENTURY
+def _solar_noon_near_utc(observer: astral.Observer, near_utc: datetime) -> datetime:
+    """The solar noon closest to an instant (astral gives one per UTC date, in a row)."""
+    day = near_utc.date()
+    noons = [astral.sun.noon(observer, day + timedelta(days=k)) for k in (-1, 0, 1)]
+    return min(noons, key=lambda noon: abs(noon - near_utc))
 
 
-def _declination_and_equation_of_time(when_utc: datetime) -> tuple[float, float]:
-    """Solar declination [deg] and equation of time [min], NOAA / Meeus (1998) ch. 25 and 28."""
-    jc = _julian_century(when_utc)
-    mean_longitude = (280.46646 + jc * (36000.76983 + 0.0003032 * jc)) % 360.0
-    mean_anomaly = 357.52911 + jc * (35999.05029 - 0.0001537 * jc)
-    eccentricity = 0.016708634 - jc * (0.000042037 + 0.0000001267 * jc)
-    m = math.radians(mean_anomaly)
-    centre = (
-        math.sin(m) * (1.914602 - jc * (0.004817 + 0.000014 * jc))
-        + math.sin(2.0 * m) * (0.019993 - 0.000101 * jc)
-        + math.sin(3.0 * m) * 0.000289
-    )
-    omega = math.radians(125.04 - 1934.136 * jc)
-    apparent_longitude = mean_longitude + centre - 0.00569 - 0.00478 * math.sin(omega)
-    mean_obliquity = (
-        23.0 + (26.0 + (21.448 - jc * (46.815 + jc * (0.00059 - 0.001813 * jc))) / 60.0) / 60.0
-    )
-    obliquity = math.radians(mean_obliquity + 0.00256 * math.cos(omega))
-    declination = math.asin(math.sin(obliquity) * math.sin(math.radians(apparent_longitude)))
-    y = math.tan(obliquity / 2.0) ** 2
-    l0 = math.radians(mean_longitude)
-    equation_of_time_min = MINUTES_PER_DEGREE * math.degrees(
-        y * math.sin(2.0 * l0)
-        - 2.0 * eccentricity * math.sin(m)
-        + 4.0 * eccentricity * y * math.sin(m) * math.cos(2.0 * l0)
-        - 0.5 * y * y * math.sin(4.0 * l0)
-        - 1.25 * eccentricity * eccentricity * math.sin(2.0 * m)
-    )
-    return math.degrees(declination), equation_of_time_min
+def _above_horizon_deg(observer: astral.Observer, when_utc: datetime) -> float:
+    """How far the Sun's centre is above the sunrise-sunset altitude [deg] (negative: below)."""
+    elevation_deg = astral.sun.elevation(observer, when_utc, with_refraction=False)
+    return elevation_deg - SUNRISE_SUNSET_ELEVATION_DEG
 
 
-def _hour_angle_deg(longitude_deg: float, when_utc: datetime, equation_of_time_min: float) -> float:
-    """Hour angle [deg], wrapped to -180..180 (negative in the morning)."""
-    midnight = when_utc.replace(hour=0, minute=0, second=0, microsecond=0)
-    utc_min = (when_utc - midnight).total_seconds() / 60.0
-    true_solar_time_min = utc_min + equation_of_time_min + MINUTES_PER_DEGREE * longitude_deg
-    return (true_solar_time_min / MINUTES_PER_DEGREE) % 360.0 - 180.0
+def _crossing_utc(observer: astral.Observer, start_utc: datetime, end_utc: datetime) -> datetime:
+    """The instant between two, on opposite sides of the horizon, where the Sun crosses it.
+
+    Bisection to a second on astral's elevation (which reads whole seconds), then a straight
+    line between the two seconds. From solar midnight to noon the elevation only rises, and
+    from noon to midnight it only falls, so there is one crossing in each half day.
+    """
+    start_deg = _above_horizon_deg(observer, start_utc)
+    end_deg = _above_horizon_deg(observer, end_utc)
+    while end_utc - start_utc > _ONE_SECOND:
+        middle_utc = start_utc + _ONE_SECOND * ((end_utc - start_utc) // (2 * _ONE_SECOND))
+        middle_deg = _above_horizon_deg(observer, middle_utc)
+        if (middle_deg < 0.0) == (start_deg < 0.0):
+            start_utc, start_deg = middle_utc, middle_deg
+        else:
+            end_utc, end_deg = middle_utc, middle_deg
+    fraction = start_deg / (start_deg - end_deg) if start_deg != end_deg else 0.5
+    return start_utc + (end_utc - start_utc) * fraction
 
 
-def _sunrise_hour_angle_deg(latitude_deg: float, declination_deg: float) -> float:
-    phi = math.radians(latitude_deg)
-    delta = math.radians(declination_deg)
-    cos_h0 = math.cos(math.radians(SUNRISE_SUNSET_ZENITH_DEG)) / (
-        math.cos(phi) * math.cos(delta)
-    ) - math.tan(phi) * math.tan(delta)
-    if cos_h0 > 1.0:
-        raise ValueError(
-            f"no sunrise or sunset at latitude {latitude_deg:.4f}: polar night "
-            f"(the Sun stays below the horizon, declination {declination_deg:.2f} deg)"
-        )
-    if cos_h0 < -1.0:
-        raise ValueError(
-            f"no sunrise or sunset at latitude {latitude_deg:.4f}: polar day "
-            f"(the Sun stays above the horizon, declination {declination_deg:.2f} deg)"
-        )
-    return math.degrees(math.acos(cos_h0))
+def _observer(latitude_deg: float, longitude_deg: float) -> astral.Observer:
+    _check_site(latitude_deg, longitude_deg)
+    return astral.Observer(latitude=latitude_deg, longitude=longitude_deg, elevation=0.0)
 
 
-def _event_utc(latitude_deg, longitude_deg, local_date, zone, sign) -> datetime:
-    """Instant where the hour angle is sign * H0, near the solar noon of local_date."""
-    # Start from local noon so that a western site gets this local day's events, not the
-    # ones of the UTC calendar date (Davis CA sets after 00:00 UTC).
-    when = datetime.combine(local_date, time(12, 0), tzinfo=zone).astimezone(UTC)
-    # Solar noon: the hour angle is zero.
-    for _ in range(_EVENT_ITERATIONS):
-        _, eot = _declination_and_equation_of_time(when)
-        when -= timedelta(minutes=MINUTES_PER_DEGREE * _hour_angle_deg(longitude_deg, when, eot))
-    noon = when
-    declination, eot_noon = _declination_and_equation_of_time(noon)
-    when = noon + timedelta(
-        minutes=sign * MINUTES_PER_DEGREE * _sunrise_hour_angle_deg(latitude_deg, declination)
-    )
-    # Re-evaluate declination and equation of time at the event itself. The hour angle is
-    # counted from this solar noon, unwrapped, so it cannot jump by 360 deg.
-    for _ in range(_EVENT_ITERATIONS):
-        declination, eot = _declination_and_equation_of_time(when)
-        target = sign * _sunrise_hour_angle_deg(latitude_deg, declination)
-        minutes_from_noon = (when - noon).total_seconds() / 60.0
-        hour_angle = (minutes_from_noon + eot - eot_noon) / MINUTES_PER_DEGREE
-        when -= timedelta(minutes=MINUTES_PER_DEGREE * (hour_angle - target))
-    return when
-
-
-def sunrise_sunset_utc(
+def sun_day_utc(
     latitude_deg: float, longitude_deg: float, local_date: date, tz: tzinfo | str
-) -> tuple[datetime, datetime]:
-    """Sunrise and sunset of a local calendar date, as UTC instants (NOAA / Meeus).
+) -> SunDay:
+    """Solar noon, sunrise and sunset of a local calendar date, with polar days named.
 
     Parameters
     ----------
@@ -144,39 +115,73 @@ def sunrise_sunset_utc(
     local_date : datetime.date
         Calendar date in the site's time zone.
     tz : zoneinfo.ZoneInfo or str
-        The site's IANA time zone, e.g. ``"America/Los_Angeles"``.
+        The site's time zone, e.g. ``"America/Los_Angeles"``; any offset, including zones far
+        from the site's solar time.
 
     Returns
     -------
-    (datetime, datetime)
-        Sunrise and sunset [UTC, timezone-aware]: the events either side of the solar noon of
-        ``local_date``. The sunset of a western site is often on the next UTC date.
+    SunDay
+        The solar noon closest to 12:00 local time on ``local_date``, and the sunrise and sunset
+        either side of it [UTC, timezone-aware]. Where the Sun does not rise or set, the event is
+        None and ``polar`` says why. The sunset of a western site is often on the next UTC date.
 
     Raises
     ------
     ValueError
-        For polar day or polar night (the Sun does not cross -0.833 deg that day), or a
-        latitude or longitude out of range.
+        For a latitude or longitude out of range (never for polar day or night).
 
     Notes
     -----
-    Event when the Sun's centre is at altitude -0.833 deg (zenith 90.833 deg):
-    cos H0 = cos(90.833) / (cos(lat) cos(dec)) - tan(lat) tan(dec); sunrise and sunset are
-    solar noon -+ 4 H0 minutes, with solar noon = 720 - 4 lon - EoT minutes UTC. Declination
-    and equation of time are re-evaluated at the event time (three passes). NOAA quotes about
-    1 min accuracy within 72 deg of the equator, worse towards the poles. Flat, sea-level
-    horizon; valley walls delay the effective sunrise.
+    Sunrise and sunset are when the Sun's centre is at geometric altitude -0.833 deg, found to
+    the second in the half day before and after solar noon on astral's solar elevation (NOAA
+    declination and equation of time at the instant itself), not from astral's per-UTC-date
+    sunrise, which skips an event falling near 00:00 UTC (South Asia in spring). No crossing
+    in a half day means polar day or night. NOAA quotes about 1 min accuracy within 72 deg of
+    the equator, worse towards the poles. Flat, sea-level horizon; valley walls delay the
+    effective sunrise.
 
     References
     ----------
     Meeus, J. (1998), Astronomical Algorithms, 2nd ed., Willmann-Bell, ch. 15, 25 and 28.
-    NOAA Global Monitoring Laboratory, Solar Calculator and its spreadsheet equations.
+    NOAA Global Monitoring Laboratory, Solar Calculator and its spreadsheet equations, as
+    implemented by astral 3 (``astral.sun.noon`` and ``astral.sun.elevation``, refraction off).
     """
-    _check_site(latitude_deg, longitude_deg)
-    zone = _zone(tz)
-    sunrise = _event_utc(latitude_deg, longitude_deg, local_date, zone, -1)
-    sunset = _event_utc(latitude_deg, longitude_deg, local_date, zone, +1)
-    return sunrise, sunset
+    observer = _observer(latitude_deg, longitude_deg)
+    local_noon_utc = datetime.combine(local_date, time(12, 0), tzinfo=_zone(tz)).astimezone(UTC)
+    noon = _solar_noon_near_utc(observer, local_noon_utc)
+    midnight_before, midnight_after = noon - _HALF_DAY, noon + _HALF_DAY
+    if _above_horizon_deg(observer, noon) < 0.0:
+        return SunDay(noon, None, None, POLAR_NIGHT)
+    sunrise = sunset = None
+    if _above_horizon_deg(observer, midnight_before) < 0.0:
+        sunrise = _crossing_utc(observer, midnight_before, noon)
+    if _above_horizon_deg(observer, midnight_after) < 0.0:
+        sunset = _crossing_utc(observer, noon, midnight_after)
+    polar = POLAR_DAY if sunrise is None or sunset is None else ""
+    return SunDay(noon, sunrise, sunset, polar)
+
+
+def _evening_utc(evening: SunDay, morning: SunDay) -> datetime:
+    """Sunset; in a polar day the Sun's lowest (solar midnight), in a polar night its noon."""
+    if evening.sunset_utc is not None:
+        return evening.sunset_utc
+    if evening.polar == POLAR_DAY:
+        return _solar_midnight_utc(evening, morning)
+    return evening.solar_noon_utc
+
+
+def _morning_utc(evening: SunDay, morning: SunDay) -> datetime:
+    """Sunrise; in a polar day the Sun's lowest (solar midnight), in a polar night its noon."""
+    if morning.sunrise_utc is not None:
+        return morning.sunrise_utc
+    if morning.polar == POLAR_DAY:
+        return _solar_midnight_utc(evening, morning)
+    return morning.solar_noon_utc
+
+
+def _solar_midnight_utc(evening: SunDay, morning: SunDay) -> datetime:
+    # halfway between two solar noons: the equation of time moves under 30 s a day
+    return evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
 
 
 def night_window_utc(
@@ -196,37 +201,42 @@ def night_window_utc(
     evening_local_date : datetime.date
         Local calendar date of the evening the night starts.
     tz : zoneinfo.ZoneInfo or str
-        The site's IANA time zone.
+        The site's time zone.
 
     Returns
     -------
     (datetime, datetime)
-        Sunset of ``evening_local_date`` and sunrise of the next local date [UTC, aware].
+        Sunset of ``evening_local_date`` and sunrise of the next local date [UTC, aware],
+        sunset never after sunrise. Where the Sun does not set or rise, a clear stand-in:
+        in a polar day (midnight sun) both are the solar midnight, a night of zero length at
+        the Sun's lowest; in a polar night the night runs from the evening's solar noon to the
+        next solar noon (24 h). Both are the limits the ordinary nights approach either side of
+        the polar season.
 
     Raises
     ------
     ValueError
-        For polar day or night on either date.
+        For a latitude or longitude out of range.
 
     Notes
     -----
-    See :func:`sunrise_sunset_utc`. Across a DST change the night is an hour shorter or
-    longer on the local clock, never in UTC.
+    See :func:`sun_day_utc`. Across a DST change the night is an hour shorter or longer on the
+    local clock, never in UTC.
 
     References
     ----------
     Meeus, J. (1998), Astronomical Algorithms, 2nd ed., Willmann-Bell.
     NOAA Global Monitoring Laboratory, Solar Calculator.
     """
-    _, sunset = sunrise_sunset_utc(latitude_deg, longitude_deg, evening_local_date, tz)
-    next_sunrise, _ = sunrise_sunset_utc(
-        latitude_deg, longitude_deg, evening_local_date + timedelta(days=1), tz
-    )
-    return sunset, next_sunrise
+    evening = sun_day_utc(latitude_deg, longitude_deg, evening_local_date, tz)
+    morning = sun_day_utc(latitude_deg, longitude_deg, evening_local_date + timedelta(days=1), tz)
+    sunset = _evening_utc(evening, morning)
+    sunrise = _morning_utc(evening, morning)
+    return sunset, max(sunset, sunrise)
 
 
 def solar_elevation_deg(latitude_deg: float, longitude_deg: float, when_utc: datetime) -> float:
-    """Geometric solar elevation angle, NOAA / Meeus, without atmospheric refraction.
+    """Geometric solar elevation angle (NOAA equations, by astral), without refraction.
 
     Parameters
     ----------
@@ -256,16 +266,8 @@ def solar_elevation_deg(latitude_deg: float, longitude_deg: float, when_utc: dat
     References
     ----------
     Meeus, J. (1998), Astronomical Algorithms, 2nd ed., Willmann-Bell, ch. 13 and 25.
-    NOAA Global Monitoring Laboratory, Solar Calculator.
+    NOAA Global Monitoring Laboratory, Solar Calculator (``astral.sun.elevation``).
     """
-    _check_site(latitude_deg, longitude_deg)
+    observer = _observer(latitude_deg, longitude_deg)
     _check_aware(when_utc)
-    when_utc = when_utc.astimezone(UTC)
-    declination, eot = _declination_and_equation_of_time(when_utc)
-    hour_angle = math.radians(_hour_angle_deg(longitude_deg, when_utc, eot))
-    phi = math.radians(latitude_deg)
-    delta = math.radians(declination)
-    sin_elevation = math.sin(phi) * math.sin(delta) + math.cos(phi) * math.cos(delta) * math.cos(
-        hour_angle
-    )
-    return math.degrees(math.asin(max(-1.0, min(1.0, sin_elevation))))
+    return astral.sun.elevation(observer, when_utc.astimezone(UTC), with_refraction=False)

@@ -1,24 +1,34 @@
-"""Sunrise, sunset and solar elevation against pvlib (NREL SPA), astral and the reference sheet."""
+"""Sunrise, sunset and solar elevation against the NOAA reference sheet and pvlib (NREL SPA).
 
-from datetime import UTC, date, datetime, timedelta
+frostwatch.physics.sun calls astral; every check here is outside astral: the reference sheet's
+NOAA values (computed to the second, cross-checked with PyEphem) and pvlib's NREL SPA solar
+position, an independent algorithm (Reda & Andreas 2004).
+"""
+
+from datetime import UTC, date, datetime, timedelta, timezone
 from zoneinfo import ZoneInfo
 
-import astral
-import astral.sun
 import pandas as pd
 import pvlib
 import pytest
 from scipy.optimize import brentq
 
 from frostwatch.physics.sun import (
+    POLAR_DAY,
+    POLAR_NIGHT,
     night_window_utc,
     solar_elevation_deg,
-    sunrise_sunset_utc,
+    sun_day_utc,
 )
 
-# Tolerance against the reference libraries: 60 s. NOAA quotes about 1 min accuracy for its
-# method within 72 deg of the equator; SPA (pvlib) is good to about 1 s, astral uses its own
-# simplified series (it differs from SPA by 13-22 s at these sites).
+
+def sunrise_sunset_utc(latitude_deg, longitude_deg, local_date, tz):
+    day = sun_day_utc(latitude_deg, longitude_deg, local_date, tz)
+    assert day.polar == "" and day.sunrise_utc is not None and day.sunset_utc is not None
+    return day.sunrise_utc, day.sunset_utc
+
+# Tolerance against pvlib's SPA: 60 s. NOAA quotes about 1 min accuracy for its method within
+# 72 deg of the equator; SPA is good to about 1 s.
 LIBRARY_TOLERANCE_S = 60.0
 
 DAVIS = (38.5449, -121.7405, "America/Los_Angeles")
@@ -137,20 +147,6 @@ def test_solar_elevation_deg_vs_pvlib_spa():
             assert ours == pytest.approx(spa, abs=0.02)
 
 
-# --- astral ----------------------------------------------------------------------------------
-
-
-@pytest.mark.parametrize(("latitude_deg", "longitude_deg", "tz", "local_date"), CASES)
-def test_sunrise_sunset_utc_vs_astral(latitude_deg, longitude_deg, tz, local_date):
-    # astral 3.2 astral.sun.sun(observer, date, tzinfo), -0.833 deg by default, local date.
-    # Tolerance 60 s (measured 13-22 s here).
-    zone = ZoneInfo(tz)
-    ref = astral.sun.sun(astral.Observer(latitude_deg, longitude_deg), date=local_date, tzinfo=zone)
-    sunrise, sunset = sunrise_sunset_utc(latitude_deg, longitude_deg, local_date, zone)
-    assert abs((sunrise - ref["sunrise"]).total_seconds()) <= LIBRARY_TOLERANCE_S
-    assert abs((sunset - ref["sunset"]).total_seconds()) <= LIBRARY_TOLERANCE_S
-
-
 # --- DST nights, polar cases, bad input ------------------------------------------------------
 
 
@@ -180,36 +176,136 @@ def test_night_window_utc_across_dst_change_is_continuous_in_utc(evening, clock_
     assert clock_jump_h == pytest.approx(clock_shift_h, abs=0.05)
 
 
-def test_night_window_utc_matches_astral_for_a_dst_night():
-    # astral 3.2, as above; tolerance 60 s.
+def test_night_window_utc_vs_pvlib_spa_for_a_dst_night():
+    # pvlib NREL SPA -0.833 deg crossings, as above; tolerance 60 s.
     latitude_deg, longitude_deg, tz = DAVIS
-    zone = ZoneInfo(tz)
-    observer = astral.Observer(latitude_deg, longitude_deg)
-    sunset, next_sunrise = night_window_utc(latitude_deg, longitude_deg, date(2027, 11, 6), zone)
-    ref_set = astral.sun.sunset(observer, date(2027, 11, 6), tzinfo=zone)
-    ref_rise = astral.sun.sunrise(observer, date(2027, 11, 7), tzinfo=zone)
-    assert abs((sunset - ref_set).total_seconds()) <= LIBRARY_TOLERANCE_S
-    assert abs((next_sunrise - ref_rise).total_seconds()) <= LIBRARY_TOLERANCE_S
+    sunset, next_sunrise = night_window_utc(latitude_deg, longitude_deg, date(2027, 11, 6), tz)
+    for ours in (sunset, next_sunrise):
+        spa = _spa_crossing_utc(latitude_deg, longitude_deg, ours)
+        assert abs((ours - spa).total_seconds()) <= LIBRARY_TOLERANCE_S
 
 
-def test_sunrise_sunset_utc_raises_for_polar_day():
-    with pytest.raises(ValueError, match="polar day"):
-        sunrise_sunset_utc(78.0, 15.6, date(2025, 6, 21), "Arctic/Longyearbyen")
+LONGYEARBYEN = (78.0, 15.6, "Arctic/Longyearbyen")
+TROMSO = (69.65, 18.96, "Europe/Oslo")
 
 
-def test_sunrise_sunset_utc_raises_for_polar_night():
-    with pytest.raises(ValueError, match="polar night"):
-        sunrise_sunset_utc(78.0, 15.6, date(2025, 12, 21), "Arctic/Longyearbyen")
+def _spa_elevations_deg(latitude_deg, longitude_deg, start_utc, hours, step_min=5):
+    """pvlib NREL SPA geometric elevation every step_min minutes over `hours` from start_utc."""
+    times = pd.date_range(pd.Timestamp(start_utc), periods=int(hours * 60 / step_min) + 1,
+                          freq=f"{step_min}min")
+    position = pvlib.solarposition.get_solarposition(
+        times, latitude_deg, longitude_deg, method="nrel_numpy"
+    )
+    return position["elevation"]
 
 
-def test_night_window_utc_raises_for_polar_day():
-    with pytest.raises(ValueError, match="polar day"):
-        night_window_utc(78.0, 15.6, date(2025, 6, 21), "Arctic/Longyearbyen")
+def test_sun_day_utc_names_polar_day_vs_pvlib_spa():
+    # Longyearbyen at the June solstice: pvlib's SPA keeps the Sun's centre above -0.833 deg
+    # all day (its lowest is about +10.6 deg), so there is no sunrise and no sunset.
+    latitude_deg, longitude_deg, tz = LONGYEARBYEN
+    day = sun_day_utc(latitude_deg, longitude_deg, date(2025, 6, 21), tz)
+    assert day.polar == POLAR_DAY
+    assert day.sunrise_utc is None and day.sunset_utc is None
+    spa = _spa_elevations_deg(latitude_deg, longitude_deg, day.solar_noon_utc - timedelta(hours=12), 24)
+    assert spa.min() > -0.833
 
 
-def test_sunrise_sunset_utc_rejects_out_of_range_latitude():
+def test_sun_day_utc_names_polar_night_vs_pvlib_spa():
+    # Longyearbyen at the December solstice: SPA keeps the Sun below -0.833 deg all day.
+    latitude_deg, longitude_deg, tz = LONGYEARBYEN
+    day = sun_day_utc(latitude_deg, longitude_deg, date(2025, 12, 21), tz)
+    assert day.polar == POLAR_NIGHT
+    assert day.sunrise_utc is None and day.sunset_utc is None
+    spa = _spa_elevations_deg(latitude_deg, longitude_deg, day.solar_noon_utc - timedelta(hours=12), 24)
+    assert spa.max() < -0.833
+
+
+def test_night_window_utc_in_polar_day_is_the_instant_of_the_lowest_sun():
+    # Midnight sun: a night of zero length at the Sun's lowest. pvlib SPA, sampled every 5 min
+    # over the 24 h around it, finds its lowest elevation within 10 min of that instant.
+    latitude_deg, longitude_deg, tz = LONGYEARBYEN
+    sunset, sunrise = night_window_utc(latitude_deg, longitude_deg, date(2025, 6, 21), tz)
+    assert sunset == sunrise
+    spa = _spa_elevations_deg(latitude_deg, longitude_deg, sunset - timedelta(hours=12), 24)
+    lowest_utc = spa.idxmin().to_pydatetime()
+    assert abs((lowest_utc - sunset).total_seconds()) <= 600.0
+
+
+def test_night_window_utc_in_polar_night_runs_noon_to_noon_at_the_highest_sun():
+    # Polar night: the night runs from one solar noon to the next (24 h), where SPA puts the
+    # Sun's highest (within 10 min, 5-min samples).
+    latitude_deg, longitude_deg, tz = LONGYEARBYEN
+    sunset, sunrise = night_window_utc(latitude_deg, longitude_deg, date(2025, 12, 21), tz)
+    assert abs((sunrise - sunset) - timedelta(hours=24)) < timedelta(minutes=2)
+    for instant in (sunset, sunrise):
+        spa = _spa_elevations_deg(latitude_deg, longitude_deg, instant - timedelta(hours=12), 24)
+        highest_utc = spa.idxmax().to_pydatetime()
+        assert abs((highest_utc - instant).total_seconds()) <= 600.0
+
+
+@pytest.mark.parametrize(
+    ("first_evening", "season"),
+    [(date(2025, 5, 10), POLAR_DAY), (date(2025, 11, 20), POLAR_NIGHT)],
+    ids=["into-midnight-sun", "into-polar-night"],
+)
+def test_night_window_utc_runs_smoothly_into_a_polar_season(first_evening, season):
+    # Tromso: the nights shorten to nothing in May and lengthen to 24 h in November; every
+    # night has a window, ordered, its length moving by under 1.5 h a night into the polar season.
+    # Where the Sun does rise and set, the times are within 3 min of pvlib SPA (NOAA quotes
+    # larger errors beyond 72 deg; at 69.65 deg the measured difference is under 1 min).
+    latitude_deg, longitude_deg, tz = TROMSO
+    lengths_h = []
+    seen = set()
+    for k in range(14):
+        evening = first_evening + timedelta(days=k)
+        sunset, sunrise = night_window_utc(latitude_deg, longitude_deg, evening, tz)
+        assert sunset <= sunrise
+        lengths_h.append((sunrise - sunset).total_seconds() / 3600.0)
+        day = sun_day_utc(latitude_deg, longitude_deg, evening, tz)
+        seen.add(day.polar)
+        if day.sunset_utc is not None:
+            spa = _spa_crossing_utc(latitude_deg, longitude_deg, day.sunset_utc)
+            assert abs((day.sunset_utc - spa).total_seconds()) <= 180.0
+    assert season in seen
+    steps_h = [b - a for a, b in zip(lengths_h, lengths_h[1:], strict=False)]
+    assert max(abs(step) for step in steps_h) < 1.5  # measured 1.09 h into the midnight sun
+    assert (lengths_h[-1] == 0.0) if season == POLAR_DAY else (lengths_h[-1] > 23.9)
+
+
+ODD_ZONES = [
+    pytest.param(1.87, -157.36, "Pacific/Kiritimati", date(2025, 4, 10), id="kiritimati-utc+14"),
+    pytest.param(27.7172, 85.324, "Asia/Kathmandu", date(2025, 4, 10), id="kathmandu-utc+5:45"),
+    pytest.param(-43.95, -176.56, "Pacific/Chatham", date(2025, 10, 10), id="chatham-utc+13:45"),
+    pytest.param(39.47, 75.99, "Asia/Shanghai", date(2025, 4, 10), id="kashgar-zone-3h-ahead"),
+    pytest.param(-13.83, -171.76, "Pacific/Apia", date(2011, 12, 29), id="apia-next-date-skipped"),
+    pytest.param(-18.14, 178.44, "Pacific/Fiji", date(2025, 12, 12), id="fiji-noon-at-0h-utc"),
+    pytest.param(-34.9, -56.2, timezone(timedelta(hours=-3)), date(2025, 9, 1), id="fixed-utc-3"),
+    pytest.param(-41.2865, 174.7762, "UTC", date(2025, 6, 21), id="wellington-in-utc-12h-off"),
+]
+
+
+@pytest.mark.parametrize(("latitude_deg", "longitude_deg", "tz", "local_date"), ODD_ZONES)
+def test_sun_day_utc_in_odd_time_zones_vs_pvlib_spa(latitude_deg, longitude_deg, tz, local_date):
+    # Zones far ahead of UTC, quarter-hour offsets, a zone three hours off the site's solar time,
+    # a skipped calendar date, a fixed offset and a zone twelve hours off: one sunrise and one
+    # sunset either side of the solar noon nearest local noon, each within 60 s of pvlib SPA.
+    day = sun_day_utc(latitude_deg, longitude_deg, local_date, tz)
+    assert day.polar == ""
+    assert day.sunrise_utc < day.solar_noon_utc < day.sunset_utc
+    zone = ZoneInfo(tz) if isinstance(tz, str) else tz
+    local_noon = datetime.combine(local_date, datetime.min.time().replace(hour=12), tzinfo=zone)
+    assert abs(day.solar_noon_utc - local_noon) <= timedelta(hours=12)
+    for ours in (day.sunrise_utc, day.sunset_utc):
+        spa = _spa_crossing_utc(latitude_deg, longitude_deg, ours)
+        assert abs((ours - spa).total_seconds()) <= LIBRARY_TOLERANCE_S
+    sunset, next_sunrise = night_window_utc(latitude_deg, longitude_deg, local_date, tz)
+    assert sunset == day.sunset_utc
+    assert timedelta(hours=8) < next_sunrise - sunset < timedelta(hours=16)
+
+
+def test_sun_day_utc_rejects_out_of_range_latitude():
     with pytest.raises(ValueError, match="latitude_deg"):
-        sunrise_sunset_utc(91.0, 0.0, date(2025, 6, 21), "UTC")
+        sun_day_utc(91.0, 0.0, date(2025, 6, 21), "UTC")
 
 
 def test_solar_elevation_deg_rejects_naive_datetime():
