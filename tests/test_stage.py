@@ -115,3 +115,48 @@ def test_bad_biofix_date_is_a_config_error(capsys, demo_config):
     _add_biofix(demo_config, "east", "15 March")
     rc, _, err = run(capsys, "--config", str(demo_config), "--suggest")
     assert rc == 2 and "blocks.east.biofix_date" in err and "YYYY-MM-DD" in err
+
+
+def _odd_layout(demo_text: str) -> str:
+    """The demo config laid out as a person might have left it: [site] last, the stations before
+    the blocks, a block between two stations, odd spacing, tabs, quoted keys, comments everywhere."""
+    head, rest = demo_text.split("[site]", 1)
+    site, rest = rest.split("# One [[blocks]]", 1)
+    blocks, rest = rest.split("# One [[stations]]", 1)
+    stations, tail = rest.split("\n[storage]", 1)
+    east, river, hill = blocks.split("[[blocks]]")[1:]
+    river = river.replace('id = "river"', "'id'   =   'river'   # quoted key, literal string")
+    river = river.replace('stage = "full bloom"', '"stage"\t=  "full bloom"     # set 12 April, after the walk')
+    first_station, other_stations = stations.split("[[stations]]", 2)[1:]
+    return (head + "[storage]" + tail.rstrip("\n") + "\n\n"
+            + "# the sensors first\n[[stations]]" + first_station
+            + "[[blocks]]   # the cherries, between two stations\n" + river.lstrip("\n")
+            + "[[stations]]" + other_stations
+            + "\n\n  [[blocks]]\n" + east.lstrip("\n") + "[[ blocks ]]" + hill
+            + "\n#   the site comes last here\n[site]" + site)
+
+
+def test_stage_keeps_comments_spacing_and_table_order_of_an_odd_config(capsys, demo_config):
+    # tomlkit edits the one value: a config laid out by hand (sections out of the usual order, a
+    # block between stations, quoted keys, tabs, trailing comments) comes back byte for byte but
+    # for that value. The regular expressions before it did not find the quoted `"stage"` key.
+    text = _odd_layout(demo_config.read_text(encoding="utf-8"))
+    demo_config.write_text(text, encoding="utf-8")
+    assert load_config(demo_config).block("river").stage == "full bloom"  # a config that loads
+    rc, out, err = run(capsys, "--config", str(demo_config), "--block", "river", "--stage", "first white", "--json")
+    assert rc == 0, err
+    after = demo_config.read_text(encoding="utf-8")
+    assert after == text.replace('"stage"\t=  "full bloom"', '"stage"\t=  "first white"')
+    cfg = load_config(demo_config)
+    assert cfg.block("river").stage == "first white" and cfg.block("east").stage == "full bloom"
+
+
+def test_rewrite_stage_in_interleaved_tables_changes_the_right_one_of_two_equal_lines():
+    # tomlkit writes an array of tables together, so this layout is edited line-wise: of the two
+    # equal lines, the one that sets block b's stage (checked by reading the result) changes.
+    text = ('[[blocks]]\nid = "a"\nstage = "full bloom"\n\n[[stations]]\nid = "s"\n\n'
+            '[[blocks]]\nid = "b"\nstage = "full bloom"\n# end\n')
+    out = rewrite_stage(text, "b", "petal fall")
+    assert out == text[: text.rindex("full bloom")] + "petal fall" + text[text.rindex("full bloom") + 10:]
+    out = rewrite_stage(text, "a", "petal fall")
+    assert out == text.replace("full bloom", "petal fall", 1)

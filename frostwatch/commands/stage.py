@@ -1,8 +1,8 @@
 """`frostwatch stage`: record a block's bud stage as the buds develop, or suggest one.
 
 `frostwatch stage --config C --block ID --stage STAGE` checks the stage against the block's crop
-table, rewrites that block's `stage = "..."` line of the TOML file in place (comments and every
-other line kept byte for byte), and records a `stage_change` event in the store so the night log
+table, sets that block's `stage` in the TOML file with tomlkit (comments, layout and every other
+line kept byte for byte), and records a `stage_change` event in the store so the night log
 shows it. A running daemon rereads the changed file before its next evaluation and uses the new
 stage's T10 and T90 from then on (`frostwatch.reload`); SIGHUP makes it reload and evaluate at once. `frostwatch stage --config C --suggest` prints, per block, the stage that growing-degree
 hours since `biofix_date` suggest: a suggestion the grower confirms, never applied.
@@ -15,51 +15,67 @@ from __future__ import annotations
 
 import datetime as dt
 import os
-import re
 from pathlib import Path
 
 from frostwatch.commands.common import _iso, _load, _out_json
 from frostwatch.errors import UsageError
 
-_TABLE_HEADER = re.compile(r"^\s*\[")
-_BLOCKS_HEADER = re.compile(r"^\s*\[\[\s*blocks\s*\]\]\s*(#.*)?$")
-_ID_LINE = re.compile(r"""^\s*id\s*=\s*(?:"([^"]*)"|'([^']*)')""")
-_STAGE_LINE = re.compile(r"""^(?P<pre>\s*stage\s*=\s*)(?P<q>["'])(?P<val>[^"']*)(?P=q)(?P<post>.*)$""", re.S)
-
 
 def rewrite_stage(text: str, block_id: str, new_stage: str) -> str:
-    """The config text with block `block_id`'s stage line set to `new_stage`; all else unchanged.
+    """The config text with block `block_id`'s stage set to `new_stage`; all else unchanged.
 
-    Raises UsageError when the block's `[[blocks]]` table or its `stage = "..."` line is not
-    found (for example a block written as an inline table): edit the file by hand then.
+    tomlkit finds the block and writes the new value in the old one's quote style; the document
+    comes back as it was read (comments, blank lines, spacing, line endings, table order). Where
+    tomlkit would regroup the file (arrays of tables interleaved with others: it writes each
+    array together), only the changed line is put into the original text, at the one place
+    where it gives the same document with just this stage changed.
+
+    Raises UsageError when the block or its `stage` key is not found in the file, or when the
+    file cannot be edited that way: edit it by hand then.
     """
-    lines = text.splitlines(keepends=True)
-    in_blocks = False
-    table: list[int] = []
-    tables: list[list[int]] = []
-    for i, line in enumerate(lines):
-        if _TABLE_HEADER.match(line):
-            if in_blocks:
-                tables.append(table)
-            in_blocks = bool(_BLOCKS_HEADER.match(line))
-            table = []
-            continue
-        if in_blocks:
-            table.append(i)
-    if in_blocks:
-        tables.append(table)
-    for table in tables:
-        ids = [m.group(1) if m.group(1) is not None else m.group(2)
-               for m in (_ID_LINE.match(lines[i]) for i in table) if m]
-        if ids != [block_id]:
-            continue
-        for i in table:
-            m = _STAGE_LINE.match(lines[i])
-            if m:
-                lines[i] = f"{m['pre']}{m['q']}{new_stage}{m['q']}{m['post']}"
-                return "".join(lines)
+    import tomlkit
+    from tomlkit.exceptions import TOMLKitError
+    from tomlkit.items import String, StringType
+
+    try:
+        doc = tomlkit.parse(text)
+    except TOMLKitError as exc:
+        raise UsageError(f"the config cannot be read for editing ({exc}); edit the stage by hand") from None
+    blocks = doc.get("blocks")
+    found = [i for i, b in enumerate(blocks if isinstance(blocks, list) else [])
+             if hasattr(b, "get") and b.get("id") == block_id]
+    if len(found) != 1:
+        raise UsageError(f"blocks.{block_id}: its [[blocks]] table was not found in the file; edit the stage by hand")
+    block = blocks[found[0]]
+    old = block.get("stage")
+    if not isinstance(old, String):
         raise UsageError(f"blocks.{block_id}: no `stage = \"...\"` line found in its [[blocks]] table; edit it by hand")
-    raise UsageError(f"blocks.{block_id}: its [[blocks]] table was not found in the file; edit the stage by hand")
+    as_read = tomlkit.dumps(doc)
+    block["stage"] = tomlkit.string(new_stage, literal=old.type in (StringType.SLL, StringType.MLL))
+    edited = tomlkit.dumps(doc)
+    if as_read == text:
+        return edited
+    return _put_changed_line(text, as_read, edited, found[0], new_stage, block_id)
+
+
+def _put_changed_line(text: str, as_read: str, edited: str, index: int, new_stage: str, block_id: str) -> str:
+    """The one line tomlkit changed, put into the original text where it sets this block's stage."""
+    import tomllib
+
+    before, after = as_read.splitlines(keepends=True), edited.splitlines(keepends=True)
+    changed = [(a, b) for a, b in zip(before, after, strict=False) if a != b]
+    expected = tomllib.loads(text)
+    expected["blocks"][index]["stage"] = new_stage
+    lines = text.splitlines(keepends=True)
+    if len(before) == len(after) and len(changed) == 1:
+        old_line, new_line = changed[0]
+        for i, line in enumerate(lines):
+            if line == old_line:
+                candidate = "".join(lines[:i] + [new_line] + lines[i + 1:])
+                if tomllib.loads(candidate) == expected:
+                    return candidate
+    raise UsageError(f"blocks.{block_id}: the stage line could not be changed alone in this file's layout; "
+                     "edit it by hand")
 
 
 def _write_atomic(path: Path, text: str) -> None:
