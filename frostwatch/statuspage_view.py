@@ -26,6 +26,7 @@ from frostwatch.pipeline import LOOKBACK
 from frostwatch.status import decisions_for_page, status_document
 from frostwatch.store import Store, from_ms
 from frostwatch.store import reports as q
+from frostwatch.units import c_to_f
 
 e = html.escape
 
@@ -75,7 +76,7 @@ def _svg_chart(item: dict, snap: dict) -> str:
     w, h, left, right, top, bottom = 360, 210, 30, 8, 10, 24
     t0 = (night.sunset_utc - dt.timedelta(hours=1)).timestamp()
     t1 = (night.sunrise_utc + dt.timedelta(hours=1)).timestamp()
-    conv = (lambda c: c * 9.0 / 5.0 + 32.0) if d.unit == "degF" else (lambda c: c)
+    conv = c_to_f if d.us else (lambda c: c)
     ys_c = [b.kill_10pct_c, b.kill_90pct_c, b.kill_10pct_c + b.margin_c]
     pts_obs: list[tuple[float, float]] = []
     if obs is not None:

@@ -206,7 +206,9 @@ def _wind_machine(args, ca, windmachine, temp) -> tuple[dict, str]:
                 protection="wind_machine", wind_machine_gain_frac=args.gain_fraction, margin_c=margin)
     v = fan_verdict(proj, blk, args.fog)
     f = v.fans
-    k = 9.0 / 5.0 if _fahrenheit(args) else 1.0
+    from frostwatch.units import delta_c_to_f
+
+    k = delta_c_to_f(1.0) if _fahrenheit(args) else 1.0
     reasons = explain.fan_facts(v, d) if v.advised else [explain.why_not(v, d)]
     alternatives = render.alternatives(v, d)
     doc = {"useful": v.advised, "sufficient": f.sufficient,

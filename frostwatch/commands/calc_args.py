@@ -33,7 +33,7 @@ _RATE = {"mm/h": 1.0, "mmh": 1.0, "mm h-1": 1.0, "in/h": MM_PER_IN, "inh": MM_PE
          "inch/h": MM_PER_IN}
 _AREA = {"ha": 1.0, "hectare": 1.0, "hectares": 1.0, "acre": HA_PER_ACRE, "acres": HA_PER_ACRE, "ac": HA_PER_ACRE}
 _HOURS = {"h": 1.0, "hr": 1.0, "hrs": 1.0, "hour": 1.0, "hours": 1.0, "min": 1.0 / 60.0}
-_DELTA = {"c": 1.0, "°c": 1.0, "degc": 1.0, "k": 1.0, "f": 5.0 / 9.0, "°f": 5.0 / 9.0, "degf": 5.0 / 9.0}
+_DELTA_SCALE = {"c": "C", "°c": "C", "degc": "C", "k": "C", "f": "F", "°f": "F", "degf": "F"}
 
 
 def us(args) -> bool:
@@ -65,11 +65,11 @@ def _unit_error(option: str, text, unit: str, expected: str) -> UsageError:
 
 def temp_c(args, option: str, text) -> float:
     """A temperature [degC]; a bare number in °F with --fahrenheit or --units us."""
-    from frostwatch.units import to_canonical
+    from frostwatch.units import f_to_c, to_canonical
 
     value, unit = split(text, option)
     if unit is None:
-        return (value - 32.0) * 5.0 / 9.0 if fahrenheit(args) else value
+        return f_to_c(value) if fahrenheit(args) else value
     try:
         return to_canonical("air_temperature", value, unit)
     except UnitError:
@@ -80,11 +80,14 @@ def delta_c(args, option: str, text) -> float:
     """A temperature difference [K]; a bare number in °F degrees with --fahrenheit or --units us."""
     value, unit = split(text, option)
     if unit is None:
-        return value * 5.0 / 9.0 if fahrenheit(args) else value
-    k = _DELTA.get(unit.lower())
-    if k is None:
+        scale = "F" if fahrenheit(args) else "C"
+    else:
+        scale = _DELTA_SCALE.get(unit.lower())
+    if scale is None:
         raise _unit_error(option, text, unit, "C or F degrees (e.g. 4F)")
-    return value * k
+    from frostwatch.units import delta_f_to_c
+
+    return delta_f_to_c(value) if scale == "F" else value
 
 
 def speed_m_s(args, option: str, text) -> float:

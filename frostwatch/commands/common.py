@@ -40,13 +40,17 @@ def _fahrenheit(args) -> bool:
 
 def _temp_in(args, value: float) -> float:
     """A temperature given on the command line, in degC."""
-    return (value - 32.0) * 5.0 / 9.0 if _fahrenheit(args) else value
+    from frostwatch.units import f_to_c
+
+    return f_to_c(value) if _fahrenheit(args) else value
 
 
 def _temp_out(args, value_c: float | None) -> float | None:
+    from frostwatch.units import c_to_f
+
     if value_c is None:
         return None
-    return round(value_c * 9.0 / 5.0 + 32.0, 2) if _fahrenheit(args) else round(value_c, 2)
+    return round(c_to_f(value_c), 2) if _fahrenheit(args) else round(value_c, 2)
 
 
 def _key(args, base: str) -> str:

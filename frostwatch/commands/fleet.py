@@ -53,12 +53,14 @@ def _token(args) -> str | None:
 
 def _fahrenheit_doc(doc: dict) -> dict:
     """JSON keys end in _f with --fahrenheit (temperatures converted; band as a difference)."""
+    from frostwatch.units import c_to_f, delta_c_to_f
+
     for s in doc["sites"]:
         for b in s["blocks"]:
             for k in ("predicted_min_c", "band_c"):
                 if k in b:
                     v = b.pop(k)
-                    scale = (lambda c: c * 9 / 5) if k == "band_c" else (lambda c: c * 9 / 5 + 32)
+                    scale = delta_c_to_f if k == "band_c" else c_to_f
                     b[k[:-2] + "_f"] = None if v is None else round(scale(v), 1)
     return doc
 
