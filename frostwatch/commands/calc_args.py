@@ -103,36 +103,29 @@ def speed_m_s(args, option: str, text) -> float:
         raise _unit_error(option, text, unit, "m/s, km/h, mph or knots (e.g. 5mph)") from None
 
 
-def rate_mm_h(args, option: str, text) -> float:
-    """A sprinkler application rate [mm/h]; a bare number in in/h with --units us."""
+def _scaled(option: str, text, factors: dict[str, float], bare_factor: float, expected: str) -> float:
+    """A value times its unit's factor from `factors`; a bare number times `bare_factor`."""
     value, unit = split(text, option)
     if unit is None:
-        return value * MM_PER_IN if us(args) else value
-    k = _RATE.get(unit.lower())
+        return value * bare_factor
+    k = factors.get(unit.lower())
     if k is None:
-        raise _unit_error(option, text, unit, "mm/h or in/h (e.g. 0.14in/h)")
+        raise _unit_error(option, text, unit, expected)
     return value * k
+
+
+def rate_mm_h(args, option: str, text) -> float:
+    """A sprinkler application rate [mm/h]; a bare number in in/h with --units us."""
+    return _scaled(option, text, _RATE, MM_PER_IN if us(args) else 1.0, "mm/h or in/h (e.g. 0.14in/h)")
 
 
 def area_ha(args, option: str, text) -> float:
     """An area [ha]; a bare number in acres with --units us."""
-    value, unit = split(text, option)
-    if unit is None:
-        return value * HA_PER_ACRE if us(args) else value
-    k = _AREA.get(unit.lower())
-    if k is None:
-        raise _unit_error(option, text, unit, "ha or acres (e.g. 10acres)")
-    return value * k
+    return _scaled(option, text, _AREA, HA_PER_ACRE if us(args) else 1.0, "ha or acres (e.g. 10acres)")
 
 
 def hours_h(args, option: str, text) -> float:
-    value, unit = split(text, option)
-    if unit is None:
-        return value
-    k = _HOURS.get(unit.lower())
-    if k is None:
-        raise _unit_error(option, text, unit, "h (e.g. 8h)")
-    return value * k
+    return _scaled(option, text, _HOURS, 1.0, "h (e.g. 8h)")
 
 
 def pressure_hpa(args, text, inhg=None) -> float:

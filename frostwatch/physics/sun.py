@@ -161,27 +161,12 @@ def sun_day_utc(
     return SunDay(noon, sunrise, sunset, polar)
 
 
-def _evening_utc(evening: SunDay, morning: SunDay) -> datetime:
-    """Sunset; in a polar day the Sun's lowest (solar midnight), in a polar night its noon."""
-    if evening.sunset_utc is not None:
-        return evening.sunset_utc
-    if evening.polar == POLAR_DAY:
-        return _solar_midnight_utc(evening, morning)
-    return evening.solar_noon_utc
-
-
-def _morning_utc(evening: SunDay, morning: SunDay) -> datetime:
-    """Sunrise; in a polar day the Sun's lowest (solar midnight), in a polar night its noon."""
-    if morning.sunrise_utc is not None:
-        return morning.sunrise_utc
-    if morning.polar == POLAR_DAY:
-        return _solar_midnight_utc(evening, morning)
-    return morning.solar_noon_utc
-
-
-def _solar_midnight_utc(evening: SunDay, morning: SunDay) -> datetime:
-    # halfway between two solar noons: the equation of time moves under 30 s a day
-    return evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
+def _event_or_stand_in_utc(event_utc: datetime | None, day: SunDay, solar_midnight_utc: datetime) -> datetime:
+    """The sunset or sunrise; where there is none, the Sun's lowest in a polar day (solar
+    midnight), its highest in a polar night (that day's solar noon)."""
+    if event_utc is not None:
+        return event_utc
+    return solar_midnight_utc if day.polar == POLAR_DAY else day.solar_noon_utc
 
 
 def night_window_utc(
@@ -230,8 +215,10 @@ def night_window_utc(
     """
     evening = sun_day_utc(latitude_deg, longitude_deg, evening_local_date, tz)
     morning = sun_day_utc(latitude_deg, longitude_deg, evening_local_date + timedelta(days=1), tz)
-    sunset = _evening_utc(evening, morning)
-    sunrise = _morning_utc(evening, morning)
+    # halfway between two solar noons: the equation of time moves under 30 s a day
+    solar_midnight_utc = evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
+    sunset = _event_or_stand_in_utc(evening.sunset_utc, evening, solar_midnight_utc)
+    sunrise = _event_or_stand_in_utc(morning.sunrise_utc, morning, solar_midnight_utc)
     return sunset, max(sunset, sunrise)
 
 

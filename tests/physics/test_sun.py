@@ -199,25 +199,21 @@ def _spa_elevations_deg(latitude_deg, longitude_deg, start_utc, hours, step_min=
     return position["elevation"]
 
 
-def test_sun_day_utc_names_polar_day_vs_pvlib_spa():
-    # Longyearbyen at the June solstice: pvlib's SPA keeps the Sun's centre above -0.833 deg
-    # all day (its lowest is about +10.6 deg), so there is no sunrise and no sunset.
+@pytest.mark.parametrize(
+    ("local_date", "polar", "sun_stays_up"),
+    [(date(2025, 6, 21), POLAR_DAY, True), (date(2025, 12, 21), POLAR_NIGHT, False)],
+    ids=["june-solstice-polar-day", "december-solstice-polar-night"],
+)
+def test_sun_day_utc_names_polar_day_and_night_vs_pvlib_spa(local_date, polar, sun_stays_up):
+    # Longyearbyen at the solstices: pvlib's SPA keeps the Sun's centre above -0.833 deg all day
+    # in June (its lowest is about +10.6 deg) and below it all day in December, so there is no
+    # sunrise and no sunset, and the day says which.
     latitude_deg, longitude_deg, tz = LONGYEARBYEN
-    day = sun_day_utc(latitude_deg, longitude_deg, date(2025, 6, 21), tz)
-    assert day.polar == POLAR_DAY
+    day = sun_day_utc(latitude_deg, longitude_deg, local_date, tz)
+    assert day.polar == polar
     assert day.sunrise_utc is None and day.sunset_utc is None
     spa = _spa_elevations_deg(latitude_deg, longitude_deg, day.solar_noon_utc - timedelta(hours=12), 24)
-    assert spa.min() > -0.833
-
-
-def test_sun_day_utc_names_polar_night_vs_pvlib_spa():
-    # Longyearbyen at the December solstice: SPA keeps the Sun below -0.833 deg all day.
-    latitude_deg, longitude_deg, tz = LONGYEARBYEN
-    day = sun_day_utc(latitude_deg, longitude_deg, date(2025, 12, 21), tz)
-    assert day.polar == POLAR_NIGHT
-    assert day.sunrise_utc is None and day.sunset_utc is None
-    spa = _spa_elevations_deg(latitude_deg, longitude_deg, day.solar_noon_utc - timedelta(hours=12), 24)
-    assert spa.max() < -0.833
+    assert (spa.min() > -0.833) if sun_stays_up else (spa.max() < -0.833)
 
 
 def test_night_window_utc_in_polar_day_is_the_instant_of_the_lowest_sun():
