@@ -60,7 +60,7 @@ FORMAT = [
 # SI units a US reader must not meet (degF farm)
 SI_UNITS = [
     r"°C", r"(?<![\w.])-?\d+(?:\.\d+)? ?C\b", r"\bm/s\b", r"km/h", r"mm/h", r"\bL/s\b", r"\bL/h\b", r"\bm3\b", r"m³", r"\d L\b",
-    r"litre", r"\bha\b", r"hectare", r"hPa", r"kPa", r"W/m2", r"\d(\.\d+)? ?(m|mm|cm|km)\b",
+    r"litre", r"\bha\b", r"hectare", r"hPa", r"kPa", r"W/m2", r"(?<![\w.])\d+(\.\d+)? ?(m|mm|cm|km)\b",
 ]
 
 
@@ -128,7 +128,8 @@ def _status_and_fleet_pages(cfg_path: Path, times: list[dt.datetime]) -> dict[st
     from frostwatch.fleet import page as fleet_page
     from frostwatch.fleet import site as fs
     from frostwatch.fleet.view import FleetModel
-    from frostwatch.statuspage_view import render_page, snapshot
+    from frostwatch.status.render import render_page
+    from frostwatch.status.snapshot import snapshot
     from frostwatch.store import Store
 
     cfg = load_config(cfg_path)

@@ -1,4 +1,4 @@
-"""The readers' side of the stored decision (frostwatch.status): the daemon's liveness from its
+"""The readers' side of the stored decision (frostwatch.status.document): the daemon's liveness from its
 heartbeat, monitoring as a reader sees it now, and the JSON of one block; the decision's stored
 form round-trips exactly."""
 
@@ -23,7 +23,13 @@ from frostwatch.decision import (
 )
 from frostwatch.display import Display
 from frostwatch.models import Projection
-from frostwatch.status import Liveness, decision_json, effective_monitoring, liveness, status_document
+from frostwatch.status.document import (
+    Liveness,
+    decision_json,
+    effective_monitoring,
+    liveness,
+    status_document,
+)
 from frostwatch.store import Store
 from frostwatch.store import decisions as stored
 

@@ -47,7 +47,7 @@ def cmd_report(args) -> int:
 
 def cmd_status_page(args) -> int:
     from frostwatch.reports.settings import status_page_settings
-    from frostwatch.statuspage import serve
+    from frostwatch.status.server import serve
 
     cfg = _load(args)
     sp = status_page_settings(cfg)

@@ -1,7 +1,8 @@
 """The fleet page: every site and block on one phone screen, read-only, in the status page's style.
 
-Standard library only (`http.server.ThreadingHTTPServer`), like frostwatch.statuspage, whose CSS
-it shares. Binds 127.0.0.1 by default; any other address needs a token, and then every request
+Standard library only (`http.server.ThreadingHTTPServer`), like the status page, whose look it
+shares (`frostwatch.status.style`) with its token, headers and bind rule (`frostwatch.status.web`):
+it imports those two small modules, never the status page's store and advice. Binds 127.0.0.1 by default; any other address needs a token, and then every request
 must carry `?token=...` (which sets a cookie) or that cookie, else 403.
 
 Paths: `/` the page (refreshes itself), `/fleet.json` the same as `frostwatch fleet --json`
@@ -13,14 +14,12 @@ Raises `UsageError` when asked to bind beyond loopback without a token, or when 
 from __future__ import annotations
 
 import datetime as dt
-import hmac
 import html
 import json
 import logging
 import threading
 import urllib.parse
 from collections.abc import Callable
-from http import cookies
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 
 from frostwatch.advice.render import level_word
@@ -28,10 +27,13 @@ from frostwatch.display import Display
 from frostwatch.errors import UsageError
 from frostwatch.fleet.site import parse_utc
 from frostwatch.fleet.view import CAUTION
+from frostwatch.status import web
+from frostwatch.status.style import PAGE_CSS
 
 log = logging.getLogger("frostwatch.fleet")
 COOKIE = "frostwatch_fleet_token"
 FLEET_PORT = 8471
+CSP = "default-src 'none'; style-src 'unsafe-inline'"
 e = html.escape
 
 FLEET_CSS = """
@@ -41,13 +43,6 @@ FLEET_CSS = """
 .unmon{color:#a00;font-weight:700}.stale{color:#555}
 .banner{background:#a00;color:#fff;padding:.4em .6em;border-radius:6px;font-weight:700}
 """
-
-
-def _page_css() -> str:
-    """The status page's CSS (one look for both pages), plus the fleet's own few rules."""
-    from frostwatch.statuspage import PAGE_CSS
-
-    return PAGE_CSS + FLEET_CSS
 
 
 def _when(text: str | None, d: Display, now: dt.datetime) -> str:
@@ -60,10 +55,7 @@ def _when(text: str | None, d: Display, now: dt.datetime) -> str:
 def _ago(text: str | None, now: dt.datetime) -> str:
     if not text:
         return ""
-    s = (now - parse_utc(text)).total_seconds()
-    if s < 120:
-        return f"{max(s, 0):.0f} s ago"
-    return f"{s / 60:.0f} min ago" if s < 7200 else f"{s / 3600:.1f} h ago"
+    return f"{web.ago((now - parse_utc(text)).total_seconds())} ago"
 
 
 def render_block(b: dict, d: Display, now: dt.datetime, reachable: bool) -> str:
@@ -119,7 +111,7 @@ def render_page(doc: dict, d: Display, refresh_s: int, now: dt.datetime) -> str:
     empty = "" if cards else '<p class="bad">No site has been heard from on this broker yet.</p>'
     return f"""<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
-<meta http-equiv="refresh" content="{refresh_s}"><title>frostwatch fleet</title><style>{_page_css()}</style></head>
+<meta http-equiv="refresh" content="{refresh_s}"><title>frostwatch fleet</title><style>{PAGE_CSS}{FLEET_CSS}</style></head>
 <body><h1>frostwatch fleet</h1>{banner}
 <p class="bad" id="caution">{e(CAUTION)}</p>{head}{empty}
 {''.join(cards)}{rejected}
@@ -145,30 +137,7 @@ class _Handler(BaseHTTPRequestHandler):
         log.debug("%s %s", self.address_string(), fmt % args)
 
     def _send(self, code: int, body: str, ctype: str = "text/html; charset=utf-8", extra: dict | None = None):
-        data = body.encode("utf-8")
-        self.send_response(code)
-        for k, v in {"Content-Type": ctype, "Content-Length": str(len(data)), "Cache-Control": "no-store",
-                     "X-Content-Type-Options": "nosniff", "Referrer-Policy": "no-referrer",
-                     "Content-Security-Policy": "default-src 'none'; style-src 'unsafe-inline'", **(extra or {})}.items():
-            self.send_header(k, v)
-        self.end_headers()
-        if self.command != "HEAD":
-            self.wfile.write(data)
-
-    def _authorised(self, query: dict) -> tuple[bool, bool]:
-        tok = self.server.token
-        if tok is None:
-            return True, False
-        given = (query.get("token") or [""])[0]
-        if given and hmac.compare_digest(given.encode(), tok.encode()):
-            return True, True
-        jar = cookies.SimpleCookie()
-        try:
-            jar.load(self.headers.get("Cookie", ""))
-        except cookies.CookieError:
-            return False, False
-        c = jar.get(COOKIE)
-        return (c is not None and hmac.compare_digest(c.value.encode(), tok.encode())), False
+        web.send(self, code, body, ctype, CSP, extra)
 
     def do_HEAD(self):
         self.do_GET()
@@ -181,12 +150,11 @@ class _Handler(BaseHTTPRequestHandler):
         query = urllib.parse.parse_qs(url.query)
         if url.path == "/healthz":
             return self._send(200, "ok\n", "text/plain; charset=utf-8")
-        ok, set_cookie = self._authorised(query)
+        ok, set_cookie = web.token_allowed(self.server.token, query, self.headers.get("Cookie", ""), COOKIE)
         if not ok:
             return self._send(403, "<h1>403</h1><p>This fleet page needs its token: open the link with ?token=... "
                                    "that its administrator gave you.</p>")
-        extra = {"Set-Cookie": f"{COOKIE}={self.server.token}; Path=/; HttpOnly; SameSite=Strict; Max-Age=31536000"} \
-            if set_cookie else {}
+        extra = web.token_cookie(COOKIE, self.server.token) if set_cookie else {}
         only = (query.get("site") or [None])[0]
         try:
             doc = self.server.snapshot(only)
@@ -204,11 +172,8 @@ class _Handler(BaseHTTPRequestHandler):
 def make_server(snapshot: Callable[[str | None], dict], bind: str = "127.0.0.1", port: int = FLEET_PORT,
                 token: str | None = None, display: Display | None = None, refresh_s: int = 30) -> FleetServer:
     """A bound, not yet serving, fleet page server (`port=0` picks a free one)."""
-    from frostwatch.statuspage import is_loopback
-
-    if not is_loopback(bind) and not token:
-        raise UsageError(f"fleet page: binding {bind} would show every farm to the whole network without a token; "
-                         "give --token-file (a file holding a long random string) or bind 127.0.0.1")
+    web.check_bind(bind, token, f"fleet page: binding {bind} would show every farm to the whole network without a "
+                                "token; give --token-file (a file holding a long random string) or bind 127.0.0.1")
     try:
         return FleetServer((bind, port), snapshot, token, display or Display(), refresh_s)
     except OSError as exc:
@@ -218,16 +183,4 @@ def make_server(snapshot: Callable[[str | None], dict], bind: str = "127.0.0.1",
 def serve(server: FleetServer, stop: threading.Event | None = None) -> None:
     host, port = server.server_address[:2]
     print(f"frostwatch fleet page: http://{host}:{port}/" + ("?token=<your token>" if server.token else ""), flush=True)
-    if stop is None:
-        try:
-            server.serve_forever()
-        except KeyboardInterrupt:
-            pass
-        finally:
-            server.server_close()
-        return
-    t = threading.Thread(target=server.serve_forever, name="fleet-page", daemon=True)
-    t.start()
-    stop.wait()
-    server.shutdown()
-    server.server_close()
+    web.serve_until(server, stop, "fleet-page")

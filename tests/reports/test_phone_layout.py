@@ -66,7 +66,8 @@ def test_a_block_without_tower_or_anemometer_has_no_empty_panel_and_says_why(rep
 
 
 def _status_page(cfg_path, now, alive=True) -> str:
-    from frostwatch.statuspage_view import render_page, snapshot
+    from frostwatch.status.render import render_page
+    from frostwatch.status.snapshot import snapshot
 
     cfg = load_config(cfg_path)
     with Store.open(cfg.storage.path) as store:

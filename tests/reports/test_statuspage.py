@@ -17,7 +17,7 @@ from reports_helpers import chromium
 
 from frostwatch.config import load_config
 from frostwatch.errors import UsageError
-from frostwatch.statuspage import make_server
+from frostwatch.status.server import make_server
 from frostwatch.store import Store
 
 NOW = dt.datetime.fromisoformat("2027-04-15T04:30:00-07:00").astimezone(dt.UTC)  # mid-frost, demo night
@@ -202,3 +202,21 @@ def test_gateway_callback_acknowledges_from_an_sms_reply(running, frost_night_st
     with Store.open(load_config(frost_night_store).storage.path) as store:
         rows = list(store.db.query("SELECT who, via FROM acks WHERE alert_key = ?", [key]))
     assert rows and rows[0]["via"].startswith("gateway")
+
+
+def test_page_escapes_names_from_the_config(frost_night_store):
+    # The page is assembled with f-strings: every text from the config or the store goes through
+    # html.escape. A farm or block name holding markup shows as text, never as markup.
+    import dataclasses
+
+    from frostwatch.status.render import render_page
+    from frostwatch.status.snapshot import snapshot
+
+    cfg = load_config(frost_night_store)
+    hostile = '<script>alert("x")</script> & <marquee>'
+    cfg = dataclasses.replace(cfg, site=dataclasses.replace(cfg.site, name=hostile),
+                              blocks=type(cfg.blocks)(dataclasses.replace(b, name=hostile) for b in cfg.blocks))
+    with Store.open(cfg.storage.path) as store:
+        page = render_page(snapshot(cfg, store, NOW), 30)
+    assert "<script" not in page and "<marquee" not in page
+    assert page.count("&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &lt;marquee&gt;") == 1 + len(cfg.blocks)

@@ -11,7 +11,7 @@ import time
 import pytest
 
 from frostwatch.config import load_config
-from frostwatch.statuspage import make_server
+from frostwatch.status.server import make_server
 
 
 @pytest.fixture

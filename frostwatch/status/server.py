@@ -1,8 +1,9 @@
-"""The local status page: one read-only page for whoever is up at night, readable on a phone.
+"""The local status page's server: one read-only page for whoever is up at night, on a phone.
 
-It shows the daemon's stored decisions and nothing else (`frostwatch.statuspage_view`; the same
-document as `frostwatch status --json` at `/status.json`): it never computes advice. It runs as its
-own process (`frostwatch status-page`), beside the daemon, reading the same store.
+It shows the daemon's stored decisions and nothing else (`frostwatch.status.snapshot` and
+`render`; the same document as `frostwatch status --json` at `/status.json`): it never computes
+advice. It runs as its own process (`frostwatch status-page`), beside the daemon, reading the
+same store.
 
 Standard library only (`http.server.ThreadingHTTPServer`): no framework on a Pi. It binds
 127.0.0.1 by default; any other address needs a token (`[status_page] token_file` or `token`),
@@ -21,10 +22,8 @@ Raises `UsageError` when asked to bind beyond loopback without a token.
 from __future__ import annotations
 
 import datetime as dt
-import hmac
 import html
 import io
-import ipaddress
 import json
 import logging
 import re
@@ -32,13 +31,16 @@ import threading
 import time
 import urllib.parse
 from collections.abc import Callable
-from http import cookies
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 
+from frostwatch.alerts.ackcodes import acknowledge_code, find_code
+from frostwatch.alerts.acks import acknowledge_token
 from frostwatch.config import Config
 from frostwatch.errors import UsageError
 from frostwatch.reports.settings import status_page_settings
-from frostwatch.statuspage_view import PAGE_CSS, render_page, snapshot
+from frostwatch.status import web
+from frostwatch.status.render import ack_form_page, ack_result_page, render_page
+from frostwatch.status.snapshot import snapshot
 from frostwatch.store import Store
 
 log = logging.getLogger("frostwatch.statuspage")
@@ -51,16 +53,8 @@ REQUEST_DEADLINE_S = 10.0
 WRITE_TIMEOUT_S = 10.0
 MAX_CONNECTIONS = 16
 MAX_BODY_BYTES = 8192
+CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src 'self'; form-action 'self'"
 e = html.escape
-
-
-def is_loopback(bind: str) -> bool:
-    if bind in ("localhost", "ip6-localhost"):
-        return True
-    try:
-        return ipaddress.ip_address(bind).is_loopback
-    except ValueError:
-        return False
 
 
 # ---- HTTP ------------------------------------------------------------------------------------
@@ -170,38 +164,9 @@ class _Handler(BaseHTTPRequestHandler):
         log.info("%s %s", self.address_string(), fmt % args)
 
     def _send(self, code: int, body: str, ctype: str = "text/html; charset=utf-8", extra: dict | None = None):
-        data = body.encode("utf-8")
         self.connection.settimeout(WRITE_TIMEOUT_S)  # a client that does not read is not waited for long
         self.close_connection = True
-        self.send_response(code)
-        self.send_header("Content-Type", ctype)
-        self.send_header("Content-Length", str(len(data)))
-        self.send_header("Cache-Control", "no-store")
-        self.send_header("X-Content-Type-Options", "nosniff")
-        self.send_header("Referrer-Policy", "no-referrer")
-        self.send_header("Content-Security-Policy", "default-src 'none'; style-src 'unsafe-inline'; img-src 'self'; "
-                                                    "form-action 'self'")
-        for k, v in (extra or {}).items():
-            self.send_header(k, v)
-        self.end_headers()
-        if self.command != "HEAD":
-            self.wfile.write(data)
-
-    def _authorised(self, query: dict) -> tuple[bool, bool]:
-        """(allowed, set the cookie)."""
-        tok = self.server.token
-        if tok is None:
-            return True, False
-        given = (query.get("token") or [""])[0]
-        if given and hmac.compare_digest(given.encode(), tok.encode()):
-            return True, True
-        jar = cookies.SimpleCookie()
-        try:
-            jar.load(self.headers.get("Cookie", ""))
-        except cookies.CookieError:
-            return False, False
-        c = jar.get(COOKIE)
-        return (c is not None and hmac.compare_digest(c.value.encode(), tok.encode())), False
+        web.send(self, code, body, ctype, CSP, extra)
 
     def _route(self):
         url = urllib.parse.urlsplit(self.path)
@@ -216,15 +181,12 @@ class _Handler(BaseHTTPRequestHandler):
             return self._ack_form(path[len("/ack/"):])
         if path == "/healthz":
             return self._send(200, "ok\n", "text/plain; charset=utf-8")
-        ok, set_cookie = self._authorised(query)
+        ok, set_cookie = web.token_allowed(self.server.token, query, self.headers.get("Cookie", ""), COOKIE)
         if not ok:
             log.warning("status page: refused %s %s (no or wrong token)", self.address_string(), path)
             return self._send(403, "<h1>403</h1><p>This status page needs its token: open the link with "
                                    "?token=... that the farm's administrator gave you.</p>")
-        extra = {}
-        if set_cookie:
-            extra["Set-Cookie"] = (f"{COOKIE}={self.server.token}; Path=/; HttpOnly; SameSite=Strict; "
-                                   "Max-Age=31536000")
+        extra = web.token_cookie(COOKIE, self.server.token) if set_cookie else {}
         try:
             page, doc = self.server.page()
         except Exception as exc:  # a broken page must say so, not hang the phone
@@ -239,13 +201,7 @@ class _Handler(BaseHTTPRequestHandler):
     def _ack_form(self, token: str) -> None:
         if not token or len(token) > 2000:
             return self._send(400, "<h1>400</h1><p>This acknowledgement link is incomplete.</p>")
-        t = e(urllib.parse.quote(token, safe=""))
-        body = (f'<!doctype html><html lang="en"><head><meta charset="utf-8"><meta name="viewport" '
-                f'content="width=device-width, initial-scale=1"><title>Acknowledge</title><style>{PAGE_CSS}</style>'
-                f'</head><body><h1>Acknowledge this alert?</h1><p>Pressing the button tells frostwatch that you are '
-                f'on it: repeats and escalation of this alert stop.</p><form method="post" action="/ack/{t}">'
-                f'<button type="submit" id="confirm">Yes, I am on it</button></form></body></html>')
-        self._send(200, body)
+        self._send(200, ack_form_page(urllib.parse.quote(token, safe="")))
 
     def _gateway_ack(self) -> None:
         """POST /gateway/ack: an SMS or push gateway's callback carrying a person's reply.
@@ -277,23 +233,17 @@ class _Handler(BaseHTTPRequestHandler):
             found = GATEWAY_TOKEN_RE.findall(reply)
             token = max(found, key=len) if found else ""
         code = fields.get("code") if isinstance(fields.get("code"), str) else ""
-        from frostwatch.alerts.ackcodes import find_code
-
         if not token and not code and find_code(reply):
             code = reply
         if not token and not code:
             return self._send(400, json.dumps({"ok": False, "message": "no acknowledgement code or token in the callback"}),
                               "application/json")
-        from frostwatch.alerts.acks import acknowledge_token
-
         who = str(fields.get("from") or fields.get("who") or "gateway")[:80]
         try:
             if token:
                 ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(),
                                                 via=f"gateway:{who}")
             else:
-                from frostwatch.alerts.ackcodes import acknowledge_code
-
                 sender = fields.get("from") if isinstance(fields.get("from"), str) else None
                 ok, message = acknowledge_code(self.server.store, self.server.cfg, code[:500], self.server.now_fn(),
                                                via="sms", source=f"gateway {self.client_address[0]}", sender=sender)
@@ -316,21 +266,12 @@ class _Handler(BaseHTTPRequestHandler):
             self.rfile.read(length)
         token = urllib.parse.unquote(path[len("/ack/"):])
         try:
-            from frostwatch.alerts.acks import acknowledge_token
-        except ImportError:
-            return self._send(503, "<h1>Not available</h1><p>Acknowledgement by link is not installed.</p>")
-        try:
             ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(), via="link")
         except Exception as exc:
             log.exception("acknowledgement failed")
             ok, message = False, f"the acknowledgement could not be recorded: {exc}"
         self.server.forget_cache()
-        code = 200 if ok else 403
-        title = "Acknowledged" if ok else "Not acknowledged"
-        self._send(code, f'<!doctype html><html lang="en"><head><meta charset="utf-8"><meta name="viewport" '
-                         f'content="width=device-width, initial-scale=1"><title>{title}</title><style>{PAGE_CSS}'
-                         f'</style></head><body><h1 id="result">{title}</h1><p>{e(message)}</p>'
-                         '<p><a href="/">status page</a></p></body></html>')
+        self._send(200 if ok else 403, ack_result_page(ok, message))
 
 
 GATEWAY_TOKEN_RE = re.compile(r"[A-Za-z0-9_\-]+\.[A-Za-z0-9_\-]{16,}\.[A-Za-z0-9_\-]{16,}")
@@ -351,11 +292,9 @@ def make_server(
 ) -> StatusServer:
     """A bound, not yet serving, status page server. `port=0` picks a free port
     (`server.server_address[1]`). Opens its own store connection unless one is given."""
-    if not is_loopback(bind) and not token:
-        raise UsageError(
-            f"status page: binding {bind} would show the farm to the whole network without a token; "
-            "set [status_page] token_file (a file holding a long random string) or bind 127.0.0.1"
-        )
+    web.check_bind(bind, token, f"status page: binding {bind} would show the farm to the whole network without a "
+                                "token; set [status_page] token_file (a file holding a long random string) or bind "
+                                "127.0.0.1")
     if refresh_s is None:
         refresh_s = status_page_settings(cfg).refresh_s
     st = store or Store.open(cfg.storage.path)
@@ -380,16 +319,4 @@ def serve(
     host, real_port = server.server_address[:2]
     log.warning("status page on http://%s:%s/%s", host, real_port, "?token=..." if token else "")
     print(f"frostwatch status page: http://{host}:{real_port}/" + ("?token=<your token>" if token else ""), flush=True)
-    if stop is None:
-        try:
-            server.serve_forever()
-        except KeyboardInterrupt:
-            pass
-        finally:
-            server.server_close()
-        return
-    t = threading.Thread(target=server.serve_forever, name="status-page", daemon=True)
-    t.start()
-    stop.wait()
-    server.shutdown()
-    server.server_close()
+    web.serve_until(server, stop, "status-page")
