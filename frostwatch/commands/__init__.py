@@ -4,6 +4,7 @@ COMMAND_MODULES is the order they appear in `frostwatch --help`.
 """
 
 COMMAND_MODULES = (
+    "frostwatch.commands.demo",
     "frostwatch.commands.logs",
     "frostwatch.commands.setup",
     "frostwatch.commands.report",

@@ -1,15 +1,13 @@
-"""Commands over sensor logs: `demo`, `replay`, `backtest`, `export`."""
+"""Commands over sensor logs: `replay`, `backtest`, `export` (and the log reading `demo` shares).
+
+The replay itself is frostwatch.replay (a library, like the pipeline it drives); `demo` is
+frostwatch.commands.demo.
+"""
 
 from __future__ import annotations
 
-import argparse
-import contextlib
 import datetime as dt
-import io
-import json
-import shlex
 import sys
-from dataclasses import dataclass, field
 from pathlib import Path
 
 from frostwatch.commands.common import (
@@ -19,17 +17,8 @@ from frostwatch.commands.common import (
     _out_json,
     _parse_iso,
     _progress,
-    _self_command,
 )
-
-
-def _read_logs(args, cfg, store=None):
-    """Read every log given; report bad rows on stderr; store readings and rejections if a store is given.
-
-    Returns (readings, rejections, stored, duplicates) with the readings as Reading objects; the
-    season-scale commands use `_read_log_columns` instead."""
-    cols, rejections, stored, dup, _ = _read_log_columns(args, cfg, store)
-    return cols.readings(), rejections, stored, dup
+from frostwatch.replay import replay_series
 
 
 def _read_log_columns(args, cfg, store=None, progress=None):
@@ -80,45 +69,6 @@ def _series_from_readings(readings):
     return out
 
 
-def _signature(dc) -> tuple:
-    """What a grower would notice change in a block's decision (frostwatch.decision.plan_signature)."""
-    from frostwatch.decision import plan_signature
-
-    return plan_signature(dc)
-
-
-def decision_changes(evals, display) -> list[dict]:
-    """Each block's decision whenever its `_signature` changes (and the first of each night): the
-    time, level, step, the advice as the grower reads it and the whole typed plan."""
-    changes = DecisionChanges(display)
-    changes.add(evals)
-    return changes.out
-
-
-class DecisionChanges:
-    """`decision_changes`, fed a night of evaluations at a time (a season is not held in memory)."""
-
-    def __init__(self, display):
-        self.display = display
-        self.out: list[dict] = []
-        self.last: dict = {}
-
-    def add(self, evals) -> None:
-        from frostwatch.advice import codec
-        from frostwatch.advice import render as advice_render
-
-        for ev in evals:
-            for dc in ev.decisions:
-                sig = (ev.night.date, _signature(dc))
-                if self.last.get(dc.block) == sig:
-                    continue
-                self.last[dc.block] = sig
-                self.out.append({"time": _iso(ev.time_utc), "block": dc.block, "level": dc.level,
-                                 "step": dc.step.value, "advice": advice_render.action(dc.step, dc.plan, self.display),
-                                 "plan": codec.to_dict(dc.plan)})
-
-
-
 def _first_rows(cols):
     """The first row of each (time, station, quantity) in file order: the one the store keeps."""
     import numpy as np
@@ -129,64 +79,6 @@ def _first_rows(cols):
     mask = np.zeros(len(cols), dtype=bool)
     mask[first] = True
     return mask
-
-
-@dataclass
-class Replayed:
-    """What a replay keeps for its output: the alerts, the nights, and (for --json) the
-    projections; the evaluations themselves go to the store night by night."""
-
-    alerts: list = field(default_factory=list)
-    nights: list = field(default_factory=list)
-    projections: list = field(default_factory=list)
-    decisions: list = field(default_factory=list)  # decision_changes (for --json)
-    shorts: dict = field(default_factory=dict)  # alert key -> the short form with its console delivery's code
-    evaluations: int = 0
-
-
-def replay_series(cfg, store, series, progress=None, keep_projections=False, keep_evaluations=False, display=None):
-    """Run the pipeline over `series` as the daemon would have (pipeline.iter_replay) and store
-    each night's projections, decisions and alerts in one transaction each, night by night.
-    Returns a Replayed (and the evaluations themselves with keep_evaluations, for small logs)."""
-    from frostwatch import pipeline
-    from frostwatch.alerts.outbox import record_replayed, replay_channel
-    from frostwatch.store import decisions as stored_decisions
-
-    console = replay_channel(cfg)
-    out = Replayed()
-    kept = []
-    nights = set()
-    changes = DecisionChanges(display) if keep_projections else None
-    for night_evals in pipeline.iter_replay(cfg, series, progress=progress):
-        if not night_evals:
-            continue
-        store.add_projections(p for ev in night_evals for p in ev.projections)
-        stored_decisions.save_decisions(store, (d for ev in night_evals for d in ev.decisions))
-        for ev in night_evals:
-            nights.add(ev.night.date)
-            out.evaluations += 1
-            for a in ev.alerts:
-                out.shorts[a.key] = record_replayed(store, a, console)
-                out.alerts.append(a)
-            if keep_projections and ev.night.contains(ev.time_utc, 0.0, 0.0):
-                out.projections += [pipeline.with_time(p) for p in ev.projections]
-        if changes is not None:
-            changes.add(night_evals)
-        if keep_evaluations:
-            kept += night_evals
-    out.nights = sorted(nights)
-    out.decisions = changes.out if changes is not None else []
-    return (out, kept) if keep_evaluations else out
-
-
-def replay_into_store(cfg, store, readings, progress=None):
-    """Run the pipeline over the stored readings of the logs' span; store the projections, the
-    decisions and the alerts, as the daemon does. Returns (evaluations, series)."""
-    first = min(r.time_utc for r in readings)
-    last = max(r.time_utc for r in readings)
-    series = store.readings_window(first, last)
-    _, evals = replay_series(cfg, store, series, progress, keep_evaluations=True)
-    return evals, series
 
 
 def cmd_replay(args) -> int:
@@ -328,54 +220,7 @@ def cmd_export(args) -> int:
     return 0
 
 
-def cmd_demo(args) -> int:
-    import shutil
-    import tempfile
-    from importlib import resources
-
-    from frostwatch.config import load_config
-
-    src = resources.files("frostwatch.sample_logs")
-    work = Path(args.out) if args.out else Path(tempfile.mkdtemp(prefix="frostwatch-demo-"))
-    work.mkdir(parents=True, exist_ok=True)
-    cfg_path = work / "demo-farm.toml"
-    text = src.joinpath("demo-farm.toml").read_text(encoding="utf-8")
-    if _fahrenheit(args):
-        text = text.replace('display_unit = "degC"', 'display_unit = "degF"')
-    cfg_path.write_text(text, encoding="utf-8")
-    db = work / "frostwatch.db"
-    if db.exists():
-        db.unlink()
-    logs = []
-    for name in ("2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv"):
-        dst = work / name
-        with src.joinpath(name).open("rb") as f, dst.open("wb") as g:
-            shutil.copyfileobj(f, g)
-        logs.append(str(dst))
-    cfg = load_config(cfg_path)
-    me = _self_command()
-    try_next = " ".join([me, "backtest", *map(shlex.quote, logs), "--config", shlex.quote(str(cfg_path))])
-    ns = argparse.Namespace(config=str(cfg_path), logs=logs, strict=False, json=args.json, fahrenheit=False,
-                            no_report=False, report_dir=str(work / "reports"))
-    if args.json:  # replay's own document, with what the demo adds: one JSON document on stdout
-        buf = io.StringIO()
-        with contextlib.redirect_stdout(buf):
-            rc = cmd_replay(ns)
-        _out_json({"demo": {"site": cfg.site.name, "work_dir": str(work), "config": str(cfg_path), "logs": logs,
-                            "try_next": try_next}, **json.loads(buf.getvalue())})
-        return rc
-    print(f"frostwatch demo: {cfg.site.name} (an invented farm), three invented nights in April 2027")
-    print(f"working folder: {work}\n")
-    rc = cmd_replay(ns)
-    print(f"\nTry next: {try_next}")
-    return rc
-
-
 def register(sub, common) -> None:
-    s = sub.add_parser("demo", parents=[common], help="replay the bundled invented farm's nights (no config, broker or network)")
-    s.add_argument("--out", metavar="DIR", help="working folder (default: a new temporary folder)")
-    s.set_defaults(func=cmd_demo)
-
     for name, helptext, func in (
         ("replay", "run the whole advisory pipeline over sensor logs as if live, storing the readings", cmd_replay),
         ("backtest", "walk-forward test of the dusk forecast over sensor logs", cmd_backtest),

@@ -13,8 +13,8 @@ import pytest
 from alert_helpers import make_cfg
 
 from frostwatch.alerts.outbox import Outbox
-from frostwatch.commands.logs import replay_into_store
 from frostwatch.ingest.csvlog import read_sensor_log
+from frostwatch.replay import replay_into_store
 from frostwatch.store import Store
 from frostwatch.store import outbox as ob
 
