@@ -5,6 +5,7 @@ import math
 
 import numpy as np
 import pytest
+import scipy.constants
 
 from frostwatch.physics.crops import (
     CriticalTemps,
@@ -20,7 +21,8 @@ from frostwatch.physics.crops import (
 
 
 def f_to_c(value_f):
-    return (value_f - 32.0) * 5.0 / 9.0
+    # scipy.constants.convert_temperature (NIST SP 811), not frostwatch's own conversion
+    return float(scipy.constants.convert_temperature(value_f, "Fahrenheit", "Celsius"))
 
 
 # Published degF values, (stage, T10 degF, T90 degF), typed from the reprints named per crop.

@@ -1,4 +1,4 @@
-"""Heaters: the heat requirement by hand (Stefan-Boltzmann, Brutsaert) and the retained share
+"""Heaters: the heat requirement against reference sheet 2.1/2.2 (Stefan-Boltzmann, Brutsaert) and the retained share
 (Evans, 10-15 %)."""
 
 import math
@@ -12,19 +12,23 @@ from frostwatch.physics.heaters import (
     retained_frac_for_inversion,
 )
 
-SIGMA = 5.670374419e-8  # CODATA 2018
+# Reference sheet 2.1 (a black body at the air temperature, CODATA sigma) and the sheet 2.2 check
+# table (Brutsaert 1975 L-down, formulas of Flerchinger et al. 2009): (Ta degC, e hPa, up, down).
+SHEET_2_1_2_2 = [(0.0, 4.22, 315.7, 216.0), (5.0, 4.90, 339.4, 236.0), (10.0, 6.11, 364.5, 261.0)]
 
 
-def test_heat_requirement_by_hand():
-    # block held at -0.2 C, vapour pressure 4.0 hPa, clear sky: Brutsaert (1975) eps =
-    # 1.24 (4.0 / 272.95)^(1/7) = 0.6336; net loss = sigma T^4 (1 - eps) (the surface as a black
-    # body at the air temperature: an upper bound, no tabulated emissivity)
-    t = -0.2 + 273.15
-    eps = 1.24 * (4.0 / t) ** (1 / 7)
-    expected = SIGMA * t**4 * (1.0 - eps)
-    assert heat_requirement_w_m2(-0.2, 4.0) == pytest.approx(expected, rel=2e-3)
-    assert 90.0 < expected < 115.0  # frost-physics.md 2.5: clear frost nights lose 50-110 W/m2
-    assert heat_requirement_w_m2(-0.2, 4.0, cloud_frac=1.0) < expected
+@pytest.mark.parametrize(("air_temp_c", "vp_hpa", "up_w_m2", "down_w_m2"), SHEET_2_1_2_2)
+def test_heat_requirement_vs_reference_sheet_2_1_and_2_2(air_temp_c, vp_hpa, up_w_m2, down_w_m2):
+    # The block's net longwave loss with the surface a black body at the air temperature (an upper
+    # bound, no tabulated emissivity) under a clear Brutsaert sky: up - down. Tolerance 1.5 W m-2,
+    # the table's whole W m-2.
+    assert heat_requirement_w_m2(air_temp_c, vp_hpa) == pytest.approx(up_w_m2 - down_w_m2, abs=1.5)
+
+
+def test_heat_requirement_in_the_frost_night_range_and_cloud_cuts_it():
+    clear = heat_requirement_w_m2(-0.2, 4.0)
+    assert 90.0 < clear < 115.0  # frost-physics.md 2.5: clear frost nights lose 50-110 W/m2
+    assert heat_requirement_w_m2(-0.2, 4.0, cloud_frac=1.0) < clear
 
 
 def test_retained_share_by_inversion_vs_evans():
