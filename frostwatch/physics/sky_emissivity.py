@@ -13,12 +13,10 @@ from collections.abc import Callable
 import numpy as np
 
 from frostwatch.constants import (
-    MAGNUS_E0_HPA,
-    MAGNUS_WATER_B,
-    MAGNUS_WATER_C_C,
     STEFAN_BOLTZMANN_W_M2_K4,
     ZERO_CELSIUS_K,
 )
+from frostwatch.physics import saturation
 from frostwatch.physics._broadcast import _out
 
 # Range over which the clear-sky formulas are applied (degC, hPa). The published fits
@@ -27,7 +25,8 @@ AIR_TEMP_MIN_C = -45.0  # [degC] lower limit accepted here (engineering choice)
 AIR_TEMP_MAX_C = 45.0  # [degC] upper limit accepted here (engineering choice)
 VAPOUR_PRESSURE_MAX_HPA = 100.0  # [hPa] above saturation at 45 degC (95.8 hPa): a units error
 # Vapour pressure above this multiple of saturation (over water) at the air temperature is
-# a sensor or units error (RH > 105 %); saturation from Magnus, WMO-No. 8 Annex 4.B.
+# a sensor or units error (RH > 105 %); saturation over water from Hyland & Wexler 1983
+# (ASHRAE ch. 1, `frostwatch.physics.saturation`).
 SUPERSATURATION_MAX_FRAC = 1.05  # [-] engineering tolerance for hygrometer error
 
 
@@ -41,7 +40,7 @@ def _vapour_ok(vapour_pressure_hpa, air_temp_c):
     e = np.asarray(vapour_pressure_hpa, dtype=float)
     t = np.asarray(air_temp_c, dtype=float)
     with np.errstate(all="ignore"):
-        es_hpa = MAGNUS_E0_HPA * np.exp(MAGNUS_WATER_B * t / (MAGNUS_WATER_C_C + t))  # Magnus over water
+        es_hpa = saturation.saturation_vapour_pressure_water_hpa(t)
     return (
         np.isfinite(e) & (e > 0.0) & (e <= VAPOUR_PRESSURE_MAX_HPA) & (e <= SUPERSATURATION_MAX_FRAC * es_hpa)
     )

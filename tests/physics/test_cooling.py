@@ -331,3 +331,23 @@ def test_project_night_energy_balance_dew_point_never_above_air(t0, spread, wind
     )
     assert np.all(dew <= temps + 1e-9)
     assert np.all(np.diff(temps) <= TOL_K)
+
+
+def test_energy_balance_saturation_is_ashrae_hyland_wexler_vs_psychrolib():
+    """The cooling model's air holds the vapour the humidity module says it does: over water at
+    and above 0 degC, over ice below (frost deposits), both Hyland & Wexler (1983) as in ASHRAE
+    ch. 1, checked against psychrolib's own implementation (tolerance 0.05 %: the two use the same
+    coefficients; Magnus, used before, differs by up to 0.3 % over this range)."""
+    psychrolib = pytest.importorskip("psychrolib")
+    psychrolib.SetUnitSystem(psychrolib.SI)
+    temps = np.array([-30.0, -15.0, -5.0, -0.5, 0.0, 5.0, 15.0, 30.0])
+    ours = night_energy_balance._saturation_vp_hpa(temps)
+    ref = np.array([psychrolib.GetSatVapPres(float(t)) / 100.0 for t in temps])
+    assert np.allclose(ours, ref, rtol=5e-4)
+    # the vapour pressure of a dew point and back: over water (the hygrometer convention; psychrolib
+    # reads a dew point below 0 degC over ice, so it is compared above 0 only)
+    for td in (-20.0, -4.0, 3.0, 18.0):
+        e_hpa = night_energy_balance._vp_from_dew_point_hpa(td)
+        if td > 0.0:
+            assert e_hpa == pytest.approx(psychrolib.GetVapPresFromTDewPoint(td) / 100.0, rel=5e-4)
+        assert float(night_energy_balance._dew_point_from_vp_c(e_hpa)) == pytest.approx(td, abs=1e-6)
