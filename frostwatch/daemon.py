@@ -39,8 +39,15 @@ from frostwatch.night import Night
 from frostwatch.nightcache import NightCache
 from frostwatch.pipeline import LOOKBACK, Evaluator
 from frostwatch.status import HEARTBEAT_META, Liveness, decision_json
-from frostwatch.store import Store, daemon_state, to_ms
+from frostwatch.store import Store, daemon_state, maintenance
 from frostwatch.store import decisions as stored_decisions
+from frostwatch.store.maintenance import (  # noqa: F401 - re-exported (bench/storage.py, tests)
+    WAL_AUTOCHECKPOINT_BYTES,
+    WAL_AUTOCHECKPOINT_PAGES,
+    WAL_SIZE_LIMIT_BYTES,
+    tune_store,
+    wal_autocheckpoint_pages,
+)
 
 log = logging.getLogger("frostwatch.daemon")
 
@@ -53,27 +60,6 @@ PROMPT_REASON = "new reading"  # an evaluation prompted by a reading near a trig
 
 def _utc_now() -> dt.datetime:
     return dt.datetime.now(dt.UTC)
-
-
-# SQLite's default checkpoints every 1000 WAL pages (4 MiB). A page changed by many commits in a row
-# (the newest readings leaf, meta) is written once per checkpoint, so fewer checkpoints write less
-# (bench/storage.py); the WAL file is truncated back to the limit after each checkpoint.
-WAL_AUTOCHECKPOINT_BYTES = 16 * 2**20
-WAL_AUTOCHECKPOINT_PAGES = WAL_AUTOCHECKPOINT_BYTES // 4096  # at SQLite's default page size (kept for readers)
-WAL_SIZE_LIMIT_BYTES = 8 * 2**20
-
-
-def wal_autocheckpoint_pages(page_size_bytes: int) -> int:
-    """Pages of WAL between automatic checkpoints: WAL_AUTOCHECKPOINT_BYTES whatever the page size."""
-    return max(1000, WAL_AUTOCHECKPOINT_BYTES // page_size_bytes)
-
-
-def tune_store(store: Store) -> None:
-    """The daemon's write settings on top of Store.open (synchronous=FULL stays: finding 9)."""
-    with store.lock:
-        page = store.conn.execute("PRAGMA page_size").fetchone()[0]
-        store.conn.execute(f"PRAGMA wal_autocheckpoint={wal_autocheckpoint_pages(page)}")
-        store.conn.execute(f"PRAGMA journal_size_limit={WAL_SIZE_LIMIT_BYTES}")
 
 
 def commit_urgently(core: Core, readings, now: dt.datetime, since_prompt_s: float, debounce_s: float) -> bool:
@@ -299,23 +285,13 @@ class Core:
         """Retention (readings older than storage.retention_days, rejections older than
         storage.rejection_retention_days, decisions older than storage.decisions_days) and a WAL
         checkpoint."""
-        cut = to_ms(now - dt.timedelta(days=self.cfg.storage.retention_days))
-        rejections_cut = to_ms(now - dt.timedelta(days=self.cfg.storage.rejection_retention_days))
-        removed = 0
-        while True:  # bounded batches keep each write transaction short
-            with self.store.transaction() as c:
-                n = c.execute(
-                    "DELETE FROM readings WHERE (time_utc_ms, station, quantity) IN "
-                    "(SELECT time_utc_ms, station, quantity FROM readings WHERE time_utc_ms < ? LIMIT 5000)",
-                    (cut,),
-                ).rowcount
-                c.execute("DELETE FROM rejections WHERE received_utc_ms < ?", (rejections_cut,))
-            removed += n
-            if n < 5000:
-                break
+        removed = maintenance.remove_old_rows(
+            self.store,
+            now - dt.timedelta(days=self.cfg.storage.retention_days),
+            now - dt.timedelta(days=self.cfg.storage.rejection_retention_days),
+        )
         stored_decisions.delete_before(self.store, now - dt.timedelta(days=self.cfg.storage.decisions_days))
-        with self.store.lock:
-            self.store.conn.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+        maintenance.checkpoint(self.store, "TRUNCATE")
         log.info("housekeeping: %d old readings removed, WAL checkpointed", removed)
 
     def learn_history(self, now: dt.datetime) -> int:
@@ -715,8 +691,7 @@ class Daemon:
             doc["stopped"] = True
             self.store.set_meta(HEARTBEAT_META, json.dumps(doc))
             self.store.add_event(self.clock(), "daemon", "stop", f"stored {self.ingest.stats.stored} readings this run")
-            with self.store.lock:
-                self.store.conn.execute("PRAGMA wal_checkpoint(PASSIVE)")
+            maintenance.checkpoint(self.store, "PASSIVE")
         except Exception:  # noqa: BLE001
             log.exception("final store write")
         self.store.close()

@@ -27,6 +27,7 @@ import secrets
 import sqlite3
 
 from frostwatch.store import Store, to_ms
+from frostwatch.store import acks as stored_acks
 
 log = logging.getLogger("frostwatch.alerts.ackcodes")
 
@@ -70,36 +71,25 @@ def code_for_delivery(store: Store, alert_key: str, channel: str, recipient: str
     """The code of one delivery (alert, channel, recipient, seq): made on first use, the same on
     every retry. An expired code that happens to be drawn again is replaced."""
     now_ms = to_ms(now_utc)
-    with store.lock:
-        row = store.conn.execute("SELECT code FROM ack_codes WHERE alert_key=? AND channel=? AND recipient=? AND seq=?",
-                                 (alert_key, channel, recipient, seq)).fetchone()
-    if row:
-        return row[0]
+    known = stored_acks.delivery_code(store, alert_key, channel, recipient, seq)
+    if known:
+        return known
     for _ in range(20):
         code = new_code()
         try:
-            with store.transaction() as c:
-                c.execute("DELETE FROM ack_codes WHERE code=? AND expires_utc_ms < ?", (code, now_ms))
-                c.execute("INSERT INTO ack_codes(code, alert_key, channel, recipient, seq, issued_utc_ms, expires_utc_ms) "
-                          "VALUES (?,?,?,?,?,?,?)", (code, alert_key, channel, recipient, seq, now_ms, now_ms + ttl_s * 1000))
+            stored_acks.add_code(store, code, alert_key, channel, recipient, seq, now_ms, now_ms + ttl_s * 1000)
             return code
         except sqlite3.IntegrityError:
-            with store.lock:  # another process made this delivery's code meanwhile, or a live code was drawn
-                row = store.conn.execute("SELECT code FROM ack_codes WHERE alert_key=? AND channel=? AND recipient=? "
-                                         "AND seq=?", (alert_key, channel, recipient, seq)).fetchone()
-            if row:
-                return row[0]
+            # another process made this delivery's code meanwhile, or a live code was drawn
+            known = stored_acks.delivery_code(store, alert_key, channel, recipient, seq)
+            if known:
+                return known
     raise RuntimeError("could not draw an unused acknowledgement code")
 
 
 def _count(store: Store, since_ms: int, source: str | None = None) -> int:
-    sql = "SELECT count(*) FROM events WHERE kind='ack' AND subject=? AND time_utc_ms >= ?"
-    args: list = [_GUESS, since_ms]
-    if source is not None:
-        sql += " AND detail LIKE ?"
-        args.append(f"%[source {source}]%")
-    with store.lock:
-        return store.conn.execute(sql, args).fetchone()[0]
+    return stored_acks.count_ack_events(store, _GUESS, since_ms,
+                                        None if source is None else f"[source {source}]")
 
 
 def _refuse(store: Store, now_utc: dt.datetime, via: str, source: str, why: str, code: str, guess: bool) -> tuple[bool, str]:
@@ -134,9 +124,7 @@ def acknowledge_code(store: Store, cfg, text: str, now_utc: dt.datetime, via: st
     if code is None:
         return _refuse(store, now_utc, via, source, f"no acknowledgement code (6 characters, e.g. K7QM4X) in "
                        f"{(text or '')[:40]!r}", "", guess=False)
-    with store.lock:
-        row = store.conn.execute("SELECT alert_key, recipient, channel, expires_utc_ms, used_utc_ms FROM ack_codes "
-                                 "WHERE code=?", (code,)).fetchone()
+    row = stored_acks.code_row(store, code)
     if row is None:
         return _refuse(store, now_utc, via, source, f"{code} is not a code frostwatch sent", code, guess=True)
     key, recipient, channel, expires_ms, used_ms = row
@@ -158,10 +146,9 @@ def acknowledge_code(store: Store, cfg, text: str, now_utc: dt.datetime, via: st
     from frostwatch.store import outbox as ob  # late: the store module imports nothing from here
 
     with store.transaction() as c:
-        spent = c.execute("UPDATE ack_codes SET used_utc_ms=?, used_via=? WHERE code=? AND used_utc_ms IS NULL",
-                          (now_ms, f"{via}:{source}", code)).rowcount
-        known = spent == 1 and ob.record_ack(c, key, who, via, now_utc)
-    if spent != 1:
+        spent = stored_acks.spend_code(c, code, now_ms, f"{via}:{source}")
+        known = spent and ob.record_ack(c, key, who, via, now_utc)
+    if not spent:
         return _refuse(store, now_utc, via, source, f"{code} has already been used", code, guess=False)
     if not known:
         return _refuse(store, now_utc, via, source, f"no alert {key} in this store", code, guess=False)

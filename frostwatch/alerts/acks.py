@@ -26,6 +26,7 @@ import sqlite3
 from pathlib import Path
 
 from frostwatch.store import Store, to_ms
+from frostwatch.store import acks as stored_acks
 
 log = logging.getLogger("frostwatch.alerts.acks")
 
@@ -57,10 +58,7 @@ def install_secret(store: Store, cfg=None) -> bytes:
         return data
     value = store.get_meta(_META_KEY)
     if value is None:
-        fresh = secrets.token_hex(32)
-        with store.transaction() as c:  # first writer wins if two processes race
-            c.execute("INSERT OR IGNORE INTO meta(key, value) VALUES (?,?)", (_META_KEY, fresh))
-        value = store.get_meta(_META_KEY)
+        value = stored_acks.keep_first_meta(store, _META_KEY, secrets.token_hex(32))
     return bytes.fromhex(value)
 
 
@@ -138,10 +136,7 @@ def acknowledge_token(store: Store, cfg, token: str, now_utc: dt.datetime, via: 
     key, who = payload["k"], str(payload.get("r") or "someone")
     try:
         with store.transaction() as c:
-            c.execute(
-                "INSERT INTO ack_tokens_used(nonce, alert_key, recipient, via, used_utc_ms) VALUES (?,?,?,?,?)",
-                (payload["n"], key, who, via, to_ms(now_utc)),
-            )
+            stored_acks.spend_mark(c, payload["n"], key, who, via, to_ms(now_utc))
             known = ob.record_ack(c, key, who, via, now_utc)
             if not known:
                 raise LookupError(key)

@@ -53,6 +53,7 @@ from frostwatch.alerts.levels import ALL_LEVELS, level_name, rank_of
 from frostwatch.models import Alert
 from frostwatch.redact import redact
 from frostwatch.store import Store, from_ms, to_ms
+from frostwatch.store import acks as stored_acks
 from frostwatch.store import outbox as ob
 
 log = logging.getLogger("frostwatch.alerts")
@@ -171,7 +172,7 @@ class Outbox:
         new = ob.add_alert_with_deliveries(self.store, a, rows, wants_answer, repeat_ms)
         if new:
             with self.store.transaction() as c:
-                c.execute("UPDATE alert_state SET step=? WHERE alert_key=?", (step, a.key))
+                ob.set_step(c, a.key, step)
                 if level_name(a.level) in RESOLVING_LEVELS or a.resolves:
                     ob.set_state(c, earlier, "resolved", ("firing", "acked"))
                 elif a.rank >= 3:
@@ -189,9 +190,7 @@ class Outbox:
         return now_ms if oldest is None else oldest + 3600_000 + 1000
 
     def _block_keys(self, block: str, night: dt.date | None) -> list[str]:
-        with self.store.lock:
-            rows = self.store.conn.execute("SELECT key FROM alerts WHERE block=?", (block,)).fetchall()
-        return [r[0] for r in rows if night is None or night_of_key(r[0]) == night]
+        return [k for k in ob.alert_keys_of_block(self.store, block) if night is None or night_of_key(k) == night]
 
     def _rows(self, level: str, people: list[Contact], seq: int, kind: str, now_utc: dt.datetime,
               only_local: bool = False, every_channel: bool = False) -> list[dict]:
@@ -229,16 +228,14 @@ class Outbox:
         slug = re.sub(r"[^A-Za-z0-9_.-]+", "-", subject).strip("-")[:60] or "health"
         key = f"{block}/{stamp}/health-{slug}"
         if detail.startswith("recovered"):  # the daemon's rest for a health condition: one resolved message
-            with self.store.lock:
-                (n,) = self.store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key + "%",)).fetchone()
+            n = ob.count_alerts_with_prefix(self.store, key)
             if n == 0 or n % 2 == 0:
                 return key  # nothing raised, or already resolved
             a = Alert(time_utc=now_utc, block=block, level=levels.REST, rank=0, advice="nothing to do",
                       message=f"{subject}: {detail}", key=f"{key}~{n}", resolves=key if n == 1 else f"{key}~{n - 1}")
             self.submit([a], now_utc, exclude)
             return a.key
-        with self.store.lock:
-            (n,) = self.store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key + "%",)).fetchone()
+        n = ob.count_alerts_with_prefix(self.store, key)
         if n % 2 == 0 and n > 0:
             key = f"{key}~{n}"  # raised again after a recovery the same night
         a = Alert(time_utc=now_utc, block=block, level=level, rank=rank_of(level), advice="check the equipment",
@@ -253,18 +250,14 @@ class Outbox:
         `once` is a one-use mark (spent in the same transaction): a second acknowledgement with
         the same mark raises sqlite3.IntegrityError (a replay)."""
         with self.store.transaction() as c:
-            if once is not None and c.execute("SELECT 1 FROM alerts WHERE key=?", (key,)).fetchone() is not None:
-                c.execute("INSERT INTO ack_tokens_used(nonce, alert_key, recipient, via, used_utc_ms) VALUES (?,?,?,?,?)",
-                          (once, key, who, via, to_ms(now_utc)))
+            if once is not None and ob.alert_exists(c, key):
+                stored_acks.spend_mark(c, once, key, who, via, to_ms(now_utc))
             if not ob.record_ack(c, key, who, via, now_utc):
                 log.warning("acknowledgement for unknown alert %s (by %s via %s) ignored", key, who, via)
                 return False
-            row = c.execute("SELECT block, rank FROM alerts WHERE key=?", (key,)).fetchone()
             night = night_of_key(key)
-            others = c.execute(
-                "SELECT a.key FROM alerts a JOIN alert_state s ON s.alert_key=a.key "
-                "WHERE a.block=? AND a.rank<=? AND s.state='firing'", (row[0], row[1])).fetchall()
-            ob.set_state(c, [k for (k,) in others if night_of_key(k) == night], "acked")
+            others = ob.firing_keys_up_to_rank(c, key)
+            ob.set_state(c, [k for k in others if night_of_key(k) == night], "acked")
         log.warning("acknowledged %s by %s via %s", key, who, via)
         return True
 
@@ -432,8 +425,7 @@ class Outbox:
                 nxt = min(nxt, s["started_utc_ms"] + (step + 1) * esc_ms)
             nxt = max(nxt, now_ms + 1000)
             if not escalating and ob.count_notices(self.store, block, now_ms - 3600_000) >= self.ac.budget_per_hour:
-                with self.store.transaction() as c:
-                    c.execute("UPDATE alert_state SET next_repeat_utc_ms=? WHERE alert_key=?", (nxt, key))
+                ob.postpone_repeat(self.store, key, nxt)
                 log.info("repeat of %s held back: %d notifications this hour for %s", key, self.ac.budget_per_hour, block)
                 continue
             seq = s["notices"]
@@ -448,10 +440,7 @@ class Outbox:
                               now_utc=now_utc)
             for row in rows:
                 row["body"] = body
-            with self.store.transaction() as c:
-                ob.insert_deliveries(c, key, rows, now_ms)
-                c.execute("UPDATE alert_state SET notices=notices+1, step=?, next_repeat_utc_ms=? WHERE alert_key=?",
-                          (step, nxt, key))
+            ob.add_repeat(self.store, key, rows, now_ms, step, nxt)
 
     # -- remote failure -> local channels ------------------------------------------------------
     def _note_remote(self, ch: Channel, ok: bool, now: dt.datetime) -> None:
@@ -477,11 +466,7 @@ class Outbox:
         if not failing:
             return
         now_ms = to_ms(now_utc)
-        with self.store.lock:
-            pending = self.store.conn.execute(
-                "SELECT d.alert_key, d.seq, a.level, a.block, group_concat(DISTINCT d.recipient) FROM deliveries d "
-                "JOIN alerts a ON a.key=d.alert_key WHERE d.local=0 AND d.status IN ('retry','inflight','pending') "
-                "AND d.kind != 'notice' AND a.rank >= 3 GROUP BY d.alert_key, d.seq").fetchall()
+        pending = ob.unsent_urgent_remote(self.store)
         local_rows = 0
         for key, seq, level, block, names in pending:
             people = [c for c in self.ac.contacts if c.name in (names or "").split(",")]

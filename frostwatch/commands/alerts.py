@@ -100,6 +100,7 @@ def cmd_alerts(args) -> int:
     from frostwatch.display import Display
     from frostwatch.night import evening_date
     from frostwatch.store import Store, from_ms
+    from frostwatch.store import outbox as stored_outbox
 
     cfg = _load(args)
     with Store.open(cfg.storage.path) as store:
@@ -109,7 +110,7 @@ def cmd_alerts(args) -> int:
             except ValueError:
                 raise UsageError(f"--night: {args.night!r} is not a date, expected YYYY-MM-DD") from None
         else:
-            (ms,) = store.conn.execute("SELECT max(time_utc_ms) FROM alerts").fetchone()
+            ms = stored_outbox.latest_alert_time_ms(store)
             night = evening_date(from_ms(ms), cfg.site.tz) if ms is not None else evening_date(_now(), cfg.site.tz)
         items = night_alerts(store, cfg, night)
     if getattr(args, "json", False):

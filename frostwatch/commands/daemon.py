@@ -27,19 +27,14 @@ def status_doc(cfg, now_utc) -> dict:
 
     from frostwatch.status import status_document
     from frostwatch.store import Store, from_ms, to_ms
+    from frostwatch.store.latest import latest_readings_since
 
     if not cfg.storage.path.exists():
         raise UsageError(f"{cfg.storage.path}: no store yet; start the daemon (frostwatch run) or replay a log first")
     store = Store.open(cfg.storage.path)
     try:
         doc = status_document(cfg, store, now_utc)
-        since = now_utc - dt.timedelta(days=7)  # a time-first key: read a window, never the whole table
-        with store.lock:
-            rows = store.conn.execute(
-                "SELECT station, quantity, max(time_utc_ms), value FROM readings WHERE time_utc_ms >= ? "
-                "GROUP BY station, quantity",
-                (to_ms(since),),
-            ).fetchall()
+        rows = latest_readings_since(store, now_utc - dt.timedelta(days=7))
         stations = {s.id: {"station": s.id, "block": s.block, "role": s.role, "last": {}, "last_at": None, "age_s": None} for s in cfg.stations}
         for st, q, ms, v in rows:
             d = stations.setdefault(st, {"station": st, "block": None, "role": "undeclared", "last": {}, "last_at": None, "age_s": None})

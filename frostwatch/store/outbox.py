@@ -255,3 +255,69 @@ def recent_remote_outcomes(store: Store, since_ms: int) -> list[tuple[str, str]]
             "AND status IN ('sent','retry','failed') ORDER BY updated_utc_ms DESC",
             (since_ms,),
         ).fetchall()
+
+
+def set_step(c: sqlite3.Connection, key: str, step: int) -> None:
+    """Inside the caller's transaction: how far down its roster an alert has escalated."""
+    c.execute("UPDATE alert_state SET step=? WHERE alert_key=?", (step, key))
+
+
+def alert_keys_of_block(store: Store, block: str) -> list[str]:
+    """Every stored alert key of a block (all nights)."""
+    with store.lock:
+        return [r[0] for r in store.conn.execute("SELECT key FROM alerts WHERE block=?", (block,)).fetchall()]
+
+
+def count_alerts_with_prefix(store: Store, key_prefix: str) -> int:
+    """How many alerts have a key starting with `key_prefix` (a health condition and its
+    recoveries: `KEY`, `KEY~1`, `KEY~2`, ...)."""
+    with store.lock:
+        (n,) = store.conn.execute("SELECT count(*) FROM alerts WHERE key LIKE ?", (key_prefix + "%",)).fetchone()
+    return n
+
+
+def alert_exists(c: sqlite3.Connection, key: str) -> bool:
+    return c.execute("SELECT 1 FROM alerts WHERE key=?", (key,)).fetchone() is not None
+
+
+def firing_keys_up_to_rank(c: sqlite3.Connection, key: str) -> list[str]:
+    """Inside the caller's transaction: the firing alerts of the block of alert `key` whose rank is
+    at most its rank (an acknowledgement answers them too)."""
+    block, rank = c.execute("SELECT block, rank FROM alerts WHERE key=?", (key,)).fetchone()
+    return [k for (k,) in c.execute(
+        "SELECT a.key FROM alerts a JOIN alert_state s ON s.alert_key=a.key "
+        "WHERE a.block=? AND a.rank<=? AND s.state='firing'", (block, rank)).fetchall()]
+
+
+def postpone_repeat(store: Store, key: str, next_repeat_ms: int) -> None:
+    """A repeat held back by the budget: try again at `next_repeat_ms`."""
+    with store.transaction() as c:
+        c.execute("UPDATE alert_state SET next_repeat_utc_ms=? WHERE alert_key=?", (next_repeat_ms, key))
+
+
+def add_repeat(store: Store, key: str, deliveries: Iterable[dict], now_ms: int, step: int,
+               next_repeat_ms: int) -> None:
+    """A repeat or escalation: its deliveries, one notice more, the step reached and the next
+    repeat, in one transaction."""
+    with store.transaction() as c:
+        insert_deliveries(c, key, deliveries, now_ms)
+        c.execute("UPDATE alert_state SET notices=notices+1, step=?, next_repeat_utc_ms=? WHERE alert_key=?",
+                  (step, next_repeat_ms, key))
+
+
+def unsent_urgent_remote(store: Store) -> list[tuple]:
+    """(alert_key, seq, level, block, recipients joined by commas) of each notice of rank >= 3 not
+    yet delivered on a remote channel: what goes out on the local channels when remote alerting
+    is degraded."""
+    with store.lock:
+        return store.conn.execute(
+            "SELECT d.alert_key, d.seq, a.level, a.block, group_concat(DISTINCT d.recipient) FROM deliveries d "
+            "JOIN alerts a ON a.key=d.alert_key WHERE d.local=0 AND d.status IN ('retry','inflight','pending') "
+            "AND d.kind != 'notice' AND a.rank >= 3 GROUP BY d.alert_key, d.seq").fetchall()
+
+
+def latest_alert_time_ms(store: Store) -> int | None:
+    """When the newest stored alert was raised (None when there is none)."""
+    with store.lock:
+        (ms,) = store.conn.execute("SELECT max(time_utc_ms) FROM alerts").fetchone()
+    return ms
