@@ -25,6 +25,7 @@ import secrets
 import sqlite3
 from pathlib import Path
 
+from frostwatch.secrets import read_secret, read_secret_file, secret_path
 from frostwatch.store import Store, to_ms
 from frostwatch.store import acks as stored_acks
 
@@ -49,12 +50,11 @@ def install_secret(store: Store, cfg=None) -> bytes:
     if cfg is not None:
         path = (getattr(cfg, "alerts", None) or {}).get("ack_secret_file")
     if path:
-        p = Path(path)
-        if not p.is_absolute() and getattr(cfg, "path", None):
-            p = Path(cfg.path).parent / p
-        data = p.read_bytes().strip()
+        base = Path(cfg.path).parent if getattr(cfg, "path", None) else None
+        data = read_secret_file(path, "alerts.ack_secret_file", base, as_bytes=True)
         if len(data) < 16:
-            raise ValueError(f"{p}: the acknowledgement secret is shorter than 16 bytes")
+            raise ValueError(f"alerts.ack_secret_file: {secret_path(path, base)} holds fewer than 16 bytes; "
+                             "expected a long random secret (e.g. `openssl rand -hex 32 > FILE`)")
         return data
     value = store.get_meta(_META_KEY)
     if value is None:
@@ -158,8 +158,6 @@ _NEEDS = ('an acknowledgement over MQTT needs the signed one-use token of the al
 def contact_secret(cfg, contact) -> str | None:
     """A contact's acknowledgement secret ([[contacts]] ack_secret_file or ack_secret_credential),
     None when the contact has none. Raises OSError or ValueError when it cannot be used."""
-    from frostwatch.alerts.config import read_secret
-
     if not contact.ack_secret:
         return None
     base = Path(cfg.path).parent if getattr(cfg, "path", None) else None

@@ -46,9 +46,7 @@ from __future__ import annotations
 
 import datetime as dt
 import logging
-import os
 from dataclasses import dataclass, field
-from pathlib import Path
 
 from frostwatch.errors import ConfigError
 
@@ -447,24 +445,3 @@ def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
         argv = ch.get("argv")
         if not isinstance(argv, list) or not argv or not all(isinstance(a, str) for a in argv):
             problems.append(f"{where}.argv: {argv!r} is not a command, expected a list like [\"/usr/bin/sms-send\", \"{{to}}\"]")
-
-
-def read_secret(options: dict, base: Path | None = None, key: str = "password") -> str | None:
-    """A secret from `{key}_file` or a systemd credential (`{key}_credential`); None if neither.
-
-    `key` is "password" for SMTP, "auth_header" for a webhook's Authorization header.
-    """
-    cred, file = options.get(f"{key}_credential"), options.get(f"{key}_file")
-    if cred:
-        d = os.environ.get("CREDENTIALS_DIRECTORY")
-        if not d:
-            raise FileNotFoundError(
-                f"credential {cred!r}: $CREDENTIALS_DIRECTORY is not set "
-                "(LoadCredential= in the unit provides it)")
-        return (Path(d) / cred).read_text().strip()
-    if file:
-        p = Path(file)
-        if not p.is_absolute() and base is not None:
-            p = base / p
-        return p.read_text().strip()
-    return None

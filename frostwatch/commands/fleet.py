@@ -9,7 +9,6 @@ from __future__ import annotations
 import datetime as dt
 import os
 import sys
-from pathlib import Path
 
 from frostwatch.commands.common import _out_json
 from frostwatch.errors import UsageError
@@ -40,12 +39,11 @@ def _display(args):
 def _token(args) -> str | None:
     if not args.token_file:
         return None
-    p = Path(os.path.expanduser(args.token_file))
-    try:
-        text = p.read_text(encoding="utf-8").strip()
-    except OSError as exc:
-        raise UsageError(f"--token-file: cannot read {p}: {exc.strerror or exc}") from None
+    from frostwatch.secrets import read_secret_file, secret_path
+
+    text = read_secret_file(args.token_file, "--token-file")
     if len(text) < 16:
+        p = secret_path(args.token_file)
         raise UsageError(f"--token-file: {p} holds fewer than 16 characters; expected a long random token "
                          "(e.g. `openssl rand -hex 16 > FILE`)")
     return text

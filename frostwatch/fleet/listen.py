@@ -18,7 +18,6 @@ from __future__ import annotations
 import datetime as dt
 import logging
 import os
-import stat
 import threading
 import time
 import uuid
@@ -77,14 +76,9 @@ def parse_broker(text: str) -> tuple[str, int]:
 
 def read_password(path_text: str) -> str:
     """The broker password from a file that only its owner may read."""
-    p = Path(os.path.expanduser(path_text))
-    try:
-        mode = p.stat().st_mode
-        if mode & (stat.S_IRWXG | stat.S_IRWXO):
-            raise UsageError(f"--password-file: {p} is readable by group or others; chmod 600 it")
-        return p.read_text(encoding="utf-8").strip()
-    except OSError as exc:
-        raise UsageError(f"--password-file: cannot read {p}: {exc.strerror or exc}") from None
+    from frostwatch.secrets import read_secret_file
+
+    return read_secret_file(path_text, "--password-file")
 
 
 def _check_file(option: str, path: str | None) -> None:

@@ -77,7 +77,7 @@ class SiteUplink:
         self.client = self._make_client()
 
     def _make_client(self) -> paho.Client:
-        from frostwatch.ingest.mqtt import read_secret
+        from frostwatch.secrets import read_secret_file
 
         b = self.cfg.broker
         c = paho.Client(paho.CallbackAPIVersion.VERSION2, client_id=f"{b.client_id}-site", protocol=paho.MQTTv5)
@@ -90,7 +90,8 @@ class SiteUplink:
             props.WillDelayInterval = int(self.s.will_delay_s)
         c.will_set(topic, payload, qos=1, retain=True, properties=props)
         if b.username:
-            pw = read_secret(b.password_file, self.cfg.path.parent if self.cfg.path else None) if b.password_file else None
+            pw = (read_secret_file(b.password_file, "broker.password_file", self.cfg.path.parent if self.cfg.path else None)
+                  if b.password_file else None)
             c.username_pw_set(b.username, pw)
         tls = b.tls or {}
         if tls:

@@ -30,15 +30,12 @@ from __future__ import annotations
 import datetime as dt
 import json
 import logging
-import os
 import queue
-import stat
 import threading
 import time
 from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import paho.mqtt.client as paho
 from paho.mqtt.packettypes import PacketTypes
@@ -46,10 +43,11 @@ from paho.mqtt.properties import Properties
 from paho.mqtt.subscribeoptions import SubscribeOptions
 
 from frostwatch.config import Config
-from frostwatch.errors import StoreError, UsageError
+from frostwatch.errors import StoreError
 from frostwatch.ingest.limits import RejectionLimiter
 from frostwatch.ingest.parse import Mapping, parse_mqtt_message
 from frostwatch.models import Reading, Rejection
+from frostwatch.secrets import read_secret_file
 from frostwatch.store import Store
 from frostwatch.store.db import store_failure
 
@@ -58,30 +56,6 @@ log = logging.getLogger("frostwatch.mqtt")
 # [[mappings]] and [broker] tls are validated in frostwatch.ingest.mappings (no paho there, so
 # load_config need not import this module); re-exported here for existing callers
 from frostwatch.ingest.mappings import MAPPING_KEYS, TLS_KEYS, mappings_from_config  # noqa: E402, F401
-
-
-def read_secret(path_text: str, base: Path | None) -> str:
-    """A secret from a file: the systemd credential of the same name when running under systemd
-    (LoadCredential=, reliability.md 6.5), else the file itself, which must not be readable by
-    group or others. Never logged."""
-    p = Path(os.path.expanduser(path_text))
-    if not p.is_absolute() and base is not None:
-        p = base / p
-    cred_dir = os.environ.get("CREDENTIALS_DIRECTORY")
-    if cred_dir and (Path(cred_dir) / p.name).is_file():
-        p = Path(cred_dir) / p.name
-    else:
-        try:
-            mode = p.stat().st_mode
-        except OSError as exc:
-            raise UsageError(f"broker.password_file: cannot read {p}: {exc.strerror or exc}") from None
-        if mode & (stat.S_IRWXG | stat.S_IRWXO):
-            raise UsageError(f"broker.password_file: {p} is readable by group or others; chmod 600 it")
-    try:
-        return p.read_text(encoding="utf-8").strip()
-    except OSError as exc:
-        raise UsageError(f"broker.password_file: cannot read {p}: {exc.strerror or exc}") from None
-
 
 # ---- the client ------------------------------------------------------------------------------
 
@@ -216,7 +190,8 @@ class MqttIngest:
         c.max_queued_messages_set(1000)  # outgoing status only; readings are never published by us
         c.will_set(self.status("online"), b"offline", qos=1, retain=True)
         if self.b.username:
-            pw = read_secret(self.b.password_file, self.cfg.path.parent if self.cfg.path else None) if self.b.password_file else None
+            pw = (read_secret_file(self.b.password_file, "broker.password_file", self.cfg.path.parent if self.cfg.path else None)
+                  if self.b.password_file else None)
             c.username_pw_set(self.b.username, pw)
         tls = self.b.tls or {}
         if tls:
@@ -613,4 +588,4 @@ def _raw(payload: bytes) -> str:
     return payload[:200].decode("utf-8", "replace")
 
 
-__all__ = ["MqttIngest", "IngestSettings", "IngestStats", "mappings_from_config", "read_secret", "StoreError"]
+__all__ = ["MqttIngest", "IngestSettings", "IngestStats", "mappings_from_config", "StoreError"]

@@ -129,15 +129,17 @@ def status_page_settings(cfg: Config) -> StatusPageSettings:
         token = None
     tf = raw.get("token_file")
     if tf is not None:
+        from frostwatch.secrets import SecretError, read_secret_file, secret_path
+
         base = cfg.path.parent if cfg.path else Path(".")
-        p = Path(tf) if Path(tf).is_absolute() else base / tf
         try:
-            text = p.read_text(encoding="utf-8").strip()
-        except OSError as exc:
-            problems.append(f"status_page.token_file: cannot read {p}: {exc.strerror or exc}")
+            text = read_secret_file(tf, "status_page.token_file", base)
+        except SecretError as exc:
+            problems.append(str(exc))
         else:
             if len(text) < 16:
-                problems.append(f"status_page.token_file: {p} holds fewer than 16 characters; expected a long random token")
+                problems.append(f"status_page.token_file: {secret_path(tf, base)} holds fewer than 16 characters; "
+                                "expected a long random token")
             else:
                 token = text
     public_url = raw.get("public_url")

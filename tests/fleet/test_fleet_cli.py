@@ -138,6 +138,7 @@ def page(sites, mosquitto, tmp_path):
     token = "t0k3n-" + "x" * 20
     tf = tmp_path / "token"
     tf.write_text(token)
+    tf.chmod(0o600)  # a secret: readable by its owner only
     port = free_port()
     log = (tmp_path / "page.log").open("wb")
     proc = subprocess.Popen([sys.executable, "-m", "frostwatch", "fleet", "--broker", f"127.0.0.1:{mosquitto.port}",

@@ -25,7 +25,7 @@ from email.message import EmailMessage
 
 from frostwatch.alerts.channels import Permanent, Transient
 from frostwatch.alerts.channels.deadline import Deadline
-from frostwatch.alerts.config import read_secret
+from frostwatch.secrets import read_secret
 
 AUTH_CODES = (530, 534, 535, 538)
 MIN_BYTES_PER_S = 16 * 1024  # a slow farm uplink still sends this much a second

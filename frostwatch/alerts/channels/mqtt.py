@@ -17,7 +17,7 @@ import time
 import paho.mqtt.client as paho
 
 from frostwatch.alerts.channels import Permanent, Transient
-from frostwatch.alerts.config import read_secret
+from frostwatch.secrets import read_secret
 
 
 def payload_for(channel, msg) -> bytes:

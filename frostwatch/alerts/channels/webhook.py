@@ -27,6 +27,7 @@ from urllib3.connectionpool import HTTPConnectionPool, HTTPSConnectionPool
 from frostwatch.alerts.channels import Permanent, Transient
 from frostwatch.alerts.channels.deadline import Deadline
 from frostwatch.alerts.config import DEFAULT_WEBHOOK_BODY
+from frostwatch.secrets import read_secret
 
 FIELDS = ("key", "seq", "idempotency_key", "level", "rank", "block", "to", "title", "message", "ack_url", "code",
           "short", "long")
@@ -59,8 +60,6 @@ def check_template(template: str, content_type: str = "application/json") -> str
 
 def _auth(o: dict, base_dir) -> str | None:
     """The Authorization header value from `auth_header_file` or `auth_header_credential`."""
-    from frostwatch.alerts.config import read_secret
-
     return read_secret(o, Path(base_dir) if base_dir is not None else None, key="auth_header")
 
 
