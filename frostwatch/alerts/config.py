@@ -48,6 +48,7 @@ import datetime as dt
 import logging
 from dataclasses import dataclass, field
 
+from frostwatch.alerts.channels.template import DEFAULT_WEBHOOK_BODY, check_template  # noqa: F401 - the default body, re-exported
 from frostwatch.errors import ConfigError
 
 log = logging.getLogger("frostwatch.alerts.config")
@@ -60,10 +61,6 @@ ADDRESS_FIELDS = ("none", "email", "phone", "webhook", "command")
 LOCAL_BY_DEFAULT = {"email": False, "webhook": False, "mqtt": True, "command": True, "console": True}
 DEFAULT_ADDRESS = {"email": "email", "webhook": "none", "mqtt": "none", "command": "none", "console": "none"}
 DEFAULT_TIMEOUT_S = 10.0
-DEFAULT_WEBHOOK_BODY = (
-    '{"key": "{key}", "level": "{level}", "rank": {rank}, "block": "{block}", "to": "{to}", '
-    '"title": "{title}", "message": "{message}", "ack_url": "{ack_url}"}'
-)
 
 _ALERT_KEYS = {
     "repeat_interval_min": (float, 10.0), "escalate_after_min": (float, 15.0), "repeat_from_rank": (int, 4),
@@ -427,7 +424,6 @@ def _check_channel(typ: str, ch: dict, where: str, problems: list[str]) -> None:
                                     f"(a file holding the header value) or auth_header_credential")
         tmpl = ch.get("body_template")
         if isinstance(tmpl, str):
-            from frostwatch.alerts.channels.webhook import check_template
             err = check_template(tmpl)
             if err:
                 problems.append(f"{where}.body_template: {err}")

@@ -17,9 +17,12 @@ from __future__ import annotations
 
 import difflib
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from frostwatch.config import Config
 from frostwatch.errors import ConfigError
+
+if TYPE_CHECKING:  # frostwatch.config imports this module to validate its section
+    from frostwatch.config import Config
 
 
 @dataclass(frozen=True)

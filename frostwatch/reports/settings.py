@@ -20,9 +20,12 @@ from __future__ import annotations
 import difflib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
-from frostwatch.config import Config
 from frostwatch.errors import ConfigError
+
+if TYPE_CHECKING:  # frostwatch.config imports this module to validate its section
+    from frostwatch.config import Config
 
 INSURANCE_NOTICE_H = 72  # usual crop-insurance notice period after discovering a loss (grower-needs I1)
 STATUS_PORT = 8470

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import subprocess
 
-from frostwatch.alerts.channels import Permanent, Transient
+from frostwatch.alerts.channels.message import Permanent, Transient
 
 
 def send(channel, msg, to, base_dir=None) -> str:

@@ -23,8 +23,8 @@ import smtplib
 import ssl
 from email.message import EmailMessage
 
-from frostwatch.alerts.channels import Permanent, Transient
 from frostwatch.alerts.channels.deadline import Deadline
+from frostwatch.alerts.channels.message import Permanent, Transient
 from frostwatch.secrets import read_secret
 
 AUTH_CODES = (530, 534, 535, 538)

@@ -16,7 +16,7 @@ import time
 
 import paho.mqtt.client as paho
 
-from frostwatch.alerts.channels import Permanent, Transient
+from frostwatch.alerts.channels.message import Permanent, Transient
 from frostwatch.secrets import read_secret
 
 
