@@ -6,7 +6,8 @@ from __future__ import annotations
 
 from frostwatch.config import Config
 from frostwatch.errors import ConfigError
-from frostwatch.ingest.parse import TIME_FORMATS, Mapping
+from frostwatch.ingest.layouts import Mapping
+from frostwatch.ingest.values import TIME_FORMATS
 from frostwatch.units import QUANTITIES
 
 TLS_KEYS = ("ca_file", "cert_file", "key_file", "ciphers")
