@@ -1,278 +1,40 @@
-"""Load and validate a frostwatch config (TOML).
-
-Validation collects every problem before raising one `ConfigError`; each problem reads
-`section.key: what is wrong, what is expected`, with a did-you-mean for unknown keys.
-The keys of DESIGN.md 1.3 are fixed; everything else has a default shown by `frostwatch check-config`.
-"""
+"""Reading a config: TOML in, every problem of every section collected, one `ConfigError` out, or a
+`Config`. The sections other modules own ([alerts], [report], [status_page], [daemon], [fleet],
+[[mappings]]) are checked by those modules, so that all problems are listed at once."""
 
 from __future__ import annotations
 
 import dataclasses
-import difflib
 import math
 import os
-import re
 import tomllib
-import unicodedata
 import zoneinfo
-from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
 
+from frostwatch.config.model import (
+    DISPLAY_UNITS,
+    PROTECTION_METHODS,
+    SITE_ID_RE,
+    SPRINKLER_METHODS,
+    STATION_ROLES,
+    Block,
+    Broker,
+    Config,
+    Forecast,
+    Site,
+    Station,
+    Storage,
+    site_id_from_name,
+)
+from frostwatch.config.schema import (
+    _ARRAY_SECTIONS,
+    _NUM,
+    _OPEN_SECTIONS,
+    _SCHEMA,
+    _check_table,
+    _did_you_mean,
+)
 from frostwatch.errors import ConfigError
-
-PROTECTION_METHODS = ("wind_machine", "overtree_sprinkler", "undertree_sprinkler", "heaters", "none")
-SPRINKLER_METHODS = ("overtree_sprinkler", "undertree_sprinkler")  # the protections that wet the block
-STATION_ROLES = ("crop", "tower", "sky", "weather")
-DISPLAY_UNITS = ("degC", "degF")
-SITE_ID_RE = re.compile(r"[A-Za-z0-9][A-Za-z0-9_-]{0,63}")
-
-
-def site_id_from_name(name: str) -> str:
-    """The default [site] id: the name in lower case, accents dropped, every run of other
-    characters made one '-', at most 64 characters ("Cedar Bench Orchard" -> "cedar-bench-orchard").
-    Empty when the name has no letter or digit in the Latin alphabet."""
-    ascii_text = unicodedata.normalize("NFKD", name).encode("ascii", "ignore").decode("ascii")
-    return re.sub(r"[^a-z0-9]+", "-", ascii_text.lower()).strip("-")[:64].strip("-")
-
-
-@dataclass(frozen=True)
-class Site:
-    name: str
-    latitude: float
-    longitude: float
-    elevation_m: float
-    timezone: str
-    display_unit: str = "degC"
-    # the site's name on a broker network (topics `{prefix}/{id}/...`): [site] id, or a slug of
-    # the name (site_id_from_name); one topic level of letters, digits, '-' and '_'
-    id: str = ""
-
-    @property
-    def tz(self) -> zoneinfo.ZoneInfo:
-        return zoneinfo.ZoneInfo(self.timezone)
-
-
-@dataclass(frozen=True)
-class Block:
-    id: str
-    crop: str
-    stage: str
-    kill_10pct_c: float
-    kill_90pct_c: float
-    critical_source: str
-    hardiness_offset_c: float = 0.0
-    protection: str = "none"
-    margin_c: float = 2.0
-    mobilisation_min: float = 30.0
-    wind_machines: int = 0
-    application_rate_mm_h: float | None = None
-    area_ha: float | None = None
-    water_supply_l_s: float | None = None
-    fuel_l_per_h: float | None = None
-    biofix_date: str | None = None
-    name: str = ""
-    wind_machine_gain_frac: float = 0.4
-    reference_station: str | None = None
-    heater_kw: float | None = None
-    heaters_per_ha: float | None = None
-
-
-@dataclass(frozen=True)
-class Station:
-    id: str
-    block: str | None
-    height_m: float
-    role: str
-    interval_s: float | None = None
-    x_m: float | None = None
-    y_m: float | None = None
-
-    @property
-    def position_m(self) -> tuple[float, float] | None:
-        """(east, north) of the station in metres from the site's own origin, when configured."""
-        return None if self.x_m is None or self.y_m is None else (self.x_m, self.y_m)
-
-
-@dataclass(frozen=True)
-class Storage:
-    path: Path
-    retention_days: float = 400.0
-    # rejected input is kept for this long, apart from readings (bad input must not fill the card)
-    rejection_retention_days: float = 30.0
-    # rejection rows (and log lines) per MQTT topic and hour; beyond it they are counted in one row
-    rejections_per_source_per_hour: int = 60
-    decisions_days: float = 60.0  # stored decisions (about 1.2 KB per block and evaluation) are kept this long
-
-
-@dataclass(frozen=True)
-class Broker:
-    host: str = "127.0.0.1"
-    port: int = 1883
-    prefix: str = "frostwatch"
-    client_id: str = "frostwatch-daemon"
-    username: str | None = None
-    password_file: str | None = None
-    keepalive_s: int = 15
-    tls: dict = field(default_factory=dict)
-    max_payload_bytes: int = 8192  # as deploy/mosquitto/frostwatch.conf's max_packet_size
-
-
-@dataclass(frozen=True)
-class Forecast:
-    calibration_nights: int = 10
-    emissivity_model: str = "brutsaert_1975"
-    radiation_wind_limit_m_s: float = 2.5
-    stale_after_intervals: float = 3.0
-    evaluation_interval_min: float = 2.0
-
-
-@dataclass(frozen=True)
-class Config:
-    path: Path | None
-    site: Site
-    blocks: tuple[Block, ...]
-    stations: tuple[Station, ...]
-    storage: Storage
-    broker: Broker
-    forecast: Forecast
-    alerts: dict = field(default_factory=dict)
-    contacts: tuple[dict, ...] = ()
-    report: dict = field(default_factory=dict)
-    raw: dict = field(default_factory=dict)
-
-    def block(self, block_id: str) -> Block:
-        for b in self.blocks:
-            if b.id == block_id:
-                return b
-        raise KeyError(block_id)
-
-    def station(self, station_id: str) -> Station | None:
-        return self._stations_by_id().get(station_id)
-
-    def _stations_by_id(self) -> dict[str, Station]:
-        return {s.id: s for s in self.stations}
-
-    def stations_of(self, block_id: str, role: str | None = None) -> list[Station]:
-        return [s for s in self.stations if s.block == block_id and (role is None or s.role == role)]
-
-
-# ---- the schema: section -> key -> (types, default, required) ---------------------------------
-
-_NUM = (int, float)
-_SCHEMA: dict[str, dict[str, tuple[tuple[type, ...], Any, bool]]] = {
-    "site": {
-        "name": ((str,), None, True),
-        "latitude": (_NUM, None, True),
-        "longitude": (_NUM, None, True),
-        "elevation_m": (_NUM, 0.0, False),
-        "timezone": ((str,), None, True),
-        "display_unit": ((str,), "degC", False),
-        "id": ((str,), None, False),
-    },
-    "blocks": {
-        "id": ((str,), None, True),
-        "name": ((str,), "", False),
-        "crop": ((str,), None, True),
-        "stage": ((str,), None, True),
-        "hardiness_offset_c": (_NUM, 0.0, False),
-        "kill_10pct_c": (_NUM, None, False),
-        "kill_90pct_c": (_NUM, None, False),
-        "protection": ((str,), "none", False),
-        "margin_c": (_NUM, 2.0, False),
-        "mobilisation_min": (_NUM, 30.0, False),
-        "wind_machines": ((int,), 0, False),
-        "application_rate_mm_h": (_NUM, None, False),
-        "area_ha": (_NUM, None, False),
-        "water_supply_l_s": (_NUM, None, False),
-        "fuel_l_per_h": (_NUM, None, False),
-        "biofix_date": ((str,), None, False),
-        "wind_machine_gain_frac": (_NUM, 0.4, False),
-        "reference_station": ((str,), None, False),
-        "heater_kw": (_NUM, None, False),
-        "heaters_per_ha": (_NUM, None, False),
-    },
-    "stations": {
-        "id": ((str,), None, True),
-        "block": ((str,), None, False),
-        "height_m": (_NUM, None, True),
-        "role": ((str,), None, False),
-        "interval_s": (_NUM, None, False),
-        "x_m": (_NUM, None, False),
-        "y_m": (_NUM, None, False),
-    },
-    "storage": {
-        "path": ((str,), "frostwatch.db", False),
-        "retention_days": (_NUM, 400.0, False),
-        "rejection_retention_days": (_NUM, 30.0, False),
-        "rejections_per_source_per_hour": ((int,), 60, False),
-        "decisions_days": (_NUM, 60.0, False),
-    },
-    "broker": {
-        "host": ((str,), "127.0.0.1", False),
-        "port": ((int,), 1883, False),
-        "prefix": ((str,), "frostwatch", False),
-        "client_id": ((str,), "frostwatch-daemon", False),
-        "username": ((str,), None, False),
-        "password_file": ((str,), None, False),
-        "keepalive_s": ((int,), 15, False),
-        "tls": ((dict,), {}, False),
-        "max_payload_bytes": ((int,), 8192, False),
-    },
-    "forecast": {
-        "calibration_nights": ((int,), 10, False),
-        "emissivity_model": ((str,), "brutsaert_1975", False),
-        "radiation_wind_limit_m_s": (_NUM, 2.5, False),
-        "stale_after_intervals": (_NUM, 3.0, False),
-        "evaluation_interval_min": (_NUM, 2.0, False),
-    },
-}
-# Sections whose keys belong to later parts of the product; accepted as tables, checked there.
-_OPEN_SECTIONS = ("alerts", "contacts", "report", "channels", "mappings", "status_page", "daemon", "fleet")
-_ARRAY_SECTIONS = ("blocks", "stations", "contacts", "channels", "mappings")
-SECRET_KEYS = ("password", "token", "secret", "api_key")
-
-
-def _did_you_mean(word: str, options: list[str]) -> str:
-    close = difflib.get_close_matches(word, options, n=1, cutoff=0.6)
-    return f" (did you mean {close[0]!r}?)" if close else ""
-
-
-def _type_name(types: tuple[type, ...]) -> str:
-    if types == _NUM:
-        return "a number"
-    return {str: "a string", int: "a whole number", dict: "a table", bool: "true or false"}[types[0]]
-
-
-def _check_table(where: str, table: Any, schema: dict, problems: list[str]) -> dict:
-    """Check one table against its schema; return its values with defaults filled in."""
-    out: dict[str, Any] = {}
-    if not isinstance(table, dict):
-        problems.append(f"{where}: expected a table, got {type(table).__name__}")
-        return out
-    for key, value in table.items():
-        if key not in schema:
-            problems.append(
-                f"{where}.{key}: unknown key{_did_you_mean(key, list(schema))}; "
-                f"known keys are {', '.join(schema)}"
-            )
-            continue
-        types = schema[key][0]
-        ok = isinstance(value, types) and not isinstance(value, bool)
-        if ok and types == _NUM and not math.isfinite(float(value)):
-            ok = False
-        if not ok:
-            problems.append(f"{where}.{key}: {value!r} is not valid; expected {_type_name(types)}")
-            continue
-        out[key] = value
-    for key, (_types, default, required) in schema.items():
-        if key not in out and key not in table:
-            if required:
-                problems.append(f"{where}.{key}: missing; this key is required")
-            out[key] = default
-        elif key not in out:
-            out[key] = default
-    return out
 
 
 def load_config(path: str | os.PathLike) -> Config:
@@ -565,49 +327,3 @@ def _build_block(label: str, v: dict, problems: list[str]) -> Block | None:
     values = {k: v[k] for k in v if k in fields}
     values.update(crop=crop, stage=stage, kill_10pct_c=float(t10), kill_90pct_c=float(t90), critical_source=source)
     return Block(**values)
-
-
-def masked(value: Any, key: str = "") -> Any:
-    """A copy of a config value with secrets replaced by '***'."""
-    if isinstance(value, dict):
-        return {k: masked(v, k) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [masked(v, key) for v in value]
-    if any(s in key.lower() for s in SECRET_KEYS) and not key.lower().endswith("_file"):
-        return "***"
-    return value
-
-
-def effective_settings(cfg: Config) -> dict:
-    """Every setting in force (defaults filled in), secrets masked: for `frostwatch check-config`."""
-
-    def plain(obj: Any) -> Any:
-        if dataclasses.is_dataclass(obj):
-            return {f.name: plain(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
-        if isinstance(obj, (list, tuple)):
-            return [plain(x) for x in obj]
-        if isinstance(obj, Path):
-            return str(obj)
-        return obj
-
-    out = {
-        "site": plain(cfg.site),
-        "blocks": plain(cfg.blocks),
-        "stations": plain(cfg.stations),
-        "storage": plain(cfg.storage),
-        "broker": plain(cfg.broker),
-        "forecast": plain(cfg.forecast),
-        "alerts": cfg.alerts,
-        "contacts": list(cfg.contacts),
-        "report": cfg.report,
-    }
-    # the sections other modules own, with their defaults filled in (a valid config: load_config
-    # has checked them already)
-    from frostwatch.daemon_settings import daemon_settings
-    from frostwatch.fleet.settings import fleet_settings
-    from frostwatch.reports.settings import status_page_settings
-
-    out["daemon"] = plain(daemon_settings(cfg))
-    out["status_page"] = plain(status_page_settings(cfg))
-    out["fleet"] = plain(fleet_settings(cfg))
-    return masked(out)
