@@ -30,6 +30,7 @@ from frostwatch.daemon.journal import dump_stacks, setup_logging
 from frostwatch.daemon.scheduler import build_scheduler
 from frostwatch.daemon.service import CLOCK_JUMP_S, Daemon, run
 from frostwatch.daemon_settings import _DAEMON_KEYS, DaemonSettings, daemon_settings
+from frostwatch.status import HEARTBEAT_META
 from frostwatch.store.maintenance import (
     WAL_AUTOCHECKPOINT_BYTES,
     WAL_AUTOCHECKPOINT_PAGES,
@@ -39,7 +40,7 @@ from frostwatch.store.maintenance import (
 )
 
 __all__ = [
-    "CLOCK_JUMP_S", "DONE_META", "PROMPT_REASON", "WAL_AUTOCHECKPOINT_BYTES", "WAL_AUTOCHECKPOINT_PAGES",
+    "CLOCK_JUMP_S", "DONE_META", "HEARTBEAT_META", "PROMPT_REASON", "WAL_AUTOCHECKPOINT_BYTES", "WAL_AUTOCHECKPOINT_PAGES",
     "WAL_SIZE_LIMIT_BYTES", "_DAEMON_KEYS", "Core", "Daemon", "DaemonSettings", "build_scheduler", "commit_urgently",
     "daemon_settings", "dump_stacks", "run", "setup_logging", "tune_store", "wal_autocheckpoint_pages",
 ]
