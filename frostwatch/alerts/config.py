@@ -37,9 +37,11 @@
     name = "console"
     type = "console"              # email, webhook, mqtt, command, console
 
-Secrets are never written in the config: `password_file` (a file path) or `password_credential`
-(a systemd credential name read from $CREDENTIALS_DIRECTORY). Problems are collected and raised
-together as ConfigError, each as `section.key: what is wrong, what is expected`.
+Secrets are never written in the config: `password_file` (a file only its owner may read) or
+`password_credential` (a systemd credential name read from $CREDENTIALS_DIRECTORY), both read by
+frostwatch.secrets. Problems are collected and raised together as ConfigError, each as
+`section.key: what is wrong, what is expected`. The [[channels]] tables are checked in
+frostwatch.alerts.channel_settings.
 """
 
 from __future__ import annotations
