@@ -5,7 +5,8 @@
     snapshot.py   the page's figures read from the store at one instant
     render.py     the page as HTML (cards, header, the acknowledgement pages)
     chart.py      a block's night as inline SVG
-    server.py     the HTTP server (`frostwatch status-page`): token, deadlines, ack links, gateway
+    server.py     the HTTP server (`frostwatch status-page`): token, deadlines, ack links
+    gateway.py    what an SMS or push gateway's reply callback carries (pure)
     style.py      the pages' CSS             } standard library only: the fleet page
     web.py        token, headers, bind rule  } (frostwatch.fleet.page) imports just these
 

@@ -26,19 +26,19 @@ import html
 import io
 import json
 import logging
-import re
 import threading
 import time
 import urllib.parse
 from collections.abc import Callable
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 
-from frostwatch.alerts.ackcodes import acknowledge_code, find_code
+from frostwatch.alerts.ackcodes import acknowledge_code
 from frostwatch.alerts.acks import acknowledge_token
 from frostwatch.config import Config
 from frostwatch.errors import UsageError
 from frostwatch.reports.settings import status_page_settings
 from frostwatch.status import web
+from frostwatch.status.gateway import reply_from_callback
 from frostwatch.status.render import ack_form_page, ack_result_page, render_page
 from frostwatch.status.snapshot import snapshot
 from frostwatch.store import Store
@@ -206,9 +206,8 @@ class _Handler(BaseHTTPRequestHandler):
     def _gateway_ack(self) -> None:
         """POST /gateway/ack: an SMS or push gateway's callback carrying a person's reply.
 
-        The body (JSON, or a form) holds `token`, or `code`, or a `text` (the reply as typed, e.g.
-        "ok K7QM4X") in which the one-use token or the acknowledgement code of the message is
-        found; `from`/`who` names the sender. The signed one-use token or the one-use code is the
+        The body is read by frostwatch.status.gateway (`token`, `code`, or a `text` in which
+        either is found; `from`/`who`). The signed one-use token or the one-use code is the
         authority; forged, unknown, reused and expired ones are refused, wrong codes count against
         the guessing limits (frostwatch.alerts.ackcodes), and a code sent to a contact is accepted
         only from that contact's phone when the gateway gives `from`.
@@ -217,36 +216,18 @@ class _Handler(BaseHTTPRequestHandler):
         if length is None:
             return None
         raw = self.rfile.read(length).decode("utf-8", "replace") if length else ""
-        ctype = (self.headers.get("Content-Type") or "").split(";")[0].strip()
-        fields: dict = {}
-        try:
-            if ctype == "application/json" or raw.lstrip().startswith("{"):
-                doc = json.loads(raw or "{}")
-                fields = doc if isinstance(doc, dict) else {}
-            else:
-                fields = {k: v[0] for k, v in urllib.parse.parse_qs(raw).items()}
-        except ValueError:
-            fields = {}
-        token = fields.get("token")
-        reply = str(fields.get("text") or fields.get("body") or "")[:500]
-        if not isinstance(token, str) or not token:
-            found = GATEWAY_TOKEN_RE.findall(reply)
-            token = max(found, key=len) if found else ""
-        code = fields.get("code") if isinstance(fields.get("code"), str) else ""
-        if not token and not code and find_code(reply):
-            code = reply
-        if not token and not code:
+        reply = reply_from_callback(raw, (self.headers.get("Content-Type") or "").split(";")[0].strip())
+        if not reply.token and not reply.code:
             return self._send(400, json.dumps({"ok": False, "message": "no acknowledgement code or token in the callback"}),
                               "application/json")
-        who = str(fields.get("from") or fields.get("who") or "gateway")[:80]
         try:
-            if token:
-                ok, message = acknowledge_token(self.server.store, self.server.cfg, token, self.server.now_fn(),
-                                                via=f"gateway:{who}")
+            if reply.token:
+                ok, message = acknowledge_token(self.server.store, self.server.cfg, reply.token, self.server.now_fn(),
+                                                via=f"gateway:{reply.who}")
             else:
-                sender = fields.get("from") if isinstance(fields.get("from"), str) else None
-                ok, message = acknowledge_code(self.server.store, self.server.cfg, code[:500], self.server.now_fn(),
-                                               via="sms", source=f"gateway {self.client_address[0]}", sender=sender)
+                ok, message = acknowledge_code(self.server.store, self.server.cfg, reply.code, self.server.now_fn(),
+                                               via="sms", source=f"gateway {self.client_address[0]}",
+                                               sender=reply.sender)
         except Exception as exc:
             log.exception("gateway acknowledgement failed")
             ok, message = False, f"the acknowledgement could not be recorded: {exc}"
@@ -273,8 +254,6 @@ class _Handler(BaseHTTPRequestHandler):
         self.server.forget_cache()
         self._send(200 if ok else 403, ack_result_page(ok, message))
 
-
-GATEWAY_TOKEN_RE = re.compile(r"[A-Za-z0-9_\-]+\.[A-Za-z0-9_\-]{16,}\.[A-Za-z0-9_\-]{16,}")
 
 
 def _utc_now() -> dt.datetime:

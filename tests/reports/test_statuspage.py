@@ -220,3 +220,12 @@ def test_page_escapes_names_from_the_config(frost_night_store):
         page = render_page(snapshot(cfg, store, NOW), 30)
     assert "<script" not in page and "<marquee" not in page
     assert page.count("&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &lt;marquee&gt;") == 1 + len(cfg.blocks)
+
+
+def test_gateway_callback_nested_too_deep_is_answered_400(running):
+    # json.loads raises RecursionError on 4,000 nested brackets; it once escaped the handler and
+    # the connection closed with no answer. Any body gets an answer.
+    _, port = running()
+    deep = b"[" * 4000 + b"]" * 4000
+    code, body, _ = _get(f"http://127.0.0.1:{port}/gateway/ack", headers={"Content-Type": "application/json"}, data=deep)
+    assert code == 400 and "no acknowledgement code or token" in body
