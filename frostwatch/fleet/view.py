@@ -58,7 +58,7 @@ class SiteSeen:
 def _get_json(payload: bytes, what: str) -> dict:
     try:
         doc = json.loads(payload.decode("utf-8"))
-    except (UnicodeDecodeError, ValueError) as exc:
+    except (UnicodeDecodeError, ValueError, RecursionError) as exc:  # RecursionError: nested too deep
         raise Rejected(f"{what} is not JSON: {exc}") from None
     if not isinstance(doc, dict):
         raise Rejected(f"{what} is not a JSON object")

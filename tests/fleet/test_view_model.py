@@ -187,3 +187,11 @@ def test_a_cleared_retained_state_removes_the_block_and_info_names_the_site():
     s = site_of(m.snapshot(at(2)), "ridge")
     assert [b["block"] for b in s["blocks"]] == ["east"] and s["name"] == "Ridge Ranch"
     assert s["problems"] == ["east-low: silent", "2 of its 3 blocks have sent no state yet"]
+
+
+def test_a_state_nested_deeper_than_the_json_parser_goes_is_a_rejection():
+    # json.loads raises RecursionError (not ValueError) on 4,000 nested brackets: the message is
+    # refused and counted like any other that is not JSON, and the next good one is taken.
+    m = FleetModel()
+    reason = m.on_message("frostwatch/site-a/state/east", b"[" * 4000 + b"]" * 4000, at(0), True)
+    assert reason is not None and "not JSON" in reason and m.rejected_count == 1
