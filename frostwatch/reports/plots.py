@@ -24,7 +24,7 @@ from frostwatch.forecast import Series  # noqa: E402
 from frostwatch.night import Night  # noqa: E402
 from frostwatch.physics import humidity, sprinklers, windmachine  # noqa: E402
 from frostwatch.reports.panels import lower_panel  # noqa: E402
-from frostwatch.units import c_to_f  # noqa: E402
+from frostwatch.units import c_to_f, delta_c_to_f  # noqa: E402
 
 CROP_COLORS = ("tab:blue", "tab:brown", "tab:gray", "black")  # never red: red is for T10/T90
 WIDTH_IN = 5.6  # at DPI about 560 px: shown at phone width, the type stays readable
@@ -164,7 +164,7 @@ def _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c,
 
 def _lower(ax2, lower, block, cfg, series, night, display, start, end) -> None:
     tz = display.tz
-    k = 9.0 / 5.0 if display.unit == "degF" else 1.0
+    k = delta_c_to_f(1.0) if display.unit == "degF" else 1.0  # a difference: no 32-degree offset
     for when in (night.sunset_utc, night.sunrise_utc):
         ax2.axvline(when.astimezone(tz), color="grey", lw=0.8)
     if lower.tower is not None:
