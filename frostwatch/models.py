@@ -102,6 +102,12 @@ class Projection:
     calibration_nights_needed: int | None = None
     # the block has no anemometer of its own (nor a site-wide one): the wind is the farm's
     wind_from_farm: bool = False
+    # what `projected_inversion_c` rests on (frostwatch.forecast.inversion): "tower-curve",
+    # "site-history" (the median of this many past clear calm nights), "held" (the inversion now),
+    # or "not-yet" (a radiation inversion still building: known by `inversion_known_by_utc`)
+    inversion_basis: str | None = None
+    inversion_known_by_utc: dt.datetime | None = None
+    inversion_history_nights: int | None = None
 
 
 @dataclass(frozen=True)

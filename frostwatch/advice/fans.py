@@ -49,13 +49,19 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     -------
     MethodVerdict
         Advised or not with one reason (fog, too windy, inversion unknown, inversion weak, in
-        that order), the conditions the advice depends on, the figures and what else helps.
+        that order), the conditions the advice depends on, the figures and what else helps. While
+        a radiation inversion is still building and nothing projects it (`Projection.inversion_basis`
+        "not-yet"), the fans are advised on the condition that the warm air builds
+        (`Condition.WARM_AIR_ALOFT`), with the time frostwatch will know; no warming is counted.
 
     References
     ----------
     FAO Frost Protection (Snyder & de Melo-Abreu 2005) p. 160: wind machines need an inversion,
     wind below about 2.5 m/s, and must not run in supercooled fog.
     """
+    # a radiation inversion still building, with nothing to project it from: not known yet, so the
+    # fans stay the block's method on the condition that the warm air builds (never "not advised")
+    pending = p.inversion_basis == "not-yet" and p.projected_inversion_c is None and p.inversion_c is not None
     projected = p.projected_inversion_c is not None
     inv = p.projected_inversion_c if projected else p.inversion_c
     inv_c, wind = _num(inv), _num(p.wind_speed_m_s)
@@ -70,11 +76,16 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
         why = WhyNot.SUPERCOOLED_FOG
     elif not math.isnan(wind) and wind > limit:
         why = WhyNot.TOO_WINDY_FOR_FANS
+    elif pending:
+        pass
     elif math.isnan(inv_c):
         why = WhyNot.INVERSION_UNKNOWN
     elif inv_c < windmachine.MIN_USEFUL_INVERSION_C or not suit.useful:
         why = WhyNot.INVERSION_WEAK
     advised = why is None
+    pending = pending and advised
+    if pending:  # no warming is promised before the warm air is there
+        suit = windmachine.wind_machine_suitability(math.nan, 0.0, math.nan, block.kill_10pct_c)
     # judged against T10 + margin: buds run 1-2 degC below screen air on clear nights
     shortfall = block.kill_10pct_c + block.margin_c - (_num(p.predicted_min_c) + suit.expected_gain_low_c)
     sufficient = advised and suit.sufficient
@@ -87,18 +98,23 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
         gain_low_c=suit.expected_gain_low_c if advised else 0.0,
         gain_high_c=suit.expected_gain_high_c if advised else 0.0,
         sufficient=sufficient,
-        shortfall_c=shortfall if advised and shortfall > 0 and not sufficient else None,
+        shortfall_c=shortfall if advised and not pending and shortfall > 0 and not sufficient else None,
         tower_station=p.tower_station, tower_own=p.tower_own, tower_site_wide=p.tower_site_wide,
         tower_distance_m=p.tower_distance_m,
+        inversion_pending=pending, known_by_utc=p.inversion_known_by_utc if pending else None,
+        history_nights=p.inversion_history_nights if p.inversion_basis == "site-history" else None,
     )
     conditions: list[Condition] = []
+    if advised and pending:
+        conditions.append(Condition.WARM_AIR_ALOFT)
     if advised and math.isnan(wind):
         conditions.append(Condition.WIND_BELOW_FAN_LIMIT)
     if advised and fog:
         conditions.append(Condition.NO_FOG)
+    alts = fan_alternatives(WhyNot.INVERSION_WEAK if pending else why, advised and not sufficient and not pending)
     return MethodVerdict(
         method=Method.WIND_MACHINE, advised=advised, why_not=why, conditions=tuple(conditions),
-        alternatives=fan_alternatives(why, advised and not sufficient), fans=figures,
+        alternatives=alts, fans=figures,
     )
 
 

@@ -86,6 +86,9 @@ class Condition(StrEnum):
     WIND_BELOW_FAN_LIMIT = "wind-below-fan-limit"  # the wind is unknown: fans only in light wind
     NO_FOG = "no-fog"  # fog is possible: never run fans in supercooled fog
     CALM_AIR = "calm-air"  # sprinklers: the rate is enough only if the air stays calm (wind unknown)
+    # fans: the warm air aloft is still building (a radiation night before the tower's curve exists,
+    # no site history): fans only once the tower is at least the minimum useful inversion warmer
+    WARM_AIR_ALOFT = "warm-air-aloft"
 
 
 class Alternative(StrEnum):
@@ -142,6 +145,12 @@ class FanFigures:
     tower_own: bool | None = None  # False: another block's tower or the site-wide one
     tower_site_wide: bool | None = None
     tower_distance_m: float | None = None
+    # not known yet: a radiation inversion still building and nothing to project it from; then
+    # `inversion_c` is the inversion now and `known_by_utc` when frostwatch will know
+    inversion_pending: bool = False
+    known_by_utc: dt.datetime | None = None
+    # the projected inversion is the median at the minimum of this many past clear nights here
+    history_nights: int | None = None
 
 
 @dataclass(frozen=True)

@@ -60,6 +60,7 @@ NOWCAST_BLEND = True  # False: the learned nowcast alone once it exists (benchma
 USE_PRESSURE_TREND = True
 BAND_FROM_QUANTILES = True  # False: a normal band from the residuals' spread (benchmark variant)
 BAND_PER_SQRT_HOUR = True  # dusk band residuals scaled by sqrt(hours to sunrise) (benchmark variant)
+INVERSION_MEMORY = 30  # clear calm nights whose inversion at the minimum is kept (the most recent)
 COLD_EVENING_WEIGHT = 0.75  # share of the evening curve beside the prior while no regression exists
 
 
@@ -112,6 +113,7 @@ class NightRecord:
     protected: bool = False
     t0_pressure_trend_hpa: float | None = None
     evening_curve_c: float | None = None
+    inversion_at_min_c: float | None = None  # tower minus crop height at the observed minimum
 
     @property
     def features(self) -> tuple[float, ...]:
@@ -250,6 +252,10 @@ class Calibration:
     nc_bands: tuple = ()  # per bin: (low, high, n)
     mean_min_c: float = 0.0
     dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
+    # the inversion at the minimum of the recent clear calm nights learned (no protection running):
+    # their median and how many (`frostwatch.forecast.inversion`, the site-history projection)
+    inversion_at_min_c: float | None = None
+    inversion_nights: int = 0
     calibration_lambda: float = RIDGE_LAMBDA
     extra: dict = field(default_factory=dict, compare=False)
 
@@ -402,6 +408,7 @@ class Learner:
         self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
         self.nc_skill = [_Skill(NOWCAST_METHODS) for _ in range(NOWCAST_BINS)]
         self.nc_residuals = [deque(maxlen=BAND_MEMORY) for _ in range(NOWCAST_BINS)]
+        self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
 
     def learn(self, rec: NightRecord) -> bool:
@@ -453,6 +460,8 @@ class Learner:
         self.sum_min_c += rec.observed_min_c
         self.n += 1
         self.nights.append(rec.night)
+        if rec.radiation_night and rec.inversion_at_min_c is not None and math.isfinite(rec.inversion_at_min_c):
+            self.inversions.append(rec.inversion_at_min_c)
         self._cal = None
         return True
 
@@ -465,6 +474,8 @@ class Learner:
         n = self.n
         out: dict = {"n_nights": n, "n_protected": self.n_protected, "nights": tuple(self.nights),
                      "calibration_nights": self.calibration_nights}
+        if self.inversions:
+            out.update(inversion_at_min_c=float(np.median(self.inversions)), inversion_nights=len(self.inversions))
         if n:
             out["mean_sqrt_h"] = self.sum_sqrt_h / n
             out["mean_min_c"] = self.sum_min_c / n

@@ -1,47 +1,138 @@
-"""The inversion over a block: tower minus crop height, now and projected to the minimum."""
+"""The inversion over a block: tower minus crop height, now and projected to the minimum.
+
+A radiation inversion builds after dusk: at sunset the tower is often hardly warmer than crop
+height, hours later several degrees (frost-physics.md 3: 5-10 degC over 20 m on Niagara radiation
+nights, Ker et al. 2007). So the inversion at dusk is no projection of the inversion at the
+minimum. The projection to the time of the crop minimum comes from, in this order:
+
+- ``tower-curve``: on a radiation night with at least 3 tower readings since t0, the tower's own
+  square-root curve since t0 (Reuter) carried to the time of the minimum;
+- ``site-history``: before that, on a radiation night, the median inversion at the minimum of the
+  site's own past clear calm nights with no protection running (`Calibration`, walk-forward: only
+  nights already over), once `MIN_HISTORY_NIGHTS` are known;
+- ``not-yet``: on a radiation night with neither, before the tower curve can exist: unknown, with
+  the time frostwatch will know (the first evaluation with 3 tower readings since t0);
+- ``held``: otherwise (a windy or cloudy night, where a radiation inversion does not build, or a
+  tower curve still missing after that time): the inversion now, held.
+"""
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
-from frostwatch.forecast.sensors import Series, as_of
+from frostwatch.forecast.sensors import Series, as_of, usual_interval_s
 from frostwatch.models import StationState
 from frostwatch.physics import windmachine
+
+FIT_MIN_POINTS = 3  # tower readings after t0 before its square-root curve is fitted
+FIT_MIN_ELAPSED_H = 0.05  # ... each at least this long after t0
+MIN_HISTORY_NIGHTS = 3  # past clear calm nights with a tower before the site's history speaks
+
+TOWER_CURVE, SITE_HISTORY, NOT_YET, HELD = "tower-curve", "site-history", "not-yet", "held"
+
+
+@dataclass(frozen=True)
+class InversionOutlook:
+    """The inversion now and at the time of the minimum, and what the projection rests on.
+
+    Attributes
+    ----------
+    now_c : float or None
+        T(tower) - T(crop height) now [degC]; None without a healthy tower.
+    projected_c : float or None
+        Projected at the time of the crop minimum [degC]; None while not known yet.
+    inversion_class : str or None
+        The class of the inversion now (`windmachine.classify_inversion`).
+    basis : str or None
+        ``tower-curve``, ``site-history``, ``not-yet`` or ``held`` (module docstring).
+    known_by_s : float or None
+        With ``not-yet``: when the tower curve will exist [s since the epoch].
+    history_nights : int or None
+        With ``site-history``: how many past nights the median rests on.
+    """
+
+    now_c: float | None = None
+    projected_c: float | None = None
+    inversion_class: str | None = None
+    basis: str | None = None
+    known_by_s: float | None = None
+    history_nights: int | None = None
 
 
 def sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float | None:
     """Least-squares b of T - T0 = b sqrt(t - t0) through the anchored T0; None if too few points."""
-    sel = elapsed_h > 0.05
-    if sel.sum() < 3:
+    sel = elapsed_h > FIT_MIN_ELAPSED_H
+    if sel.sum() < FIT_MIN_POINTS:
         return None
     x = np.sqrt(elapsed_h[sel])
     return float(np.sum(x * (temps_c[sel] - t0_c)) / np.sum(x * x))
 
 
-def inversion(
-    tower: StationState | None, series: Series, air_c: float, t0_s: float, now_s: float, sunrise_s: float,
-    tmin_c: float, tmin_at_s: float | None, radiation: bool,
-) -> tuple[float | None, float | None, str | None]:
-    """(inversion now, projected at the minimum, class) from the block's tower (its own, or the
-    nearest or site-wide one chosen by `frostwatch.towers`).
+def tower_curve_known_by_s(tower_times_s: np.ndarray, t0_s: float, step_s: float) -> float:
+    """When the tower's curve since t0 can first be fitted: t0 plus the minimum elapsed time plus
+    `FIT_MIN_POINTS` of the tower's usual reporting intervals, rounded up to the next evaluation
+    (`step_s` apart on whole multiples, as the daemon runs them)."""
+    interval_s = usual_interval_s(tower_times_s[tower_times_s <= t0_s], None)
+    at = t0_s + FIT_MIN_ELAPSED_H * 3600.0 + FIT_MIN_POINTS * interval_s
+    return math.ceil(at / step_s) * step_s if step_s > 0 else at
 
-    The tower's own square-root curve since t0 is carried to the time of the crop minimum on a
-    radiation night; otherwise the inversion is held.
+
+def inversion_outlook(
+    tower: StationState | None, series: Series, air_c: float, t0_s: float, now_s: float, sunrise_s: float,
+    tmin_c: float, tmin_at_s: float | None, radiation: bool, history_c: float | None = None,
+    history_nights: int = 0, step_s: float = 0.0,
+) -> InversionOutlook:
+    """The inversion now and projected to the time of the crop minimum (module docstring).
+
+    Parameters
+    ----------
+    tower : StationState or None
+        The block's tower (its own, or the nearest or site-wide one, `frostwatch.towers`).
+    series : mapping
+        Readings ``{(station, quantity): (t_s, values)}`` up to `now_s`.
+    air_c : float
+        Crop-height air now [degC].
+    t0_s, now_s, sunrise_s : float
+        t0 (sunset + 2 h), now and sunrise [s since the epoch].
+    tmin_c : float
+        Projected crop minimum [degC]; `tmin_at_s` its time.
+    radiation : bool
+        True on a clear calm night (the regime of the projection).
+    history_c : float, optional
+        The median inversion at the minimum of the site's past clear calm nights [degC].
+    history_nights : int, optional
+        How many nights `history_c` rests on; it speaks from `MIN_HISTORY_NIGHTS`.
+    step_s : float, optional
+        The evaluation interval [s], to say when the tower curve will be known.
+
+    Returns
+    -------
+    InversionOutlook
     """
     if tower is None:
-        return None, None, None
+        return InversionOutlook()
     inv_c = tower.latest["air_temperature"] - air_c
-    proj_inv_c = inv_c
+    cls = windmachine.classify_inversion(inv_c)
+    held = InversionOutlook(inv_c, inv_c, cls, HELD)
+    if not radiation or now_s >= sunrise_s:
+        return held
     tt, tv = series[(tower.station, "air_temperature")]
-    sel = (tt >= t0_s) & (tt <= now_s)
     t_tower0 = as_of(series, tower.station, "air_temperature", t0_s, 900.0)  # as known at t0, like the crop sensor
-    if radiation and t_tower0 is not None and t0_s < now_s < sunrise_s:
+    if t_tower0 is not None and t0_s < now_s:
+        sel = (tt >= t0_s) & (tt <= now_s)
         b_tower = sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], t_tower0)
         if b_tower is not None:
             e_now = math.sqrt((now_s - t0_s) / 3600.0)
             e_min = math.sqrt(max(0.0, (tmin_at_s - t0_s) / 3600.0)) if tmin_at_s else e_now
             tower_min = tower.latest["air_temperature"] + min(b_tower, 0.5) * (e_min - e_now)
-            proj_inv_c = tower_min - tmin_c
-    return inv_c, proj_inv_c, windmachine.classify_inversion(inv_c)
+            return InversionOutlook(inv_c, tower_min - tmin_c, cls, TOWER_CURVE)
+    if history_c is not None and history_nights >= MIN_HISTORY_NIGHTS:
+        return InversionOutlook(inv_c, history_c, cls, SITE_HISTORY, history_nights=history_nights)
+    known_by_s = tower_curve_known_by_s(tt[tt <= now_s], t0_s, step_s)
+    if now_s < known_by_s:
+        return InversionOutlook(inv_c, None, cls, NOT_YET, known_by_s=known_by_s)
+    return held
+

@@ -293,13 +293,18 @@ def project_block(
             if st.role == "tower" and st.id not in tower_states:
                 tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
-    inv_c, proj_inv_c, inv_class = inv.inversion(
-        tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s, tmin_c, tmin_at.timestamp() if tmin_at else None, regime == "radiation")
+    outlook = inv.inversion_outlook(
+        tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s, tmin_c,
+        tmin_at.timestamp() if tmin_at else None, regime == "radiation", cal.inversion_at_min_c, cal.inversion_nights,
+        fc.evaluation_interval_min * 60.0)
+    inv_c, proj_inv_c, inv_class = outlook.now_c, outlook.projected_c, outlook.inversion_class
     if inv_c is None:
         notes.append("no tower sensor: inversion not measured")
     tower_fields = {} if choice is None else dict(
         tower_station=choice.station, tower_own=choice.own, tower_site_wide=choice.site_wide,
-        tower_distance_m=None if choice.distance_m is None else round(choice.distance_m, 0))
+        tower_distance_m=None if choice.distance_m is None else round(choice.distance_m, 0),
+        inversion_basis=outlook.basis, inversion_known_by_utc=_utc(outlook.known_by_s),
+        inversion_history_nights=outlook.history_nights)
     drying_fields = {} if td_trend is None and td_at_start is None else dict(
         dew_point_trend_c_per_h=None if td_trend is None else round(td_trend, 2),
         dew_point_at_start_c=None if td_at_start is None else round(td_at_start, 2))
@@ -379,6 +384,7 @@ def night_record(
     if di is None:
         return None
     i = int(np.argmin(vw))
+    inv_at_min = _inversion_at_s(block, cfg, series, float(tw[i]), float(vw[i]))
     ids = [s.id for s in stations + site]
     wind = window_stat(series, ids, "wind_speed", sunset_s, sunrise_s, np.mean)
     cloud = window_stat(series, [s.id for s in cfg.stations], "cloud_area_fraction", sunset_s, sunrise_s, np.max)
@@ -407,7 +413,20 @@ def night_record(
         evening_curve_c=evening_curve_c(t, v, sunset_s, dusk_s, di.temp_c, sunrise_s),
         nowcast_samples=_nowcast_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
         protected=_protected(series, stations, dusk_s - 3600.0, end_s),
+        inversion_at_min_c=inv_at_min,
     )
+
+
+def _inversion_at_s(block: Block, cfg: Config, series: Series, t_s: float, air_c: float) -> float | None:
+    """Tower minus crop-height air at `t_s` (a past night's minimum), on the tower the block's
+    projection would use then (`frostwatch.towers`); None without a healthy tower reading."""
+    states = {s.id: station_state(s, series, t_s, cfg.forecast.stale_after_intervals)
+              for s in cfg.stations if s.role == "tower"}
+    choice = towers_mod.tower_for_block(cfg, block, states)
+    if choice is None:
+        return None
+    tower_c = as_of(series, choice.station, "air_temperature", t_s, 900.0, extrapolate=False)
+    return None if tower_c is None else round(tower_c - air_c, 2)
 
 
 def _nowcast_samples(
