@@ -137,7 +137,8 @@ class Decision:
 
 def plan_signature(d: Decision) -> tuple:
     """What a grower would notice change in a block's decision: level, step, whether the method is
-    advised (and why not), whether it is enough, and the stop rule's verdict and basis."""
+    advised (and why not), whether it is enough, whether the fans still wait on the warm air aloft,
+    and the stop rule's verdict and basis."""
     plan = d.plan
     v = plan.verdict
     enough = None
@@ -145,8 +146,9 @@ def plan_signature(d: Decision) -> tuple:
         enough = (v.fans.sufficient if v.fans else v.sprinklers.sufficient if v.sprinklers else
                   v.heaters.enough if v.heaters else None)
     stop = plan.stop
+    pending = v.fans.inversion_pending if v is not None and v.fans is not None else None
     return (d.level, d.step, None if v is None else v.advised, None if v is None else v.why_not, enough,
-            None if stop is None else (stop.basis, stop.stop_ok))
+            None if stop is None else (stop.basis, stop.stop_ok), pending)
 
 
 def decision_signature(d: Decision) -> tuple:

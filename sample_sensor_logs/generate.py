@@ -629,11 +629,55 @@ def drying_night(rng):
     return log, {"undertree_on": log.stamp(under_on), "undertree_off": log.stamp(under_off)}
 
 
+# ------------------------------------- D: warm air aloft that builds after dusk, or never does
+
+INVERSION_NIGHTS = (  # (evening, T0, minimum, tower minus crop at its peak on bench, on gap)
+    (dt.date(2027, 4, 23), 1.8, -4.2, 4.0, 0.6),  # frost; no past night known yet
+    (dt.date(2027, 4, 24), 6.5, 1.5, 3.6, 0.5),   # clear, calm, no frost
+    (dt.date(2027, 4, 25), 6.0, 1.0, 4.4, 0.7),   # clear, calm, no frost
+    (dt.date(2027, 4, 26), 1.6, -4.4, 4.0, 0.6),  # frost again, three clear calm nights known
+)
+
+
+def inversion_nights(rng):
+    """2027-04-23 to 27: four clear calm nights at Alder Flat, no protection running. Block bench's
+    own tower is 0.3 C above the crop at sunset and about 4 C above it from 23:00 (the warm air
+    aloft builds after dusk); block gap's own tower stays 0.3-0.7 C above its crop all night
+    (a site whose inversion stays weak). Nights 1 and 4 are frost nights."""
+    log = Log(INVERSION_NIGHTS[0][0])
+    sunset, t0, sunrise = clock("19:59"), clock("21:59"), clock("05:59")
+    for k, (_, t0_c, tmin_c, peak_bench, peak_gap) in enumerate(INVERSION_NIGHTS):
+        hours = T_H + 24.0 * k
+        bench = night_air(t0, sunrise, t0_c + 11.0, t0_c + 5.5, t0_c, tmin_c, t0_c + 8.0, sunset)
+        gap = bench - 0.3
+        build = hermite(T_H, [(0.0, -0.8, 0.0), (sunset, 0.3, 0.4), (t0, 1.0, 1.0), (clock("23:00"), peak_bench, 0.0),
+                              (clock("05:30"), peak_bench, 0.0), (clock("07:30"), 1.0, -1.5), (clock("09:30"), -0.6, 0.0),
+                              (24.0, -0.8, 0.0)])
+        weak = np.interp(T_H, [0.0, sunset, t0, clock("23:00"), clock("05:30"), clock("08:00"), 24.0],
+                         [-0.8, 0.3, 0.4, peak_gap, peak_gap, -0.3, -0.8])
+        td = np.interp(T_H, [0, sunset, t0, sunrise, 24], [t0_c - 4.0, t0_c - 5.5, t0_c - 6.5, t0_c - 7.0, t0_c - 5.0])
+        for sid, air in (("bench-low", bench), ("gap-low", gap)):
+            log.add(sid, "air_temperature", hours, air + temp_noise(rng, white=0.03, red=0.04), "degC")
+        log.add("bench-tower", "air_temperature", hours, bench + build + temp_noise(rng, white=0.03, red=0.04), "degC")
+        log.add("gap-tower", "air_temperature", hours, gap + weak + temp_noise(rng, white=0.03, red=0.04), "degC")
+        ts = T_H[SLOW]
+        for sid, air in (("bench-low", bench), ("gap-low", gap)):
+            dew = np.minimum(td, air - 0.3)
+            log.add(sid, "dew_point_temperature", ts + 24.0 * k, dew[SLOW] + rng.normal(0, 0.05, len(ts)), "degC")
+        calm = np.clip(np.interp(ts, [0, 6, 8.5, 20, 24], [2.0, 1.6, 0.6, 0.6, 1.8])
+                       * (1 + red_noise(rng, len(ts), 0.25, 0.6)), 0.2, 2.0)
+        log.add("bench-low", "wind_speed", ts + 24.0 * k, calm, "m s-1", fmt="{:.1f}")
+        for sid in ("bench-low", "gap-low"):
+            log.add(sid, "wind_machine_running", ts + 24.0 * k, np.zeros(len(ts)), "1", fmt="{:.0f}")
+    return log, {}
+
+
 def write_scenarios():
     rng = np.random.default_rng(SCENARIO_SEED)
     for name, make in (("2027-04-20-sprinklers-sunrise.csv", sprinklers_sunrise),
                        ("2027-04-21-site-tower.csv", site_tower),
-                       ("2027-04-22-drying-night.csv", drying_night)):
+                       ("2027-04-22-drying-night.csv", drying_night),
+                       ("2027-04-23-inversion-builds.csv", inversion_nights)):
         log, facts = make(rng)
         n = log.write(SCENARIOS / name)
         print(f"scenarios/{name}: {n} readings" + "".join(f"; {k} {v}" for k, v in facts.items()))

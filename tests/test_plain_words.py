@@ -32,6 +32,7 @@ SCENARIO_RUNS = [
     ("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml"),
     ("2027-04-21-site-tower.csv", "alder-flat-towers.toml"),
     ("2027-04-22-drying-night.csv", "alder-flat-drying.toml"),
+    ("2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml"),
 ]
 
 # internal words: never in what a grower reads (the report's notes may name sources, see below)

@@ -1,8 +1,10 @@
 """The scenario nights of sample_sensor_logs/scenarios/ through `frostwatch replay --json`, checked
-against their expected-advice tables (sprinklers-sunrise.md, site-tower.md, drying-night.md),
+against their expected-advice tables (sprinklers-sunrise.md, site-tower.md, drying-night.md,
+inversion-builds.md),
 which are worked by hand from the published rules: FAO Frost Protection 2005 ch. 7 (sprinkler start
 and stop on the wet bulb of air outside the wetted area, heaters), UF/IFAS Circ. 348, FAO-FP p. 160
-(fans), McMeeking et al. 2002 (fan warming), Evans (heaters' retained heat), UCCE and Parsons 2015
+(fans), the minimum useful inversion of 1.5-2 C between crop height and 10 m (common practice;
+Goodall et al. 1957: under 2.8 C over 12-15 m is weak), McMeeking et al. 2002 (fan warming), Evans (heaters' retained heat), UCCE and Parsons 2015
 (under-tree). The hand numbers are first recomputed here from the logs with psychrolib (ASHRAE
 2017), so a change to the logs cannot leave the tables silently wrong.
 """
@@ -85,6 +87,8 @@ def _air_for_wet_bulb(target, td):
 
 
 A_DAY, B_DAY, C_DAY = dt.date(2027, 4, 20), dt.date(2027, 4, 21), dt.date(2027, 4, 22)
+D_FIRST, D_LAST = dt.date(2027, 4, 23), dt.date(2027, 4, 26)  # scenario D: four clear calm nights
+MIN_USEFUL_INVERSION_C = 1.5  # fans need about 1.5-2 C between 1.5 m and 10 m (frost-physics.md 4.1, common practice)
 
 
 def test_hand_numbers_of_the_tables_match_the_logs():
@@ -168,6 +172,99 @@ def b_towers(tmp_path_factory):
 @pytest.fixture(scope="module")
 def c_drying(tmp_path_factory):
     return _replay(tmp_path_factory, "2027-04-22-drying-night.csv", "alder-flat-drying.toml")
+
+
+@pytest.fixture(scope="module")
+def d_inversion(tmp_path_factory):
+    return _replay(tmp_path_factory, "2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml")
+
+
+def _inversion_at_minimum(s, block: str, day: dt.date) -> tuple[float, float]:
+    """(tower minus crop height at the crop minimum from t0 to an hour after sunrise, the largest
+    tower minus crop height from sunset to sunrise), from the log: the hand numbers of
+    inversion-builds.md."""
+    t, v = s[(f"{block}-low", "air_temperature")]
+    tt, tv = s[(f"{block}-tower", "air_temperature")]
+    sel = (t >= _at(day, "21:59")) & (t <= _at(day, "06:59"))
+    i = int(np.argmin(v[sel]))
+    night = (tt >= _at(day, "19:59")) & (tt <= _at(day, "05:59"))
+    return (float(np.interp(t[sel][i], tt, tv) - v[sel][i]),
+            float(np.max(tv[night] - np.interp(tt[night], t, v))))
+
+
+def _between(doc, block, start_s, end_s):
+    return [d for d in _of(doc, block) if start_s <= _t(d["time"]) < end_s]
+
+
+def test_d_hand_numbers_of_the_inversion_table_match_the_log():
+    s = _load("2027-04-23-inversion-builds.csv")
+    hand = {(D_FIRST, "bench"): 3.92, (D_FIRST, "gap"): 0.57}
+    for (day, block), at_min in hand.items():
+        assert _inversion_at_minimum(s, block, day)[0] == pytest.approx(at_min, abs=0.05)
+    for k in range(4):
+        day = D_FIRST + dt.timedelta(days=k)
+        bench, gap = _inversion_at_minimum(s, "bench", day), _inversion_at_minimum(s, "gap", day)
+        assert bench[0] >= MIN_USEFUL_INVERSION_C + 1.5  # about 4 C: fans will help
+        assert gap[1] < 1.0  # weak all night: fans will not
+
+
+def test_d_no_dusk_verdict_against_fans_before_the_warm_air_aloft_has_formed(d_inversion):
+    # night 1, no past night known: at dusk the tower is 0.3 C above the crop; the inversion at
+    # the minimum is 3.9 C (bench) or 0.6 C (gap), which nothing known at dusk can tell apart
+    dusk = _between(d_inversion, "bench", _at(D_FIRST, "18:00"), _at(D_FIRST, "22:30")) + \
+        _between(d_inversion, "gap", _at(D_FIRST, "18:00"), _at(D_FIRST, "22:30"))
+    assert dusk
+    for d in dusk:
+        v = d["plan"]["verdicts"][0]
+        if not v["fans"]["inversion_pending"]:  # known: only from the time frostwatch said it would know
+            assert _t(d["time"]) >= _at(D_FIRST, "21:59"), d
+            continue
+        assert v["why_not"] is None and v["advised"], d
+        assert _at(D_FIRST, "21:59") < _t(v["fans"]["known_by_utc"]) <= _at(D_FIRST, "22:30")
+        assert "not advised" not in d["advice"]
+    ready = [a for a in d_inversion["alerts"] if a["level"] == "ready" and _t(a["time"]) < _at(D_FIRST, "22:30")]
+    assert {a["block"] for a in ready} == {"bench", "gap"}
+    for a in ready:
+        assert "get the wind machines ready by" in a["message"] and "other means" not in a["message"]
+        assert "frostwatch will say by" in a["message"] and "whether they will help" in a["message"]
+        assert "get wind machines ready" in a["short"]
+
+
+def test_d_once_known_fans_follow_the_inversion_that_forms(d_inversion):
+    s = _load("2027-04-23-inversion-builds.csv")
+    start, end = _at(D_FIRST, "22:30"), _at(D_FIRST, "05:59")
+    bench = _in_force(d_inversion, "bench", start, end)
+    assert bench and all(d["plan"]["verdicts"][0]["advised"] for d in bench)
+    assert all(not d["plan"]["verdicts"][0]["fans"]["inversion_pending"] for d in bench)
+    assert all(d["plan"]["verdicts"][0]["fans"]["inversion_c"] >= MIN_USEFUL_INVERSION_C for d in bench)
+    gap = _in_force(d_inversion, "gap", start, end)
+    assert gap and _inversion_at_minimum(s, "gap", D_FIRST)[1] < MIN_USEFUL_INVERSION_C
+    for d in gap:
+        v = d["plan"]["verdicts"][0]
+        assert not v["advised"] and v["why_not"] == "inversion-weak", d
+    msgs = [a["message"] for a in d_inversion["alerts"] if a["block"] == "gap" and a["level"] in ("protect", "all-hands")
+            and start <= _t(a["time"]) < end]
+    assert all("start the wind machines" not in m for m in msgs)
+
+
+def test_d_with_past_nights_the_dusk_verdict_rests_on_the_site_history(d_inversion):
+    # night 4: three clear calm unprotected nights known; their median inversion at the minimum
+    s = _load("2027-04-23-inversion-builds.csv")
+    past = [D_FIRST + dt.timedelta(days=k) for k in range(3)]
+    hand = {b: float(np.median([_inversion_at_minimum(s, b, day)[0] for day in past])) for b in ("bench", "gap")}
+    assert hand["bench"] >= MIN_USEFUL_INVERSION_C > hand["gap"]
+    dusk = lambda b: _between(d_inversion, b, _at(D_LAST, "18:00"), _at(D_LAST, "21:59"))  # noqa: E731
+    assert dusk("bench") and dusk("gap")
+    for d in dusk("bench"):
+        v = d["plan"]["verdicts"][0]
+        assert v["advised"] and v["fans"]["history_nights"] == 3
+        assert v["fans"]["inversion_c"] == pytest.approx(hand["bench"], abs=0.6)
+    for d in dusk("gap"):
+        v = d["plan"]["verdicts"][0]
+        assert not v["advised"] and v["why_not"] == "inversion-weak" and v["fans"]["history_nights"] == 3
+    gap_ready = [a for a in d_inversion["alerts"] if a["block"] == "gap" and a["level"] == "ready"
+                 and _t(a["time"]) >= _at(D_LAST, "18:00")]
+    assert gap_ready and "other means" in gap_ready[0]["message"] and "3 past clear nights" in gap_ready[0]["message"]
 
 
 def test_a_no_safe_to_stop_while_the_reference_wet_bulb_is_at_or_below_t10(a_ref):
@@ -282,10 +379,10 @@ def test_c_undertree_rates_warming_and_stop(c_drying):
         assert first["plan"]["stop"]["reference_station"] == "met"
 
 
-def test_no_advice_rests_on_a_value_from_memory(a_ref, a_noref, b_towers, c_drying):
+def test_no_advice_rests_on_a_value_from_memory(a_ref, a_noref, b_towers, c_drying, d_inversion):
     # DEVELOPERS.md: no recommendation may rest on a value marked "from memory"; every message of
     # every scenario night, and every plan's figures, are free of it
-    for doc in (a_ref, a_noref, b_towers, c_drying):
+    for doc in (a_ref, a_noref, b_towers, c_drying, d_inversion):
         for a in doc["alerts"]:
             assert "from memory" not in a["message"], a["message"]
         for d in doc["decisions"]:

@@ -52,6 +52,10 @@ def why_not(v: MethodVerdict, d: Display) -> str:
                 "air aloft to bring down, and the blades can be damaged")
     if w is WhyNot.INVERSION_UNKNOWN:
         return "no working tower sensor: frostwatch cannot tell whether fans will help"
+    if w is WhyNot.INVERSION_WEAK and f is not None and f.history_nights:
+        return (f"too little warm air aloft: at the coldest hour of {f.history_nights} past clear nights here "
+                f"{tower_words(f, d)} was {d.delta(f.inversion_c)} warmer; fans need about "
+                f"{d.delta(f.min_useful_inversion_c)} or more")
     if w is WhyNot.INVERSION_WEAK and f is not None:
         return (f"too little warm air aloft ({d.delta(f.inversion_c)} warmer at {tower_words(f, d)}); fans need "
                 f"about {d.delta(f.min_useful_inversion_c)} or more")
@@ -68,8 +72,13 @@ def why_not(v: MethodVerdict, d: Display) -> str:
 
 
 def verdict_line(plan: AdvicePlan, d: Display) -> str | None:
-    """'Wind machines: not advised tonight: too windy ...' (None when the method is advised)."""
+    """'Wind machines: not advised tonight: too windy ...' (None when the method is advised); for
+    fans while the warm air aloft is still building, when frostwatch will know."""
     v = plan.verdict
+    if v is not None and v.advised and v.fans is not None and v.fans.inversion_pending:
+        when = f"by {d.time(v.fans.known_by_utc)}" if v.fans.known_by_utc is not None else "later tonight"
+        return (f"{METHOD_NAME[v.method].capitalize()}: warm air aloft usually builds after dusk; frostwatch will say "
+                f"{when} whether they will help.")
     if v is None or v.advised:
         return None
     if v.method is Method.NONE:
@@ -91,9 +100,20 @@ def fan_facts(v: MethodVerdict, d: Display) -> list[str]:
     out = []
     if f.wind_speed_m_s is None:
         out.append(f"no wind reading: fans help only below {d.wind_limit(f.wind_limit_m_s)}; check the wind first")
+    if f.inversion_pending:
+        out.append(f"{d.delta(f.inversion_c)} warmer at {tower_words(f, d)} now; fans need about "
+                   f"{d.delta(f.min_useful_inversion_c)} or more")
+        return out
     warming = f"fans add {d.delta(f.gain_low_c)} to {d.delta(f.gain_high_c)}"
     if f.shortfall_c is not None:
         warming += f", not enough alone ({d.delta(f.shortfall_c)} short)"
+    if f.history_nights:
+        # the inversion projected from the site's past clear nights (before tonight's tower curve)
+        fact = f"{d.delta(f.inversion_c)} warmer aloft at the coldest hour of {f.history_nights} past clear nights: {warming}"
+        if len(fact) > MAX_REASON_CHARS:
+            fact = f"usually {d.delta(f.inversion_c)} warmer aloft by the coldest hour: {warming}"
+        out.append(fact)
+        return out
     out.append(f"{d.delta(f.inversion_c)} warmer at {tower_words(f, d)}: {warming}")
     return out
 

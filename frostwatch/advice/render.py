@@ -48,18 +48,22 @@ def _t(d: Display, t: dt.datetime | None) -> str:
     return d.time(t)
 
 
-def _conditions(v: MethodVerdict | None, d: Display) -> str:
+def _conditions(v: MethodVerdict | None, d: Display, ready: bool = False) -> str:
+    """' if the wind is below 2.5 m/s and ...' (a get-ready text leaves out the warm air aloft: the
+    crew gets the machines ready while it builds)."""
     if v is None or not v.conditions:
         return ""
     words = []
     for c in v.conditions:
-        if c is Condition.WIND_BELOW_FAN_LIMIT:
+        if c is Condition.WARM_AIR_ALOFT and not ready and v.fans is not None:
+            words.append(f"the tower reads at least {d.delta(v.fans.min_useful_inversion_c)} warmer than crop height")
+        elif c is Condition.WIND_BELOW_FAN_LIMIT:
             words.append(f"the wind is below {d.wind_limit(v.fans.wind_limit_m_s)}" if v.fans else "the wind is light")
         elif c is Condition.NO_FOG:
             words.append("there is no fog")
         elif c is Condition.CALM_AIR:
             words.append("the air stays calm")
-    return " if " + " and ".join(words)
+    return " if " + " and ".join(words) if words else ""
 
 
 def _reach(plan: AdvicePlan, d: Display) -> str:
@@ -150,10 +154,10 @@ def action(step: Step, plan: AdvicePlan, d: Display) -> str:
             who = "get ready to protect the block by other means"
         ahead = plan.ready_by_utc is not None and plan.ready_by_utc > plan.time_utc
         if ahead:
-            text = (f"{who} by {_t(d, plan.ready_by_utc)}{_conditions(v, d) if advised else ''} "
+            text = (f"{who} by {_t(d, plan.ready_by_utc)}{_conditions(v, d, True) if advised else ''} "
                     f"({plan.mobilisation_min:.0f} min before {_reach(plan, d)})")
         else:
-            text = f"{who} now{_conditions(v, d) if advised else ''}: {_reach(plan, d)}"
+            text = f"{who} now{_conditions(v, d, True) if advised else ''}: {_reach(plan, d)}"
         if not advised and m is not Method.NONE:
             text += f"; the {name} are not advised tonight"
         return text + _sprinkler_start(plan, d) + (LIGHTING if advised and m is Method.HEATERS else "")

@@ -99,6 +99,14 @@ def _stop_facts(plan: AdvicePlan, d: Display) -> str:
     return f"{what} {now} now, stop once above {name}{limit} and rising"
 
 
+def _if_aloft(plan: AdvicePlan, d: Display) -> str:
+    """' if tower 1.5C warmer' while the warm air aloft is still building (fans on that condition)."""
+    v = plan.verdict
+    if v is None or v.fans is None or not v.fans.inversion_pending:
+        return ""
+    return f" if tower {d.delta(v.fans.min_useful_inversion_c).replace(' ', '')} warmer"
+
+
 def _frost_what(step: Step, plan: AdvicePlan, d: Display, level: str) -> str:
     m = plan.method
     name = SHORT_METHOD[m]
@@ -113,7 +121,7 @@ def _frost_what(step: Step, plan: AdvicePlan, d: Display, level: str) -> str:
         return f"get ready {by} to protect by other means ({name} not advised)"
     if step is Step.START_NOW:
         if advised:
-            return f"start {name} now" if m is not Method.HEATERS else "light heaters now"
+            return f"start {name} now{_if_aloft(plan, d)}" if m is not Method.HEATERS else "light heaters now"
         if m is Method.NONE:
             return "protect the block now if you can"
         return f"protect by other means now ({name} not advised)"
@@ -121,7 +129,7 @@ def _frost_what(step: Step, plan: AdvicePlan, d: Display, level: str) -> str:
         if advised and m.is_sprinkler:
             return "start sprinklers now, keep them on without a break"
         if advised:
-            return f"start {name} now" if m is not Method.HEATERS else "light heaters now"
+            return f"start {name} now{_if_aloft(plan, d)}" if m is not Method.HEATERS else "light heaters now"
         return "protect the block now if you can" if m is Method.NONE else "protect by other means now"
     if step is Step.NOT_HOLDING:
         return f"{name} running but not holding: check them, add more"

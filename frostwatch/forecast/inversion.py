@@ -5,8 +5,9 @@ height, hours later several degrees (frost-physics.md 3: 5-10 degC over 20 m on 
 nights, Ker et al. 2007). So the inversion at dusk is no projection of the inversion at the
 minimum. The projection to the time of the crop minimum comes from, in this order:
 
-- ``tower-curve``: on a radiation night with at least 3 tower readings since t0, the tower's own
-  square-root curve since t0 (Reuter) carried to the time of the minimum;
+- ``tower-curve``: on a radiation night with at least 3 readings since t0, the inversion now plus
+  its growth to the time of the minimum, from the tower's and the crop sensor's own square-root
+  curves since t0 (Reuter), fitted to the same readings (so the cooling they share cancels);
 - ``site-history``: before that, on a radiation night, the median inversion at the minimum of the
   site's own past clear calm nights with no protection running (`Calibration`, walk-forward: only
   nights already over), once `MIN_HISTORY_NIGHTS` are known;
@@ -71,6 +72,31 @@ def sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float
     return float(np.sum(x * (temps_c[sel] - t0_c)) / np.sum(x * x))
 
 
+def _curve_growth(
+    series: Series, tower: str, crop: str | None, tower0_c: float, t0_s: float, now_s: float
+) -> float | None:
+    """How fast the inversion grows on the square-root clock since t0 [degC h^-0.5]: the tower's
+    fitted b (at most +0.5: the air aloft hardly warms at night) minus the crop sensor's, both
+    fitted to tonight's readings since t0 (Reuter's curve). Fitting both over the same readings
+    cancels the cooling they share: a tower that cools with the crop projects no growth. None
+    until both curves have `FIT_MIN_POINTS` readings."""
+    tt, tv = series[(tower, "air_temperature")]
+    sel = (tt >= t0_s) & (tt <= now_s)
+    b_tower = sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], tower0_c)
+    if b_tower is None:
+        return None
+    b_crop = 0.0
+    if crop is not None and (crop, "air_temperature") in series:
+        crop0_c = as_of(series, crop, "air_temperature", t0_s, 900.0)
+        ct, cv = series[(crop, "air_temperature")]
+        csel = (ct >= t0_s) & (ct <= now_s)
+        b = sqrt_b_fit((ct[csel] - t0_s) / 3600.0, cv[csel], crop0_c) if crop0_c is not None else None
+        if b is None:
+            return None
+        b_crop = b
+    return min(b_tower, 0.5) - b_crop
+
+
 def tower_curve_known_by_s(tower_times_s: np.ndarray, t0_s: float, step_s: float) -> float:
     """When the tower's curve since t0 can first be fitted: t0 plus the minimum elapsed time plus
     `FIT_MIN_POINTS` of the tower's usual reporting intervals, rounded up to the next evaluation
@@ -82,8 +108,8 @@ def tower_curve_known_by_s(tower_times_s: np.ndarray, t0_s: float, step_s: float
 
 def inversion_outlook(
     tower: StationState | None, series: Series, air_c: float, t0_s: float, now_s: float, sunrise_s: float,
-    tmin_c: float, tmin_at_s: float | None, radiation: bool, history_c: float | None = None,
-    history_nights: int = 0, step_s: float = 0.0,
+    tmin_at_s: float | None, radiation: bool, *, crop_station: str | None = None, history_c: float | None = None,
+    history_nights: int = 0, step_s: float = 0.0, dusk_s: float | None = None,
 ) -> InversionOutlook:
     """The inversion now and projected to the time of the crop minimum (module docstring).
 
@@ -97,16 +123,21 @@ def inversion_outlook(
         Crop-height air now [degC].
     t0_s, now_s, sunrise_s : float
         t0 (sunset + 2 h), now and sunrise [s since the epoch].
-    tmin_c : float
-        Projected crop minimum [degC]; `tmin_at_s` its time.
+    tmin_at_s : float or None
+        Time of the projected crop minimum [s since the epoch].
     radiation : bool
         True on a clear calm night (the regime of the projection).
+    crop_station : str, optional
+        The crop-height sensor `air_c` is from (its curve since t0 is paired with the tower's).
     history_c : float, optional
         The median inversion at the minimum of the site's past clear calm nights [degC].
     history_nights : int, optional
         How many nights `history_c` rests on; it speaks from `MIN_HISTORY_NIGHTS`.
     step_s : float, optional
         The evaluation interval [s], to say when the tower curve will be known.
+    dusk_s : float, optional
+        Tonight's t0 [s since the epoch] when `t0_s` is still `now_s` (before dusk): the tower
+        curve starts there.
 
     Returns
     -------
@@ -122,16 +153,14 @@ def inversion_outlook(
     tt, tv = series[(tower.station, "air_temperature")]
     t_tower0 = as_of(series, tower.station, "air_temperature", t0_s, 900.0)  # as known at t0, like the crop sensor
     if t_tower0 is not None and t0_s < now_s:
-        sel = (tt >= t0_s) & (tt <= now_s)
-        b_tower = sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], t_tower0)
-        if b_tower is not None:
+        grow = _curve_growth(series, tower.station, crop_station, t_tower0, t0_s, now_s)
+        if grow is not None:
             e_now = math.sqrt((now_s - t0_s) / 3600.0)
             e_min = math.sqrt(max(0.0, (tmin_at_s - t0_s) / 3600.0)) if tmin_at_s else e_now
-            tower_min = tower.latest["air_temperature"] + min(b_tower, 0.5) * (e_min - e_now)
-            return InversionOutlook(inv_c, tower_min - tmin_c, cls, TOWER_CURVE)
+            return InversionOutlook(inv_c, inv_c + grow * max(0.0, e_min - e_now), cls, TOWER_CURVE)
     if history_c is not None and history_nights >= MIN_HISTORY_NIGHTS:
         return InversionOutlook(inv_c, history_c, cls, SITE_HISTORY, history_nights=history_nights)
-    known_by_s = tower_curve_known_by_s(tt[tt <= now_s], t0_s, step_s)
+    known_by_s = tower_curve_known_by_s(tt[tt <= now_s], max(t0_s, dusk_s or t0_s), step_s)
     if now_s < known_by_s:
         return InversionOutlook(inv_c, None, cls, NOT_YET, known_by_s=known_by_s)
     return held

@@ -294,9 +294,10 @@ def project_block(
                 tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     outlook = inv.inversion_outlook(
-        tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s, tmin_c,
-        tmin_at.timestamp() if tmin_at else None, regime == "radiation", cal.inversion_at_min_c, cal.inversion_nights,
-        fc.evaluation_interval_min * 60.0)
+        tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s,
+        tmin_at.timestamp() if tmin_at else None, regime == "radiation", crop_station=speaker.station,
+        history_c=cal.inversion_at_min_c, history_nights=cal.inversion_nights,
+        step_s=fc.evaluation_interval_min * 60.0, dusk_s=dusk_s)
     inv_c, proj_inv_c, inv_class = outlook.now_c, outlook.projected_c, outlook.inversion_class
     if inv_c is None:
         notes.append("no tower sensor: inversion not measured")

@@ -124,7 +124,8 @@ def all_alerts(tmp_path_factory) -> list[dict]:
     for i, (log, config) in enumerate((("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml"),
                                        ("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml"),
                                        ("2027-04-21-site-tower.csv", "alder-flat-towers.toml"),
-                                       ("2027-04-22-drying-night.csv", "alder-flat-drying.toml"))):
+                                       ("2027-04-22-drying-night.csv", "alder-flat-drying.toml"),
+                                       ("2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml"))):
         out += _replay(tmp_path_factory.mktemp(f"short-s{i}"), (SCENARIOS / config).read_text(encoding="utf-8"),
                        [SCENARIOS / log])
     return out
