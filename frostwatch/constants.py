@@ -30,17 +30,11 @@ LATENT_HEAT_FUSION_J_KG: Final = 333.7e3
 LATENT_HEAT_VAPORISATION_J_KG: Final = 2.50084e6
 LATENT_HEAT_SUBLIMATION_J_KG: Final = LATENT_HEAT_VAPORISATION_J_KG + LATENT_HEAT_FUSION_J_KG
 
-# ---- Magnus saturation formula, WMO-No. 8 (CIMO Guide) Annex 4.B --------------------------------
-# e_s = E0 exp(B t / (C + t)) [hPa], over water -45..60 degC, over ice -65..0.01 degC
-# (frost-physics.md section 10).
-#
-# NOTE: two saturation formulas are in use. Psychrometrics (`physics.saturation`, dew point, wet
-# bulb) use Hyland & Wexler (1983) as ASHRAE does; the night energy balance's vapour path, the
-# supersaturation check of `physics.sky_emissivity` and the first guess of the dew-point solver
-# use these Magnus coefficients. Moving everything to one formula changes the clear-night prior's
-# numbers, so it belongs with the prior's refit (issue 16, the projection work), not here.
+# ---- Magnus saturation formula over water, WMO-No. 8 (CIMO Guide) Annex 4.B ----------------------
+# e_s = E0 exp(B t / (C + t)) [hPa], -45..60 degC (frost-physics.md section 10). Every saturation
+# value in frostwatch comes from Hyland & Wexler (1983) as ASHRAE uses it (`physics.saturation`);
+# Magnus serves only as the first guess of the dew-point solver (`physics.dew_frost_point`), which
+# Newton's method then takes to the Hyland-Wexler root.
 MAGNUS_E0_HPA: Final = 6.112  # [hPa]
 MAGNUS_WATER_B: Final = 17.62  # [-]
 MAGNUS_WATER_C_C: Final = 243.12  # [degC]
-MAGNUS_ICE_B: Final = 22.46  # [-]
-MAGNUS_ICE_C_C: Final = 272.62  # [degC]
