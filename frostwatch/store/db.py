@@ -100,16 +100,28 @@ class Store(ReadingsTable):
         return store
 
     def migrate(self) -> None:
+        """Apply the migrations this store lacks, each in its own BEGIN IMMEDIATE transaction.
+
+        The version is read again inside each transaction: the daemon and the status page may
+        open a new store at the same moment (both start at boot), and the one that waited for the
+        lock must find the other's tables made, not make them again ("table readings already
+        exists").
+        """
         version = self.conn.execute("PRAGMA user_version").fetchone()[0]
         if version > SCHEMA_VERSION:
             raise StoreError(_newer_schema_message(self.path, version))
         for target in sorted(v for v in MIGRATIONS if v > version):
-            # executescript commits any open transaction first, so the script carries its own
             with self.lock:
+                self.conn.execute("BEGIN IMMEDIATE")
                 try:
-                    self.conn.executescript(
-                        "BEGIN IMMEDIATE;" + MIGRATIONS[target] + f"PRAGMA user_version={target}; COMMIT;"
-                    )
+                    now = self.conn.execute("PRAGMA user_version").fetchone()[0]
+                    if now > SCHEMA_VERSION:
+                        raise StoreError(_newer_schema_message(self.path, now))
+                    if now < target:
+                        for statement in sql_statements(MIGRATIONS[target]):
+                            self.conn.execute(statement)
+                        self.conn.execute(f"PRAGMA user_version={target}")
+                    self.conn.execute("COMMIT")
                 except BaseException:
                     if self.conn.in_transaction:
                         self.conn.execute("ROLLBACK")
@@ -233,3 +245,18 @@ class Store(ReadingsTable):
     def integrity_ok(self) -> bool:
         with self.lock:
             return self.conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+
+
+def sql_statements(script: str) -> list[str]:
+    """The complete statements of an SQL script, in order (sqlite3.complete_statement decides where
+    one ends, so a trigger's inner semicolons stay inside it)."""
+    statements, pending = [], ""
+    for line in script.splitlines(keepends=True):
+        pending += line
+        if sqlite3.complete_statement(pending):
+            if pending.strip():
+                statements.append(pending.strip())
+            pending = ""
+    if pending.strip():
+        statements.append(pending.strip())
+    return statements
