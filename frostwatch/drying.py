@@ -75,12 +75,23 @@ def wet_bulb_crossing_s(grid_s: np.ndarray, air_curve_c: np.ndarray, dew_point_c
     point is above the threshold the wet bulb reaches it only with the air. Linear interpolation
     between grid points.
     """
+    return wet_bulb_crossings_s(grid_s, [air_curve_c], [dew_point_c], [threshold_c], pressure_hpa)[0]
+
+
+def wet_bulb_crossings_s(grid_s: np.ndarray, air_curves_c, dew_points_c, thresholds_c, pressure_hpa: float
+                         ) -> list[float | None]:
+    """`wet_bulb_crossing_s` for several (air curve, dew point curve, threshold) on one grid,
+    solved in one call (an evaluation asks four of them for every sprinkler block)."""
     g = np.asarray(grid_s, dtype=float)
-    air = np.asarray(air_curve_c, dtype=float)
-    td = np.minimum(np.asarray(dew_point_c, dtype=float), air)
-    air_at = np.asarray(air_temp_c_for_wet_bulb(threshold_c, td, pressure_hpa), dtype=float)
-    air_at = np.where(np.isfinite(air_at), air_at, threshold_c)
-    gap = air - air_at  # <= 0 once the wet bulb is at or below the threshold
+    air = np.asarray(air_curves_c, dtype=float)
+    td = np.minimum(np.asarray(dew_points_c, dtype=float), air)
+    thr = np.broadcast_to(np.asarray(thresholds_c, dtype=float)[:, None], air.shape)
+    air_at = np.asarray(air_temp_c_for_wet_bulb(thr, td, pressure_hpa), dtype=float)
+    air_at = np.where(np.isfinite(air_at), air_at, thr)
+    return [_first_crossing_s(g, gap) for gap in air - air_at]  # gap <= 0 once the wet bulb is at or below
+
+
+def _first_crossing_s(g: np.ndarray, gap: np.ndarray) -> float | None:
     below = np.nonzero(gap <= 0.0)[0]
     if len(below) == 0:
         return None

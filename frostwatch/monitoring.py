@@ -9,6 +9,7 @@ half of the rule (`frostwatch.status`): the evaluation itself is proof that the 
 from __future__ import annotations
 
 import datetime as dt
+import functools
 
 import numpy as np
 
@@ -19,7 +20,13 @@ from frostwatch.units import QUANTITIES
 
 
 def _utc(t_s: float) -> dt.datetime:
-    return dt.datetime.fromtimestamp(round(float(t_s), 3), tz=dt.UTC)
+    return _utc_ms(round(float(t_s), 3))
+
+
+@functools.lru_cache(maxsize=16384)
+def _utc_ms(t_s: float) -> dt.datetime:
+    # a reading's time as a datetime, made once (every evaluation of the night asks again)
+    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
 
 
 def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float) -> Monitoring:

@@ -216,6 +216,17 @@ def _any_reading(times: list[np.ndarray], start_s: float, end_s: float) -> bool:
     return any(np.searchsorted(t, start_s, side="left") < np.searchsorted(t, end_s, side="right") for t in times)
 
 
+NEAR_DAYS = 3  # a night's window (sunset - 6 h to sunrise + 5 h) lies within this many days of its evening
+
+
+def _dates_near_readings(times: list[np.ndarray]) -> set[int]:
+    """Ordinals of every date within NEAR_DAYS of a reading's UTC date: the only evenings whose
+    night can hold a reading (a typical-year file spans decades of dates, a year of them read)."""
+    days = np.unique(np.concatenate([np.unique(np.floor_divide(t, 86400.0)) for t in times if len(t)]))
+    epoch = dt.date(1970, 1, 1).toordinal()
+    return {epoch + int(d) + k for d in days for k in range(-NEAR_DAYS, NEAR_DAYS + 1)}
+
+
 def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Evaluation]]:
     """As `run_replay`, one night's evaluations at a time (a season need not be held in memory).
 
@@ -229,7 +240,10 @@ def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Eva
     ev = Evaluator(cfg)
     starts = [t for t, _ in series.values()]
     nights = []
+    near = _dates_near_readings(starts)
     for d in nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC)):
+        if d.toordinal() not in near:
+            continue  # no reading within days of it: its sun times are not worked out
         night = ev.night(d)
         window_end = night.sunrise_utc.timestamp() + MORNING_WATCH_H * 3600.0
         if _any_reading(starts, (night.sunset_utc - LOOKBACK).timestamp(), window_end):

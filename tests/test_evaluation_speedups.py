@@ -4,6 +4,8 @@ of the farm is looked at (only the others' states are no longer computed for it)
 
 from __future__ import annotations
 
+import datetime as dt
+
 import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
@@ -25,3 +27,79 @@ def test_curve_times_are_the_same_instants(demo_config):
     assert projection._utc(1807753680.4) == projection._utc(1807753680.0)
     assert projection._utc(1807753680.6).timestamp() == 1807753681.0
     assert projection._utc(None) is None
+
+
+# ---- issue 19 (second part): the cycle's remaining repeats, each checked against the plain way --
+
+finite = st.floats(min_value=-40.0, max_value=40.0, allow_nan=False)
+
+
+@given(st.lists(st.lists(finite, min_size=0, max_size=150), min_size=1, max_size=4))
+def test_mean_as_of_is_np_mean_of_the_readings_bit_for_bit(per_station):
+    """mean_as_of sums the readings' slices itself; the value is np.mean's of the same list."""
+    from frostwatch.forecast.sensors import mean_as_of
+
+    series, vals = {}, []
+    for k, values in enumerate(per_station):
+        t = 1.8e9 + 60.0 * np.arange(len(values), dtype=float)
+        series[(f"s{k}", "wind_speed")] = (t, np.array(values, dtype=float))
+        vals += values
+    got = mean_as_of(series, [f"s{k}" for k in range(len(per_station))], "wind_speed", 1.8e9 + 1e6, 1e7)
+    assert got == (float(np.mean(vals)) if vals else None)
+
+
+def test_station_state_is_made_once_per_series_and_instant_and_never_reused_across_them(demo_config):
+    from frostwatch.config import load_config
+    from frostwatch.forecast import sensors
+
+    cfg = load_config(str(demo_config))
+    st_ = next(s for s in cfg.stations if s.role == "crop")
+    t = 1.8e9 + 300.0 * np.arange(30, dtype=float)
+    series = {(st_.id, "air_temperature"): (t, np.linspace(5.0, -1.0, 30))}
+    a = sensors.station_state(st_, series, t[10], 3.0)
+    assert sensors.station_state(st_, series, t[10], 3.0) is a  # the same evaluation asks again
+    assert sensors.station_state(st_, series, t[20], 3.0).latest["air_temperature"] == series[(st_.id, "air_temperature")][1][20]
+    other = {(st_.id, "air_temperature"): (t, np.full(30, 7.0))}  # another evaluation's series
+    assert sensors.station_state(st_, other, t[10], 3.0).latest["air_temperature"] == 7.0
+    assert sensors.station_state(st_, series, t[10], 3.0) == sensors._station_state(st_, series, t[10], 3.0)
+    series[(st_.id, "air_temperature")] = (t[:5], np.full(5, -9.0))  # the caller edits its own series
+    assert not sensors.station_state(st_, series, t[10], 3.0).healthy
+    series[(st_.id, "relative_humidity")] = (t, np.full(30, 80.0))
+    assert sensors.station_state(st_, series, t[10], 3.0).latest["relative_humidity"] == 80.0
+    assert sensors.station_state(st_, series, t[10], 1.0) == sensors._station_state(st_, series, t[10], 1.0)
+
+
+def test_four_wet_bulb_crossings_in_one_solve_are_the_four_single_ones():
+    from frostwatch import drying
+
+    rng = np.random.default_rng(19)
+    for _ in range(200):
+        grid = 1.8e9 + 300.0 * np.arange(rng.integers(2, 120))
+        air = [np.linspace(rng.uniform(-1, 6), rng.uniform(-6, 2), len(grid)) for _ in range(2)]
+        td = [np.minimum(a, rng.uniform(-12, 1)) for a in air]
+        thr = [float(rng.uniform(-4, 1)), float(rng.uniform(-4, 1))]
+        p = float(rng.uniform(850, 1013))
+        got = drying.wet_bulb_crossings_s(grid, air * 2, td * 2, [thr[0], thr[0], thr[1], thr[1]], p)
+        one = [drying.wet_bulb_crossing_s(grid, air[k % 2], td[k % 2], thr[k // 2], p) for k in range(4)]
+        assert got == one
+
+
+def test_replay_works_out_sun_times_only_for_nights_near_readings(demo_config):
+    """A log of two nights years apart (as a typical-year file splices months of different years)
+    is replayed over those two nights only, and over exactly the nights whose window holds a
+    reading: the same list as checking every date between them."""
+    from frostwatch import pipeline
+    from frostwatch.config import load_config
+
+    cfg = load_config(str(demo_config))
+    crop = next(s for s in cfg.stations if s.role == "crop")
+    ev = pipeline.Evaluator(cfg)
+    nights = [ev.night(dt.date(2019, 4, 14)), ev.night(dt.date(2027, 4, 14))]
+    t = np.concatenate([n.sunset_utc.timestamp() + 600.0 * np.arange(6 * 12) for n in nights])
+    series = {(crop.id, "air_temperature"): (t, np.linspace(8.0, 1.0, len(t)))}
+    got = {evs[0].night.date for evs in pipeline.iter_replay(cfg, series) if evs}
+    every = [ev.night(nights[0].date + dt.timedelta(days=k)) for k in range((nights[1].date - nights[0].date).days + 1)]
+    want = {n.date for n in every
+            if pipeline._any_reading([t], (n.sunset_utc - pipeline.LOOKBACK).timestamp(),
+                                     n.sunrise_utc.timestamp() + pipeline.MORNING_WATCH_H * 3600.0)}
+    assert got == want == {dt.date(2019, 4, 14), dt.date(2027, 4, 14)}

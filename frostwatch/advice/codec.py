@@ -17,13 +17,18 @@ import enum
 import math
 import types
 import typing
-from functools import cache
+from functools import cache, lru_cache
 
 
 def iso_utc(t: dt.datetime | None) -> str | None:
     """An aware datetime as ISO 8601 UTC with `Z` (None stays None)."""
     if t is None:
         return None
+    return _iso_utc(t)
+
+
+@lru_cache(maxsize=8192)  # a night's curve instants recur in every decision of the night
+def _iso_utc(t: dt.datetime) -> str:
     if t.tzinfo is not dt.UTC:
         t = t.astimezone(dt.UTC)
     return t.isoformat().replace("+00:00", "Z")

@@ -277,9 +277,12 @@ def project_block(
             fall = drying.projected_fall_c_per_h(td_trend)
             td_curve = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, curve)
             td_cold = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, cold_curve)
-            for key, thr in (("wet_bulb_t10_margin", thresholds["t10_margin"]), ("wet_bulb_t10", thresholds["t10"])):
-                crossings[key] = _utc(drying.wet_bulb_crossing_s(grid_s, curve, td_curve, thr, p_hpa))
-                crossings[f"{key}_cold_edge"] = _utc(drying.wet_bulb_crossing_s(grid_s, cold_curve, td_cold, thr, p_hpa))
+            keys = ("wet_bulb_t10_margin", "wet_bulb_t10")
+            thr = [thresholds["t10_margin"], thresholds["t10"]]
+            found = drying.wet_bulb_crossings_s(grid_s, [curve, cold_curve] * 2, [td_curve, td_cold] * 2,
+                                                [thr[0], thr[0], thr[1], thr[1]], p_hpa)  # one solve for the four
+            for k, key in enumerate(keys):
+                crossings[key], crossings[f"{key}_cold_edge"] = _utc(found[2 * k]), _utc(found[2 * k + 1])
             at = crossings["wet_bulb_t10_margin"] or tmin_at
             td_at_start = float(np.interp(at.timestamp(), grid_s, td_curve)) if at is not None else td_c
 
