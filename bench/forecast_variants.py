@@ -3,9 +3,9 @@ same three open years, as a change from what ships; writes bench/results/forecas
 
     python -m bench.forecast_variants          (about 2 minutes; not part of `python -m bench`)
 
-Each variant sets module constants of `frostwatch.forecast.calibration` for the run and restores
-them. Figures per site: dusk forecast MAE/bias on radiation, cold and all nights; the projection 2 h
-before the minimum (beside the naive drop) and 2 h before sunrise; the 80 % band's coverage at dusk
+Each variant sets module constants of `frostwatch.forecast.calibration` (and of
+`forecast.learner`, which imports those it uses) for the run and restores them. Figures per
+site: dusk forecast MAE/bias on radiation, cold and all nights; the projection 2 h before the minimum (beside the naive drop) and 2 h before sunrise; the 80 % band's coverage at dusk
 and 2 h before the minimum; the median crossing error 3 h ahead; the cold-start bias; the "below
 0 degC" event's POD/FAR at dusk. Choices were made on Greensboro and Sand Point; Miami's figures
 are shown, not used to choose.
@@ -150,17 +150,19 @@ def _row(res: dict) -> dict:
 
 def run_variant(patch: dict[str, object]) -> dict:
     from frostwatch.forecast import calibration as cal
+    from frostwatch.forecast import learner
     from frostwatch.forecast import projection as proj
 
-    old = {k: getattr(cal, k) for k in patch}
+    mods = (cal, learner)  # the settings live in calibration; learner imports those it uses
+    old = {(m, k): getattr(m, k) for k in patch for m in mods if hasattr(m, k)}
     try:
-        for k, v in patch.items():
-            setattr(cal, k, v)
+        for (m, k) in old:
+            setattr(m, k, patch[k])
         proj._prior_cached.cache_clear()
         return {k: fs.run_site(k, Path(tempfile.mkdtemp(prefix="fw-variant-"))) for k in fs.tmy.SITES}
     finally:
-        for k, v in old.items():
-            setattr(cal, k, v)
+        for (m, k), v in old.items():
+            setattr(m, k, v)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -17,6 +17,7 @@ from frostwatch import forecast
 from frostwatch.config import Config
 from frostwatch.forecast import Series
 from frostwatch.night import evening_date
+from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
 
 
 def _iso(t: dt.datetime | None) -> str | None:
@@ -49,8 +50,6 @@ def backtest(
     time the block is projected again from the readings up to then (same calibration), and the
     row gets `probe_<name>` = `probe_row(projection)` (benchmarks use it for crossing times).
     """
-    from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
-
     if not series:
         return []
     ev = Evaluator(cfg)

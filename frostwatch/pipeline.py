@@ -1,5 +1,6 @@
-"""The advisory pipeline, shared by `replay`, `backtest` and the daemon so that a replayed night
-behaves like a live one: readings window -> projection -> advice plan -> alert rules -> decision.
+"""The advisory pipeline, shared by `replay`, `backtest` (`frostwatch.backtest` imports this
+module, never the other way) and the daemon so that a replayed night behaves like a live one:
+readings window -> projection -> advice plan -> alert rules -> decision.
 
 `Evaluator` keeps the little state that crosses evaluations (alert states, past nights learned
 walk-forward); everything it calls is pure. Each evaluation ends in one `Decision` per block (the
@@ -267,20 +268,6 @@ def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Eva
             progress(k + 1, total)
 
 
-def backtest(cfg: Config, series: Series, progress=None, nowcast_lead_h: float | None = None) -> list[dict]:
-    """The walk-forward backtest of the dusk forecast; see `frostwatch.backtest.backtest`."""
-    from frostwatch import backtest as _bt
-
-    return _bt.backtest(cfg, series, progress, nowcast_lead_h)
-
-
-def backtest_summary(rows: list[dict]) -> dict:
-    """See `frostwatch.backtest.backtest_summary`."""
-    from frostwatch import backtest as _bt
-
-    return _bt.backtest_summary(rows)
-
-
 def with_time(p: Projection) -> dict:
     """A projection as the replay JSON of DESIGN.md 1.4 shows it."""
     iso = lambda t: None if t is None else t.isoformat().replace("+00:00", "Z")  # noqa: E731
@@ -312,6 +299,6 @@ def with_time(p: Projection) -> dict:
 
 
 __all__ = [
-    "Evaluator", "Evaluation", "run_replay", "iter_replay", "backtest", "backtest_summary", "slice_series",
+    "Evaluator", "Evaluation", "run_replay", "iter_replay", "slice_series",
     "evaluation_times", "with_time", "dataclasses",
 ]

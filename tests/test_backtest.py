@@ -13,7 +13,7 @@ import pytest
 from forecast_site import SITE, make_cfg  # noqa: E402,F401
 
 from frostwatch import backtest as bt
-from frostwatch.pipeline import backtest, backtest_summary
+from frostwatch.backtest import backtest, backtest_summary
 
 N_NIGHTS = 14
 
@@ -210,3 +210,18 @@ def test_live_features_match_the_training_features():
                                                    np.array([0.4]), np.array([2.5]))
         assert ok[0] and one[0] == latest[0]
         assert np.allclose(one[1], feats[0], atol=1e-9)
+
+
+def test_the_pipeline_does_not_import_the_backtest():
+    """One direction only: frostwatch.backtest uses the pipeline's Evaluator; the pipeline never
+    imports the backtest back, at module level or inside a function (issue 16: no import circles)."""
+    import ast
+    import inspect
+
+    from frostwatch import pipeline
+
+    tree = ast.parse(inspect.getsource(pipeline))
+    imported = [a.name for n in ast.walk(tree) if isinstance(n, ast.Import) for a in n.names]
+    imported += [f"{n.module}.{a.name}" for n in ast.walk(tree) if isinstance(n, ast.ImportFrom) for a in n.names]
+    assert [m for m in imported if "backtest" in m] == []
+    assert not hasattr(pipeline, "backtest")

@@ -11,11 +11,11 @@ import pytest
 from forecast_site import SITE, make_cfg  # noqa: E402,F401
 
 from frostwatch import forecast
+from frostwatch.backtest import backtest
 from frostwatch.commands.logs import _series_from_readings
 from frostwatch.config import load_config
 from frostwatch.ingest.csvlog import read_sensor_log
 from frostwatch.night import night_of_date
-from frostwatch.pipeline import backtest
 
 EVENING = dt.date(2027, 4, 14)
 
@@ -135,20 +135,39 @@ def test_nowcast_follows_tonight(tmp_path):
     assert p.band_c < forecast.PRIOR_BAND_C
 
 
-def test_crossings_are_ordered(tmp_path):
+def test_crossings_are_where_reuters_curve_reaches_each_threshold(tmp_path):
+    """At dusk the projection runs from the air now (T0) to the predicted minimum at sunrise on
+    Reuter's square-root curve, T(t) = T0 + (Tmin - T0) sqrt((t - t0) / (sunrise - t0)) (reference
+    sheet 1.2), so a threshold thr is crossed at t0 + (sunrise - t0) ((thr - T0) / (Tmin - T0))^2,
+    and the band's cold edge crosses where the same curve to the band's low end does. Tolerance
+    3 min: the curve is sampled every 5 min and read between samples along a straight line (a
+    square root is concave, so the line crosses a little late, most near t0)."""
     cfg = make_cfg(tmp_path)
     night = night_for(cfg)
-    p = forecast.project_block(night.dusk_utc, cfg.blocks[0], cfg, evening_series(cfg, night, t0_c=0.0, td_c=-9.0), night)
-    c = p.crossings_utc
-    assert p.predicted_min_c < cfg.blocks[0].kill_90pct_c or c["t90"] is None
-    assert c["t10_margin"] is not None and c["t10"] is not None
-    assert c["t10_margin"] <= c["t10"]
-    if c["t90"] is not None:
-        assert c["t10"] <= c["t90"]
-    # the band's cold edge reaches each threshold no later than the middle curve
-    for k in ("t10_margin", "t10"):
-        assert c[f"{k}_cold_edge"] is not None and c[f"{k}_cold_edge"] <= c[k]
-    assert p.band_low_c <= p.predicted_min_c <= p.band_high_c
+    b = cfg.blocks[0]
+    p = forecast.project_block(night.dusk_utc, b, cfg, evening_series(cfg, night, t0_c=0.0, td_c=-9.0), night)
+    t0, t_sr = night.dusk_utc.timestamp(), night.sunrise_utc.timestamp()
+    thresholds = {"t10_margin": b.kill_10pct_c + b.margin_c, "t10": b.kill_10pct_c, "t90": b.kill_90pct_c}
+
+    def reuter_crossing(thr: float, t_min: float) -> float | None:
+        if thr >= p.air_temp_c:
+            return t0
+        if thr < t_min:
+            return None  # never reached before sunrise
+        return t0 + (t_sr - t0) * ((thr - p.air_temp_c) / (t_min - p.air_temp_c)) ** 2
+
+    assert p.method == "dusk forecast" and p.air_temp_c == pytest.approx(0.0, abs=0.05)
+    assert abs(p.predicted_min_at_utc.timestamp() - t_sr) <= 1.0  # the minimum at sunrise (instants to the second)
+    reached = 0
+    for key, thr in thresholds.items():
+        for suffix, t_min in (("", p.predicted_min_c), ("_cold_edge", p.band_low_c)):
+            want, got = reuter_crossing(thr, t_min), p.crossings_utc[key + suffix]
+            if want is None:
+                assert got is None, key + suffix
+            else:
+                reached += 1
+                assert got is not None and abs(got.timestamp() - want) <= 180.0, (key + suffix, got, want)
+    assert reached >= 4  # the cold night reaches at least T10 + margin and T10 on both curves
     assert p.band_c == pytest.approx(p.predicted_min_c - p.band_low_c, abs=0.011)
 
 
@@ -358,7 +377,7 @@ def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
     """Sixty humid nights and eight dry ones: the dusk regression weighs past nights by how close
     their dew point at t0 was, so a new dry night is forecast from the dry nights' cooling, not
     carried over from the humid majority (issue 15: weight toward similar nights)."""
-    from frostwatch.forecast import calibration
+    from frostwatch.forecast import calibration, learner
 
     rng = np.random.default_rng(7)
     recs = []
@@ -374,5 +393,6 @@ def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
 
     weighted = mae(forecast.fit_calibration(recs, 10))
     monkeypatch.setattr(calibration, "SIMILAR_WIDTH_C", None)
+    monkeypatch.setattr(learner, "SIMILAR_WIDTH_C", None)
     alike = mae(forecast.fit_calibration(list(recs), 10))
     assert weighted < 0.15 and alike > 0.4  # measured 0.05 and 0.52

@@ -170,7 +170,7 @@ def _print_summaries(summaries, d) -> None:
 
 
 def cmd_backtest(args) -> int:
-    from frostwatch import pipeline
+    from frostwatch import backtest
 
     cfg = _load(args)
     from frostwatch.store.bulk import series_of_columns
@@ -178,8 +178,8 @@ def cmd_backtest(args) -> int:
     cols, _, _, _, _ = _read_log_columns(args, cfg, None)
     series = series_of_columns(cols, _first_rows(cols), key_order="file")
     del cols
-    rows = pipeline.backtest(cfg, series, progress=_progress("backtest"))
-    summary = pipeline.backtest_summary(rows)
+    rows = backtest.backtest(cfg, series, progress=_progress("backtest"))
+    summary = backtest.backtest_summary(rows)
     if args.json:
         _out_json({"nights": rows, "summary": summary})
         return 0

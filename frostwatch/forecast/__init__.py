@@ -1,8 +1,9 @@
 """A block's night, projected (`project_block`), and the site's calibration learned from its own
 past nights (`Learner`, `Calibration`, `night_record`). Topics: `sensors` (which sensor speaks,
 values known at an instant), `calibration` (the learned models, skill weights and band),
-`nowcast` (tonight's cooling as features), `projection` (the projection and what a night did),
-`inversion` (tower minus crop height).
+`learner` (the calibration learned night by night), `ridge` (ridge regression from moment
+matrices), `nowcast` (tonight's cooling as features), `projection` (the projection and what a night
+did), `inversion` (tower minus crop height).
 """
 
 from frostwatch.forecast.calibration import (
@@ -12,11 +13,10 @@ from frostwatch.forecast.calibration import (
     PRIOR_BAND_C,
     PROTECTION_QUANTITIES,
     Calibration,
-    Learner,
     NightRecord,
     feature_vector,
-    fit_calibration,
 )
+from frostwatch.forecast.learner import Learner, fit_calibration
 from frostwatch.forecast.nowcast import feature_matrix, features_at
 from frostwatch.forecast.projection import crossing_time, night_record, prior_c, project_block
 from frostwatch.forecast.sensors import (

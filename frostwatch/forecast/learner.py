@@ -1,0 +1,269 @@
+"""The site's calibration learned night by night from sufficient statistics (no refit over the
+history): a `Learner` per block takes each finished night (`NightRecord`) once. Before adding it,
+it scores the forecasts the current calibration would have made on that night (walk-forward by
+construction): those errors feed the skill weights (`_Skill`) and the band (`_band_from`). Then it
+adds the night's rows to the normal equations (`forecast.ridge`). `Learner.calibration()` is the
+immutable `forecast.calibration.Calibration` snapshot that the projection reads.
+
+Nights with protection running (sprinklers or wind machines) are left out: their minimum is the
+protection's doing, not the night's (issue 14). They are counted and said.
+
+The settings are `forecast.calibration`'s (benchmarks that try a variant set them in both modules).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from collections import deque
+
+import numpy as np
+
+from frostwatch.forecast.calibration import (
+    BAND_FROM_QUANTILES,
+    BAND_MEMORY,
+    BAND_MIN_RESIDUALS,
+    BAND_PER_SQRT_HOUR,
+    BAND_QUANTILES,
+    BAND_Z,
+    DUSK_METHODS,
+    FEATURES,
+    INVERSION_MEMORY,
+    MIN_REGRESSION_NIGHTS,
+    NOWCAST_BIN_H,
+    NOWCAST_BINS,
+    NOWCAST_FEATURES,
+    NOWCAST_METHODS,
+    NOWCAST_MIN_SAMPLES,
+    NOWCAST_RIDGE_LAMBDA,
+    PRIOR_BAND_C,
+    PRIOR_CLEAR_CALM_ONLY,
+    PRIOR_OFFSET_SHRINK_NIGHTS,
+    RIDGE_LAMBDA,
+    SIMILAR_BY,
+    SIMILAR_WIDTH_C,
+    SKILL_FLOOR_C2,
+    SKILL_HALF_LIFE,
+    SKILL_MIN_SCORED,
+    SKILL_SHRINK,
+    T0_STRATUM_C,
+    Calibration,
+    NightRecord,
+    dusk_regime,
+    nowcast_bin,
+)
+from frostwatch.forecast.ridge import ridge_solve
+
+
+class _Skill:
+    """Recent skill of competing methods: exponentially weighted second moments of their errors
+    (squares and cross products), and the combination that minimises the expected squared error
+    of the blend (Bates & Granger 1969: w ~ S^-1 1, weights summing to one; here kept in [0, 1]
+    and the error covariance shrunk halfway to its diagonal, so that two methods that err
+    together do not get opposite weights)."""
+
+    __slots__ = ("methods", "m2", "scored")
+
+    def __init__(self, methods: tuple[str, ...]):
+        self.methods = methods
+        self.m2 = np.eye(len(methods)) * PRIOR_BAND_C**2
+        self.scored = dict.fromkeys(methods, 0)
+
+    @property
+    def mse(self) -> dict[str, float]:
+        return {m: float(self.m2[i, i]) for i, m in enumerate(self.methods)}
+
+    def add(self, errors: dict[str, float]) -> None:
+        a = 1.0 - 0.5 ** (1.0 / SKILL_HALF_LIFE)
+        idx = [i for i, m in enumerate(self.methods) if errors.get(m) is not None and math.isfinite(errors[m])]
+        if not idx:
+            return
+        e = np.array([errors[self.methods[i]] for i in idx])
+        sub = np.ix_(idx, idx)
+        self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
+        for i in idx:
+            self.scored[self.methods[i]] += 1
+
+    def weights(self, available: tuple[str, ...]) -> dict[str, float] | None:
+        """Blend weights among the available methods; None until each has been scored."""
+        if any(self.scored[m] < SKILL_MIN_SCORED for m in available):
+            return None
+        idx = [self.methods.index(m) for m in available]
+        s = self.m2[np.ix_(idx, idx)]
+        s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * np.diag(np.diag(s)) + SKILL_FLOOR_C2 * np.eye(len(idx))
+        try:
+            w = np.linalg.solve(s, np.ones(len(idx)))
+        except np.linalg.LinAlgError:
+            w = 1.0 / np.diag(s)
+        w = np.clip(w / w.sum(), 0.0, None) if w.sum() > 0 else 1.0 / np.diag(s)
+        w = w / w.sum()
+        return {m: float(x) for m, x in zip(available, w, strict=True)}
+
+
+def _band_from(residuals, spread_c: float) -> tuple[float, float, int]:
+    """(low, high) offsets of the 80 % band from residuals (observed - predicted); a normal band of
+    `spread_c` until enough are known, blended in as they come."""
+    r = np.asarray(residuals, dtype=float)
+    n = len(r)
+    normal = (-BAND_Z * spread_c, BAND_Z * spread_c)
+    if n < BAND_MIN_RESIDUALS:
+        if n < 3:
+            return normal[0], normal[1], n
+        sd = float(np.sqrt((np.sum(r**2) + 3 * spread_c**2) / (n + 3)))
+        return -BAND_Z * sd + float(np.mean(r)) * n / (n + 3), BAND_Z * sd + float(np.mean(r)) * n / (n + 3), n
+    if not BAND_FROM_QUANTILES:
+        m, sd = float(np.mean(r)), float(np.std(r))
+        return m - BAND_Z * sd, m + BAND_Z * sd, n
+    lo, hi = np.quantile(r, BAND_QUANTILES)
+    return float(lo), float(hi), n
+
+
+class Learner:
+    """Sufficient statistics of one block's calibration, updated one finished night at a time."""
+
+    def __init__(self, calibration_nights: int = 10):
+        self.calibration_nights = calibration_nights
+        k = len(FEATURES)
+        self.dusk_m = np.zeros((k + 2, k + 2))
+        self.drop_m = np.zeros((k + 2, k + 2))
+        self.dusk_strata: dict[int, np.ndarray] = {}
+        self.sum_sqrt_h = 0.0
+        self.sum_min_c = 0.0
+        self.prior_err_sum = 0.0
+        self.n = 0
+        self.n_protected = 0
+        self.nights: list[dt.date] = []
+        self.dusk_skill: dict[str, _Skill] = {}
+        self.dusk_residuals: deque = deque(maxlen=BAND_MEMORY)
+        f = len(NOWCAST_FEATURES)
+        self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
+        self.nc_skill = [_Skill(NOWCAST_METHODS) for _ in range(NOWCAST_BINS)]
+        self.nc_residuals = [deque(maxlen=BAND_MEMORY) for _ in range(NOWCAST_BINS)]
+        self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
+        self._cal: Calibration | None = None
+
+    def learn(self, rec: NightRecord) -> bool:
+        """Score the current calibration on `rec`, then add it. False (nothing learned) for a
+        protected night."""
+        if rec.protected:
+            self.n_protected += 1
+            self._cal = None
+            return False
+        cal = self.calibration()
+        x = rec.features
+        h = max(0.25, rec.hours_to_sunrise)
+        # dusk: each method's error and the blended forecast's residual (as project_block caps it)
+        comps = cal.dusk_components(rec.prior_c, x, h, rec.evening_curve_c)
+        if math.isfinite(rec.prior_c):
+            self.dusk_skill.setdefault(dusk_regime(x), _Skill(DUSK_METHODS)).add(
+                {k: v - rec.observed_min_c for k, v in comps.items()})
+            pred = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c)
+            self.dusk_residuals.append((rec.observed_min_c - pred) / (math.sqrt(h) if BAND_PER_SQRT_HOUR else 1.0))
+            self.prior_err_sum += rec.observed_min_c - rec.prior_c
+        b_dusk = (min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c) - rec.t0_temp_c) / math.sqrt(h)
+        if not math.isfinite(b_dusk):
+            b_dusk = 0.0
+        # nowcast samples: methods' errors and the blend's residual per hours-left bin
+        for f, drop in rec.nowcast_samples:
+            hl = f[1] ** 2
+            el = max(0.0, h - hl)
+            dusk_drop = b_dusk * (math.sqrt(h) - math.sqrt(el))
+            b = nowcast_bin(hl)
+            errs = {"refit": min(0.0, f[0]) - drop, "dusk_curve": min(0.0, dusk_drop) - drop}
+            learned = cal.learned_drop_c(f, hl)
+            if learned is not None:
+                errs["learned"] = learned - drop
+            self.nc_skill[b].add(errs)
+            pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el)
+            self.nc_residuals[b].append(drop - pred)
+            z = np.concatenate([[1.0], f, [drop]])
+            self.nc_m[b] += np.outer(z, z)
+        # the dusk regression's row: K = (Tn - T0) / sqrt(h)
+        k = (rec.observed_min_c - rec.t0_temp_c) / math.sqrt(h)
+        z = np.concatenate([[1.0], x, [k]])
+        zz = np.outer(z, z)
+        self.dusk_m += zz
+        stratum = round(x[SIMILAR_BY] / T0_STRATUM_C)
+        self.dusk_strata[stratum] = self.dusk_strata.get(stratum, 0.0) + zz
+        zd = np.concatenate([[1.0], x, [rec.observed_min_c - rec.t0_temp_c]])
+        self.drop_m += np.outer(zd, zd)
+        self.sum_sqrt_h += math.sqrt(h)
+        self.sum_min_c += rec.observed_min_c
+        self.n += 1
+        self.nights.append(rec.night)
+        if rec.radiation_night and rec.inversion_at_min_c is not None and math.isfinite(rec.inversion_at_min_c):
+            self.inversions.append(rec.inversion_at_min_c)
+        self._cal = None
+        return True
+
+    def calibration(self) -> Calibration:
+        if self._cal is None:
+            self._cal = self._snapshot()
+        return self._cal
+
+    def _snapshot(self) -> Calibration:
+        n = self.n
+        out: dict = {"n_nights": n, "n_protected": self.n_protected, "nights": tuple(self.nights),
+                     "calibration_nights": self.calibration_nights}
+        if self.inversions:
+            out.update(inversion_at_min_c=float(np.median(self.inversions)), inversion_nights=len(self.inversions))
+        if n:
+            out["mean_sqrt_h"] = self.sum_sqrt_h / n
+            out["mean_min_c"] = self.sum_min_c / n
+            out["prior_offset_c"] = self.prior_err_sum / (n + PRIOR_OFFSET_SHRINK_NIGHTS)
+            lam = RIDGE_LAMBDA * max(1.0, self.calibration_nights / n)
+            out["calibration_lambda"] = lam
+            if SIMILAR_WIDTH_C is not None:
+                out["dusk_strata"] = tuple((b * T0_STRATUM_C, m.copy()) for b, m in sorted(self.dusk_strata.items()))
+            fit = ridge_solve(self.dusk_m, lam)
+            if fit is not None:
+                mu, coefs, k_mean = fit
+                out.update(means=tuple(float(m) for m in mu), k_coefs=tuple(float(c) for c in coefs), k_mean=k_mean)
+            elif n == 1:
+                out["k_mean"] = float(self.dusk_m[0, -1])
+            fit = ridge_solve(self.drop_m, lam)
+            if fit is not None:
+                out["drop_model"] = (fit[0], fit[1], fit[2])
+        weights = []
+        if n >= MIN_REGRESSION_NIGHTS:
+            for regime, skill in sorted(self.dusk_skill.items()):
+                avail = tuple(m for m in DUSK_METHODS if skill.scored[m] > 0
+                              and not (m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))
+                w = skill.weights(avail)
+                if w:
+                    weights.append((regime, tuple(w.items())))
+        out["dusk_weights"] = tuple(weights)
+        spread = PRIOR_BAND_C / 3.0 if BAND_PER_SQRT_HOUR else PRIOR_BAND_C  # sqrt of a typical 9 h night
+        out["dusk_band"] = _band_from(self.dusk_residuals, spread)
+        models, counts, weights, bands = [], [], [], []
+        for b in range(NOWCAST_BINS):
+            m = self.nc_m[b]
+            counts.append(int(m[0, 0]))
+            fit = ridge_solve(m, NOWCAST_RIDGE_LAMBDA) if m[0, 0] >= NOWCAST_MIN_SAMPLES else None
+            models.append(fit)
+            avail = NOWCAST_METHODS if fit is not None else ("refit", "dusk_curve")
+            w = self.nc_skill[b].weights(avail)
+            weights.append(tuple(w.items()) if w else None)
+            hl = (b + 0.5) * NOWCAST_BIN_H
+            bands.append(_band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, hl / 6.0))))
+        out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
+        return Calibration(**out)
+
+
+_FIT_CACHE: dict[tuple[int, int], tuple[list, Learner, int]] = {}
+
+
+def fit_calibration(records: list[NightRecord], min_nights: int = 10) -> Calibration:
+    """The calibration learned from `records` in order (all earlier nights). Kept incrementally per
+    list: a history that only grows is learned one new night at a time."""
+    key = (id(records), min_nights)
+    hit = _FIT_CACHE.get(key)
+    if hit is None or hit[0] is not records or hit[2] > len(records):
+        if len(_FIT_CACHE) > 256:
+            _FIT_CACHE.clear()
+        hit = (records, Learner(min_nights), 0)
+    lst, learner, done = hit
+    for rec in records[done:]:
+        learner.learn(rec)
+    _FIT_CACHE[key] = (lst, learner, len(records))
+    return learner.calibration()
