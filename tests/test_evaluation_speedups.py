@@ -103,3 +103,57 @@ def test_replay_works_out_sun_times_only_for_nights_near_readings(demo_config):
             if pipeline._any_reading([t], (n.sunset_utc - pipeline.LOOKBACK).timestamp(),
                                      n.sunrise_utc.timestamp() + pipeline.MORNING_WATCH_H * 3600.0)}
     assert got == want == {dt.date(2019, 4, 14), dt.date(2027, 4, 14)}
+
+
+def _plain_to_dict(obj, drop_none=False):
+    """The stored form as the codec gave it before its encoders were kept per type."""
+    import dataclasses
+    import enum
+    import math
+
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        return {f.name: _plain_to_dict(getattr(obj, f.name), drop_none) for f in dataclasses.fields(obj)
+                if not (drop_none and getattr(obj, f.name) is None)}
+    if isinstance(obj, enum.Enum):
+        return obj.value
+    if isinstance(obj, dt.datetime):
+        return obj.astimezone(dt.UTC).isoformat().replace("+00:00", "Z")
+    if isinstance(obj, dt.date):
+        return obj.isoformat()
+    if isinstance(obj, float) and type(obj) is not bool:
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, (list, tuple)):
+        return [_plain_to_dict(x, drop_none) for x in obj]
+    if isinstance(obj, dict):
+        return {str(k): _plain_to_dict(v, drop_none) for k, v in obj.items()}
+    return obj
+
+
+def test_stored_decisions_encode_as_the_plain_recursive_codec(demo_config, demo_logs):
+    """Every decision and projection of the demo's three nights (plans, verdicts, enums, instants,
+    NaN, tuples, dicts) encodes exactly as a plain recursive encoder would, with and without
+    the fields that are None."""
+    import enum
+
+    from frostwatch import pipeline
+    from frostwatch.advice.codec import to_dict
+    from frostwatch.commands.logs import _series_from_readings
+    from frostwatch.config import load_config
+    from frostwatch.ingest.csvlog import read_sensor_log
+
+    cfg = load_config(str(demo_config))
+    readings = [r for log in demo_logs for r in read_sensor_log(log, {s.id for s in cfg.stations})[0]]
+    evs = pipeline.run_replay(cfg, _series_from_readings(readings))
+    decisions = [d for ev in evs for d in ev.decisions]
+    assert len(decisions) > 1000
+    for d in decisions[::7]:
+        for drop in (True, False):
+            assert to_dict(d, drop) == _plain_to_dict(d, drop)
+
+    class Kind(enum.StrEnum):
+        A = "a"
+
+    odd = {"nan": float("nan"), "np": np.float64(2.5), "kind": Kind.A, "when": dt.date(2027, 4, 14), "none": None,
+           "t": (1, "x", None, float("inf"))}
+    assert to_dict(odd) == _plain_to_dict(odd) == {"nan": None, "np": 2.5, "kind": "a", "when": "2027-04-14",
+                                                   "none": None, "t": [1, "x", None, None]}

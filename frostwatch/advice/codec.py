@@ -15,6 +15,7 @@ import dataclasses
 import datetime as dt
 import enum
 import math
+import operator
 import types
 import typing
 from functools import cache, lru_cache
@@ -59,31 +60,54 @@ def to_dict(obj, drop_none: bool = False):
     cls = type(obj)
     if cls in _PLAIN:  # the common case first: a decision holds about a hundred values
         return obj
+    encode = _ENCODERS.get(cls)
+    if encode is None:  # worked out once per type: every stored decision asks again
+        encode = _ENCODERS[cls] = _encoder_for(cls)
+    return encode(obj, drop_none)
+
+
+def _encoder_for(cls: type):
+    """How `to_dict` encodes a value of exactly this type (the checks in order, made once)."""
     if cls is float:
-        return obj if math.isfinite(obj) else None
+        return _finite
     names = _field_names(cls)
     if names is not None:
+        return _dataclass_encoder(names)
+    if issubclass(cls, enum.Enum):
+        return lambda obj, drop_none: obj.value
+    if issubclass(cls, dt.datetime):
+        return lambda obj, drop_none: iso_utc(obj)
+    if issubclass(cls, dt.date):
+        return lambda obj, drop_none: obj.isoformat()
+    if issubclass(cls, float):
+        return _finite
+    if issubclass(cls, (list, tuple)):
+        return lambda obj, drop_none: [x if type(x) in _PLAIN else to_dict(x, drop_none) for x in obj]
+    if issubclass(cls, dict):
+        return lambda obj, drop_none: {str(k): to_dict(v, drop_none) for k, v in obj.items()}
+    return lambda obj, drop_none: obj
+
+
+def _finite(obj, drop_none: bool):
+    return obj if math.isfinite(obj) else None
+
+
+def _dataclass_encoder(names: tuple[str, ...]):
+    values_of = operator.attrgetter(*names) if len(names) > 1 else (lambda obj: (getattr(obj, names[0]),) if names else ())
+
+    def encode(obj, drop_none: bool) -> dict:
         out = {}
-        for name in names:
-            v = getattr(obj, name)
+        for name, v in zip(names, values_of(obj), strict=True):
             if v is None and drop_none:
                 continue
             t = type(v)  # plain values inline: no call for each of them
             out[name] = v if t in _PLAIN else (v if math.isfinite(v) else None) if t is float else to_dict(v, drop_none)
         return out
-    if isinstance(obj, enum.Enum):
-        return obj.value
-    if isinstance(obj, dt.datetime):
-        return iso_utc(obj)
-    if isinstance(obj, dt.date):
-        return obj.isoformat()
-    if isinstance(obj, float):
-        return None if not math.isfinite(obj) else obj
-    if isinstance(obj, (list, tuple)):
-        return [x if type(x) in _PLAIN else to_dict(x, drop_none) for x in obj]
-    if isinstance(obj, dict):
-        return {str(k): to_dict(v, drop_none) for k, v in obj.items()}
-    return obj
+
+    return encode
+
+
+_ENCODERS: dict[type, object] = {}  # exact type -> its encoder (see _encoder_for)
 
 
 @cache
