@@ -20,7 +20,8 @@ from frostwatch.advice.plan import Condition, Step, WhyNot
 from frostwatch.config import Block
 from frostwatch.display import Display
 from frostwatch.forecast import inversion as inv
-from frostwatch.forecast.calibration import Learner, NightRecord
+from frostwatch.forecast.calibration import NightRecord
+from frostwatch.forecast.learner import Learner
 from frostwatch.models import Projection, StationState
 
 UTC = dt.UTC
