@@ -28,6 +28,7 @@ import paho.mqtt.client as paho
 
 from frostwatch.errors import FrostwatchError, UsageError
 from frostwatch.fleet.view import FleetModel
+from frostwatch.mqtt_callbacks import guarded
 
 log = logging.getLogger("frostwatch.fleet")
 
@@ -123,14 +124,7 @@ class FleetListener:
 
     @staticmethod
     def _guard(fn):
-        def wrapped(*a, **k):
-            try:
-                fn(*a, **k)
-            except Exception:  # noqa: BLE001 - an exception here would silently kill paho's thread
-                log.exception("fleet view: error in MQTT callback %s (ignored)", fn.__name__)
-
-        wrapped.__name__ = fn.__name__
-        return wrapped
+        return guarded(fn, log, "fleet view")
 
     def _on_connect(self, client, userdata, flags, reason_code, properties) -> None:
         if reason_code.is_failure:

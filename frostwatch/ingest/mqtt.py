@@ -50,6 +50,7 @@ from frostwatch.ingest.layouts import Mapping
 from frostwatch.ingest.limits import RejectionLimiter
 from frostwatch.ingest.writer import IngestSettings, IngestStats, IngestWriter, _Msg
 from frostwatch.models import Reading
+from frostwatch.mqtt_callbacks import guarded
 from frostwatch.secrets import read_secret_file
 from frostwatch.store import Store
 
@@ -149,14 +150,7 @@ class MqttIngest(IngestWriter):
 
     @staticmethod
     def _guard(fn):
-        def wrapped(*a, **k):
-            try:
-                fn(*a, **k)
-            except Exception:  # noqa: BLE001 - an exception here would silently kill paho's thread
-                log.exception("error in MQTT callback %s (ignored, the client keeps running)", fn.__name__)
-
-        wrapped.__name__ = fn.__name__
-        return wrapped
+        return guarded(fn, log, "ingest")
 
     def _on_connect(self, client, userdata, flags, reason_code, properties) -> None:
         if reason_code.is_failure:
