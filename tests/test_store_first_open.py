@@ -4,7 +4,6 @@ never fails with "table readings already exists" (seen once in the two-broker fl
 
 from __future__ import annotations
 
-import multiprocessing
 import sqlite3
 import threading
 import time
@@ -42,33 +41,6 @@ def test_a_store_opened_while_another_process_creates_it_is_not_created_twice(tm
     store = result["store"]
     assert store.schema_version == SCHEMA_VERSION
     store.close()
-
-
-def _open_and_close(path: str, start: float, queue) -> None:
-    while time.time() < start:
-        time.sleep(0.001)
-    try:
-        Store.open(path).close()
-        queue.put("ok")
-    except Exception as exc:  # noqa: BLE001
-        queue.put(repr(exc))
-
-
-def test_four_processes_opening_one_new_store_at_once_all_succeed(tmp_path: Path):
-    ctx = multiprocessing.get_context("spawn")
-    for attempt in range(3):
-        path = str(tmp_path / f"store-{attempt}.db")
-        queue = ctx.Queue()
-        start = time.time() + 1.5
-        procs = [ctx.Process(target=_open_and_close, args=(path, start, queue)) for _ in range(4)]
-        for p in procs:
-            p.start()
-        outcomes = [queue.get(timeout=60) for _ in procs]
-        for p in procs:
-            p.join(30)
-        assert outcomes == ["ok"] * 4, outcomes
-        with sqlite3.connect(path) as con:
-            assert con.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
 
 
 def test_sql_statements_keep_a_trigger_whole():
