@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from bisect import bisect_left, insort
 from collections import deque
 
 import numpy as np
@@ -52,7 +53,7 @@ from frostwatch.forecast.calibration import (
     dusk_regime,
     nowcast_bin,
 )
-from frostwatch.forecast.ridge import ridge_solve
+from frostwatch.forecast.ridge import ridge_solve, ridge_solve_many
 
 
 class _Skill:
@@ -100,22 +101,104 @@ class _Skill:
         return {m: float(x) for m, x in zip(available, w, strict=True)}
 
 
+class _Window:
+    """The last `maxlen` residuals in arrival order (a deque) and the same values kept sorted, so
+    that the band's quantiles need no sort at each snapshot."""
+
+    __slots__ = ("recent", "sorted", "nan")
+
+    def __init__(self, maxlen: int):
+        self.recent: deque = deque(maxlen=maxlen)
+        self.sorted: list[float] = []
+        self.nan = 0  # NaN residuals held (they have no place in the order)
+
+    def append(self, x: float) -> None:
+        x = float(x)
+        if len(self.recent) == self.recent.maxlen:
+            old = self.recent[0]
+            if old != old:
+                self.nan -= 1
+            else:
+                del self.sorted[bisect_left(self.sorted, old)]
+        self.recent.append(x)
+        if x != x:
+            self.nan += 1
+        else:
+            insort(self.sorted, x)
+
+    def __len__(self) -> int:
+        return len(self.recent)
+
+    def __iter__(self):
+        return iter(self.recent)
+
+
+def _quantile_sorted(v: list[float], q: float) -> float:
+    """np.quantile's default ('linear', Hyndman & Fan type 7) of sorted values, with numpy's own
+    arithmetic (virtual index (n - 1) q, and its two-sided interpolation), so bit for bit."""
+    n = len(v)
+    vi = (n - 1) * q
+    i = math.floor(vi)
+    if vi >= n - 1:
+        return v[n - 1]
+    if vi < 0:
+        return v[0]
+    a, b, g = v[i], v[i + 1], vi - i
+    diff = b - a
+    return b - diff * (1 - g) if g >= 0.5 else a + diff * g
+
+
 def _band_from(residuals, spread_c: float) -> tuple[float, float, int]:
     """(low, high) offsets of the 80 % band from residuals (observed - predicted); a normal band of
     `spread_c` until enough are known, blended in as they come."""
-    r = np.asarray(residuals, dtype=float)
-    n = len(r)
+    n = len(residuals)
     normal = (-BAND_Z * spread_c, BAND_Z * spread_c)
     if n < BAND_MIN_RESIDUALS:
         if n < 3:
             return normal[0], normal[1], n
+        r = np.asarray(list(residuals), dtype=float)
         sd = float(np.sqrt((np.sum(r**2) + 3 * spread_c**2) / (n + 3)))
         return -BAND_Z * sd + float(np.mean(r)) * n / (n + 3), BAND_Z * sd + float(np.mean(r)) * n / (n + 3), n
     if not BAND_FROM_QUANTILES:
+        r = np.asarray(list(residuals), dtype=float)
         m, sd = float(np.mean(r)), float(np.std(r))
         return m - BAND_Z * sd, m + BAND_Z * sd, n
-    lo, hi = np.quantile(r, BAND_QUANTILES)
+    if isinstance(residuals, _Window) and not residuals.nan:
+        lo, hi = (_quantile_sorted(residuals.sorted, q) for q in BAND_QUANTILES)
+    else:
+        lo, hi = np.quantile(np.asarray(list(residuals), dtype=float), BAND_QUANTILES)
     return float(lo), float(hi), n
+
+
+def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str, float] | None]:
+    """`_Skill.weights` of each (skill, available methods), the same numbers: the small solves
+    of records with the same available methods go to LAPACK as one stack."""
+    out: list = [None] * len(items)
+    groups: dict[tuple[int, ...], list[int]] = {}
+    for i, (skill, avail) in enumerate(items):
+        if any(skill.scored[m] < SKILL_MIN_SCORED for m in avail):
+            continue
+        groups.setdefault(tuple(skill.methods.index(m) for m in avail), []).append(i)
+    for idx, members in groups.items():
+        k = len(idx)
+        s = np.stack([items[i][0].m2[np.ix_(idx, idx)] for i in members])
+        diag = np.zeros_like(s)
+        r = np.arange(k)
+        diag[:, r, r] = s[:, r, r]
+        s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * diag + SKILL_FLOOR_C2 * np.eye(k)
+        try:
+            w_all = np.linalg.solve(s, np.ones((len(members), k, 1)))[:, :, 0]
+        except np.linalg.LinAlgError:
+            for i in members:
+                out[i] = items[i][0].weights(items[i][1])
+            continue
+        for j, i in enumerate(members):
+            w = w_all[j]
+            d = s[j, r, r]
+            w = np.clip(w / w.sum(), 0.0, None) if w.sum() > 0 else 1.0 / d
+            w = w / w.sum()
+            out[i] = {m: float(x) for m, x in zip(items[i][1], w, strict=True)}
+    return out
 
 
 class Learner:
@@ -134,11 +217,11 @@ class Learner:
         self.n_protected = 0
         self.nights: list[dt.date] = []
         self.dusk_skill: dict[str, _Skill] = {}
-        self.dusk_residuals: deque = deque(maxlen=BAND_MEMORY)
+        self.dusk_residuals = _Window(BAND_MEMORY)
         f = len(NOWCAST_FEATURES)
         self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
         self.nc_skill = [_Skill(NOWCAST_METHODS) for _ in range(NOWCAST_BINS)]
-        self.nc_residuals = [deque(maxlen=BAND_MEMORY) for _ in range(NOWCAST_BINS)]
+        self.nc_residuals = [_Window(BAND_MEMORY) for _ in range(NOWCAST_BINS)]
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
 
@@ -235,17 +318,17 @@ class Learner:
         out["dusk_weights"] = tuple(weights)
         spread = PRIOR_BAND_C / 3.0 if BAND_PER_SQRT_HOUR else PRIOR_BAND_C  # sqrt of a typical 9 h night
         out["dusk_band"] = _band_from(self.dusk_residuals, spread)
-        models, counts, weights, bands = [], [], [], []
-        for b in range(NOWCAST_BINS):
-            m = self.nc_m[b]
-            counts.append(int(m[0, 0]))
-            fit = ridge_solve(m, NOWCAST_RIDGE_LAMBDA) if m[0, 0] >= NOWCAST_MIN_SAMPLES else None
-            models.append(fit)
-            avail = NOWCAST_METHODS if fit is not None else ("refit", "dusk_curve")
-            w = self.nc_skill[b].weights(avail)
-            weights.append(tuple(w.items()) if w else None)
-            hl = (b + 0.5) * NOWCAST_BIN_H
-            bands.append(_band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, hl / 6.0))))
+        counts = [int(self.nc_m[b][0, 0]) for b in range(NOWCAST_BINS)]
+        ready = [b for b in range(NOWCAST_BINS) if self.nc_m[b][0, 0] >= NOWCAST_MIN_SAMPLES]
+        models: list = [None] * NOWCAST_BINS
+        if ready:
+            for b, fit in zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True):
+                models[b] = fit
+        weights = [tuple(w.items()) if w else None for w in _weights_many(
+            [(self.nc_skill[b], NOWCAST_METHODS if models[b] is not None else ("refit", "dusk_curve"))
+             for b in range(NOWCAST_BINS)])]
+        bands = [_band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
+                 for b in range(NOWCAST_BINS)]
         out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
         return Calibration(**out)
 

@@ -1,0 +1,95 @@
+"""The calibration snapshot taken at every night of a backtest (`forecast.learner.Learner`) is
+computed in batches (the per-hour ridge solves and skill weights as stacks, the band's quantiles
+from residuals kept sorted): it must give the same numbers, bit for bit, as the one-at-a-time
+computations it replaced (`ridge_solve`, `_Skill.weights`, `np.quantile`)."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+
+import numpy as np
+import pytest
+from forecast_site import make_cfg
+from test_backtest import synthetic_log
+
+from frostwatch.forecast import learner as lm
+from frostwatch.forecast.calibration import (
+    NOWCAST_BIN_H,
+    NOWCAST_BINS,
+    NOWCAST_METHODS,
+    NOWCAST_MIN_SAMPLES,
+    PRIOR_BAND_C,
+)
+from frostwatch.forecast.ridge import ridge_solve, ridge_solve_many
+from frostwatch.pipeline import Evaluator
+
+
+def _band_one_at_a_time(residuals, spread_c):
+    r = np.asarray(list(residuals), dtype=float)
+    n = len(r)
+    if n < lm.BAND_MIN_RESIDUALS:
+        return None  # the early band is computed as before (not batched)
+    lo, hi = np.quantile(r, lm.BAND_QUANTILES)
+    return float(lo), float(hi), n
+
+
+def test_snapshot_equals_one_solve_at_a_time(tmp_path):
+    cfg = make_cfg(tmp_path)
+    series = synthetic_log(cfg, n=40)
+    ev = Evaluator(cfg)
+    first = dt.date(2027, 3, 20)
+    checked_models = checked_bands = checked_weights = 0
+    for k in range(40):
+        ev.learn_night(ev.night(first + dt.timedelta(days=k)), series)
+        learner = ev.learners["b"]
+        cal = learner.calibration()
+        for b in range(NOWCAST_BINS):
+            m = learner.nc_m[b]
+            want = ridge_solve(m, lm.NOWCAST_RIDGE_LAMBDA) if m[0, 0] >= NOWCAST_MIN_SAMPLES else None
+            got = cal.nc_models[b]
+            assert (want is None) == (got is None)
+            if want is not None:
+                checked_models += 1
+                assert np.array_equal(want[0], got[0]) and np.array_equal(want[1], got[1]) and want[2] == got[2]
+            avail = NOWCAST_METHODS if got is not None else ("refit", "dusk_curve")
+            w = learner.nc_skill[b].weights(avail)
+            assert cal.nc_weights[b] == (tuple(w.items()) if w else None)
+            checked_weights += w is not None
+            band = _band_one_at_a_time(learner.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
+            if band is not None:
+                checked_bands += 1
+                assert cal.nc_bands[b] == band
+    assert checked_models > 100 and checked_bands > 100 and checked_weights > 100
+
+
+def test_ridge_on_a_stack_is_ridge_one_at_a_time():
+    rng = np.random.default_rng(1)
+    for _ in range(60):
+        k = int(rng.integers(1, 7))
+        ms = []
+        for _ in range(int(rng.integers(1, 15))):
+            n = int(rng.integers(0, 60))
+            x = rng.normal(size=(n, k)) * rng.uniform(0.1, 5, k)
+            if n and rng.random() < 0.3:
+                x[:, rng.integers(k)] = 1.5  # an input with no spread gets no slope
+            z = np.column_stack([np.ones(n), x, x @ rng.normal(size=k) + rng.normal(size=n)])
+            ms.append(z.T @ z)
+        for m, got in zip(ms, ridge_solve_many(np.array(ms), 1.3), strict=True):
+            want = ridge_solve(m, 1.3)
+            assert (want is None) == (got is None)
+            if want is not None:
+                assert np.array_equal(want[0], got[0]) and np.array_equal(want[1], got[1]) and want[2] == got[2]
+
+
+@pytest.mark.parametrize("n", [20, 21, 57, 299, 300])
+def test_quantile_of_sorted_residuals_is_numpys(n):
+    rng = np.random.default_rng(n)
+    window = lm._Window(300)
+    for x in rng.normal(0, 1.5, n + 250):  # past the window's length: old residuals leave
+        window.append(x)
+        if len(window) >= 20:
+            r = np.asarray(list(window))
+            assert sorted(r.tolist()) == window.sorted
+            for q in (0.1, 0.5, 0.9):
+                assert lm._quantile_sorted(window.sorted, q) == float(np.quantile(r, q))
