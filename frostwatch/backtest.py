@@ -55,8 +55,7 @@ def backtest(
     ev = Evaluator(cfg)
     rows: list[dict] = []
     nights = candidate_nights(cfg, series)
-    for k, d in enumerate(nights):
-        night = ev.night(d)
+    for k, (d, night) in enumerate(zip(nights, ev.nights(nights), strict=True)):
         issue = night.dusk_utc
         start_s = (night.sunset_utc - LOOKBACK).timestamp()
         obs = slice_series(series, start_s, night.sunrise_utc.timestamp() + 3600.0)

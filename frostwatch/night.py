@@ -9,7 +9,7 @@ import datetime as dt
 from dataclasses import dataclass
 from zoneinfo import ZoneInfo
 
-from frostwatch.physics.sun import night_window_utc
+from frostwatch.physics.sun import night_window_utc, night_windows_utc
 
 DUSK_OFFSET = dt.timedelta(hours=2)  # FAO-FP ch. 5: the forecast is issued 2 h after sunset
 
@@ -45,6 +45,12 @@ class Night:
 def night_of_date(latitude: float, longitude: float, tz: ZoneInfo, evening: dt.date) -> Night:
     sunset, sunrise = night_window_utc(latitude, longitude, evening, tz)
     return Night(evening, sunset, sunrise)
+
+
+def nights_of_dates(latitude: float, longitude: float, tz: ZoneInfo, evenings: list[dt.date]) -> list[Night]:
+    """`night_of_date` of many evenings at once (a season's sun times in one pass), the same nights."""
+    windows = night_windows_utc(latitude, longitude, evenings, tz)
+    return [Night(d, sunset, sunrise) for d, (sunset, sunrise) in zip(evenings, windows, strict=True)]
 
 
 def evening_date(t_utc: dt.datetime, tz: ZoneInfo) -> dt.date:

@@ -27,7 +27,7 @@ from frostwatch.display import Display
 from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series
 from frostwatch.models import Alert, Projection
 from frostwatch.monitoring import block_monitoring, inputs_utc
-from frostwatch.night import Night, evening_date, night_of_date
+from frostwatch.night import Night, evening_date, night_of_date, nights_of_dates
 from frostwatch.physics import humidity
 
 LOOKBACK = dt.timedelta(hours=6)  # an evaluation reads readings from this long before sunset
@@ -91,6 +91,14 @@ class Evaluator:
             s = self.cfg.site
             self._nights[evening] = night_of_date(s.latitude, s.longitude, s.tz, evening)
         return self._nights[evening]
+
+    def nights(self, evenings: list[dt.date]) -> list[Night]:
+        """`night` of many evenings, the sun times of those not yet known worked out in one pass."""
+        new = sorted({d for d in evenings if d not in self._nights})
+        if new:
+            s = self.cfg.site
+            self._nights.update(zip(new, nights_of_dates(s.latitude, s.longitude, s.tz, new), strict=True))
+        return [self._nights[d] for d in evenings]
 
     def night_at(self, t_utc: dt.datetime) -> Night:
         return self.night(evening_date(t_utc, self.cfg.site.tz))

@@ -315,3 +315,45 @@ def test_solar_elevation_deg_at_solar_noon_vs_reference_sheet():
     # (the sheet's rounding of the declination).
     when = datetime(2025, 6, 21, 12, 1, 52, tzinfo=UTC)
     assert solar_elevation_deg(*GREENWICH[:2], when) == pytest.approx(61.9611, abs=0.002)
+
+
+# ---- a season's sun times in one pass: the same instants as one date at a time ------------------
+
+SEASON_SITES = [
+    (36.1, -79.9, "America/New_York"),  # Greensboro NC (bench/tmy.py)
+    (55.3, -160.5, "America/Anchorage"),  # Sand Point AK
+    (-33.9, 18.4, "Africa/Johannesburg"),
+    (28.6, 77.2, "Asia/Kolkata"),  # events near 00:00 UTC
+    (69.6, 18.9, "Europe/Oslo"),  # polar day and polar night
+    (-77.8, 166.7, "Antarctica/McMurdo"),
+    (0.0, 179.9, "Pacific/Tarawa"),
+]
+
+
+@pytest.mark.parametrize("latitude_deg, longitude_deg, tz", SEASON_SITES)
+def test_night_windows_of_a_season_equal_each_night_alone(latitude_deg, longitude_deg, tz):
+    from frostwatch.physics.sun import night_windows_utc
+
+    # every third day of a year and a half (both DST changes, both polar seasons)
+    evenings = [date(2026, 1, 2) + timedelta(days=3 * k) for k in range(180)]
+    many = night_windows_utc(latitude_deg, longitude_deg, evenings, ZoneInfo(tz))
+    assert many == [night_window_utc(latitude_deg, longitude_deg, d, ZoneInfo(tz)) for d in evenings]
+
+
+def test_elevation_written_out_is_astrals_to_the_bit():
+    """The season path's scalar elevation is astral's own arithmetic; numpy's agrees to 1e-9 deg."""
+    import astral
+    import astral.sun
+    import numpy as np
+
+    from frostwatch.physics import sun
+
+    rng = np.random.default_rng(5)
+    for latitude_deg, longitude_deg, _ in SEASON_SITES + [(89.9, 0.0, "UTC"), (-89.95, -179.9, "UTC")]:
+        observer = astral.Observer(latitude=latitude_deg, longitude=longitude_deg, elevation=0.0)
+        instants = rng.integers(0, 4_000_000_000, 400)
+        fast = sun._elevation_above_deg_np(latitude_deg, longitude_deg, instants)
+        for t_s, v in zip(instants.tolist(), fast, strict=True):
+            ref = astral.sun.elevation(observer, datetime.fromtimestamp(t_s, UTC), with_refraction=False) + 0.833
+            assert sun._above_horizon_deg_at_s(latitude_deg, longitude_deg, t_s) == ref
+            assert abs(v - ref) < 1e-9
