@@ -55,13 +55,19 @@ def backtest(
     ev = Evaluator(cfg)
     rows: list[dict] = []
     nights = candidate_nights(cfg, series)
-    for k, (d, night) in enumerate(zip(nights, ev.nights(nights), strict=True)):
+    night_objs = ev.nights(nights)
+    obs_of = [slice_series(series, (n.sunset_utc - LOOKBACK).timestamp(), n.sunrise_utc.timestamp() + 3600.0)
+              for n in night_objs]
+    # what each night did depends on its own readings only: all worked out first (the physics
+    # priors in one pass), each learned only after its own night has been forecast (below)
+    records = {b.id: forecast.night_records(b, cfg, list(zip(obs_of, night_objs, strict=True)), ev.pressure_hpa)
+               for b in cfg.blocks}
+    for k, (d, night, obs) in enumerate(zip(nights, night_objs, obs_of, strict=True)):
         issue = night.dusk_utc
         start_s = (night.sunset_utc - LOOKBACK).timestamp()
-        obs = slice_series(series, start_s, night.sunrise_utc.timestamp() + 3600.0)
         window = slice_series(obs, start_s, issue.timestamp())
         for block in cfg.blocks:
-            rec = forecast.night_record(block, cfg, obs, night, ev.pressure_hpa)
+            rec = records[block.id][k]
             if rec is None:
                 continue
             cal = ev.calibration(block.id)

@@ -18,7 +18,7 @@ from frostwatch.forecast.calibration import (
 )
 from frostwatch.forecast.learner import Learner, fit_calibration
 from frostwatch.forecast.nowcast import feature_matrix, features_at
-from frostwatch.forecast.projection import crossing_time, night_record, prior_c, project_block
+from frostwatch.forecast.projection import crossing_time, night_record, night_records, prior_c, project_block
 from frostwatch.forecast.sensors import (
     STUCK_MIN_READINGS,
     STUCK_WINDOW_S,
@@ -35,5 +35,5 @@ __all__ = [
     "FEATURES", "MIN_REGRESSION_NIGHTS", "NOWCAST_FEATURES", "PRIOR_BAND_C", "PROTECTION_QUANTITIES",
     "STUCK_MIN_READINGS", "STUCK_WINDOW_S", "Calibration", "DuskInputs", "Learner", "NightRecord", "Series",
     "as_of", "crossing_time", "dusk_inputs", "feature_matrix", "feature_vector", "features_at", "fit_calibration",
-    "night_record", "prior_c", "project_block", "speaking_station", "station_state", "usual_interval_s",
+    "night_record", "night_records", "prior_c", "project_block", "speaking_station", "station_state", "usual_interval_s",
 ]

@@ -53,7 +53,7 @@ from frostwatch.forecast.calibration import (
     dusk_regime,
     nowcast_bin,
 )
-from frostwatch.forecast.ridge import ridge_solve, ridge_solve_many
+from frostwatch.forecast.ridge import ridge_solve_many
 
 
 class _Skill:
@@ -80,8 +80,11 @@ class _Skill:
         if not idx:
             return
         e = np.array([errors[self.methods[i]] for i in idx])
-        sub = np.ix_(idx, idx)
-        self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
+        if len(idx) == len(self.methods):  # every method scored (the usual case): no fancy indexing
+            self.m2 = (1 - a) * self.m2 + a * np.outer(e, e)
+        else:
+            sub = np.ix_(idx, idx)
+            self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
         for i in idx:
             self.scored[self.methods[i]] += 1
 
@@ -178,10 +181,15 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
     for i, (skill, avail) in enumerate(items):
         if any(skill.scored[m] < SKILL_MIN_SCORED for m in avail):
             continue
+        if not avail:
+            out[i] = {}  # as `_Skill.weights` of no method
+            continue
         groups.setdefault(tuple(skill.methods.index(m) for m in avail), []).append(i)
     for idx, members in groups.items():
         k = len(idx)
-        s = np.stack([items[i][0].m2[np.ix_(idx, idx)] for i in members])
+        s = np.stack([items[i][0].m2 for i in members])
+        if idx != tuple(range(s.shape[1])):
+            s = s[:, idx][:, :, idx]
         diag = np.zeros_like(s)
         r = np.arange(k)
         diag[:, r, r] = s[:, r, r]
@@ -224,6 +232,7 @@ class Learner:
         self.nc_residuals = [_Window(BAND_MEMORY) for _ in range(NOWCAST_BINS)]
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
+        self._bins: list = [None] * NOWCAST_BINS  # per bin (model, weights, band) as last snapshot; None: changed
 
     def learn(self, rec: NightRecord) -> bool:
         """Score the current calibration on `rec`, then add it. False (nothing learned) for a
@@ -257,6 +266,7 @@ class Learner:
             if learned is not None:
                 errs["learned"] = learned - drop
             self.nc_skill[b].add(errs)
+            self._bins[b] = None
             pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el)
             self.nc_residuals[b].append(drop - pred)
             z = np.concatenate([[1.0], f, [drop]])
@@ -297,40 +307,46 @@ class Learner:
             lam = RIDGE_LAMBDA * max(1.0, self.calibration_nights / n)
             out["calibration_lambda"] = lam
             if SIMILAR_WIDTH_C is not None:
-                out["dusk_strata"] = tuple((b * T0_STRATUM_C, m.copy()) for b, m in sorted(self.dusk_strata.items()))
-            fit = ridge_solve(self.dusk_m, lam)
+                # each stratum's matrix is replaced, never changed in place, when a night joins it
+                out["dusk_strata"] = tuple((b * T0_STRATUM_C, m) for b, m in sorted(self.dusk_strata.items()))
+            fit, drop_fit = ridge_solve_many(np.stack([self.dusk_m, self.drop_m]), lam)
             if fit is not None:
                 mu, coefs, k_mean = fit
                 out.update(means=tuple(float(m) for m in mu), k_coefs=tuple(float(c) for c in coefs), k_mean=k_mean)
             elif n == 1:
                 out["k_mean"] = float(self.dusk_m[0, -1])
-            fit = ridge_solve(self.drop_m, lam)
+            fit = drop_fit
             if fit is not None:
                 out["drop_model"] = (fit[0], fit[1], fit[2])
         weights = []
         if n >= MIN_REGRESSION_NIGHTS:
-            for regime, skill in sorted(self.dusk_skill.items()):
-                avail = tuple(m for m in DUSK_METHODS if skill.scored[m] > 0
-                              and not (m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))
-                w = skill.weights(avail)
-                if w:
-                    weights.append((regime, tuple(w.items())))
+            regimes = sorted(self.dusk_skill.items())
+            found = _weights_many([(skill, tuple(m for m in DUSK_METHODS if skill.scored[m] > 0 and not (
+                m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))) for regime, skill in regimes])
+            weights = [(regime, tuple(w.items())) for (regime, _), w in zip(regimes, found, strict=True) if w]
         out["dusk_weights"] = tuple(weights)
         spread = PRIOR_BAND_C / 3.0 if BAND_PER_SQRT_HOUR else PRIOR_BAND_C  # sqrt of a typical 9 h night
         out["dusk_band"] = _band_from(self.dusk_residuals, spread)
         counts = [int(self.nc_m[b][0, 0]) for b in range(NOWCAST_BINS)]
-        ready = [b for b in range(NOWCAST_BINS) if self.nc_m[b][0, 0] >= NOWCAST_MIN_SAMPLES]
-        models: list = [None] * NOWCAST_BINS
-        if ready:
-            for b, fit in zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True):
-                models[b] = fit
-        weights = [tuple(w.items()) if w else None for w in _weights_many(
-            [(self.nc_skill[b], NOWCAST_METHODS if models[b] is not None else ("refit", "dusk_curve"))
-             for b in range(NOWCAST_BINS)])]
-        bands = [_band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
-                 for b in range(NOWCAST_BINS)]
+        self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None])
+        models, weights, bands = (list(x) for x in zip(*self._bins, strict=True))
         out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
         return Calibration(**out)
+
+    def _refresh_bins(self, changed: list[int]) -> None:
+        """The learned nowcast, skill weights and band of the hours-left bins a night changed
+        (the others are as at the last snapshot), their ridge solves and weights as one stack each."""
+        if not changed:
+            return
+        ready = [b for b in changed if self.nc_m[b][0, 0] >= NOWCAST_MIN_SAMPLES]
+        models = dict.fromkeys(changed)
+        if ready:
+            models.update(zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True))
+        weights = _weights_many([(self.nc_skill[b], NOWCAST_METHODS if models[b] is not None else ("refit", "dusk_curve"))
+                                 for b in changed])
+        for b, w in zip(changed, weights, strict=True):
+            band = _band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
+            self._bins[b] = (models[b], tuple(w.items()) if w else None, band)
 
 
 _FIT_CACHE: dict[tuple[int, int], tuple[list, Learner, int]] = {}

@@ -53,6 +53,9 @@ NOWCAST_START_S = 1800.0  # the nowcast's training points start half an hour aft
 MIN_BAND_C = 0.3
 
 
+_PRIMED: dict[tuple, float] = {}  # the last batch of priors worked out at once (prime_priors)
+
+
 @functools.lru_cache(maxsize=4096)
 def _prior_cached(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
     return float(clear_night_prior.clear_night_minimum_prior_c(
@@ -60,9 +63,27 @@ def _prior_cached(t0_c: float, td_c: float, hours: float, wind: float, cloud: fl
     ))
 
 
+def _prior_key(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> tuple:
+    return round(t0_c, 2), round(td_c, 2), round(hours, 2), round(wind, 1), round(cloud, 2), round(p_hpa)
+
+
 def prior_c(t0_c: float, td_c: float, hours: float, wind: float, cloud: float, p_hpa: float) -> float:
     """The physics prior, memoised on inputs rounded well inside their measurement error."""
-    return _prior_cached(round(t0_c, 2), round(td_c, 2), round(hours, 2), round(wind, 1), round(cloud, 2), round(p_hpa))
+    key = _prior_key(t0_c, td_c, hours, wind, cloud, p_hpa)
+    primed = _PRIMED.get(key)
+    return _prior_cached(*key) if primed is None else primed
+
+
+def prime_priors(inputs: list[tuple[float, ...]]) -> None:
+    """Work out `prior_c` of many nights' inputs in one vectorised pass (the energy balance of
+    all nights stepped together, the same values), kept until the next batch: a backtest's dusk
+    forecasts then find them. One night alone is left to `prior_c`."""
+    keys = list(dict.fromkeys(_prior_key(*a) for a in inputs))
+    if len(keys) < 2:
+        return
+    values = clear_night_prior.clear_night_minimum_prior_c(*np.array(keys, dtype=float).T)
+    _PRIMED.clear()
+    _PRIMED.update(zip(keys, values.tolist(), strict=True))
 
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
@@ -367,6 +388,22 @@ def night_record(
     after sunrise. None when the night is not covered: no healthy crop-height sensor at t0, or a
     gap of more than `stale_after_intervals` intervals in its readings over the window.
     """
+    return night_records(block, cfg, [(series, night)], pressure_hpa)[0]
+
+
+def night_records(
+    block: Block, cfg: Config, nights: list[tuple[Series, Night]], pressure_hpa: float | None = None
+) -> list[NightRecord | None]:
+    """`night_record` of many nights, each with its own readings (a season's, for a backtest):
+    the physics priors of all of them worked out in one pass (`prime_priors`)."""
+    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
+    found = [_night_record_fields(block, cfg, series, night, p_hpa) for series, night in nights]
+    prime_priors([f[1] for f in found if f is not None])
+    return [None if f is None else NightRecord(**f[0], prior_c=prior_c(*f[1])) for f in found]
+
+
+def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night, p_hpa: float) -> tuple[dict, tuple] | None:
+    """A night's record without its physics prior, and the prior's inputs."""
     dusk_s = night.dusk_utc.timestamp()
     sunset_s = night.sunset_utc.timestamp()
     sunrise_s = night.sunrise_utc.timestamp()
@@ -394,11 +431,10 @@ def night_record(
     cloud = window_stat(series, [s.id for s in cfg.stations], "cloud_area_fraction", sunset_s, sunrise_s, np.max)
     if cloud is None and di.cloud_frac is not None:
         cloud = di.cloud_frac  # a sky sensor: its estimate at t0
-    p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     h = night.hours_to_sunrise(night.dusk_utc)
     x = feature_vector(di.temp_c, di.dew_point_c, di.cloud_frac, di.wind_m_s, di.wind_trend_m_s, di.pressure_trend_hpa)
     radiation = (wind is None or wind < RADIATION_NIGHT_WIND_M_S) and (cloud is None or cloud <= RADIATION_NIGHT_CLOUD_FRAC)
-    return NightRecord(
+    return dict(
         night=night.date,
         station=speaker.station,
         t0_temp_c=di.temp_c,
@@ -408,7 +444,6 @@ def night_record(
         observed_min_at_utc=_utc(float(tw[i])),
         mean_wind_m_s=wind,
         max_cloud_frac=cloud,
-        prior_c=prior_c(di.temp_c, x[1], h, x[3], x[2], p_hpa),
         radiation_night=radiation,
         t0_wind_m_s=di.wind_m_s,
         t0_cloud_frac=di.cloud_frac,
@@ -418,7 +453,7 @@ def night_record(
         nowcast_samples=_nowcast_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
         protected=_protected(series, stations, dusk_s - 3600.0, end_s),
         inversion_at_min_c=inv_at_min,
-    )
+    ), (di.temp_c, x[1], h, x[3], x[2], p_hpa)
 
 
 def _inversion_at_s(block: Block, cfg: Config, series: Series, t_s: float, air_c: float) -> float | None:

@@ -351,3 +351,27 @@ def test_energy_balance_saturation_is_ashrae_hyland_wexler_vs_psychrolib():
         if td > 0.0:
             assert e_hpa == pytest.approx(psychrolib.GetVapPresFromTDewPoint(td) / 100.0, rel=5e-4)
         assert float(night_energy_balance._dew_point_from_vp_c(e_hpa)) == pytest.approx(td, abs=1e-6)
+
+
+def test_clear_night_minimum_prior_c_of_many_nights_is_each_night_alone():
+    """The array path steps all nights together (a season's priors in one pass); each night's
+    minimum must be the scalar path's, bit for bit, in and out of domain, on nights that cool
+    past the first part of the loss curve and nights that do not."""
+    rng = np.random.default_rng(0)
+    n = 400
+    t0 = rng.uniform(-10.0, 25.0, n)
+    td = t0 - rng.uniform(0.0, 15.0, n)
+    hours = rng.uniform(0.1, 15.0, n)
+    wind = rng.uniform(0.0, 6.0, n)
+    wind[::7] = 0.0
+    cloud = rng.uniform(0.0, 1.0, n)
+    cloud[::5] = 0.0
+    p = rng.uniform(850.0, 1030.0, n)
+    td[::50] = t0[::50] + 0.3  # a hygrometer slightly over saturation
+    hours[::97] = 30.0  # out of domain
+    t0[::101] = np.nan
+    t0[1::60], td[1::60], hours[1::60], wind[1::60], cloud[1::60] = 30.0, -30.0, 24.0, 0.0, 0.0  # cools over 20 K
+    many = clear_night_prior.clear_night_minimum_prior_c(t0, td, hours, wind, cloud, p)
+    one = np.array([clear_night_prior.clear_night_minimum_prior_c(*a) for a in zip(t0, td, hours, wind, cloud, p, strict=True)])
+    assert np.array_equal(many, one, equal_nan=True)
+    assert np.isnan(one).sum() >= 8 and np.sum(t0 - one > clear_night_prior.FIRST_SPAN_K) >= 1
