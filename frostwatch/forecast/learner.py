@@ -200,12 +200,12 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
             for i in members:
                 out[i] = items[i][0].weights(items[i][1])
             continue
+        total = w_all.sum(axis=1)  # rows of 2 to 4 numbers: summed in order, as one row alone
+        positive = (total > 0)[:, None]
+        w_all = np.where(positive, np.clip(w_all / np.where(positive, total[:, None], 1.0), 0.0, None), 1.0 / s[:, r, r])
+        w_all = (w_all / w_all.sum(axis=1)[:, None]).tolist()
         for j, i in enumerate(members):
-            w = w_all[j]
-            d = s[j, r, r]
-            w = np.clip(w / w.sum(), 0.0, None) if w.sum() > 0 else 1.0 / d
-            w = w / w.sum()
-            out[i] = {m: float(x) for m, x in zip(items[i][1], w, strict=True)}
+            out[i] = dict(zip(items[i][1], w_all[j], strict=True))
     return out
 
 
@@ -246,16 +246,17 @@ class Learner:
         h = max(0.25, rec.hours_to_sunrise)
         # dusk: each method's error and the blended forecast's residual (as project_block caps it)
         comps = cal.dusk_components(rec.prior_c, x, h, rec.evening_curve_c)
+        pred_dusk = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c)
         if math.isfinite(rec.prior_c):
             self.dusk_skill.setdefault(dusk_regime(x), _Skill(DUSK_METHODS)).add(
                 {k: v - rec.observed_min_c for k, v in comps.items()})
-            pred = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c)
-            self.dusk_residuals.append((rec.observed_min_c - pred) / (math.sqrt(h) if BAND_PER_SQRT_HOUR else 1.0))
+            self.dusk_residuals.append((rec.observed_min_c - pred_dusk) / (math.sqrt(h) if BAND_PER_SQRT_HOUR else 1.0))
             self.prior_err_sum += rec.observed_min_c - rec.prior_c
-        b_dusk = (min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c) - rec.t0_temp_c) / math.sqrt(h)
+        b_dusk = (pred_dusk - rec.t0_temp_c) / math.sqrt(h)
         if not math.isfinite(b_dusk):
             b_dusk = 0.0
         # nowcast samples: methods' errors and the blend's residual per hours-left bin
+        bins = []
         for f, drop in rec.nowcast_samples:
             hl = f[1] ** 2
             el = max(0.0, h - hl)
@@ -269,8 +270,10 @@ class Learner:
             self._bins[b] = None
             pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el)
             self.nc_residuals[b].append(drop - pred)
-            z = np.concatenate([[1.0], f, [drop]])
-            self.nc_m[b] += np.outer(z, z)
+            bins.append(b)
+        if bins:  # each sample's outer product added to its bin's moments, in order (as one by one)
+            z = np.array([(1.0, *f, drop) for f, drop in rec.nowcast_samples])
+            np.add.at(self.nc_m, bins, z[:, :, None] * z[:, None, :])
         # the dusk regression's row: K = (Tn - T0) / sqrt(h)
         k = (rec.observed_min_c - rec.t0_temp_c) / math.sqrt(h)
         z = np.concatenate([[1.0], x, [k]])
