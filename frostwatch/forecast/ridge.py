@@ -55,10 +55,16 @@ def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.nd
     sd = np.sqrt(np.maximum(np.diagonal(sxx, axis1=1, axis2=2), 0.0))
     use = sd > 1e-6
     coefs = np.zeros((len(ok), k))
-    groups: dict[bytes, list[int]] = {}
-    for r in range(len(ok)):
-        if use[r].any():
-            groups.setdefault(use[r].tobytes(), []).append(r)
+    if use.all():  # every input has spread in every matrix (the usual case): one stack, no grouping
+        d = sd
+        a = nn[:, None, None] * (sxx / (d[:, :, None] * d[:, None, :])) + lam * np.eye(k)
+        coefs = np.linalg.solve(a, (nn[:, None] * sxy / d)[:, :, None])[:, :, 0] / d
+        groups: dict[bytes, list[int]] = {}
+    else:
+        groups = {}
+        for r in range(len(ok)):
+            if use[r].any():
+                groups.setdefault(use[r].tobytes(), []).append(r)
     for rows in groups.values():
         cols = np.nonzero(use[rows[0]])[0]
         d = sd[np.ix_(rows, cols)]
