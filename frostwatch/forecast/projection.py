@@ -501,4 +501,5 @@ def _nowcast_samples(
     latest, feats, ok = feature_matrix(t, v, t0_s, t0_c, sunrise_s, times, wind, cloud, td)
     tail_min = np.minimum.accumulate(v[: i_end][::-1])[::-1]
     drops = tail_min[idx] - v[idx]
-    return tuple((tuple(float(x) for x in feats[k]), float(drops[k])) for k in range(len(idx)) if ok[k])
+    rows, falls = feats.tolist(), drops.tolist()
+    return tuple((tuple(rows[k]), falls[k]) for k in np.nonzero(ok)[0].tolist())
