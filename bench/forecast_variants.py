@@ -41,6 +41,8 @@ VARIANTS: dict[str, dict[str, object]] = {
     "cold start: regression alone from the 3rd night (no learning mean)": {"LEARNING_MEAN": False},
     "nowcast: learned alone (no skill blend)": {"NOWCAST_BLEND": False},
     "nowcast: 40 points per bin before the learned nowcast (not 20)": {"NOWCAST_MIN_SAMPLES": 40},
+    "nowcast: no naive fall in the blend (what shipped before it)": {"USE_NAIVE": False},
+    "nowcast: the naive fall only while the last 2 h cooled (none otherwise)": {"NAIVE_WHEN_COOLING": True},
     "band: normal from the residual spread (not quantiles)": {"BAND_FROM_QUANTILES": False},
     "band: dusk residuals not scaled by sqrt(hours to sunrise)": {"BAND_PER_SQRT_HOUR": False},
 }
@@ -119,6 +121,36 @@ HARNESS = [
      "figures": "0.91-0.95 / 0.52: a flexible model fares no better. The naive drop knows the minimum is 2 h away; at a time not chosen by the outcome no model here beats what ships"},
     {"variant": "dusk: similar nights by T0 and dew point together (2-D Gaussian, widths 8/5, 12/5, 16/5 degC)",
      "figures": "Greensboro radiation 1.48-1.53, cold 1.92-1.95; Miami cold 2.52-2.56: no better than the dew point alone (1.46, 1.91, 2.51)"},
+    # issue 15, third pass (the bench itself, cold nights, Greensboro / Sand Point / Miami; naive 0.72 / 0.40 / 0.56
+    # 2 h before the minimum; 0.83 / 0.48 / 0.60 over all nights 2 h before sunrise)
+    {"variant": "nowcast: the naive fall (mean fall over the 2 h before earlier nights' minima) as a fourth method of the skill blend",
+     "figures": "2 h before the minimum 0.85 / 0.51 / 0.61 (from 0.90 / 0.57 / 0.66); 2 h before sunrise, all nights, "
+                "0.74 / 0.50 / 0.58 (from 0.74 / 0.47 / 0.58): shipped"},
+    {"variant": "nowcast: with the naive fall, skill scored only on points before the night's minimum",
+     "figures": "0.84 / 0.47 / 0.61; 2 h before sunrise 0.77 / 0.53 / 0.63: loses the lead not chosen by the outcome, not shipped"},
+    {"variant": "nowcast: the naive fall per hours-left bin of the instant 2 h before past nights' minima (5 nights or more, "
+                "else the mean of all)",
+     "figures": "2 h before the minimum 0.85 / 0.51 / 0.59; 2 h before sunrise, all nights, 0.74 / 0.50 / 0.58: within "
+                "0.02 of the one mean, not shipped"},
+    {"variant": "nowcast: with the naive fall, the learned regression and its skill on points before the night's minimum only",
+     "figures": "0.87 / 0.46 / 0.61; 2 h before sunrise 0.76 / 0.54 / 0.63: the same trade, not shipped"},
+    {"variant": "crossings: the curve's clock from 2 h before t0, or the curve linear (power 1) or power 0.75 in time since t0",
+     "figures": "T10 + margin 3 h ahead, median |error| Greensboro / Sand Point: 102 / 105, 79 / 115, 101 / 105 min "
+                "(shipped 105 / 114); half the 3-h projections do not cross before sunrise at all (the level, not the shape, "
+                "is what misses), and the cold edge comes later (late on 30-55 %): not shipped"},
+    {"variant": "crossings: tonight's cooling since sunset fitted to Reuter's curve T = a + b sqrt(t - sunset) (3 readings "
+                "or more), its own crossing; or half of it and half the projected curve; or the last 3 h's slope carried on",
+     "figures": "T10 + margin 3 h ahead, median |error| Greensboro / Sand Point: 100 / 130, 100 / 130, 100 / 134 min "
+                "(shipped 105 / 114); 1 h ahead 56 / 88, 52 / 89, 44 / 87 (shipped 47 / 72): not shipped"},
+    {"variant": "band: dusk residual quantiles kept apart for clear calm and other dusks, or for forecasts below and above "
+                "the site's mean minimum",
+     "figures": "'below 0 degC' POD / FAR Greensboro 0.947 / 0.349 and 0.930 / 0.338, Sand Point 0.989 / 0.262 and "
+                "0.979 / 0.252 (shipped 0.947 / 0.341, 0.979 / 0.264); coverage within 2 points: not shipped"},
+    {"variant": "events: 'below 0 degC' decided from the forecast minus a constant q instead of the band's cold edge",
+     "figures": "Sand Point q = 1.0: POD 0.979, FAR 0.148 (q = 0.5: 0.936 / 0.111; 1.5: 0.989 / 0.268). Greensboro: "
+                "q = 1.0 0.877 / 0.206, 2.0 0.930 / 0.243, 3.0 0.947 / 0.341; three of its 57 events were forecast 3.4, "
+                "8.1 and 9.0 degC at dusk (observed -1.7, -1.1, -0.6), so no edge reaches POD 0.95 there below FAR 0.34. "
+                "A separate event edge would also be a second cold edge beside the band's: not shipped"},
 ]
 
 

@@ -17,7 +17,6 @@ from frostwatch.forecast import learner as lm
 from frostwatch.forecast.calibration import (
     NOWCAST_BIN_H,
     NOWCAST_BINS,
-    NOWCAST_METHODS,
     NOWCAST_MIN_SAMPLES,
     PRIOR_BAND_C,
 )
@@ -52,7 +51,7 @@ def test_snapshot_equals_one_solve_at_a_time(tmp_path):
             if want is not None:
                 checked_models += 1
                 assert np.array_equal(want[0], got[0]) and np.array_equal(want[1], got[1]) and want[2] == got[2]
-            avail = NOWCAST_METHODS if got is not None else ("refit", "dusk_curve")
+            avail = learner.nowcast_methods(got is not None)
             w = learner.nc_skill[b].weights(avail)
             assert cal.nc_weights[b] == (tuple(w.items()) if w else None)
             checked_weights += w is not None

@@ -2,8 +2,9 @@
 past nights (`Learner`, `Calibration`, `night_record`). Topics: `sensors` (which sensor speaks,
 values known at an instant), `calibration` (the learned models, skill weights and band),
 `learner` (the calibration learned night by night), `ridge` (ridge regression from moment
-matrices), `nowcast` (tonight's cooling as features), `projection` (the projection and what a night
-did), `inversion` (tower minus crop height).
+matrices), `nowcast` (tonight's cooling as features, and a past night's training points),
+`curves` (Reuter's curve, the evening curve and the threshold crossings), `projection` (the
+projection and what a night did), `inversion` (tower minus crop height).
 """
 
 from frostwatch.forecast.calibration import (
@@ -16,9 +17,10 @@ from frostwatch.forecast.calibration import (
     NightRecord,
     feature_vector,
 )
+from frostwatch.forecast.curves import crossing_time
 from frostwatch.forecast.learner import Learner, fit_calibration
 from frostwatch.forecast.nowcast import feature_matrix, features_at
-from frostwatch.forecast.projection import crossing_time, night_record, night_records, prior_c, project_block
+from frostwatch.forecast.projection import night_record, night_records, prior_c, project_block
 from frostwatch.forecast.sensors import (
     STUCK_MIN_READINGS,
     STUCK_WINDOW_S,

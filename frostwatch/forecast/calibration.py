@@ -22,7 +22,7 @@ from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C
 FEATURES = ("T0", "Td0", "cloud0", "wind0", "wind_trend0", "pressure_trend0")
 NOWCAST_FEATURES = ("sqrt_curve_drop", "sqrt_hours_left", "recent_slope_x_hours_left", "wind", "cloud", "depression")
 DUSK_METHODS = ("regression", "drop_regression", "prior", "evening_curve")
-NOWCAST_METHODS = ("learned", "refit", "dusk_curve")
+NOWCAST_METHODS = ("learned", "refit", "dusk_curve", "naive")
 
 PRIOR_BAND_C = 2.0  # 1-sigma uncertainty of the physics prior before any calibration
 RIDGE_LAMBDA = 2.0  # ridge penalty on the standardised dusk regression slopes
@@ -58,6 +58,8 @@ BAND_FROM_QUANTILES = True  # False: a normal band from the residuals' spread (b
 BAND_PER_SQRT_HOUR = True  # dusk band residuals scaled by sqrt(hours to sunrise) (benchmark variant)
 INVERSION_MEMORY = 30  # clear calm nights whose inversion at the minimum is kept (the most recent)
 COLD_EVENING_WEIGHT = 0.75  # share of the evening curve beside the prior while no regression exists
+USE_NAIVE = True  # the naive fall (the mean fall over the 2 h before past nights' minima) enters the nowcast blend
+NAIVE_WHEN_COOLING = False  # True: the naive fall only while the last 2 h cooled (benchmark variant)
 
 
 def dusk_regime(x: tuple[float, ...]) -> str:
@@ -110,6 +112,7 @@ class NightRecord:
     t0_pressure_trend_hpa: float | None = None
     evening_curve_c: float | None = None
     inversion_at_min_c: float | None = None  # tower minus crop height at the observed minimum
+    fall_before_min_c: float | None = None  # the reading 2 h before the observed minimum, minus it
 
     @property
     def features(self) -> tuple[float, ...]:
@@ -133,10 +136,11 @@ class Calibration:
     on the nights seen so far. Once both have been scored on a few nights they are blended by
     their recent skill (weights ~ 1 / mean squared error).
 
-    Nowcast: the fall still to come from the latest reading, from three methods blended by their
+    Nowcast: the fall still to come from the latest reading, from four methods blended by their
     recent skill at the same hours left to sunrise: a ridge regression on `NOWCAST_FEATURES`
-    learned per hour left, tonight's square-root curve re-fitted since t0 (Reuter), and the dusk
-    curve.
+    learned per hour left, tonight's square-root curve re-fitted since t0 (Reuter), the dusk
+    curve, and the naive fall (the mean fall over the 2 h before the minimum of the nights
+    learned).
 
     Band: the 10 % and 90 % points of the recent walk-forward errors of the same forecast (at
     dusk, or at the same hours left), a normal band from the prior's spread until enough are known.
@@ -159,6 +163,7 @@ class Calibration:
     nc_weights: tuple = (None,) * NOWCAST_BINS  # per bin: ((method, weight), ...) or None
     nc_bands: tuple = ()  # per bin: (low, high, n)
     mean_min_c: float = 0.0
+    naive_fall_c: float | None = None  # the mean fall over the 2 h before the minimum of the nights learned
     dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
     # the inversion at the minimum of the recent clear calm nights learned (no protection running):
     # their median and how many (`frostwatch.forecast.inversion`, the site-history projection)
@@ -269,11 +274,23 @@ class Calibration:
         mu, coefs, mean = model
         return min(0.0, mean + float(np.dot(coefs, np.asarray(f) - mu)))
 
+    def naive_drop_c(self, f: tuple[float, ...]) -> float | None:
+        """The naive method's fall still to come: minus the mean fall over the 2 h before the
+        minimum of the nights learned (None before any)."""
+        if self.naive_fall_c is None:
+            return None
+        if NAIVE_WHEN_COOLING and f[2] >= 0.0:
+            return 0.0
+        return -self.naive_fall_c
+
     def nowcast_drop_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float
     ) -> tuple[float, str]:
         """The blended fall still to come (<= 0) and which methods spoke."""
         comps = {"refit": min(0.0, f[0]), "dusk_curve": min(0.0, dusk_curve_drop_c)}
+        naive = self.naive_drop_c(f)
+        if naive is not None and USE_NAIVE:
+            comps["naive"] = naive
         learned = self.learned_drop_c(f, hours_left)
         if learned is not None:
             comps["learned"] = learned

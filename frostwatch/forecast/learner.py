@@ -48,6 +48,7 @@ from frostwatch.forecast.calibration import (
     SKILL_MIN_SCORED,
     SKILL_SHRINK,
     T0_STRATUM_C,
+    USE_NAIVE,
     Calibration,
     NightRecord,
     dusk_regime,
@@ -230,6 +231,8 @@ class Learner:
         self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
         self.nc_skill = [_Skill(NOWCAST_METHODS) for _ in range(NOWCAST_BINS)]
         self.nc_residuals = [_Window(BAND_MEMORY) for _ in range(NOWCAST_BINS)]
+        self.fall_sum_c = 0.0  # the fall over the 2 h before each learned night's minimum (the naive nowcast)
+        self.fall_n = 0
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
         self._bins: list = [None] * NOWCAST_BINS  # per bin (model, weights, band) as last snapshot; None: changed
@@ -263,6 +266,9 @@ class Learner:
             dusk_drop = b_dusk * (math.sqrt(h) - math.sqrt(el))
             b = nowcast_bin(hl)
             errs = {"refit": min(0.0, f[0]) - drop, "dusk_curve": min(0.0, dusk_drop) - drop}
+            naive = cal.naive_drop_c(f)
+            if naive is not None:
+                errs["naive"] = naive - drop
             learned = cal.learned_drop_c(f, hl)
             if learned is not None:
                 errs["learned"] = learned - drop
@@ -283,6 +289,11 @@ class Learner:
         self.dusk_strata[stratum] = self.dusk_strata.get(stratum, 0.0) + zz
         zd = np.concatenate([[1.0], x, [rec.observed_min_c - rec.t0_temp_c]])
         self.drop_m += np.outer(zd, zd)
+        if rec.fall_before_min_c is not None and math.isfinite(rec.fall_before_min_c):
+            self.fall_sum_c += rec.fall_before_min_c
+            self.fall_n += 1
+            if self.fall_n == 1:  # every bin may now blend the naive fall
+                self._bins = [None] * NOWCAST_BINS
         self.sum_sqrt_h += math.sqrt(h)
         self.sum_min_c += rec.observed_min_c
         self.n += 1
@@ -291,6 +302,11 @@ class Learner:
             self.inversions.append(rec.inversion_at_min_c)
         self._cal = None
         return True
+
+    def nowcast_methods(self, learned: bool) -> tuple[str, ...]:
+        """The nowcast methods an hours-left bin blends: the learned one once its bin has a model,
+        the naive fall once a past night has given one."""
+        return tuple(k for k in NOWCAST_METHODS if (k != "learned" or learned) and (k != "naive" or (self.fall_n and USE_NAIVE)))
 
     def calibration(self) -> Calibration:
         if self._cal is None:
@@ -321,6 +337,8 @@ class Learner:
             fit = drop_fit
             if fit is not None:
                 out["drop_model"] = (fit[0], fit[1], fit[2])
+        if self.fall_n:
+            out["naive_fall_c"] = self.fall_sum_c / self.fall_n
         weights = []
         if n >= MIN_REGRESSION_NIGHTS:
             regimes = sorted(self.dusk_skill.items())
@@ -345,8 +363,7 @@ class Learner:
         models = dict.fromkeys(changed)
         if ready:
             models.update(zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True))
-        weights = _weights_many([(self.nc_skill[b], NOWCAST_METHODS if models[b] is not None else ("refit", "dusk_curve"))
-                                 for b in changed])
+        weights = _weights_many([(self.nc_skill[b], self.nowcast_methods(models[b] is not None)) for b in changed])
         for b, w in zip(changed, weights, strict=True):
             band = _band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
             self._bins[b] = (models[b], tuple(w.items()) if w else None, band)

@@ -1,5 +1,8 @@
 """Tonight's cooling so far, as features of the nowcast: one function for the live projection and
 for the training points of past nights, so both see the same thing (vectorised over instants).
+Also what a finished night gives the nowcast to learn from: its training points
+(`training_samples`) and the fall over the 2 h before its minimum (`fall_before_min_c`, the naive
+method's).
 """
 
 from __future__ import annotations
@@ -8,11 +11,15 @@ import math
 
 import numpy as np
 
-from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C
+from frostwatch.config import Config, Station
+from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C, INPUT_WINDOW_S, Series, means_as_of
+from frostwatch.physics import humidity
 
 RECENT_SLOPE_S = 7200.0  # the recent slope: least squares over the last two hours
 MAX_RECENT_SLOPE_C_H = 0.5
 MIN_ELAPSED_H = 0.05  # readings closer than this to t0 do not enter the square-root re-fit
+NOWCAST_SAMPLE_STEP_S = 1800.0  # one training point per half hour of a past night
+NOWCAST_START_S = 1800.0  # the nowcast's training points start half an hour after t0
 
 
 def feature_matrix(
@@ -107,3 +114,52 @@ def _features_at_via_matrix(
     if not ok[0]:
         return None
     return float(latest[0]), tuple(float(v) for v in feats[0])
+
+
+NAIVE_LEAD_S = 7200.0  # the naive nowcast's fall: over the 2 h before a past night's minimum
+
+
+def fall_before_min_c(t_s: np.ndarray, v_c: np.ndarray, min_s: float, min_c: float, t0_s: float) -> float | None:
+    """The reading `NAIVE_LEAD_S` before a night's minimum minus the minimum (interpolated), or
+    None when that is before t0."""
+    at_s = min_s - NAIVE_LEAD_S
+    if at_s < t0_s:
+        return None
+    return float(np.interp(at_s, t_s, v_c)) - min_c
+
+
+def training_samples(
+    cfg: Config, series: Series, station: str, stations: list[Station], t: np.ndarray, v: np.ndarray,
+    t0_s: float, t0_c: float, sunrise_s: float, end_s: float,
+) -> tuple[tuple[tuple[float, ...], float], ...]:
+    """Training points for the nowcast: the first reading at or after each half hour from t0 +
+    30 min to sunrise, the features as known then and the fall still to come (the minimum from
+    then to `end_s`, minus the reading then). Built from arrays, no loop over readings."""
+    i_end = int(np.searchsorted(t, end_s, side="right"))
+    grid = np.arange(t0_s + NOWCAST_START_S, sunrise_s + 1.0, NOWCAST_SAMPLE_STEP_S)
+    idx = np.unique(np.searchsorted(t, grid, side="left"))
+    idx = idx[(idx < i_end) & (t[np.minimum(idx, len(t) - 1)] <= sunrise_s)]
+    if not len(idx):
+        return ()
+    times = t[idx]
+    ids = [s.id for s in stations] + [s.id for s in cfg.stations if s.block is None]
+    wind = means_as_of(series, ids, "wind_speed", times, INPUT_WINDOW_S)
+    cloud = means_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", times, INPUT_WINDOW_S)
+    td = np.full(len(times), np.nan)
+    for sid in [station] + [i for i in ids if i != station]:
+        missing = np.isnan(td)
+        if not missing.any():
+            break
+        d = means_as_of(series, [sid], "dew_point_temperature", times, INPUT_WINDOW_S)
+        rh = means_as_of(series, [sid], "relative_humidity", times, INPUT_WINDOW_S)
+        ta = v[idx] if sid == station else means_as_of(series, [sid], "air_temperature", times, INPUT_WINDOW_S)
+        ok = np.isfinite(rh) & np.isfinite(ta)
+        from_rh = np.full(len(times), np.nan)
+        if ok.any():
+            from_rh[ok] = np.asarray(humidity.dew_point_c_from_rel_humidity(ta[ok], np.clip(rh[ok], 1.0, 100.0)), dtype=float)
+        td = np.where(missing, np.where(np.isfinite(d), d, from_rh), td)
+    latest, feats, ok = feature_matrix(t, v, t0_s, t0_c, sunrise_s, times, wind, cloud, td)
+    tail_min = np.minimum.accumulate(v[: i_end][::-1])[::-1]
+    drops = tail_min[idx] - v[idx]
+    rows, falls = feats.tolist(), drops.tolist()
+    return tuple((tuple(rows[k]), falls[k]) for k in np.nonzero(ok)[0].tolist())

@@ -2,6 +2,9 @@
 of the stage's critical temperatures. Pure: readings, config, a calibration and an injected `now`
 in, a `Projection` out. Also what a finished night did (`night_record`), for the calibration.
 
+The curves and their crossings are in `forecast.curves`; a past night's nowcast training points
+are `forecast.nowcast`'s.
+
 The dusk forecast follows FAO-FP ch. 5 (Snyder & de Melo-Abreu 2005): at t0 = sunset + 2 h the
 night minimum comes from the site's regression on what is known then, or from the physics prior
 (`frostwatch.physics.clear_night_prior.clear_night_minimum_prior_c`) while the site is still learning (see
@@ -19,12 +22,18 @@ import math
 
 import numpy as np
 
-from frostwatch import drying
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config, Station
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import PROTECTION_QUANTITIES, Calibration, NightRecord, feature_vector
-from frostwatch.forecast.nowcast import feature_matrix, features_at
+from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
+    _utc,
+    block_crossings,
+    crossing_time,
+    evening_curve_c,
+    sqrt_curve_c,
+)
+from frostwatch.forecast.nowcast import fall_before_min_c, features_at, training_samples
 from frostwatch.forecast.sensors import (
     ASSUMED_DEPRESSION_C,
     INPUT_WINDOW_S,
@@ -34,7 +43,6 @@ from frostwatch.forecast.sensors import (
     dew_point_of,
     dusk_inputs,
     mean_as_of,
-    means_as_of,
     speaking_station,
     station_state,
     usual_interval_s,
@@ -48,8 +56,6 @@ RADIATION_NIGHT_WIND_M_S = 2.0  # a past night is a radiation night if its mean 
 RADIATION_NIGHT_CLOUD_FRAC = 0.3  # ... and its cloud never above this (FAO-FP ch. 5 usage)
 CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is flagged as not holding
 GRID_STEP_S = 300.0
-NOWCAST_SAMPLE_STEP_S = 1800.0  # one training point per half hour of a past night
-NOWCAST_START_S = 1800.0  # the nowcast's training points start half an hour after t0
 MIN_BAND_C = 0.3
 
 
@@ -84,52 +90,6 @@ def prime_priors(inputs: list[tuple[float, ...]]) -> None:
     values = clear_night_prior.clear_night_minimum_prior_c(*np.array(keys, dtype=float).T)
     _PRIMED.clear()
     _PRIMED.update(zip(keys, values.tolist(), strict=True))
-
-
-def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
-    """First time the curve is at or below the threshold, interpolated; None if it never is."""
-    below = np.nonzero(curve_c <= threshold_c)[0]
-    if len(below) == 0:
-        return None
-    i = int(below[0])
-    if i == 0:
-        return float(grid_s[0])
-    c0, c1 = curve_c[i - 1], curve_c[i]
-    f = (c0 - threshold_c) / (c0 - c1) if c0 != c1 else 1.0
-    return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
-
-
-@functools.lru_cache(maxsize=16384)
-def _utc_second(t_s: int) -> dt.datetime:
-    # a night's grid instants recur from one evaluation to the next: made once each
-    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
-
-
-def _utc(t_s: float | None) -> dt.datetime | None:
-    return None if t_s is None else _utc_second(round(t_s))
-
-
-EVENING_FROM_S = 3600.0  # the evening curve is fitted to readings from an hour before sunset
-
-
-def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float) -> float | None:
-    """Tonight's evening cooling carried to sunrise: T = a + b sqrt(t - sunset) fitted by least
-    squares to the readings from an hour before sunset to t0 (time before sunset counts as 0),
-    b <= 0, and the fall b (sqrt(sunrise - sunset) - sqrt(t0 - sunset)) added to T0. Reuter's
-    curve from the evening itself, known at dusk before any past night; None with fewer than 3
-    readings."""
-    i0 = int(np.searchsorted(t_s, sunset_s - EVENING_FROM_S, side="left"))
-    i1 = int(np.searchsorted(t_s, t0_s, side="right"))
-    if i1 - i0 < 3:
-        return None
-    x = np.sqrt(np.maximum(0.0, (t_s[i0:i1] - sunset_s) / 3600.0))
-    y = v_c[i0:i1]
-    xm = x.mean()
-    den = float(np.sum((x - xm) ** 2))
-    if den <= 1e-9:
-        return None
-    b = min(0.0, float(np.sum((x - xm) * (y - y.mean())) / den))
-    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
 
 
 def _learning_note(cal: Calibration) -> str | None:
@@ -252,16 +212,10 @@ def project_block(
     e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
     span = math.sqrt(h_from_t0) - e_now
 
-    def sqrt_curve(target_c: float) -> np.ndarray:
-        """From the air now to `target_c` at sunrise on the square-root clock since t0."""
-        if span <= 0.05:
-            return np.full(len(grid_s), min(anchor_c, target_c))
-        return anchor_c + (min(target_c, anchor_c) - anchor_c) / span * (e_grid - e_now)
-
     band_low_c = tp_c + min(lo_off, -MIN_BAND_C / 2)
     band_high_c = tp_c + max(hi_off, MIN_BAND_C / 2)
-    curve = sqrt_curve(tp_c)
-    cold_curve = sqrt_curve(band_low_c)
+    curve = sqrt_curve_c(tp_c, anchor_c, e_grid, e_now, span)
+    cold_curve = sqrt_curve_c(band_low_c, anchor_c, e_grid, e_now, span)
 
     wet_c = None
     td_trend = td_at_start = None  # the dew point's fall tonight, for sprinkler blocks (below)
@@ -282,30 +236,9 @@ def project_block(
         i = int(np.argmin(curve))
         tmin_c = float(curve[i])
         tmin_at = _utc(float(grid_s[i]))
-        thresholds = {"t10_margin": block.kill_10pct_c + block.margin_c, "t10": block.kill_10pct_c, "t90": block.kill_90pct_c}
-        for k, thr in thresholds.items():
-            crossings[k] = _utc(crossing_time(grid_s, curve, thr))
-            crossings[f"{k}_cold_edge"] = _utc(crossing_time(grid_s, cold_curve, thr))
-        if td_c is not None and block.protection in SPRINKLER_METHODS:
-            # the wet-bulb crossings follow tonight's dew point as it falls (frostwatch.drying):
-            # at each grid point the air temperature whose wet bulb is the threshold, at that
-            # point's projected dew point, in closed form (ASHRAE eqs. 33/35)
-            wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
-            wet_c = wet_c if math.isfinite(wet_c) else None
-            hist = drying.dew_point_history(series, [speaker.station] + [s.station for s in states + site_states
-                                                                          if s is not speaker], now_s)
-            td_trend = None if hist is None else drying.dew_point_trend_c_per_h(hist[0], hist[1], now_s)
-            fall = drying.projected_fall_c_per_h(td_trend)
-            td_curve = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, curve)
-            td_cold = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, cold_curve)
-            keys = ("wet_bulb_t10_margin", "wet_bulb_t10")
-            thr = [thresholds["t10_margin"], thresholds["t10"]]
-            found = drying.wet_bulb_crossings_s(grid_s, [curve, cold_curve] * 2, [td_curve, td_cold] * 2,
-                                                [thr[0], thr[0], thr[1], thr[1]], p_hpa)  # one solve for the four
-            for k, key in enumerate(keys):
-                crossings[key], crossings[f"{key}_cold_edge"] = _utc(found[2 * k]), _utc(found[2 * k + 1])
-            at = crossings["wet_bulb_t10_margin"] or tmin_at
-            td_at_start = float(np.interp(at.timestamp(), grid_s, td_curve)) if at is not None else td_c
+        dew_point_stations = [speaker.station] + [s.station for s in states + site_states if s is not speaker]
+        crossings, wet_c, td_trend, td_at_start = block_crossings(
+            block, grid_s, curve, cold_curve, tmin_at, air_c, td_c, p_hpa, series, dew_point_stations, now_s)
 
     # inversion: tower minus crop height, now and projected to the minimum; a block without a
     # tower of its own uses the nearest (or the site-wide) one (frostwatch.towers)
@@ -450,9 +383,10 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
         t0_wind_trend_m_s=di.wind_trend_m_s,
         t0_pressure_trend_hpa=di.pressure_trend_hpa,
         evening_curve_c=evening_curve_c(t, v, sunset_s, dusk_s, di.temp_c, sunrise_s),
-        nowcast_samples=_nowcast_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
+        nowcast_samples=training_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
         protected=_protected(series, stations, dusk_s - 3600.0, end_s),
         inversion_at_min_c=inv_at_min,
+        fall_before_min_c=fall_before_min_c(t, v, float(tw[i]), float(vw[i]), dusk_s),
     ), (di.temp_c, x[1], h, x[3], x[2], p_hpa)
 
 
@@ -466,40 +400,3 @@ def _inversion_at_s(block: Block, cfg: Config, series: Series, t_s: float, air_c
         return None
     tower_c = as_of(series, choice.station, "air_temperature", t_s, 900.0, extrapolate=False)
     return None if tower_c is None else round(tower_c - air_c, 2)
-
-
-def _nowcast_samples(
-    cfg: Config, series: Series, station: str, stations: list[Station], t: np.ndarray, v: np.ndarray,
-    t0_s: float, t0_c: float, sunrise_s: float, end_s: float,
-) -> tuple[tuple[tuple[float, ...], float], ...]:
-    """Training points for the nowcast: the first reading at or after each half hour from t0 +
-    30 min to sunrise, the features as known then and the fall still to come (the minimum from
-    then to `end_s`, minus the reading then). Built from arrays, no loop over readings."""
-    i_end = int(np.searchsorted(t, end_s, side="right"))
-    grid = np.arange(t0_s + NOWCAST_START_S, sunrise_s + 1.0, NOWCAST_SAMPLE_STEP_S)
-    idx = np.unique(np.searchsorted(t, grid, side="left"))
-    idx = idx[(idx < i_end) & (t[np.minimum(idx, len(t) - 1)] <= sunrise_s)]
-    if not len(idx):
-        return ()
-    times = t[idx]
-    ids = [s.id for s in stations] + [s.id for s in cfg.stations if s.block is None]
-    wind = means_as_of(series, ids, "wind_speed", times, INPUT_WINDOW_S)
-    cloud = means_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", times, INPUT_WINDOW_S)
-    td = np.full(len(times), np.nan)
-    for sid in [station] + [i for i in ids if i != station]:
-        missing = np.isnan(td)
-        if not missing.any():
-            break
-        d = means_as_of(series, [sid], "dew_point_temperature", times, INPUT_WINDOW_S)
-        rh = means_as_of(series, [sid], "relative_humidity", times, INPUT_WINDOW_S)
-        ta = v[idx] if sid == station else means_as_of(series, [sid], "air_temperature", times, INPUT_WINDOW_S)
-        ok = np.isfinite(rh) & np.isfinite(ta)
-        from_rh = np.full(len(times), np.nan)
-        if ok.any():
-            from_rh[ok] = np.asarray(humidity.dew_point_c_from_rel_humidity(ta[ok], np.clip(rh[ok], 1.0, 100.0)), dtype=float)
-        td = np.where(missing, np.where(np.isfinite(d), d, from_rh), td)
-    latest, feats, ok = feature_matrix(t, v, t0_s, t0_c, sunrise_s, times, wind, cloud, td)
-    tail_min = np.minimum.accumulate(v[: i_end][::-1])[::-1]
-    drops = tail_min[idx] - v[idx]
-    rows, falls = feats.tolist(), drops.tolist()
-    return tuple((tuple(rows[k]), falls[k]) for k in np.nonzero(ok)[0].tolist())

@@ -1,0 +1,112 @@
+"""A block's night as curves and where they cross: Reuter's square-root curve from the air now to
+the projected minimum at sunrise, tonight's evening cooling carried to sunrise, and the times the
+curve (and its cold edge) reach the stage's critical temperatures, in air or, for sprinkler
+blocks, in wet bulb as tonight's dew point falls. Pure functions of arrays; `projection.py`
+wires them.
+
+Reuter's law: T(t) = T0 + b' sqrt(t - t0) (Reuter 1951, in FAO-FP ch. 5, Snyder & de Melo-Abreu
+2005).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import functools
+import math
+
+import numpy as np
+
+from frostwatch import drying
+from frostwatch.config import SPRINKLER_METHODS, Block
+from frostwatch.forecast.sensors import Series
+from frostwatch.physics import humidity
+
+EVENING_FROM_S = 3600.0  # the evening curve is fitted to readings from an hour before sunset
+
+
+@functools.lru_cache(maxsize=16384)
+def _utc_second(t_s: int) -> dt.datetime:
+    # a night's grid instants recur from one evaluation to the next: made once each
+    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
+
+
+def _utc(t_s: float | None) -> dt.datetime | None:
+    return None if t_s is None else _utc_second(round(t_s))
+
+
+def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
+    """First time the curve is at or below the threshold, interpolated; None if it never is."""
+    below = np.nonzero(curve_c <= threshold_c)[0]
+    if len(below) == 0:
+        return None
+    i = int(below[0])
+    if i == 0:
+        return float(grid_s[0])
+    c0, c1 = curve_c[i - 1], curve_c[i]
+    f = (c0 - threshold_c) / (c0 - c1) if c0 != c1 else 1.0
+    return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
+
+
+def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float) -> float | None:
+    """Tonight's evening cooling carried to sunrise: T = a + b sqrt(t - sunset) fitted by least
+    squares to the readings from an hour before sunset to t0 (time before sunset counts as 0),
+    b <= 0, and the fall b (sqrt(sunrise - sunset) - sqrt(t0 - sunset)) added to T0. Reuter's
+    curve from the evening itself, known at dusk before any past night; None with fewer than 3
+    readings."""
+    i0 = int(np.searchsorted(t_s, sunset_s - EVENING_FROM_S, side="left"))
+    i1 = int(np.searchsorted(t_s, t0_s, side="right"))
+    if i1 - i0 < 3:
+        return None
+    x = np.sqrt(np.maximum(0.0, (t_s[i0:i1] - sunset_s) / 3600.0))
+    y = v_c[i0:i1]
+    xm = x.mean()
+    den = float(np.sum((x - xm) ** 2))
+    if den <= 1e-9:
+        return None
+    b = min(0.0, float(np.sum((x - xm) * (y - y.mean())) / den))
+    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
+
+
+def sqrt_curve_c(target_c: float, anchor_c: float, e_grid: np.ndarray, e_now: float, span: float) -> np.ndarray:
+    """From the air now (`anchor_c`) to `target_c` at sunrise on the square-root clock since t0:
+    `e_grid` and `e_now` are sqrt(hours since t0) at the grid's instants and now, `span` the
+    clock's run from now to sunrise (Reuter's curve through the air now)."""
+    if span <= 0.05:
+        return np.full(len(e_grid), min(anchor_c, target_c))
+    return anchor_c + (min(target_c, anchor_c) - anchor_c) / span * (e_grid - e_now)
+
+
+def block_crossings(
+    block: Block, grid_s: np.ndarray, curve_c: np.ndarray, cold_curve_c: np.ndarray, tmin_at: dt.datetime | None,
+    air_c: float, td_c: float | None, p_hpa: float, series: Series, dew_point_stations: list[str], now_s: float,
+) -> tuple[dict[str, dt.datetime | None], float | None, float | None, float | None]:
+    """(crossings, wet bulb now, dew point trend, dew point at the wet-bulb start) of a block's
+    projected night: when the curve and its cold edge reach T10 + margin, T10 and T90 and, for a
+    sprinkler block with a dew point, when their wet bulb reaches T10 + margin and T10.
+
+    The wet-bulb crossings follow tonight's dew point as it falls (`frostwatch.drying`): at each
+    grid point the air temperature whose wet bulb is the threshold, at that point's projected dew
+    point, in closed form (ASHRAE eqs. 33/35)."""
+    thresholds = {"t10_margin": block.kill_10pct_c + block.margin_c, "t10": block.kill_10pct_c, "t90": block.kill_90pct_c}
+    crossings: dict[str, dt.datetime | None] = {}
+    for k, thr in thresholds.items():
+        crossings[k] = _utc(crossing_time(grid_s, curve_c, thr))
+        crossings[f"{k}_cold_edge"] = _utc(crossing_time(grid_s, cold_curve_c, thr))
+    wet_c = td_trend = td_at_start = None
+    if td_c is not None and block.protection in SPRINKLER_METHODS:
+        wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))
+        wet_c = wet_c if math.isfinite(wet_c) else None
+        hist = drying.dew_point_history(series, dew_point_stations, now_s)
+        td_trend = None if hist is None else drying.dew_point_trend_c_per_h(hist[0], hist[1], now_s)
+        fall = drying.projected_fall_c_per_h(td_trend)
+        td_curve = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, curve_c)
+        td_cold = drying.projected_dew_point_c(grid_s, now_s, td_c, fall, cold_curve_c)
+        keys = ("wet_bulb_t10_margin", "wet_bulb_t10")
+        thr = [thresholds["t10_margin"], thresholds["t10"]]
+        found = drying.wet_bulb_crossings_s(grid_s, [curve_c, cold_curve_c] * 2, [td_curve, td_cold] * 2,
+                                            [thr[0], thr[0], thr[1], thr[1]], p_hpa)  # one solve for the four
+        for k, key in enumerate(keys):
+            crossings[key], crossings[f"{key}_cold_edge"] = _utc(found[2 * k]), _utc(found[2 * k + 1])
+        at = crossings["wet_bulb_t10_margin"] or tmin_at
+        td_at_start = float(np.interp(at.timestamp(), grid_s, td_curve)) if at is not None else td_c
+    return crossings, wet_c, td_trend, td_at_start
