@@ -1,7 +1,7 @@
 """The variants tried for the projection (issue 15), each measured by bench/forecast_skill.py on the
 same three open years, as a change from what ships; writes bench/results/forecast_variants.json.
 
-    python -m bench.forecast_variants          (about 2 minutes; not part of `python -m bench`)
+    python -m bench.forecast_variants          (about 5 minutes at load 2-5; not part of `python -m bench`)
 
 Each variant sets module constants of `frostwatch.forecast.calibration` (and of
 `forecast.learner`, which imports those it uses) for the run and restores them. Figures per
