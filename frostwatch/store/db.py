@@ -8,6 +8,12 @@ each read in a SAVEPOINT, which on a shared connection let another thread's BEGI
 inside it: "cannot start a transaction within a transaction"). Raises `StoreError` when the file
 cannot be opened or migrated; `damaged_message` words a damaged file for the command line.
 
+Several processes may create one new store at the same moment (the daemon and the status page both
+start at boot): `PRAGMA journal_mode=WAL` can fail at once with "database is locked" while another
+process switches the new file to WAL (SQLite's busy handler does not cover that switch), so the
+switch and the first migrations are retried with a bounded backoff (`OPEN_RETRY_S`), and a store
+still locked after that is refused with one sentence naming it (tests/test_store_first_open.py).
+
 Upgrading in place: an older store is migrated when it is opened, every row kept (the schema
 version is PRAGMA user_version); a store written by a newer frostwatch is refused before anything
 is written to it (tests/test_upgrade.py, with a store made by 0.1.0).
@@ -17,8 +23,10 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import random
 import sqlite3
 import threading
+import time
 from collections.abc import Iterable, Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -45,6 +53,11 @@ OPENED: list[Path] = []
 # pages halve the bytes per commit against SQLite's 4 KiB default (bench/storage.py). A store
 # made before keeps its page size (changing it means rewriting the whole file).
 PAGE_SIZE_BYTES = 1024
+
+# How long opening a store keeps retrying the WAL switch and the migrations while another process
+# holds the file ("database is locked"), and the longest pause between two tries.
+OPEN_RETRY_S = 10.0
+OPEN_RETRY_MAX_PAUSE_S = 0.2
 
 
 class Store(ReadingsTable):
@@ -79,12 +92,13 @@ class Store(ReadingsTable):
             try:
                 if new:  # small pages: each commit rewrites fewer bytes of the SD card (bench/storage.py)
                     conn.execute(f"PRAGMA page_size={PAGE_SIZE_BYTES}")
-                conn.execute("PRAGMA journal_mode=WAL")
+                retry = _LockRetry(p)
+                retry.run("switch it to WAL", lambda: conn.execute("PRAGMA journal_mode=WAL"))
                 conn.execute(f"PRAGMA synchronous={synchronous}")
                 conn.execute("PRAGMA busy_timeout=10000")
                 conn.execute("PRAGMA foreign_keys=ON")
                 store = cls(conn, p)
-                store.migrate()
+                retry.run("create or upgrade its tables", store.migrate)
             except BaseException:
                 conn.close()
                 raise
@@ -245,6 +259,42 @@ class Store(ReadingsTable):
     def integrity_ok(self) -> bool:
         with self.lock:
             return self.conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+
+
+def is_locked(exc: BaseException) -> bool:
+    """SQLITE_BUSY or SQLITE_LOCKED (any extended code): another connection holds the file."""
+    code = getattr(exc, "sqlite_errorcode", None)
+    if code is not None:
+        return code & 0xFF in (sqlite3.SQLITE_BUSY, sqlite3.SQLITE_LOCKED)
+    text = str(exc).lower()
+    return isinstance(exc, sqlite3.OperationalError) and ("locked" in text or "busy" in text)
+
+
+class _LockRetry:
+    """Retries a step of opening a store while another process holds the file, with a growing pause
+    (jittered),
+    until OPEN_RETRY_S have passed since the first try (one budget for all the steps)."""
+
+    def __init__(self, path: Path):
+        self.path = path
+        self.deadline = time.monotonic() + OPEN_RETRY_S
+        self.pause_s = 0.005
+
+    def run(self, what: str, step):
+        while True:
+            try:
+                return step()
+            except sqlite3.OperationalError as exc:
+                if not is_locked(exc):
+                    raise
+                left_s = self.deadline - time.monotonic()
+                if left_s <= 0:
+                    raise StoreError(
+                        f"{self.path}: cannot open the store: could not {what} because another process "
+                        f"kept it locked for {OPEN_RETRY_S:g} s (SQLite: {exc}); stop the other "
+                        "frostwatch command or daemon using this file and try again") from None
+                time.sleep(min(self.pause_s * random.uniform(0.5, 1.0), left_s))  # jitter: no lockstep
+                self.pause_s = min(self.pause_s * 2, OPEN_RETRY_MAX_PAUSE_S)
 
 
 def sql_statements(script: str) -> list[str]:
