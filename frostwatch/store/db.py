@@ -85,14 +85,14 @@ class Store(ReadingsTable):
         p = Path(path)
         try:
             new = not p.exists() or p.stat().st_size == 0
-            if not new:
-                _refuse_newer_schema(p)  # read-only, before a pragma could write to it
+            retry = _LockRetry(p)
+            if not new:  # read-only, before a pragma could write to it
+                retry.run("read its schema version", lambda: _refuse_newer_schema(p))
             p.parent.mkdir(parents=True, exist_ok=True)
             conn = sqlite3.connect(str(p), timeout=10.0, check_same_thread=False, isolation_level=None)
             try:
                 if new:  # small pages: each commit rewrites fewer bytes of the SD card (bench/storage.py)
                     conn.execute(f"PRAGMA page_size={PAGE_SIZE_BYTES}")
-                retry = _LockRetry(p)
                 retry.run("switch it to WAL", lambda: conn.execute("PRAGMA journal_mode=WAL"))
                 conn.execute(f"PRAGMA synchronous={synchronous}")
                 conn.execute("PRAGMA busy_timeout=10000")
