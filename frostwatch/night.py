@@ -1,26 +1,36 @@
 """Which night an instant belongs to, and that night's sunset, dusk point and sunrise (pure).
 
 A night is named by the local date of its evening (DESIGN.md 1.4). Local noon separates nights.
+Where the Sun does not set or rise (a site in the Arctic or Antarctic), the night keeps clear
+stand-in instants (physics/sun.py) and says so: `sun_times_words` puts it in plain words.
 """
 
 from __future__ import annotations
 
 import datetime as dt
+from collections.abc import Callable
 from dataclasses import dataclass
 from zoneinfo import ZoneInfo
 
-from frostwatch.physics.sun import night_window_utc, night_windows_utc
+from frostwatch.physics.sun import POLAR_DAY, POLAR_NIGHT, sun_night_utc, sun_nights_utc
 
 DUSK_OFFSET = dt.timedelta(hours=2)  # FAO-FP ch. 5: the forecast is issued 2 h after sunset
 
 
 @dataclass(frozen=True)
 class Night:
-    """One night at the site: evening date, sunset, dusk point (sunset + 2 h) and next sunrise."""
+    """One night at the site: evening date, sunset, dusk point (sunset + 2 h) and next sunrise.
+
+    `no_sunset` / `no_sunrise` are "" when the Sun sets that evening / rises next morning, else
+    why not (physics.sun.POLAR_DAY: it stays up; POLAR_NIGHT: it stays down); the instants are
+    then stand-ins (the solar midnight of a midnight sun, the solar noons of a polar night).
+    """
 
     date: dt.date
     sunset_utc: dt.datetime
     sunrise_utc: dt.datetime
+    no_sunset: str = ""
+    no_sunrise: str = ""
 
     @property
     def dusk_utc(self) -> dt.datetime:
@@ -43,14 +53,15 @@ class Night:
 
 
 def night_of_date(latitude: float, longitude: float, tz: ZoneInfo, evening: dt.date) -> Night:
-    sunset, sunrise = night_window_utc(latitude, longitude, evening, tz)
-    return Night(evening, sunset, sunrise)
+    sun = sun_night_utc(latitude, longitude, evening, tz)
+    return Night(evening, sun.sunset_utc, sun.sunrise_utc, sun.no_sunset, sun.no_sunrise)
 
 
 def nights_of_dates(latitude: float, longitude: float, tz: ZoneInfo, evenings: list[dt.date]) -> list[Night]:
     """`night_of_date` of many evenings at once (a season's sun times in one pass), the same nights."""
-    windows = night_windows_utc(latitude, longitude, evenings, tz)
-    return [Night(d, sunset, sunrise) for d, (sunset, sunrise) in zip(evenings, windows, strict=True)]
+    suns = sun_nights_utc(latitude, longitude, evenings, tz)
+    return [Night(d, sun.sunset_utc, sun.sunrise_utc, sun.no_sunset, sun.no_sunrise)
+            for d, sun in zip(evenings, suns, strict=True)]
 
 
 def evening_date(t_utc: dt.datetime, tz: ZoneInfo) -> dt.date:
@@ -61,3 +72,21 @@ def evening_date(t_utc: dt.datetime, tz: ZoneInfo) -> dt.date:
 
 def night_at(latitude: float, longitude: float, tz: ZoneInfo, t_utc: dt.datetime) -> Night:
     return night_of_date(latitude, longitude, tz, evening_date(t_utc, tz))
+
+
+def sun_times_words(night: Night, time_words: Callable[[dt.datetime], str]) -> str:
+    """The night's sunset and sunrise for a page, in plain words where the Sun does not set or rise.
+
+    "sunset 20:12, sunrise 05:58"; "sun up all night (no sunset, no sunrise)"; "no sunrise today
+    (the sun stays below the horizon)"; or one event and the other's absence. `time_words` writes
+    an instant in the site's clock (Display.time).
+    """
+    if night.no_sunset == POLAR_DAY and night.no_sunrise == POLAR_DAY:
+        return "sun up all night (no sunset, no sunrise)"
+    if night.no_sunset == POLAR_NIGHT and night.no_sunrise == POLAR_NIGHT:
+        return "no sunrise today (the sun stays below the horizon)"
+    evening = {"": f"sunset {time_words(night.sunset_utc)}", POLAR_DAY: "no sunset (sun up all evening)",
+               POLAR_NIGHT: "no sunset (the sun did not rise)"}[night.no_sunset]
+    morning = {"": f"sunrise {time_words(night.sunrise_utc)}", POLAR_DAY: "no sunrise (sun up all morning)",
+               POLAR_NIGHT: "no sunrise in the morning (the sun stays below the horizon)"}[night.no_sunrise]
+    return f"{evening}, {morning}"

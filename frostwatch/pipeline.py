@@ -239,9 +239,12 @@ def _dates_near_readings(times: list[np.ndarray]) -> set[int]:
 def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Evaluation]]:
     """As `run_replay`, one night's evaluations at a time (a season need not be held in memory).
 
-    A night without a single reading of any station from 6 h before its sunset to the end of its
-    morning watch is not evaluated: the logs do not cover it (typical-year files splice months of
-    different years; logs of two springs leave a year between them)."""
+    Evaluations run forward in time, each instant once: where the day is shorter than the morning
+    watch and the hour before sunset (near and in the polar night), the next night starts after
+    the last one's morning watch. A night without a single reading of any station from 6 h before
+    its sunset to the end of its morning watch is not evaluated: the logs do not cover it
+    (typical-year files splice months of different years; logs of two springs leave a year
+    between them)."""
     if not series:
         return
     first = min(float(t[0]) for t, _ in series.values())
@@ -259,10 +262,14 @@ def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Eva
             nights.append(night)  # covered by the logs (a night without any reading is not)
     pending: list[Night] = []
     total = len(nights)
+    last_s = -np.inf
     for k, night in enumerate(nights):
         out: list[Evaluation] = []
         learn_at = night.sunrise_utc.timestamp() + 3600.0
         for now in evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last):
+            if now.timestamp() <= last_s:
+                continue  # a day under 6 h (polar night): the last night's morning watch already ran it
+            last_s = now.timestamp()
             for n in [n for n in pending if now.timestamp() >= n.sunrise_utc.timestamp() + 3600.0]:
                 ev.learn_night(n, series)
                 pending.remove(n)

@@ -170,6 +170,47 @@ def _event_or_stand_in_utc(event_utc: datetime | None, day: SunDay, solar_midnig
     return solar_midnight_utc if day.polar == POLAR_DAY else day.solar_noon_utc
 
 
+@dataclass(frozen=True)
+class SunNight:
+    """A night's sunset and next sunrise (UTC), or their stand-ins, and whether each happens.
+
+    ``no_sunset`` is the empty string when the Sun sets on the evening, else why it does not
+    (:data:`POLAR_DAY`: it stays up; :data:`POLAR_NIGHT`: it did not rise); ``no_sunrise`` the
+    same for the next morning.
+    """
+
+    sunset_utc: datetime
+    sunrise_utc: datetime
+    no_sunset: str
+    no_sunrise: str
+
+
+def sun_night_utc(
+    latitude_deg: float,
+    longitude_deg: float,
+    evening_local_date: date,
+    tz: tzinfo | str,
+) -> SunNight:
+    """The night window of :func:`night_window_utc`, saying where the Sun does not set or rise.
+
+    Parameters and references as :func:`night_window_utc`; the instants are the same.
+    """
+    evening = sun_day_utc(latitude_deg, longitude_deg, evening_local_date, tz)
+    morning = sun_day_utc(latitude_deg, longitude_deg, evening_local_date + timedelta(days=1), tz)
+    return _sun_night(evening, morning)
+
+
+def _sun_night(evening: SunDay, morning: SunDay) -> SunNight:
+    """The night between two Sun days: the evening's sunset, the morning's sunrise or their stand-ins."""
+    # halfway between two solar noons: the equation of time moves under 30 s a day
+    solar_midnight_utc = evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
+    sunset = _event_or_stand_in_utc(evening.sunset_utc, evening, solar_midnight_utc)
+    sunrise = _event_or_stand_in_utc(morning.sunrise_utc, morning, solar_midnight_utc)
+    return SunNight(sunset, max(sunset, sunrise),
+                    "" if evening.sunset_utc is not None else evening.polar,
+                    "" if morning.sunrise_utc is not None else morning.polar)
+
+
 def night_window_utc(
     latitude_deg: float,
     longitude_deg: float,
@@ -214,13 +255,8 @@ def night_window_utc(
     Meeus, J. (1998), Astronomical Algorithms, 2nd ed., Willmann-Bell.
     NOAA Global Monitoring Laboratory, Solar Calculator.
     """
-    evening = sun_day_utc(latitude_deg, longitude_deg, evening_local_date, tz)
-    morning = sun_day_utc(latitude_deg, longitude_deg, evening_local_date + timedelta(days=1), tz)
-    # halfway between two solar noons: the equation of time moves under 30 s a day
-    solar_midnight_utc = evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
-    sunset = _event_or_stand_in_utc(evening.sunset_utc, evening, solar_midnight_utc)
-    sunrise = _event_or_stand_in_utc(morning.sunrise_utc, morning, solar_midnight_utc)
-    return sunset, max(sunset, sunrise)
+    night = sun_night_utc(latitude_deg, longitude_deg, evening_local_date, tz)
+    return night.sunset_utc, night.sunrise_utc
 
 
 def solar_elevation_deg(latitude_deg: float, longitude_deg: float, when_utc: datetime) -> float:
@@ -450,11 +486,11 @@ def sun_days_utc(latitude_deg: float, longitude_deg: float, local_dates: list[da
     return out
 
 
-def night_windows_utc(
+def sun_nights_utc(
     latitude_deg: float, longitude_deg: float, evening_local_dates: list[date], tz: tzinfo | str
-) -> list[tuple[datetime, datetime]]:
-    """:func:`night_window_utc` of many evenings at once, the same results (each date's Sun
-    worked out once, though it ends one night and begins the next).
+) -> list[SunNight]:
+    """:func:`sun_night_utc` of many evenings at once, the same results (each date's Sun worked
+    out once, though it ends one night and begins the next).
 
     References
     ----------
@@ -462,11 +498,17 @@ def night_windows_utc(
     """
     dates = sorted({d for e in evening_local_dates for d in (e, e + timedelta(days=1))})
     days = dict(zip(dates, sun_days_utc(latitude_deg, longitude_deg, dates, tz), strict=True))
-    out = []
-    for e in evening_local_dates:
-        evening, morning = days[e], days[e + timedelta(days=1)]
-        solar_midnight_utc = evening.solar_noon_utc + (morning.solar_noon_utc - evening.solar_noon_utc) / 2
-        sunset = _event_or_stand_in_utc(evening.sunset_utc, evening, solar_midnight_utc)
-        sunrise = _event_or_stand_in_utc(morning.sunrise_utc, morning, solar_midnight_utc)
-        out.append((sunset, max(sunset, sunrise)))
-    return out
+    return [_sun_night(days[e], days[e + timedelta(days=1)]) for e in evening_local_dates]
+
+
+def night_windows_utc(
+    latitude_deg: float, longitude_deg: float, evening_local_dates: list[date], tz: tzinfo | str
+) -> list[tuple[datetime, datetime]]:
+    """:func:`night_window_utc` of many evenings at once, the same results.
+
+    References
+    ----------
+    As :func:`night_window_utc`.
+    """
+    nights = sun_nights_utc(latitude_deg, longitude_deg, evening_local_dates, tz)
+    return [(n.sunset_utc, n.sunrise_utc) for n in nights]

@@ -21,7 +21,7 @@ import numpy as np  # noqa: E402
 from frostwatch.config import Block, Config  # noqa: E402
 from frostwatch.display import MPH_PER_M_S, Display  # noqa: E402
 from frostwatch.forecast import Series  # noqa: E402
-from frostwatch.night import Night  # noqa: E402
+from frostwatch.night import Night, sun_times_words  # noqa: E402
 from frostwatch.physics import humidity, sprinklers, windmachine  # noqa: E402
 from frostwatch.reports.panels import lower_panel  # noqa: E402
 from frostwatch.units import c_to_f, delta_c_to_f  # noqa: E402
@@ -133,8 +133,7 @@ def _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c,
                label=f"T90 {display.temp(block.kill_90pct_c)}")
     line_c = block.kill_10pct_c + block.margin_c
     ax.axhline(_conv(display, line_c), color="salmon", lw=1.2, ls=":", label=f"act line {display.temp(line_c)}")
-    for when in (night.sunset_utc, night.sunrise_utc):
-        ax.axvline(when.astimezone(tz), color="grey", lw=0.8)
+    _sun_lines(ax, night, tz)
     for k, r in enumerate(runs or []):
         stop = r.stop_utc or night.sunrise_utc + dt.timedelta(hours=2)
         what = "protection ran" if r.source == "sensor" else "protection (from acknowledgement)"
@@ -156,17 +155,22 @@ def _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c,
     pad = 0.08 * (hi - lo) + (1.0 if display.unit == "degC" else 2.0)
     ax.set_ylim(lo - pad, hi + pad)  # an early, wide range right after sunset does not squash the night
     ax.set_ylabel(f"temperature ({display.symbol})")
-    ax.set_title(f"{block.id}: night of {night.date}\nsunset {display.time(night.sunset_utc)}, "
-                 f"sunrise {display.time(night.sunrise_utc)}")
+    ax.set_title(f"{block.id}: night of {night.date}\n{sun_times_words(night, display.time)}")
     ax.grid(alpha=0.3)
     _legend_below(ax)
+
+
+def _sun_lines(ax, night: Night, tz) -> None:
+    """Grey lines at sunset and sunrise; none at a stand-in where the Sun does not set or rise."""
+    for when, missing in ((night.sunset_utc, night.no_sunset), (night.sunrise_utc, night.no_sunrise)):
+        if not missing:
+            ax.axvline(when.astimezone(tz), color="grey", lw=0.8)
 
 
 def _lower(ax2, lower, block, cfg, series, night, display, start, end) -> None:
     tz = display.tz
     k = delta_c_to_f(1.0) if display.unit == "degF" else 1.0  # a difference: no 32-degree offset
-    for when in (night.sunset_utc, night.sunrise_utc):
-        ax2.axvline(when.astimezone(tz), color="grey", lw=0.8)
+    _sun_lines(ax2, night, tz)
     if lower.tower is not None:
         crop = [s.id for s in cfg.stations if s.block == cfg.station(lower.tower).block and s.role == "crop"
                 and (s.id, "air_temperature") in series]

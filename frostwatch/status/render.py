@@ -22,6 +22,7 @@ from frostwatch.advice.message import compose
 from frostwatch.advice.render import GENERAL_CAUTIONS, Notice, level_word
 from frostwatch.alerts.levels import LEVELS, level_name, step_for_level
 from frostwatch.display import Display
+from frostwatch.night import sun_times_words
 from frostwatch.status.chart import svg_chart
 from frostwatch.status.style import PAGE_CSS
 from frostwatch.status.web import ago
@@ -129,7 +130,7 @@ def _header(snap: dict) -> str:
         head = (f'<p class="sub" id="summary">Highest level: <b>{e(level_word(worst["level"]))}</b> '
                 f'(block {e(worst["block"])})</p>')
     return (f'<p class="sub">As of <b id="as-of">{d.datetime(now)}</b>; <span id="data-age">{data}</span>; '
-            f"sunset {d.time(snap['night'].sunset_utc)}, sunrise {d.time(snap['night'].sunrise_utc)}.</p>{daemon}{head}")
+            f'<span id="sun">{e(sun_times_words(snap["night"], d.time))}</span>.</p>{daemon}{head}')
 
 
 def render_page(snap: dict, refresh_s: int) -> str:
