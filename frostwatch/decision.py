@@ -4,8 +4,8 @@ Each evaluation (the daemon's and replay's alike) makes one `Decision` per block
 (minimum, time, band, crossings), the level the alert rules hold and its rank, the step shown, the
 advice plan, the monitoring state with its reason, the inputs' times, and `as_of`. The store keeps
 it (`frostwatch.store.decisions`); the status page, `frostwatch status`, the alerts and the morning
-report read it and never compute advice of their own. `frostwatch.status.decision_json` turns one
-into the JSON that `status --json` shows.
+report read it and never compute advice of their own. `frostwatch.status.document.decision_json`
+turns one into the JSON that `status --json` shows.
 
 JSON round trip: `decision_to_doc` / `decision_from_doc` (versioned; an unknown version raises
 ValueError, so a reader never misreads a newer store).

@@ -21,11 +21,11 @@ def cmd_run(args) -> int:
 
 
 def status_doc(cfg, now_utc) -> dict:
-    """The status document of `frostwatch status --json` (frostwatch.status.status_document: every
+    """The status document of `frostwatch status --json` (frostwatch.status.document.status_document: every
     block's stored decision, the daemon's heartbeat) with the last reading of every station."""
     import datetime as dt
 
-    from frostwatch.status import status_document
+    from frostwatch.status.document import status_document
     from frostwatch.store import Store, from_ms, to_ms
     from frostwatch.store.latest import latest_readings_since
 

@@ -30,7 +30,7 @@ from frostwatch.daemon.journal import dump_stacks, setup_logging
 from frostwatch.daemon.scheduler import build_scheduler
 from frostwatch.daemon.service import CLOCK_JUMP_S, Daemon, run
 from frostwatch.daemon_settings import _DAEMON_KEYS, DaemonSettings, daemon_settings
-from frostwatch.status import HEARTBEAT_META
+from frostwatch.status.document import HEARTBEAT_META
 from frostwatch.store.maintenance import (
     WAL_AUTOCHECKPOINT_BYTES,
     WAL_AUTOCHECKPOINT_PAGES,

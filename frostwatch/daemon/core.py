@@ -19,7 +19,7 @@ from frostwatch.errors import UsageError
 from frostwatch.night import Night
 from frostwatch.nightcache import NightCache
 from frostwatch.pipeline import LOOKBACK, Evaluator
-from frostwatch.status import Liveness, decision_json
+from frostwatch.status.document import Liveness, decision_json
 from frostwatch.store import Store, daemon_state, maintenance
 from frostwatch.store import decisions as stored_decisions
 

@@ -20,7 +20,7 @@ from frostwatch.daemon.core import PROMPT_REASON, Core, _utc_now, commit_urgentl
 from frostwatch.daemon.journal import _io_counters, dump_stacks, setup_logging
 from frostwatch.daemon.scheduler import build_scheduler
 from frostwatch.daemon_settings import daemon_settings
-from frostwatch.status import HEARTBEAT_META
+from frostwatch.status.document import HEARTBEAT_META
 from frostwatch.store import Store, maintenance
 from frostwatch.store.maintenance import tune_store
 

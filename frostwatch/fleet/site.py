@@ -246,7 +246,7 @@ class StateFilter:
 
 def block_state_from_status_doc(doc: Mapping, rank: int, acknowledged: bool | None) -> dict:
     """A per-block state dict from the daemon's `{status}/blocks/BLOCK` document: the block as
-    `frostwatch status --json` shows it (`frostwatch.status.decision_json` of the stored decision),
+    `frostwatch status --json` shows it (`frostwatch.status.document.decision_json` of the stored decision),
     so `monitored` and its `reason` are the decision's own."""
     p = doc.get("projection") or {}
     monitored = bool(doc.get("monitored"))

@@ -10,23 +10,7 @@
     style.py      the pages' CSS             } standard library only: the fleet page
     web.py        token, headers, bind rule  } (frostwatch.fleet.page) imports just these
 
-Nothing here computes advice. The names of `document` are loaded from this package on first
-use (`from frostwatch.status import decision_json`), so importing `frostwatch.status.style`
-or `web` loads nothing else.
+Nothing here computes advice. Import each name from its module (`from frostwatch.status.document
+import decision_json`): this package itself loads nothing, so importing `frostwatch.status.style`
+or `web` (the fleet page) loads nothing else.
 """
-
-from __future__ import annotations
-
-import importlib
-
-_DOCUMENT_NAMES = ("HEARTBEAT_META", "HEARTBEAT_SLACK_S", "Liveness", "liveness", "read_liveness",
-                   "evaluation_limit_s", "effective_monitoring", "decision_json", "status_document",
-                   "decisions_for_page")
-
-__all__ = list(_DOCUMENT_NAMES)
-
-
-def __getattr__(name: str):
-    if name in _DOCUMENT_NAMES:
-        return getattr(importlib.import_module("frostwatch.status.document"), name)
-    raise AttributeError(f"module 'frostwatch.status' has no attribute {name!r}")
