@@ -28,14 +28,15 @@ def _alert(i: int, level: str = "protect") -> Alert:
 
 
 class RawHttp:
-    """A loopback HTTP server that answers each connection as `mode` says: "drip" (a valid reply,
-    one byte every `drip_s`), "cut-header" (the status line and half a header, then close),
+    """A loopback HTTP server that answers each connection as `mode` says: "drip" (a valid reply of
+    about 260 bytes, one byte every `drip_s`; `cut` is set when the client hangs up first), "cut-header" (the status line and half a header, then close),
     "cut-body" (Content-Length 10, two bytes, close), "bad-header" (a header line without a colon,
     which urllib3 warns about with the whole URL), or "ok"."""
 
-    def __init__(self, mode: str = "ok", drip_s: float = 4.0):
+    def __init__(self, mode: str = "ok", drip_s: float = 0.25):
         self.mode, self.drip_s = mode, drip_s
         self.bodies: list[bytes] = []
+        self.cut = threading.Event()
         self.sock = socket.socket()
         self.sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
         self.sock.bind(("127.0.0.1", 0))
@@ -65,10 +66,15 @@ class RawHttp:
                 body += c.recv(4096)
             self.bodies.append(body)
             if mode == "drip":
-                for b in b"HTTP/1.1 200 OK\r\nContent-Length: 2\r\nConnection: close\r\n\r\nok":
+                reply = b"HTTP/1.1 200 OK\r\nX-Pad: " + b"x" * 200 + b"\r\nContent-Length: 2\r\nConnection: close\r\n\r\nok"
+                for b in reply:
                     if self._stop.wait(self.drip_s):
                         return
-                    c.sendall(bytes([b]))
+                    try:
+                        c.sendall(bytes([b]))
+                    except OSError:
+                        self.cut.set()  # the client closed the connection before the reply ended
+                        raise
             elif mode == "cut-header":
                 c.sendall(b"HTTP/1.1 200 OK\r\nContent-Le")
             elif mode == "cut-body":
@@ -95,12 +101,17 @@ def _webhook_cfg(tmp_path, port: int, query: str = "", timeout_s: float = 2):
 
 
 def test_a_dripping_webhook_frees_the_channel_within_its_deadline_and_later_alerts_are_delivered(tmp_path):
-    """Pass: the gateway answers one byte every 4 s (a whole reply would take over 3 minutes); with
-    timeout_s = 2 the channel's worker is free again within the deadline (plus the worker's 2 s
-    grace), the attempt is a retry "no complete answer", not "sent"; once the gateway answers
-    normally, that alert and one queued after it are both delivered. Before, the per-read timeout
-    let the drip hold the channel for as long as it lasted."""
-    srv = RawHttp("drip", drip_s=4.0)
+    """Pass: the gateway answers one byte every 0.25 s (a whole reply would take over a minute),
+    each byte well inside the 2 s read timeout, so only the whole request's deadline can end it;
+    with timeout_s = 2 the channel's worker is free again (within the deadline plus the worker's
+    2 s grace, waited for generously), the attempt is a retry "no complete answer within 2 s",
+    not "sent", and the request's deadline hung up on the gateway long before its reply could
+    end (a send merely abandoned by the worker would read on to the end); once the gateway
+    answers normally, that alert and one queued after it are both delivered. Before, the
+    per-read timeout let the drip hold the channel for as long as it lasted. (The drip was one
+    byte every 4 s: the 2 s read timeout alone ended it, and since it fires together with the
+    2 s deadline, the machine's load decided which one worded the failure.)"""
+    srv = RawHttp("drip", drip_s=0.25)
     cfg = _webhook_cfg(tmp_path, srv.port)
     try:
         with Store.open(cfg.storage.path) as store:
@@ -111,6 +122,7 @@ def test_a_dripping_webhook_frees_the_channel_within_its_deadline_and_later_aler
             assert box.wait_idle(15), "the dripping gateway still holds the channel"
             (d,) = ob.deliveries_for(store, [a.key])
             assert d["status"] == "retry" and "no complete answer within 2 s" in d["detail"], d
+            assert srv.cut.wait(30), "the dripping request was not cut at its deadline"
             srv.mode = "ok"
             b = _alert(2)
             later = T0 + dt.timedelta(minutes=1)
