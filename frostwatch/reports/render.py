@@ -16,6 +16,7 @@ from frostwatch.advice.plan import Method
 from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.advice.render import level_word, method_name
 from frostwatch.alerts.levels import rank_of
+from frostwatch.night import sun_times_words
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
@@ -46,6 +47,10 @@ table.kv th{width:40%}
 """
 e = html.escape
 
+
+
+def _capital(text: str) -> str:
+    return text[:1].upper() + text[1:]
 
 def level_span(level: str) -> str:
     return f'<span class="lvl lvl{rank_of(level)}">{e(level_word(level))}</span>'
@@ -247,7 +252,7 @@ def night_html(data) -> str:
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
 <title>{e(cfg.site.name)}: night of {n.date}</title><style>{PAGE_CSS}</style></head><body>
 <h1>{e(cfg.site.name)}: night of {n.date}</h1>
-<p>Sunset {d.time(n.sunset_utc)}, sunrise {d.time(n.sunrise_utc)} ({e(cfg.site.timezone)} local time).
+<p id="sun">{e(_capital(sun_times_words(n, d.time)))} ({e(cfg.site.timezone)} local time).
 Temperatures in {d.symbol}; T10 and T90 are the temperatures that kill about 10 % and 90 % of the buds
 in 30 minutes at the block's stage.</p>
 {_loss(data)}
