@@ -191,6 +191,7 @@ def run_variant(patch: dict[str, object]) -> dict:
         for (m, k) in old:
             setattr(m, k, patch[k])
         proj._prior_cached.cache_clear()
+        proj._PRIMED.clear()
         return {k: fs.run_site(k, Path(tempfile.mkdtemp(prefix="fw-variant-"))) for k in fs.tmy.SITES}
     finally:
         for (m, k), v in old.items():
