@@ -236,20 +236,15 @@ def _dates_near_readings(times: list[np.ndarray]) -> set[int]:
     return {epoch + int(d) + k for d in days for k in range(-NEAR_DAYS, NEAR_DAYS + 1)}
 
 
-def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Evaluation]]:
-    """As `run_replay`, one night's evaluations at a time (a season need not be held in memory).
-
-    Evaluations run forward in time, each instant once: where the day is shorter than the morning
-    watch and the hour before sunset (near and in the polar night), the next night starts after
-    the last one's morning watch. A night without a single reading of any station from 6 h before
-    its sunset to the end of its morning watch is not evaluated: the logs do not cover it
-    (typical-year files splice months of different years; logs of two springs leave a year
-    between them)."""
+def covered_nights(cfg: Config, series: Series, ev: Evaluator | None = None) -> list[Night]:
+    """The nights a replay of `series` evaluates, in order: each with at least one reading of any
+    station from 6 h before its sunset to the end of its morning watch (typical-year files splice
+    months of different years; logs of two springs leave a year between them)."""
     if not series:
-        return
+        return []
+    ev = ev or Evaluator(cfg)
     first = min(float(t[0]) for t, _ in series.values())
     last = max(float(t[-1]) for t, _ in series.values())
-    ev = Evaluator(cfg)
     starts = [t for t, _ in series.values()]
     nights = []
     near = _dates_near_readings(starts)
@@ -260,10 +255,40 @@ def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Eva
         window_end = night.sunrise_utc.timestamp() + MORNING_WATCH_H * 3600.0
         if _any_reading(starts, (night.sunset_utc - LOOKBACK).timestamp(), window_end):
             nights.append(night)  # covered by the logs (a night without any reading is not)
+    return nights
+
+
+def iter_replay_nights(cfg: Config, series: Series, chosen=None) -> Iterator[tuple[int, int, list[Evaluation]]]:
+    """(k, total, that night's evaluations) for each covered night k (`covered_nights`), as the
+    daemon would have made them, walk-forward.
+
+    `chosen(k)`, if given, says whether night k is evaluated; a night not chosen is only learned
+    (its record joins the calibration before the next night, as it would after its morning), so
+    night k's evaluations are the same whichever nights before it were chosen: the calibration
+    at a night's start depends only on the nights before it, and alert states start afresh each
+    night (`alerts.rules.step`). This lets `frostwatch.replay` share nights among processes."""
+    if not series:
+        return
+    first = min(float(t[0]) for t, _ in series.values())
+    last = max(float(t[-1]) for t, _ in series.values())
+    ev = Evaluator(cfg)
+    nights = covered_nights(cfg, series, ev)
     pending: list[Night] = []
     total = len(nights)
     last_s = -np.inf
     for k, night in enumerate(nights):
+        if chosen is not None and not chosen(k):
+            for n in pending:
+                ev.learn_night(n, series)
+            pending = []
+            if night.sunrise_utc.timestamp() + 3600.0 <= last:  # its morning is in the logs
+                ev.learn_night(night, series)
+            else:
+                pending.append(night)
+            times = evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last)
+            if times:  # the instants it would have run: the next night's evaluations start after them
+                last_s = max(last_s, times[-1].timestamp())
+            continue
         out: list[Evaluation] = []
         learn_at = night.sunrise_utc.timestamp() + 3600.0
         for now in evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last):
@@ -278,6 +303,18 @@ def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Eva
                 ev.learn_night(night, series)  # the daemon's morning job, after that tick's evaluation
         if night.date not in ev.learned:
             pending.append(night)  # the logs end before its morning: learned before the next night
+        yield k, total, out
+
+
+def iter_replay(cfg: Config, series: Series, progress=None) -> Iterator[list[Evaluation]]:
+    """As `run_replay`, one night's evaluations at a time (a season need not be held in memory).
+
+    Evaluations run forward in time, each instant once: where the day is shorter than the morning
+    watch and the hour before sunset (near and in the polar night), the next night starts after
+    the last one's morning watch. A night without a single reading of any station from 6 h before
+    its sunset to the end of its morning watch is not evaluated: the logs do not cover it
+    (`covered_nights`)."""
+    for k, total, out in iter_replay_nights(cfg, series):
         yield out
         if progress:
             progress(k + 1, total)
@@ -314,6 +351,6 @@ def with_time(p: Projection) -> dict:
 
 
 __all__ = [
-    "Evaluator", "Evaluation", "run_replay", "iter_replay", "slice_series",
+    "Evaluator", "Evaluation", "run_replay", "iter_replay", "iter_replay_nights", "covered_nights", "slice_series",
     "evaluation_times", "with_time", "dataclasses",
 ]

@@ -1,16 +1,27 @@
 """The replay engine: the advisory pipeline over logged readings, stored as the daemon stores it.
 
-    res = replay_series(cfg, store, series, progress, keep_projections=True, display=d)
+    res = replay_series(cfg, store, series, progress, keep_projections=True, display=d, jobs=None)
 
 `frostwatch replay` and `frostwatch demo` (frostwatch.commands.logs, .demo) and the tests run a
-night through `pipeline.iter_replay` and keep, night by night in one transaction each, the
+night through `pipeline.iter_replay_nights` and keep, night by night in one transaction each, the
 projections, decisions and alerts (each alert's console delivery recorded as sent). Raises what
 the store raises (`StoreError`).
+
+A season is shared among processes (`jobs`, default the machine's cores up to MAX_JOBS): each
+evaluates runs of consecutive nights and only learns the nights between them (a night's
+evaluations depend on the calibration learned from the nights before it and on nothing else that
+crosses nights: alert states start afresh each night), and this process stores each night's
+rows in night order, exactly what one process would have stored (tests/test_replay_parallel.py).
 """
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
+
+MAX_JOBS = 4  # processes that share a season's nights (a Pi 4 has 4 cores)
+MIN_NIGHTS_PER_JOB = 4  # fewer nights than this per process: one process (starting others costs more)
+CHUNK_NIGHTS = 8  # a process evaluates runs of up to this many consecutive nights
 
 
 class DecisionChanges:
@@ -40,7 +51,6 @@ class DecisionChanges:
                                  "plan": codec.to_dict(dc.plan)})
 
 
-
 @dataclass
 class Replayed:
     """What a replay keeps for its output: the alerts, the nights, and (for --json) the
@@ -54,38 +64,103 @@ class Replayed:
     evaluations: int = 0
 
 
-def replay_series(cfg, store, series, progress=None, keep_projections=False, keep_evaluations=False, display=None):
-    """Run the pipeline over `series` as the daemon would have (pipeline.iter_replay) and store
-    each night's projections, decisions and alerts in one transaction each, night by night.
-    Returns a Replayed (and the evaluations themselves with keep_evaluations, for small logs)."""
+@dataclass
+class NightRows:
+    """One night's evaluations as the store takes them and the output keeps them: made where the
+    night was evaluated (this process or another), stored here in night order."""
+
+    projection_rows: list = field(default_factory=list)
+    decision_rows: list = field(default_factory=list)
+    alerts: list = field(default_factory=list)
+    dates: set = field(default_factory=set)
+    evaluations: int = 0
+    projections: list = field(default_factory=list)  # with keep_projections (--json)
+    decisions: list = field(default_factory=list)  # decision changes, with keep_projections (--json)
+
+
+def night_rows(night_evals, keep_projections: bool, changes: DecisionChanges | None) -> NightRows:
+    """A night's evaluations as rows (no store). `changes` (with keep_projections) is carried
+    from one night to the next of a run of consecutive nights."""
     from frostwatch import pipeline
-    from frostwatch.alerts.outbox import record_replayed, replay_channel
     from frostwatch.store import decisions as stored_decisions
+    from frostwatch.store.db import Store
+
+    out = NightRows()
+    out.projection_rows = [Store._projection_row(p) for ev in night_evals for p in ev.projections]
+    out.decision_rows = [stored_decisions.row_of(d) for ev in night_evals for d in ev.decisions]
+    for ev in night_evals:
+        out.dates.add(ev.night.date)
+        out.evaluations += 1
+        out.alerts += ev.alerts
+        if keep_projections and ev.night.contains(ev.time_utc, 0.0, 0.0):
+            out.projections += [pipeline.with_time(p) for p in ev.projections]
+    if changes is not None:
+        changes.add(night_evals)
+        out.decisions, changes.out = changes.out, []
+    return out
+
+
+def _store_night(store, rows: NightRows, out: Replayed, console: str, nights: set) -> None:
+    """Store one night's rows (projections, decisions, then each alert with its console delivery)."""
+    from frostwatch.alerts.outbox import record_replayed
+    from frostwatch.store import decisions as stored_decisions
+
+    store.add_projection_rows(rows.projection_rows)
+    stored_decisions.save_rows(store, rows.decision_rows)
+    for a in rows.alerts:
+        out.shorts[a.key] = record_replayed(store, a, console)
+        out.alerts.append(a)
+    nights |= rows.dates
+    out.evaluations += rows.evaluations
+    out.projections += rows.projections
+    out.decisions += rows.decisions
+
+
+def default_jobs() -> int:
+    """The processes a replay shares its nights among: the cores this process may use, up to MAX_JOBS."""
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        n = os.cpu_count() or 1
+    return max(1, min(MAX_JOBS, n))
+
+
+def replay_series(cfg, store, series, progress=None, keep_projections=False, keep_evaluations=False, display=None,
+                  jobs: int | None = None):
+    """Run the pipeline over `series` as the daemon would have (pipeline.iter_replay_nights) and
+    store each night's projections, decisions and alerts in one transaction each, night by night.
+    Returns a Replayed (and the evaluations themselves with keep_evaluations, for small logs).
+
+    `jobs` processes share the nights (default `default_jobs()`); one with keep_evaluations, or
+    when there are fewer than MIN_NIGHTS_PER_JOB nights per process."""
+    from frostwatch import pipeline
+    from frostwatch.alerts.outbox import replay_channel
 
     console = replay_channel(cfg)
     out = Replayed()
     kept = []
-    nights = set()
-    changes = DecisionChanges(display) if keep_projections else None
-    for night_evals in pipeline.iter_replay(cfg, series, progress=progress):
-        if not night_evals:
-            continue
-        store.add_projections(p for ev in night_evals for p in ev.projections)
-        stored_decisions.save_decisions(store, (d for ev in night_evals for d in ev.decisions))
-        for ev in night_evals:
-            nights.add(ev.night.date)
-            out.evaluations += 1
-            for a in ev.alerts:
-                out.shorts[a.key] = record_replayed(store, a, console)
-                out.alerts.append(a)
-            if keep_projections and ev.night.contains(ev.time_utc, 0.0, 0.0):
-                out.projections += [pipeline.with_time(p) for p in ev.projections]
-        if changes is not None:
-            changes.add(night_evals)
-        if keep_evaluations:
-            kept += night_evals
+    nights: set = set()
+    jobs = default_jobs() if jobs is None else max(1, int(jobs))
+    chunks = None
+    if jobs > 1 and not keep_evaluations:
+        from frostwatch.replay_parallel import plan_chunks
+
+        chunks = plan_chunks(cfg, series, jobs, MIN_NIGHTS_PER_JOB, CHUNK_NIGHTS)
+    if chunks:
+        from frostwatch.replay_parallel import parallel_nights
+
+        for rows in parallel_nights(cfg, series, chunks, jobs, keep_projections, display, progress):
+            _store_night(store, rows, out, console, nights)
+    else:
+        changes = DecisionChanges(display) if keep_projections else None
+        for k, total, night_evals in pipeline.iter_replay_nights(cfg, series):
+            if night_evals:
+                _store_night(store, night_rows(night_evals, keep_projections, changes), out, console, nights)
+                if keep_evaluations:
+                    kept += night_evals
+            if progress:
+                progress(k + 1, total)
     out.nights = sorted(nights)
-    out.decisions = changes.out if changes is not None else []
     return (out, kept) if keep_evaluations else out
 
 

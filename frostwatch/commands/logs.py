@@ -99,7 +99,8 @@ def cmd_replay(args) -> int:
         n_read = len(cols)
         del cols, done
         d = Display("degF" if _fahrenheit(args) else cfg.site.display_unit, cfg.site.tz)
-        res = replay_series(cfg, store, series, _progress("replay"), keep_projections=args.json, display=d)
+        res = replay_series(cfg, store, series, _progress("replay"), keep_projections=args.json, display=d,
+                            jobs=getattr(args, "jobs", None))
         alerts = res.alerts
         nights = res.nights
         summaries = []
@@ -220,6 +221,18 @@ def cmd_export(args) -> int:
     return 0
 
 
+def _jobs(text: str) -> int:
+    import argparse
+
+    try:
+        n = int(text)
+    except ValueError:
+        n = 0
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"--jobs wants a whole number of processes, 1 or more (got {text!r})")
+    return n
+
+
 def register(sub, common) -> None:
     for name, helptext, func in (
         ("replay", "run the whole advisory pipeline over sensor logs as if live, storing the readings", cmd_replay),
@@ -231,6 +244,9 @@ def register(sub, common) -> None:
         if name == "replay":
             s.add_argument("--report-dir", metavar="DIR", help="where night reports go (default: reports/ beside the store)")
             s.add_argument("--no-report", action="store_true", help="do not write night reports")
+            s.add_argument("--jobs", type=_jobs, metavar="N",
+                           help="processes that share a season's nights (default: the machine's cores, up to 4; "
+                                "1 to leave the other cores alone); the result is the same")
         s.set_defaults(func=func)
 
     s = sub.add_parser("export", parents=[common], help="print stored readings as a sensor log")

@@ -91,6 +91,105 @@ def _check_structure(hours, step_s):
         raise ValueError(f"step_s is {step_s!r}; expected a time step of 1 to 3600 s")
 
 
+class _PathKernel:
+    """What a projection's steps share, for one set of inputs other than the night's length: the
+    tabulated net loss, the mixing constants and the path stepped so far (`steps`). A projection
+    to any length whose last step is short reuses the whole steps before it: each step depends on
+    the one before only, so the path to h hours is the path to the longest night asked for, cut
+    at its (n - 1)th step, with its own last step. Bit for bit the loop of `_project_path_c`."""
+
+    __slots__ = ("loss_list", "last", "grid_top_c", "ri_per_k", "k_neutral", "mu", "onset_s", "aloft_temp_c",
+                 "step_s", "temps", "roots")
+
+    def __init__(self, start_temp_c, vp0_hpa, step_s, wind_speed_m_s, cloud_frac, pressure_hpa,
+                 thermal_admittance_j_m2_k_s05, air_admittance_j_m2_k_s05, aloft_temp_c, onset_h_before_start,
+                 surface_emissivity, model, cloud_model):
+        # Net radiative loss tabulated against temperature along the path. Below saturation the
+        # vapour pressure follows the saturation curve, so the loss is a function of T alone.
+        # The grid sits on fixed multiples of the spacing, so two nights interpolate the same curve.
+        top_i = math.ceil(max(start_temp_c, aloft_temp_c) / PROJECTION_GRID_STEP_K) + 1
+        bottom_i = math.ceil(max(AIR_TEMP_MIN_C, start_temp_c - PROJECTION_GRID_SPAN_K) / PROJECTION_GRID_STEP_K)
+        self.grid_top_c = top_i * PROJECTION_GRID_STEP_K
+        grid_c = np.arange(top_i, bottom_i - 1, -1) * PROJECTION_GRID_STEP_K
+        grid_vp = np.minimum(vp0_hpa, _saturation_vp_hpa(grid_c))
+        loss = -np.asarray(
+            net_longwave_w_m2(grid_c, grid_vp, cloud_frac, grid_c, surface_emissivity, model, cloud_model),
+            dtype=float,
+        )
+        self.loss_list = loss.tolist()
+        self.last = len(self.loss_list) - 1
+        rho_cp = pressure_hpa * 100.0 / (R_DRY_AIR_J_KG_K * (aloft_temp_c + ZERO_CELSIUS_K)) * CP_DRY_AIR_J_KG_K
+        self.k_neutral = rho_cp * NEUTRAL_TRANSFER_COEFF_FRAC * wind_speed_m_s  # [W m-2 K-1]
+        self.ri_per_k = (
+            GRAVITY_M_S2 * ANEMOMETER_HEIGHT_M / ((aloft_temp_c + ZERO_CELSIUS_K) * wind_speed_m_s**2)
+            if wind_speed_m_s > 1e-6 else 0.0
+        )  # bulk Richardson number per kelvin of inversion
+        self.mu = thermal_admittance_j_m2_k_s05 + air_admittance_j_m2_k_s05
+        self.onset_s = onset_h_before_start * SECONDS_PER_HOUR_S
+        self.aloft_temp_c = aloft_temp_c
+        self.step_s = step_s
+        self.temps = [start_temp_c]  # the path at whole steps 0, 1, ... (no short last step)
+        self.roots = [math.sqrt(self.onset_s)]
+
+    def loss_at(self, temp_c):
+        x = (self.grid_top_c - temp_c) / PROJECTION_GRID_STEP_K
+        last = self.last
+        if not (0.0 <= x <= last):
+            return math.nan
+        i = min(int(x), last - 1) if last > 0 else 0
+        f = x - i
+        return self.loss_list[i] * (1.0 - f) + self.loss_list[min(i + 1, last)] * f
+
+    def step(self, temp, root_prev, root):
+        """The temperature one step on, from `temp` at sqrt(onset + t) = root_prev to root."""
+        ds = 2.0 / SQRT_PI * (root - root_prev)  # [s^0.5] Brunt's sqrt(t) clock
+        lq = self.loss_at(temp)
+        if not math.isfinite(lq):
+            return math.nan
+        # the mixing coefficient from the inversion at the start of the step (Louis), the
+        # mixed-in heat implicit in the temperature
+        ri = self.ri_per_k * max(0.0, self.aloft_temp_c - temp)
+        k_mix = self.k_neutral / (1.0 + 3.0 * LOUIS_B * ri * math.sqrt(1.0 + LOUIS_D * ri))
+        a = ds / self.mu
+        return (temp - a * lq + a * k_mix * self.aloft_temp_c) / (1.0 + a * k_mix)
+
+    def path(self, elapsed_s):
+        """The temperatures at `elapsed_s` (whole steps from 0, the last one maybe short)."""
+        n_steps = len(elapsed_s) - 1
+        temps, roots = self.temps, self.roots
+        if n_steps == 0:
+            return np.array(temps[:1], dtype=float)
+        while len(temps) < n_steps:  # whole steps not stepped yet
+            n = len(temps)
+            root = math.sqrt(self.onset_s + n * self.step_s)
+            temps.append(self.step(temps[-1], roots[-1], root))
+            roots.append(root)
+        out = np.empty(n_steps + 1)
+        out[:n_steps] = temps[:n_steps]
+        if n_steps:
+            out[n_steps] = self.step(temps[n_steps - 1], roots[n_steps - 1], math.sqrt(self.onset_s + elapsed_s[n_steps]))
+        return out
+
+
+def _float_key(*values):
+    # floats with their sign: -0.0 and 0.0 are equal keys to a dict but not the same start
+    return tuple((v, math.copysign(1.0, v)) if isinstance(v, float) else v for v in values)
+
+
+_KERNELS: dict = {}
+KERNEL_CACHE_SIZE = 64  # kernels kept (an evaluation before dusk asks for its inputs again each time)
+
+
+def _kernel(*args) -> _PathKernel:
+    key = _float_key(*args)
+    k = _KERNELS.get(key)
+    if k is None:
+        if len(_KERNELS) >= KERNEL_CACHE_SIZE:
+            _KERNELS.pop(next(iter(_KERNELS)))  # the oldest
+        k = _KERNELS[key] = _PathKernel(*args)
+    return k
+
+
 def _project_path_c(
     start_temp_c,
     dew_point_c,
@@ -142,58 +241,10 @@ def _project_path_c(
     vp0_hpa = _start_vp_hpa(start_temp_c, dew_point_c)
     if not math.isfinite(vp0_hpa):
         return elapsed_s, temps
-
-    # Net radiative loss tabulated against temperature along the path. Below saturation the
-    # vapour pressure follows the saturation curve, so the loss is a function of T alone.
-    # The grid sits on fixed multiples of the spacing, so two nights interpolate the same curve.
-    top_i = math.ceil(max(start_temp_c, aloft_temp_c) / PROJECTION_GRID_STEP_K) + 1
-    bottom_i = math.ceil(max(AIR_TEMP_MIN_C, start_temp_c - PROJECTION_GRID_SPAN_K) / PROJECTION_GRID_STEP_K)
-    grid_top_c = top_i * PROJECTION_GRID_STEP_K
-    grid_c = np.arange(top_i, bottom_i - 1, -1) * PROJECTION_GRID_STEP_K
-    grid_vp = np.minimum(vp0_hpa, _saturation_vp_hpa(grid_c))
-    loss = -np.asarray(
-        net_longwave_w_m2(grid_c, grid_vp, cloud_frac, grid_c, surface_emissivity, model, cloud_model),
-        dtype=float,
-    )
-    loss_list = loss.tolist()
-    last = len(loss_list) - 1
-
-    def loss_at(temp_c):
-        x = (grid_top_c - temp_c) / PROJECTION_GRID_STEP_K
-        if not (0.0 <= x <= last):
-            return math.nan
-        i = min(int(x), last - 1) if last > 0 else 0
-        f = x - i
-        return loss_list[i] * (1.0 - f) + loss_list[min(i + 1, last)] * f
-
-    rho_cp = pressure_hpa * 100.0 / (R_DRY_AIR_J_KG_K * (aloft_temp_c + ZERO_CELSIUS_K)) * CP_DRY_AIR_J_KG_K
-    k_neutral = rho_cp * NEUTRAL_TRANSFER_COEFF_FRAC * wind_speed_m_s  # [W m-2 K-1]
-    ri_per_k = (
-        GRAVITY_M_S2 * ANEMOMETER_HEIGHT_M / ((aloft_temp_c + ZERO_CELSIUS_K) * wind_speed_m_s**2)
-        if wind_speed_m_s > 1e-6 else 0.0
-    )  # bulk Richardson number per kelvin of inversion
-    mu = thermal_admittance_j_m2_k_s05 + air_admittance_j_m2_k_s05
-    onset_s = onset_h_before_start * SECONDS_PER_HOUR_S
-
-    temp = start_temp_c
-    temps[0] = temp
-    root_prev = math.sqrt(onset_s)
-    for n in range(1, n_steps + 1):
-        root = math.sqrt(onset_s + elapsed_s[n])
-        ds = 2.0 / SQRT_PI * (root - root_prev)  # [s^0.5] Brunt's sqrt(t) clock
-        root_prev = root
-        lq = loss_at(temp)
-        if not math.isfinite(lq):
-            temp = math.nan
-        else:
-            # the mixing coefficient from the inversion at the start of the step (Louis), the
-            # mixed-in heat implicit in the temperature
-            ri = ri_per_k * max(0.0, aloft_temp_c - temp)
-            k_mix = k_neutral / (1.0 + 3.0 * LOUIS_B * ri * math.sqrt(1.0 + LOUIS_D * ri))
-            a = ds / mu
-            temp = (temp - a * lq + a * k_mix * aloft_temp_c) / (1.0 + a * k_mix)
-        temps[n] = temp
-    return elapsed_s, temps
+    kernel = _kernel(start_temp_c, vp0_hpa, float(step_s), wind_speed_m_s, cloud_frac, pressure_hpa,
+                     thermal_admittance_j_m2_k_s05, air_admittance_j_m2_k_s05, aloft_temp_c, onset_h_before_start,
+                     surface_emissivity, model, cloud_model)
+    return elapsed_s, kernel.path(elapsed_s)
 
 
 def project_night_energy_balance(

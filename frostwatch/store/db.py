@@ -187,7 +187,10 @@ class Store(ReadingsTable):
 
     def add_projections(self, projections: Iterable[Projection]) -> None:
         """Store projections in one transaction (one commit per evaluation, not per block)."""
-        rows = [self._projection_row(p) for p in projections]
+        self.add_projection_rows([self._projection_row(p) for p in projections])
+
+    def add_projection_rows(self, rows: list[tuple]) -> None:
+        """Rows made by `_projection_row` (in another process, for a parallel replay), in one transaction."""
         with self.transaction() as c:
             c.executemany(
                 "INSERT OR REPLACE INTO projections(time_utc_ms, block, predicted_min_c, predicted_min_at_utc_ms, "

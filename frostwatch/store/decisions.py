@@ -55,9 +55,16 @@ def save(conn: sqlite3.Connection, decisions: Iterable[Decision]) -> int:
 
 def save_decisions(store: Store, decisions: Iterable[Decision]) -> int:
     """Decisions in one transaction of their own (replay)."""
+    return save_rows(store, [row_of(d) for d in decisions])
+
+
+def save_rows(store: Store, rows: list[tuple]) -> int:
+    """Rows made by `row_of` (in another process, for a parallel replay) in one transaction."""
     try:
         with store.transaction() as c:
-            return save(c, decisions)
+            if rows:
+                c.executemany(_INSERT, rows)
+            return len(rows)
     except sqlite3.Error as exc:
         raise StoreError(f"{store.path}: cannot store decisions: {exc}") from None
 

@@ -1,0 +1,115 @@
+"""The season replay's speed-ups (issue 19, item 1) change no result, each checked against the
+plain way: the energy-balance path reused across night lengths (an evaluation before dusk asks
+for the clear-night prior with the same inputs and a night two minutes shorter each time) is the
+plain loop's, bit for bit."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from frostwatch.constants import SECONDS_PER_HOUR_S
+from frostwatch.physics import night_energy_balance as neb
+from frostwatch.physics.clear_night_prior import clear_night_minimum_prior_c
+from frostwatch.physics.sqrt_time_cooling import GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05, SQRT_PI
+
+
+def _plain_path_c(start_c, dew_c, hours, step_s, wind, cloud, p_hpa, aloft_c=None, onset_h=0.0):
+    """The energy-balance loop as it was before the kernel was kept (frostwatch 0.2, issue 19)."""
+    n_steps = math.ceil(hours * SECONDS_PER_HOUR_S / step_s - 1e-9)
+    elapsed_s = np.minimum(np.arange(n_steps + 1) * float(step_s), hours * SECONDS_PER_HOUR_S)
+    temps = np.full(n_steps + 1, math.nan)
+    aloft_c = start_c if aloft_c is None else aloft_c
+    vp0 = neb._start_vp_hpa(start_c, dew_c)
+    if not math.isfinite(vp0):
+        return temps
+    top_i = math.ceil(max(start_c, aloft_c) / neb.PROJECTION_GRID_STEP_K) + 1
+    bottom_i = math.ceil(max(neb.AIR_TEMP_MIN_C, start_c - neb.PROJECTION_GRID_SPAN_K) / neb.PROJECTION_GRID_STEP_K)
+    grid_top_c = top_i * neb.PROJECTION_GRID_STEP_K
+    grid_c = np.arange(top_i, bottom_i - 1, -1) * neb.PROJECTION_GRID_STEP_K
+    grid_vp = np.minimum(vp0, neb._saturation_vp_hpa(grid_c))
+    loss = -np.asarray(neb.net_longwave_w_m2(grid_c, grid_vp, cloud, grid_c, neb.SURFACE_EMISSIVITY_DEFAULT_FRAC,
+                                             "brutsaert_1975", "jacobs_1978"), dtype=float)
+    loss_list = loss.tolist()
+    last = len(loss_list) - 1
+
+    def loss_at(temp_c):
+        x = (grid_top_c - temp_c) / neb.PROJECTION_GRID_STEP_K
+        if not (0.0 <= x <= last):
+            return math.nan
+        i = min(int(x), last - 1) if last > 0 else 0
+        f = x - i
+        return loss_list[i] * (1.0 - f) + loss_list[min(i + 1, last)] * f
+
+    rho_cp = p_hpa * 100.0 / (neb.R_DRY_AIR_J_KG_K * (aloft_c + neb.ZERO_CELSIUS_K)) * neb.CP_DRY_AIR_J_KG_K
+    k_neutral = rho_cp * neb.NEUTRAL_TRANSFER_COEFF_FRAC * wind
+    ri_per_k = (neb.GRAVITY_M_S2 * neb.ANEMOMETER_HEIGHT_M / ((aloft_c + neb.ZERO_CELSIUS_K) * wind**2)
+                if wind > 1e-6 else 0.0)
+    mu = GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05 + neb.AIR_ADMITTANCE_EFFECTIVE_J_M2_K_S05
+    onset_s = onset_h * SECONDS_PER_HOUR_S
+    temp = start_c
+    temps[0] = temp
+    root_prev = math.sqrt(onset_s)
+    for n in range(1, n_steps + 1):
+        root = math.sqrt(onset_s + elapsed_s[n])
+        ds = 2.0 / SQRT_PI * (root - root_prev)
+        root_prev = root
+        lq = loss_at(temp)
+        if not math.isfinite(lq):
+            temp = math.nan
+        else:
+            ri = ri_per_k * max(0.0, aloft_c - temp)
+            k_mix = k_neutral / (1.0 + 3.0 * neb.LOUIS_B * ri * math.sqrt(1.0 + neb.LOUIS_D * ri))
+            a = ds / mu
+            temp = (temp - a * lq + a * k_mix * aloft_c) / (1.0 + a * k_mix)
+        temps[n] = temp
+    return temps
+
+
+def _kernel_path_c(start_c, dew_c, hours, step_s, wind, cloud, p_hpa, aloft_c=None, onset_h=0.0):
+    _, temps = neb._project_path_c(start_c, dew_c, hours, step_s, wind, cloud, p_hpa,
+                                   GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05, neb.AIR_ADMITTANCE_EFFECTIVE_J_M2_K_S05,
+                                   aloft_c, onset_h, neb.SURFACE_EMISSIVITY_DEFAULT_FRAC, "brutsaert_1975",
+                                   "jacobs_1978")
+    return temps
+
+
+def _same(a: np.ndarray, b: np.ndarray) -> bool:
+    return a.shape == b.shape and a.tobytes() == b.tobytes()  # bit for bit, NaN and the sign of zero included
+
+
+@settings(max_examples=60, deadline=None)
+@given(start=st.floats(-10.0, 25.0), depression=st.floats(0.0, 15.0), wind=st.floats(0.0, 6.0),
+       cloud=st.floats(0.0, 1.0), p_hpa=st.floats(850.0, 1030.0), onset=st.sampled_from([0.0, 2.0]),
+       aloft=st.sampled_from([None, 3.0]),
+       hours=st.lists(st.floats(0.0001, 16.0), min_size=1, max_size=8))
+def test_the_kept_path_is_the_plain_loop_for_any_night_length_in_any_order(start, depression, wind, cloud, p_hpa,
+                                                                           onset, aloft, hours):
+    for h in hours + [max(hours) + 1.0, min(hours) / 2.0]:  # longer and shorter than any asked before
+        for step_s in (300.0, 120.0):
+            want = _plain_path_c(start, start - depression, h, step_s, wind, cloud, p_hpa, aloft, onset)
+            got = _kernel_path_c(start, start - depression, h, step_s, wind, cloud, p_hpa, aloft, onset)
+            assert _same(got, want), (h, step_s)
+
+
+def test_the_prior_before_dusk_is_the_plain_loops_minimum_as_the_night_shortens():
+    """An evaluation every 2 min before dusk: same inputs, a night 2 min shorter each time."""
+    for start, dew, wind, cloud in ((8.0, 1.0, 0.5, 0.0), (2.5, -4.0, 1.8, 0.2), (-0.0, -6.0, 0.0, 0.0),
+                                    (0.0, -6.0, 0.0, 0.0), (15.0, 14.9, 3.0, 0.9)):
+        for k in range(90):
+            h = 13.0 - k * 120.0 / 3600.0
+            plain = _plain_path_c(start, dew, h, 300.0, wind, cloud, 980.0)
+            want = math.nan if np.isnan(plain).any() else float(plain.min())
+            got = float(clear_night_minimum_prior_c(start, dew, h, wind_speed_m_s=wind, cloud_frac=cloud, pressure_hpa=980.0))
+            assert (math.isnan(got) and math.isnan(want)) or (got == want and math.copysign(1, got) == math.copysign(1, want))
+
+
+def test_out_of_domain_inputs_stay_nan_and_the_kernel_cache_stays_bounded():
+    assert np.isnan(_kernel_path_c(5.0, 9.0, 10.0, 300.0, 1.0, 0.0, 1000.0)).all()  # dew point above the air
+    assert np.isnan(_kernel_path_c(5.0, 0.0, 10.0, 300.0, 1.0, 1.5, 1000.0)).all()  # cloud fraction over 1
+    for k in range(neb.KERNEL_CACHE_SIZE * 3):
+        _kernel_path_c(5.0 + k * 0.01, 0.0, 10.0, 300.0, 1.0, 0.0, 1000.0)
+    assert len(neb._KERNELS) <= neb.KERNEL_CACHE_SIZE
