@@ -113,3 +113,12 @@ def test_out_of_domain_inputs_stay_nan_and_the_kernel_cache_stays_bounded():
     for k in range(neb.KERNEL_CACHE_SIZE * 3):
         _kernel_path_c(5.0 + k * 0.01, 0.0, 10.0, 300.0, 1.0, 0.0, 1000.0)
     assert len(neb._KERNELS) <= neb.KERNEL_CACHE_SIZE
+
+
+def test_a_kernel_made_while_a_function_was_swapped_is_not_found_after(monkeypatch):
+    plain = _kernel_path_c(4.0, -2.0, 9.0, 300.0, 0.5, 0.0, 990.0)
+    with monkeypatch.context() as m:
+        m.setattr(neb, "net_longwave_w_m2", lambda t, *a, **k: np.full(np.shape(t), -80.0))
+        swapped = _kernel_path_c(4.0, -2.0, 9.0, 300.0, 0.5, 0.0, 990.0)
+    assert not _same(swapped, plain)
+    assert _same(_kernel_path_c(4.0, -2.0, 9.0, 300.0, 0.5, 0.0, 990.0), plain)

@@ -176,17 +176,29 @@ def _float_key(*values):
     return tuple((v, math.copysign(1.0, v)) if isinstance(v, float) else v for v in values)
 
 
+def _module_key() -> tuple:
+    # what a kernel is made with besides its inputs: a test or a variant study that swaps one of
+    # these for a while must not find a kernel made with the other
+    return (net_longwave_w_m2, _saturation_vp_hpa, _start_vp_hpa, PROJECTION_GRID_STEP_K, PROJECTION_GRID_SPAN_K,
+            AIR_TEMP_MIN_C, R_DRY_AIR_J_KG_K, CP_DRY_AIR_J_KG_K, ZERO_CELSIUS_K, NEUTRAL_TRANSFER_COEFF_FRAC,
+            GRAVITY_M_S2, ANEMOMETER_HEIGHT_M, LOUIS_B, LOUIS_D, SQRT_PI)
+
+
 _KERNELS: dict = {}
 KERNEL_CACHE_SIZE = 64  # kernels kept (an evaluation before dusk asks for its inputs again each time)
 
 
-def _kernel(*args) -> _PathKernel:
-    key = _float_key(*args)
-    k = _KERNELS.get(key)
-    if k is None:
+def _kernel(start_temp_c, dew_point_c, *rest) -> _PathKernel | None:
+    """The kept kernel of these inputs (made on first use); None for air wetter than 105 % RH."""
+    key = _float_key(start_temp_c, dew_point_c, *rest) + _module_key()
+    k = _KERNELS.get(key, False)
+    if k is False:
         if len(_KERNELS) >= KERNEL_CACHE_SIZE:
             _KERNELS.pop(next(iter(_KERNELS)))  # the oldest
-        k = _KERNELS[key] = _PathKernel(*args)
+        # A hygrometer reading up to 105 % RH (radiation.SUPERSATURATION_MAX_FRAC) is taken as
+        # saturated air; anything above is out of domain.
+        vp0_hpa = _start_vp_hpa(start_temp_c, dew_point_c)
+        k = _KERNELS[key] = _PathKernel(start_temp_c, vp0_hpa, *rest) if math.isfinite(vp0_hpa) else None
     return k
 
 
@@ -236,15 +248,10 @@ def _project_path_c(
         and onset_h_before_start >= 0.0
     ):
         return elapsed_s, temps
-    # A hygrometer reading up to 105 % RH (radiation.SUPERSATURATION_MAX_FRAC) is taken as
-    # saturated air; anything above is out of domain.
-    vp0_hpa = _start_vp_hpa(start_temp_c, dew_point_c)
-    if not math.isfinite(vp0_hpa):
-        return elapsed_s, temps
-    kernel = _kernel(start_temp_c, vp0_hpa, float(step_s), wind_speed_m_s, cloud_frac, pressure_hpa,
+    kernel = _kernel(start_temp_c, dew_point_c, float(step_s), wind_speed_m_s, cloud_frac, pressure_hpa,
                      thermal_admittance_j_m2_k_s05, air_admittance_j_m2_k_s05, aloft_temp_c, onset_h_before_start,
                      surface_emissivity, model, cloud_model)
-    return elapsed_s, kernel.path(elapsed_s)
+    return elapsed_s, temps if kernel is None else kernel.path(elapsed_s)
 
 
 def project_night_energy_balance(
