@@ -149,7 +149,13 @@ def replay_series(cfg, store, series, progress=None, keep_projections=False, kee
     if chunks:
         from frostwatch.replay_parallel import parallel_nights
 
-        for rows in parallel_nights(cfg, series, chunks, jobs, keep_projections, display, progress):
+        def rows_of(evals, changes):
+            return night_rows(evals, keep_projections, changes)
+
+        def new_changes():
+            return DecisionChanges(display) if keep_projections else None
+
+        for rows in parallel_nights(cfg, series, chunks, jobs, rows_of, new_changes, progress):
             _store_night(store, rows, out, console, nights)
     else:
         changes = DecisionChanges(display) if keep_projections else None

@@ -1,8 +1,8 @@
 """A season's nights shared among processes, for `frostwatch.replay.replay_series`.
 
     chunks = plan_chunks(cfg, series, jobs, min_nights_per_job, chunk_nights)   # None: one process
-    for rows in parallel_nights(cfg, series, chunks, jobs, keep_projections, display, progress):
-        ...   # each night's NightRows, in night order
+    for rows in parallel_nights(cfg, series, chunks, jobs, night_rows, new_changes, progress):
+        ...   # each night's rows, in night order
 
 Why the result is what one process gives: a night's evaluations depend on the calibration
 learned from the nights before it (walk-forward) and on the alert states, which start afresh
@@ -68,19 +68,19 @@ def plan_chunks(cfg, series, jobs: int, min_nights_per_job: int, chunk_nights: i
     return chunks if len(chunks) >= 2 else None
 
 
-def _worker(cfg, series, chunks, keep_projections, display, q) -> None:
-    """Evaluate the given runs of nights (learning the others) and put each night's rows on `q`."""
-    from frostwatch.replay import DecisionChanges, night_rows
-
+def _worker(cfg, series, chunks, night_rows, new_changes, q) -> None:
+    """Evaluate the given runs of nights (learning the others) and put each night's rows on `q`:
+    `night_rows(evals, changes)`, with `changes = new_changes()` at the start of each run (None
+    without decision changes to keep)."""
     parent = os.getppid()
     try:
         mine = {k: (a, b) for a, b in chunks for k in range(a, b)}
         last = max(mine)
         changes = None
         for k, _total, evals in pipeline.iter_replay_nights(cfg, series, chosen=mine.__contains__):
-            if keep_projections and k == mine[k][0]:
-                changes = DecisionChanges(display)  # carried within a run of nights, as one process would
-            _put(q, ("night", k, night_rows(evals, keep_projections, changes) if evals else None), parent)
+            if k == mine[k][0]:
+                changes = new_changes()  # carried within a run of nights, as one process would
+            _put(q, ("night", k, night_rows(evals, changes) if evals else None), parent)
             if k == last:
                 break  # the nights after this process's last are not even learned
     except BaseException:  # noqa: BLE001 - anything that stops a worker is reported to the reader
@@ -98,15 +98,16 @@ def _put(q, item, parent: int) -> None:
                 os._exit(1)
 
 
-def parallel_nights(cfg, series, chunks, jobs, keep_projections, display, progress=None):
-    """Each night's `replay.NightRows` (None for a night without evaluations is skipped), in night
-    order, evaluated by `jobs` forked processes. Raises RuntimeError with the worker's traceback
-    if a worker fails or dies; the workers are stopped however this generator ends."""
+def parallel_nights(cfg, series, chunks, jobs, night_rows, new_changes, progress=None):
+    """Each night's rows (`night_rows(evals, changes)`; nights without evaluations skipped), in
+    night order, evaluated by `jobs` forked processes (see `_worker`). Raises RuntimeError with
+    the worker's traceback if a worker fails or dies; the workers are stopped however this
+    generator ends."""
     ctx = multiprocessing.get_context("fork")
     size = max(b - a for a, b in chunks)
     assigned = [chunks[j::jobs] for j in range(jobs)]
     queues = [ctx.Queue(maxsize=size + 1) for _ in range(jobs)]
-    procs = [ctx.Process(target=_worker, args=(cfg, series, assigned[j], keep_projections, display, queues[j]),
+    procs = [ctx.Process(target=_worker, args=(cfg, series, assigned[j], night_rows, new_changes, queues[j]),
                          name=f"frostwatch-replay-{j + 1}", daemon=True) for j in range(jobs) if assigned[j]]
     total = chunks[-1][1]
     try:
