@@ -23,6 +23,7 @@ from frostwatch.models import Projection
 
 DECISION_VERSION = 1
 CURVE_STEP_S = 1800.0  # the stored projected curve keeps one point per half hour (SD-card wear)
+_CURVE_STEP = dt.timedelta(seconds=CURVE_STEP_S)  # compared as a timedelta: exactly total_seconds() >= CURVE_STEP_S
 
 
 class MonitorReason(StrEnum):
@@ -88,7 +89,7 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
     times, temps = [], []
     last = None
     for t, c in zip(p.curve_time_utc, p.curve_air_temp_c, strict=False):
-        if last is None or (t - last).total_seconds() >= CURVE_STEP_S:
+        if last is None or t - last >= _CURVE_STEP:
             times.append(t)
             temps.append(round(float(c), 2))
             last = t

@@ -1,13 +1,19 @@
 """The season replay's speed-ups (issue 19, item 1) change no result, each checked against the
 plain way: the energy-balance path reused across night lengths (an evaluation before dusk asks
 for the clear-night prior with the same inputs and a night two minutes shorter each time) is the
-plain loop's, bit for bit."""
+plain loop's, bit for bit; the alert rules' state replaced field by field is dataclasses.replace's.
+(The stored decision's encoding is checked against a plain recursive encoder in
+tests/test_evaluation_speedups.py; the whole replay against the daemon's path in
+tests/test_replay_scale.py.)"""
 
 from __future__ import annotations
 
+import dataclasses
+import datetime as dt
 import math
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -122,3 +128,19 @@ def test_a_kernel_made_while_a_function_was_swapped_is_not_found_after(monkeypat
         swapped = _kernel_path_c(4.0, -2.0, 9.0, 300.0, 0.5, 0.0, 990.0)
     assert not _same(swapped, plain)
     assert _same(_kernel_path_c(4.0, -2.0, 9.0, 300.0, 0.5, 0.0, 990.0), plain)
+
+
+def test_the_rules_state_replaced_is_dataclasses_replace():
+    from frostwatch.alerts.rules import BlockAlertState, _replaced
+
+    t = dt.datetime(2027, 4, 14, 3, 0, tzinfo=dt.UTC)
+    base = BlockAlertState(night="2027-04-13", level="ready", sequence=2, announced_crossing_utc=t)
+    for changes in ({}, {"sequence": 3, "last_key": "east/2027-04-13/003-ready"}, {"announced_crossing_utc": None},
+                    {"night": "2027-04-14", "ran_tonight": True, "unmonitored_since_utc": t}):
+        got, want = _replaced(base, changes), dataclasses.replace(base, **changes)
+        assert got == want and got is not base and repr(got) == repr(want) and vars(got) == vars(want)
+        assert list(vars(got)) == list(vars(want))  # the same field order (pickles alike)
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            got.level = "rest"
+    with pytest.raises(TypeError, match="no field 'levle'"):
+        _replaced(base, {"levle": "rest"})

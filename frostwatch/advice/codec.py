@@ -82,7 +82,7 @@ def _encoder_for(cls: type):
     if issubclass(cls, float):
         return _finite
     if issubclass(cls, (list, tuple)):
-        return lambda obj, drop_none: [x if type(x) in _PLAIN else to_dict(x, drop_none) for x in obj]
+        return _sequence
     if issubclass(cls, dict):
         return lambda obj, drop_none: {str(k): to_dict(v, drop_none) for k, v in obj.items()}
     return lambda obj, drop_none: obj
@@ -90,6 +90,22 @@ def _encoder_for(cls: type):
 
 def _finite(obj, drop_none: bool):
     return obj if math.isfinite(obj) else None
+
+
+def _sequence(obj, drop_none: bool) -> list:
+    # a curve's floats and instants inline (as to_dict would encode each: finite or None, ISO text)
+    out = []
+    for x in obj:
+        t = type(x)
+        if t in _PLAIN:
+            out.append(x)
+        elif t is float:
+            out.append(x if math.isfinite(x) else None)
+        elif t is dt.datetime:
+            out.append(iso_utc(x))
+        else:
+            out.append(to_dict(x, drop_none))
+    return out
 
 
 def _dataclass_encoder(names: tuple[str, ...]):
@@ -101,7 +117,8 @@ def _dataclass_encoder(names: tuple[str, ...]):
             if v is None and drop_none:
                 continue
             t = type(v)  # plain values inline: no call for each of them
-            out[name] = v if t in _PLAIN else (v if math.isfinite(v) else None) if t is float else to_dict(v, drop_none)
+            out[name] = (v if t in _PLAIN else (v if math.isfinite(v) else None) if t is float
+                         else iso_utc(v) if t is dt.datetime else to_dict(v, drop_none))
         return out
 
     return encode

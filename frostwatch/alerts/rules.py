@@ -96,6 +96,22 @@ class BlockAlertState:
     told_to_start: bool = False  # a protect or all-hands alert told the grower to run the block's method
 
 
+_STATE_FIELDS = frozenset(f.name for f in dataclasses.fields(BlockAlertState))
+
+
+def _replaced(state: BlockAlertState, changes: dict) -> BlockAlertState:
+    """`dataclasses.replace(state, **changes)` without its per-call field walk (a block's state
+    changes a few times at every evaluation): the same fields and values, a new frozen object."""
+    unknown = changes.keys() - _STATE_FIELDS
+    if unknown:
+        raise TypeError(f"BlockAlertState has no field {sorted(unknown)[0]!r}")
+    new = object.__new__(BlockAlertState)
+    fields = new.__dict__
+    fields.update(state.__dict__)
+    fields.update(changes)
+    return new
+
+
 def protection_ran(state: BlockAlertState) -> bool:
     """Whether the block's protection may have run tonight: its running flag said so, or a protect or
     all-hands alert told the grower to start the block's own method (a flag can be wrong; a grower
@@ -145,7 +161,7 @@ class _Run:
         self.alerts: list[Alert] = []
 
     def set(self, **kw) -> None:
-        self.state = dataclasses.replace(self.state, **kw)
+        self.state = _replaced(self.state, kw)
 
     def _key(self, suffix: str) -> str:
         seq = self.state.sequence + 1
