@@ -248,10 +248,9 @@ def covered_nights(cfg: Config, series: Series, ev: Evaluator | None = None) -> 
     starts = [t for t, _ in series.values()]
     nights = []
     near = _dates_near_readings(starts)
-    for d in nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC)):
-        if d.toordinal() not in near:
-            continue  # no reading within days of it: its sun times are not worked out
-        night = ev.night(d)
+    spanned = nights_spanned(cfg, dt.datetime.fromtimestamp(first, dt.UTC), dt.datetime.fromtimestamp(last, dt.UTC))
+    # no reading within days of a date: its sun times are not worked out; the others' in one pass
+    for night in ev.nights([d for d in spanned if d.toordinal() in near]):
         window_end = night.sunrise_utc.timestamp() + MORNING_WATCH_H * 3600.0
         if _any_reading(starts, (night.sunset_utc - LOOKBACK).timestamp(), window_end):
             nights.append(night)  # covered by the logs (a night without any reading is not)
