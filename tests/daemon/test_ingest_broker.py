@@ -95,8 +95,9 @@ def test_readings_published_while_stopped_arrive_on_start(site, mosquitto, daemo
 
 
 def test_broker_restart_mid_stream_loses_nothing(site, mosquitto, daemon_proc):
-    """The broker restarts while readings flow: the daemon reconnects within 5 s and every reading
-    published before and after is stored."""
+    """The broker restarts while readings flow: the daemon reconnects (its backoff is 1-3 s, checked
+    without a clock in tests/daemon/test_urgent_commit.py::test_the_ingest_client_retries_the_broker_every_1_to_3_s;
+    here a generous 30 s wait) and every reading published before and after is stored."""
     cfg, db = site
     daemon_proc.start()
     assert wait_until(lambda: "connected to" in daemon_proc.log_text(), 20)
@@ -105,9 +106,7 @@ def test_broker_restart_mid_stream_loses_nothing(site, mosquitto, daemon_proc):
     pub.disconnect()
     pub.loop_stop()
     mosquitto.restart()  # SIGTERM (the broker saves its sessions), then start again
-    back = time.monotonic()
-    assert wait_until(lambda: daemon_proc.log_text().count("connected to") >= 2, 5.0), "no reconnect within 5 s"
-    reconnect_s = time.monotonic() - back
+    assert wait_until(lambda: daemon_proc.log_text().count("connected to") >= 2, 30.0), "no reconnect within 30 s"
     pub = connect_publisher(mosquitto.port, "pub-b")
     publish_all(pub, reading_msgs(500, START, offset=1500))
     pub.loop_stop()
@@ -116,7 +115,6 @@ def test_broker_restart_mid_stream_loses_nothing(site, mosquitto, daemon_proc):
         f"{db_count(db)} of 2000 stored; daemon log:\n{daemon_proc.log_text()[-3000:]}")
     assert daemon_proc.terminate() == 0
     assert db_count(db) == 2000
-    assert reconnect_s < 5.0
 
 
 POISON: list[tuple[str, bytes, str]] = [

@@ -57,3 +57,16 @@ def test_an_urgent_reading_does_not_wait_for_the_batch_delay(demo_config, tmp_pa
         finally:
             pub.loop_stop()
             ing.stop()
+
+
+def test_the_ingest_client_retries_the_broker_every_1_to_3_s(demo_config, tmp_path):
+    """Pass: the paho client the daemon connects with retries a lost broker after 1 s, backing off
+    to the configured reconnect_max_s (3 s by default), never paho's default of up to 120 s, which
+    would leave readings unstored for two minutes after a broker restart. Read from the client's
+    own settings, not timed."""
+    cfg = load_config(demo_config)
+    with Store.open(tmp_path / "r.db") as store:
+        ing = MqttIngest(cfg, store, IngestSettings(status_topic="fwr/status"))
+        assert (ing.client._reconnect_min_delay, ing.client._reconnect_max_delay) == (1, 3)
+        ing = MqttIngest(cfg, store, IngestSettings(reconnect_max_s=7, status_topic="fwr/status"))
+        assert ing.client._reconnect_max_delay == 7

@@ -129,11 +129,9 @@ def test_half_open_broker_raises_broker_down_over_a_non_mqtt_channel(tmp_path, m
         assert publish(pub, [reading("hill-low", t0 + dt.timedelta(seconds=k), 3.0) for k in range(50)])
         assert wait_until(lambda: len(query(db, "SELECT 1 FROM readings")) >= 50, 20)
         os.kill(pid, signal.SIGSTOP)
-        stopped = time.monotonic()
         for k in range(50, 100):  # sent into the frozen broker: they sit in the publisher's queue
             pub.publish(*reading("hill-low", t0 + dt.timedelta(seconds=k), 3.0), qos=1)
         assert wait_until(lambda: health_events(db, "broker"), 2.5 * KEEPALIVE_S + 15), "no broker-down event"
-        assert time.monotonic() - stopped <= 2.5 * KEEPALIVE_S + 15
         assert wait_until(lambda: any(ch == "console" and st == "sent"
                                       for ch, st, _ in _console_deliveries(db, "broker:%")), 15)
     finally:
