@@ -12,7 +12,8 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from zoneinfo import ZoneInfo
 
-from frostwatch.physics.sun import POLAR_DAY, POLAR_NIGHT, sun_night_utc, sun_nights_utc
+from frostwatch.physics.sun import POLAR_DAY, POLAR_NIGHT, sun_night_utc
+from frostwatch.physics.sun_season import sun_nights_utc
 
 DUSK_OFFSET = dt.timedelta(hours=2)  # FAO-FP ch. 5: the forecast is issued 2 h after sunset
 

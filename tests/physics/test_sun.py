@@ -332,7 +332,7 @@ SEASON_SITES = [
 
 @pytest.mark.parametrize("latitude_deg, longitude_deg, tz", SEASON_SITES)
 def test_night_windows_of_a_season_equal_each_night_alone(latitude_deg, longitude_deg, tz):
-    from frostwatch.physics.sun import night_windows_utc
+    from frostwatch.physics.sun_season import night_windows_utc
 
     # every third day of a year and a half (both DST changes, both polar seasons), and some of 1961
     evenings = [date(2026, 1, 2) + timedelta(days=3 * k) for k in range(180)]
@@ -347,14 +347,14 @@ def test_elevation_written_out_is_astrals_to_the_bit():
     import astral.sun
     import numpy as np
 
-    from frostwatch.physics import sun
+    from frostwatch.physics import sun_season
 
     rng = np.random.default_rng(5)
     for latitude_deg, longitude_deg, _ in SEASON_SITES + [(89.9, 0.0, "UTC"), (-89.95, -179.9, "UTC")]:
         observer = astral.Observer(latitude=latitude_deg, longitude=longitude_deg, elevation=0.0)
         instants = rng.integers(-1_500_000_000, 4_000_000_000, 400)  # 1922 to 2096 (typical years splice old ones)
-        fast = sun._elevation_above_deg_np(latitude_deg, longitude_deg, instants)
+        fast = sun_season._elevation_above_deg_np(latitude_deg, longitude_deg, instants)
         for t_s, v in zip(instants.tolist(), fast, strict=True):
             ref = astral.sun.elevation(observer, datetime.fromtimestamp(t_s, UTC), with_refraction=False) + 0.833
-            assert sun._above_horizon_deg_at_s(latitude_deg, longitude_deg, t_s) == ref
+            assert sun_season._above_horizon_deg_at_s(latitude_deg, longitude_deg, t_s) == ref
             assert abs(v - ref) < 1e-9
