@@ -80,6 +80,7 @@ def plot_block_night(
         _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c, runs, start, end)
         if ax2 is not None:
             _lower(ax2, lower, block, cfg, series, night, display, start, end)
+        _keep_the_night_in_view(ax, start, end, tz)
         last = ax2 if ax2 is not None else ax
         last.xaxis.set_major_locator(mdates.HourLocator(byhour=range(0, 24, 3), tz=tz))
         last.xaxis.set_major_formatter(mdates.DateFormatter("%H:%M", tz=tz))
@@ -89,6 +90,16 @@ def plot_block_night(
         fig.savefig(path, dpi=DPI, bbox_inches="tight")
         plt.close(fig)
     return path
+
+
+def _keep_the_night_in_view(ax, start_s: float, end_s: float, tz) -> None:
+    """A block with no reading this night has only guide lines (T10, sunset, ...), which matplotlib
+    does not scale to: it fell back to two years either side, and the 3-hour ticks of that took
+    a minute to draw. Such an axis gets the night's window; one with readings keeps its own."""
+    lo, hi = ax.get_xlim()
+    if hi - lo > 2 * (end_s - start_s) / 86400.0:  # matplotlib's x unit here is the day
+        ax.set_xlim(dt.datetime.fromtimestamp(start_s, dt.UTC).astimezone(tz),
+                    dt.datetime.fromtimestamp(end_s, dt.UTC).astimezone(tz))
 
 
 def _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c, runs, start, end) -> None:
