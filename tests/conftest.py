@@ -157,3 +157,65 @@ def make_broker(tmp_path: Path):
     yield make
     for b in made:
         b.kill()
+
+
+# ---- one real `frostwatch replay --json` per farm and logs, for the whole session -----------------
+
+
+class Replayed:
+    """What one `frostwatch replay LOGS --config C --json --report-dir R` gave: the config file (its
+    store beside it), the report folder and the printed document. Shared by every test that asks for
+    the same config text and logs: read it, never change it (`doc()` parses a fresh copy each call)."""
+
+    def __init__(self, config: Path, reports: Path, stdout: str):
+        self.config, self.reports, self.stdout = config, reports, stdout
+
+    def doc(self) -> dict:
+        import json
+
+        return json.loads(self.stdout)
+
+
+@pytest.fixture(scope="session")
+def replayed(tmp_path_factory):
+    """replayed(config_text, logs, name="farm.toml") -> Replayed: the demo farm's and the scenario
+    farms' nights are replayed by many test modules (alert wording, short forms, merged minutes, one
+    message, the daemon's path); each (config, logs) once per session, with its night reports, in
+    a real process as a grower runs it. The acknowledgement codes in the alerts are random per run."""
+    import json
+    import sys
+
+    done: dict[tuple, Replayed] = {}
+
+    def replay(config_text: str, logs: list[Path], name: str = "farm.toml") -> Replayed:
+        key = (config_text, tuple(str(p) for p in logs), name)
+        if key not in done:
+            work = tmp_path_factory.mktemp("replayed")
+            cfg = work / name
+            cfg.write_text(config_text, encoding="utf-8")
+            reports = work / "reports"
+            p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", *map(str, logs), "--config", str(cfg),
+                                "--json", "--report-dir", str(reports)], capture_output=True, text=True, timeout=900,
+                               cwd=work)
+            assert p.returncode == 0, p.stderr[-3000:]
+            json.loads(p.stdout)  # one document
+            done[key] = Replayed(cfg, reports, p.stdout)
+        return done[key]
+
+    return replay
+
+
+
+@pytest.fixture(scope="session")
+def demo_printed(tmp_path_factory) -> subprocess.CompletedProcess:
+    """The README's first command, `frostwatch demo`, run once for the session as a new user runs
+    it: no config, no --out, in an empty folder that is also HOME (no broker, no network). Its
+    printed text is read by the CLI test (it names its report) and the message test (every
+    printed alert is consistent)."""
+    import sys
+
+    home = tmp_path_factory.mktemp("demo-home")
+    p = subprocess.run([sys.executable, "-m", "frostwatch", "demo"], capture_output=True, text=True, cwd=home,
+                       env=dict(os.environ, HOME=str(home)), timeout=600)
+    assert p.returncode == 0, p.stderr[-3000:]
+    return p

@@ -3,7 +3,6 @@
 import csv
 import io
 import json
-import os
 import shutil
 import subprocess
 import sys
@@ -87,12 +86,10 @@ def test_report_writes_html_png_and_csv(demo_config, demo_logs, capsys, tmp_path
     assert rc == 2 and "no readings stored" in err
 
 
-def test_demo_needs_nothing_and_names_its_report(tmp_path):
-    """The README's first command: no config, no broker, no network."""
-    env = dict(os.environ, HOME=str(tmp_path))
-    p = subprocess.run([sys.executable, "-m", "frostwatch", "demo"], capture_output=True, text=True, cwd=tmp_path,
-                       env=env, timeout=300)
-    assert p.returncode == 0, p.stderr
+def test_demo_needs_nothing_and_names_its_report(demo_printed):
+    """The README's first command: no config, no broker, no network (the session's one run of it,
+    tests/conftest.py, in an empty folder that is also HOME)."""
+    p = demo_printed
     assert "night report:" in p.stdout and ".html" in p.stdout
     assert "PROTECT" in p.stdout and "Cautions:" in p.stdout
     page = Path(p.stdout.split("night report: ")[1].split()[0])

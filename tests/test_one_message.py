@@ -10,10 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import itertools
-import json
 import re
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -129,21 +126,14 @@ def test_every_level_with_every_plan_renders_a_headline_and_action_that_agree(pr
     assert checked == len(PROJECTIONS) * 2 * (len(LEVELS) + 1)
 
 
-def _run(*args, cwd=None) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "frostwatch", *args], capture_output=True, text=True, timeout=600, cwd=cwd)
-
-
 @pytest.fixture(scope="module")
-def demo_replay(tmp_path_factory) -> dict:
-    """The sample nights replayed through a real `frostwatch replay --json` process."""
+def demo_replay(replayed) -> dict:
+    """The sample nights replayed through a real `frostwatch replay --json` process (the session's
+    shared replay, tests/conftest.py)."""
     from importlib import resources
 
-    tmp = tmp_path_factory.mktemp("one-message")
-    cfg = tmp / "demo-farm.toml"
-    cfg.write_text(resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8"))
-    p = _run("replay", *(str(SAMPLE / n) for n in NIGHTS), "--config", str(cfg), "--json", "--no-report")
-    assert p.returncode == 0, p.stderr[-2000:]
-    return json.loads(p.stdout)
+    text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
+    return replayed(text, [SAMPLE / n for n in NIGHTS], "demo-farm.toml").doc()
 
 
 def test_no_demo_alert_has_a_headline_and_action_that_disagree(demo_replay):
@@ -158,10 +148,8 @@ def test_no_demo_alert_has_a_headline_and_action_that_disagree(demo_replay):
         assert f"Advice: {a['advice']}." in a["message"]
 
 
-def test_demo_prints_only_consistent_alerts(tmp_path):
-    p = _run("demo", "--out", str(tmp_path / "demo"))
-    assert p.returncode == 0, p.stderr[-2000:]
-    out = p.stdout
+def test_demo_prints_only_consistent_alerts(demo_printed):
+    out = demo_printed.stdout  # the session's one `frostwatch demo` (tests/conftest.py)
     assert "n/a" not in out
     blocks = re.split(r"\n  (?=\d{4}-\d{2}-\d{2} \d{2}:\d{2} \w+  )", out.split("\nAlerts:\n", 1)[1].split("\nNight summary")[0])
     checked = 0

@@ -16,8 +16,6 @@ import datetime as dt
 import html.parser
 import json
 import re
-import subprocess
-import sys
 from importlib import resources
 from pathlib import Path
 
@@ -117,10 +115,6 @@ def problems(texts: dict[str, str], patterns, label: str) -> list[str]:
     return out
 
 
-def _run(*args) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "frostwatch", *args], capture_output=True, text=True, timeout=900)
-
-
 def _status_and_fleet_pages(cfg_path: Path, times: list[dt.datetime]) -> dict[str, str]:
     """The status page and the fleet page at each instant, from the replayed store (a heartbeat
     written at that instant stands for a running daemon)."""
@@ -154,11 +148,12 @@ def _status_and_fleet_pages(cfg_path: Path, times: list[dt.datetime]) -> dict[st
     return out
 
 
-def _collect(work: Path, cfg_path: Path, logs: list[Path], pages: bool = True) -> dict[str, str]:
-    reports = work / "reports"
-    p = _run("replay", *map(str, logs), "--config", str(cfg_path), "--json", "--report-dir", str(reports))
-    assert p.returncode == 0, p.stderr[-2000:]
-    doc = json.loads(p.stdout)
+def _collect(replayed, config_text: str, name: str, logs: list[Path], pages: bool = True) -> dict[str, str]:
+    """The texts of one farm's replay (the session's shared `frostwatch replay --json --report-dir`,
+    tests/conftest.py); the status and fleet pages rendered from its store."""
+    replay = replayed(config_text, logs, name)
+    cfg_path = replay.config
+    doc = replay.doc()
     texts: dict[str, str] = {}
     for a in doc["alerts"]:
         for k in ("message", "advice", "short"):
@@ -176,36 +171,26 @@ def _collect(work: Path, cfg_path: Path, logs: list[Path], pages: bool = True) -
     return texts
 
 
-def _copy_config(text: str, folder: Path, name: str) -> Path:
-    folder.mkdir(parents=True, exist_ok=True)
-    p = folder / name
-    p.write_text(text, encoding="utf-8")
-    return p
-
-
 @pytest.fixture(scope="module")
-def demo_texts(tmp_path_factory) -> dict[str, str]:
-    work = tmp_path_factory.mktemp("words-demo")
+def demo_texts(replayed) -> dict[str, str]:
     text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
-    return _collect(work, _copy_config(text, work, "demo-farm.toml"), [SAMPLE / n for n in DEMO_NIGHTS])
+    return _collect(replayed, text, "demo-farm.toml", [SAMPLE / n for n in DEMO_NIGHTS])
 
 
 @pytest.fixture(scope="module")
-def fahrenheit_texts(tmp_path_factory) -> dict[str, str]:
-    work = tmp_path_factory.mktemp("words-degf")
+def fahrenheit_texts(replayed) -> dict[str, str]:
     text = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
     assert 'display_unit = "degC"' in text
-    cfg = _copy_config(text.replace('display_unit = "degC"', 'display_unit = "degF"'), work, "demo-farm.toml")
-    return _collect(work, cfg, [SAMPLE / n for n in DEMO_NIGHTS])
+    return _collect(replayed, text.replace('display_unit = "degC"', 'display_unit = "degF"'), "demo-farm.toml",
+                    [SAMPLE / n for n in DEMO_NIGHTS])
 
 
 @pytest.fixture(scope="module")
-def scenario_texts(tmp_path_factory) -> dict[str, str]:
+def scenario_texts(replayed) -> dict[str, str]:
     texts: dict[str, str] = {}
     for i, (log, config) in enumerate(SCENARIO_RUNS):
-        work = tmp_path_factory.mktemp(f"words-scenario-{i}")
-        cfg = _copy_config((SCENARIOS / config).read_text(encoding="utf-8"), work, config)
-        got = _collect(work, cfg, [SCENARIOS / log], pages=(i == 0))
+        got = _collect(replayed, (SCENARIOS / config).read_text(encoding="utf-8"), config, [SCENARIOS / log],
+                       pages=(i == 0))
         texts.update({f"{config}: {k}": v for k, v in got.items()})
     return texts
 

@@ -49,10 +49,11 @@ def _replay(config: Path, logs: list[Path]) -> dict:
 
 
 @pytest.mark.slow
-def test_replay_gives_the_alerts_and_projections_of_the_daemons_path(demo_config, tmp_path, monkeypatch):
+def test_replay_gives_the_alerts_and_projections_of_the_daemons_path(demo_config, tmp_path, monkeypatch, replayed):
     logs = [SAMPLES / n for n in NIGHTS]
-    doc = _replay(demo_config, logs)
-    cfg = load_config(demo_config)
+    replay = replayed(demo_config.read_text(encoding="utf-8"), logs, "demo-farm.toml")  # the session's shared replay
+    doc = replay.doc()
+    cfg = load_config(replay.config)
 
     # the daemon's path, on a store of its own
     daemon_cfg_path = tmp_path / "daemon" / "site.toml"

@@ -15,7 +15,6 @@ import csv
 import datetime as dt
 import json
 import math
-import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -120,14 +119,9 @@ def test_hand_numbers_of_the_tables_match_the_logs():
 # ---- the replays ----------------------------------------------------------------------------------
 
 
-def _replay(tmp_path_factory, log: str, config: str) -> dict:
-    work = tmp_path_factory.mktemp(Path(config).stem)
-    shutil.copy(SCENARIOS / config, work / config)
-    shutil.copy(SCENARIOS / log, work / log)
-    p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", str(work / log), "--config", str(work / config),
-                        "--json", "--no-report"], capture_output=True, text=True, timeout=600, cwd=work)
-    assert p.returncode == 0, p.stderr[-3000:]
-    return json.loads(p.stdout)
+def _replay(replayed, log: str, config: str) -> dict:
+    """The scenario night through a real `frostwatch replay --json` (the session's shared replay)."""
+    return replayed((SCENARIOS / config).read_text(encoding="utf-8"), [SCENARIOS / log], config).doc()
 
 
 def _t(iso: str) -> float:
@@ -155,28 +149,28 @@ def _safe(d):
 
 
 @pytest.fixture(scope="module")
-def a_ref(tmp_path_factory):
-    return _replay(tmp_path_factory, "2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml")
+def a_ref(replayed):
+    return _replay(replayed, "2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml")
 
 
 @pytest.fixture(scope="module")
-def a_noref(tmp_path_factory):
-    return _replay(tmp_path_factory, "2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml")
+def a_noref(replayed):
+    return _replay(replayed, "2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml")
 
 
 @pytest.fixture(scope="module")
-def b_towers(tmp_path_factory):
-    return _replay(tmp_path_factory, "2027-04-21-site-tower.csv", "alder-flat-towers.toml")
+def b_towers(replayed):
+    return _replay(replayed, "2027-04-21-site-tower.csv", "alder-flat-towers.toml")
 
 
 @pytest.fixture(scope="module")
-def c_drying(tmp_path_factory):
-    return _replay(tmp_path_factory, "2027-04-22-drying-night.csv", "alder-flat-drying.toml")
+def c_drying(replayed):
+    return _replay(replayed, "2027-04-22-drying-night.csv", "alder-flat-drying.toml")
 
 
 @pytest.fixture(scope="module")
-def d_inversion(tmp_path_factory):
-    return _replay(tmp_path_factory, "2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml")
+def d_inversion(replayed):
+    return _replay(replayed, "2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml")
 
 
 def _inversion_at_minimum(s, block: str, day: dt.date) -> tuple[float, float]:

@@ -6,9 +6,6 @@ sends a block two alerts in the same minute."""
 from __future__ import annotations
 
 import datetime as dt
-import json
-import subprocess
-import sys
 from collections import Counter
 from pathlib import Path
 
@@ -63,26 +60,17 @@ def test_merged_keeps_the_most_urgent_and_what_the_others_resolve():
     assert m.key == b.key and m.resolves == "east/2027-04-14/000-go-look"
 
 
-def _replay(tmp_path: Path, config_text: str, logs: list[Path]) -> list[dict]:
-    tmp_path.mkdir(parents=True, exist_ok=True)
-    cfg = tmp_path / "farm.toml"
-    cfg.write_text(config_text, encoding="utf-8")
-    p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", *map(str, logs), "--config", str(cfg), "--json",
-                        "--no-report"], capture_output=True, text=True, timeout=900)
-    assert p.returncode == 0, p.stderr[-2000:]
-    return json.loads(p.stdout)["alerts"]
-
-
-def test_no_replayed_night_sends_a_block_two_alerts_in_one_minute(tmp_path):
+def test_no_replayed_night_sends_a_block_two_alerts_in_one_minute(replayed):
     from importlib import resources
 
     demo = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
-    alerts = _replay(tmp_path / "demo", demo, [SAMPLE / n for n in (
-        "2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv")])
+    alerts = replayed(demo, [SAMPLE / n for n in (
+        "2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv")],
+        "demo-farm.toml").doc()["alerts"]
     scen = SAMPLE / "scenarios"
     for log, config in (("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml"),
                         ("2027-04-21-site-tower.csv", "alder-flat-towers.toml"),
                         ("2027-04-22-drying-night.csv", "alder-flat-drying.toml")):
-        alerts += _replay(tmp_path / config, (scen / config).read_text(encoding="utf-8"), [scen / log])
+        alerts += replayed((scen / config).read_text(encoding="utf-8"), [scen / log], config).doc()["alerts"]
     per_minute = Counter((a["block"], a["time"][:16]) for a in alerts)
     assert [k for k, n in per_minute.items() if n > 1] == []

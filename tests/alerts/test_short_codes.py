@@ -103,31 +103,23 @@ def test_every_level_short_body_fits_with_any_prefix_and_code(protection, unit):
 # ---- every alert of the demo and of the scenario nights -------------------------------------------
 
 
-def _replay(tmp_path: Path, config_text: str, logs: list[Path]) -> list[dict]:
-    cfg = tmp_path / "farm.toml"
-    cfg.write_text(config_text, encoding="utf-8")
-    p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", *map(str, logs), "--config", str(cfg), "--json",
-                        "--no-report"], capture_output=True, text=True, timeout=900)
-    assert p.returncode == 0, p.stderr[-2000:]
-    return json.loads(p.stdout)["alerts"]
-
-
 @pytest.fixture(scope="module")
-def all_alerts(tmp_path_factory) -> list[dict]:
+def all_alerts(replayed) -> list[dict]:
+    """Every alert of the demo nights (in °C and in °F) and of the scenario nights, from the
+    session's shared replays (tests/conftest.py `replayed`)."""
     from importlib import resources
 
     demo = resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8")
-    out = _replay(tmp_path_factory.mktemp("short-demo"), demo, [SAMPLE / n for n in (
-        "2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv")])
-    out += _replay(tmp_path_factory.mktemp("short-demo-f"), demo.replace('display_unit = "degC"', 'display_unit = "degF"'),
-                   [SAMPLE / "2027-04-14-radiation-frost.csv"])
-    for i, (log, config) in enumerate((("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml"),
-                                       ("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml"),
-                                       ("2027-04-21-site-tower.csv", "alder-flat-towers.toml"),
-                                       ("2027-04-22-drying-night.csv", "alder-flat-drying.toml"),
-                                       ("2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml"))):
-        out += _replay(tmp_path_factory.mktemp(f"short-s{i}"), (SCENARIOS / config).read_text(encoding="utf-8"),
-                       [SCENARIOS / log])
+    nights = [SAMPLE / n for n in (
+        "2027-04-14-radiation-frost.csv", "2027-04-15-windy-advective.csv", "2027-04-16-cloudy-safe.csv")]
+    out = replayed(demo, nights, "demo-farm.toml").doc()["alerts"]
+    out += replayed(demo.replace('display_unit = "degC"', 'display_unit = "degF"'), nights, "demo-farm.toml").doc()["alerts"]
+    for log, config in (("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers.toml"),
+                        ("2027-04-20-sprinklers-sunrise.csv", "alder-flat-sprinklers-no-reference.toml"),
+                        ("2027-04-21-site-tower.csv", "alder-flat-towers.toml"),
+                        ("2027-04-22-drying-night.csv", "alder-flat-drying.toml"),
+                        ("2027-04-23-inversion-builds.csv", "alder-flat-inversion.toml")):
+        out += replayed((SCENARIOS / config).read_text(encoding="utf-8"), [SCENARIOS / log], config).doc()["alerts"]
     return out
 
 
