@@ -159,10 +159,14 @@ def free_port() -> int:
 
 
 class StatusPageProc:
-    """`frostwatch status-page` in a subprocess on a free loopback port (stopped by its own pid)."""
+    """`frostwatch status-page` in a subprocess on a free loopback port (stopped by its own pid).
+    With `cache_s`, the page keeps a computed page that long instead of the shipped 20 s
+    (frostwatch.status.server.CACHE_S), so a test that waits for the page to see a change waits
+    seconds, not the cache's 20."""
 
-    def __init__(self, config: Path):
+    def __init__(self, config: Path, cache_s: float | None = None):
         self.config = config
+        self.cache_s = cache_s
         self.port = free_port()
         self.log = config.parent / "status-page.log"
         self.proc: subprocess.Popen | None = None
@@ -175,8 +179,12 @@ class StatusPageProc:
         import urllib.request
 
         f = self.log.open("ab")
+        command = [sys.executable, "-m", "frostwatch"]
+        if self.cache_s is not None:
+            command = [sys.executable, "-c", "import sys\nimport frostwatch.status.server as s\n"
+                       f"s.CACHE_S = {float(self.cache_s)!r}\nfrom frostwatch.cli import main\nsys.exit(main(sys.argv[1:]))\n"]
         self.proc = subprocess.Popen(
-            [sys.executable, "-m", "frostwatch", "status-page", "--config", str(self.config), "--port", str(self.port)],
+            [*command, "status-page", "--config", str(self.config), "--port", str(self.port)],
             stdout=f, stderr=subprocess.STDOUT, env=dict(os.environ, PYTHONUNBUFFERED="1"),
         )
 

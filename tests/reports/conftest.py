@@ -1,7 +1,9 @@
-"""Fixtures for the report and status-page tests: the demo farm replayed once per module."""
+"""Fixtures for the report and status-page tests: the demo farm replayed once per session, a copy
+of its store per module."""
 
 from __future__ import annotations
 
+import shutil
 from importlib import resources
 from pathlib import Path
 
@@ -19,16 +21,30 @@ def _demo_config(folder: Path) -> Path:
     return p
 
 
+@pytest.fixture(scope="session")
+def _replayed_stores(tmp_path_factory) -> dict[str, Path]:
+    """The frost night and the three demo nights, each replayed once per session into a folder of
+    its own (the config beside its store); the modules below get copies."""
+    frost = _demo_config(tmp_path_factory.mktemp("frost-night-template"))
+    assert main(["replay", str(FROST_NIGHT), "--config", str(frost), "--no-report"]) == 0
+    season = _demo_config(tmp_path_factory.mktemp("season-template"))
+    assert main(["replay", *map(str, ALL_NIGHTS), "--config", str(season), "--no-report"]) == 0
+    return {"frost": frost, "season": season}
+
+
+def _copy_of(cfg: Path, folder: Path) -> Path:
+    """The config's folder (config, store and any -wal beside it) copied: a module may change its
+    store (acknowledge an alert, record a delivery) without another module seeing it."""
+    shutil.copytree(cfg.parent, folder, dirs_exist_ok=True)
+    return folder / cfg.name
+
+
 @pytest.fixture(scope="module")
-def frost_night_store(tmp_path_factory) -> Path:
+def frost_night_store(_replayed_stores, tmp_path_factory) -> Path:
     """The demo config (tmp copy) with the radiation-frost night replayed into its store."""
-    cfg = _demo_config(tmp_path_factory.mktemp("frost-night"))
-    assert main(["replay", str(FROST_NIGHT), "--config", str(cfg), "--no-report"]) == 0
-    return cfg
+    return _copy_of(_replayed_stores["frost"], tmp_path_factory.mktemp("frost-night"))
 
 
 @pytest.fixture(scope="module")
-def season_store(tmp_path_factory) -> Path:
-    cfg = _demo_config(tmp_path_factory.mktemp("season"))
-    assert main(["replay", *map(str, ALL_NIGHTS), "--config", str(cfg), "--no-report"]) == 0
-    return cfg
+def season_store(_replayed_stores, tmp_path_factory) -> Path:
+    return _copy_of(_replayed_stores["season"], tmp_path_factory.mktemp("season"))
