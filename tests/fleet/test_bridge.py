@@ -9,7 +9,8 @@ central ACL of deploy/mosquitto/fleet-central.acl). Issue 17, part 3:
   siren on the site broker): it never waits on the link;
 - a site broker that dies is shown unreachable by its bridge's will at the centre.
 
-OUTAGE_S is 20 s in the suite; the full two minutes by hand:
+OUTAGE_S is 8 s in the suite (8 state changes, one a second, while the bridge retries every 1-2 s;
+the centre stays down at least until the site's alert has gone out); the full two minutes by hand:
     FROSTWATCH_TEST_BRIDGE_OUTAGE_S=120 bash tests/run tests/fleet/test_bridge.py
 """
 
@@ -31,7 +32,7 @@ from frostwatch.fleet.site import iso_utc
 
 pytestmark = [pytest.mark.broker, pytest.mark.slow]
 
-OUTAGE_S = float(os.environ.get("FROSTWATCH_TEST_BRIDGE_OUTAGE_S", "20"))
+OUTAGE_S = float(os.environ.get("FROSTWATCH_TEST_BRIDGE_OUTAGE_S", "8"))
 SITE = "cedar-bench-orchard"
 ROOT = f"frostwatch/{SITE}"
 PASSWORDS = {SITE: "site-secret-123", "fleet-view": "view-secret-456"}
@@ -173,7 +174,7 @@ def test_states_cross_the_bridge_and_survive_an_outage_in_order(net, tmp_path):
         def act_on_siren() -> bool:
             return any(json.loads(m[1]).get("level") == "protect" for m in list(siren.msgs))
 
-        assert wait_until(act_on_siren, min(30.0, OUTAGE_S)), daemon.log_text()[-3000:]
+        assert wait_until(act_on_siren, 30.0), daemon.log_text()[-3000:]  # the centre is still down until it has
         siren_s = time.monotonic() - outage_start
         assert central.proc.poll() is not None, "the alert must have gone out while the centre was down"
 
