@@ -4,7 +4,7 @@ values known at an instant), `calibration` (the learned models, skill weights an
 `learner` (the calibration learned night by night), `ridge` (ridge regression from moment
 matrices), `nowcast` (tonight's cooling as features, and a past night's training points),
 `curves` (Reuter's curve, the evening curve and the threshold crossings), `projection` (the
-projection and what a night did), `inversion` (tower minus crop height).
+projection), `records` (what a night did), `inversion` (tower minus crop height).
 """
 
 from frostwatch.forecast.calibration import (
@@ -20,7 +20,8 @@ from frostwatch.forecast.calibration import (
 from frostwatch.forecast.curves import crossing_time
 from frostwatch.forecast.learner import Learner, fit_calibration
 from frostwatch.forecast.nowcast import feature_matrix, features_at
-from frostwatch.forecast.projection import night_record, night_records, prior_c, project_block
+from frostwatch.forecast.projection import prior_c, project_block
+from frostwatch.forecast.records import night_record, night_records
 from frostwatch.forecast.sensors import (
     STUCK_MIN_READINGS,
     STUCK_WINDOW_S,
