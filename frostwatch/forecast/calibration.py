@@ -60,6 +60,21 @@ INVERSION_MEMORY = 30  # clear calm nights whose inversion at the minimum is kep
 COLD_EVENING_WEIGHT = 0.75  # share of the evening curve beside the prior while no regression exists
 USE_NAIVE = True  # the naive fall (the mean fall over the 2 h before past nights' minima) enters the nowcast blend
 NAIVE_WHEN_COOLING = False  # True: the naive fall only while the last 2 h cooled (benchmark variant)
+# The nowcast's approach correction: the blend's fall still to come, against the fall that came, at the
+# instant 2 h before each past night's minimum (its half-hourly point nearest then), per hours-left bin;
+# tonight's blend is corrected by it at every instant of that bin, on the colder half of nights (dusk
+# forecast below the mean minimum learned; on the others it costs more at a lead fixed in advance than
+# it gains). "scale": the fall times a ratio
+# (least squares through the origin); "add": minus the mean error; "affine": both. Each shrunk toward
+# no correction by LEAD_SHRINK (degC^2 for "scale", nights for "add"), past nights decayed with a
+# half-life of LEAD_HALF_LIFE nights.
+NOWCAST_LEAD_CORRECTION = True
+LEAD_MODE = "scale"
+LEAD_SHRINK = 2.0
+LEAD_HALF_LIFE = 100.0
+LEAD_HOURS = 2.0  # the lead before the minimum it is learned at
+LEAD_COLD_NIGHTS = True  # learned and applied only on nights forecast at dusk below the mean minimum learned
+LEAD_BAND_RAW = True  # the nowcast band stays the blend's own (residuals and centre before the correction)
 
 
 def dusk_regime(x: tuple[float, ...]) -> str:
@@ -113,6 +128,7 @@ class NightRecord:
     evening_curve_c: float | None = None
     inversion_at_min_c: float | None = None  # tower minus crop height at the observed minimum
     fall_before_min_c: float | None = None  # the reading 2 h before the observed minimum, minus it
+    min_hours_left: float | None = None  # hours from the observed minimum to sunrise (< 0: after it)
 
     @property
     def features(self) -> tuple[float, ...]:
@@ -140,7 +156,11 @@ class Calibration:
     recent skill at the same hours left to sunrise: a ridge regression on `NOWCAST_FEATURES`
     learned per hour left, tonight's square-root curve re-fitted since t0 (Reuter), the dusk
     curve, and the naive fall (the mean fall over the 2 h before the minimum of the nights
-    learned).
+    learned). The blend's weights are set at every half hour of past nights, where it falls short
+    of the fall that comes as a minimum approaches; the approach correction (`nc_lead`,
+    `NOWCAST_LEAD_CORRECTION`) scales the blend's fall by the ratio learned, per hours-left bin, at
+    the instants 2 h before past nights' minima (shrunk toward 1, `forecast.ridge.lead_fit`). The
+    band stays the blend's own, around the blend before the correction.
 
     Band: the 10 % and 90 % points of the recent walk-forward errors of the same forecast (at
     dusk, or at the same hours left), a normal band from the prior's spread until enough are known.
@@ -162,6 +182,7 @@ class Calibration:
     nc_samples: tuple[int, ...] = (0,) * NOWCAST_BINS
     nc_weights: tuple = (None,) * NOWCAST_BINS  # per bin: ((method, weight), ...) or None
     nc_bands: tuple = ()  # per bin: (low, high, n)
+    nc_lead: tuple = ()  # per bin: (offset, ratio) of the approach correction, fall' = offset + ratio x fall
     mean_min_c: float = 0.0
     naive_fall_c: float | None = None  # the mean fall over the 2 h before the minimum of the nights learned
     dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
@@ -284,9 +305,26 @@ class Calibration:
         return -self.naive_fall_c
 
     def nowcast_drop_c(
+        self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float,
+        lead: bool = True, dusk_min_c: float | None = None,
+    ) -> tuple[float, str]:
+        """The blended fall still to come (<= 0) and which methods spoke; with `lead`, the approach
+        correction (`NOWCAST_LEAD_CORRECTION`) applied."""
+        drop, spoke = self._nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
+        if lead and NOWCAST_LEAD_CORRECTION and self.nc_lead and self.cold_night(dusk_min_c):
+            offset, ratio = self.nc_lead[nowcast_bin(hours_left)]
+            if offset != 0.0 or ratio != 1.0:
+                drop = min(0.0, offset + ratio * drop)
+                spoke += (f"; x{ratio:.2f}" if offset == 0.0 else f"; {offset:+.2f} + x{ratio:.2f}") + " as on past nights' approach"
+        return drop, spoke
+
+    def cold_night(self, dusk_min_c: float | None) -> bool:
+        """True unless `LEAD_COLD_NIGHTS` and tonight's dusk forecast is not below the mean minimum learned."""
+        return not LEAD_COLD_NIGHTS or (dusk_min_c is not None and self.n_nights > 0 and dusk_min_c < self.mean_min_c)
+
+    def _nowcast_blend_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float
     ) -> tuple[float, str]:
-        """The blended fall still to come (<= 0) and which methods spoke."""
         comps = {"refit": min(0.0, f[0]), "dusk_curve": min(0.0, dusk_curve_drop_c)}
         naive = self.naive_drop_c(f)
         if naive is not None and USE_NAIVE:

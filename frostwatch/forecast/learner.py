@@ -30,10 +30,16 @@ from frostwatch.forecast.calibration import (
     DUSK_METHODS,
     FEATURES,
     INVERSION_MEMORY,
+    LEAD_BAND_RAW,
+    LEAD_HALF_LIFE,
+    LEAD_HOURS,
+    LEAD_MODE,
+    LEAD_SHRINK,
     MIN_REGRESSION_NIGHTS,
     NOWCAST_BIN_H,
     NOWCAST_BINS,
     NOWCAST_FEATURES,
+    NOWCAST_LEAD_CORRECTION,
     NOWCAST_METHODS,
     NOWCAST_MIN_SAMPLES,
     NOWCAST_RIDGE_LAMBDA,
@@ -54,7 +60,7 @@ from frostwatch.forecast.calibration import (
     dusk_regime,
     nowcast_bin,
 )
-from frostwatch.forecast.ridge import ridge_solve_many
+from frostwatch.forecast.ridge import lead_fit, ridge_solve_many
 
 
 class _Skill:
@@ -233,6 +239,8 @@ class Learner:
         self.nc_residuals = [_Window(BAND_MEMORY) for _ in range(NOWCAST_BINS)]
         self.fall_sum_c = 0.0  # the fall over the 2 h before each learned night's minimum (the naive nowcast)
         self.fall_n = 0
+        # the approach correction's decayed sums per bin: weight, blend, observed fall, blend^2, blend x fall
+        self.lead_sums = np.zeros((5, NOWCAST_BINS))
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
         self._bins: list = [None] * NOWCAST_BINS  # per bin (model, weights, band) as last snapshot; None: changed
@@ -260,6 +268,8 @@ class Learner:
             b_dusk = 0.0
         # nowcast samples: methods' errors and the blend's residual per hours-left bin
         bins = []
+        lead_hl = None if rec.min_hours_left is None else rec.min_hours_left + LEAD_HOURS
+        lead = None  # (distance in hours, f, hours left, dusk drop, elapsed, fall) of the point nearest then
         for f, drop in rec.nowcast_samples:
             hl = f[1] ** 2
             el = max(0.0, h - hl)
@@ -274,9 +284,16 @@ class Learner:
                 errs["learned"] = learned - drop
             self.nc_skill[b].add(errs)
             self._bins[b] = None
-            pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el)
+            pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=not LEAD_BAND_RAW, dusk_min_c=pred_dusk)
             self.nc_residuals[b].append(drop - pred)
             bins.append(b)
+            if lead_hl is not None and abs(hl - lead_hl) <= 0.26 and (lead is None or abs(hl - lead_hl) < lead[0]):
+                lead = (abs(hl - lead_hl), f, hl, dusk_drop, el, drop)
+        if lead is not None and NOWCAST_LEAD_CORRECTION and cal.cold_night(pred_dusk):
+            _, f, hl, dusk_drop, el, drop = lead
+            raw, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=False)
+            self.lead_sums *= 0.5 ** (1.0 / LEAD_HALF_LIFE)
+            self.lead_sums[:, nowcast_bin(hl)] += (1.0, raw, drop, raw * raw, raw * drop)
         if bins:  # each sample's outer product added to its bin's moments, in order (as one by one)
             z = np.array([(1.0, *f, drop) for f, drop in rec.nowcast_samples])
             np.add.at(self.nc_m, bins, z[:, :, None] * z[:, None, :])
@@ -352,6 +369,8 @@ class Learner:
         self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None])
         models, weights, bands = (list(x) for x in zip(*self._bins, strict=True))
         out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
+        if NOWCAST_LEAD_CORRECTION and self.lead_sums[0].any():
+            out["nc_lead"] = lead_fit(self.lead_sums, LEAD_MODE, LEAD_SHRINK)
         return Calibration(**out)
 
     def _refresh_bins(self, changed: list[int]) -> None:

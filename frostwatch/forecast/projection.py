@@ -24,6 +24,7 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
+from frostwatch.forecast import calibration as settings
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import Calibration, feature_vector
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
@@ -191,16 +192,21 @@ def project_block(
     e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
     anchor_c = as_of(series, speaker.station, "air_temperature", now_s, math.inf) or air_c
     tp_c = tp_dusk
+    band_at_c = None  # the band's centre where it is not tp_c
     if di is not None and now_s > t0_s and now_s < sunrise_s:
         f = features_at(t_air, v_air, t0_s, t0_c, sunrise_s, now_s, wind, cloud, td_c)
         if f is not None:
             latest_c, feats = f
             dusk_drop = b_dusk * (math.sqrt(h_from_t0) - e_now)
-            drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now)
+            drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, dusk_min_c=tp_dusk)
             tp_c = latest_c + drop
             lo_off, hi_off, _ = cal.nowcast_band(hours_left)
             method = f"nowcast ({spoke})"
+            if settings.NOWCAST_LEAD_CORRECTION and settings.LEAD_BAND_RAW and cal.nc_lead:
+                # the band is the blend's own (its walk-forward residuals): around the blend before the correction
+                band_at_c = latest_c + cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, lead=False)[0]
     tp_c = min(tp_c, anchor_c)
+    band_at_c = tp_c if band_at_c is None else min(band_at_c, anchor_c)
 
     grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, GRID_STEP_S)
     if grid_s[-1] < sunrise_s:
@@ -208,8 +214,8 @@ def project_block(
     e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
     span = math.sqrt(h_from_t0) - e_now
 
-    band_low_c = tp_c + min(lo_off, -MIN_BAND_C / 2)
-    band_high_c = tp_c + max(hi_off, MIN_BAND_C / 2)
+    band_low_c = band_at_c + min(lo_off, -MIN_BAND_C / 2)
+    band_high_c = band_at_c + max(hi_off, MIN_BAND_C / 2)
     curve = sqrt_curve_c(tp_c, anchor_c, e_grid, e_now, span)
     cold_curve = sqrt_curve_c(band_low_c, anchor_c, e_grid, e_now, span)
 

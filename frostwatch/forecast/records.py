@@ -116,6 +116,7 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
         protected=_protected(series, stations, dusk_s - 3600.0, end_s),
         inversion_at_min_c=inv_at_min,
         fall_before_min_c=fall_before_min_c(t, v, float(tw[i]), float(vw[i]), dusk_s),
+        min_hours_left=(sunrise_s - float(tw[i])) / 3600.0,
     ), (di.temp_c, x[1], h, x[3], x[2], p_hpa)
 
 

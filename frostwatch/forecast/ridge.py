@@ -77,3 +77,28 @@ def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.nd
     for r, i in enumerate(ok.tolist()):
         out[i] = (mu[r], coefs[r], float(y_mean[r]))
     return out
+
+
+def lead_fit(sums: np.ndarray, mode: str, shrink: float) -> tuple[tuple[float, float], ...]:
+    """(offset, ratio) per column of the nowcast's approach correction y ~ offset + ratio x from its
+    sums (rows: weight, sum x, sum y, sum x^2, sum x y), by least squares shrunk toward no
+    correction (offset 0, ratio 1) with penalty `shrink` (ridge regression toward a prior value,
+    Hoerl & Kennard 1970; the same as least squares with extra rows sqrt(k) (1, 0) -> 0 and
+    sqrt(k) (0, 1) -> sqrt(k)). mode "scale": y = r x, r = (sum x y + k) / (sum x^2 + k); "add":
+    y = x + c, c = sum (y - x) / (weight + k); "affine": y = c + r x, both shrunk.
+
+    References
+    ----------
+    Hoerl, A. E. and Kennard, R. W. (1970). Ridge regression: biased estimation for nonorthogonal
+    problems. Technometrics 12(1), 55-67.
+    """
+    w, sx, sy, sxx, sxy = sums
+    k = shrink
+    if mode == "scale":
+        off, ratio = np.zeros_like(w), (sxy + k) / (sxx + k)
+    elif mode == "add":
+        off, ratio = (sy - sx) / (w + k), np.ones_like(w)
+    else:  # "affine": [[w + k, sx], [sx, sxx + k]] (c, r) = (sy, sxy + k)
+        det = (w + k) * (sxx + k) - sx * sx
+        off, ratio = (sy * (sxx + k) - sx * (sxy + k)) / det, ((w + k) * (sxy + k) - sx * sy) / det
+    return tuple(zip(off.tolist(), ratio.tolist(), strict=True))

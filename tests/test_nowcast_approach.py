@@ -1,0 +1,56 @@
+"""The nowcast's approach correction (forecast.ridge.lead_fit): the ratio or offset that brings
+the blend's fall still to come to the fall that came, at the instants 2 h before past nights'
+minima, by least squares shrunk toward no correction. Checked against numpy's own least squares
+on the same points (the shrinkage written as extra rows of the design, the usual ridge identity)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from frostwatch.forecast import calibration
+from frostwatch.forecast.ridge import lead_fit
+
+
+def _sums(x, y):
+    return np.array([[len(x)], [x.sum()], [y.sum()], [(x * x).sum()], [(x * y).sum()]])
+
+
+@pytest.mark.parametrize("k", [0.0, 2.0, 7.5])
+def test_each_mode_is_the_shrunk_least_squares_of_the_points(k):
+    rng = np.random.default_rng(15)
+    x = -rng.uniform(0.0, 2.0, 25)  # the blend's falls (<= 0)
+    y = 1.3 * x - 0.2 + rng.normal(0.0, 0.3, 25)  # the falls that came
+    r = np.sqrt(k)
+    for mode, design, extra, target in (
+        ("scale", x[:, None], [[r]], [r]),  # y = b x, b shrunk toward 1
+        ("affine", np.column_stack([np.ones_like(x), x]), [[r, 0.0], [0.0, r]], [0.0, r]),  # (c, b) toward (0, 1)
+    ):
+        want = np.linalg.lstsq(np.vstack([design, extra]), np.concatenate([y, target]), rcond=None)[0]
+        off, ratio = lead_fit(_sums(x, y), mode, k)[0]
+        got = [ratio] if mode == "scale" else [off, ratio]
+        assert got == pytest.approx(want.tolist(), rel=1e-9, abs=1e-12)
+        if mode == "scale":
+            assert off == 0.0
+    off, ratio = lead_fit(_sums(x, y), "add", k)[0]
+    assert ratio == 1.0 and off == pytest.approx(np.sum(y - x) / (len(x) + k))
+
+
+def test_no_points_no_correction():
+    for mode in ("scale", "add", "affine"):
+        assert lead_fit(np.zeros((5, 3)), mode, 2.0) == ((0.0, 1.0),) * 3
+
+
+def test_the_corrected_fall_is_applied_in_its_bin_on_cold_nights_and_said():
+    cal = calibration.Calibration(n_nights=30, mean_min_c=5.0,
+                                  nc_lead=((0.0, 1.0),) * 2 + ((0.0, 1.5),) + ((0.0, 1.0),) * 11)
+    f = (-0.8, 2.5 ** 0.5, -1.0, 0.0, 0.0, 3.0)  # 2.5 h left: bin 2
+    raw, spoke_raw = cal.nowcast_drop_c(f, 2.5, -0.6, 6.0, lead=False)
+    got, spoke = cal.nowcast_drop_c(f, 2.5, -0.6, 6.0, dusk_min_c=1.0)
+    assert got == pytest.approx(1.5 * raw) and raw < 0.0
+    assert "x1.50 as on past nights' approach" in spoke and "approach" not in spoke_raw
+    # a night forecast at dusk warmer than the mean minimum learned, or with no dusk forecast: none
+    for warm in (5.0, 9.0, None):
+        assert cal.nowcast_drop_c(f, 2.5, -0.6, 6.0, dusk_min_c=warm) == (raw, spoke_raw)
+    # another bin, ratio 1: as before
+    assert cal.nowcast_drop_c(f, 5.5, -0.6, 3.0, dusk_min_c=1.0)[0] == cal.nowcast_drop_c(f, 5.5, -0.6, 3.0, lead=False)[0]
