@@ -1,7 +1,7 @@
 """The variants tried for the projection (issue 15), each measured by bench/forecast_skill.py on the
 same three open years, as a change from what ships; writes bench/results/forecast_variants.json.
 
-    python -m bench.forecast_variants          (about 7 minutes at load 2-5; not part of `python -m bench`)
+    python -m bench.forecast_variants [--only TEXT ...]   (all: about 7 minutes at load 2-5; not part of `python -m bench`)
 
 Each variant sets module constants of `frostwatch.forecast.calibration` (and of
 `forecast.learner`, which imports those it uses) for the run and restores them. Figures per
@@ -13,6 +13,7 @@ are shown, not used to choose.
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import sys
 import tempfile
@@ -242,18 +243,41 @@ def run_variant(patch: dict[str, object]) -> dict:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """All variants, or with `--only TEXT` (repeatable) those whose name contains one of the texts:
+    the other rows are kept from the last results, each with when it was measured."""
+    args = sys.argv[1:] if argv is None else argv
+    only = [args[k + 1] for k, a in enumerate(args) if a == "--only" and k + 1 < len(args)]
+    old: dict = {}
+    path = RESULTS / "forecast_variants.json"
+    if only and path.exists():
+        old = {r["variant"]: r for r in json.loads(path.read_text(encoding="utf-8")).get("variants", [])}
+    stamp = f"{dt.date.today().isoformat()}, {_head()}"
     rows = []
     for name, patch in VARIANTS.items():
+        if only and not any(o in name for o in only) and name in old:
+            rows.append({"measured": "against what shipped before the approach correction (at 92f8554)", **old[name]})
+            continue
         res = run_variant(patch)
-        rows.append({"variant": name, "change": {k: v for k, v in patch.items()}, "sites": _row(res)})
+        rows.append({"variant": name, "change": {k: v for k, v in patch.items()}, "measured": stamp, "sites": _row(res)})
         print(name, json.dumps(rows[-1]["sites"]), flush=True)
     doc = {"about": __doc__.split("\n\n")[0] + " " + __doc__.split("\n\n")[2].replace("\n", " "),
            "cells": "MAE/bias in degC; band: share inside / share below the lower edge; event: POD/FAR",
            "before_2a3d308": BEFORE, "variants": rows, "harness": HARNESS}
     RESULTS.mkdir(parents=True, exist_ok=True)
-    (RESULTS / "forecast_variants.json").write_text(json.dumps(doc, indent=1) + "\n", encoding="utf-8")
-    print(f"results: {RESULTS / 'forecast_variants.json'}")
+    path.write_text(json.dumps(doc, indent=1) + "\n", encoding="utf-8")
+    print(f"results: {path}")
     return 0
+
+
+def _head() -> str:
+    import subprocess
+
+    try:
+        out = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True, text=True,
+                             cwd=Path(__file__).resolve().parent, check=False)
+        return out.stdout.strip() or "unknown commit"
+    except OSError:
+        return "unknown commit"
 
 
 if __name__ == "__main__":
