@@ -195,6 +195,14 @@ HARNESS = [
      "figures": "2 h before the minimum 0.78 / 0.50 / 0.57, 0.85 / 0.51 / 0.60 (the gate almost never opens on "
                 "these files), 0.75 / 0.48 / 0.54, 0.75 / 0.47 / 0.52; 2 h before sunrise, all nights, 0.74 / 0.51 / "
                 "0.63, 0.74 / 0.50 / 0.59, 0.75 / 0.53 / 0.62, 0.75 / 0.53 / 0.67"},
+    # events: the dusk band's 10 % and 90 % points from the last 300 walk-forward residuals weighted toward
+    # nights like tonight (Gaussian in one dusk input), scored offline on the backtest's rows
+    {"variant": "band: dusk residual quantiles weighted toward nights of similar dew point (s = 3, 5 degC), dusk "
+                "forecast (3, 5), T0 (5), cloud fraction (0.2-0.5) or wind (1.5, 3 m/s)",
+     "figures": "Sand Point 'below 0 degC' POD / FAR 0.979 / 0.287, 0.258, 0.989 / 0.268, 0.979 / 0.252, 0.246, cloud "
+                "0.979 / 0.220-0.227, wind 0.240-0.246 (shipped 0.979 / 0.264), but the band then holds 72-75 % with "
+                "12-13 % below its lower edge (shipped 76 / 11): the FAR falls only as the band narrows past its "
+                "limits. Greensboro 0.947 / 0.325-0.372 (0.341): not shipped"},
 ]
 
 
