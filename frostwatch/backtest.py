@@ -15,9 +15,9 @@ import numpy as np
 
 from frostwatch import forecast
 from frostwatch.config import Config
-from frostwatch.forecast import Series
-from frostwatch.night import evening_date
-from frostwatch.pipeline import LOOKBACK, Evaluator, slice_series
+from frostwatch.forecast import Learner, Series
+from frostwatch.night import LOOKBACK, evening_date, nights_of_dates, slice_series
+from frostwatch.physics import humidity
 
 
 def _iso(t: dt.datetime | None) -> str | None:
@@ -52,15 +52,18 @@ def backtest(
     """
     if not series:
         return []
-    ev = Evaluator(cfg)
+    # the calibration the daemon's evaluator keeps (pipeline.Evaluator), without the alert rules,
+    # advice and display it also carries: a backtest scores the forecast only
+    learners = {b.id: Learner(cfg.forecast.calibration_nights) for b in cfg.blocks}
+    p_hpa = float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     rows: list[dict] = []
     nights = candidate_nights(cfg, series)
-    night_objs = ev.nights(nights)
+    night_objs = nights_of_dates(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, nights) if nights else []
     obs_of = [slice_series(series, (n.sunset_utc - LOOKBACK).timestamp(), n.sunrise_utc.timestamp() + 3600.0)
               for n in night_objs]
     # what each night did depends on its own readings only: all worked out first (the physics
     # priors in one pass), each learned only after its own night has been forecast (below)
-    records = {b.id: forecast.night_records(b, cfg, list(zip(obs_of, night_objs, strict=True)), ev.pressure_hpa)
+    records = {b.id: forecast.night_records(b, cfg, list(zip(obs_of, night_objs, strict=True)), p_hpa)
                for b in cfg.blocks}
     for k, (d, night, obs) in enumerate(zip(nights, night_objs, obs_of, strict=True)):
         issue = night.dusk_utc
@@ -70,8 +73,8 @@ def backtest(
             rec = records[block.id][k]
             if rec is None:
                 continue
-            cal = ev.calibration(block.id)
-            proj = forecast.project_block(issue, block, cfg, window, night, cal, ev.pressure_hpa)
+            cal = learners[block.id].calibration()
+            proj = forecast.project_block(issue, block, cfg, window, night, cal, p_hpa)
             if proj.predicted_min_c is not None:
                 row = {
                     "night": d.isoformat(),
@@ -102,7 +105,7 @@ def backtest(
                     nc = band = None
                     if at > issue:
                         now_win = slice_series(obs, start_s, at.timestamp())
-                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, p_hpa)
                         nc, band = pn.predicted_min_c, pn.band_c
                     row["nowcast_issued_at"] = _iso(at) if nc is not None else None
                     row["nowcast_min_c"] = nc
@@ -112,7 +115,7 @@ def backtest(
                     pn = None
                     if at > issue:
                         now_win = slice_series(obs, start_s, at.timestamp())
-                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                        pn = forecast.project_block(at, block, cfg, now_win, night, cal, p_hpa)
                     row["sunrise_nowcast_min_c"] = None if pn is None else pn.predicted_min_c
                     row["sunrise_nowcast_band_c"] = None if pn is None else pn.band_c
                 if probes is not None:
@@ -120,12 +123,11 @@ def backtest(
                         pn = None
                         if at is not None:
                             now_win = slice_series(obs, start_s, at.timestamp())
-                            pn = forecast.project_block(at, block, cfg, now_win, night, cal, ev.pressure_hpa)
+                            pn = forecast.project_block(at, block, cfg, now_win, night, cal, p_hpa)
                         row[f"probe_{name}"] = None if pn is None else probe_row(pn)
                 rows.append(row)
             # walk-forward: the night joins the history only after it has been forecast
-            ev.add_record(block.id, rec)
-        ev.learned.add(d)
+            learners[block.id].learn(rec)
         if progress:
             progress(k + 1, len(nights))
     return rows

@@ -16,6 +16,18 @@ from frostwatch.physics.sun import POLAR_DAY, POLAR_NIGHT, sun_night_utc
 from frostwatch.physics.sun_season import sun_nights_utc
 
 DUSK_OFFSET = dt.timedelta(hours=2)  # FAO-FP ch. 5: the forecast is issued 2 h after sunset
+LOOKBACK = dt.timedelta(hours=6)  # an evaluation reads readings from this long before sunset
+
+
+def slice_series(series: dict, start_s: float, end_s: float) -> dict:
+    """The part of each series {(station, quantity): (t_s, values)} with start <= t <= end
+    (arrays are sorted by time): a night's readings, as views."""
+    out = {}
+    for key, (t, v) in series.items():
+        i, j = t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right")
+        if j > i:
+            out[key] = (t[i:j], v[i:j])
+    return out
 
 
 @dataclass(frozen=True)

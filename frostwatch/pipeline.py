@@ -27,21 +27,8 @@ from frostwatch.display import Display
 from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series
 from frostwatch.models import Alert, Projection
 from frostwatch.monitoring import block_monitoring, inputs_utc
-from frostwatch.night import Night, evening_date, night_of_date, nights_of_dates
+from frostwatch.night import LOOKBACK, Night, evening_date, night_of_date, nights_of_dates, slice_series
 from frostwatch.physics import humidity
-
-LOOKBACK = dt.timedelta(hours=6)  # an evaluation reads readings from this long before sunset
-
-
-def slice_series(series: Series, start_s: float, end_s: float) -> Series:
-    """The part of each series with start <= t <= end (arrays are sorted by time)."""
-    out: Series = {}
-    for key, (t, v) in series.items():
-        i, j = t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right")
-        if j > i:
-            out[key] = (t[i:j], v[i:j])
-    return out
-
 
 RUNNING_QUANTITIES = PROTECTION_QUANTITIES
 RUNNING_FRESH_S = 1800.0  # a running flag older than this says nothing about now

@@ -213,8 +213,8 @@ def test_live_features_match_the_training_features():
 
 
 def test_the_pipeline_does_not_import_the_backtest():
-    """One direction only: frostwatch.backtest uses the pipeline's Evaluator; the pipeline never
-    imports the backtest back, at module level or inside a function (issue 16: no import circles)."""
+    """The pipeline never imports the backtest, at module level or inside a function (issue 16: no
+    import circles; the backtest keeps its own learners and no longer imports the pipeline)."""
     import ast
     import inspect
 

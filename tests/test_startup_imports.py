@@ -97,3 +97,15 @@ def test_version_is_still_the_installed_one():
 
     p = subprocess.run([sys.executable, "-m", "frostwatch", "--version"], capture_output=True, text=True, timeout=60)
     assert p.returncode == 0 and p.stdout.strip() == f"frostwatch {frostwatch.__version__}"
+
+
+def test_backtest_imports_neither_the_daemon_nor_the_replay_nor_the_store(tmp_path, demo_config, demo_logs):
+    """`frostwatch backtest` scores the forecast only: it reads the logs (pandas) and the
+    calibration, not the alert rules' pipeline, the replay, the store (sqlite3) or the daemon."""
+    rc, mods = _modules_after(tmp_path, "backtest", *map(str, demo_logs), "--config", str(demo_config), "--json")
+    assert rc == 0
+    assert "pandas" in mods  # the bulk parse
+    assert sorted(m for m in mods if m.split(".")[0] in ("matplotlib", "sqlite_utils", "paho", "apscheduler", "sqlite3")) == []
+    unwanted = ("frostwatch.daemon.", "frostwatch.pipeline", "frostwatch.replay", "frostwatch.store", "frostwatch.alerts.rules",
+                "frostwatch.advice.message", "frostwatch.reports.night")
+    assert sorted(m for m in mods if m.startswith(unwanted) or m == "frostwatch.daemon") == []

@@ -18,7 +18,6 @@ from frostwatch.commands.common import (
     _parse_iso,
     _progress,
 )
-from frostwatch.replay import replay_series
 
 
 def _read_log_columns(args, cfg, store=None, progress=None):
@@ -84,6 +83,7 @@ def _first_rows(cols):
 def cmd_replay(args) -> int:
     from frostwatch.display import Display
     from frostwatch.night import night_of_date
+    from frostwatch.replay import replay_series
     from frostwatch.reports.summary import block_night
     from frostwatch.store import Store, from_ms
     from frostwatch.store.bulk import series_of_columns
@@ -172,10 +172,9 @@ def _print_summaries(summaries, d) -> None:
 
 def cmd_backtest(args) -> int:
     from frostwatch import backtest
+    from frostwatch.ingest.bulk import series_of_columns
 
     cfg = _load(args)
-    from frostwatch.store.bulk import series_of_columns
-
     cols, _, _, _, _ = _read_log_columns(args, cfg, None)
     series = series_of_columns(cols, _first_rows(cols), key_order="file")
     del cols

@@ -145,7 +145,7 @@ def read_log_columns(path: str | Path, known_stations: Collection[str] | None) -
 
 def parse_log_columns(data: bytes, source: str, known_stations: Collection[str] | None) -> tuple[LogColumns, list[Rejection]]:
     """As read_log_columns, from the file's bytes."""
-    plain = b'"' not in data and b"\x00" not in data and data.count(b"\r") == data.count(b"\r\n")
+    plain = b'"' not in data and b"\x00" not in data and (b"\r" not in data or data.count(b"\r") == data.count(b"\r\n"))
     if plain:
         try:
             data.decode("utf-8")
@@ -273,16 +273,21 @@ def _fast_rows(data: bytes, starts: np.ndarray, ends: np.ndarray, regular: np.nd
         u_codes, units = pd.factorize(frame[columns["unit"]].to_numpy())
     else:
         u_codes, units = np.zeros(n, dtype=np.intp), np.array([""], dtype=object)
-    v_txt = frame[columns["value"]]
-    ok &= np.isfinite(pd.to_numeric(v_txt, errors="coerce").to_numpy(dtype=float))
+    # values repeat too (an hourly log of tenths has a few hundred distinct texts): each distinct
+    # text is judged and read once, element by element as on every row
+    v_codes, v_uni = pd.factorize(frame[columns["value"]].to_numpy())
+    v_ok = np.isfinite(pd.to_numeric(pd.Series(v_uni, dtype=object), errors="coerce").to_numpy(dtype=float))
+    ok &= np.append(v_ok, False)[v_codes]
     value = np.full(n, np.nan)
     if ok.any():  # Python's float for the value, as the row parser: no 1-ulp differences
-        texts = v_txt.to_numpy(dtype=object)[ok]
+        v_read = np.full(len(v_uni), np.nan)
+        texts = v_uni[v_ok]
         try:
-            value[ok] = texts.astype(float)
+            v_read[v_ok] = texts.astype(float)
         except (ValueError, TypeError):  # a text pandas reads and float() does not: the row parser
-            value[ok] = [_float_or_nan(x) for x in texts]
-            ok &= ~np.isnan(value)
+            v_read[v_ok] = [_float_or_nan(x) for x in texts]
+        value[ok] = np.append(v_read, np.nan)[v_codes[ok]]
+        ok &= ~np.isnan(value)
     # units: a few (quantity, unit) spellings per log, each converted on its array
     pair = np.where(ok, q_codes.astype(np.int64) * len(units) + u_codes, -1)
     canonical = np.full(n, np.nan)
@@ -330,4 +335,28 @@ def _float_or_nan(text: str) -> float:
         return float("nan")
 
 
-__all__ = ["LogColumns", "read_log_columns", "parse_log_columns", "concat"]
+def series_of_columns(cols, rows: np.ndarray | None = None, key_order: str = "store") -> dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]:
+    """{(station, quantity): (t_s, values)} of the selected rows (a bool mask), sorted by time.
+    Keys come in the order a time-ordered read of the store meets them (`Store.readings_window`),
+    or with key_order="file" in the order the rows first name them."""
+    idx = np.arange(len(cols)) if rows is None else np.flatnonzero(rows)
+    group = cols.station[idx].astype(np.int64) * max(1, len(cols.quantities)) + cols.quantity[idx]
+    order = np.lexsort((cols.time_ms[idx], group))
+    idx, group = idx[order], group[order]
+    bounds = np.flatnonzero(np.diff(group)) + 1
+    out = {}
+    for a, b in zip(np.concatenate(([0], bounds)).tolist(), np.concatenate((bounds, [len(idx)])).tolist(), strict=True):
+        if b <= a:
+            continue
+        g = int(group[a])
+        key = (cols.stations[g // max(1, len(cols.quantities))], cols.quantities[g % max(1, len(cols.quantities))])
+        sel = idx[a:b]
+        out[key] = (cols.time_ms[sel] / 1000.0, cols.value[sel].astype(float), int(sel.min()))
+    if key_order == "file":
+        ranked = sorted(out.items(), key=lambda kv: kv[1][2])
+    else:
+        ranked = sorted(out.items(), key=lambda kv: (kv[1][0][0], kv[0]))
+    return {k: (t, v) for k, (t, v, _) in ranked}
+
+
+__all__ = ["LogColumns", "read_log_columns", "parse_log_columns", "concat", "series_of_columns"]

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from frostwatch.errors import StoreError
+from frostwatch.ingest.bulk import series_of_columns  # noqa: F401  (its home is the log reading; also read from here)
 from frostwatch.models import Rejection
 from frostwatch.store.db import Store, damaged_message, from_ms, is_damage
 
@@ -130,27 +131,3 @@ def add_reading_columns(store: Store, cols, source: str, progress=None) -> Colum
             raise StoreError(damaged_message(store.path, exc)) from None
         raise StoreError(f"{store.path}: cannot store readings: {exc}") from None
     return ColumnsStored(stored, dup, [r for _, r in conflicts], kept, bool(had))
-
-
-def series_of_columns(cols, rows: np.ndarray | None = None, key_order: str = "store") -> dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]:
-    """{(station, quantity): (t_s, values)} of the selected rows (a bool mask), sorted by time.
-    Keys come in the order a time-ordered read of the store meets them (`Store.readings_window`),
-    or with key_order="file" in the order the rows first name them."""
-    idx = np.arange(len(cols)) if rows is None else np.flatnonzero(rows)
-    group = cols.station[idx].astype(np.int64) * max(1, len(cols.quantities)) + cols.quantity[idx]
-    order = np.lexsort((cols.time_ms[idx], group))
-    idx, group = idx[order], group[order]
-    bounds = np.flatnonzero(np.diff(group)) + 1
-    out = {}
-    for a, b in zip(np.concatenate(([0], bounds)).tolist(), np.concatenate((bounds, [len(idx)])).tolist(), strict=True):
-        if b <= a:
-            continue
-        g = int(group[a])
-        key = (cols.stations[g // max(1, len(cols.quantities))], cols.quantities[g % max(1, len(cols.quantities))])
-        sel = idx[a:b]
-        out[key] = (cols.time_ms[sel] / 1000.0, cols.value[sel].astype(float), int(sel.min()))
-    if key_order == "file":
-        ranked = sorted(out.items(), key=lambda kv: kv[1][2])
-    else:
-        ranked = sorted(out.items(), key=lambda kv: (kv[1][0][0], kv[0]))
-    return {k: (t, v) for k, (t, v, _) in ranked}
