@@ -65,6 +65,8 @@ def backtest(
     # priors in one pass), each learned only after its own night has been forecast (below)
     records = {b.id: forecast.night_records(b, cfg, list(zip(obs_of, night_objs, strict=True)), p_hpa)
                for b in cfg.blocks}
+    for b in cfg.blocks:  # the nights to be learned are known: their ridge fits worked out at once
+        learners[b.id].plan([r for r in records[b.id] if r is not None])
     for k, (d, night, obs) in enumerate(zip(nights, night_objs, obs_of, strict=True)):
         issue = night.dusk_utc
         start_s = (night.sunset_utc - LOOKBACK).timestamp()

@@ -94,6 +94,17 @@ def feature_vector(
             (pressure_trend or 0.0) if USE_PRESSURE_TREND else 0.0)
 
 
+def k_model_key(similar_c: float) -> float:
+    """The dusk regression's weighting is worked out per half degree of the similarity input."""
+    return round(similar_c * 2) / 2
+
+
+def strata_mix(strata: tuple, key: float):
+    """The moment matrix of the dusk regression weighted toward nights similar to `key`
+    (Gaussian, `SIMILAR_WIDTH_C`) from the strata's matrices ((value, matrix), ...)."""
+    return sum((math.exp(-0.5 * ((c - key) / SIMILAR_WIDTH_C) ** 2) + 1e-3) * mm for c, mm in strata)
+
+
 def nowcast_bin(hours_left: float) -> int:
     return int(min(NOWCAST_BINS - 1, max(0.0, hours_left) // NOWCAST_BIN_H))
 
@@ -214,11 +225,10 @@ class Calibration:
     def _k_model(self, similar_c: float) -> tuple:
         if not self.dusk_strata or SIMILAR_WIDTH_C is None:
             return self.means, self.k_coefs, self.k_mean
-        key = round(similar_c * 2) / 2
+        key = k_model_key(similar_c)
         hit = self.extra.get(key)
         if hit is None:
-            m = sum((math.exp(-0.5 * ((c - key) / SIMILAR_WIDTH_C) ** 2) + 1e-3) * mm for c, mm in self.dusk_strata)
-            fit = ridge_solve(m, self.calibration_lambda)
+            fit = ridge_solve(strata_mix(self.dusk_strata, key), self.calibration_lambda)
             hit = (self.means, self.k_coefs, self.k_mean) if fit is None else (tuple(fit[0]), tuple(fit[1]), fit[2])
             self.extra[key] = hit
         return hit
@@ -325,11 +335,20 @@ class Calibration:
     def _nowcast_blend_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float
     ) -> tuple[float, str]:
+        """The blended fall still to come (<= 0) and which methods spoke."""
+        return self.nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h,
+                                    self.learned_drop_c(f, hours_left), True)
+
+    def nowcast_blend_c(
+        self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float,
+        learned: float | None, say: bool = False,
+    ) -> tuple[float, str]:
+        """`nowcast_drop_c` with the learned method's fall given (`learned_drop_c`, worked out
+        once by a caller that also scores it); which methods spoke is said only with `say`."""
         comps = {"refit": min(0.0, f[0]), "dusk_curve": min(0.0, dusk_curve_drop_c)}
         naive = self.naive_drop_c(f)
         if naive is not None and USE_NAIVE:
             comps["naive"] = naive
-        learned = self.learned_drop_c(f, hours_left)
         if learned is not None:
             comps["learned"] = learned
         w = self.nc_weights[nowcast_bin(hours_left)] if self.nc_weights and NOWCAST_BLEND else None
@@ -337,7 +356,7 @@ class Calibration:
         if w and all(k in w for k in comps):
             total = sum(w[k] for k in comps)
             drop = sum(w[k] * v for k, v in comps.items()) / total
-            return min(0.0, drop), "skill-weighted: " + ", ".join(f"{k} {w[k] / total:.0%}" for k in comps)
+            return min(0.0, drop), ("skill-weighted: " + ", ".join(f"{k} {w[k] / total:.0%}" for k in comps)) if say else ""
         if learned is not None:
             return learned, "learned"
         w_obs = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)

@@ -24,14 +24,18 @@ from frostwatch.physics import humidity
 EVENING_FROM_S = 3600.0  # the evening curve is fitted to readings from an hour before sunset
 
 
-@functools.lru_cache(maxsize=16384)
-def _utc_second(t_s: int) -> dt.datetime:
-    # a night's grid instants recur from one evaluation to the next: made once each
-    return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
+# a whole second as a datetime; a night's grid instants recur from one evaluation to the next:
+# made once each (the cache calls fromtimestamp directly, no Python frame between)
+_utc_second = functools.lru_cache(maxsize=16384)(functools.partial(dt.datetime.fromtimestamp, tz=dt.UTC))
 
 
 def _utc(t_s: float | None) -> dt.datetime | None:
     return None if t_s is None else _utc_second(round(t_s))
+
+
+def utc_seconds(times_s: list[float]) -> tuple[dt.datetime, ...]:
+    """`_utc` of many instants (none None), without a Python call per instant."""
+    return tuple(map(_utc_second, map(round, times_s)))
 
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:

@@ -58,7 +58,9 @@ from frostwatch.forecast.calibration import (
     Calibration,
     NightRecord,
     dusk_regime,
+    k_model_key,
     nowcast_bin,
+    strata_mix,
 )
 from frostwatch.forecast.ridge import lead_fit, ridge_solve_many
 
@@ -244,10 +246,22 @@ class Learner:
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
         self._bins: list = [None] * NOWCAST_BINS  # per bin (model, weights, band) as last snapshot; None: changed
+        self._plan: _Plan | None = None  # the ridge fits worked out ahead (`plan`), while it is followed
+
+    def plan(self, records: list[NightRecord]) -> None:
+        """Work out at once the ridge fits of every snapshot to come while `records` are learned
+        in this order, one after the other (a backtest knows all its nights before it starts):
+        the same moment matrices, summed in the same order, solved as one stack. A fresh learner
+        only; learning any other record drops the plan (the snapshots then solve as they go)."""
+        if self.n or self.n_protected or self._plan is not None:
+            return
+        self._plan = _Plan.of(list(records), self.calibration_nights)
 
     def learn(self, rec: NightRecord) -> bool:
         """Score the current calibration on `rec`, then add it. False (nothing learned) for a
         protected night."""
+        if self._plan is not None and not self._plan.follows(rec):
+            self._plan = None
         if rec.protected:
             self.n_protected += 1
             self._cal = None
@@ -284,7 +298,10 @@ class Learner:
                 errs["learned"] = learned - drop
             self.nc_skill[b].add(errs)
             self._bins[b] = None
-            pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=not LEAD_BAND_RAW, dusk_min_c=pred_dusk)
+            if LEAD_BAND_RAW:  # the blend before the correction: nowcast_drop_c(lead=False)'s number
+                pred, _ = cal.nowcast_blend_c(f, hl, dusk_drop, el, learned)
+            else:
+                pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=True, dusk_min_c=pred_dusk)
             self.nc_residuals[b].append(drop - pred)
             bins.append(b)
             if lead_hl is not None and abs(hl - lead_hl) <= 0.26 and (lead is None or abs(hl - lead_hl) < lead[0]):
@@ -345,7 +362,11 @@ class Learner:
             if SIMILAR_WIDTH_C is not None:
                 # each stratum's matrix is replaced, never changed in place, when a night joins it
                 out["dusk_strata"] = tuple((b * T0_STRATUM_C, m) for b, m in sorted(self.dusk_strata.items()))
-            fit, drop_fit = ridge_solve_many(np.stack([self.dusk_m, self.drop_m]), lam)
+                fits = self._plan.k_fits.get(n) if self._plan is not None else None
+                if fits:  # the weighted regressions the next nights ask for, worked out ahead
+                    out["extra"] = {key: (tuple(f[0]), tuple(f[1]), f[2]) for key, f in fits.items() if f is not None}
+            planned = self._plan.dusk.get(n) if self._plan is not None else None
+            fit, drop_fit = planned or ridge_solve_many(np.stack([self.dusk_m, self.drop_m]), lam)
             if fit is not None:
                 mu, coefs, k_mean = fit
                 out.update(means=tuple(float(m) for m in mu), k_coefs=tuple(float(c) for c in coefs), k_mean=k_mean)
@@ -356,36 +377,136 @@ class Learner:
                 out["drop_model"] = (fit[0], fit[1], fit[2])
         if self.fall_n:
             out["naive_fall_c"] = self.fall_sum_c / self.fall_n
-        weights = []
-        if n >= MIN_REGRESSION_NIGHTS:
-            regimes = sorted(self.dusk_skill.items())
-            found = _weights_many([(skill, tuple(m for m in DUSK_METHODS if skill.scored[m] > 0 and not (
-                m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))) for regime, skill in regimes])
-            weights = [(regime, tuple(w.items())) for (regime, _), w in zip(regimes, found, strict=True) if w]
+        regimes = sorted(self.dusk_skill.items()) if n >= MIN_REGRESSION_NIGHTS else []
+        dusk_items = [(skill, tuple(m for m in DUSK_METHODS if skill.scored[m] > 0 and not (
+            m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))) for regime, skill in regimes]
+        # the dusk weights and the changed bins' nowcast weights in one call (one stack per shape)
+        found = self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None], dusk_items)
+        weights = [(regime, tuple(w.items())) for (regime, _), w in zip(regimes, found, strict=True) if w]
         out["dusk_weights"] = tuple(weights)
         spread = PRIOR_BAND_C / 3.0 if BAND_PER_SQRT_HOUR else PRIOR_BAND_C  # sqrt of a typical 9 h night
         out["dusk_band"] = _band_from(self.dusk_residuals, spread)
         counts = [int(self.nc_m[b][0, 0]) for b in range(NOWCAST_BINS)]
-        self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None])
         models, weights, bands = (list(x) for x in zip(*self._bins, strict=True))
         out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
         if NOWCAST_LEAD_CORRECTION and self.lead_sums[0].any():
             out["nc_lead"] = lead_fit(self.lead_sums, LEAD_MODE, LEAD_SHRINK)
         return Calibration(**out)
 
-    def _refresh_bins(self, changed: list[int]) -> None:
+    def _refresh_bins(self, changed: list[int], other_items: list | None = None) -> list:
         """The learned nowcast, skill weights and band of the hours-left bins a night changed
-        (the others are as at the last snapshot), their ridge solves and weights as one stack each."""
+        (the others are as at the last snapshot), their ridge solves and weights as one stack each.
+        Returns `_weights_many` of `other_items`, worked out in the same call."""
+        other_items = other_items or []
         if not changed:
-            return
+            return _weights_many(other_items) if other_items else []
         ready = [b for b in changed if self.nc_m[b][0, 0] >= NOWCAST_MIN_SAMPLES]
         models = dict.fromkeys(changed)
+        if ready and self._plan is not None:  # fits worked out ahead, by the bin's sample count
+            for b in ready:
+                models[b] = self._plan.nc[b].get(int(self.nc_m[b][0, 0]))
+            ready = [b for b in ready if models[b] is None]
         if ready:
             models.update(zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True))
-        weights = _weights_many([(self.nc_skill[b], self.nowcast_methods(models[b] is not None)) for b in changed])
-        for b, w in zip(changed, weights, strict=True):
+        found = _weights_many(other_items + [(self.nc_skill[b], self.nowcast_methods(models[b] is not None))
+                                             for b in changed])
+        for b, w in zip(changed, found[len(other_items):], strict=True):
             band = _band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
             self._bins[b] = (models[b], tuple(w.items()) if w else None, band)
+        return found[:len(other_items)]
+
+
+class _Plan:
+    """The ridge fits of a learner's snapshots worked out ahead for a known run of records
+    (`Learner.plan`): the dusk and drop regressions after each number of nights learned, and each
+    hours-left bin's learned nowcast after each sample count a night leaves it with. The moment
+    matrices are summed as `Learner.learn` sums them (from zero, one record or sample at a time,
+    in order) and solved by `ridge_solve_many`, so each fit is the one the snapshot would solve."""
+
+    __slots__ = ("records", "next", "dusk", "nc", "k_fits")
+
+    def __init__(self, records: list[NightRecord], dusk: dict, nc: list[dict], k_fits: dict):
+        self.records, self.next, self.dusk, self.nc, self.k_fits = records, 0, dusk, nc, k_fits
+
+    def follows(self, rec: NightRecord) -> bool:
+        """True (and one step on) when `rec` is the next record planned."""
+        if self.next < len(self.records) and self.records[self.next] is rec:
+            self.next += 1
+            return True
+        return False
+
+    @classmethod
+    def of(cls, records: list[NightRecord], calibration_nights: int) -> _Plan:
+        kept = [r for r in records if not r.protected]
+        dusk: dict[int, tuple] = {}
+        nc: list[dict] = [{} for _ in range(NOWCAST_BINS)]
+        k_fits: dict[int, dict] = {}
+        if not kept:
+            return cls(records, dusk, nc, k_fits)
+        rows, drop_rows, samples, bins, ends = [], [], [], [], []
+        for rec in kept:
+            x = rec.features
+            h = max(0.25, rec.hours_to_sunrise)
+            rows.append((1.0, *x, (rec.observed_min_c - rec.t0_temp_c) / math.sqrt(h)))
+            drop_rows.append((1.0, *x, rec.observed_min_c - rec.t0_temp_c))
+            for f, drop in rec.nowcast_samples:
+                samples.append((1.0, *f, drop))
+                bins.append(nowcast_bin(f[1] ** 2))
+            ends.append(len(samples))
+        n_all = np.arange(1, len(kept) + 1)
+        stack, outer = [], []
+        for r in (rows, drop_rows):
+            z = np.array(r)
+            zz = np.concatenate([np.zeros((1, z.shape[1], z.shape[1])), z[:, :, None] * z[:, None, :]])
+            stack.append(np.cumsum(zz, axis=0)[1:])  # after 1, 2, ... nights: 0 + zz1, + zz2, ...
+            outer.append(zz[1:])
+        dusk_zz = outer[0]  # each night's z z^T, as np.outer gives it
+        lam = np.array([RIDGE_LAMBDA * max(1.0, calibration_nights / n) for n in n_all.tolist()])
+        fits = ridge_solve_many(np.concatenate(stack), np.concatenate([lam, lam]))
+        g = len(kept)
+        for n in n_all.tolist():
+            dusk[n] = (fits[n - 1], fits[g + n - 1])
+        if samples:
+            z = np.array(samples)
+            zz = z[:, :, None] * z[:, None, :]
+            b_of = np.array(bins)
+            ends_a = np.array(ends)
+            ms, keys = [], []
+            for b in range(NOWCAST_BINS):
+                mine = np.flatnonzero(b_of == b)
+                if len(mine) < NOWCAST_MIN_SAMPLES:
+                    continue
+                cum = np.cumsum(np.concatenate([np.zeros((1, *zz.shape[1:])), zz[mine]]), axis=0)
+                counts = np.unique(np.searchsorted(mine, ends_a, side="left"))  # the bin's count after each night
+                counts = counts[counts >= NOWCAST_MIN_SAMPLES]
+                ms.append(cum[counts])
+                keys += [(b, c) for c in counts.tolist()]
+            if keys:
+                for (b, c), fit in zip(keys, ridge_solve_many(np.concatenate(ms), NOWCAST_RIDGE_LAMBDA), strict=True):
+                    nc[b][c] = fit
+        if SIMILAR_WIDTH_C is not None:
+            # the dusk regression weighted toward each record's own dew point, on the strata as the
+            # snapshot it is forecast with holds them (`Calibration._k_model`)
+            strata: dict[int, np.ndarray] = {}
+            ms, keys, lams = [], [], []
+            n = 0
+            for rec in records:
+                x = rec.features
+                key = k_model_key(x[SIMILAR_BY])
+                if n and key not in k_fits.setdefault(n, {}):
+                    k_fits[n][key] = None
+                    ms.append(strata_mix(tuple((b * T0_STRATUM_C, m) for b, m in sorted(strata.items())), key))
+                    keys.append((n, key))
+                    lams.append(RIDGE_LAMBDA * max(1.0, calibration_nights / n))
+                if rec.protected:
+                    continue
+                stratum = round(x[SIMILAR_BY] / T0_STRATUM_C)
+                strata[stratum] = strata.get(stratum, 0.0) + dusk_zz[n]
+                n += 1
+            if keys:
+                for (n, key), fit in zip(keys, ridge_solve_many(np.array(ms), np.array(lams)), strict=True):
+                    k_fits[n][key] = fit
+        return cls(records, dusk, nc, k_fits)
 
 
 _FIT_CACHE: dict[tuple[int, int], tuple[list, Learner, int]] = {}

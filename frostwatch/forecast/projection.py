@@ -33,6 +33,7 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     crossing_time,
     evening_curve_c,
     sqrt_curve_c,
+    utc_seconds,
 )
 from frostwatch.forecast.nowcast import features_at
 from frostwatch.forecast.sensors import (
@@ -287,7 +288,7 @@ def project_block(
         regime=regime,
         method=method,
         notes=tuple(notes),
-        curve_time_utc=tuple(map(_utc, grid_s[::step].tolist())) if projecting else (),
+        curve_time_utc=utc_seconds(grid_s[::step].tolist()) if projecting else (),
         curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if projecting else (),
         band_low_c=round(min(band_low_c, tmin_c), 2),
         band_high_c=round(max(band_high_c, tmin_c), 2),

@@ -33,11 +33,11 @@ def ridge_solve(m: np.ndarray, lam: float) -> tuple[np.ndarray, np.ndarray, floa
     return mu, coefs, y_mean
 
 
-def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.ndarray, float] | None]:
+def ridge_solve_many(ms: np.ndarray, lam: float | np.ndarray) -> list[tuple[np.ndarray, np.ndarray, float] | None]:
     """`ridge_solve` of each matrix of a stack (G, k + 2, k + 2), the same numbers bit for bit:
     the element-wise steps run over the stack at once, and the matrices whose inputs with spread
     are the same are solved together (numpy solves a stack one matrix at a time with LAPACK's
-    gesv, as it solves one)."""
+    gesv, as it solves one). `lam` is one penalty for all, or one per matrix (G,)."""
     ms = np.asarray(ms, dtype=float)
     g, size = ms.shape[0], ms.shape[1]
     k = size - 2
@@ -46,6 +46,7 @@ def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.nd
     ok = np.nonzero(n >= 2)[0]
     if not len(ok):
         return out
+    lams = np.broadcast_to(np.asarray(lam, dtype=float), (g,))[ok][:, None, None]
     m = ms[ok]
     nn = n[ok]
     mean = m[:, 0, 1:] / nn[:, None]
@@ -57,7 +58,7 @@ def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.nd
     coefs = np.zeros((len(ok), k))
     if use.all():  # every input has spread in every matrix (the usual case): one stack, no grouping
         d = sd
-        a = nn[:, None, None] * (sxx / (d[:, :, None] * d[:, None, :])) + lam * np.eye(k)
+        a = nn[:, None, None] * (sxx / (d[:, :, None] * d[:, None, :])) + lams * np.eye(k)
         coefs = np.linalg.solve(a, (nn[:, None] * sxy / d)[:, :, None])[:, :, 0] / d
         groups: dict[bytes, list[int]] = {}
     else:
@@ -70,7 +71,7 @@ def ridge_solve_many(ms: np.ndarray, lam: float) -> list[tuple[np.ndarray, np.nd
         d = sd[np.ix_(rows, cols)]
         z = sxx[np.ix_(rows, cols, cols)] / (d[:, :, None] * d[:, None, :])
         nr = nn[rows]
-        a = nr[:, None, None] * z + lam * np.eye(len(cols))
+        a = nr[:, None, None] * z + lams[rows] * np.eye(len(cols))
         b = nr[:, None] * sxy[np.ix_(rows, cols)] / d
         beta = np.linalg.solve(a, b[:, :, None])[:, :, 0]
         coefs[np.ix_(rows, cols)] = beta / d
