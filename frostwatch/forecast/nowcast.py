@@ -41,30 +41,38 @@ def feature_matrix(
     j = np.searchsorted(t_s, times_s, side="right")
     latest = np.where(j > 0, v_c[np.maximum(j - 1, 0)], np.nan)
     # Reuter re-fit through T0: b = sum(x (T - T0)) / sum(x^2), x = sqrt(t - t0), over readings since t0
-    el = (t_s - t0_s) / 3600.0
+    el = (t_s - t0_s) / 3600.0  # hours since t0 (also the recent slope's clock)
     use = el > MIN_ELAPSED_H
     x = np.sqrt(np.where(use, el, 0.0))
-    sxy = np.concatenate([[0.0], np.cumsum(np.where(use, x * (v_c - t0_c), 0.0))])
-    sxx = np.concatenate([[0.0], np.cumsum(np.where(use, x * x, 0.0))])
-    ok = (sxx[j] > 0) & (j > 0)
-    b_obs = np.where(ok, sxy[j] / np.where(sxx[j] > 0, sxx[j], 1.0), 0.0)
+    # every running sum in one array, a row each, each summed in order from zero (as np.cumsum sums
+    # one row alone): sum x (T - T0), sum x^2; and for the recent slope n, t, t^2, T, t T
+    sums = np.zeros((7, len(t_s) + 1))
+    np.cumsum(np.stack([np.where(use, x * (v_c - t0_c), 0.0), np.where(use, x * x, 0.0), np.ones_like(el), el,
+                        el * el, v_c, el * v_c]), axis=1, out=sums[:, 1:])
+    at_j = sums[:, j]
+    sxy_j, sxx_j = at_j[0], at_j[1]
+    ok = (sxx_j > 0) & (j > 0)
+    b_obs = np.where(ok, sxy_j / np.where(sxx_j > 0, sxx_j, 1.0), 0.0)
     h_total = max(0.0, (sunrise_s - t0_s) / 3600.0)
     e_now = np.sqrt(np.maximum(0.0, (times_s - t0_s) / 3600.0))
     hl = np.maximum(0.0, (sunrise_s - times_s) / 3600.0)
     curve_drop = np.minimum(0.0, b_obs * (math.sqrt(h_total) - e_now))
     # recent slope by least squares over (now - 2 h, now], from running sums (times in hours from t0)
-    th = (t_s - t0_s) / 3600.0
-    c = [np.concatenate([[0.0], np.cumsum(a)]) for a in (np.ones_like(th), th, th * th, v_c, th * v_c)]
     i2 = np.searchsorted(t_s, times_s - RECENT_SLOPE_S, side="right")
-    n, st, stt, sv, stv = (a[j] - a[i2] for a in c)
+    n, st, stt, sv, stv = at_j[2:] - sums[2:, i2]
     den = n * stt - st * st
     slope = np.where((n >= 2) & (den > 1e-12), (n * stv - st * sv) / np.where(den > 1e-12, den, 1.0), 0.0)
     td = np.asarray(dew_point_c, dtype=float)
     dep = np.where(np.isfinite(td), np.maximum(0.0, latest - np.minimum(td, latest)), ASSUMED_DEPRESSION_C)
-    wind = np.nan_to_num(np.asarray(wind_m_s, dtype=float), nan=0.0)
-    cloud = np.nan_to_num(np.asarray(cloud_frac, dtype=float), nan=0.0)
+    wind, cloud = _nan_to_zero(wind_m_s), _nan_to_zero(cloud_frac)
     feats = np.column_stack([curve_drop, np.sqrt(hl), np.minimum(MAX_RECENT_SLOPE_C_H, slope) * hl, wind, cloud, dep])
     return latest, feats, ok
+
+
+def _nan_to_zero(values) -> np.ndarray:
+    """np.nan_to_num(values, nan=0.0), without its cost when every value is finite."""
+    a = np.asarray(values, dtype=float)
+    return a if np.isfinite(a).all() else np.nan_to_num(a, nan=0.0)
 
 
 def features_at(
@@ -137,7 +145,8 @@ def training_samples(
     then to `end_s`, minus the reading then). Built from arrays, no loop over readings."""
     i_end = int(np.searchsorted(t, end_s, side="right"))
     grid = np.arange(t0_s + NOWCAST_START_S, sunrise_s + 1.0, NOWCAST_SAMPLE_STEP_S)
-    idx = np.unique(np.searchsorted(t, grid, side="left"))
+    idx = np.searchsorted(t, grid, side="left")  # ascending: np.unique's values, without its sort
+    idx = idx[np.concatenate(([True], idx[1:] != idx[:-1]))] if len(idx) else idx
     idx = idx[(idx < i_end) & (t[np.minimum(idx, len(t) - 1)] <= sunrise_s)]
     if not len(idx):
         return ()

@@ -223,8 +223,7 @@ def means_as_of(series: Series, stations: list[str], quantity: str, times_s: np.
         count += j - i
         has = (j > 0) & (times_s - t[np.maximum(j - 1, 0)] <= 2.0 * window_s)
         last = np.where(np.isnan(last) & has, v[np.maximum(j - 1, 0)], last)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(count > 0, total / np.maximum(count, 1), last)
+    return np.where(count > 0, total / np.maximum(count, 1), last)  # never a zero divisor
 
 
 def window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
