@@ -76,7 +76,7 @@ def backtest(
             if rec is None:
                 continue
             cal = learners[block.id].calibration()
-            proj = forecast.project_block(issue, block, cfg, window, night, cal, p_hpa)
+            proj = forecast.project_block(issue, block, cfg, window, night, cal, p_hpa, curves=False)
             if proj.predicted_min_c is not None:
                 row = {
                     "night": d.isoformat(),

@@ -138,3 +138,35 @@ def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkey
     rows = json.loads(fast)
     assert fast == slow and len(rows) > 300
     assert math.isfinite(bt.backtest_summary(rows)["mae_c"])
+
+
+LEFT_OUT = {"crossings_utc", "curve_time_utc", "curve_air_temp_c", "curve_cold_edge_c", "wet_bulb_c",
+            "dew_point_trend_c_per_h", "dew_point_at_start_c"}
+
+
+@pytest.mark.parametrize("protection", ["none", "overtree_sprinkler"])
+def test_a_projection_without_curves_is_the_same_projection(tmp_path, protection):
+    """The backtest's dusk forecasts skip the curves and crossings it does not score: every
+    other field is the projection's own, at dusk, during the night and after sunrise."""
+    cfg = make_cfg(tmp_path, protection)
+    series = synthetic_log(cfg, n=12)
+    s = cfg.site
+    nights = nights_of_dates(s.latitude, s.longitude, s.tz, [dt.date(2027, 3, 20) + dt.timedelta(days=k) for k in range(12)])
+    learner = lm.Learner(cfg.forecast.calibration_nights)
+    checked = 0
+    for night in nights:
+        obs = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), night.sunrise_utc.timestamp() + 3600.0)
+        for at in (night.sunset_utc, night.dusk_utc, night.dusk_utc + dt.timedelta(hours=3, minutes=7),
+                   night.sunrise_utc - dt.timedelta(minutes=30), night.sunrise_utc + dt.timedelta(minutes=20)):
+            win = slice_series(obs, (night.sunset_utc - LOOKBACK).timestamp(), at.timestamp())
+            full = forecast.project_block(at, cfg.blocks[0], cfg, win, night, learner.calibration())
+            lean = forecast.project_block(at, cfg.blocks[0], cfg, win, night, learner.calibration(), curves=False)
+            for f in dataclasses.fields(full):
+                if f.name not in LEFT_OUT:
+                    assert same(getattr(full, f.name), getattr(lean, f.name)), (at, f.name)
+            assert lean.crossings_utc == {} and lean.curve_time_utc == ()
+            checked += full.predicted_min_c is not None
+        rec = forecast.night_record(cfg.blocks[0], cfg, obs, night)
+        if rec is not None:
+            learner.learn(rec)
+    assert checked > 40

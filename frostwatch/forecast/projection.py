@@ -108,8 +108,12 @@ def project_block(
     night: Night,
     calibration: Calibration | None = None,
     pressure_hpa: float | None = None,
+    curves: bool = True,
 ) -> Projection:
-    """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise."""
+    """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise.
+
+    With `curves=False` the projected curves, their crossings and the wet bulb along them are
+    left out (empty); every other field is the same (a backtest scores the minimum and band)."""
     now_s = now_utc.timestamp()
     fc = cfg.forecast
     cal = calibration or Calibration(calibration_nights=fc.calibration_nights)
@@ -218,7 +222,7 @@ def project_block(
     band_low_c = band_at_c + min(lo_off, -MIN_BAND_C / 2)
     band_high_c = band_at_c + max(hi_off, MIN_BAND_C / 2)
     curve = sqrt_curve_c(tp_c, anchor_c, e_grid, e_now, span)
-    cold_curve = sqrt_curve_c(band_low_c, anchor_c, e_grid, e_now, span)
+    cold_curve = sqrt_curve_c(band_low_c, anchor_c, e_grid, e_now, span) if curves else curve
 
     wet_c = None
     td_trend = td_at_start = None  # the dew point's fall tonight, for sprinkler blocks (below)
@@ -235,6 +239,10 @@ def project_block(
             wet_c = wet_c if math.isfinite(wet_c) else None
         method = "observed (after sunrise)"
         band_low_c = band_high_c = tmin_c
+    elif not curves:
+        i = int(np.argmin(curve))
+        tmin_c = float(curve[i])
+        tmin_at = _utc(float(grid_s[i]))
     else:
         i = int(np.argmin(curve))
         tmin_c = float(curve[i])
@@ -271,6 +279,7 @@ def project_block(
         dew_point_at_start_c=None if td_at_start is None else round(td_at_start, 2))
     step = max(1, len(grid_s) // 48)
     projecting = now_s < sunrise_s
+    drawn = projecting and curves
     return Projection(
         **base,
         station=speaker.station,
@@ -288,11 +297,11 @@ def project_block(
         regime=regime,
         method=method,
         notes=tuple(notes),
-        curve_time_utc=utc_seconds(grid_s[::step].tolist()) if projecting else (),
-        curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if projecting else (),
+        curve_time_utc=utc_seconds(grid_s[::step].tolist()) if drawn else (),
+        curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if drawn else (),
         band_low_c=round(min(band_low_c, tmin_c), 2),
         band_high_c=round(max(band_high_c, tmin_c), 2),
-        curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if projecting else (),
+        curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if drawn else (),
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,
         wind_from_farm=wind_from_farm,
