@@ -90,7 +90,7 @@ class _Skill:
             return
         e = np.array([errors[self.methods[i]] for i in idx])
         if len(idx) == len(self.methods):  # every method scored (the usual case): no fancy indexing
-            self.m2 = (1 - a) * self.m2 + a * np.outer(e, e)
+            self.m2 = (1 - a) * self.m2 + a * (e[:, None] * e[None, :])  # np.outer(e, e), without its wrapper
         else:
             sub = np.ix_(idx, idx)
             self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
