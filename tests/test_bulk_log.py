@@ -58,6 +58,11 @@ NASTY = [
     "2027-04-14T20:01:60-07:00,east-low,air_temperature,7.8,degC",
     "0001-01-01T00:00:00+14:00,east-low,air_temperature,7.8,degC",
     "2300-01-01T00:00:00+00:00,east-low,air_temperature,7.8,degC",  # beyond pandas' nanosecond range
+    "1962-01-01T01:00:00-05:00,east-low,air_temperature,7.8,degC",  # before 1970 (typical-year files)
+    "1969-12-31T23:59:59.999Z,east-low,air_temperature,7.8,degC",
+    "1969-12-31T16:59:59.001-07:00,east-low,air_temperature,7.8,degC",
+    "1900-01-01T00:00:00+14:00,east-low,air_temperature,7.8,degC",  # 1899 in UTC
+    "1899-12-31T23:59:59Z,east-low,air_temperature,7.8,degC",  # the row parser's
     "2027-02-29T20:00:00-07:00,east-low,air_temperature,7.8,degC",
     "2027-04-14T20:02:00-07:00,east-low,air_temperature,1_0,degC",
     "2027-04-14T20:02:00-07:00,east-low,air_temperature,1e400,degC",
@@ -130,7 +135,8 @@ def test_file_level_variants_read_the_same_both_ways(variant):
 
 
 _times = st.sampled_from(["2027-04-14T20:00:00-07:00", "2027-04-14T20:00:01Z", "2027-04-14T20:00:00.5+00:00",
-                          "2027-04-14T20:00:00", "2027-13-14T20:00:00Z", "x", "", " 2027-04-14T21:00:00+01:00"])
+                          "2027-04-14T20:00:00", "2027-13-14T20:00:00Z", "x", "", " 2027-04-14T21:00:00+01:00",
+                          "1962-01-01T01:00:00-05:00", "1969-12-31T23:59:59.999Z", "1899-12-31T23:00:00Z"])
 _stations = st.sampled_from(["east-low", "river-low", " hill-low", "nowhere", "", "EAST-LOW"])
 _quantities = st.sampled_from(["air_temperature", "relative_humidity", "wind_speed", "sprinkler_running",
                                "cloud_area_fraction", "air_temprature", ""])

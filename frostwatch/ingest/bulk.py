@@ -39,8 +39,10 @@ from frostwatch.models import Reading, Rejection
 from frostwatch.units import QUANTITIES, array_converter
 
 # times the fast path reads (pandas and datetime.fromisoformat agree on every one of them: years
-# 1970-2199, at most milliseconds); any other form, right or wrong, is for the row parser
-_STRICT_TIME = (r"(?:19[7-9]\d|2[01]\d\d)-[01]\d-[0-3]\dT(?:[01]\d|2[0-3]):[0-5]\d:[0-5]\d(?:\.\d{3})?"
+# 1900-2199, inside pandas' nanosecond range, at most milliseconds, so whole milliseconds before
+# 1970 too; typical-year files splice years from the 1960s on); any other form, right or wrong,
+# is for the row parser
+_STRICT_TIME = (r"(?:19\d\d|2[01]\d\d)-[01]\d-[0-3]\dT(?:[01]\d|2[0-3]):[0-5]\d:[0-5]\d(?:\.\d{3})?"
                 r"(?:[+-](?:[01]\d|2[0-3]):[0-5]\d|Z)")
 CHUNK_ROWS = 100_000  # rows parsed at once: pandas holds a Python string per field of a chunk
 _RH_PERCENT_UNITS = ("%", "percent", "pct", "")
