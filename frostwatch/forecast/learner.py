@@ -211,7 +211,7 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
             continue
         total = w_all.sum(axis=1)  # rows of 2 to 4 numbers: summed in order, as one row alone
         positive = (total > 0)[:, None]
-        w_all = np.where(positive, np.clip(w_all / np.where(positive, total[:, None], 1.0), 0.0, None), 1.0 / s[:, r, r])
+        w_all = np.where(positive, np.maximum(w_all / np.where(positive, total[:, None], 1.0), 0.0), 1.0 / s[:, r, r])  # np.clip(x, 0.0, None) is np.maximum(x, 0.0)
         w_all = (w_all / w_all.sum(axis=1)[:, None]).tolist()
         for j, i in enumerate(members):
             out[i] = dict(zip(items[i][1], w_all[j], strict=True))

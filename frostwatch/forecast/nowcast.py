@@ -160,6 +160,9 @@ def training_samples(
         if not missing.any():
             break
         d = means_as_of(series, [sid], "dew_point_temperature", times, INPUT_WINDOW_S)
+        if np.isfinite(d[missing]).all():  # a dew point wherever one is missing: humidity not needed
+            td = np.where(missing, d, td)
+            continue
         rh = means_as_of(series, [sid], "relative_humidity", times, INPUT_WINDOW_S)
         ta = v[idx] if sid == station else means_as_of(series, [sid], "air_temperature", times, INPUT_WINDOW_S)
         ok = np.isfinite(rh) & np.isfinite(ta)

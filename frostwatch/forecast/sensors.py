@@ -209,7 +209,7 @@ def means_as_of(series: Series, stations: list[str], quantity: str, times_s: np.
     times_s = np.asarray(times_s, dtype=float)
     total = np.zeros(len(times_s))
     count = np.zeros(len(times_s))
-    last = np.full(len(times_s), np.nan)
+    seen = []
     for sid in stations:
         if (sid, quantity) not in series:
             continue
@@ -221,9 +221,15 @@ def means_as_of(series: Series, stations: list[str], quantity: str, times_s: np.
         i = np.searchsorted(t, times_s - window_s, side="right")
         total += csum[j] - csum[i]
         count += j - i
+        seen.append((t, v, j))
+    mean = total / np.maximum(count, 1)  # never a zero divisor
+    if count.all():  # a reading in every window: no instant falls back on an older one
+        return mean
+    last = np.full(len(times_s), np.nan)
+    for t, v, j in seen:  # the first station's latest reading within two windows
         has = (j > 0) & (times_s - t[np.maximum(j - 1, 0)] <= 2.0 * window_s)
         last = np.where(np.isnan(last) & has, v[np.maximum(j - 1, 0)], last)
-    return np.where(count > 0, total / np.maximum(count, 1), last)  # never a zero divisor
+    return np.where(count > 0, mean, last)
 
 
 def window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
