@@ -30,6 +30,34 @@ from frostwatch.monitoring import block_monitoring, inputs_utc
 from frostwatch.night import LOOKBACK, Night, evening_date, night_of_date, nights_of_dates, slice_series
 from frostwatch.physics import humidity
 
+
+class WindowMemo:
+    """What an evaluation works out from its readings window alone, kept for the evaluations that
+    see the same window (`Evaluator(cfg, fixed_series=True)`: a replay).
+
+    Only for a series that does not change from one evaluation to the next (a replay's whole
+    log): a night's window is then fixed by where each series is cut, so two evaluations cut at
+    the same rows see the same readings (an hourly log gives 30 evaluations at the 2-minute
+    cadence between two readings), and the window itself is handed out again. `values` is
+    emptied whenever the cut moves; what is kept in it must not depend on `now`."""
+
+    def __init__(self):
+        self.series: Series | None = None
+        self.cut: tuple = ()
+        self.window_series: Series = {}
+        self.values: dict = {}
+
+    def window(self, series: Series, start_s: float, end_s: float) -> tuple[Series, dict]:
+        """`slice_series(series, start_s, end_s)` and the values kept for that window."""
+        cut = tuple((t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right"))
+                    for t, _ in series.values())
+        if series is not self.series or cut != self.cut:
+            self.series, self.cut, self.values = series, cut, {}
+            self.window_series = {key: (t[i:j], v[i:j]) for (key, (t, v)), (i, j) in zip(series.items(), cut, strict=True)
+                                  if j > i}
+        return self.window_series, self.values
+
+
 RUNNING_QUANTITIES = PROTECTION_QUANTITIES
 RUNNING_FRESH_S = 1800.0  # a running flag older than this says nothing about now
 
@@ -62,8 +90,12 @@ class Evaluation:
 class Evaluator:
     """Evaluates every block of a site at an injected `now`, remembering alert state and history."""
 
-    def __init__(self, cfg: Config):
+    def __init__(self, cfg: Config, fixed_series: bool = False):
+        """`fixed_series`: every `evaluate` gets the same series, never changed (a replay's whole
+        log), so what a readings window alone decides is kept while the window is the same
+        (`WindowMemo`); the values are the same either way."""
         self.cfg = cfg
+        self.memo = WindowMemo() if fixed_series else None
         self.display = Display(cfg.site.display_unit, cfg.site.tz)
         self.pressure_hpa = float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
         self.states: dict[str, BlockAlertState] = {}
@@ -129,6 +161,15 @@ class Evaluator:
         driest = reference.driest_dew_point_c(window, ids, night.sunset_utc.timestamp(), now_s)
         return dict(reference=ref, reference_station=None if st is None else st.id, driest_dew_point_c=driest)
 
+    def _inputs_utc(self, block, window: Series, now_s: float, memo: dict | None) -> dict:
+        # the newest reading of each series in the window (it ends at now): the window decides it
+        if memo is None:
+            return inputs_utc(self.cfg, block, window, now_s)
+        got = memo.get(("inputs_utc", block.id))
+        if got is None:
+            got = memo[("inputs_utc", block.id)] = inputs_utc(self.cfg, block, window, now_s)
+        return dict(got)
+
     def evaluate(self, now_utc: dt.datetime, series: Series) -> Evaluation:
         """Project, advise and run the alert rules for every block at `now_utc`.
 
@@ -136,12 +177,16 @@ class Evaluator:
         to `now_utc` are used (no peeking at the future).
         """
         night = self.night_at(now_utc)
-        window = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), now_utc.timestamp())
+        start_s = (night.sunset_utc - LOOKBACK).timestamp()
+        if self.memo is None:
+            window, memo = slice_series(series, start_s, now_utc.timestamp()), None
+        else:
+            window, memo = self.memo.window(series, start_s, now_utc.timestamp())
         ev = Evaluation(now_utc, night)
         now_s = now_utc.timestamp()
         for block in self.cfg.blocks:
             proj = forecast.project_block(
-                now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa
+                now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa, memo=memo
             )
             running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_s)
             ref_kw = self.reference_inputs(block, window, night, now_s)
@@ -160,7 +205,7 @@ class Evaluator:
                 block=block.id, as_of_utc=now_utc, night=night.date, level=level, rank=rank_of(level),
                 frost_level=state.level, step=step_for_level(level, plan, protection_ran(state)), monitoring=mon,
                 projection=summarise_projection(proj), plan=plan, alert_key=state.last_key,
-                inputs_utc=inputs_utc(self.cfg, block, window, now_s),
+                inputs_utc=self._inputs_utc(block, window, now_s, memo),
             ))
             ev.alerts.extend(alerts)
         return ev
@@ -257,7 +302,7 @@ def iter_replay_nights(cfg: Config, series: Series, chosen=None) -> Iterator[tup
         return
     first = min(float(t[0]) for t, _ in series.values())
     last = max(float(t[-1]) for t, _ in series.values())
-    ev = Evaluator(cfg)
+    ev = Evaluator(cfg, fixed_series=True)
     nights = covered_nights(cfg, series, ev)
     pending: list[Night] = []
     total = len(nights)
@@ -337,6 +382,6 @@ def with_time(p: Projection) -> dict:
 
 
 __all__ = [
-    "Evaluator", "Evaluation", "run_replay", "iter_replay", "iter_replay_nights", "covered_nights", "slice_series",
+    "Evaluator", "Evaluation", "WindowMemo", "run_replay", "iter_replay", "iter_replay_nights", "covered_nights", "slice_series",
     "evaluation_times", "with_time", "dataclasses",
 ]

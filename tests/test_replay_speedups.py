@@ -144,3 +144,71 @@ def test_the_rules_state_replaced_is_dataclasses_replace():
             got.level = "rest"
     with pytest.raises(TypeError, match="no field 'levle'"):
         _replaced(base, {"levle": "rest"})
+
+
+def _demo_series(demo_config, demo_logs, every_s: float = 0.0):
+    from frostwatch.commands.logs import _series_from_readings
+    from frostwatch.config import load_config
+    from frostwatch.ingest.csvlog import read_sensor_log
+
+    cfg = load_config(str(demo_config))
+    readings = [r for log in demo_logs for r in read_sensor_log(log, {s.id for s in cfg.stations})[0]]
+    series = _series_from_readings(readings)
+    if every_s:  # a sparser log: many evaluations see the same window
+        series = {k: (t[keep], v[keep]) for k, (t, v) in series.items() if (keep := (t % every_s) == 0).any()}
+    return cfg, series
+
+
+@pytest.mark.parametrize("every_s", [0.0, 3600.0])
+def test_the_replays_window_memo_gives_what_each_evaluation_works_out_afresh(demo_config, demo_logs, every_s):
+    """A replay keeps what a readings window alone decides (the dusk forecast, the inputs' times)
+    while the window is the same (`pipeline.WindowMemo`); every projection and decision of the
+    demo's nights, at their own rate and thinned to hourly readings, is what an evaluator that
+    works each out afresh (the daemon's) gives."""
+    from frostwatch import pipeline
+
+    cfg, series = _demo_series(demo_config, demo_logs, every_s)
+    first = min(float(t[0]) for t, _ in series.values())
+    last = max(float(t[-1]) for t, _ in series.values())
+    kept, fresh = pipeline.Evaluator(cfg, fixed_series=True), pipeline.Evaluator(cfg)
+    hits = n = 0
+    for night in pipeline.covered_nights(cfg, series):
+        for now in pipeline.evaluation_times(night, cfg.forecast.evaluation_interval_min, first, last):
+            had = dict(kept.memo.values)
+            a, b = kept.evaluate(now, series), fresh.evaluate(now, series)
+            hits += bool(had) and kept.memo.values.keys() >= had.keys() and any(kept.memo.values[k] is had[k] for k in had)
+            n += 1
+            assert a.projections == b.projections and a.decisions == b.decisions and a.alerts == b.alerts, now
+        for ev in (kept, fresh):
+            ev.learn_night(night, series)
+    assert n > 1000 and (hits > n // 2 if every_s else True)
+
+
+def test_the_written_out_encoders_give_the_plain_codecs_text(demo_config, demo_logs):
+    """The codec's encoders written out per dataclass give the same JSON text, key order
+    included, as the plain field loop, for every decision of the demo's nights."""
+    import json
+
+    from frostwatch import pipeline
+    from frostwatch.advice import codec
+    from frostwatch.decision import Decision
+
+    cfg, series = _demo_series(demo_config, demo_logs)
+    decisions = [d for ev in pipeline.run_replay(cfg, series) for d in ev.decisions]
+    looped: dict = {}
+
+    def plain(obj, drop_none):
+        cls = type(obj)
+        names = codec._field_names(cls)
+        if names is None:
+            return codec.to_dict(obj, drop_none) if cls not in (list, tuple, dict) else (
+                [plain(x, drop_none) for x in obj] if cls is not dict else {k: plain(v, drop_none) for k, v in obj.items()})
+        enc = looped.setdefault(cls, codec._looped_encoder(names))
+        out = enc(obj, drop_none)
+        return {k: plain(getattr(obj, k), drop_none) if codec._field_names(type(getattr(obj, k))) or
+                type(getattr(obj, k)) in (list, tuple, dict) else v for k, v in out.items()}
+
+    assert codec._field_names(Decision) and len(decisions) > 1000
+    for d in decisions[::5]:
+        for drop in (True, False):
+            assert json.dumps(codec.to_dict(d, drop)) == json.dumps(plain(d, drop))

@@ -84,7 +84,7 @@ def _encoder_for(cls: type):
     if issubclass(cls, (list, tuple)):
         return _sequence
     if issubclass(cls, dict):
-        return lambda obj, drop_none: {str(k): to_dict(v, drop_none) for k, v in obj.items()}
+        return _mapping
     return lambda obj, drop_none: obj
 
 
@@ -95,20 +95,62 @@ def _finite(obj, drop_none: bool):
 def _sequence(obj, drop_none: bool) -> list:
     # a curve's floats and instants inline (as to_dict would encode each: finite or None, ISO text)
     out = []
+    append = out.append
+    isfinite = math.isfinite
     for x in obj:
         t = type(x)
-        if t in _PLAIN:
-            out.append(x)
-        elif t is float:
-            out.append(x if math.isfinite(x) else None)
+        if t is float:
+            append(x if isfinite(x) else None)
         elif t is dt.datetime:
-            out.append(iso_utc(x))
+            append(_iso_utc(x))
+        elif t in _PLAIN:
+            append(x)
         else:
-            out.append(to_dict(x, drop_none))
+            append(to_dict(x, drop_none))
+    return out
+
+
+def _mapping(obj, drop_none: bool) -> dict:
+    # keys as text; instants (a decision's crossings and inputs) inline, as to_dict encodes them
+    out = {}
+    for k, v in obj.items():
+        t = type(v)
+        out[k if type(k) is str else str(k)] = (v if t in _PLAIN else _iso_utc(v) if t is dt.datetime
+                                                 else to_dict(v, drop_none))
     return out
 
 
 def _dataclass_encoder(names: tuple[str, ...]):
+    """The encoder of a dataclass with these fields, written out field by field (a stored
+    decision encodes about a hundred values: no loop, no lookup of the field's name): each field
+    in order, left out when None with `drop_none`, plain values as they are, floats finite or
+    None, datetimes as ISO text, anything else through `to_dict`."""
+    if not all(n.isidentifier() for n in names):
+        return _looped_encoder(names)
+    lines = ["def encode(obj, drop_none):", "    out = {}"]
+    for n in names:
+        lines += [
+            f"    v = obj.{n}",
+            "    t = type(v)",
+            "    if t is str or t is int or t is bool:",
+            f"        out[{n!r}] = v",
+            "    elif v is None:",
+            "        if not drop_none:",
+            f"            out[{n!r}] = None",
+            "    elif t is float:",
+            f"        out[{n!r}] = v if isfinite(v) else None",
+            "    elif t is datetime:",
+            f"        out[{n!r}] = iso_utc(v)",  # not None here
+            "    else:",
+            f"        out[{n!r}] = to_dict(v, drop_none)",
+        ]
+    lines.append("    return out")
+    scope = {"isfinite": math.isfinite, "datetime": dt.datetime, "iso_utc": _iso_utc, "to_dict": to_dict}
+    exec("\n".join(lines), scope)  # noqa: S102 - source made here from a dataclass's field names
+    return scope["encode"]
+
+
+def _looped_encoder(names: tuple[str, ...]):
     values_of = operator.attrgetter(*names) if len(names) > 1 else (lambda obj: (getattr(obj, names[0]),) if names else ())
 
     def encode(obj, drop_none: bool) -> dict:

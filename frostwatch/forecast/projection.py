@@ -100,6 +100,32 @@ def _learning_note(cal: Calibration) -> str | None:
             "the band is wide until more are")
 
 
+def _dusk_forecast(
+    t0_c: float, td0_c: float | None, wind0: float | None, cloud0: float | None, trend0: float | None,
+    p_trend0: float | None, t0_s: float, method: str, t_air: np.ndarray, v_air: np.ndarray, night: Night,
+    cal: Calibration, p_hpa: float,
+) -> tuple:
+    """The forecast from t0 (dusk, or now before it): (t0_c, t0_s, method, hours from t0 to
+    sunrise, minimum, Reuter's b', the band's low and high offsets, notes)."""
+    sunrise_s = night.sunrise_utc.timestamp()
+    notes = []
+    h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
+    x = feature_vector(t0_c, td0_c, cloud0, wind0, trend0, p_trend0)
+    prior = prior_c(t0_c, x[1], h_from_t0, x[3], x[2], p_hpa)
+    if not math.isfinite(prior):
+        notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
+        prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
+    # before dusk the same evening curve on the readings so far, so the estimate runs into the
+    # dusk forecast without a jump
+    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s)
+    tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
+    if td0_c is None:
+        notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
+    b_dusk = (tp_dusk - t0_c) / math.sqrt(h_from_t0)
+    lo_off, hi_off = cal.dusk_band_c(h_from_t0)
+    return t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, tuple(notes)
+
+
 def project_block(
     now_utc: dt.datetime,
     block: Block,
@@ -109,11 +135,14 @@ def project_block(
     calibration: Calibration | None = None,
     pressure_hpa: float | None = None,
     curves: bool = True,
+    memo: dict | None = None,
 ) -> Projection:
     """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise.
 
     With `curves=False` the projected curves, their crossings and the wet bulb along them are
-    left out (empty); every other field is the same (a backtest scores the minimum and band)."""
+    left out (empty); every other field is the same (a backtest scores the minimum and band).
+    `memo` (a replay's `pipeline.WindowMemo` values, emptied when the readings window changes)
+    keeps what the window alone decides: the dusk forecast, from dusk on."""
     now_s = now_utc.timestamp()
     fc = cfg.forecast
     cal = calibration or Calibration(calibration_nights=fc.calibration_nights)
@@ -170,29 +199,25 @@ def project_block(
     upto = t_air <= now_s
     t_air, v_air = t_air[upto], v_air[upto]
 
-    # the dusk forecast: at t0 if we are past it, else from the latest values
-    di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s) if now_s >= dusk_s else None
-    if di is not None:
-        t0_c, td0_c, wind0, cloud0, trend0 = di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s
-        p_trend0 = di.pressure_trend_hpa
-        t0_s, method = dusk_s, "dusk forecast"
+    # the dusk forecast: at t0 if we are past it, else from the latest values. Past dusk it is
+    # made from the readings window alone (and the calibration): a replay's memo keeps it while
+    # the window is the same
+    key = ("dusk", block.id, speaker.station, dusk_s)
+    kept = None if memo is None or now_s < dusk_s else memo.get(key)
+    if kept is not None and kept[0] is cal:
+        di, dusk = kept[1], kept[2]
     else:
-        t0_c, td0_c, wind0, cloud0, t0_s, method = air_c, td_c, wind, cloud, now_s, "pre-dusk estimate"
-        trend0 = p_trend0 = None
-    h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
-    x = feature_vector(t0_c, td0_c, cloud0, wind0, trend0, p_trend0)
-    prior = prior_c(t0_c, x[1], h_from_t0, x[3], x[2], p_hpa)
-    if not math.isfinite(prior):
-        notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
-        prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
-    # before dusk the same evening curve on the readings so far, so the estimate runs into the
-    # dusk forecast without a jump
-    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s)
-    tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
-    if td0_c is None:
-        notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
-    b_dusk = (tp_dusk - t0_c) / math.sqrt(h_from_t0)
-    lo_off, hi_off = cal.dusk_band_c(h_from_t0)
+        di = dusk_inputs(cfg, series, speaker.station, stations, dusk_s) if now_s >= dusk_s else None
+        dusk = None if di is None else _dusk_forecast(
+            di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s, di.pressure_trend_hpa, dusk_s,
+            "dusk forecast", t_air, v_air, night, cal, p_hpa)
+        if memo is not None and now_s >= dusk_s:
+            memo[key] = (cal, di, dusk)
+    if dusk is None:
+        dusk = _dusk_forecast(air_c, td_c, wind, cloud, None, None, now_s, "pre-dusk estimate", t_air, v_air, night,
+                              cal, p_hpa)
+    t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, dusk_notes = dusk
+    notes.extend(dusk_notes)
 
     e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
     anchor_c = as_of(series, speaker.station, "air_temperature", now_s, math.inf) or air_c
