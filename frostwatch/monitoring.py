@@ -51,7 +51,7 @@ def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float) ->
     for st in crop:
         state = station_state(st, series, now_s, stale)
         t = series.get((st.id, "air_temperature"), (np.empty(0), np.empty(0)))[0]
-        t = t[t <= now_s]
+        t = t[:int(t.searchsorted(now_s, side="right"))]  # sorted: a view up to now
         if len(t) == 0:
             continue
         newest = float(t[-1])

@@ -193,7 +193,9 @@ class Evaluator:
             plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running,
                                **ref_kw)
             mon = block_monitoring(self.cfg, block, window, now_s)
-            state = self.states.get(block.id, BlockAlertState())
+            state = self.states.get(block.id)
+            if state is None:
+                state = BlockAlertState()
             state, alerts = step(state, plan, proj, block, now_utc, night, self.display, mon, self.rule_settings)
             self.states[block.id] = state
             if not mon.monitored and state.unmonitored_since_utc is not None:

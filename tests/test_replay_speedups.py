@@ -212,3 +212,41 @@ def test_the_written_out_encoders_give_the_plain_codecs_text(demo_config, demo_l
     for d in decisions[::5]:
         for drop in (True, False):
             assert json.dumps(codec.to_dict(d, drop)) == json.dumps(plain(d, drop))
+
+
+def test_stations_of_a_block_are_worked_out_once_and_handed_out_as_new_lists(demo_config):
+    """`Config.stations_of` keeps each answer (looked up for every block at every evaluation) and
+    gives the comprehension's list, a new one each time (a caller may extend it)."""
+    from frostwatch.config import load_config
+
+    cfg = load_config(str(demo_config))
+    for b in [b.id for b in cfg.blocks] + [None, "nowhere"]:
+        for role in (None, "crop", "tower", "sky"):
+            want = [s for s in cfg.stations if s.block == b and (role is None or s.role == role)]
+            got = cfg.stations_of(b, role)
+            assert got == want and got is not cfg.stations_of(b, role)
+            got.append("x")
+            assert cfg.stations_of(b, role) == want
+    assert dataclasses.replace(cfg).stations_of(cfg.blocks[0].id) == cfg.stations_of(cfg.blocks[0].id)
+
+
+@pytest.mark.parametrize("curve", [[5.0, 4.0, 3.0, 2.0], [1.0, 0.5], [3.0, 3.0], [np.nan, 1.0, -1.0], [2.0]])
+def test_a_crossing_is_the_first_point_at_or_below_the_line(curve):
+    """`crossing_time` finds the first grid point at or below the threshold (interpolated from
+    the point before), as the search over every point below it did."""
+    from frostwatch.forecast.curves import crossing_time
+
+    grid = np.arange(len(curve)) * 300.0
+    c = np.array(curve)
+    for thr in (6.0, 4.5, 3.0, 1.0, -5.0):
+        below = np.nonzero(c <= thr)[0]
+        if len(below) == 0:
+            want = None
+        elif below[0] == 0:
+            want = float(grid[0])
+        else:
+            i = int(below[0])
+            f = (c[i - 1] - thr) / (c[i - 1] - c[i]) if c[i - 1] != c[i] else 1.0
+            want = float(grid[i - 1] + f * (grid[i] - grid[i - 1]))
+        got = crossing_time(grid, c, thr)
+        assert got == want or (got is not None and want is not None and math.isnan(got) and math.isnan(want))

@@ -146,4 +146,13 @@ class Config:
         return {s.id: s for s in self.stations}
 
     def stations_of(self, block_id: str, role: str | None = None) -> list[Station]:
-        return [s for s in self.stations if s.block == block_id and (role is None or s.role == role)]
+        # looked up for every block at every evaluation: each answer worked out once (a new list each time)
+        kept = self.__dict__.get("_stations_of")
+        if kept is None:
+            kept = {}
+            object.__setattr__(self, "_stations_of", kept)
+        got = kept.get((block_id, role))
+        if got is None:
+            got = kept[(block_id, role)] = tuple(
+                s for s in self.stations if s.block == block_id and (role is None or s.role == role))
+        return list(got)

@@ -40,10 +40,10 @@ def utc_seconds(times_s: list[float]) -> tuple[dt.datetime, ...]:
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
     """First time the curve is at or below the threshold, interpolated; None if it never is."""
-    below = np.nonzero(curve_c <= threshold_c)[0]
-    if len(below) == 0:
+    below = curve_c <= threshold_c
+    i = int(below.argmax())  # the first True (0 when there is none)
+    if not below[i]:
         return None
-    i = int(below[0])
     if i == 0:
         return float(grid_s[0])
     c0, c1 = curve_c[i - 1], curve_c[i]

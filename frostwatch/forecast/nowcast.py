@@ -77,21 +77,44 @@ def _nan_to_zero(values) -> np.ndarray:
 
 def features_at(
     t_s: np.ndarray, v_c: np.ndarray, t0_s: float, t0_c: float, sunrise_s: float, now_s: float,
-    wind_m_s: float | None, cloud_frac: float | None, dew_point_c: float | None,
+    wind_m_s: float | None, cloud_frac: float | None, dew_point_c: float | None, memo: dict | None = None,
 ) -> tuple[float, tuple[float, ...]] | None:
     """(latest reading, features) at one instant, or None before any reading since t0. The same
-    sums as `feature_matrix`, taken directly over the readings that matter (an evaluation's path)."""
+    sums as `feature_matrix`, taken directly over the readings that matter (an evaluation's path).
+
+    `memo` (a replay's `pipeline.WindowMemo` values; the readings its window, which ends at
+    `now_s`) keeps the sums over the readings while they are the same."""
     j = int(np.searchsorted(t_s, now_s, side="right"))
+    i2 = int(np.searchsorted(t_s, now_s - RECENT_SLOPE_S, side="right"))
+    key = ("nowcast sums", t0_s, t0_c, j, i2)
+    sums = None if memo is None else memo.get(key)
+    if sums is None:
+        sums = _sums(t_s, v_c, t0_s, t0_c, j, i2)
+        if memo is not None:
+            memo[key] = sums
+    if sums is None:
+        return None
+    latest, b_obs, slope = sums
+    h_total = max(0.0, (sunrise_s - t0_s) / 3600.0)
+    e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
+    hl = max(0.0, (sunrise_s - now_s) / 3600.0)
+    td = dew_point_c
+    dep = ASSUMED_DEPRESSION_C if td is None or not math.isfinite(td) else max(0.0, latest - min(td, latest))
+    wind = 0.0 if wind_m_s is None or not math.isfinite(wind_m_s) else wind_m_s
+    cloud = 0.0 if cloud_frac is None or not math.isfinite(cloud_frac) else cloud_frac
+    return latest, (min(0.0, b_obs * (math.sqrt(h_total) - e_now)), math.sqrt(hl),
+                    min(MAX_RECENT_SLOPE_C_H, slope) * hl, float(wind), float(cloud), float(dep))
+
+
+def _sums(t_s: np.ndarray, v_c: np.ndarray, t0_s: float, t0_c: float, j: int, i2: int) -> tuple[float, float, float] | None:
+    """(latest reading, b' observed since t0, recent slope) over the readings before index j
+    (the recent slope from index i2); None before any reading since t0 + MIN_ELAPSED_H."""
     i0 = int(np.searchsorted(t_s, t0_s + MIN_ELAPSED_H * 3600.0, side="right"))
     if j == 0 or j <= i0:
         return None
     latest = float(v_c[j - 1])
     x = np.sqrt((t_s[i0:j] - t0_s) / 3600.0)
     b_obs = float(np.dot(x, v_c[i0:j] - t0_c) / np.dot(x, x))
-    h_total = max(0.0, (sunrise_s - t0_s) / 3600.0)
-    e_now = math.sqrt(max(0.0, (now_s - t0_s) / 3600.0))
-    hl = max(0.0, (sunrise_s - now_s) / 3600.0)
-    i2 = int(np.searchsorted(t_s, now_s - RECENT_SLOPE_S, side="right"))
     slope = 0.0
     if j - i2 >= 2:
         tt = (t_s[i2:j] - t0_s) / 3600.0
@@ -100,12 +123,7 @@ def features_at(
         den = float(np.dot(dt_, dt_))
         if den > 1e-12:
             slope = float(np.dot(dt_, vv - vv.mean()) / den)
-    td = dew_point_c
-    dep = ASSUMED_DEPRESSION_C if td is None or not math.isfinite(td) else max(0.0, latest - min(td, latest))
-    wind = 0.0 if wind_m_s is None or not math.isfinite(wind_m_s) else wind_m_s
-    cloud = 0.0 if cloud_frac is None or not math.isfinite(cloud_frac) else cloud_frac
-    return latest, (min(0.0, b_obs * (math.sqrt(h_total) - e_now)), math.sqrt(hl),
-                    min(MAX_RECENT_SLOPE_C_H, slope) * hl, float(wind), float(cloud), float(dep))
+    return latest, b_obs, slope
 
 
 def _features_at_via_matrix(

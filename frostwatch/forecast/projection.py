@@ -149,8 +149,8 @@ def project_block(
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     stations = cfg.stations_of(block.id)
     site_stations = [s for s in cfg.stations if s.block is None]
-    states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in stations]
-    site_states = [station_state(s, series, now_s, fc.stale_after_intervals) for s in site_stations]
+    states = [station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in stations]
+    site_states = [station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in site_stations]
     notes = [p for s in states for p in s.problems]
     speaker = speaking_station(states)
     base = dict(time_utc=now_utc, block=block.id, sunset_utc=night.sunset_utc, sunrise_utc=night.sunrise_utc)
@@ -224,7 +224,8 @@ def project_block(
     tp_c = tp_dusk
     band_at_c = None  # the band's centre where it is not tp_c
     if di is not None and now_s > t0_s and now_s < sunrise_s:
-        f = features_at(t_air, v_air, t0_s, t0_c, sunrise_s, now_s, wind, cloud, td_c)
+        f = features_at(t_air, v_air, t0_s, t0_c, sunrise_s, now_s, wind, cloud, td_c,
+                        None if memo is None else memo.setdefault(("nowcast", speaker.station), {}))
         if f is not None:
             latest_c, feats = f
             dusk_drop = b_dusk * (math.sqrt(h_from_t0) - e_now)
@@ -240,7 +241,7 @@ def project_block(
 
     grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, GRID_STEP_S)
     if grid_s[-1] < sunrise_s:
-        grid_s = np.append(grid_s, sunrise_s)
+        grid_s = np.concatenate((grid_s, (sunrise_s,)))
     e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
     span = math.sqrt(h_from_t0) - e_now
 
@@ -284,7 +285,7 @@ def project_block(
         # are not all read for every block)
         for st in cfg.stations:
             if st.role == "tower" and st.id not in tower_states:
-                tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals)
+                tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals, memo)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     outlook = inv.inversion_outlook(
         tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s,

@@ -59,12 +59,15 @@ def _utc_at(t_s: float) -> dt.datetime:
 _STATES: tuple = (None, None, {})  # (the series, the instant, {(station, stale): (its series, state)})
 
 
-def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float) -> StationState:
+def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float,
+                  memo: dict | None = None) -> StationState:
     """Latest values of a station and whether its air temperature can be trusted now.
 
     Made once per series and instant: an evaluation asks for the same station from the
     projection, the monitoring state and the tower choice. A station's series replaced in the
-    dict since (a caller editing its own series) is seen, and the state made again."""
+    dict since (a caller editing its own series) is seen, and the state made again. `memo` (a
+    replay's `pipeline.WindowMemo` values; `series` its window, which ends at `now_s`) keeps the
+    latest values while the window is the same; only the health depends on the instant."""
     global _STATES
     held, at, states = _STATES
     if held is not series or at != now_s:
@@ -75,15 +78,14 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
     got = states.get(key)
     if got is not None and all(a is b for a, b in zip(got[0], own, strict=True)):
         return got[1]
-    state = _station_state(st, series, now_s, stale_after_intervals)
+    state = _station_state(st, series, now_s, stale_after_intervals, memo)
     states[key] = (own, state)
     return state
 
 
-def _station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float) -> StationState:
+def _latest_values(st: Station, series: Series, now_s: float) -> tuple[dict[str, float], dict[str, dt.datetime]]:
     latest: dict[str, float] = {}
     latest_at: dict[str, dt.datetime] = {}
-    problems: list[str] = []
     for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
         if (st.id, q) not in series:
             continue
@@ -95,6 +97,19 @@ def _station_state(st: Station, series: Series, now_s: float, stale_after_interv
             continue
         latest[q] = float(v[idx])
         latest_at[q] = _utc_at(float(t[idx]))
+    return latest, latest_at
+
+
+def _station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float,
+                   memo: dict | None = None) -> StationState:
+    if memo is None:
+        latest, latest_at = _latest_values(st, series, now_s)
+    else:
+        kept = memo.get(("latest", st.id))
+        if kept is None:
+            kept = memo[("latest", st.id)] = _latest_values(st, series, now_s)
+        latest, latest_at = dict(kept[0]), dict(kept[1])
+    problems: list[str] = []
     healthy = True
     key = (st.id, "air_temperature")
     if st.role in ("crop", "tower"):
