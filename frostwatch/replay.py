@@ -16,12 +16,30 @@ rows in night order, exactly what one process would have stored (tests/test_repl
 
 from __future__ import annotations
 
+import contextlib
+import gc
 import os
 from dataclasses import dataclass, field
 
 MAX_JOBS = 4  # processes that share a season's nights (a Pi 4 has 4 cores)
 MIN_NIGHTS_PER_JOB = 4  # fewer nights than this per process: one process (starting others costs more)
 CHUNK_NIGHTS = 8  # a process evaluates runs of up to this many consecutive nights
+# The cycle collector's first threshold during a replay (Python's default is 700 allocations): an
+# evaluation allocates thousands of short-lived objects and makes almost no cycles, and a
+# collection every 700 of them took about 6 % of a replay's CPU time. Memory is what the
+# objects alive hold; cycles, if any, are still collected, every this many allocations.
+REPLAY_GC_THRESHOLD = 50_000
+
+
+@contextlib.contextmanager
+def _fewer_collections():
+    """The cycle collector's first threshold raised to REPLAY_GC_THRESHOLD, restored after."""
+    before = gc.get_threshold()
+    gc.set_threshold(max(before[0], REPLAY_GC_THRESHOLD), *before[1:])
+    try:
+        yield
+    finally:
+        gc.set_threshold(*before)
 
 
 class DecisionChanges:
@@ -133,6 +151,11 @@ def replay_series(cfg, store, series, progress=None, keep_projections=False, kee
 
     `jobs` processes share the nights (default `default_jobs()`); one with keep_evaluations, or
     when there are fewer than MIN_NIGHTS_PER_JOB nights per process."""
+    with _fewer_collections():  # the worker processes, forked inside, inherit it
+        return _replay_series(cfg, store, series, progress, keep_projections, keep_evaluations, display, jobs)
+
+
+def _replay_series(cfg, store, series, progress, keep_projections, keep_evaluations, display, jobs):
     from frostwatch import pipeline
     from frostwatch.alerts.outbox import replay_channel
 
