@@ -4,7 +4,8 @@ same three open years, as a change from what ships; writes bench/results/forecas
     python -m bench.forecast_variants [--only TEXT ...]   (all: about 7 minutes at load 2-5; not part of `python -m bench`)
 
 Each variant sets module constants of `frostwatch.forecast.calibration` (and of
-`forecast.learner`, which imports those it uses) for the run and restores them. Figures per
+`forecast.learner`, `forecast.skill` and `forecast.snapshot_plan`, which import those they use)
+for the run and restores them. Figures per
 site: dusk forecast MAE/bias on radiation, cold and all nights; the projection 2 h before the minimum (beside the naive drop) and 2 h before sunrise; the 80 % band's coverage at dusk
 and 2 h before the minimum; the median crossing error 3 h ahead; the cold-start bias; the "below
 0 degC" event's POD/FAR at dusk. Choices were made on Greensboro and Sand Point; Miami's figures
@@ -234,10 +235,10 @@ def _row(res: dict) -> dict:
 
 def run_variant(patch: dict[str, object]) -> dict:
     from frostwatch.forecast import calibration as cal
-    from frostwatch.forecast import learner
+    from frostwatch.forecast import learner, skill, snapshot_plan
     from frostwatch.forecast import projection as proj
 
-    mods = (cal, learner)  # the settings live in calibration; learner imports those it uses
+    mods = (cal, learner, skill, snapshot_plan)  # the settings live in calibration; these import those they use
     old = {(m, k): getattr(m, k) for k in patch for m in mods if hasattr(m, k)}
     try:
         for (m, k) in old:

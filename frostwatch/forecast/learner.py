@@ -1,32 +1,30 @@
 """The site's calibration learned night by night from sufficient statistics (no refit over the
 history): a `Learner` per block takes each finished night (`NightRecord`) once. Before adding it,
 it scores the forecasts the current calibration would have made on that night (walk-forward by
-construction): those errors feed the skill weights (`_Skill`) and the band (`_band_from`). Then it
+construction): those errors feed the skill weights and the band (`forecast.skill`). Then it
 adds the night's rows to the normal equations (`forecast.ridge`). `Learner.calibration()` is the
 immutable `forecast.calibration.Calibration` snapshot that the projection reads.
 
 Nights with protection running (sprinklers or wind machines) are left out: their minimum is the
 protection's doing, not the night's (issue 14). They are counted and said.
 
-The settings are `forecast.calibration`'s (benchmarks that try a variant set them in both modules).
+The settings are `forecast.calibration`'s (benchmarks that try a variant set them in every module
+that imports them: this one, `forecast.skill`, `forecast.snapshot_plan`).
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import math
-from bisect import bisect_left, insort
 from collections import deque
 
 import numpy as np
 
-from frostwatch.forecast.calibration import (
-    BAND_FROM_QUANTILES,
+from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS, BAND_QUANTILES: also read from here)
     BAND_MEMORY,
     BAND_MIN_RESIDUALS,
     BAND_PER_SQRT_HOUR,
     BAND_QUANTILES,
-    BAND_Z,
     DUSK_METHODS,
     FEATURES,
     INVERSION_MEMORY,
@@ -49,10 +47,6 @@ from frostwatch.forecast.calibration import (
     RIDGE_LAMBDA,
     SIMILAR_BY,
     SIMILAR_WIDTH_C,
-    SKILL_FLOOR_C2,
-    SKILL_HALF_LIFE,
-    SKILL_MIN_SCORED,
-    SKILL_SHRINK,
     T0_STRATUM_C,
     USE_NAIVE,
     Calibration,
@@ -61,160 +55,14 @@ from frostwatch.forecast.calibration import (
     nowcast_bin,
 )
 from frostwatch.forecast.ridge import lead_fit, ridge_solve_many
+from frostwatch.forecast.skill import (  # noqa: F401  (_Window, _quantile_sorted: also read from here)
+    _band_from,
+    _quantile_sorted,
+    _Skill,
+    _weights_many,
+    _Window,
+)
 from frostwatch.forecast.snapshot_plan import SnapshotPlan
-
-
-class _Skill:
-    """Recent skill of competing methods: exponentially weighted second moments of their errors
-    (squares and cross products), and the combination that minimises the expected squared error
-    of the blend (Bates & Granger 1969: w ~ S^-1 1, weights summing to one; here kept in [0, 1]
-    and the error covariance shrunk halfway to its diagonal, so that two methods that err
-    together do not get opposite weights)."""
-
-    __slots__ = ("methods", "m2", "scored")
-
-    def __init__(self, methods: tuple[str, ...]):
-        self.methods = methods
-        self.m2 = np.eye(len(methods)) * PRIOR_BAND_C**2
-        self.scored = dict.fromkeys(methods, 0)
-
-    @property
-    def mse(self) -> dict[str, float]:
-        return {m: float(self.m2[i, i]) for i, m in enumerate(self.methods)}
-
-    def add(self, errors: dict[str, float]) -> None:
-        a = 1.0 - 0.5 ** (1.0 / SKILL_HALF_LIFE)
-        idx = [i for i, m in enumerate(self.methods) if errors.get(m) is not None and math.isfinite(errors[m])]
-        if not idx:
-            return
-        e = np.array([errors[self.methods[i]] for i in idx])
-        if len(idx) == len(self.methods):  # every method scored (the usual case): no fancy indexing
-            self.m2 = (1 - a) * self.m2 + a * (e[:, None] * e[None, :])  # np.outer(e, e), without its wrapper
-        else:
-            sub = np.ix_(idx, idx)
-            self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
-        for i in idx:
-            self.scored[self.methods[i]] += 1
-
-    def weights(self, available: tuple[str, ...]) -> dict[str, float] | None:
-        """Blend weights among the available methods; None until each has been scored."""
-        if any(self.scored[m] < SKILL_MIN_SCORED for m in available):
-            return None
-        idx = [self.methods.index(m) for m in available]
-        s = self.m2[np.ix_(idx, idx)]
-        s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * np.diag(np.diag(s)) + SKILL_FLOOR_C2 * np.eye(len(idx))
-        try:
-            w = np.linalg.solve(s, np.ones(len(idx)))
-        except np.linalg.LinAlgError:
-            w = 1.0 / np.diag(s)
-        w = np.clip(w / w.sum(), 0.0, None) if w.sum() > 0 else 1.0 / np.diag(s)
-        w = w / w.sum()
-        return {m: float(x) for m, x in zip(available, w, strict=True)}
-
-
-class _Window:
-    """The last `maxlen` residuals in arrival order (a deque) and the same values kept sorted, so
-    that the band's quantiles need no sort at each snapshot."""
-
-    __slots__ = ("recent", "sorted", "nan")
-
-    def __init__(self, maxlen: int):
-        self.recent: deque = deque(maxlen=maxlen)
-        self.sorted: list[float] = []
-        self.nan = 0  # NaN residuals held (they have no place in the order)
-
-    def append(self, x: float) -> None:
-        x = float(x)
-        if len(self.recent) == self.recent.maxlen:
-            old = self.recent[0]
-            if old != old:
-                self.nan -= 1
-            else:
-                del self.sorted[bisect_left(self.sorted, old)]
-        self.recent.append(x)
-        if x != x:
-            self.nan += 1
-        else:
-            insort(self.sorted, x)
-
-    def __len__(self) -> int:
-        return len(self.recent)
-
-    def __iter__(self):
-        return iter(self.recent)
-
-
-def _quantile_sorted(v: list[float], q: float) -> float:
-    """np.quantile's default ('linear', Hyndman & Fan type 7) of sorted values, with numpy's own
-    arithmetic (virtual index (n - 1) q, and its two-sided interpolation), so bit for bit."""
-    n = len(v)
-    vi = (n - 1) * q
-    i = math.floor(vi)
-    if vi >= n - 1:
-        return v[n - 1]
-    if vi < 0:
-        return v[0]
-    a, b, g = v[i], v[i + 1], vi - i
-    diff = b - a
-    return b - diff * (1 - g) if g >= 0.5 else a + diff * g
-
-
-def _band_from(residuals, spread_c: float) -> tuple[float, float, int]:
-    """(low, high) offsets of the 80 % band from residuals (observed - predicted); a normal band of
-    `spread_c` until enough are known, blended in as they come."""
-    n = len(residuals)
-    normal = (-BAND_Z * spread_c, BAND_Z * spread_c)
-    if n < BAND_MIN_RESIDUALS:
-        if n < 3:
-            return normal[0], normal[1], n
-        r = np.asarray(list(residuals), dtype=float)
-        sd = float(np.sqrt((np.sum(r**2) + 3 * spread_c**2) / (n + 3)))
-        return -BAND_Z * sd + float(np.mean(r)) * n / (n + 3), BAND_Z * sd + float(np.mean(r)) * n / (n + 3), n
-    if not BAND_FROM_QUANTILES:
-        r = np.asarray(list(residuals), dtype=float)
-        m, sd = float(np.mean(r)), float(np.std(r))
-        return m - BAND_Z * sd, m + BAND_Z * sd, n
-    if isinstance(residuals, _Window) and not residuals.nan:
-        lo, hi = (_quantile_sorted(residuals.sorted, q) for q in BAND_QUANTILES)
-    else:
-        lo, hi = np.quantile(np.asarray(list(residuals), dtype=float), BAND_QUANTILES)
-    return float(lo), float(hi), n
-
-
-def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str, float] | None]:
-    """`_Skill.weights` of each (skill, available methods), the same numbers: the small solves
-    of records with the same available methods go to LAPACK as one stack."""
-    out: list = [None] * len(items)
-    groups: dict[tuple[int, ...], list[int]] = {}
-    for i, (skill, avail) in enumerate(items):
-        if any(skill.scored[m] < SKILL_MIN_SCORED for m in avail):
-            continue
-        if not avail:
-            out[i] = {}  # as `_Skill.weights` of no method
-            continue
-        groups.setdefault(tuple(skill.methods.index(m) for m in avail), []).append(i)
-    for idx, members in groups.items():
-        k = len(idx)
-        s = np.stack([items[i][0].m2 for i in members])
-        if idx != tuple(range(s.shape[1])):
-            s = s[:, idx][:, :, idx]
-        diag = np.zeros_like(s)
-        r = np.arange(k)
-        diag[:, r, r] = s[:, r, r]
-        s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * diag + SKILL_FLOOR_C2 * np.eye(k)
-        try:
-            w_all = np.linalg.solve(s, np.ones((len(members), k, 1)))[:, :, 0]
-        except np.linalg.LinAlgError:
-            for i in members:
-                out[i] = items[i][0].weights(items[i][1])
-            continue
-        total = w_all.sum(axis=1)  # rows of 2 to 4 numbers: summed in order, as one row alone
-        positive = (total > 0)[:, None]
-        w_all = np.where(positive, np.maximum(w_all / np.where(positive, total[:, None], 1.0), 0.0), 1.0 / s[:, r, r])  # np.clip(x, 0.0, None) is np.maximum(x, 0.0)
-        w_all = (w_all / w_all.sum(axis=1)[:, None]).tolist()
-        for j, i in enumerate(members):
-            out[i] = dict(zip(items[i][1], w_all[j], strict=True))
-    return out
 
 
 class Learner:
