@@ -36,33 +36,40 @@ class _Skill:
 
     def __init__(self, methods: tuple[str, ...]):
         self.methods = methods
-        self.m2 = np.eye(len(methods)) * PRIOR_BAND_C**2
+        # the moments as rows of Python floats: a night adds a few errors to each of many skills,
+        # each a handful of products, cheaper in Python than in numpy's calls (the same arithmetic)
+        k = len(methods)
+        self.m2 = [[PRIOR_BAND_C**2 if i == j else 0.0 for j in range(k)] for i in range(k)]
         self.scored = dict.fromkeys(methods, 0)
 
     @property
     def mse(self) -> dict[str, float]:
-        return {m: float(self.m2[i, i]) for i, m in enumerate(self.methods)}
+        return {m: self.m2[i][i] for i, m in enumerate(self.methods)}
 
     def add(self, errors: dict[str, float]) -> None:
+        """Decay the moments and add the errors' products, among the methods with a finite error:
+        m2 <- (1 - a) m2 + a e e^T, element by element, as numpy would do it."""
         a = 1.0 - 0.5 ** (1.0 / SKILL_HALF_LIFE)
-        idx = [i for i, m in enumerate(self.methods) if errors.get(m) is not None and math.isfinite(errors[m])]
+        b = 1 - a
+        methods = self.methods
+        idx = [i for i, m in enumerate(methods) if errors.get(m) is not None and math.isfinite(errors[m])]
         if not idx:
             return
-        e = np.array([errors[self.methods[i]] for i in idx])
-        if len(idx) == len(self.methods):  # every method scored (the usual case): no fancy indexing
-            self.m2 = (1 - a) * self.m2 + a * (e[:, None] * e[None, :])  # np.outer(e, e), without its wrapper
-        else:
-            sub = np.ix_(idx, idx)
-            self.m2[sub] = (1 - a) * self.m2[sub] + a * np.outer(e, e)
+        e = [float(errors[methods[i]]) for i in idx]
+        m2 = self.m2
+        for p, i in enumerate(idx):
+            row, ep = m2[i], e[p]
+            for q, j in enumerate(idx):
+                row[j] = b * row[j] + a * (ep * e[q])
         for i in idx:
-            self.scored[self.methods[i]] += 1
+            self.scored[methods[i]] += 1
 
     def weights(self, available: tuple[str, ...]) -> dict[str, float] | None:
         """Blend weights among the available methods; None until each has been scored."""
         if any(self.scored[m] < SKILL_MIN_SCORED for m in available):
             return None
         idx = [self.methods.index(m) for m in available]
-        s = self.m2[np.ix_(idx, idx)]
+        s = np.array(self.m2)[np.ix_(idx, idx)]
         s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * np.diag(np.diag(s)) + SKILL_FLOOR_C2 * np.eye(len(idx))
         try:
             w = np.linalg.solve(s, np.ones(len(idx)))
@@ -142,27 +149,45 @@ def _band_from(residuals, spread_c: float) -> tuple[float, float, int]:
     return float(lo), float(hi), n
 
 
+_INDEX_OF: dict[tuple[tuple[str, ...], tuple[str, ...]], tuple[int, ...]] = {}  # (methods, available): positions
+_FLOOR_EYE: dict[tuple[int, float], np.ndarray] = {}  # (size, floor): floor x identity
+
+
 def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str, float] | None]:
     """`_Skill.weights` of each (skill, available methods), the same numbers: the small solves
     of records with the same available methods go to LAPACK as one stack."""
     out: list = [None] * len(items)
     groups: dict[tuple[int, ...], list[int]] = {}
     for i, (skill, avail) in enumerate(items):
-        if any(skill.scored[m] < SKILL_MIN_SCORED for m in avail):
+        scored = skill.scored
+        if any(scored[m] < SKILL_MIN_SCORED for m in avail):
             continue
         if not avail:
             out[i] = {}  # as `_Skill.weights` of no method
             continue
-        groups.setdefault(tuple(skill.methods.index(m) for m in avail), []).append(i)
+        key = (skill.methods, avail)
+        idx = _INDEX_OF.get(key)
+        if idx is None:
+            idx = _INDEX_OF[key] = tuple(skill.methods.index(m) for m in avail)
+        groups.setdefault(idx, []).append(i)
     for idx, members in groups.items():
         k = len(idx)
-        s = np.stack([items[i][0].m2 for i in members])
-        if idx != tuple(range(s.shape[1])):
-            s = s[:, idx][:, :, idx]
-        diag = np.zeros_like(s)
+        if idx == tuple(range(len(items[members[0]][0].methods))):
+            s = np.array([items[i][0].m2 for i in members])
+        else:
+            s = np.array([[[row[j] for j in idx] for row in (m2[i] for i in idx)] for m2 in (items[x][0].m2 for x in members)])
         r = np.arange(k)
-        diag[:, r, r] = s[:, r, r]
-        s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * diag + SKILL_FLOOR_C2 * np.eye(k)
+        if SKILL_SHRINK == 0.0:
+            # (1 - 0) s + 0 diag(s) + floor I is s + floor I, bit for bit: the moments' diagonal is
+            # finite and >= 0 (decayed sums of finite squares), and +0 added once or twice is the same
+            floor = _FLOOR_EYE.get((k, SKILL_FLOOR_C2))
+            if floor is None:
+                floor = _FLOOR_EYE[(k, SKILL_FLOOR_C2)] = SKILL_FLOOR_C2 * np.eye(k)
+            s = s + floor
+        else:
+            diag = np.zeros_like(s)
+            diag[:, r, r] = s[:, r, r]
+            s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * diag + SKILL_FLOOR_C2 * np.eye(k)
         try:
             w_all = np.linalg.solve(s, np.ones((len(members), k, 1)))[:, :, 0]
         except np.linalg.LinAlgError:
@@ -170,8 +195,12 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
                 out[i] = items[i][0].weights(items[i][1])
             continue
         total = w_all.sum(axis=1)  # rows of 2 to 4 numbers: summed in order, as one row alone
-        positive = (total > 0)[:, None]
-        w_all = np.where(positive, np.maximum(w_all / np.where(positive, total[:, None], 1.0), 0.0), 1.0 / s[:, r, r])  # np.clip(x, 0.0, None) is np.maximum(x, 0.0)
+        positive = total > 0
+        if positive.all():  # the usual case: np.where below picks its first branch everywhere
+            w_all = np.maximum(w_all / total[:, None], 0.0)
+        else:
+            positive = positive[:, None]
+            w_all = np.where(positive, np.maximum(w_all / np.where(positive, total[:, None], 1.0), 0.0), 1.0 / s[:, r, r])  # np.clip(x, 0.0, None) is np.maximum(x, 0.0)
         w_all = (w_all / w_all.sum(axis=1)[:, None]).tolist()
         for j, i in enumerate(members):
             out[i] = dict(zip(items[i][1], w_all[j], strict=True))
