@@ -26,13 +26,23 @@ def _iso(t: dt.datetime | None) -> str | None:
 
 def candidate_nights(cfg: Config, series: Series) -> list[dt.date]:
     """Evening dates on which some crop-height air sensor has readings (sorted)."""
-    hours: set[int] = set()
-    for s in cfg.stations:
-        if s.role == "crop" and (s.id, "air_temperature") in series:
-            t = series[(s.id, "air_temperature")][0]
-            hours.update(np.unique(np.floor(t / 3600.0)).astype(np.int64).tolist())
+    parts = [np.floor(series[(s.id, "air_temperature")][0] / 3600.0) for s in cfg.stations
+             if s.role == "crop" and (s.id, "air_temperature") in series]
+    if not parts:
+        return []
+    hours = np.unique(np.concatenate(parts)).astype(np.int64)  # every whole hour with a reading
     tz = cfg.site.tz
-    return sorted({evening_date(dt.datetime.fromtimestamp(h * 3600.0, dt.UTC), tz) for h in hours})
+    # an evening lasts from local noon to local noon (23 to 25 hours), so a run of consecutive hours
+    # meets every evening from its first hour's to its last's: only the runs' ends are converted
+    cut = np.flatnonzero(np.diff(hours) != 1)
+    firsts, lasts = hours[np.concatenate(([0], cut + 1))].tolist(), hours[np.concatenate((cut, [len(hours) - 1]))].tolist()
+    dates: set[dt.date] = set()
+    for a, b in zip(firsts, lasts, strict=True):
+        d, last = (evening_date(dt.datetime.fromtimestamp(h * 3600.0, dt.UTC), tz) for h in (a, b))
+        while d <= last:
+            dates.add(d)
+            d += dt.timedelta(days=1)
+    return sorted(dates)
 
 
 def backtest(

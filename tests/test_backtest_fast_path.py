@@ -170,3 +170,126 @@ def test_a_projection_without_curves_is_the_same_projection(tmp_path, protection
         if rec is not None:
             learner.learn(rec)
     assert checked > 40
+
+
+# ---- the nowcast's training points of many nights at once -------------------------------------
+
+
+def _training_samples_one_night(cfg, series, station, stations, t, v, t0_s, t0_c, sunrise_s, end_s):
+    """The nowcast's training points of one night as they were worked out before they were
+    batched over nights (`nowcast.training_samples_many` must give these, bit for bit)."""
+    from frostwatch.forecast.nowcast import NOWCAST_SAMPLE_STEP_S, NOWCAST_START_S, feature_matrix
+    from frostwatch.forecast.sensors import INPUT_WINDOW_S, means_as_of
+    from frostwatch.physics import humidity
+
+    i_end = int(np.searchsorted(t, end_s, side="right"))
+    grid = np.arange(t0_s + NOWCAST_START_S, sunrise_s + 1.0, NOWCAST_SAMPLE_STEP_S)
+    idx = np.unique(np.searchsorted(t, grid, side="left"))
+    idx = idx[(idx < i_end) & (t[np.minimum(idx, len(t) - 1)] <= sunrise_s)]
+    if not len(idx):
+        return ()
+    times = t[idx]
+    ids = [s.id for s in stations] + [s.id for s in cfg.stations if s.block is None]
+    wind = means_as_of(series, ids, "wind_speed", times, INPUT_WINDOW_S)
+    cloud = means_as_of(series, [s.id for s in cfg.stations], "cloud_area_fraction", times, INPUT_WINDOW_S)
+    td = np.full(len(times), np.nan)
+    for sid in [station] + [i for i in ids if i != station]:
+        missing = np.isnan(td)
+        if not missing.any():
+            break
+        d = means_as_of(series, [sid], "dew_point_temperature", times, INPUT_WINDOW_S)
+        if np.isfinite(d[missing]).all():
+            td = np.where(missing, d, td)
+            continue
+        rh = means_as_of(series, [sid], "relative_humidity", times, INPUT_WINDOW_S)
+        ta = v[idx] if sid == station else means_as_of(series, [sid], "air_temperature", times, INPUT_WINDOW_S)
+        ok = np.isfinite(rh) & np.isfinite(ta)
+        from_rh = np.full(len(times), np.nan)
+        if ok.any():
+            from_rh[ok] = np.asarray(humidity.dew_point_c_from_rel_humidity(ta[ok], np.clip(rh[ok], 1.0, 100.0)), dtype=float)
+        td = np.where(missing, np.where(np.isfinite(d), d, from_rh), td)
+    latest, feats, ok = feature_matrix(t, v, t0_s, t0_c, sunrise_s, times, wind, cloud, td)
+    tail_min = np.minimum.accumulate(v[:i_end][::-1])[::-1]
+    drops = tail_min[idx] - v[idx]
+    return tuple((tuple(feats[k].tolist()), float(drops[k])) for k in np.nonzero(ok)[0].tolist())
+
+
+def _jobs_of(cfg, block, series, nights):
+    """Each night's (its readings, speaking station, its air t and v, t0, T0, sunrise, end), as
+    `forecast.records` hands them to `training_samples_many`."""
+    from frostwatch.forecast.sensors import dusk_inputs, speaking_station, station_state
+
+    stations = cfg.stations_of(block.id)
+    jobs = []
+    for night in nights:
+        obs = slice_series(series, (night.sunset_utc - LOOKBACK).timestamp(), night.sunrise_utc.timestamp() + 3600.0)
+        dusk_s = night.dusk_utc.timestamp()
+        speaker = speaking_station([station_state(s, obs, dusk_s, cfg.forecast.stale_after_intervals) for s in stations])
+        di = None if speaker is None else dusk_inputs(cfg, obs, speaker.station, stations, dusk_s)
+        if di is not None:
+            t, v = obs[(speaker.station, "air_temperature")]
+            jobs.append((obs, speaker.station, t, v, dusk_s, di.temp_c, night.sunrise_utc.timestamp(),
+                         night.sunrise_utc.timestamp() + 3600.0))
+    return jobs
+
+
+def _check_many_is_one_by_one(cfg, block, jobs) -> int:
+    from frostwatch.forecast.nowcast import training_samples_many
+
+    many = training_samples_many(cfg, cfg.stations_of(block.id), jobs)
+    for job, got in zip(jobs, many, strict=True):
+        assert same(got, _training_samples_one_night(cfg, job[0], job[1], cfg.stations_of(block.id), *job[2:])), job[4]
+    return sum(len(g) for g in many)
+
+
+def test_training_points_of_many_nights_are_each_nights_own_on_the_demo_farm():
+    """The demo farm's nights (invented, sample_sensor_logs/): humidity turned into dew points,
+    two crop-height sensors in a block, site-wide sensors, every block; and the same nights with
+    sensors silent for hours, so that nights differ in what they have."""
+    from frostwatch.commands.logs import _first_rows
+    from frostwatch.config import load_config
+    from frostwatch.ingest.bulk import read_log_columns, series_of_columns
+
+    demo = Path(__file__).resolve().parents[1] / "sample_sensor_logs"
+    cfg = load_config(str(demo / "demo-farm.toml"))
+    series: dict = {}
+    for log in sorted(demo.glob("2027-04-1*.csv")):
+        cols, _ = read_log_columns(log, {s.id for s in cfg.stations})
+        for key, (t, v) in series_of_columns(cols, _first_rows(cols), key_order="file").items():
+            old = series.get(key)
+            series[key] = (t, v) if old is None else (np.concatenate([old[0], t]), np.concatenate([old[1], v]))
+    s = cfg.site
+    nights = nights_of_dates(s.latitude, s.longitude, s.tz, [dt.date(2027, 4, 14) + dt.timedelta(days=k) for k in range(3)])
+    rng = np.random.default_rng(7)
+    holed = {}
+    for key, (t, v) in series.items():  # each series silent for a few random hours
+        keep = np.ones(len(t), bool)
+        for start in rng.uniform(t[0], t[-1], 3):
+            keep &= ~((t >= start) & (t < start + rng.uniform(1800, 4 * 3600)))
+        holed[key] = (t[keep], v[keep])
+    checked = 0
+    for block in cfg.blocks:
+        for ser in (series, holed):
+            checked += _check_many_is_one_by_one(cfg, block, _jobs_of(cfg, block, ser, nights))
+    assert checked > 100
+
+
+def test_training_points_of_many_nights_are_each_nights_own_on_a_typical_year(tmp_path):
+    """pvlib's Sand Point AK TMY3 year (NREL, Wilcox & Marion 2008) as bench/tmy.py converts it:
+    nights of every length, cloud and wind sensors, months from different years."""
+    pytest.importorskip("pvlib")
+    from frostwatch.commands.logs import _first_rows
+    from frostwatch.config import load_config
+    from frostwatch.ingest.bulk import read_log_columns, series_of_columns
+
+    spec = importlib.util.spec_from_file_location("bench_tmy", Path(__file__).resolve().parents[1] / "bench" / "tmy.py")
+    tmy = sys.modules.get("bench_tmy") or importlib.util.module_from_spec(spec)
+    if "bench_tmy" not in sys.modules:
+        sys.modules["bench_tmy"] = tmy
+        spec.loader.exec_module(tmy)
+    log, cfg_path, _ = tmy.write_log_and_config(tmy.SITES["sand_point"], tmp_path)
+    cfg = load_config(str(cfg_path))
+    cols, _ = read_log_columns(log, {s.id for s in cfg.stations})
+    series = series_of_columns(cols, _first_rows(cols), key_order="file")
+    nights = nights_of_dates(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, bt.candidate_nights(cfg, series))
+    assert _check_many_is_one_by_one(cfg, cfg.blocks[0], _jobs_of(cfg, cfg.blocks[0], series, nights)) > 3000

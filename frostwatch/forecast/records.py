@@ -12,7 +12,7 @@ from frostwatch import towers as towers_mod
 from frostwatch.config import Block, Config, Station
 from frostwatch.forecast.calibration import PROTECTION_QUANTITIES, NightRecord, feature_vector
 from frostwatch.forecast.curves import _utc, evening_curve_c
-from frostwatch.forecast.nowcast import fall_before_min_c, training_samples
+from frostwatch.forecast.nowcast import fall_before_min_c, training_samples_many
 from frostwatch.forecast.projection import prime_priors, prior_c
 from frostwatch.forecast.sensors import (
     Series,
@@ -57,15 +57,20 @@ def night_records(
     block: Block, cfg: Config, nights: list[tuple[Series, Night]], pressure_hpa: float | None = None
 ) -> list[NightRecord | None]:
     """`night_record` of many nights, each with its own readings (a season's, for a backtest):
-    the physics priors of all of them worked out in one pass (`prime_priors`)."""
+    the physics priors of all of them worked out in one pass (`prime_priors`), and the nowcast's
+    training points of all of them at once (`nowcast.training_samples_many`)."""
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     found = [_night_record_fields(block, cfg, series, night, p_hpa) for series, night in nights]
+    jobs = [f[0]["nowcast_samples"] for f in found if f is not None]
+    for f, samples in zip([f for f in found if f is not None], training_samples_many(cfg, cfg.stations_of(block.id), jobs), strict=True):
+        f[0]["nowcast_samples"] = samples
     prime_priors([f[1] for f in found if f is not None])
     return [None if f is None else NightRecord(**f[0], prior_c=prior_c(*f[1])) for f in found]
 
 
 def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night, p_hpa: float) -> tuple[dict, tuple] | None:
-    """A night's record without its physics prior, and the prior's inputs."""
+    """A night's record without its physics prior, and the prior's inputs; its nowcast samples
+    are what `nowcast.training_samples_many` takes to work them out."""
     dusk_s = night.dusk_utc.timestamp()
     sunset_s = night.sunset_utc.timestamp()
     sunrise_s = night.sunrise_utc.timestamp()
@@ -112,7 +117,7 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
         t0_wind_trend_m_s=di.wind_trend_m_s,
         t0_pressure_trend_hpa=di.pressure_trend_hpa,
         evening_curve_c=evening_curve_c(t, v, sunset_s, dusk_s, di.temp_c, sunrise_s),
-        nowcast_samples=training_samples(cfg, series, speaker.station, stations, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
+        nowcast_samples=(series, speaker.station, t, v, dusk_s, di.temp_c, sunrise_s, end_s),
         protected=_protected(series, stations, dusk_s - 3600.0, end_s),
         inversion_at_min_c=inv_at_min,
         fall_before_min_c=fall_before_min_c(t, v, float(tw[i]), float(vw[i]), dusk_s),
