@@ -396,3 +396,24 @@ def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
     monkeypatch.setattr(learner, "SIMILAR_WIDTH_C", None)
     alike = mae(forecast.fit_calibration(list(recs), 10))
     assert weighted < 0.15 and alike > 0.4  # measured 0.05 and 0.52
+
+
+def test_dusk_inputs_see_only_readings_up_to_dusk(demo_config):
+    """The dusk inputs are what was known at the dusk point: readings that come after it, even a
+    burst at another rate, change nothing. Here the humidity reported every 15 min until 10 min
+    before dusk and every 10 s from a minute after it; judged by the later rate, the dusk's
+    humidity reading would have been called stale and the dew point lost."""
+    from frostwatch.forecast.sensors import dusk_inputs
+
+    cfg = load_config(str(demo_config))
+    t0 = 1_807_000_000.0
+    air_t = np.arange(t0 - 3 * 3600.0, t0 + 2 * 3600.0 + 1, 60.0)
+    rh_t = np.concatenate([np.arange(t0 - 3 * 3600.0, t0 - 600.0 + 1, 900.0), np.arange(t0 + 60.0, t0 + 2 * 3600.0, 10.0)])
+    rh_t = rh_t[(rh_t <= t0 - 600.0) | (rh_t > t0)]
+    full = {("east-low", "air_temperature"): (air_t, 8.0 - (air_t - air_t[0]) / 3600.0),
+            ("east-low", "relative_humidity"): (rh_t, np.full(len(rh_t), 55.0))}
+    known = {k: (t[t <= t0], v[t <= t0]) for k, (t, v) in full.items()}
+    stations = cfg.stations_of("east")
+    at_dusk, later = dusk_inputs(cfg, known, "east-low", stations, t0), dusk_inputs(cfg, full, "east-low", stations, t0)
+    assert at_dusk is not None and at_dusk.dew_point_c is not None
+    assert later == at_dusk

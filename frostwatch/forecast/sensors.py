@@ -285,13 +285,18 @@ class DuskInputs:
     pressure_trend_hpa: float | None = None
 
 
+def _times_up_to(t_s: np.ndarray, end_s: float) -> np.ndarray:
+    """The reading times at or before `end_s` (a series is sorted by time)."""
+    return t_s[: int(t_s.searchsorted(end_s, side="right"))]
+
+
 def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[Station], t0_s: float) -> DuskInputs | None:
     """Temperature, dew point, wind and cloud at t0 for `station`, from readings up to t0 only."""
     site = [s for s in cfg.stations if s.block is None]
     st = next((s for s in block_stations if s.id == station), None)
     interval = st.interval_s if st and st.interval_s else None
     if interval is None and (station, "air_temperature") in series:
-        interval = usual_interval_s(series[(station, "air_temperature")][0], None)
+        interval = usual_interval_s(_times_up_to(series[(station, "air_temperature")][0], t0_s), None)
     max_age = cfg.forecast.stale_after_intervals * (interval or DEFAULT_INTERVAL_S)
     t0_c = as_of(series, station, "air_temperature", t0_s, max_age)
     if t0_c is None:
@@ -302,7 +307,8 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
         # each series is judged by its own usual interval (humidity often reports less often than air)
         if (sid, quantity) not in series:
             return max_age
-        return max(max_age, cfg.forecast.stale_after_intervals * usual_interval_s(series[(sid, quantity)][0], None))
+        usual_s = usual_interval_s(_times_up_to(series[(sid, quantity)][0], t0_s), None)
+        return max(max_age, cfg.forecast.stale_after_intervals * usual_s)
 
     td = None
     for sid in others:
