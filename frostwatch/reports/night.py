@@ -120,8 +120,8 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
                             night.sunrise_utc.timestamp() + 3 * 3600)
         sections.append(BlockSection(bn, dusk_c, proj_dicts, lower_note=lower.note, lower_shown=lower.shown))
     rows = q.readings_digest_rows(store, start, end)
-    changes = [c for b in cfg.blocks for c in decision_changes(
-        stored_decisions.between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id))]
+    changes = [c for b in cfg.blocks
+               for c in stored_decisions.changes_between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id)]
     return NightData(
         cfg=cfg, settings=settings, display=d, night=night, sections=sections, alerts=alerts,
         deliveries=deliveries, acks=acks,

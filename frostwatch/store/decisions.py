@@ -6,6 +6,7 @@ Raises `StoreError` when the database cannot be read or written.
     save(conn, decisions)                        # inside the evaluation's transaction
     latest(store, until_utc=now) -> {block: Decision}   # the newest decision of each block
     between(store, start, end, block=None)       # a night's decisions, oldest first
+    changes_between(store, start, end, block)    # only where level, step or monitoring changed
     delete_before(store, cut_utc) -> int         # retention
 """
 
@@ -119,6 +120,27 @@ def between(store: Store, start_utc: dt.datetime, end_utc: dt.datetime, block: s
         rows = _query(store, "SELECT doc FROM decisions WHERE block = ? AND time_utc_ms BETWEEN ? AND ? "
                              "ORDER BY time_utc_ms", (block, to_ms(start_utc), to_ms(end_utc)))
     return _decode(rows)
+
+
+def changes_between(store: Store, start_utc: dt.datetime, end_utc: dt.datetime, block: str) -> list[Decision]:
+    """A block's decisions with start <= as_of <= end where the level, the step or the monitoring
+    state changed, and the last one (the night report's list), oldest first. The changes are
+    found on the columns; only those decisions are decoded (a night holds hundreds)."""
+    rows = _query(store, "SELECT time_utc_ms, level, step, monitored FROM decisions WHERE block = ? AND "
+                         "time_utc_ms BETWEEN ? AND ? ORDER BY time_utc_ms", (block, to_ms(start_utc), to_ms(end_utc)))
+    keep, last = [], None
+    for t_ms, *state in rows:
+        if state != last:
+            keep.append(t_ms)
+            last = state
+    if rows and keep[-1] != rows[-1][0]:
+        keep.append(rows[-1][0])
+    docs = []
+    for i in range(0, len(keep), 500):  # under SQLite's limit of bound parameters
+        part = keep[i:i + 500]
+        docs += _query(store, f"SELECT doc FROM decisions WHERE block = ? AND time_utc_ms IN ({','.join('?' * len(part))}) "
+                              "ORDER BY time_utc_ms", (block, *part))
+    return _decode(docs)
 
 
 def at(store: Store, block: str, as_of_utc: dt.datetime) -> Decision | None:
