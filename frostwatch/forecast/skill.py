@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from bisect import bisect_left, insort
 from collections import deque
+from itertools import chain
 
 import numpy as np
 
@@ -173,9 +174,10 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
     for idx, members in groups.items():
         k = len(idx)
         if idx == tuple(range(len(items[members[0]][0].methods))):
-            s = np.array([items[i][0].m2 for i in members])
+            rows = chain.from_iterable(chain.from_iterable(items[i][0].m2 for i in members))
         else:
-            s = np.array([[[row[j] for j in idx] for row in (m2[i] for i in idx)] for m2 in (items[x][0].m2 for x in members)])
+            rows = (m2[i][j] for m2 in (items[x][0].m2 for x in members) for i in idx for j in idx)
+        s = np.fromiter(rows, dtype=float, count=len(members) * k * k).reshape(len(members), k, k)
         r = np.arange(k)
         if SKILL_SHRINK == 0.0:
             # (1 - 0) s + 0 diag(s) + floor I is s + floor I, bit for bit: the moments' diagonal is
