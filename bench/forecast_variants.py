@@ -55,6 +55,10 @@ VARIANTS: dict[str, dict[str, object]] = {
     "nowcast: approach correction ratio, k = 1 degC^2 (not 2)": {"LEAD_SHRINK": 1.0},
     "nowcast: approach correction ratio, k = 5, half-life 30 nights (not 100)": {"LEAD_SHRINK": 5.0, "LEAD_HALF_LIFE": 30.0},
     "nowcast: approach correction, the band around the corrected blend (its residuals)": {"LEAD_BAND_RAW": False},
+    # issue 15, fifth pass: the approach blend (calibration.NOWCAST_APPROACH_BLEND)
+    "nowcast: no approach blend (what shipped before it)": {"NOWCAST_APPROACH_BLEND": False},
+    "nowcast: approach blend at every instant of the corrected nights (not only while the last 2 h cooled)":
+        {"APPROACH_WHEN_COOLING": False},
 }
 
 # What main had before this issue (commit 2a3d308, the same bench), for the record.
@@ -204,6 +208,36 @@ HARNESS = [
                 "0.979 / 0.220-0.227, wind 0.240-0.246 (shipped 0.979 / 0.264), but the band then holds 72-75 % with "
                 "12-13 % below its lower edge (shipped 76 / 11): the FAR falls only as the band narrows past its "
                 "limits. Greensboro 0.947 / 0.325-0.372 (0.341): not shipped"},
+    # issue 15, fifth pass, through the bench itself with switches since removed (cold nights, Greensboro / Sand
+    # Point / Miami; what shipped then, the approach correction alone: 2 h before the minimum 0.777 / 0.478 / 0.542,
+    # naive 0.721 / 0.401 / 0.557; 2 h before sunrise, all nights, 0.750 / 0.529 / 0.604, naive 0.832 / 0.485 /
+    # 0.598; T10 + margin crossing 1 h ahead, median |error|, 38 / 72 min)
+    {"variant": "nowcast: the naive fall conditioned on tonight (a ridge, lambda 10, on the last 2 h's slope x hours left, "
+                "wind, cloud and depression at past nights' points 2 h before the minimum, from the 10th night) in "
+                "place of the mean fall; inputs (slope, depression), or all six nowcast features",
+     "figures": "2 h before the minimum 0.769 / 0.480 / 0.532, (2): 0.772 / 0.479 / 0.533, (6): 0.77 / 0.48 / 0.54; "
+                "2 h before sunrise 0.744 / 0.530 / 0.610; crossing 1 h ahead 28 / 65 min. At those points alone it "
+                "beats the mean fall at Greensboro (0.65 against 0.70) but not at Sand Point (0.40 / 0.39): within "
+                "0.01 on the headline, not shipped. With the approach blend: 0.681 / 0.434 / 0.512, 2 h before "
+                "sunrise 0.749 / 0.578 / 0.619; with it only while cooling 0.704 / 0.461 / 0.511"},
+    {"variant": "nowcast: approach correction only at instants whose last 2 h cooled; or on nights forecast below "
+                "the mean minimum + 1, 2, 3 degC (or - 1 degC)",
+     "figures": "0.81 / 0.50 / 0.59; margins: 0.76 / 0.47 / 0.54, 0.77 / 0.46 / 0.54, 0.76 / 0.46 / 0.54, "
+                "0.79 / 0.49 / 0.54; 2 h before sunrise (margins) 0.751-0.753 / 0.526-0.539 / 0.595-0.654: a "
+                "continuum of the same trade, no gain"},
+    {"variant": "nowcast: approach blend only ever adding to the fall (min of the corrected and the mixed fall); "
+                "or only within 3 h / 5 h of sunrise",
+     "figures": "0.77 / 0.44 / 0.53; 0.75 / 0.45 / 0.53 and 0.75 / 0.45 / 0.53, 2 h before sunrise 0.77 / "
+                "0.57-0.58 / 0.61: Greensboro's gain is from the corrected blend's too-cold falls at minima early "
+                "in the night (the naive fall warms them), which these give up; not shipped"},
+    # scored offline on the NightRecords (walk-forward, the learner's own points nearest 2 h before the minimum and
+    # 2 h before sunrise; what shipped then 0.760 / 0.477 / 0.553 and 0.620 / 0.425 / 0.511 there)
+    {"variant": "nowcast: approach blend over more members (learned, re-fit, dusk curve, naive, conditioned naive), "
+                "or per hours-left bin, or half-life 10 / 100 points",
+     "figures": "all five 0.707 / 0.439 / 0.581 (2 h before sunrise 0.591 / 0.456 / 0.505); per bin 0.800 / 0.494 "
+                "/ 0.599; half-life 10: 0.696 / 0.428 / 0.572, 100: 0.723 / 0.480 / 0.593. The corrected blend and "
+                "the naive fall alone: 0.691 / 0.425 / 0.522 (0.622 / 0.480 / 0.528); while cooling 0.715 / 0.448 / "
+                "0.527 (0.611 / 0.440 / 0.514): the two-member form shipped"},
 ]
 
 

@@ -54,3 +54,51 @@ def test_the_corrected_fall_is_applied_in_its_bin_on_cold_nights_and_said():
         assert cal.nowcast_drop_c(f, 2.5, -0.6, 6.0, dusk_min_c=warm) == (raw, spoke_raw)
     # another bin, ratio 1: as before
     assert cal.nowcast_drop_c(f, 5.5, -0.6, 3.0, dusk_min_c=1.0)[0] == cal.nowcast_drop_c(f, 5.5, -0.6, 3.0, lead=False)[0]
+
+
+def test_the_approach_blend_mixes_the_corrected_and_naive_falls_while_cooling_on_cold_nights():
+    """The approach blend (calibration.NOWCAST_APPROACH_BLEND): fall = w_c x corrected + w_n x naive,
+    with the weights learned at past nights' instants 2 h before their minima; only on the nights the
+    correction takes (dusk forecast below the mean minimum) and at instants whose last 2 h cooled."""
+    lead = ((0.0, 1.0),) * 2 + ((0.0, 1.5),) + ((0.0, 1.0),) * 11
+    plain = calibration.Calibration(n_nights=30, mean_min_c=5.0, naive_fall_c=1.2, nc_lead=lead)
+    cal = calibration.Calibration(n_nights=30, mean_min_c=5.0, naive_fall_c=1.2, nc_lead=lead,
+                                  nc_approach=(("corrected", 0.6), ("naive", 0.4)))
+    cooling = (-0.8, 2.5 ** 0.5, -1.0, 0.0, 0.0, 3.0)  # 2.5 h left, the last 2 h cooled
+    corrected, _ = plain.nowcast_drop_c(cooling, 2.5, -0.6, 6.0, dusk_min_c=1.0)
+    got, spoke = cal.nowcast_drop_c(cooling, 2.5, -0.6, 6.0, dusk_min_c=1.0)
+    assert got == pytest.approx(0.6 * corrected + 0.4 * -1.2)
+    assert "naive fall 40% as 2 h before past nights' minima" in spoke
+    # the corrected fall alone without `approach`, on a warm night, or where the last 2 h did not cool
+    assert cal.nowcast_drop_c(cooling, 2.5, -0.6, 6.0, dusk_min_c=1.0, approach=False)[0] == corrected
+    assert cal.nowcast_drop_c(cooling, 2.5, -0.6, 6.0, dusk_min_c=9.0) == plain.nowcast_drop_c(cooling, 2.5, -0.6, 6.0, dusk_min_c=9.0)
+    warming = cooling[:2] + (0.2,) + cooling[3:]
+    assert cal.nowcast_drop_c(warming, 2.5, -0.6, 6.0, dusk_min_c=1.0) == plain.nowcast_drop_c(warming, 2.5, -0.6, 6.0, dusk_min_c=1.0)
+    # no weights learned yet (fewer than SKILL_MIN_SCORED nights scored): the corrected fall
+    assert not calibration.Calibration(n_nights=30, mean_min_c=5.0, naive_fall_c=1.2).approaching(cooling, 1.0)
+
+
+def test_the_learner_scores_the_approach_blend_only_where_a_minimum_was_2_h_away():
+    """Its weights come from one point per cold night (the half-hourly point nearest 2 h before the
+    observed minimum), scored with the calibration of the earlier nights (walk-forward)."""
+    import datetime as dt
+
+    from frostwatch.forecast.learner import Learner
+
+    def night(k, tmin):
+        # half-hourly points from 8 h to 1 h left, cooling 0.4 degC/h; the minimum at sunrise
+        samples = tuple(((-0.4 * (8.5 - hl) ** 0.5, hl ** 0.5, -0.8, 0.5, 0.0, 2.0), -0.4 * hl)
+                        for hl in np.arange(8.0, 0.9, -0.5))
+        return calibration.NightRecord(
+            night=dt.date(2024, 3, 1) + dt.timedelta(days=k), station="s", t0_temp_c=tmin + 4.0, t0_dew_point_c=tmin,
+            hours_to_sunrise=9.0, observed_min_c=tmin, observed_min_at_utc=dt.datetime(2024, 3, 2, 6, tzinfo=dt.UTC),
+            mean_wind_m_s=0.5, max_cloud_frac=0.0, prior_c=tmin + 0.5, radiation_night=True, t0_wind_m_s=0.5,
+            t0_cloud_frac=0.0, nowcast_samples=samples, fall_before_min_c=0.8, min_hours_left=0.0)
+
+    learner = Learner(10)
+    for k in range(40):
+        learner.learn(night(k, -1.0 if k % 2 else 3.0))
+    scored = learner.approach_skill.scored
+    assert 0 < scored["corrected"] == scored["naive"] <= 20  # at most one point per colder night
+    w = dict(learner.calibration().nc_approach)
+    assert set(w) == {"corrected", "naive"} and sum(w.values()) == pytest.approx(1.0)

@@ -126,6 +126,8 @@ def test_the_approach_correction_brings_the_projection_2h_before_the_minimum_clo
     nights' minima (walk-forward, on nights forecast at dusk below the mean minimum learned), against
     the same blend without it; the band stays the blend's own."""
     cfg, series, raw = sand_point
+    for mod in (calibration, learner):  # the correction alone (the approach blend on top is tested below)
+        monkeypatch.setattr(mod, "NOWCAST_APPROACH_BLEND", False)
     rows_on = _with_probe(cfg, series)
     on, naive = _cold_nowcast_errors(rows_on, raw)
     for mod in (calibration, learner):
@@ -141,3 +143,25 @@ def test_the_approach_correction_brings_the_projection_2h_before_the_minimum_clo
     assert [r["predicted_min_c"] for r in rows_on] == [r["predicted_min_c"] for r in rows_off]
     assert _band_2h(rows_on) == _band_2h(rows_off)
     assert any("past nights' approach" in r["probe_min2h"]["method"] for r in rows_on if r.get("probe_min2h"))
+
+
+def test_the_approach_blend_brings_the_projection_2h_before_the_minimum_closer_and_keeps_the_band(
+        sand_point, monkeypatch):
+    """On the corrected nights, while the last 2 h cooled, the corrected fall mixed with the naive
+    fall by their skill at past nights' instants 2 h before the minimum (walk-forward), against the
+    corrected blend alone; the dusk forecast and the band do not move."""
+    cfg, series, raw = sand_point
+    rows_on = _with_probe(cfg, series)
+    on, naive = _cold_nowcast_errors(rows_on, raw)
+    for mod in (calibration, learner):
+        monkeypatch.setattr(mod, "NOWCAST_APPROACH_BLEND", False)
+    rows_off = _with_probe(cfg, series)
+    off, _ = _cold_nowcast_errors(rows_off, raw)
+    mae = lambda e: float(np.mean(np.abs(e)))  # noqa: E731
+    assert len(on) == len(off) > 150
+    assert mae(on) <= mae(off) - 0.015  # measured 0.454 against 0.479
+    assert abs(on.mean()) < abs(off.mean())  # measured +0.25 against +0.27
+    assert mae(naive) < mae(on)  # the naive method, knowing the minimum is 2 h away, is still ahead (0.40)
+    assert [r["predicted_min_c"] for r in rows_on] == [r["predicted_min_c"] for r in rows_off]
+    assert _band_2h(rows_on) == _band_2h(rows_off)
+    assert any("2 h before past nights' minima" in r["probe_min2h"]["method"] for r in rows_on if r.get("probe_min2h"))

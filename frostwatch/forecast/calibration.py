@@ -75,6 +75,14 @@ LEAD_HALF_LIFE = 100.0
 LEAD_HOURS = 2.0  # the lead before the minimum it is learned at
 LEAD_COLD_NIGHTS = True  # learned and applied only on nights forecast at dusk below the mean minimum learned
 LEAD_BAND_RAW = True  # the nowcast band stays the blend's own (residuals and centre before the correction)
+# The approach blend: the corrected blend still falls short where a minimum is 2 h away, which the
+# naive fall knows by construction. On the same nights as the correction, at instants whose last 2 h
+# cooled, the corrected fall and the naive fall are mixed by their skill at the points 2 h before past
+# nights' minima only (Bates & Granger 1969, as the blend's own weights; one record for all hours left).
+# APPROACH_WHEN_COOLING False: at every instant of those nights (benchmark variant).
+NOWCAST_APPROACH_BLEND = True
+APPROACH_WHEN_COOLING = True
+APPROACH_METHODS = ("corrected", "naive")
 
 
 def dusk_regime(x: tuple[float, ...]) -> str:
@@ -170,8 +178,10 @@ class Calibration:
     learned). The blend's weights are set at every half hour of past nights, where it falls short
     of the fall that comes as a minimum approaches; the approach correction (`nc_lead`,
     `NOWCAST_LEAD_CORRECTION`) scales the blend's fall by the ratio learned, per hours-left bin, at
-    the instants 2 h before past nights' minima (shrunk toward 1, `forecast.ridge.lead_fit`). The
-    band stays the blend's own, around the blend before the correction.
+    the instants 2 h before past nights' minima (shrunk toward 1, `forecast.ridge.lead_fit`). On
+    those nights, while the last 2 h cooled, the approach blend (`nc_approach`,
+    `NOWCAST_APPROACH_BLEND`) then mixes the corrected fall with the naive fall by their skill at
+    those instants alone. The band stays the blend's own, around the blend before both.
 
     Band: the 10 % and 90 % points of the recent walk-forward errors of the same forecast (at
     dusk, or at the same hours left), a normal band from the prior's spread until enough are known.
@@ -194,6 +204,7 @@ class Calibration:
     nc_weights: tuple = (None,) * NOWCAST_BINS  # per bin: ((method, weight), ...) or None
     nc_bands: tuple = ()  # per bin: (low, high, n)
     nc_lead: tuple = ()  # per bin: (offset, ratio) of the approach correction, fall' = offset + ratio x fall
+    nc_approach: tuple = ()  # ((method, weight), ...) of the approach blend (APPROACH_METHODS); empty: none yet
     mean_min_c: float = 0.0
     naive_fall_c: float | None = None  # the mean fall over the 2 h before the minimum of the nights learned
     dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
@@ -316,17 +327,30 @@ class Calibration:
 
     def nowcast_drop_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float,
-        lead: bool = True, dusk_min_c: float | None = None,
+        lead: bool = True, dusk_min_c: float | None = None, approach: bool = True,
     ) -> tuple[float, str]:
         """The blended fall still to come (<= 0) and which methods spoke; with `lead`, the approach
-        correction (`NOWCAST_LEAD_CORRECTION`) applied."""
+        correction (`NOWCAST_LEAD_CORRECTION`) applied, and with `approach` too, the approach blend
+        (`NOWCAST_APPROACH_BLEND`)."""
         drop, spoke = self._nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
         if lead and NOWCAST_LEAD_CORRECTION and self.nc_lead and self.cold_night(dusk_min_c):
             offset, ratio = self.nc_lead[nowcast_bin(hours_left)]
             if offset != 0.0 or ratio != 1.0:
                 drop = min(0.0, offset + ratio * drop)
                 spoke += (f"; x{ratio:.2f}" if offset == 0.0 else f"; {offset:+.2f} + x{ratio:.2f}") + " as on past nights' approach"
+        if lead and approach and self.approaching(f, dusk_min_c):
+            w = dict(self.nc_approach)
+            naive = self.naive_drop_c(f)
+            if naive is not None and w.get("naive", 0.0) > 0.0:
+                drop = min(0.0, w["corrected"] * drop + w["naive"] * naive)
+                spoke += f"; naive fall {w['naive']:.0%} as 2 h before past nights' minima"
         return drop, spoke
+
+    def approaching(self, f: tuple[float, ...], dusk_min_c: float | None) -> bool:
+        """Whether the approach blend applies: a cold night (`cold_night`) and, with
+        `APPROACH_WHEN_COOLING`, an instant whose last 2 h cooled (the recent slope feature < 0)."""
+        return (NOWCAST_APPROACH_BLEND and bool(self.nc_approach) and self.cold_night(dusk_min_c)
+                and (not APPROACH_WHEN_COOLING or f[2] < 0.0))
 
     def cold_night(self, dusk_min_c: float | None) -> bool:
         """True unless `LEAD_COLD_NIGHTS` and tonight's dusk forecast is not below the mean minimum learned."""

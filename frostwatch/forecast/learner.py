@@ -21,6 +21,8 @@ from collections import deque
 import numpy as np
 
 from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS, BAND_QUANTILES: also read from here)
+    APPROACH_METHODS,
+    APPROACH_WHEN_COOLING,
     BAND_MEMORY,
     BAND_MIN_RESIDUALS,
     BAND_PER_SQRT_HOUR,
@@ -34,6 +36,7 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     LEAD_MODE,
     LEAD_SHRINK,
     MIN_REGRESSION_NIGHTS,
+    NOWCAST_APPROACH_BLEND,
     NOWCAST_BIN_H,
     NOWCAST_BINS,
     NOWCAST_FEATURES,
@@ -90,6 +93,7 @@ class Learner:
         self.fall_n = 0
         # the approach correction's decayed sums per bin: weight, blend, observed fall, blend^2, blend x fall
         self.lead_sums = np.zeros((5, NOWCAST_BINS))
+        self.approach_skill = _Skill(APPROACH_METHODS)  # the approach blend's, at those instants alone
         self.inversions: deque = deque(maxlen=INVERSION_MEMORY)
         self._cal: Calibration | None = None
         self._bins: list = [None] * NOWCAST_BINS  # per bin (model, weights, band) as last snapshot; None: changed
@@ -153,6 +157,14 @@ class Learner:
             bins.append(b)
             if lead_hl is not None and abs(hl - lead_hl) <= 0.26 and (lead is None or abs(hl - lead_hl) < lead[0]):
                 lead = (abs(hl - lead_hl), f, hl, dusk_drop, el, drop)
+        if lead is not None and NOWCAST_APPROACH_BLEND and cal.cold_night(pred_dusk) and (
+                not APPROACH_WHEN_COOLING or lead[1][2] < 0.0):
+            # the approach blend's members scored where the minimum was 2 h away (before the correction learns it)
+            _, f, hl, dusk_drop, el, drop = lead
+            naive = cal.naive_drop_c(f)
+            if naive is not None:
+                corrected, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, dusk_min_c=pred_dusk, approach=False)
+                self.approach_skill.add({"corrected": corrected - drop, "naive": naive - drop})
         if lead is not None and NOWCAST_LEAD_CORRECTION and cal.cold_night(pred_dusk):
             _, f, hl, dusk_drop, el, drop = lead
             raw, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=False)
@@ -238,6 +250,9 @@ class Learner:
         out.update(nc_models=tuple(models), nc_samples=tuple(counts), nc_weights=tuple(weights), nc_bands=tuple(bands))
         if NOWCAST_LEAD_CORRECTION and self.lead_sums[0].any():
             out["nc_lead"] = lead_fit(self.lead_sums, LEAD_MODE, LEAD_SHRINK)
+        if NOWCAST_APPROACH_BLEND:
+            w = self.approach_skill.weights(APPROACH_METHODS)
+            out["nc_approach"] = tuple(w.items()) if w else ()
         return Calibration(**out)
 
     def _refresh_bins(self, changed: list[int], other_items: list | None = None) -> list:
