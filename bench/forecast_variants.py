@@ -274,30 +274,37 @@ def run_variant(patch: dict[str, object]) -> dict:
 
     mods = (cal, learner, skill, snapshot_plan)  # the settings live in calibration; these import those they use
     old = {(m, k): getattr(m, k) for k in patch for m in mods if hasattr(m, k)}
+    process_figures = fs._process_figures
     try:
         for (m, k) in old:
             setattr(m, k, patch[k])
         proj._prior_cached.cache_clear()
         proj._PRIMED.clear()
+        # the figures only: not the timing of `frostwatch backtest` as a new process (which would not see the patch)
+        fs._process_figures = lambda log, cfg_path: {}
         return {k: fs.run_site(k, Path(tempfile.mkdtemp(prefix="fw-variant-"))) for k in fs.tmy.SITES}
     finally:
+        fs._process_figures = process_figures
         for (m, k), v in old.items():
             setattr(m, k, v)
 
 
 def main(argv: list[str] | None = None) -> int:
-    """All variants, or with `--only TEXT` (repeatable) those whose name contains one of the texts:
-    the other rows are kept from the last results, each with when it was measured."""
+    """All variants, or with `--only TEXT` (repeatable) those whose name contains one of the texts
+    (a text that is a variant's whole name, such as "shipped", picks that one alone): the other rows
+    are kept from the last results, each with when it was measured."""
     args = sys.argv[1:] if argv is None else argv
     only = [args[k + 1] for k, a in enumerate(args) if a == "--only" and k + 1 < len(args)]
+    exact = {o for o in only if o in VARIANTS}
+    only = [o for o in only if o not in VARIANTS]
     old: dict = {}
     path = RESULTS / "forecast_variants.json"
-    if only and path.exists():
+    if (only or exact) and path.exists():
         old = {r["variant"]: r for r in json.loads(path.read_text(encoding="utf-8")).get("variants", [])}
     stamp = f"{dt.date.today().isoformat()}, {_head()}"
     rows = []
     for name, patch in VARIANTS.items():
-        if only and not any(o in name for o in only) and name in old:
+        if (only or exact) and name not in exact and not any(o in name for o in only) and name in old:
             rows.append({"measured": "against what shipped before the approach correction (at 92f8554)", **old[name]})
             continue
         res = run_variant(patch)
