@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import math
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 
@@ -46,11 +47,18 @@ class WindowMemo:
         self.cut: tuple = ()
         self.window_series: Series = {}
         self.values: dict = {}
+        self.start_s = self.end_lo_s = self.end_hi_s = math.nan
 
     def window(self, series: Series, start_s: float, end_s: float) -> tuple[Series, dict]:
         """`slice_series(series, start_s, end_s)` and the values kept for that window."""
+        if series is self.series and start_s == self.start_s and self.end_lo_s <= end_s < self.end_hi_s:
+            return self.window_series, self.values  # no reading from the last cut's end up to this one: the same cut
         cut = tuple((t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right"))
                     for t, _ in series.values())
+        # the cut stays while the end stays before every series' next reading
+        self.start_s, self.end_lo_s = start_s, end_s
+        self.end_hi_s = min((float(t[j]) for (t, _), (_, j) in zip(series.values(), cut, strict=True) if j < len(t)),
+                            default=math.inf)
         if series is not self.series or cut != self.cut:
             self.series, self.cut, self.values = series, cut, {}
             self.window_series = {key: (t[i:j], v[i:j]) for (key, (t, v)), (i, j) in zip(series.items(), cut, strict=True)

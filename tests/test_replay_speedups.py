@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import itertools
 import math
 
 import numpy as np
@@ -282,3 +283,114 @@ def test_a_replay_collects_cycles_less_often_and_puts_the_threshold_back(demo_co
         with pytest.raises(ValueError):
             replay.replay_series(cfg, store, {"not": "a series"}, jobs=1)
         assert gc.get_threshold() == before
+
+
+def _plain_json(obj, drop_none: bool) -> str:
+    import json
+
+    from frostwatch.advice import codec
+
+    return json.dumps(codec.to_dict(obj, drop_none), separators=(",", ":"), allow_nan=False)
+
+
+def test_the_decision_written_straight_to_json_is_json_dumps_of_its_dict(demo_config, demo_logs):
+    """`codec.to_json` (every stored decision's text) is json.dumps of `to_dict`, byte for byte,
+    for every decision of the demo's nights, with and without the None fields."""
+    from frostwatch import pipeline
+    from frostwatch.advice import codec
+    from frostwatch.decision import decision_to_doc, decision_to_json
+
+    cfg, series = _demo_series(demo_config, demo_logs)
+    decisions = [d for ev in pipeline.run_replay(cfg, series) for d in ev.decisions]
+    assert len(decisions) > 1000
+    for d in decisions:
+        assert decision_to_json(d) == _plain_json(d, True)
+    for d in decisions[::7]:
+        assert codec.to_json(d, False) == _plain_json(d, False)
+    assert decision_to_json(decisions[0]) == _plain_json(decision_to_doc(decisions[0]), False)
+
+
+def test_values_the_decisions_rarely_hold_are_written_as_json_dumps_writes_them():
+    """Non-finite floats (null), numpy floats, enums inside lists, dates, text that needs
+    escaping, keys that are not text, a curve whose sum overflows: the same text as json.dumps."""
+    from enum import StrEnum
+
+    from frostwatch.advice import codec
+    from frostwatch.advice.plan import Caution, Step
+
+    class Word(StrEnum):
+        A = "é\"quoted\"\n"
+
+    @dataclasses.dataclass(frozen=True)
+    class Odd:
+        a: float = math.nan
+        b: object = None
+        c: tuple = ()
+        d: dict = dataclasses.field(default_factory=dict)
+        e: object = None
+
+    t = dt.datetime(2027, 4, 14, 3, 0, 30, 250000, tzinfo=dt.timezone(dt.timedelta(hours=-5)))
+    cases = [
+        Odd(), Odd(a=math.inf, b=np.float64(2.5), c=(1.0, math.nan, 3.0)), Odd(c=(1e308, 1e308)),
+        Odd(c=(Caution.LOCAL_RULES, Step.WATCH, Word.A), d={1: t, "x": None, "y": math.nan, "z": [t, dt.date(2027, 4, 1)]}),
+        Odd(a=-0.0, b=True, c=(True, 1, None, "ü"), e=dt.date(2027, 4, 14)), Odd(b=np.float64(math.nan), c=(t, t)),
+        Odd(c=(Odd(),), d={"n": Odd(a=1.5)}, e=Word.A), Odd(c=[], d={}, e=(np.float64(1.0), 2.0)), Odd(b=2**70, e=False),
+    ]
+    for obj in cases:
+        for drop in (True, False):
+            assert codec.to_json(obj, drop) == _plain_json(obj, drop), obj
+
+
+@settings(max_examples=200, deadline=None)
+@given(start=st.floats(-45.0, 45.0), depression=st.floats(-2.0, 30.0), hours=st.floats(-1.0, 26.0),
+       wind=st.floats(-0.5, 8.0), cloud=st.floats(-0.1, 1.1), p_hpa=st.floats(500.0, 1100.0))
+def test_the_prior_of_one_night_from_floats_is_the_array_paths(start, depression, hours, wind, cloud, p_hpa):
+    """The prior of one night given as floats takes the kept kernel without arrays; the same
+    inputs as numpy scalars go through the arrays: the same float, bit for bit (NaN alike)."""
+    args = (start, start - depression, hours, wind, cloud, p_hpa)
+    got = clear_night_minimum_prior_c(*args)
+    want = float(clear_night_minimum_prior_c(*(np.float64(a) for a in args)))
+    assert type(got) is float
+    assert (math.isnan(got) and math.isnan(want)) or (got == want and math.copysign(1, got) == math.copysign(1, want))
+
+
+@pytest.mark.parametrize("now_s", [9.0e8, 9.0e8 + 120.0, 1.7e9 + 0.25, 1.7e9 + 0.5, 1.7e9 + 1.5, 1e9 - 1e-6])
+def test_the_curves_instants_added_as_timedeltas_are_the_instants_converted_one_by_one(now_s):
+    """`curves.grid_utc` (whole seconds on, a timedelta added per instant) gives what converting
+    each instant of the grid does, sunrise appended or not, for every thinning step."""
+    from frostwatch.forecast.curves import grid_utc, utc_seconds
+
+    for hours in (0.0, 0.01, 0.9, 5.0, 11.73, 14.0):
+        sunrise_s = now_s + hours * 3600.0
+        grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, 300.0)
+        if grid_s[-1] < sunrise_s:
+            grid_s = np.concatenate((grid_s, (sunrise_s,)))
+        for step in (1, 2, 3, max(1, len(grid_s) // 48)):
+            got, want = grid_utc(grid_s, step, 300.0), utc_seconds(grid_s[::step].tolist())
+            assert got == want and all(g.tzinfo is w.tzinfo for g, w in zip(got, want, strict=True))
+
+
+def test_the_curve_thinned_by_bisection_is_the_loops():
+    """`decision._thinned_curve` finds in a curve whose instants are in order the points the loop
+    over every point keeps (the first, then each at least half an hour after the last kept); any
+    other curve takes the loop itself."""
+    import random
+
+    from frostwatch.decision import _CURVE_STEP, _thinned_curve
+
+    def loop(times, temps):
+        kept_t, kept_c, last = [], [], None
+        for t, c in zip(times, temps, strict=False):
+            if last is None or t - last >= _CURVE_STEP:
+                kept_t.append(t)
+                kept_c.append(round(float(c), 2))
+                last = t
+        return kept_t, kept_c
+
+    rng = random.Random(19)
+    t0 = dt.datetime(2027, 4, 14, 1, 2, tzinfo=dt.UTC)
+    for _ in range(400):
+        steps = [rng.choice([0, 1, 299, 300, 600, 1200, 1799, 1800, 1801, 3600, -300]) for _ in range(rng.randrange(0, 60))]
+        times = tuple(itertools.accumulate((dt.timedelta(seconds=s) for s in steps), initial=t0))
+        temps = tuple(rng.uniform(-5.0, 10.0) for _ in range(len(times) - rng.randrange(0, 2)))
+        assert _thinned_curve(times, temps) == loop(times, temps), steps

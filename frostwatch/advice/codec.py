@@ -14,11 +14,16 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import enum
+import json
 import math
 import operator
 import types
 import typing
 from functools import cache, lru_cache
+from json.encoder import encode_basestring_ascii as _esc
+
+_float_repr = float.__repr__  # as the json module writes a float
+_int_repr = int.__repr__
 
 
 def iso_utc(t: dt.datetime | None) -> str | None:
@@ -167,6 +172,119 @@ def _looped_encoder(names: tuple[str, ...]):
 
 
 _ENCODERS: dict[type, object] = {}  # exact type -> its encoder (see _encoder_for)
+
+
+# ---- straight to JSON text ---------------------------------------------------------------------
+# `to_json(obj, drop_none)` is `json.dumps(to_dict(obj, drop_none), separators=(",", ":"),
+# allow_nan=False)` without the dicts in between: each value written as the json module writes
+# it (strings by its own escaping function, floats by float.__repr__, instants as their ISO text),
+# key order included. Every stored decision goes through it (tests/test_replay_speedups.py holds
+# it to the plain way, decision by decision).
+
+_JSON_PLAIN = json.JSONEncoder(separators=(",", ":"), allow_nan=False)  # what to_json must equal
+
+
+@lru_cache(maxsize=8192)
+def _iso_utc_json(t: dt.datetime) -> str:
+    return '"' + _iso_utc(t) + '"'  # ISO text needs no escaping
+
+
+def to_json(obj, drop_none: bool = False) -> str:
+    """`to_dict(obj, drop_none)` as compact JSON text (the json module's, byte for byte)."""
+    cls = type(obj)
+    encode = _TEXT_ENCODERS.get(cls)
+    if encode is None:
+        encode = _TEXT_ENCODERS[cls] = _text_encoder_for(cls)
+    return encode(obj, drop_none)
+
+
+def _text_encoder_for(cls: type):
+    if cls is str:
+        return lambda obj, drop_none: _esc(obj)
+    if cls is float:
+        return lambda obj, drop_none: _float_repr(obj) if math.isfinite(obj) else "null"
+    names = _field_names(cls)
+    if names is not None and all(n.isidentifier() for n in names):
+        return _dataclass_text_encoder(names)
+    if issubclass(cls, enum.Enum):
+        return lambda obj, drop_none: _value_text(obj.value, drop_none)
+    if cls is dt.date:
+        return lambda obj, drop_none: _esc(obj.isoformat())
+    if cls in (list, tuple):
+        return _sequence_text
+    if cls is dict:
+        return _mapping_text
+    return lambda obj, drop_none: _JSON_PLAIN.encode(to_dict(obj, drop_none))  # anything else: the plain way
+
+
+def _value_text(v, drop_none: bool) -> str:
+    t = type(v)
+    if t is str:
+        return _esc(v)
+    if t is float:
+        return _float_repr(v) if math.isfinite(v) else "null"
+    if t is dt.datetime:
+        return _iso_utc_json(v)
+    if v is None:
+        return "null"
+    if t is bool:
+        return "true" if v else "false"
+    if t is int:
+        return _int_repr(v)
+    return to_json(v, drop_none)
+
+
+def _sequence_text(obj, drop_none: bool) -> str:
+    kinds = set(map(type, obj))
+    if len(kinds) == 1:  # a curve: all floats (all finite) or all instants, written in one pass
+        kind = kinds.pop()
+        if kind is float and math.isfinite(sum(obj)):  # a sum that overflows takes the long way, as NaN does
+            return "[" + ",".join(map(_float_repr, obj)) + "]"
+        if kind is dt.datetime:
+            return "[" + ",".join(map(_iso_utc_json, obj)) + "]"
+    return "[" + ",".join([_value_text(x, drop_none) for x in obj]) + "]"
+
+
+def _mapping_text(obj, drop_none: bool) -> str:
+    return "{" + ",".join([_esc(k if type(k) is str else str(k)) + ":" + _value_text(v, drop_none)
+                           for k, v in obj.items()]) + "}"
+
+
+def _dataclass_text_encoder(names: tuple[str, ...]):
+    """As `_dataclass_encoder`, writing text: each field's "key":value, in order."""
+    lines = ["def encode(obj, drop_none):", "    out = []", "    add = out.append"]
+    for n in names:
+        key = _esc(n) + ":"
+        lines += [
+            f"    v = obj.{n}",
+            "    t = type(v)",
+            "    if t is str:",
+            f"        add({key!r} + esc(v))",
+            "    elif t is float:",
+            f"        add({key!r} + (float_repr(v) if isfinite(v) else 'null'))",
+            "    elif v is None:",
+            "        if not drop_none:",
+            f"            add({(key + 'null')!r})",
+            "    elif t is datetime:",
+            f"        add({key!r} + iso_json(v))",
+            "    elif isinstance(v, Enum):",
+            f"        add({key!r} + value_text(v.value, drop_none))",
+            "    elif t is bool:",
+            f"        add({(key + 'true')!r} if v else {(key + 'false')!r})",
+            "    elif t is int:",
+            f"        add({key!r} + int_repr(v))",
+            "    else:",
+            f"        add({key!r} + to_json(v, drop_none))",
+        ]
+    lines.append("    return '{' + ','.join(out) + '}'")
+    scope = {"isfinite": math.isfinite, "datetime": dt.datetime, "iso_json": _iso_utc_json, "to_json": to_json,
+             "esc": _esc, "float_repr": _float_repr, "int_repr": _int_repr, "Enum": enum.Enum,
+             "value_text": _value_text}
+    exec("\n".join(lines), scope)  # noqa: S102 - source made here from a dataclass's field names
+    return scope["encode"]
+
+
+_TEXT_ENCODERS: dict[type, object] = {}  # exact type -> its text encoder (see _text_encoder_for)
 
 
 @cache

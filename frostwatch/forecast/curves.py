@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import functools
+import itertools
 import math
 
 import numpy as np
@@ -36,6 +37,23 @@ def _utc(t_s: float | None) -> dt.datetime | None:
 def utc_seconds(times_s: list[float]) -> tuple[dt.datetime, ...]:
     """`_utc` of many instants (none None), without a Python call per instant."""
     return tuple(map(_utc_second, map(round, times_s)))
+
+
+def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.datetime, ...]:
+    """`utc_seconds(grid_s[::step].tolist())` for a grid made by `np.arange(now_s, ..., grid_step_s)`
+    with perhaps one more instant (sunrise) after it: from a whole second on, arange's instants
+    are whole seconds `grid_step_s` apart, so each is the one before plus step * grid_step_s,
+    added as a timedelta (no conversion per instant). Other grids go through `utc_seconds`."""
+    pts = grid_s[::step]
+    n = len(pts)
+    first = float(pts[0]) if n else math.nan
+    every_s = step * grid_step_s
+    if not (first == math.floor(first) and every_s == math.floor(every_s)):  # NaN included
+        return utc_seconds(pts.tolist())
+    m = n if float(pts[-1]) == first + (n - 1) * every_s else n - 1  # the last: a whole step on, or sunrise
+    out = tuple(itertools.accumulate(itertools.repeat(dt.timedelta(seconds=every_s), m - 1),
+                                     initial=_utc_second(int(first))))
+    return out if m == n else out + (_utc(float(pts[-1])),)
 
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:

@@ -32,6 +32,7 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     block_crossings,
     crossing_time,
     evening_curve_c,
+    grid_utc,
     sqrt_curve_c,
     utc_seconds,
 )
@@ -323,7 +324,7 @@ def project_block(
         regime=regime,
         method=method,
         notes=tuple(notes),
-        curve_time_utc=utc_seconds(grid_s[::step].tolist()) if drawn else (),
+        curve_time_utc=grid_utc(grid_s, step, GRID_STEP_S) if drawn else (),
         curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if drawn else (),
         band_low_c=round(min(band_low_c, tmin_c), 2),
         band_high_c=round(max(band_high_c, tmin_c), 2),

@@ -65,6 +65,9 @@ def clear_night_minimum_prior_c(
     ----------
     Snyder, R.L. & de Melo-Abreu, J.P. (2005). Frost Protection, Vol. 1, FAO, Ch. 5.
     """
+    scalars = (t0_temp_c, dew_point_c, hours_to_sunrise, wind_speed_m_s, cloud_frac, pressure_hpa)
+    if all(type(v) is float or type(v) is int for v in scalars):  # one night: no arrays (the same floats)
+        return _minimum_one_c(*map(float, scalars))
     arrays = np.broadcast_arrays(
         *(
             np.asarray(v, dtype=float)
@@ -97,6 +100,23 @@ def clear_night_minimum_prior_c(
         )
         result[idx] = math.nan if np.isnan(temps).any() else float(temps.min())
     return _out(result)
+
+
+def _minimum_one_c(t0: float, td: float, h: float, u: float, c: float, p: float) -> float:
+    """The loop above for one night, from `_project_path_c`'s kept kernel without its arrays:
+    the same checks, the same kernel, the same steps (`_PathKernel.path_minimum`)."""
+    if not (math.isfinite(h) and 0.0 < h <= 24.0) or not all(math.isfinite(v) for v in (t0, td, u, c, p)):
+        return math.nan
+    if not (AIR_TEMP_MIN_C <= td and AIR_TEMP_MIN_C <= t0 <= AIR_TEMP_MAX_C and u >= 0.0 and 0.0 <= c <= 1.0
+            and neb.PRESSURE_MIN_HPA <= p <= neb.PRESSURE_MAX_HPA):
+        return math.nan
+    kernel = neb._kernel(t0, td, STEP_S, u, c, p, GROUND_ADMITTANCE_DEFAULT_J_M2_K_S05,
+                         AIR_ADMITTANCE_EFFECTIVE_J_M2_K_S05, t0, 0.0, SURFACE_EMISSIVITY_DEFAULT_FRAC, "brutsaert_1975",
+                         "jacobs_1978")
+    if kernel is None:
+        return math.nan
+    n_steps = math.ceil(h * SECONDS_PER_HOUR_S / STEP_S - 1e-9)
+    return kernel.path_minimum(n_steps, min(n_steps * STEP_S, h * SECONDS_PER_HOUR_S))
 
 
 STEP_S = 300.0  # the prior's time step (5 min)

@@ -99,7 +99,7 @@ class _PathKernel:
     at its (n - 1)th step, with its own last step. Bit for bit the loop of `_project_path_c`."""
 
     __slots__ = ("loss_list", "last", "grid_top_c", "ri_per_k", "k_neutral", "mu", "onset_s", "aloft_temp_c",
-                 "step_s", "temps", "roots")
+                 "step_s", "temps", "roots", "mins")
 
     def __init__(self, start_temp_c, vp0_hpa, step_s, wind_speed_m_s, cloud_frac, pressure_hpa,
                  thermal_admittance_j_m2_k_s05, air_admittance_j_m2_k_s05, aloft_temp_c, onset_h_before_start,
@@ -130,6 +130,7 @@ class _PathKernel:
         self.step_s = step_s
         self.temps = [start_temp_c]  # the path at whole steps 0, 1, ... (no short last step)
         self.roots = [math.sqrt(self.onset_s)]
+        self.mins = []  # the minimum of temps[:i + 1] (NaN once one is NaN), for path_minimum
 
     def loss_at(self, temp_c):
         x = (self.grid_top_c - temp_c) / PROJECTION_GRID_STEP_K
@@ -153,22 +154,42 @@ class _PathKernel:
         a = ds / self.mu
         return (temp - a * lq + a * k_mix * self.aloft_temp_c) / (1.0 + a * k_mix)
 
+    def path_to(self, n_steps):
+        """Step the whole steps not stepped yet, up to `n_steps`."""
+        temps, roots = self.temps, self.roots
+        while len(temps) < n_steps:
+            n = len(temps)
+            root = math.sqrt(self.onset_s + n * self.step_s)
+            temps.append(self.step(temps[-1], roots[-1], root))
+            roots.append(root)
+
     def path(self, elapsed_s):
         """The temperatures at `elapsed_s` (whole steps from 0, the last one maybe short)."""
         n_steps = len(elapsed_s) - 1
         temps, roots = self.temps, self.roots
         if n_steps == 0:
             return np.array(temps[:1], dtype=float)
-        while len(temps) < n_steps:  # whole steps not stepped yet
-            n = len(temps)
-            root = math.sqrt(self.onset_s + n * self.step_s)
-            temps.append(self.step(temps[-1], roots[-1], root))
-            roots.append(root)
+        self.path_to(n_steps)
         out = np.empty(n_steps + 1)
         out[:n_steps] = temps[:n_steps]
         if n_steps:
             out[n_steps] = self.step(temps[n_steps - 1], roots[n_steps - 1], math.sqrt(self.onset_s + elapsed_s[n_steps]))
         return out
+
+    def path_minimum(self, n_steps, last_elapsed_s):
+        """The minimum of `path(elapsed_s)` (NaN if any of it is NaN) for `elapsed_s` of
+        `n_steps` + 1 instants ending at `last_elapsed_s`, without the arrays."""
+        temps, mins = self.temps, self.mins
+        if n_steps == 0:
+            return temps[0]
+        self.path_to(n_steps)
+        while len(mins) < n_steps:
+            t = temps[len(mins)]
+            m = mins[-1] if mins else t
+            mins.append(math.nan if t != t or m != m else t if t < m else m)
+        last = self.step(temps[n_steps - 1], self.roots[n_steps - 1], math.sqrt(self.onset_s + last_elapsed_s))
+        m = mins[n_steps - 1]
+        return math.nan if last != last or m != m else last if last < m else m
 
 
 def _float_key(*values):

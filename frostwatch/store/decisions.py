@@ -19,7 +19,7 @@ import sqlite3
 import zlib
 from collections.abc import Iterable
 
-from frostwatch.decision import Decision, decision_from_doc, decision_to_doc
+from frostwatch.decision import Decision, decision_from_doc, decision_to_json
 from frostwatch.errors import StoreError
 from frostwatch.store.db import Store, to_ms
 
@@ -32,10 +32,6 @@ _INSERT = (
 )
 
 
-# json.dumps(doc, separators=(",", ":"), allow_nan=False), its encoder made once
-_JSON = json.JSONEncoder(separators=(",", ":"), allow_nan=False)
-
-
 def _ms(t: dt.datetime | None) -> int | None:
     return None if t is None else to_ms(t)
 
@@ -43,7 +39,8 @@ def _ms(t: dt.datetime | None) -> int | None:
 def row_of(d: Decision) -> tuple:
     # zlib-compressed JSON (about 0.9 KB instead of 2.4 KB): several decisions share a 4 KiB page,
     # where one uncompressed decision took a page of its own (4x the store size on a Pi's SD card)
-    doc = zlib.compress(_JSON.encode(decision_to_doc(d)).encode("utf-8"), DOC_COMPRESSION)
+    # the JSON text is json.dumps(decision_to_doc(d), separators=(",", ":"), allow_nan=False)
+    doc = zlib.compress(decision_to_json(d).encode("utf-8"), DOC_COMPRESSION)
     return (d.block, to_ms(d.as_of_utc), d.level, d.rank, d.frost_level, int(d.monitored), d.step.value,
             d.projection.predicted_min_c, _ms(d.projection.predicted_min_at_utc), _ms(d.plan.crossing_utc),
             _ms(d.plan.ready_by_utc), d.version, doc)
