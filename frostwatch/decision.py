@@ -13,9 +13,7 @@ ValueError, so a reader never misreads a newer store).
 
 from __future__ import annotations
 
-import bisect
 import datetime as dt
-import operator
 from dataclasses import dataclass, field
 from enum import StrEnum
 
@@ -79,26 +77,6 @@ class ProjectionSummary:
     wind_from_farm: bool = False  # the block has no anemometer: the wind is the farm's
 
 
-def _thinned_curve(times_utc: tuple, temps_c: tuple) -> tuple[list, list]:
-    """The curve's first point and each next one at least CURVE_STEP_S after the last kept,
-    temperatures rounded to 0.01. Instants in order (a projection's) are found by bisection:
-    the first at or after the last kept plus the step, as the loop below finds it."""
-    n = min(len(times_utc), len(temps_c))
-    if n and all(map(operator.le, times_utc[:n - 1], times_utc[1:n])):
-        kept, i = [], 0
-        while i < n:
-            kept.append(i)
-            i = bisect.bisect_left(times_utc, times_utc[i] + _CURVE_STEP, i + 1, n)
-        return [times_utc[i] for i in kept], [round(float(temps_c[i]), 2) for i in kept]
-    times, temps, last = [], [], None
-    for t, c in zip(times_utc, temps_c, strict=False):
-        if last is None or t - last >= _CURVE_STEP:
-            times.append(t)
-            temps.append(round(float(c), 2))
-            last = t
-    return times, temps
-
-
 def summarise_projection(p: Projection) -> ProjectionSummary:
     """The stored form of a projection. The band's ends come from the projection when it gives
     them (`band_low_c`/`band_high_c`), else from the minimum -/+ `band_c`."""
@@ -108,7 +86,13 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
     if p.predicted_min_c is not None and band is not None and band == band:
         lo = p.predicted_min_c - band if lo is None else lo
         hi = p.predicted_min_c + band if hi is None else hi
-    times, temps = _thinned_curve(p.curve_time_utc, p.curve_air_temp_c)
+    times, temps = [], []
+    last = None
+    for t, c in zip(p.curve_time_utc, p.curve_air_temp_c, strict=False):
+        if last is None or t - last >= _CURVE_STEP:
+            times.append(t)
+            temps.append(round(float(c), 2))
+            last = t
     if p.curve_time_utc and (not times or times[-1] != p.curve_time_utc[-1]):
         times.append(p.curve_time_utc[-1])
         temps.append(round(float(p.curve_air_temp_c[-1]), 2))

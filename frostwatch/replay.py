@@ -164,13 +164,15 @@ def _replay_series(cfg, store, series, progress, keep_projections, keep_evaluati
     kept = []
     nights: set = set()
     jobs = default_jobs() if jobs is None else max(1, int(jobs))
-    chunks = None
+    planned = None
     if jobs > 1 and not keep_evaluations:
-        from frostwatch.replay_parallel import plan_chunks
+        from frostwatch.replay_parallel import plan_runs
 
-        chunks = plan_chunks(cfg, series, jobs, MIN_NIGHTS_PER_JOB, CHUNK_NIGHTS)
-    if chunks:
-        from frostwatch.replay_parallel import parallel_nights
+        planned = plan_runs(cfg, series, jobs, MIN_NIGHTS_PER_JOB, CHUNK_NIGHTS)
+    if planned:
+        from frostwatch.replay_parallel import parallel_nights, share_runs
+
+        chunks, costs = planned
 
         def rows_of(evals, changes):
             return night_rows(evals, keep_projections, changes)
@@ -178,7 +180,8 @@ def _replay_series(cfg, store, series, progress, keep_projections, keep_evaluati
         def new_changes():
             return DecisionChanges(display) if keep_projections else None
 
-        for rows in parallel_nights(cfg, series, chunks, jobs, rows_of, new_changes, progress):
+        for rows in parallel_nights(cfg, series, chunks, jobs, rows_of, new_changes, progress,
+                                    owners=share_runs(costs, jobs)):
             _store_night(store, rows, out, console, nights)
     else:
         changes = DecisionChanges(display) if keep_projections else None

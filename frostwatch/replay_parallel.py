@@ -30,25 +30,28 @@ from frostwatch.night import evening_date
 POLL_S = 1.0  # how often the reader checks that a worker it waits for is still alive
 
 
-def _cut_allowed(cfg, nights, first_s: float, last_s: float) -> list[bool]:
+def _cut_allowed(cfg, nights, first_s: float, last_s: float) -> tuple[list[bool], list[int]]:
     """For each night k > 0: whether a run of nights may start at k (no evaluation of night k - 1
-    falls on night k's date, nor one of night k on night k - 1's)."""
+    falls on night k's date, nor one of night k on night k - 1's); and each night's number of
+    evaluations."""
     tz = cfg.site.tz
     interval = cfg.forecast.evaluation_interval_min
-    ends = []
+    ends, counts = [], []
     for n in nights:
         times = pipeline.evaluation_times(n, interval, first_s, last_s)
         ends.append((evening_date(times[0], tz), evening_date(times[-1], tz)) if times else None)
+        counts.append(len(times))
     ok = [False]
     for k in range(1, len(nights)):
         a, b = ends[k - 1], ends[k]
         ok.append(a is not None and b is not None and a[1] == nights[k - 1].date and b[0] == nights[k].date)
-    return ok
+    return ok, counts
 
 
-def plan_chunks(cfg, series, jobs: int, min_nights_per_job: int, chunk_nights: int) -> list[tuple[int, int]] | None:
-    """Runs of consecutive nights [a, b) to share among `jobs` processes, or None when one process
-    should do it all (too few nights)."""
+def plan_runs(cfg, series, jobs: int, min_nights_per_job: int,
+              chunk_nights: int) -> tuple[list[tuple[int, int]], list[int]] | None:
+    """Runs of consecutive nights [a, b) to share among `jobs` processes and each run's number of
+    evaluations (what it costs), or None when one process should do it all (too few nights)."""
     if not series or jobs < 2:
         return None
     nights = pipeline.covered_nights(cfg, series)
@@ -57,7 +60,7 @@ def plan_chunks(cfg, series, jobs: int, min_nights_per_job: int, chunk_nights: i
         return None
     first = min(float(t[0]) for t, _ in series.values())
     last = max(float(t[-1]) for t, _ in series.values())
-    allowed = _cut_allowed(cfg, nights, first, last)
+    allowed, counts = _cut_allowed(cfg, nights, first, last)
     size = max(1, min(chunk_nights, total // (jobs * 4)))
     chunks, a = [], 0
     for k in range(1, total):
@@ -65,7 +68,27 @@ def plan_chunks(cfg, series, jobs: int, min_nights_per_job: int, chunk_nights: i
             chunks.append((a, k))
             a = k
     chunks.append((a, total))
-    return chunks if len(chunks) >= 2 else None
+    return (chunks, [sum(counts[a:b]) for a, b in chunks]) if len(chunks) >= 2 else None
+
+
+def plan_chunks(cfg, series, jobs: int, min_nights_per_job: int, chunk_nights: int) -> list[tuple[int, int]] | None:
+    """`plan_runs`'s runs of nights alone."""
+    planned = plan_runs(cfg, series, jobs, min_nights_per_job, chunk_nights)
+    return None if planned is None else planned[0]
+
+
+def share_runs(costs: list[int], jobs: int) -> list[int]:
+    """The process of each run of nights, in order: the one given the fewest evaluations so far
+    (the lowest number on a tie). Runs differ in cost (a run can be a whole winter month: where
+    the morning watch reaches past noon no cut is allowed), so taking turns can leave one process
+    a quarter more work than the other; a process can run one longest run ahead of the reader."""
+    load = [0] * jobs
+    owners = []
+    for cost in costs:
+        j = min(range(jobs), key=load.__getitem__)
+        owners.append(j)
+        load[j] += cost
+    return owners
 
 
 def _worker(cfg, series, chunks, night_rows, new_changes, q) -> None:
@@ -98,23 +121,24 @@ def _put(q, item, parent: int) -> None:
                 os._exit(1)
 
 
-def parallel_nights(cfg, series, chunks, jobs, night_rows, new_changes, progress=None):
+def parallel_nights(cfg, series, chunks, jobs, night_rows, new_changes, progress=None, owners=None):
     """Each night's rows (`night_rows(evals, changes)`; nights without evaluations skipped), in
-    night order, evaluated by `jobs` forked processes (see `_worker`). Raises RuntimeError with
-    the worker's traceback if a worker fails or dies; the workers are stopped however this
-    generator ends."""
+    night order, evaluated by `jobs` forked processes (see `_worker`): run c by process
+    `owners[c]` (`share_runs`; default: in turn). Raises RuntimeError with the worker's traceback
+    if a worker fails or dies; the workers are stopped however this generator ends."""
     ctx = multiprocessing.get_context("fork")
     size = max(b - a for a, b in chunks)
-    assigned = [chunks[j::jobs] for j in range(jobs)]
+    owners = [c % jobs for c in range(len(chunks))] if owners is None else list(owners)
+    assigned = [[ch for ch, o in zip(chunks, owners, strict=True) if o == j] for j in range(jobs)]
     queues = [ctx.Queue(maxsize=size + 1) for _ in range(jobs)]
-    procs = [ctx.Process(target=_worker, args=(cfg, series, assigned[j], night_rows, new_changes, queues[j]),
-                         name=f"frostwatch-replay-{j + 1}", daemon=True) for j in range(jobs) if assigned[j]]
+    procs = {j: ctx.Process(target=_worker, args=(cfg, series, assigned[j], night_rows, new_changes, queues[j]),
+                            name=f"frostwatch-replay-{j + 1}", daemon=True) for j in range(jobs) if assigned[j]}
     total = chunks[-1][1]
     try:
-        for p in procs:
+        for p in procs.values():
             p.start()
         for c, (a, b) in enumerate(chunks):
-            j = c % jobs
+            j = owners[c]
             for k in range(a, b):
                 kind, got, rows = _get(queues[j], procs[j])
                 if kind == "error":
@@ -125,10 +149,10 @@ def parallel_nights(cfg, series, chunks, jobs, night_rows, new_changes, progress
                     yield rows
                 if progress:
                     progress(k + 1, total)
-        for p in procs:
+        for p in procs.values():
             p.join()
     finally:
-        for p in procs:
+        for p in procs.values():
             if p.is_alive():
                 p.terminate()
                 p.join()

@@ -84,3 +84,27 @@ def test_a_worker_that_fails_is_reported_with_its_traceback(demo_config, tmp_pat
     monkeypatch.setattr(replay, "night_rows", broken)
     with pytest.raises(RuntimeError, match="broken on purpose"):
         _run(tmp_path, "broken", demo_config, jobs=2)
+
+
+def test_runs_go_to_the_process_with_the_fewest_evaluations_so_far():
+    """`share_runs`: a long run (a winter month that allows no cut) is balanced by the shorter
+    runs after it going to the other process, not by taking turns."""
+    assert replay_parallel.share_runs([10, 10, 10, 10], 2) == [0, 1, 0, 1]
+    costs = [8, 8, 40, 8, 8, 8, 8, 8, 8]
+    owners = replay_parallel.share_runs(costs, 2)
+    assert owners == [0, 1, 0, 1, 1, 1, 1, 1, 0]
+    load = [sum(c for c, o in zip(costs, owners, strict=True) if o == j) for j in (0, 1)]
+    assert abs(load[0] - load[1]) <= 8 and load != [sum(costs[0::2]), sum(costs[1::2])]
+    assert replay_parallel.share_runs([5], 4) == [0]
+
+
+@pytest.mark.parametrize("owners", [[1, 1, 0], [0, 0, 0], [1, 0, 1]])
+def test_runs_shared_unevenly_store_and_return_what_one_process_does(demo_config, tmp_path, one_night_runs,
+                                                                     monkeypatch, owners):
+    one, rows_one, seen_one = _run(tmp_path, "one", demo_config, jobs=1)
+    monkeypatch.setattr(replay_parallel, "share_runs", lambda costs, jobs: owners)
+    two, rows_two, seen_two = _run(tmp_path, "two", demo_config, jobs=2)
+    for table in TABLES:
+        assert rows_two[table] == rows_one[table], table
+    assert two.alerts == one.alerts and two.projections == one.projections and two.decisions == one.decisions
+    assert seen_two == seen_one

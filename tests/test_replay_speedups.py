@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
-import itertools
 import math
 
 import numpy as np
@@ -369,28 +368,3 @@ def test_the_curves_instants_added_as_timedeltas_are_the_instants_converted_one_
             got, want = grid_utc(grid_s, step, 300.0), utc_seconds(grid_s[::step].tolist())
             assert got == want and all(g.tzinfo is w.tzinfo for g, w in zip(got, want, strict=True))
 
-
-def test_the_curve_thinned_by_bisection_is_the_loops():
-    """`decision._thinned_curve` finds in a curve whose instants are in order the points the loop
-    over every point keeps (the first, then each at least half an hour after the last kept); any
-    other curve takes the loop itself."""
-    import random
-
-    from frostwatch.decision import _CURVE_STEP, _thinned_curve
-
-    def loop(times, temps):
-        kept_t, kept_c, last = [], [], None
-        for t, c in zip(times, temps, strict=False):
-            if last is None or t - last >= _CURVE_STEP:
-                kept_t.append(t)
-                kept_c.append(round(float(c), 2))
-                last = t
-        return kept_t, kept_c
-
-    rng = random.Random(19)
-    t0 = dt.datetime(2027, 4, 14, 1, 2, tzinfo=dt.UTC)
-    for _ in range(400):
-        steps = [rng.choice([0, 1, 299, 300, 600, 1200, 1799, 1800, 1801, 3600, -300]) for _ in range(rng.randrange(0, 60))]
-        times = tuple(itertools.accumulate((dt.timedelta(seconds=s) for s in steps), initial=t0))
-        temps = tuple(rng.uniform(-5.0, 10.0) for _ in range(len(times) - rng.randrange(0, 2)))
-        assert _thinned_curve(times, temps) == loop(times, temps), steps
