@@ -19,7 +19,7 @@ import sqlite3
 import zlib
 from collections.abc import Iterable
 
-from frostwatch.decision import Decision, decision_from_doc, decision_to_json
+from frostwatch.decision import Decision, decision_from_doc, decision_to_doc, decision_to_json  # noqa: F401 - decision_to_doc re-exported
 from frostwatch.errors import StoreError
 from frostwatch.store.db import Store, to_ms
 
