@@ -119,8 +119,8 @@ def test_backtest_rows_are_the_per_night_rows_on_synthetic_nights(tmp_path, monk
     assert fast == slow and len(json.loads(fast)) > 25
 
 
-def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkeypatch):
-    """pvlib's Greensboro NC TMY3 year (NREL, Wilcox & Marion 2008), as bench/tmy.py converts it."""
+def _typical_year(site: str, tmp_path):
+    """(config, series) of one of pvlib's TMY3 years as bench/tmy.py converts it and the backtest reads it."""
     pytest.importorskip("pvlib")
     from frostwatch.commands.logs import _first_rows
     from frostwatch.config import load_config
@@ -131,10 +131,16 @@ def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkey
     if "bench_tmy" not in sys.modules:
         sys.modules["bench_tmy"] = tmy
         spec.loader.exec_module(tmy)
-    log, cfg_path, _ = tmy.write_log_and_config(tmy.SITES["greensboro"], tmp_path)
+    log, cfg_path, _ = tmy.write_log_and_config(tmy.SITES[site], tmp_path)
     cfg = load_config(str(cfg_path))
     cols, _ = read_log_columns(log, {s.id for s in cfg.stations})
-    fast, slow = _rows_both_ways(monkeypatch, cfg, series_of_columns(cols, _first_rows(cols), key_order="file"))
+    return cfg, series_of_columns(cols, _first_rows(cols), key_order="file")
+
+
+def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkeypatch):
+    """pvlib's Greensboro NC TMY3 year (NREL, Wilcox & Marion 2008), as bench/tmy.py converts it."""
+    cfg, series = _typical_year("greensboro", tmp_path)
+    fast, slow = _rows_both_ways(monkeypatch, cfg, series)
     rows = json.loads(fast)
     assert fast == slow and len(rows) > 300
     assert math.isfinite(bt.backtest_summary(rows)["mae_c"])
@@ -277,19 +283,6 @@ def test_training_points_of_many_nights_are_each_nights_own_on_the_demo_farm():
 def test_training_points_of_many_nights_are_each_nights_own_on_a_typical_year(tmp_path):
     """pvlib's Sand Point AK TMY3 year (NREL, Wilcox & Marion 2008) as bench/tmy.py converts it:
     nights of every length, cloud and wind sensors, months from different years."""
-    pytest.importorskip("pvlib")
-    from frostwatch.commands.logs import _first_rows
-    from frostwatch.config import load_config
-    from frostwatch.ingest.bulk import read_log_columns, series_of_columns
-
-    spec = importlib.util.spec_from_file_location("bench_tmy", Path(__file__).resolve().parents[1] / "bench" / "tmy.py")
-    tmy = sys.modules.get("bench_tmy") or importlib.util.module_from_spec(spec)
-    if "bench_tmy" not in sys.modules:
-        sys.modules["bench_tmy"] = tmy
-        spec.loader.exec_module(tmy)
-    log, cfg_path, _ = tmy.write_log_and_config(tmy.SITES["sand_point"], tmp_path)
-    cfg = load_config(str(cfg_path))
-    cols, _ = read_log_columns(log, {s.id for s in cfg.stations})
-    series = series_of_columns(cols, _first_rows(cols), key_order="file")
+    cfg, series = _typical_year("sand_point", tmp_path)
     nights = nights_of_dates(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, bt.candidate_nights(cfg, series))
     assert _check_many_is_one_by_one(cfg, cfg.blocks[0], _jobs_of(cfg, cfg.blocks[0], series, nights)) > 3000

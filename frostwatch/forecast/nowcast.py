@@ -49,24 +49,33 @@ def feature_matrix(
     sums = np.zeros((7, len(t_s) + 1))
     np.cumsum(np.stack([np.where(use, x * (v_c - t0_c), 0.0), np.where(use, x * x, 0.0), np.ones_like(el), el,
                         el * el, v_c, el * v_c]), axis=1, out=sums[:, 1:])
-    at_j = sums[:, j]
+    # the recent slope's sums over (now - 2 h, now]
+    i2 = np.searchsorted(t_s, times_s - RECENT_SLOPE_S, side="right")
+    feats, ok = _features_from_sums(sums[:, j], sums[2:, i2], j, times_s, t0_s, sunrise_s, latest,
+                                    dew_point_c, wind_m_s, cloud_frac)
+    return latest, feats, ok
+
+
+def _features_from_sums(at_j, at_i2, j, times_s, t0_s, sunrise_s, latest, dew_point_c, wind_m_s, cloud_frac):
+    """`feature_matrix`'s features and `ok` at each instant from the running sums up to it (`at_j`,
+    its j readings: sum x (T - T0), sum x^2, n, t, t^2, T, t T) and the recent slope's sums up to
+    2 h before it (`at_i2`); t0_s and sunrise_s are one night's or each instant's own."""
     sxy_j, sxx_j = at_j[0], at_j[1]
     ok = (sxx_j > 0) & (j > 0)
     b_obs = np.where(ok, sxy_j / np.where(sxx_j > 0, sxx_j, 1.0), 0.0)
-    h_total = max(0.0, (sunrise_s - t0_s) / 3600.0)
+    h_total = np.maximum(0.0, (sunrise_s - t0_s) / 3600.0)
     e_now = np.sqrt(np.maximum(0.0, (times_s - t0_s) / 3600.0))
     hl = np.maximum(0.0, (sunrise_s - times_s) / 3600.0)
-    curve_drop = np.minimum(0.0, b_obs * (math.sqrt(h_total) - e_now))
+    curve_drop = np.minimum(0.0, b_obs * (np.sqrt(h_total) - e_now))
     # recent slope by least squares over (now - 2 h, now], from running sums (times in hours from t0)
-    i2 = np.searchsorted(t_s, times_s - RECENT_SLOPE_S, side="right")
-    n, st, stt, sv, stv = at_j[2:] - sums[2:, i2]
+    n, st, stt, sv, stv = at_j[2:] - at_i2
     den = n * stt - st * st
     slope = np.where((n >= 2) & (den > 1e-12), (n * stv - st * sv) / np.where(den > 1e-12, den, 1.0), 0.0)
     td = np.asarray(dew_point_c, dtype=float)
     dep = np.where(np.isfinite(td), np.maximum(0.0, latest - np.minimum(td, latest)), ASSUMED_DEPRESSION_C)
     wind, cloud = _nan_to_zero(wind_m_s), _nan_to_zero(cloud_frac)
     feats = np.column_stack([curve_drop, np.sqrt(hl), np.minimum(MAX_RECENT_SLOPE_C_H, slope) * hl, wind, cloud, dep])
-    return latest, feats, ok
+    return feats, ok
 
 
 def _nan_to_zero(values) -> np.ndarray:
@@ -320,21 +329,7 @@ def _feature_rows(air: _Rows, night: np.ndarray, idx: np.ndarray, times_s: np.nd
                       el * el, v_c, el * v_c])
     sums = np.zeros((7, *el.shape[:1], el.shape[1] + 1))
     np.cumsum(np.where(valid, parts, 0.0), axis=2, out=sums[:, :, 1:])
-    at_j = sums[:, night, j]
-    sxy_j, sxx_j = at_j[0], at_j[1]
-    ok = (sxx_j > 0) & (j > 0)
-    b_obs = np.where(ok, sxy_j / np.where(sxx_j > 0, sxx_j, 1.0), 0.0)
-    h_total = np.maximum(0.0, (sunrise_s - t0_s) / 3600.0)[night]
-    t0n = t0_s[night]
-    e_now = np.sqrt(np.maximum(0.0, (times_s - t0n) / 3600.0))
-    hl = np.maximum(0.0, (sunrise_s[night] - times_s) / 3600.0)
-    curve_drop = np.minimum(0.0, b_obs * (np.sqrt(h_total) - e_now))
     i2 = air.count_le(night, times_s - RECENT_SLOPE_S)
-    n, st, stt, sv, stv = at_j[2:] - sums[2:, night, i2]
-    den = n * stt - st * st
-    slope = np.where((n >= 2) & (den > 1e-12), (n * stv - st * sv) / np.where(den > 1e-12, den, 1.0), 0.0)
-    td = np.asarray(dew_point_c, dtype=float)
-    dep = np.where(np.isfinite(td), np.maximum(0.0, latest - np.minimum(td, latest)), ASSUMED_DEPRESSION_C)
-    wind, cloud = _nan_to_zero(wind_m_s), _nan_to_zero(cloud_frac)
-    feats = np.column_stack([curve_drop, np.sqrt(hl), np.minimum(MAX_RECENT_SLOPE_C_H, slope) * hl, wind, cloud, dep])
+    feats, ok = _features_from_sums(sums[:, night, j], sums[2:, night, i2], j, times_s, t0_s[night], sunrise_s[night],
+                                    latest, dew_point_c, wind_m_s, cloud_frac)
     return latest, feats, ok
