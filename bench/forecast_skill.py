@@ -355,13 +355,32 @@ def view_sunrise_end(r: dict) -> float:
     return max(_iso_s(r["observed_min_at"]), _iso_s(r["issued_at"]) + 6 * 3600.0)
 
 
+def _pod_far(obs: np.ndarray, warn: np.ndarray) -> tuple[int, int, int, float | None, float | None]:
+    hits, misses, fa = int(np.sum(obs & warn)), int(np.sum(obs & ~warn)), int(np.sum(~obs & warn))
+    return (hits, misses, fa, round(hits / (hits + misses), 3) if hits + misses else None,
+            round(fa / (hits + fa), 3) if hits + fa else None)
+
+
+def best_far_at_pod(obs: np.ndarray, forecast_c: np.ndarray, threshold_c: float, pod_min: float) -> dict | None:
+    """A ceiling for any rule that warns when this forecast is below some level: over levels from
+    threshold - 3 to threshold + 6 degC (0.1 degC steps), the lowest false alarm ratio among those
+    with a probability of detection >= `pod_min` (chosen after the fact, so no rule does better)."""
+    best = None
+    for off in np.round(np.arange(-3.0, 6.0001, 0.1), 1):
+        _, _, _, pod, far = _pod_far(obs, forecast_c < threshold_c + off)
+        if pod is not None and far is not None and pod >= pod_min and (best is None or far < best["far"]):
+            best = {"level_minus_threshold_c": float(off), "pod": pod, "far": far}
+    return best
+
+
 def _events(rows: list[dict], threshold_c: float) -> dict:
     obs = np.array([r["observed_min_c"] < threshold_c for r in rows])
-    warn = np.array([r["_low"] < threshold_c for r in rows])
-    hits, misses, fa = int(np.sum(obs & warn)), int(np.sum(obs & ~warn)), int(np.sum(~obs & warn))
-    return {"events": int(obs.sum()), "hits": hits, "misses": misses, "false_alarms": fa,
-            "pod": round(hits / (hits + misses), 3) if hits + misses else None,
-            "far": round(fa / (hits + fa), 3) if hits + fa else None}
+    low = np.array([r["_low"] for r in rows])
+    hits, misses, fa, pod, far = _pod_far(obs, low < threshold_c)
+    pod_min = TARGETS["event_pod_min"]
+    return {"events": int(obs.sum()), "hits": hits, "misses": misses, "false_alarms": fa, "pod": pod, "far": far,
+            "best_far_cold_edge": best_far_at_pod(obs, low, threshold_c, pod_min),
+            "best_far_middle": best_far_at_pod(obs, np.array([r["predicted_min_c"] for r in rows]), threshold_c, pod_min)}
 
 
 def run(verbose: bool = True, out_dir: Path | None = None, sites: list[str] | None = None) -> dict:
@@ -420,6 +439,11 @@ def print_report(res: dict) -> None:
         for name, e in s["events"].items():
             if e["events"]:
                 print(f"  event '{name}' at dusk from the band's cold edge: {e['events']} events, POD {e['pod']}, FAR {e['far']}")
+                for what, key in (("cold edge", "best_far_cold_edge"), ("middle", "best_far_middle")):
+                    b = e.get(key)
+                    if b:
+                        print(f"    any level on the {what} (chosen after the fact): lowest FAR with POD >= "
+                              f"{TARGETS['event_pod_min']:g} is {b['far']} (POD {b['pod']}, level {b['level_minus_threshold_c']:+.1f} degC)")
         cs = s["cold_start"]
         if cs.get("n"):
             print(f"  cold start (first {cs['n']} nights): bias {cs['bias_c']:+.2f}, MAE {cs['mae_c']:.2f}; "
