@@ -16,6 +16,7 @@ import numpy as np
 from frostwatch import forecast
 from frostwatch.config import Config
 from frostwatch.forecast import Learner, Series
+from frostwatch.forecast.projection import dusk_memo
 from frostwatch.night import LOOKBACK, evening_date, nights_of_dates, slice_series
 from frostwatch.physics import humidity
 
@@ -86,7 +87,9 @@ def backtest(
             if rec is None:
                 continue
             cal = learners[block.id].calibration()
-            proj = forecast.project_block(issue, block, cfg, window, night, cal, p_hpa, curves=False)
+            # the dusk forecast from the record's own dusk inputs (the same readings up to t0)
+            memo = dusk_memo(block.id, rec, night, cal, p_hpa)
+            proj = forecast.project_block(issue, block, cfg, window, night, cal, p_hpa, curves=False, memo=memo)
             if proj.predicted_min_c is not None:
                 row = {
                     "night": d.isoformat(),

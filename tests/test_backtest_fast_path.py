@@ -26,6 +26,7 @@ from frostwatch import backtest as bt
 from frostwatch import forecast
 from frostwatch.forecast import learner as lm
 from frostwatch.night import LOOKBACK, nights_of_dates, slice_series
+from frostwatch.physics import humidity
 
 
 def same(a, b) -> bool:
@@ -248,10 +249,9 @@ def _check_many_is_one_by_one(cfg, block, jobs) -> int:
     return sum(len(g) for g in many)
 
 
-def test_training_points_of_many_nights_are_each_nights_own_on_the_demo_farm():
-    """The demo farm's nights (invented, sample_sensor_logs/): humidity turned into dew points,
-    two crop-height sensors in a block, site-wide sensors, every block; and the same nights with
-    sensors silent for hours, so that nights differ in what they have."""
+def _demo_farm():
+    """(config, series, the same series with each sensor silent for a few random hours, nights)
+    of the demo farm's three invented nights (sample_sensor_logs/)."""
     from frostwatch.commands.logs import _first_rows
     from frostwatch.config import load_config
     from frostwatch.ingest.bulk import read_log_columns, series_of_columns
@@ -273,6 +273,14 @@ def test_training_points_of_many_nights_are_each_nights_own_on_the_demo_farm():
         for start in rng.uniform(t[0], t[-1], 3):
             keep &= ~((t >= start) & (t < start + rng.uniform(1800, 4 * 3600)))
         holed[key] = (t[keep], v[keep])
+    return cfg, series, holed, nights
+
+
+def test_training_points_of_many_nights_are_each_nights_own_on_the_demo_farm():
+    """The demo farm's nights (invented, sample_sensor_logs/): humidity turned into dew points,
+    two crop-height sensors in a block, site-wide sensors, every block; and the same nights with
+    sensors silent for hours, so that nights differ in what they have."""
+    cfg, series, holed, nights = _demo_farm()
     checked = 0
     for block in cfg.blocks:
         for ser in (series, holed):
@@ -286,3 +294,47 @@ def test_training_points_of_many_nights_are_each_nights_own_on_a_typical_year(tm
     cfg, series = _typical_year("sand_point", tmp_path)
     nights = nights_of_dates(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, bt.candidate_nights(cfg, series))
     assert _check_many_is_one_by_one(cfg, cfg.blocks[0], _jobs_of(cfg, cfg.blocks[0], series, nights)) > 3000
+
+
+# ---- the dusk forecast from the night's record -----------------------------------------------
+
+
+def _check_dusk_memo(cfg, series, nights) -> int:
+    """Each block's projection at each night's dusk with `projection.dusk_memo` (the dusk inputs
+    and evening curve taken from the night's record) is the projection without it, field by
+    field to the last bit, under a calibration that learns night by night."""
+    from frostwatch.forecast.projection import dusk_memo
+
+    checked = 0
+    for block in cfg.blocks:
+        learner = lm.Learner(cfg.forecast.calibration_nights)
+        for night in nights:
+            start_s = (night.sunset_utc - LOOKBACK).timestamp()
+            obs = slice_series(series, start_s, night.sunrise_utc.timestamp() + 3600.0)
+            rec = forecast.night_record(block, cfg, obs, night)
+            if rec is None:
+                continue
+            win, cal = slice_series(obs, start_s, night.dusk_utc.timestamp()), learner.calibration()
+            want = forecast.project_block(night.dusk_utc, block, cfg, win, night, cal, curves=False)
+            memo = dusk_memo(block.id, rec, night, cal, float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m)))
+            got = forecast.project_block(night.dusk_utc, block, cfg, win, night, cal, curves=False, memo=memo)
+            assert same(got, want), (block.id, night.date)
+            assert ("dusk", block.id, want.station, night.dusk_utc.timestamp()) in memo  # it was the memo's
+            learner.learn(rec)
+            checked += want.predicted_min_c is not None
+    return checked
+
+
+def test_the_dusk_forecast_from_the_record_is_the_projections_own_on_the_demo_farm():
+    """The demo farm's nights (humidity sensors, two crop-height sensors in a block, site-wide
+    sensors) and the same nights with sensors silent for hours."""
+    cfg, series, holed, nights = _demo_farm()
+    assert _check_dusk_memo(cfg, series, nights) + _check_dusk_memo(cfg, holed, nights) >= 8
+
+
+def test_the_dusk_forecast_from_the_record_is_the_projections_own_on_a_typical_year(tmp_path):
+    """pvlib's Miami FL TMY2 year (NREL; months from 1961-90) as bench/tmy.py converts it: a
+    calibration that learns over a whole year, months from different years."""
+    cfg, series = _typical_year("miami", tmp_path)
+    nights = nights_of_dates(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, bt.candidate_nights(cfg, series))
+    assert _check_dusk_memo(cfg, series, nights) > 300

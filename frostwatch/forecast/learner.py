@@ -67,6 +67,10 @@ from frostwatch.forecast.skill import (  # noqa: F401  (_Window, _quantile_sorte
 )
 from frostwatch.forecast.snapshot_plan import SnapshotPlan
 
+# the nowcast methods blended, by (learned model present, naive fall known)
+_NOWCAST_METHODS_OF = {(lrn, nv): tuple(k for k in NOWCAST_METHODS if (k != "learned" or lrn) and (k != "naive" or nv))
+                       for lrn in (False, True) for nv in (False, True)}
+
 
 class Learner:
     """Sufficient statistics of one block's calibration, updated one finished night at a time."""
@@ -199,7 +203,7 @@ class Learner:
     def nowcast_methods(self, learned: bool) -> tuple[str, ...]:
         """The nowcast methods an hours-left bin blends: the learned one once its bin has a model,
         the naive fall once a past night has given one."""
-        return tuple(k for k in NOWCAST_METHODS if (k != "learned" or learned) and (k != "naive" or (self.fall_n and USE_NAIVE)))
+        return _NOWCAST_METHODS_OF[bool(learned), bool(self.fall_n and USE_NAIVE)]
 
     def calibration(self) -> Calibration:
         if self._cal is None:

@@ -26,7 +26,7 @@ from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
 from frostwatch.forecast import calibration as settings
 from frostwatch.forecast import inversion as inv
-from frostwatch.forecast.calibration import Calibration, feature_vector
+from frostwatch.forecast.calibration import Calibration, NightRecord, feature_vector
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
     _utc,
     block_crossings,
@@ -40,6 +40,7 @@ from frostwatch.forecast.nowcast import features_at
 from frostwatch.forecast.sensors import (
     ASSUMED_DEPRESSION_C,
     INPUT_WINDOW_S,
+    DuskInputs,
     Series,
     as_of,
     cloud_frac_now,
@@ -108,6 +109,18 @@ def _dusk_forecast(
 ) -> tuple:
     """The forecast from t0 (dusk, or now before it): (t0_c, t0_s, method, hours from t0 to
     sunrise, minimum, Reuter's b', the band's low and high offsets, notes)."""
+    # before dusk the same evening curve on the readings so far, so the estimate runs into the
+    # dusk forecast without a jump
+    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, night.sunrise_utc.timestamp())
+    return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method, evening, night, cal, p_hpa)
+
+
+def _dusk_forecast_with(
+    t0_c: float, td0_c: float | None, wind0: float | None, cloud0: float | None, trend0: float | None,
+    p_trend0: float | None, t0_s: float, method: str, evening: float | None, night: Night, cal: Calibration,
+    p_hpa: float,
+) -> tuple:
+    """`_dusk_forecast` with tonight's evening curve (`curves.evening_curve_c`) given."""
     sunrise_s = night.sunrise_utc.timestamp()
     notes = []
     h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
@@ -116,15 +129,25 @@ def _dusk_forecast(
     if not math.isfinite(prior):
         notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
         prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
-    # before dusk the same evening curve on the readings so far, so the estimate runs into the
-    # dusk forecast without a jump
-    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, sunrise_s)
     tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
     if td0_c is None:
         notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
     b_dusk = (tp_dusk - t0_c) / math.sqrt(h_from_t0)
     lo_off, hi_off = cal.dusk_band_c(h_from_t0)
     return t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, tuple(notes)
+
+
+def dusk_memo(block_id: str, rec: NightRecord, night: Night, cal: Calibration, p_hpa: float) -> dict:
+    """A `project_block` memo that holds the night's dusk forecast made from its record's inputs
+    (`forecast.records`: the dusk inputs and evening curve as of t0, from readings up to t0, as
+    `project_block` at t0 or later works them out from the same readings). A backtest projects
+    each night at its dusk with it instead of working those inputs out a second time."""
+    dusk_s = night.dusk_utc.timestamp()
+    di = DuskInputs(rec.station, rec.t0_temp_c, rec.t0_dew_point_c, rec.t0_wind_m_s, rec.t0_cloud_frac,
+                    rec.t0_wind_trend_m_s, rec.t0_pressure_trend_hpa)
+    dusk = _dusk_forecast_with(di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s,
+                               di.pressure_trend_hpa, dusk_s, "dusk forecast", rec.evening_curve_c, night, cal, p_hpa)
+    return {("dusk", block_id, rec.station, dusk_s): (cal, di, dusk)}
 
 
 def project_block(

@@ -33,19 +33,24 @@ class _Skill:
     and the error covariance shrunk halfway to its diagonal, so that two methods that err
     together do not get opposite weights)."""
 
-    __slots__ = ("methods", "m2", "scored")
+    __slots__ = ("methods", "m2", "scored", "found")
 
     def __init__(self, methods: tuple[str, ...]):
         self.methods = methods
-        # the moments as rows of Python floats: a night adds a few errors to each of many skills,
-        # each a handful of products, cheaper in Python than in numpy's calls (the same arithmetic)
+        # the moments as one row-major list of Python floats (k x k): a night adds a few errors to
+        # each of many skills, each a handful of products, cheaper in Python than in numpy's calls
+        # (the same arithmetic)
         k = len(methods)
-        self.m2 = [[PRIOR_BAND_C**2 if i == j else 0.0 for j in range(k)] for i in range(k)]
+        self.m2 = [PRIOR_BAND_C**2 if i == j else 0.0 for i in range(k) for j in range(k)]
         self.scored = dict.fromkeys(methods, 0)
+        # the weights worked out since the last `add`, by available methods: a snapshot asks again
+        # for skills no night has changed (the approach blend's, the other dusk regime's)
+        self.found: dict[tuple[str, ...], dict[str, float] | None] = {}
 
     @property
     def mse(self) -> dict[str, float]:
-        return {m: self.m2[i][i] for i, m in enumerate(self.methods)}
+        k = len(self.methods)
+        return {m: self.m2[i * k + i] for i, m in enumerate(self.methods)}
 
     def add(self, errors: dict[str, float]) -> None:
         """Decay the moments and add the errors' products, among the methods with a finite error:
@@ -53,24 +58,41 @@ class _Skill:
         a = 1.0 - 0.5 ** (1.0 / SKILL_HALF_LIFE)
         b = 1 - a
         methods = self.methods
-        idx = [i for i, m in enumerate(methods) if errors.get(m) is not None and math.isfinite(errors[m])]
+        vals = [errors.get(m) for m in methods]
+        if None not in vals and all(map(math.isfinite, vals)):  # every method scored (the usual case)
+            e = [float(x) for x in vals]
+            self.m2 = [b * r + a * p for r, p in zip(self.m2, [x * y for x in e for y in e], strict=True)]
+            self.found = {}
+            scored = self.scored
+            for m in methods:
+                scored[m] += 1
+            return
+        idx = [i for i, x in enumerate(vals) if x is not None and math.isfinite(x)]
         if not idx:
             return
-        e = [float(errors[methods[i]]) for i in idx]
-        m2 = self.m2
+        self.found = {}
+        e = [float(vals[i]) for i in idx]
+        m2, k = self.m2, len(methods)
         for p, i in enumerate(idx):
-            row, ep = m2[i], e[p]
+            ep = e[p]
             for q, j in enumerate(idx):
-                row[j] = b * row[j] + a * (ep * e[q])
+                m2[i * k + j] = b * m2[i * k + j] + a * (ep * e[q])
         for i in idx:
             self.scored[methods[i]] += 1
 
     def weights(self, available: tuple[str, ...]) -> dict[str, float] | None:
         """Blend weights among the available methods; None until each has been scored."""
+        if available in self.found:
+            return self.found[available]
+        w = self.found[available] = self._weights(available)
+        return w
+
+    def _weights(self, available: tuple[str, ...]) -> dict[str, float] | None:
         if any(self.scored[m] < SKILL_MIN_SCORED for m in available):
             return None
         idx = [self.methods.index(m) for m in available]
-        s = np.array(self.m2)[np.ix_(idx, idx)]
+        k = len(self.methods)
+        s = np.array(self.m2).reshape(k, k)[np.ix_(idx, idx)]
         s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * np.diag(np.diag(s)) + SKILL_FLOOR_C2 * np.eye(len(idx))
         try:
             w = np.linalg.solve(s, np.ones(len(idx)))
@@ -160,11 +182,15 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
     out: list = [None] * len(items)
     groups: dict[tuple[int, ...], list[int]] = {}
     for i, (skill, avail) in enumerate(items):
+        if avail in skill.found:  # worked out since its last change
+            out[i] = skill.found[avail]
+            continue
         scored = skill.scored
         if any(scored[m] < SKILL_MIN_SCORED for m in avail):
+            skill.found[avail] = None
             continue
         if not avail:
-            out[i] = {}  # as `_Skill.weights` of no method
+            out[i] = skill.found[avail] = {}  # as `_Skill.weights` of no method
             continue
         key = (skill.methods, avail)
         idx = _INDEX_OF.get(key)
@@ -173,10 +199,11 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
         groups.setdefault(idx, []).append(i)
     for idx, members in groups.items():
         k = len(idx)
-        if idx == tuple(range(len(items[members[0]][0].methods))):
-            rows = chain.from_iterable(chain.from_iterable(items[i][0].m2 for i in members))
+        size = len(items[members[0]][0].methods)
+        if idx == tuple(range(size)):
+            rows = chain.from_iterable(items[i][0].m2 for i in members)
         else:
-            rows = (m2[i][j] for m2 in (items[x][0].m2 for x in members) for i in idx for j in idx)
+            rows = (m2[i * size + j] for m2 in (items[x][0].m2 for x in members) for i in idx for j in idx)
         s = np.fromiter(rows, dtype=float, count=len(members) * k * k).reshape(len(members), k, k)
         r = np.arange(k)
         if SKILL_SHRINK == 0.0:
@@ -205,5 +232,5 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
             w_all = np.where(positive, np.maximum(w_all / np.where(positive, total[:, None], 1.0), 0.0), 1.0 / s[:, r, r])  # np.clip(x, 0.0, None) is np.maximum(x, 0.0)
         w_all = (w_all / w_all.sum(axis=1)[:, None]).tolist()
         for j, i in enumerate(members):
-            out[i] = dict(zip(items[i][1], w_all[j], strict=True))
+            out[i] = items[i][0].found[items[i][1]] = dict(zip(items[i][1], w_all[j], strict=True))
     return out
