@@ -17,6 +17,7 @@ import argparse
 import json
 import os
 import resource
+import shlex
 import subprocess
 import sys
 import tempfile
@@ -77,7 +78,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("before", help="a tree of the other frostwatch (its frostwatch/ folder is imported)")
     ap.add_argument("--rounds", type=int, default=3)
     ap.add_argument("--sites", default=",".join(tmy.SITES))
-    args = ap.parse_args(argv)
+    ap.add_argument("--label", default="", help="what the other tree is (a commit), kept in the results")
+    args = ap.parse_args(sys.argv[1:] if argv is None else argv)
     trees = {"before": str(Path(args.before).resolve()), "after": str(CHECKOUT)}
     work = Path(tempfile.mkdtemp(prefix="frostwatch-ab-"))
     logs = {k: tmy.write_log_and_config(tmy.SITES[k], work / k)[:2] for k in args.sites.split(",")}
@@ -108,7 +110,8 @@ def main(argv: list[str] | None = None) -> int:
                   f"{med['process']:.2f} s / {med['process_floor']:.2f} = {med['ratio_process']}x; load {med['load_average_1min']}")
     RESULTS.mkdir(parents=True, exist_ok=True)
     doc = {"about": __doc__.split("\n\n")[0], "when": time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime()),
-           "rounds": args.rounds, "before": trees["before"], "sites": out, "raw": raw}
+           "command": shlex.join(["python", "-m", "bench.backtest_ab", *(sys.argv[1:] if argv is None else argv)]),
+           "rounds": args.rounds, "before": trees["before"], "before_label": args.label, "sites": out, "raw": raw}
     (RESULTS / "backtest_ab.json").write_text(json.dumps(doc, indent=1) + "\n", encoding="utf-8")
     return 0
 

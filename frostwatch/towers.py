@@ -91,6 +91,8 @@ def tower_for_block(cfg: Config, block: Block, states: Mapping[str, StationState
         return st is not None and st.healthy and "air_temperature" in st.latest
 
     towers = [s for s in cfg.stations if s.role == "tower" and ok(s)]
+    if not towers:  # no healthy tower anywhere (a farm without one): nothing to place
+        return None
     own = [s for s in towers if s.block == block.id]
     if own:
         return TowerChoice(own[0].id, True, None, False)

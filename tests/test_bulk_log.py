@@ -155,6 +155,37 @@ def test_random_rows_read_the_same_both_ways(rows):
     _same((HEADER + "\n" + "\n".join(rows) + "\n").encode())
 
 
+def _strict_times_both_ways(texts: list[str]) -> int:
+    import re
+
+    from frostwatch.ingest.bulk import _STRICT_TIME, _strict_time_mask
+
+    got = _strict_time_mask(np.array(texts, dtype=object))
+    want = [re.fullmatch(_STRICT_TIME, t) is not None for t in texts]
+    assert got.tolist() == want, [t for t, a, b in zip(texts, got, want, strict=True) if a != b]
+    return sum(want)
+
+
+def test_the_strict_time_check_on_arrays_is_the_regular_expressions():
+    """Each valid form with every character replaced, in turn, by digits, signs, separators,
+    other scripts' digits and nothing, and cut or lengthened at every place."""
+    forms = ["2027-04-14T20:00:00Z", "2027-04-14T20:00:00-07:00", "1962-01-01T01:00:00.123+05:30",
+             "2199-12-31T23:59:59.999Z", "1900-01-01T00:00:00+23:59"]
+    texts = list(forms)
+    for form in forms:
+        for i in range(len(form) + 1):
+            texts += [form[:i], form[:i] + "0" + form[i:], form[:i] + " "]
+            for ch in "0123456789+-:.TZz ٣x\u00b2":
+                texts.append(form[:i] + ch + form[i + 1:])
+    assert _strict_times_both_ways(texts) > 50
+    assert _strict_times_both_ways(["", "Z", "2027-04-14T20:00:00"]) == 0
+
+
+@given(st.lists(st.text(alphabet="0123456789-+:.TZ ٣", min_size=18, max_size=31), max_size=30))
+def test_random_texts_are_strict_times_as_the_regular_expression_says(texts):
+    _strict_times_both_ways(texts)
+
+
 # ---- the bulk insert ---------------------------------------------------------------------------
 
 def _log(rows: list[tuple[str, str, str, float]]) -> bytes:

@@ -52,9 +52,12 @@ def test_snapshot_equals_one_solve_at_a_time(tmp_path):
                 checked_models += 1
                 assert np.array_equal(want[0], got[0]) and np.array_equal(want[1], got[1]) and want[2] == got[2]
             avail = learner.nowcast_methods(got is not None)
-            w = learner.nc_skill[b].weights(avail)
+            w = learner.nc_skill[b]._weights(avail)  # worked out again, alone (not the weights kept)
             assert cal.nc_weights[b] == (tuple(w.items()) if w else None)
             checked_weights += w is not None
+            if b == 0:  # the approach blend's weights, stacked with the others
+                w = learner.approach_skill._weights(lm.APPROACH_METHODS)
+                assert cal.nc_approach == (tuple(w.items()) if w else ())
             band = _band_one_at_a_time(learner.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
             if band is not None:
                 checked_bands += 1
@@ -92,3 +95,55 @@ def test_quantile_of_sorted_residuals_is_numpys(n):
             assert sorted(r.tolist()) == window.sorted
             for q in (0.1, 0.5, 0.9):
                 assert lm._quantile_sorted(window.sorted, q) == float(np.quantile(r, q))
+
+
+def _moments_with_numpy(history, methods):
+    """A skill's moments as numpy would keep them: m2 <- (1 - a) m2 + a e e^T over the methods
+    with a finite error, from the prior's spread on the diagonal."""
+    from frostwatch.forecast.skill import SKILL_HALF_LIFE
+
+    a = 1.0 - 0.5 ** (1.0 / SKILL_HALF_LIFE)
+    m2 = np.diag(np.full(len(methods), PRIOR_BAND_C**2))
+    for errors in history:
+        idx = [i for i, m in enumerate(methods) if errors.get(m) is not None and math.isfinite(errors[m])]
+        if idx:
+            e = np.array([errors[methods[i]] for i in idx])
+            m2[np.ix_(idx, idx)] = (1 - a) * m2[np.ix_(idx, idx)] + a * np.outer(e, e)
+    return m2
+
+
+def test_skill_moments_are_numpys_and_its_weights_follow_each_error():
+    """The moments, kept as one flat list of Python floats, are numpy's to the last bit, with
+    every method scored and with some missing or not finite; the weights kept since the last
+    error are the weights worked out afresh, and stacked (`_weights_many`) the same again."""
+    from frostwatch.forecast.skill import _Skill, _weights_many
+
+    rng = np.random.default_rng(3)
+    methods = lm.NOWCAST_METHODS
+    skill, history = _Skill(methods), []
+    for k in range(60):
+        errors = {m: float(x) for m, x in zip(methods, rng.normal(0, 1.2, len(methods)), strict=True)}
+        if k % 4 == 1:
+            errors.pop(methods[int(rng.integers(len(methods)))])
+        if k % 7 == 3:
+            errors[methods[int(rng.integers(len(methods)))]] = float("nan")
+        skill.add(errors)
+        history.append(errors)
+        want = _moments_with_numpy(history, methods)
+        assert np.array(skill.m2).reshape(len(methods), -1).tobytes() == want.tobytes()
+        for avail in (methods, methods[1:], methods[:2]):
+            kept = skill.weights(avail)
+            assert kept == skill._weights(avail) == _weights_many([(skill, avail)])[0]
+    assert skill.weights(methods) is not None
+
+
+def test_a_stack_solved_without_numpys_wrapper_is_numpys():
+    from frostwatch.forecast.skill import _solve_stack
+
+    rng = np.random.default_rng(4)
+    a = rng.normal(size=(9, 4, 4)) + 3 * np.eye(4)
+    b = np.ones((9, 4, 1))
+    assert _solve_stack(a, b).tobytes() == np.linalg.solve(a, b).tobytes()
+    a[4] = 0.0  # singular: numpy's error, as np.linalg.solve raises it
+    with pytest.raises(np.linalg.LinAlgError):
+        _solve_stack(a, b)

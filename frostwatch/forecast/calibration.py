@@ -265,10 +265,13 @@ class Calibration:
         return out
 
     def predict_c(
-        self, prior_c: float, x: tuple[float, ...], hours: float | None = None, evening_c: float | None = None
+        self, prior_c: float, x: tuple[float, ...], hours: float | None = None, evening_c: float | None = None,
+        comps: dict[str, float] | None = None,
     ) -> float:
-        """The dusk forecast of the minimum (before capping at T0)."""
-        comps = self.dusk_components(prior_c, x, hours, evening_c)
+        """The dusk forecast of the minimum (before capping at T0); `comps`, when given, is
+        `dusk_components` of the same arguments (a caller that scores them too)."""
+        if comps is None:
+            comps = self.dusk_components(prior_c, x, hours, evening_c)
         if "regression" not in comps:
             if "evening_curve" in comps:
                 return COLD_EVENING_WEIGHT * comps["evening_curve"] + (1 - COLD_EVENING_WEIGHT) * comps["prior"]
@@ -377,9 +380,9 @@ class Calibration:
             comps["learned"] = learned
         w = self.nc_weights[nowcast_bin(hours_left)] if self.nc_weights and NOWCAST_BLEND else None
         w = dict(w) if w else None
-        if w and all(k in w for k in comps):
-            total = sum(w[k] for k in comps)
-            drop = sum(w[k] * v for k, v in comps.items()) / total
+        if w and w.keys() >= comps.keys():  # every method that spoke has a weight
+            total = sum([w[k] for k in comps])  # lists, not generators: the same sums, in the same order
+            drop = sum([w[k] * v for k, v in comps.items()]) / total
             return min(0.0, drop), ("skill-weighted: " + ", ".join(f"{k} {w[k] / total:.0%}" for k in comps)) if say else ""
         if learned is not None:
             return learned, "learned"

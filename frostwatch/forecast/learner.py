@@ -126,7 +126,7 @@ class Learner:
         h = max(0.25, rec.hours_to_sunrise)
         # dusk: each method's error and the blended forecast's residual (as project_block caps it)
         comps = cal.dusk_components(rec.prior_c, x, h, rec.evening_curve_c)
-        pred_dusk = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c), rec.t0_temp_c)
+        pred_dusk = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c, comps), rec.t0_temp_c)
         if math.isfinite(rec.prior_c):
             self.dusk_skill.setdefault(dusk_regime(x), _Skill(DUSK_METHODS)).add(
                 {k: v - rec.observed_min_c for k, v in comps.items()})
@@ -243,9 +243,11 @@ class Learner:
         regimes = sorted(self.dusk_skill.items()) if n >= MIN_REGRESSION_NIGHTS else []
         dusk_items = [(skill, tuple(m for m in DUSK_METHODS if skill.scored[m] > 0 and not (
             m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))) for regime, skill in regimes]
-        # the dusk weights and the changed bins' nowcast weights in one call (one stack per shape)
-        found = self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None], dusk_items)
-        weights = [(regime, tuple(w.items())) for (regime, _), w in zip(regimes, found, strict=True) if w]
+        # the dusk weights, the approach blend's and the changed bins' nowcast weights in one call
+        # (one stack per shape)
+        approach = [(self.approach_skill, APPROACH_METHODS)] if NOWCAST_APPROACH_BLEND else []
+        found = self._refresh_bins([b for b in range(NOWCAST_BINS) if self._bins[b] is None], dusk_items + approach)
+        weights = [(regime, tuple(w.items())) for (regime, _), w in zip(regimes, found[:len(regimes)], strict=True) if w]
         out["dusk_weights"] = tuple(weights)
         spread = PRIOR_BAND_C / 3.0 if BAND_PER_SQRT_HOUR else PRIOR_BAND_C  # sqrt of a typical 9 h night
         out["dusk_band"] = _band_from(self.dusk_residuals, spread)
@@ -255,7 +257,7 @@ class Learner:
         if NOWCAST_LEAD_CORRECTION and self.lead_sums[0].any():
             out["nc_lead"] = lead_fit(self.lead_sums, LEAD_MODE, LEAD_SHRINK)
         if NOWCAST_APPROACH_BLEND:
-            w = self.approach_skill.weights(APPROACH_METHODS)
+            w = found[-1]
             out["nc_approach"] = tuple(w.items()) if w else ()
         return Calibration(**out)
 

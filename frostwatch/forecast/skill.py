@@ -166,10 +166,32 @@ def _band_from(residuals, spread_c: float) -> tuple[float, float, int]:
         m, sd = float(np.mean(r)), float(np.std(r))
         return m - BAND_Z * sd, m + BAND_Z * sd, n
     if isinstance(residuals, _Window) and not residuals.nan:
-        lo, hi = (_quantile_sorted(residuals.sorted, q) for q in BAND_QUANTILES)
+        srt = residuals.sorted
+        lo, hi = [_quantile_sorted(srt, q) for q in BAND_QUANTILES]
     else:
         lo, hi = np.quantile(np.asarray(list(residuals), dtype=float), BAND_QUANTILES)
     return float(lo), float(hi), n
+
+
+try:  # numpy's own gufunc under np.linalg.solve, without the wrapper's checks (float64 stacks only)
+    from numpy.linalg import _umath_linalg
+
+    _SOLVE = _umath_linalg.solve
+except (ImportError, AttributeError):  # pragma: no cover - another numpy's layout
+    _SOLVE = None
+
+
+def _solve_stack(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """`np.linalg.solve(a, b)` of float64 stacks (..., k, k) and (..., k, 1), the same numbers
+    (LAPACK's gesv, matrix by matrix) without the wrapper's cost; LinAlgError for a singular
+    matrix, as numpy raises it (its invalid-value signal)."""
+    if _SOLVE is None:
+        return np.linalg.solve(a, b)
+    try:
+        with np.errstate(invalid="raise", over="ignore", divide="ignore", under="ignore"):
+            return _SOLVE(a, b, signature="dd->d")
+    except FloatingPointError:
+        raise np.linalg.LinAlgError("Singular matrix") from None
 
 
 _INDEX_OF: dict[tuple[tuple[str, ...], tuple[str, ...]], tuple[int, ...]] = {}  # (methods, available): positions
@@ -185,12 +207,11 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
         if avail in skill.found:  # worked out since its last change
             out[i] = skill.found[avail]
             continue
-        scored = skill.scored
-        if any(scored[m] < SKILL_MIN_SCORED for m in avail):
-            skill.found[avail] = None
-            continue
         if not avail:
             out[i] = skill.found[avail] = {}  # as `_Skill.weights` of no method
+            continue
+        if min(map(skill.scored.__getitem__, avail)) < SKILL_MIN_SCORED:
+            skill.found[avail] = None
             continue
         key = (skill.methods, avail)
         idx = _INDEX_OF.get(key)
@@ -218,7 +239,7 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
             diag[:, r, r] = s[:, r, r]
             s = (1 - SKILL_SHRINK) * s + SKILL_SHRINK * diag + SKILL_FLOOR_C2 * np.eye(k)
         try:
-            w_all = np.linalg.solve(s, np.ones((len(members), k, 1)))[:, :, 0]
+            w_all = _solve_stack(s, np.ones((len(members), k, 1)))[:, :, 0]
         except np.linalg.LinAlgError:
             for i in members:
                 out[i] = items[i][0].weights(items[i][1])

@@ -44,6 +44,52 @@ from frostwatch.units import QUANTITIES, array_converter
 # is for the row parser
 _STRICT_TIME = (r"(?:19\d\d|2[01]\d\d)-[01]\d-[0-3]\dT(?:[01]\d|2[0-3]):[0-5]\d:[0-5]\d(?:\.\d{3})?"
                 r"(?:[+-](?:[01]\d|2[0-3]):[0-5]\d|Z)")
+_STRICT_TIME_RE = None  # compiled on first use
+
+
+def _strict_time_mask(texts: np.ndarray) -> np.ndarray:
+    """Whether each text (a numpy array of str) is a full match of `_STRICT_TIME`, the same
+    answers as the regular expression: its ASCII forms are checked character by character on
+    arrays (each position's class), and only the texts that fail that check go to the regular
+    expression (its `\\d` also takes other scripts' digits)."""
+    import re
+
+    global _STRICT_TIME_RE
+    if _STRICT_TIME_RE is None:
+        _STRICT_TIME_RE = re.compile(_STRICT_TIME)
+    n = len(texts)
+    ok = np.zeros(n, dtype=bool)
+    u = np.asarray(texts, dtype=str) if n else np.zeros(0, dtype="U1")
+    width = u.dtype.itemsize // 4
+    if n and width >= 20:
+        c = u.view(np.uint32).reshape(n, width)
+        length = np.char.str_len(u)
+
+        def at(i: int, chars: str) -> np.ndarray:  # chars: one character, or a range "0-5"
+            lo, hi = ord(chars[0]), ord(chars[-1])
+            return c[:, i] == lo if lo == hi else (c[:, i] >= lo) & (c[:, i] <= hi)
+
+        def hour(i: int) -> np.ndarray:  # (?:[01]\d|2[0-3])
+            return (at(i, "0-1") & at(i + 1, "0-9")) | (at(i, "2") & at(i + 1, "0-3"))
+
+        def zone(i: int, before: np.ndarray) -> np.ndarray:  # (?:[+-]HH:[0-5]\d|Z) ending the text
+            z = (length == i + 1) & at(i, "Z")
+            if width >= i + 6:
+                z |= ((length == i + 6) & (at(i, "+") | at(i, "-")) & hour(i + 1) & at(i + 3, ":") & at(i + 4, "0-5")
+                      & at(i + 5, "0-9"))
+            return z & before
+
+        base = (((at(0, "1") & at(1, "9")) | (at(0, "2") & at(1, "0-1"))) & at(2, "0-9") & at(3, "0-9") & at(4, "-")
+                & at(5, "0-1") & at(6, "0-9") & at(7, "-") & at(8, "0-3") & at(9, "0-9") & at(10, "T") & hour(11)
+                & at(13, ":") & at(14, "0-5") & at(15, "0-9") & at(16, ":") & at(17, "0-5") & at(18, "0-9"))
+        ok = zone(19, base)
+        if width >= 24:
+            ok |= zone(23, base & at(19, ".") & at(20, "0-9") & at(21, "0-9") & at(22, "0-9"))
+    for i in np.flatnonzero(~ok).tolist():  # anything else, right or wrong: the regular expression
+        ok[i] = _STRICT_TIME_RE.fullmatch(texts[i]) is not None
+    return ok
+
+
 CHUNK_ROWS = 100_000  # rows parsed at once: pandas holds a Python string per field of a chunk
 _RH_PERCENT_UNITS = ("%", "percent", "pct", "")
 
@@ -260,7 +306,7 @@ def _fast_rows(data: bytes, starts: np.ndarray, ends: np.ndarray, regular: np.nd
     # distinct text is judged once, then spread back over the rows by its code
     t_codes, t_uni = pd.factorize(frame[columns["time"]].to_numpy())
     t_series = pd.Series(t_uni, dtype=object)
-    ok_u = t_series.str.fullmatch(_STRICT_TIME).to_numpy(dtype=bool, copy=True)
+    ok_u = _strict_time_mask(t_uni)
     when = pd.to_datetime(t_series.where(ok_u, "1970-01-01T00:00:00Z"), format="ISO8601", utc=True, errors="coerce")
     ok_u &= ~when.isna().to_numpy()
     ms_u = when.dt.tz_localize(None).to_numpy(dtype="datetime64[ms]").astype(np.int64)
