@@ -50,6 +50,19 @@ def _run(tmp_path: Path, name: str, demo_config: Path, jobs: int):
     return res, rows, seen
 
 
+@pytest.fixture(scope="module")
+def one_process(tmp_path_factory):
+    """The one-process replay of the demo nights, the reference of every comparison below: run
+    once for the module (it is deterministic; each test compares a run of its own against it)."""
+    from importlib import resources
+
+    folder = tmp_path_factory.mktemp("one-process")
+    config = folder / "demo-farm.toml"
+    config.write_text(resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8"),
+                      encoding="utf-8")
+    return _run(folder, "one", config, jobs=1)
+
+
 @pytest.fixture
 def one_night_runs(monkeypatch):
     monkeypatch.setattr(replay, "MIN_NIGHTS_PER_JOB", 1)
@@ -64,8 +77,8 @@ def test_runs_of_one_night_each_are_planned_on_the_demo_nights(demo_config):
     assert replay_parallel.plan_chunks(cfg, series, 2, 2, 8) is None  # too few nights: one process
 
 
-def test_two_processes_store_and_return_what_one_does(demo_config, tmp_path, one_night_runs):
-    one, rows_one, seen_one = _run(tmp_path, "one", demo_config, jobs=1)
+def test_two_processes_store_and_return_what_one_does(demo_config, tmp_path, one_night_runs, one_process):
+    one, rows_one, seen_one = one_process
     two, rows_two, seen_two = _run(tmp_path, "two", demo_config, jobs=2)
     assert len(rows_one["projections"]) > 1000 and any(r[4] >= 4 for r in rows_one["alerts"])  # real frost alerts
     for table in TABLES:
@@ -100,8 +113,8 @@ def test_runs_go_to_the_process_with_the_fewest_evaluations_so_far():
 
 @pytest.mark.parametrize("owners", [[1, 1, 0], [0, 0, 0], [1, 0, 1]])
 def test_runs_shared_unevenly_store_and_return_what_one_process_does(demo_config, tmp_path, one_night_runs,
-                                                                     monkeypatch, owners):
-    one, rows_one, seen_one = _run(tmp_path, "one", demo_config, jobs=1)
+                                                                     monkeypatch, owners, one_process):
+    one, rows_one, seen_one = one_process
     monkeypatch.setattr(replay_parallel, "share_runs", lambda costs, jobs: owners)
     two, rows_two, seen_two = _run(tmp_path, "two", demo_config, jobs=2)
     for table in TABLES:
