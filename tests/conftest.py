@@ -181,29 +181,44 @@ def replayed(tmp_path_factory):
     """replayed(config_text, logs, name="farm.toml") -> Replayed: the demo farm's and the scenario
     farms' nights are replayed by many test modules (alert wording, short forms, merged minutes, one
     message, the daemon's path); each (config, logs) once per session, with its night reports, in
-    a real process as a grower runs it. The acknowledgement codes in the alerts are random per run."""
+    a real process as a grower runs it. The acknowledgement codes in the alerts are random per run.
+    replayed.many([(config_text, logs, name), ...]) -> [Replayed, ...]: those not yet replayed run
+    side by side, as many at a time as there are cores (each replay is one process on one core)."""
     import json
     import sys
+    from concurrent.futures import ThreadPoolExecutor
 
     done: dict[tuple, Replayed] = {}
 
+    def key_of(config_text: str, logs: list[Path], name: str) -> tuple:
+        return (config_text, tuple(str(p) for p in logs), name)
+
+    def run(key: tuple, work: Path) -> Replayed:
+        config_text, logs, name = key
+        cfg = work / name
+        cfg.write_text(config_text, encoding="utf-8")
+        reports = work / "reports"
+        p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", *logs, "--config", str(cfg),
+                            "--json", "--report-dir", str(reports)], capture_output=True, text=True, timeout=900,
+                           cwd=work)
+        assert p.returncode == 0, p.stderr[-3000:]
+        json.loads(p.stdout)  # one document
+        return Replayed(cfg, reports, p.stdout)
+
+    def many(runs: list[tuple[str, list[Path], str]]) -> list[Replayed]:
+        keys = [key_of(*r) for r in runs]
+        todo = list(dict.fromkeys(k for k in keys if k not in done))
+        folders = [tmp_path_factory.mktemp("replayed") for _ in todo]
+        with ThreadPoolExecutor(max_workers=max(1, len(os.sched_getaffinity(0)))) as pool:
+            for key, got in zip(todo, pool.map(run, todo, folders), strict=True):
+                done[key] = got
+        return [done[k] for k in keys]
+
     def replay(config_text: str, logs: list[Path], name: str = "farm.toml") -> Replayed:
-        key = (config_text, tuple(str(p) for p in logs), name)
-        if key not in done:
-            work = tmp_path_factory.mktemp("replayed")
-            cfg = work / name
-            cfg.write_text(config_text, encoding="utf-8")
-            reports = work / "reports"
-            p = subprocess.run([sys.executable, "-m", "frostwatch", "replay", *map(str, logs), "--config", str(cfg),
-                                "--json", "--report-dir", str(reports)], capture_output=True, text=True, timeout=900,
-                               cwd=work)
-            assert p.returncode == 0, p.stderr[-3000:]
-            json.loads(p.stdout)  # one document
-            done[key] = Replayed(cfg, reports, p.stdout)
-        return done[key]
+        return many([(config_text, logs, name)])[0]
 
+    replay.many = many
     return replay
-
 
 
 @pytest.fixture(scope="session")
