@@ -162,11 +162,15 @@ class StatusPageProc:
     """`frostwatch status-page` in a subprocess on a free loopback port (stopped by its own pid).
     With `cache_s`, the page keeps a computed page that long instead of the shipped 20 s
     (frostwatch.status.server.CACHE_S), so a test that waits for the page to see a change waits
-    seconds, not the cache's 20."""
+    seconds, not the cache's 20. With `heartbeat_slack_s`, a heartbeat is current within two store
+    intervals and that much instead of the shipped 15 s (frostwatch.status.document.HEARTBEAT_SLACK_S,
+    its default checked in tests/test_status.py), so a test that kills the daemon waits for the page
+    to say so seconds, not the slack's 15."""
 
-    def __init__(self, config: Path, cache_s: float | None = None):
+    def __init__(self, config: Path, cache_s: float | None = None, heartbeat_slack_s: float | None = None):
         self.config = config
         self.cache_s = cache_s
+        self.heartbeat_slack_s = heartbeat_slack_s
         self.port = free_port()
         self.log = config.parent / "status-page.log"
         self.proc: subprocess.Popen | None = None
@@ -180,9 +184,15 @@ class StatusPageProc:
 
         f = self.log.open("ab")
         command = [sys.executable, "-m", "frostwatch"]
+        settings = []
         if self.cache_s is not None:
-            command = [sys.executable, "-c", "import sys\nimport frostwatch.status.server as s\n"
-                       f"s.CACHE_S = {float(self.cache_s)!r}\nfrom frostwatch.cli import main\nsys.exit(main(sys.argv[1:]))\n"]
+            settings.append(f"import frostwatch.status.server as s\ns.CACHE_S = {float(self.cache_s)!r}\n")
+        if self.heartbeat_slack_s is not None:
+            settings.append("import frostwatch.status.document as d\n"
+                            f"d.HEARTBEAT_SLACK_S = {float(self.heartbeat_slack_s)!r}\n")
+        if settings:
+            command = [sys.executable, "-c", "import sys\n" + "".join(settings)
+                       + "from frostwatch.cli import main\nsys.exit(main(sys.argv[1:]))\n"]
         self.proc = subprocess.Popen(
             [*command, "status-page", "--config", str(self.config), "--port", str(self.port)],
             stdout=f, stderr=subprocess.STDOUT, env=dict(os.environ, PYTHONUNBUFFERED="1"),
@@ -225,29 +235,28 @@ ARTIFACTS = Path(os.environ.get("FROSTWATCH_TEST_ARTIFACTS") or Path(__file__).r
 def chromium_page(url: str, workdir: Path, name: str, widths: tuple[int, ...] = (412, 1280),
                   height: int = 1800) -> tuple[str, list[Path]]:
     """Load `url` in headless Chromium (Debian's `chromium`): the DOM after load, and a screenshot
-    per width, copied to ARTIFACTS/status-page/NAME-WIDTH.png (kept after the test)."""
+    per width, copied to ARTIFACTS/status-page/NAME-WIDTH.png (kept after the test). The
+    screenshots and the DOM are taken by Chromiums started side by side (profiles of their own)."""
     import shutil
+
+    from side_by_side import run_side_by_side
 
     exe = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
     assert exe, "chromium is not installed; run the README's test command (bash tests/run), which installs it"
     out_dir = ARTIFACTS / "status-page"
     out_dir.mkdir(parents=True, exist_ok=True)
-    shots = []
     base = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars", "--no-first-run"]
-    for w in widths:
-        prof = workdir / f"chromium-{name}-{w}"
-        prof.mkdir(parents=True, exist_ok=True)
-        shot = workdir / f"{name}-{w}.png"
-        subprocess.run(base + [f"--user-data-dir={prof}", f"--window-size={w},{height}", f"--screenshot={shot}", url],
-                       check=True, capture_output=True, timeout=90)
+    shots = [workdir / f"{name}-{w}.png" for w in widths]
+    commands = [base + [f"--user-data-dir={workdir / f'chromium-{name}-{w}'}", f"--window-size={w},{height}",
+                        f"--screenshot={shot}", url] for w, shot in zip(widths, shots, strict=True)]
+    commands.append(base + [f"--user-data-dir={workdir / f'chromium-{name}-dom'}", f"--window-size={widths[0]},{height}",
+                            "--dump-dom", url])
+    *_, dom = run_side_by_side(commands, timeout_s=90)
+    for shot in shots:
         assert shot.exists() and shot.stat().st_size > 5000, f"no screenshot written for {url}"
         shutil.copyfile(shot, out_dir / shot.name)
-        shots.append(shot)
-    prof = workdir / f"chromium-{name}-dom"
-    prof.mkdir(parents=True, exist_ok=True)
-    dom = subprocess.run(base + [f"--user-data-dir={prof}", f"--window-size={widths[0]},{height}", "--dump-dom", url],
-                         check=True, capture_output=True, timeout=90, text=True).stdout
     return dom, shots
+
 
 
 def green_pixels(png: Path) -> int:

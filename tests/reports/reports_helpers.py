@@ -4,10 +4,10 @@ installs it where missing) and the demo logs' paths."""
 from __future__ import annotations
 
 import shutil
-import subprocess
 from pathlib import Path
 
 import pytest
+from side_by_side import run_side_by_side
 
 SAMPLE_LOGS = Path(__file__).resolve().parents[2] / "sample_sensor_logs"
 FROST_NIGHT = SAMPLE_LOGS / "2027-04-14-radiation-frost.csv"
@@ -28,15 +28,10 @@ def chromium(url: str, workdir: Path, shot_name: str, height: int = 915) -> str:
     exe = chromium_exe()
     base = [exe, "--headless", "--no-sandbox", "--disable-gpu", "--hide-scrollbars", "--no-first-run",
             f"--window-size=412,{height}"]
-    prof1, prof2 = workdir / "profile-shot", workdir / "profile-dom"
-    prof1.mkdir(parents=True, exist_ok=True)
-    prof2.mkdir(parents=True, exist_ok=True)
     shot = workdir / shot_name
-    subprocess.run(base + [f"--user-data-dir={prof1}", f"--screenshot={shot}", url],
-                   check=True, capture_output=True, timeout=90)
+    _, dom = run_side_by_side([base + [f"--user-data-dir={workdir / 'profile-shot'}", f"--screenshot={shot}", url],
+                               base + [f"--user-data-dir={workdir / 'profile-dom'}", "--dump-dom", url]], timeout_s=90)
     assert shot.exists() and shot.stat().st_size > 5000, f"no screenshot written for {url}"
-    dom = subprocess.run(base + [f"--user-data-dir={prof2}", "--dump-dom", url],
-                         check=True, capture_output=True, timeout=90, text=True).stdout
     return dom
 
 
@@ -93,12 +88,10 @@ def overflow_check(page_html: str, folder: Path, name: str, width: int, height: 
             "--allow-file-access-from-files", f"--window-size={max(width, 500)},{height}", "--virtual-time-budget=8000"]
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     shot = ARTIFACTS / f"{name}-{width}.png"
-    out = ""
-    for prof, extra in (("shot", [f"--screenshot={shot}"]), ("dom", ["--dump-dom"])):
-        d = folder / f"profile-{name}-{width}-{prof}"
-        d.mkdir(parents=True, exist_ok=True)
-        out = subprocess.run(base + [f"--user-data-dir={d}", *extra, harness.as_uri()], check=True,
-                             capture_output=True, timeout=120, text=True).stdout
+    _, out = run_side_by_side([base + [f"--user-data-dir={folder / f'profile-{name}-{width}-{prof}'}", *extra,
+                                       harness.as_uri()]
+                               for prof, extra in (("shot", [f"--screenshot={shot}"]), ("dom", ["--dump-dom"]))],
+                              timeout_s=120)
     assert shot.exists() and shot.stat().st_size > 5000, f"no screenshot of {name} at {width} px"
     m = re.search(r'<pre id="overflow-report" hidden="">(.+?)</pre>', out, re.S)
     assert m, f"the overflow probe did not report on {name}: {out[-500:]}"
