@@ -16,6 +16,7 @@ import time
 from importlib import resources
 from pathlib import Path
 
+import background
 import pytest
 from hypothesis import HealthCheck, settings
 
@@ -221,16 +222,29 @@ def replayed(tmp_path_factory):
     return replay
 
 
-@pytest.fixture(scope="session")
-def demo_printed(tmp_path_factory) -> subprocess.CompletedProcess:
-    """The README's first command, `frostwatch demo`, run once for the session as a new user runs
-    it: no config, no --out, in an empty folder that is also HOME (no broker, no network). Its
-    printed text is read by the CLI test (it names its report) and the message test (every
-    printed alert is consistent)."""
+@pytest.fixture(scope="session", autouse=True)
+def _background_jobs(request, tmp_path_factory):
+    """The slow set-ups the selected tests only read (the demo, the contract check, the trial
+    install), started in the background as the session starts (tests/background.py)."""
+    background.start(request.session.items, tmp_path_factory, dict(os.environ))
+    yield
+    background.stop()
+
+
+@background.job("demo_printed")
+def _run_demo(home: Path, env: dict) -> subprocess.CompletedProcess:
     import sys
 
-    home = tmp_path_factory.mktemp("demo-home")
-    p = subprocess.run([sys.executable, "-m", "frostwatch", "demo"], capture_output=True, text=True, cwd=home,
-                       env=dict(os.environ, HOME=str(home)), timeout=600)
+    return background.run([sys.executable, "-m", "frostwatch", "demo"], cwd=home, env=dict(env, HOME=str(home)),
+                          timeout=600)
+
+
+@pytest.fixture(scope="session")
+def demo_printed() -> subprocess.CompletedProcess:
+    """The README's first command, `frostwatch demo`, run once for the session as a new user runs
+    it: no config, no --out, in an empty folder that is also HOME (no broker, no network); in the
+    background from the session's start. Its printed text is read by the CLI test (it names its
+    report) and the message test (every printed alert is consistent)."""
+    p = background.result("demo_printed")
     assert p.returncode == 0, p.stderr[-3000:]
     return p

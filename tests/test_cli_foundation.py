@@ -8,6 +8,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import background
 import pytest
 
 from frostwatch.cli import main
@@ -96,9 +97,23 @@ def test_demo_needs_nothing_and_names_its_report(demo_printed):
     assert page.exists()
 
 
+@background.job("contract_checked")
+def _run_contract_check(folder: Path, env: dict) -> subprocess.CompletedProcess | None:
+    if not CONTRACT_CHECK.exists():
+        return None
+    exe = shutil.which("frostwatch", path=env.get("PATH")) or str(Path(sys.executable).parent / "frostwatch")
+    return background.run([sys.executable, str(CONTRACT_CHECK), exe], cwd=folder, env=env, timeout=600)
+
+
+@pytest.fixture(scope="module")
+def contract_checked() -> subprocess.CompletedProcess | None:
+    """The shared contract checker run on the installed command, in the background from the
+    session's start (tests/background.py); None where the checker is not beside this checkout."""
+    return background.result("contract_checked")
+
+
 @pytest.mark.skipif(not CONTRACT_CHECK.exists(), reason="the shared contract checker is not beside this checkout")
-def test_shared_contract_check_passes(tmp_path):
-    exe = shutil.which("frostwatch") or str(Path(sys.executable).parent / "frostwatch")
-    p = subprocess.run([sys.executable, str(CONTRACT_CHECK), exe], capture_output=True, text=True, timeout=600, cwd=tmp_path)
+def test_shared_contract_check_passes(contract_checked):
+    p = contract_checked
     assert p.returncode == 0, p.stdout + p.stderr
     assert "contract shape ok" in p.stdout

@@ -6,7 +6,6 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import re
 import shutil
 import subprocess
@@ -14,6 +13,7 @@ import sys
 import tomllib
 from pathlib import Path
 
+import background
 import pytest
 
 from frostwatch.cli import build_parser
@@ -62,12 +62,26 @@ def test_calc_alone_lists_every_calculator(tmp_path):
     assert "10 % and 90 %" in p.stdout and "calc WHAT --help" in p.stdout
 
 
-def test_demo_json_is_one_document_and_names_the_command_as_installed(tmp_path):
+@background.job("demo_json")
+def _run_demo_json(home: Path, env: dict) -> tuple[dict, subprocess.CompletedProcess]:
+    env = dict(env, PATH="/usr/bin:/bin", HOME=str(home))
+    return env, background.run([str(SCRIPT), "demo", "--json", "--out", str(home / "demo")], cwd=home, env=env,
+                               timeout=300)
+
+
+@pytest.fixture(scope="module")
+def demo_json() -> tuple[dict, subprocess.CompletedProcess]:
+    """`frostwatch demo --json --out DIR` by the installed script, with only /usr/bin and /bin on
+    PATH, in an empty folder that is also HOME; run in the background from the session's start
+    (tests/background.py)."""
+    return background.result("demo_json")
+
+
+def test_demo_json_is_one_document_and_names_the_command_as_installed(demo_json):
     """After the README's install, frostwatch is .venv/bin/frostwatch and not on PATH: the demo's
     "try next" names it by that path."""
-    env = dict(os.environ, PATH="/usr/bin:/bin", HOME=str(tmp_path))
+    env, p = demo_json
     assert shutil.which("frostwatch", path=env["PATH"]) is None
-    p = _cli("demo", "--json", "--out", str(tmp_path / "demo"), cwd=tmp_path, env=env)
     assert p.returncode == 0, p.stderr
     doc = json.loads(p.stdout)  # the whole of stdout is one JSON document
     assert {"demo", "alerts", "projections", "nights", "readings", "reports"} <= set(doc)

@@ -13,6 +13,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import background
 import pytest
 
 pytestmark = pytest.mark.slow
@@ -21,39 +22,45 @@ REPO = Path(__file__).resolve().parent.parent
 USER = "fw-trial"  # made inside the root only; never on this machine
 
 
-def _wheel(tmp: Path) -> Path:
+def _wheel(tmp: Path, env: dict) -> Path:
     """The wheel tests/run built (FROSTWATCH_WHEEL), or one built here from a clean copy."""
-    given = os.environ.get("FROSTWATCH_WHEEL")
+    given = env.get("FROSTWATCH_WHEEL")
     if given:
         return Path(given)
     src = tmp / "src"
     shutil.copytree(REPO, src, ignore=shutil.ignore_patterns(".git", ".venv*", "build", "dist", "*.egg-info",
                                                              "__pycache__", ".pytest_cache", ".hypothesis"))
-    subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w", str(tmp / "wheel"), str(src)],
-                   check=True, capture_output=True, timeout=600)
+    p = background.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w", str(tmp / "wheel"), str(src)],
+                       env=env, cwd=tmp, timeout=600)
+    assert p.returncode == 0, p.stderr
     return next((tmp / "wheel").glob("frostwatch-*.whl"))
 
 
-def _install(root: Path, config: Path, user: str, wheel: Path) -> subprocess.CompletedProcess:
-    return subprocess.run(
-        ["bash", str(REPO / "deploy" / "install.sh"), "--root", str(root), "--user", user, "--config", str(config),
-         "--wheel", str(wheel), "--skip", "apt,systemctl"],
-        capture_output=True, text=True, timeout=900,
-    )
+def _install_args(root: Path, config: Path, user: str, wheel: Path) -> list[str]:
+    return ["bash", str(REPO / "deploy" / "install.sh"), "--root", str(root), "--user", user, "--config", str(config),
+            "--wheel", str(wheel), "--skip", "apt,systemctl"]
 
 
-@pytest.fixture(scope="module")
-def trial(tmp_path_factory):
-    tmp = tmp_path_factory.mktemp("deploy")
+@background.job("trial")
+def _trial_install(tmp: Path, env: dict) -> dict:
+    """install.sh into a fresh trial root, in the background from the session's start
+    (tests/background.py): a new virtual environment with every dependency takes half a minute."""
     root = tmp / "root"
     config = root / "etc" / "fw-trial" / "farm.toml"
     # only root can make a user, even inside the trial root; anyone else installs as themselves
     user = USER if os.geteuid() == 0 else pwd.getpwuid(os.geteuid()).pw_name
-    wheel = _wheel(tmp)
-    p = _install(root, config, user, wheel)
+    wheel = _wheel(tmp, env)
+    p = background.run(_install_args(root, config, user, wheel), env=env, cwd=REPO, timeout=900)
+    return {"root": root, "config": config, "user": user, "wheel": wheel, "run": p}
+
+
+@pytest.fixture(scope="module")
+def trial():
+    t = background.result("trial")
+    p = t["run"]
     print(p.stdout)  # which steps ran and which were skipped, in the test's output
     assert p.returncode == 0, f"install.sh failed ({p.returncode}):\n{p.stdout}\n{p.stderr}"
-    return {"root": root, "config": config, "user": user, "wheel": wheel, "out": p.stdout}
+    return {"root": t["root"], "config": t["config"], "user": t["user"], "wheel": t["wheel"], "out": p.stdout}
 
 
 def _summary(out: str) -> tuple[list[str], dict[str, str]]:
@@ -138,7 +145,8 @@ def test_install_sh_again_upgrades_in_place_keeping_config_password_and_store(tr
     password = cred.read_bytes()
     store = root / "var/lib/frostwatch/frostwatch.db"
     store.write_bytes(b"not touched by install.sh")
-    p = _install(root, config, trial["user"], trial["wheel"])
+    p = subprocess.run(_install_args(root, config, trial["user"], trial["wheel"]), capture_output=True, text=True,
+                       timeout=900)
     assert p.returncode == 0, p.stderr
     assert f"{config} exists: kept as it is" in p.stdout
     assert config.read_text(encoding="utf-8") == edited

@@ -4,13 +4,13 @@ of its store per module."""
 from __future__ import annotations
 
 import shutil
+import sys
 from importlib import resources
 from pathlib import Path
 
+import background
 import pytest
 from reports_helpers import ALL_NIGHTS, FROST_NIGHT
-
-from frostwatch.cli import main
 
 
 def _demo_config(folder: Path) -> Path:
@@ -21,15 +21,26 @@ def _demo_config(folder: Path) -> Path:
     return p
 
 
+@background.job("_replayed_stores")
+def _replay_stores(folder: Path, env: dict) -> dict[str, Path]:
+    """The frost night and the three demo nights, each replayed by `frostwatch replay` into a
+    folder of its own (the config beside its store), in the background from the session's start
+    (tests/background.py)."""
+    out = {}
+    for name, logs in (("frost", [FROST_NIGHT]), ("season", ALL_NIGHTS)):
+        cfg = _demo_config(folder / f"{name}-template")
+        p = background.run([sys.executable, "-m", "frostwatch", "replay", *map(str, logs), "--config", str(cfg),
+                            "--no-report"], env=env, cwd=folder, timeout=900)
+        assert p.returncode == 0, p.stderr[-3000:]
+        out[name] = cfg
+    return out
+
+
 @pytest.fixture(scope="session")
-def _replayed_stores(tmp_path_factory) -> dict[str, Path]:
-    """The frost night and the three demo nights, each replayed once per session into a folder of
-    its own (the config beside its store); the modules below get copies."""
-    frost = _demo_config(tmp_path_factory.mktemp("frost-night-template"))
-    assert main(["replay", str(FROST_NIGHT), "--config", str(frost), "--no-report"]) == 0
-    season = _demo_config(tmp_path_factory.mktemp("season-template"))
-    assert main(["replay", *map(str, ALL_NIGHTS), "--config", str(season), "--no-report"]) == 0
-    return {"frost": frost, "season": season}
+def _replayed_stores() -> dict[str, Path]:
+    """The frost night and the three demo nights, each replayed once per session; the modules
+    below get copies."""
+    return background.result("_replayed_stores")
 
 
 def _copy_of(cfg: Path, folder: Path) -> Path:
