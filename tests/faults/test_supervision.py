@@ -138,7 +138,7 @@ def _jsonl(path: Path) -> list[dict]:
 
 
 def test_evaluation_overrun_is_coalesced_not_piled_up(tmp_path, mosquitto):
-    """Pass: with a 3 s evaluation interval and one evaluation that takes 2 x interval, runs never
+    """Pass: with a 1.5 s evaluation interval and one evaluation that takes 2 x interval, runs never
     overlap; the ticks that fell due while it ran were skipped (logged as a scheduler warning and
     recorded in the store's events, kind "daemon", naming the overrun), each while a run was in
     progress, and none of them ran afterwards (no catch-up); each run is for one tick (coalesced,
@@ -146,9 +146,9 @@ def test_evaluation_overrun_is_coalesced_not_piled_up(tmp_path, mosquitto):
     either run or skipped, so evaluations carried on at the cadence. Checked on the ticks'
     scheduled times, which are the trigger's and do not depend on how loaded the machine is;
     nothing here bounds a wall-clock duration (this 2-core machine runs other suites at once)."""
-    interval = 3.0
+    interval = 1.5
     runs_log, sched_log = tmp_path / "runs.jsonl", tmp_path / "sched.jsonl"
-    cfg = write_config(tmp_path, mosquitto.port, daemon="night_interval_min = 0.05\nday_interval_min = 0.05\n")
+    cfg = write_config(tmp_path, mosquitto.port, daemon=f"night_interval_min = {interval / 60}\nday_interval_min = {interval / 60}\n")
     d = DaemonProc(cfg, SLOW_EVAL, {"FAULT_LOG": str(runs_log), "FAULT_SCHED": str(sched_log),
                                     "FAULT_SLEEP_S": str(2 * interval)})
     d.start()
