@@ -160,6 +160,23 @@ def make_broker(tmp_path: Path):
         b.kill()
 
 
+@pytest.fixture(scope="session")
+def demo_decisions() -> list:
+    """Every decision of the demo farm's three nights, from one in-process walk-forward
+    (pipeline.run_replay over the logs' series) for the session: the codec tests
+    (tests/test_evaluation_speedups.py, tests/test_replay_speedups.py) encode each of them. Frozen
+    dataclasses, in a tuple: read them, never change them."""
+    from frostwatch import pipeline
+    from frostwatch.commands.logs import _series_from_readings
+    from frostwatch.config import load_config
+    from frostwatch.ingest.csvlog import read_sensor_log
+
+    with resources.as_file(resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml")) as path:
+        cfg = load_config(str(path))
+    readings = [r for n in DEMO_NIGHTS for r in read_sensor_log(SAMPLE_LOGS / n, {s.id for s in cfg.stations})[0]]
+    return tuple(d for ev in pipeline.run_replay(cfg, _series_from_readings(readings)) for d in ev.decisions)
+
+
 # ---- one real `frostwatch replay --json` per farm and logs, for the whole session -----------------
 
 

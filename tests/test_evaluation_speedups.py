@@ -129,22 +129,15 @@ def _plain_to_dict(obj, drop_none=False):
     return obj
 
 
-def test_stored_decisions_encode_as_the_plain_recursive_codec(demo_config, demo_logs):
+def test_stored_decisions_encode_as_the_plain_recursive_codec(demo_decisions):
     """Every decision and projection of the demo's three nights (plans, verdicts, enums, instants,
-    NaN, tuples, dicts) encodes exactly as a plain recursive encoder would, with and without
-    the fields that are None."""
+    NaN, tuples, dicts; the session's one walk-forward, tests/conftest.py) encodes exactly as a
+    plain recursive encoder would, with and without the fields that are None."""
     import enum
 
-    from frostwatch import pipeline
     from frostwatch.advice.codec import to_dict
-    from frostwatch.commands.logs import _series_from_readings
-    from frostwatch.config import load_config
-    from frostwatch.ingest.csvlog import read_sensor_log
 
-    cfg = load_config(str(demo_config))
-    readings = [r for log in demo_logs for r in read_sensor_log(log, {s.id for s in cfg.stations})[0]]
-    evs = pipeline.run_replay(cfg, _series_from_readings(readings))
-    decisions = [d for ev in evs for d in ev.decisions]
+    decisions = demo_decisions
     assert len(decisions) > 1000
     for d in decisions[::7]:
         for drop in (True, False):

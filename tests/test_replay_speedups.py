@@ -292,15 +292,14 @@ def _plain_json(obj, drop_none: bool) -> str:
     return json.dumps(codec.to_dict(obj, drop_none), separators=(",", ":"), allow_nan=False)
 
 
-def test_the_decision_written_straight_to_json_is_json_dumps_of_its_dict(demo_config, demo_logs):
+def test_the_decision_written_straight_to_json_is_json_dumps_of_its_dict(demo_decisions):
     """`codec.to_json` (every stored decision's text) is json.dumps of `to_dict`, byte for byte,
-    for every decision of the demo's nights, with and without the None fields."""
-    from frostwatch import pipeline
+    for every decision of the demo's nights (the session's one walk-forward, tests/conftest.py),
+    with and without the None fields."""
     from frostwatch.advice import codec
     from frostwatch.decision import decision_to_doc, decision_to_json
 
-    cfg, series = _demo_series(demo_config, demo_logs)
-    decisions = [d for ev in pipeline.run_replay(cfg, series) for d in ev.decisions]
+    decisions = demo_decisions
     assert len(decisions) > 1000
     for d in decisions:
         assert decision_to_json(d) == _plain_json(d, True)
