@@ -15,7 +15,7 @@ import numpy as np
 
 from frostwatch.config import Block, Config
 from frostwatch.decision import Monitoring, MonitorReason
-from frostwatch.forecast import Series, station_state, usual_interval_s
+from frostwatch.forecast import Series, carry, usual_interval_s
 from frostwatch.units import QUANTITIES
 
 
@@ -29,8 +29,12 @@ def _utc_ms(t_s: float) -> dt.datetime:
     return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
 
 
-def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float) -> Monitoring:
-    """The monitoring state of `block` at `now_s` from tonight's readings window.
+_NO_TIMES = np.empty(0)
+
+
+def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float, memo: dict | None = None) -> Monitoring:
+    """The monitoring state of `block` at `now_s` from tonight's readings window (`memo`: a
+    replay's `pipeline.WindowMemo` values, handed to `forecast.station_state`).
 
     Returns
     -------
@@ -44,13 +48,26 @@ def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float) ->
     if not crop:
         return Monitoring(False, MonitorReason.NO_CROP_SENSOR, ids)
     stale = cfg.forecast.stale_after_intervals
+    states = tuple(carry.station_state(st, series, now_s, stale, memo) for st in crop)
+    if memo is not None:
+        # a monitored block's state reads `now` only through its stations' states: the same
+        # states (carried, `forecast.carry`) in the same window give the same Monitoring
+        kept = memo.get(("monitoring", block.id))
+        if kept is not None and all(a is b for a, b in zip(kept[0], states, strict=True)):
+            return kept[1]
+    mon = _monitoring(crop, ids, states, series, now_s, stale)
+    if memo is not None and mon.monitored:
+        memo[("monitoring", block.id)] = (states, mon)
+    return mon
+
+
+def _monitoring(crop, ids, states, series: Series, now_s: float, stale: float) -> Monitoring:
     last: float | None = None
     fresh_until: float | None = None
     healthy = False
     any_silent = False
-    for st in crop:
-        state = station_state(st, series, now_s, stale)
-        t = series.get((st.id, "air_temperature"), (np.empty(0), np.empty(0)))[0]
+    for st, state in zip(crop, states, strict=True):
+        t = series.get((st.id, "air_temperature"), (_NO_TIMES,))[0]
         t = t[:int(t.searchsorted(now_s, side="right"))]  # sorted: a view up to now
         if len(t) == 0:
             continue

@@ -200,7 +200,7 @@ class Evaluator:
             ref_kw = self.reference_inputs(block, window, night, now_s)
             plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running,
                                **ref_kw)
-            mon = block_monitoring(self.cfg, block, window, now_s)
+            mon = block_monitoring(self.cfg, block, window, now_s, memo)
             state = self.states.get(block.id)
             if state is None:
                 state = BlockAlertState()

@@ -242,6 +242,10 @@ def _sequence_text(obj, drop_none: bool) -> str:
             return "[" + ",".join(map(_float_repr, obj)) + "]"
         if kind is dt.datetime:
             return "[" + ",".join(map(_iso_utc_json, obj)) + "]"
+        if kind is str:  # notes
+            return "[" + ",".join(map(_esc, obj)) + "]"
+        if issubclass(kind, enum.Enum):  # cautions, alternatives: each by its value, as to_json has it
+            return "[" + ",".join([_value_text(x.value, drop_none) for x in obj]) + "]"
     return "[" + ",".join([_value_text(x, drop_none) for x in obj]) + "]"
 
 

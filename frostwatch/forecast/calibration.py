@@ -330,12 +330,13 @@ class Calibration:
 
     def nowcast_drop_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float,
-        lead: bool = True, dusk_min_c: float | None = None, approach: bool = True,
+        lead: bool = True, dusk_min_c: float | None = None, approach: bool = True, blend: tuple | None = None,
     ) -> tuple[float, str]:
         """The blended fall still to come (<= 0) and which methods spoke; with `lead`, the approach
         correction (`NOWCAST_LEAD_CORRECTION`) applied, and with `approach` too, the approach blend
-        (`NOWCAST_APPROACH_BLEND`)."""
-        drop, spoke = self._nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
+        (`NOWCAST_APPROACH_BLEND`). `blend`: `_nowcast_blend_c` of these arguments, when the caller
+        has it (`lead=False` gives it alone)."""
+        drop, spoke = blend or self._nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
         if lead and NOWCAST_LEAD_CORRECTION and self.nc_lead and self.cold_night(dusk_min_c):
             offset, ratio = self.nc_lead[nowcast_bin(hours_left)]
             if offset != 0.0 or ratio != 1.0:

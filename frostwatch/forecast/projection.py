@@ -25,6 +25,7 @@ import numpy as np
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
 from frostwatch.forecast import calibration as settings
+from frostwatch.forecast import carry
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import Calibration, NightRecord, feature_vector
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
@@ -46,9 +47,7 @@ from frostwatch.forecast.sensors import (
     cloud_frac_now,
     dew_point_of,
     dusk_inputs,
-    mean_as_of,
     speaking_station,
-    station_state,
 )
 from frostwatch.models import Projection
 from frostwatch.night import Night
@@ -90,6 +89,20 @@ def prime_priors(inputs: list[tuple[float, ...]]) -> None:
     values = clear_night_prior.clear_night_minimum_prior_c(*np.array(keys, dtype=float).T)
     _PRIMED.clear()
     _PRIMED.update(zip(keys, values.tolist(), strict=True))
+
+
+def _round2(x: float) -> float:
+    """`round(x, 2)` as a float: a float rounded as Python rounds it, numpy's float64 (the band's
+    offsets are) as numpy rounds it (x * 100 to the nearest integer, halves to even, / 100), the
+    same value as `round(np.float64(x), 2)` gives without numpy's scalar round (a few
+    microseconds each) and without numpy's type in the stored values."""
+    if type(x) is float:
+        return round(x, 2)
+    y = float(x) * 100.0
+    if not math.isfinite(y):
+        return float(np.round(x, 2))
+    k = round(y)  # an int, halves to even as np.rint
+    return math.copysign(0.0, y) if k == 0 else k / 100.0
 
 
 def _learning_note(cal: Calibration) -> str | None:
@@ -173,8 +186,8 @@ def project_block(
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     stations = cfg.stations_of(block.id)
     site_stations = [s for s in cfg.stations if s.block is None]
-    states = [station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in stations]
-    site_states = [station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in site_stations]
+    states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in stations]
+    site_states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in site_stations]
     notes = [p for s in states for p in s.problems]
     speaker = speaking_station(states)
     base = dict(time_utc=now_utc, block=block.id, sunset_utc=night.sunset_utc, sunrise_utc=night.sunrise_utc)
@@ -191,16 +204,17 @@ def project_block(
     td_c = dew_point_of(speaker, [s for s in states if s is not speaker] + site_states)
     if td_c is not None:
         td_c = min(td_c, air_c)
-    wind = mean_as_of(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S)
+    wind = carry.mean_as_of(series, [s.id for s in stations + site_stations], "wind_speed", now_s, INPUT_WINDOW_S, memo)
     wind_from_farm = False
     if wind is None:
         # no anemometer in the block or site-wide: the farm's wind is better than none
         others = [s.id for s in cfg.stations if s.block not in (block.id, None)]
-        wind = mean_as_of(series, others, "wind_speed", now_s, INPUT_WINDOW_S)
+        wind = carry.mean_as_of(series, others, "wind_speed", now_s, INPUT_WINDOW_S, memo)
         if wind is not None:
             wind_from_farm = True
             notes.append("no wind sensor in this block: wind from the farm's other sensors")
-    cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c)
+    cloud = cloud_frac_now(series, cfg, now_s, air_c, td_c,
+                           None if memo is None else functools.partial(carry.mean_as_of, memo=memo))
     if cloud is None:
         notes.append("no sky or cloud sensor: clear sky assumed")
     regime = "radiation"
@@ -253,13 +267,14 @@ def project_block(
         if f is not None:
             latest_c, feats = f
             dusk_drop = b_dusk * (math.sqrt(h_from_t0) - e_now)
-            drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, dusk_min_c=tp_dusk)
+            blend = cal._nowcast_blend_c(feats, hours_left, dusk_drop, e_now * e_now)  # the fall before the corrections
+            drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, dusk_min_c=tp_dusk, blend=blend)
             tp_c = latest_c + drop
             lo_off, hi_off, _ = cal.nowcast_band(hours_left)
             method = f"nowcast ({spoke})"
             if settings.NOWCAST_LEAD_CORRECTION and settings.LEAD_BAND_RAW and cal.nc_lead:
                 # the band is the blend's own (its walk-forward residuals): around the blend before the correction
-                band_at_c = latest_c + cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, lead=False)[0]
+                band_at_c = latest_c + blend[0]  # nowcast_drop_c(..., lead=False)
     tp_c = min(tp_c, anchor_c)
     band_at_c = tp_c if band_at_c is None else min(band_at_c, anchor_c)
 
@@ -309,7 +324,7 @@ def project_block(
         # are not all read for every block)
         for st in cfg.stations:
             if st.role == "tower" and st.id not in tower_states:
-                tower_states[st.id] = station_state(st, series, now_s, fc.stale_after_intervals, memo)
+                tower_states[st.id] = carry.station_state(st, series, now_s, fc.stale_after_intervals, memo)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     outlook = inv.inversion_outlook(
         tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s,
@@ -338,7 +353,7 @@ def project_block(
         wet_bulb_c=wet_c,
         predicted_min_c=round(tmin_c, 2),
         predicted_min_at_utc=tmin_at,
-        band_c=round(max(0.0, tmin_c - band_low_c), 2) if projecting else 0.0,
+        band_c=_round2(max(0.0, tmin_c - band_low_c)) if projecting else 0.0,
         crossings_utc=crossings,
         inversion_c=None if inv_c is None else round(inv_c, 2),
         projected_inversion_c=None if proj_inv_c is None else round(proj_inv_c, 2),
@@ -349,8 +364,8 @@ def project_block(
         notes=tuple(notes),
         curve_time_utc=grid_utc(grid_s, step, GRID_STEP_S) if drawn else (),
         curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if drawn else (),
-        band_low_c=round(min(band_low_c, tmin_c), 2),
-        band_high_c=round(max(band_high_c, tmin_c), 2),
+        band_low_c=_round2(min(band_low_c, tmin_c)),
+        band_high_c=_round2(max(band_high_c, tmin_c)),
         curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if drawn else (),
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,

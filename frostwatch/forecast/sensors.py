@@ -258,12 +258,15 @@ def window_stat(series: Series, stations: list[str], quantity: str, start_s: flo
     return float(stat(vals)) if vals else None
 
 
-def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None) -> float | None:
-    """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists."""
-    measured = mean_as_of(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", now_s, INPUT_WINDOW_S)
+def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float, dew_point_c: float | None,
+                   mean=None) -> float | None:
+    """Cloud fraction from a cloud sensor, or from an infrared sky sensor; None when neither exists.
+    `mean`: `mean_as_of` or one with its arguments (`forecast.carry.mean_as_of` with a memo)."""
+    mean = mean or mean_as_of
+    measured = mean(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", now_s, INPUT_WINDOW_S)
     if measured is not None:
         return measured
-    sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
+    sky = mean(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
     if sky is None or dew_point_c is None:
         return None
     from frostwatch.physics import cloud_cover
