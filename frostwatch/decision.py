@@ -23,7 +23,7 @@ from frostwatch.models import Projection
 
 DECISION_VERSION = 1
 CURVE_STEP_S = 1800.0  # the stored projected curve keeps one point per half hour (SD-card wear)
-_CURVE_STEP = dt.timedelta(seconds=CURVE_STEP_S)  # compared as a timedelta: exactly total_seconds() >= CURVE_STEP_S
+_CURVE_STEP = dt.timedelta(seconds=CURVE_STEP_S)  # whole microseconds: t >= last + step exactly when t - last >= step
 
 
 class MonitorReason(StrEnum):
@@ -87,12 +87,12 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
         lo = p.predicted_min_c - band if lo is None else lo
         hi = p.predicted_min_c + band if hi is None else hi
     times, temps = [], []
-    last = None
+    due = None  # the next point kept is the first at or past this (t - last >= step, without a timedelta per point)
     for t, c in zip(p.curve_time_utc, p.curve_air_temp_c, strict=False):
-        if last is None or t - last >= _CURVE_STEP:
+        if due is None or t >= due:
             times.append(t)
             temps.append(round(float(c), 2))
-            last = t
+            due = t + _CURVE_STEP
     if p.curve_time_utc and (not times or times[-1] != p.curve_time_utc[-1]):
         times.append(p.curve_time_utc[-1])
         temps.append(round(float(p.curve_air_temp_c[-1]), 2))

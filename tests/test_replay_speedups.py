@@ -367,3 +367,36 @@ def test_the_curves_instants_added_as_timedeltas_are_the_instants_converted_one_
             got, want = grid_utc(grid_s, step, 300.0), utc_seconds(grid_s[::step].tolist())
             assert got == want and all(g.tzinfo is w.tzinfo for g, w in zip(got, want, strict=True))
 
+
+
+@settings(max_examples=200, deadline=None)
+@given(start_s=st.floats(8e8, 2e9), gaps_s=st.lists(st.sampled_from([0.000001, 1.0, 299.999999, 300.0, 900.0, 1799.0, 1800.0,
+                                                                       1800.000001, 2400.0, 3600.0]), max_size=60),
+       offset_h=st.sampled_from([0, -5, 2]))
+def test_the_stored_curve_thinned_by_due_instants_keeps_the_points_the_timedelta_loop_kept(start_s, gaps_s, offset_h):
+    """`decision.summarise_projection` keeps the first point at or past the last kept one + 30
+    min (no timedelta made per point): the same points as keeping each whose distance from the
+    last kept one is at least 30 min, for gaps around the step, microseconds either side, and
+    instants in a zone other than UTC."""
+    from frostwatch.decision import CURVE_STEP_S, summarise_projection
+    from frostwatch.models import Projection
+
+    tz = dt.timezone(dt.timedelta(hours=offset_h))
+    times = [dt.datetime.fromtimestamp(start_s, tz)]
+    for g in gaps_s:
+        times.append(times[-1] + dt.timedelta(seconds=g))
+    temps = [float(i) / 7.0 for i in range(len(times))]
+    p = Projection(time_utc=times[0], block="b", sunset_utc=times[0], sunrise_utc=times[-1], station="s",
+                   air_temp_c=1.0, dew_point_c=None, wet_bulb_c=None, predicted_min_c=0.5, predicted_min_at_utc=None,
+                   band_c=0.3, crossings_utc={}, inversion_c=None, projected_inversion_c=None, inversion_class=None,
+                   wind_speed_m_s=None, regime="radiation", method="m", notes=(), curve_time_utc=tuple(times),
+                   curve_air_temp_c=tuple(temps))
+    kept, last = [], None
+    for t, c in zip(times, temps, strict=True):
+        if last is None or t - last >= dt.timedelta(seconds=CURVE_STEP_S):
+            kept.append((t, round(c, 2)))
+            last = t
+    if times and kept[-1][0] != times[-1]:
+        kept.append((times[-1], round(temps[-1], 2)))
+    s = summarise_projection(p)
+    assert list(zip(s.curve_time_utc, s.curve_air_temp_c, strict=True)) == kept

@@ -20,20 +20,22 @@ STEP_S = 120.0  # the daemon's cadence at night
 
 
 def _faulty_series(interval_s: float, seed: int) -> dict:
-    """A crop sensor and a tower every `interval_s` for 12 h with a silence of 2.5 h, a stuck
-    hour and a half, and wind from a second station that skips readings (the last hour's mean
-    then falls back on an older one)."""
+    """A crop sensor and a tower every `interval_s` for 12 h: the whole logger down 2.5 h (one
+    window in which the sensors go from healthy to silent), the crop sensor stuck an hour and a
+    half and then silent alone 2.5 h, and wind from a second station that skips readings (the
+    last hour's mean then falls back on an older one)."""
     rng = np.random.default_rng(seed)
     t = T0_S + np.arange(0.0, 12 * 3600.0, interval_s)
     air = 8.0 - np.cumsum(rng.normal(0.05, 0.1, len(t)))
-    silent = (t > T0_S + 3 * 3600) & (t < T0_S + 5.5 * 3600)
-    stuck = (t >= T0_S + 7 * 3600) & (t < T0_S + 8.5 * 3600)
+    down = (t > T0_S + 3 * 3600) & (t < T0_S + 5.5 * 3600)  # the whole logger down: one window for hours
+    silent = (t > T0_S + 8.5 * 3600) & (t < T0_S + 11 * 3600)  # the crop sensor alone
+    stuck = (t >= T0_S + 6 * 3600) & (t < T0_S + 7.5 * 3600)
     air[stuck] = 4.2
-    tw = t[~silent]
-    wind_t = t[rng.random(len(t)) > 0.5]
+    tw = t[~down & ~silent]
+    wind_t = t[~down & (rng.random(len(t)) > 0.5)]
     return {
-        ("crop-a", "air_temperature"): (tw, air[~silent]),
-        ("tower-a", "air_temperature"): (t, air + 1.5),
+        ("crop-a", "air_temperature"): (tw, air[~down & ~silent]),
+        ("tower-a", "air_temperature"): (t[~down], air[~down] + 1.5),
         ("mast", "wind_speed"): (wind_t, rng.uniform(0.0, 4.0, len(wind_t))),
         ("crop-a", "wind_speed"): (tw[::3], rng.uniform(0.0, 3.0, len(tw[::3]))),
     }
