@@ -147,3 +147,22 @@ def test_a_replay_with_silent_and_stuck_sensors_decides_as_the_daemons_path(demo
             assert a.projections == b.projections and a.decisions == b.decisions and a.alerts == b.alerts, now
             reasons |= {d.monitoring.reason.value for d in a.decisions}
     assert {"ok", "silent"} <= reasons
+
+
+@pytest.mark.parametrize("interval_s", [300.0, 3600.0])
+def test_the_evening_slope_kept_for_a_cut_gives_the_curve_made_afresh(interval_s):
+    """Before dusk the evening curve's slope is kept per cut of the readings (`memo`): at every
+    instant the curve is the one worked out without it, as new readings come."""
+    from frostwatch.forecast.curves import evening_curve_c
+
+    t, v = _faulty_series(interval_s, seed=11)[("crop-a", "air_temperature")]
+    sunset_s, sunrise_s = T0_S + 1800.0, T0_S + 12 * 3600.0
+    memo: dict = {}
+    seen = set()
+    for now_s in np.arange(T0_S, T0_S + 4 * 3600.0, STEP_S):
+        upto = t <= now_s
+        got = evening_curve_c(t[upto], v[upto], sunset_s, float(now_s), 7.0, sunrise_s, memo)
+        want = evening_curve_c(t[upto], v[upto], sunset_s, float(now_s), 7.0, sunrise_s)
+        assert got == want or (got is None and want is None), now_s
+        seen.add(got is None)
+    assert seen == {True, False}

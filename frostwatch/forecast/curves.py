@@ -69,24 +69,40 @@ def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -
     return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
 
 
-def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float) -> float | None:
+def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float,
+                    memo: dict | None = None) -> float | None:
     """Tonight's evening cooling carried to sunrise: T = a + b sqrt(t - sunset) fitted by least
     squares to the readings from an hour before sunset to t0 (time before sunset counts as 0),
     b <= 0, and the fall b (sqrt(sunrise - sunset) - sqrt(t0 - sunset)) added to T0. Reuter's
     curve from the evening itself, known at dusk before any past night; None with fewer than 3
-    readings."""
+    readings. `memo`: a replay's window memo (`pipeline.WindowMemo`, one fixed set of readings),
+    which keeps the slope b of each cut of the readings (the same readings give the same b)."""
     i0 = int(np.searchsorted(t_s, sunset_s - EVENING_FROM_S, side="left"))
     i1 = int(np.searchsorted(t_s, t0_s, side="right"))
     if i1 - i0 < 3:
         return None
-    x = np.sqrt(np.maximum(0.0, (t_s[i0:i1] - sunset_s) / 3600.0))
-    y = v_c[i0:i1]
+    key = ("evening slope", sunset_s, i0, i1)
+    b = _NO_SLOPE if memo is None else memo.get(key, _NO_SLOPE)
+    if b is _NO_SLOPE:
+        b = _evening_slope(t_s[i0:i1], v_c[i0:i1], sunset_s)
+        if memo is not None:
+            memo[key] = b
+    if b is None:
+        return None
+    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
+
+
+_NO_SLOPE = object()
+
+
+def _evening_slope(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float) -> float | None:
+    """b of T = a + b sqrt(t - sunset) by least squares (b <= 0); None when the times do not spread."""
+    x = np.sqrt(np.maximum(0.0, (t_s - sunset_s) / 3600.0))
     xm = x.mean()
     den = float(np.sum((x - xm) ** 2))
     if den <= 1e-9:
         return None
-    b = min(0.0, float(np.sum((x - xm) * (y - y.mean())) / den))
-    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
+    return min(0.0, float(np.sum((x - xm) * (v_c - v_c.mean())) / den))
 
 
 def sqrt_curve_c(target_c: float, anchor_c: float, e_grid: np.ndarray, e_now: float, span: float) -> np.ndarray:

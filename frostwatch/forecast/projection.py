@@ -118,13 +118,15 @@ def _learning_note(cal: Calibration) -> str | None:
 def _dusk_forecast(
     t0_c: float, td0_c: float | None, wind0: float | None, cloud0: float | None, trend0: float | None,
     p_trend0: float | None, t0_s: float, method: str, t_air: np.ndarray, v_air: np.ndarray, night: Night,
-    cal: Calibration, p_hpa: float,
+    cal: Calibration, p_hpa: float, memo: dict | None = None,
 ) -> tuple:
     """The forecast from t0 (dusk, or now before it): (t0_c, t0_s, method, hours from t0 to
-    sunrise, minimum, Reuter's b', the band's low and high offsets, notes)."""
+    sunrise, minimum, Reuter's b', the band's low and high offsets, notes). `memo`: the
+    evening curve's memo for these readings (`curves.evening_curve_c`)."""
     # before dusk the same evening curve on the readings so far, so the estimate runs into the
     # dusk forecast without a jump
-    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, night.sunrise_utc.timestamp())
+    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, night.sunrise_utc.timestamp(),
+                              memo)
     return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method, evening, night, cal, p_hpa)
 
 
@@ -253,7 +255,7 @@ def project_block(
             memo[key] = (cal, di, dusk)
     if dusk is None:
         dusk = _dusk_forecast(air_c, td_c, wind, cloud, None, None, now_s, "pre-dusk estimate", t_air, v_air, night,
-                              cal, p_hpa)
+                              cal, p_hpa, None if memo is None else memo.setdefault(("evening", speaker.station), {}))
     t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, dusk_notes = dusk
     notes.extend(dusk_notes)
 
