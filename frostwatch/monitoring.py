@@ -34,7 +34,9 @@ _NO_TIMES = np.empty(0)
 
 def block_monitoring(cfg: Config, block: Block, series: Series, now_s: float, memo: dict | None = None) -> Monitoring:
     """The monitoring state of `block` at `now_s` from tonight's readings window (`memo`: a
-    replay's `pipeline.WindowMemo` values, handed to `forecast.station_state`).
+    replay's `pipeline.WindowMemo` values, handed to `forecast.carry.station_state`, which keeps a
+    station's state while the window and the reading's age allow and otherwise asks
+    `forecast.station_state`).
 
     Returns
     -------
