@@ -334,9 +334,9 @@ class Calibration:
     ) -> tuple[float, str]:
         """The blended fall still to come (<= 0) and which methods spoke; with `lead`, the approach
         correction (`NOWCAST_LEAD_CORRECTION`) applied, and with `approach` too, the approach blend
-        (`NOWCAST_APPROACH_BLEND`). `blend`: `_nowcast_blend_c` of these arguments, when the caller
+        (`NOWCAST_APPROACH_BLEND`). `blend`: `nowcast_fall_c` of these arguments, when the caller
         has it (`lead=False` gives it alone)."""
-        drop, spoke = blend or self._nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
+        drop, spoke = blend or self.nowcast_fall_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h)
         if lead and NOWCAST_LEAD_CORRECTION and self.nc_lead and self.cold_night(dusk_min_c):
             offset, ratio = self.nc_lead[nowcast_bin(hours_left)]
             if offset != 0.0 or ratio != 1.0:
@@ -360,10 +360,11 @@ class Calibration:
         """True unless `LEAD_COLD_NIGHTS` and tonight's dusk forecast is not below the mean minimum learned."""
         return not LEAD_COLD_NIGHTS or (dusk_min_c is not None and self.n_nights > 0 and dusk_min_c < self.mean_min_c)
 
-    def _nowcast_blend_c(
+    def nowcast_fall_c(
         self, f: tuple[float, ...], hours_left: float, dusk_curve_drop_c: float, elapsed_since_t0_h: float
     ) -> tuple[float, str]:
-        """The blended fall still to come (<= 0) and which methods spoke."""
+        """The blended fall still to come (<= 0) before the approach correction and the approach
+        blend, and which methods spoke (`nowcast_drop_c` with `lead=False`)."""
         return self.nowcast_blend_c(f, hours_left, dusk_curve_drop_c, elapsed_since_t0_h,
                                     self.learned_drop_c(f, hours_left), True)
 

@@ -269,7 +269,7 @@ def project_block(
         if f is not None:
             latest_c, feats = f
             dusk_drop = b_dusk * (math.sqrt(h_from_t0) - e_now)
-            blend = cal._nowcast_blend_c(feats, hours_left, dusk_drop, e_now * e_now)  # the fall before the corrections
+            blend = cal.nowcast_fall_c(feats, hours_left, dusk_drop, e_now * e_now)  # the fall before the corrections
             drop, spoke = cal.nowcast_drop_c(feats, hours_left, dusk_drop, e_now * e_now, dusk_min_c=tp_dusk, blend=blend)
             tp_c = latest_c + drop
             lo_off, hi_off, _ = cal.nowcast_band(hours_left)
