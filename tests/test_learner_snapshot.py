@@ -137,6 +137,25 @@ def test_skill_moments_are_numpys_and_its_weights_follow_each_error():
     assert skill.weights(methods) is not None
 
 
+def test_stacked_weights_of_skills_of_different_sizes_at_the_same_positions_are_each_its_own():
+    """A dusk skill with only its first two methods scored (no evening curve, no prior: the
+    "other" regime of a site without readings before dusk) and the approach blend's two-method
+    skill share positions (0, 1) but not their moments' layout: stacked in one call, each gets
+    its own weights (before, the second was read with the first's row length: IndexError)."""
+    from frostwatch.forecast.calibration import APPROACH_METHODS, DUSK_METHODS
+    from frostwatch.forecast.skill import _Skill, _weights_many
+
+    rng = np.random.default_rng(5)
+    dusk, approach = _Skill(DUSK_METHODS), _Skill(APPROACH_METHODS)
+    for _ in range(12):
+        dusk.add({m: float(x) for m, x in zip(DUSK_METHODS[:2], rng.normal(0, 1.5, 2), strict=True)})
+        approach.add({m: float(x) for m, x in zip(APPROACH_METHODS, rng.normal(0, 0.6, 2), strict=True)})
+    items = [(dusk, DUSK_METHODS[:2]), (approach, APPROACH_METHODS)]
+    want = [dusk._weights(DUSK_METHODS[:2]), approach._weights(APPROACH_METHODS)]
+    assert want[0] != want[1]
+    assert _weights_many(items) == want
+
+
 def test_a_stack_solved_without_numpys_wrapper_is_numpys():
     from frostwatch.forecast.skill import _solve_stack
 

@@ -202,7 +202,9 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
     """`_Skill.weights` of each (skill, available methods), the same numbers: the small solves
     of records with the same available methods go to LAPACK as one stack."""
     out: list = [None] * len(items)
-    groups: dict[tuple[int, ...], list[int]] = {}
+    # grouped by the skill's number of methods and the positions available: the same positions of
+    # a smaller skill (the approach blend's two) index other moments
+    groups: dict[tuple[int, tuple[int, ...]], list[int]] = {}
     for i, (skill, avail) in enumerate(items):
         if avail in skill.found:  # worked out since its last change
             out[i] = skill.found[avail]
@@ -217,10 +219,9 @@ def _weights_many(items: list[tuple[_Skill, tuple[str, ...]]]) -> list[dict[str,
         idx = _INDEX_OF.get(key)
         if idx is None:
             idx = _INDEX_OF[key] = tuple(skill.methods.index(m) for m in avail)
-        groups.setdefault(idx, []).append(i)
-    for idx, members in groups.items():
+        groups.setdefault((len(skill.methods), idx), []).append(i)
+    for (size, idx), members in groups.items():
         k = len(idx)
-        size = len(items[members[0]][0].methods)
         if idx == tuple(range(size)):
             rows = chain.from_iterable(items[i][0].m2 for i in members)
         else:
