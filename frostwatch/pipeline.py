@@ -165,7 +165,7 @@ class Evaluator:
             return {}
         st = reference.reference_station_for(self.cfg, block)
         ref = None if st is None else reference.reference_air(window, st.id, now_s, self.pressure_hpa)
-        ids = [s.id for s in self.cfg.stations_of(block.id)] + [s.id for s in self.cfg.stations if s.block is None]
+        ids = [s.id for s in self.cfg.stations_of(block.id)] + [s.id for s in self.cfg.stations_of(None)]
         driest = reference.driest_dew_point_c(window, ids, night.sunset_utc.timestamp(), now_s)
         return dict(reference=ref, reference_station=None if st is None else st.id, driest_dew_point_c=driest)
 

@@ -90,12 +90,14 @@ def tower_for_block(cfg: Config, block: Block, states: Mapping[str, StationState
         st = states.get(s.id)
         return st is not None and st.healthy and "air_temperature" in st.latest
 
-    towers = [s for s in cfg.stations if s.role == "tower" and ok(s)]
-    if not towers:  # no healthy tower anywhere (a farm without one): nothing to place
-        return None
-    own = [s for s in towers if s.block == block.id]
+    # the block's own towers first: the farm's are looked through only for a block without a
+    # healthy one (an evaluation asks for every block; the farm has a tower per block)
+    own = [s for s in cfg.stations_of(block.id, "tower") if ok(s)]
     if own:
         return TowerChoice(own[0].id, True, None, False)
+    towers = [s for s in cfg.stations_with_role("tower") if ok(s)]
+    if not towers:  # no healthy tower anywhere (a farm without one): nothing to place
+        return None
     here = block_position_m(cfg, block.id)
     placed = [(d, s) for s in towers if (d := _distance_m(here, s.position_m)) is not None]
     placed = [(d, s) for d, s in placed if d <= MAX_TOWER_DISTANCE_M]

@@ -150,3 +150,91 @@ def test_stored_decisions_encode_as_the_plain_recursive_codec(demo_decisions):
            "t": (1, "x", None, float("inf"))}
     assert to_dict(odd) == _plain_to_dict(odd) == {"nan": None, "np": 2.5, "kind": "a", "when": "2027-04-14",
                                                    "none": None, "t": [1, "x", None, None]}
+
+
+# ---- issue 19 item 3, third part: what every block asks of the config, and the inversion's fits --
+
+
+def test_config_lookups_are_the_scans_they_replace(demo_config):
+    """The site-wide stations, the stations of a role and a block by id, kept on the config, are
+    what a scan of its stations and blocks gives (in the config's order, the first of an id)."""
+    from frostwatch.config import load_config
+
+    cfg = load_config(str(demo_config))
+    for role in {s.role for s in cfg.stations} | {"nothing"}:
+        assert cfg.stations_with_role(role) == tuple(s for s in cfg.stations if s.role == role)
+    assert cfg.stations_of(None) == [s for s in cfg.stations if s.block is None]
+    assert [s.id for s in cfg.stations_of(None)] == ["shed-sky"]
+    for b in cfg.blocks:
+        assert cfg.block(b.id) is next(x for x in cfg.blocks if x.id == b.id)
+    import pytest
+
+    with pytest.raises(KeyError):
+        cfg.block("nowhere")
+
+
+def _tower_for_block_by_scan(cfg, block, states):
+    """towers.tower_for_block as it was: every tower of the farm looked at for every block."""
+    from frostwatch.towers import MAX_TOWER_DISTANCE_M, TowerChoice, _distance_m, block_position_m
+
+    def ok(s):
+        st_ = states.get(s.id)
+        return st_ is not None and st_.healthy and "air_temperature" in st_.latest
+
+    towers = [s for s in cfg.stations if s.role == "tower" and ok(s)]
+    if not towers:
+        return None
+    own = [s for s in towers if s.block == block.id]
+    if own:
+        return TowerChoice(own[0].id, True, None, False)
+    here = block_position_m(cfg, block.id)
+    placed = [(d, s) for s in towers if (d := _distance_m(here, s.position_m)) is not None]
+    placed = [(d, s) for d, s in placed if d <= MAX_TOWER_DISTANCE_M]
+    if placed:
+        d, s = min(placed, key=lambda x: x[0])
+        return TowerChoice(s.id, False, d, s.block is None)
+    site = [s for s in towers if s.block is None and (here is None or s.position_m is None)]
+    return TowerChoice(site[0].id, False, _distance_m(here, site[0].position_m), True) if site else None
+
+
+@given(st.lists(st.sampled_from(["healthy", "sick", "no air", "absent"]), min_size=7, max_size=7),
+       st.booleans())
+def test_the_blocks_own_tower_first_is_the_choice_of_every_tower(health, positions):
+    """A block's own healthy tower looked at first gives the tower the whole farm's scan gives,
+    for every block, whichever towers are healthy, with and without positions."""
+    from frostwatch.config import config_from_dict
+    from frostwatch.models import StationState
+    from frostwatch.towers import tower_for_block
+
+    site = {"name": "T", "latitude": 46.4, "longitude": -120.3, "timezone": "America/Los_Angeles"}
+    blocks = [{"id": b, "crop": "apple", "stage": "full bloom", "protection": "wind_machine"} for b in ("a", "b", "c")]
+    stations = [{"id": f"{b}-low", "block": b, "height_m": 1.5} for b in ("a", "b", "c")]
+    towers = [("a-t1", "a"), ("a-t2", "a"), ("b-t", "b"), ("c-t", "c"), ("mast", None), ("mast2", None), ("far", None)]
+    for sid, b in towers:
+        stations.append({"id": sid, "height_m": 10.0, **({"block": b} if b else {})})
+    if positions:
+        for k, s in enumerate(stations):
+            s.update(x_m=300.0 * k, y_m=0.0)
+    cfg = config_from_dict({"site": site, "blocks": blocks, "stations": stations})
+    states = {}
+    for (sid, _), h in zip(towers, health, strict=True):
+        if h != "absent":
+            states[sid] = StationState(sid, 10.0, "tower", {} if h == "no air" else {"air_temperature": 3.0}, {},
+                                       h != "sick", ())
+    for b in cfg.blocks:
+        assert tower_for_block(cfg, b, states) == _tower_for_block_by_scan(cfg, b, states)
+
+
+@given(st.lists(st.floats(min_value=0.0, max_value=20000.0), max_size=60, unique=True),
+       st.floats(min_value=-100.0, max_value=21000.0), st.floats(min_value=0.0, max_value=20000.0))
+def test_the_readings_since_t0_as_a_slice_are_the_masks(times, t0, span):
+    """inversion._since gives the readings with t0 <= t <= now of a sorted series: the same
+    values, in the same order, as the mask over the whole series."""
+    from frostwatch.forecast.inversion import _since
+
+    t = 1.8e9 + np.sort(np.array(times, dtype=float))
+    v = np.sin(t)
+    t0_s, now_s = 1.8e9 + t0, 1.8e9 + t0 + span
+    sel = (t >= t0_s) & (t <= now_s)
+    got_t, got_v = _since((t, v), t0_s, now_s)
+    assert got_t.tolist() == t[sel].tolist() and got_v.tolist() == v[sel].tolist()

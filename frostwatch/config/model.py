@@ -134,10 +134,11 @@ class Config:
     raw: dict = field(default_factory=dict)
 
     def block(self, block_id: str) -> Block:
-        for b in self.blocks:
-            if b.id == block_id:
-                return b
-        raise KeyError(block_id)
+        # asked for every block at every evaluation: a lookup, not a scan of the farm's blocks
+        got = self._kept("_blocks_by_id", lambda: {b.id: b for b in reversed(self.blocks)}).get(block_id)
+        if got is None:
+            raise KeyError(block_id)
+        return got
 
     def station(self, station_id: str) -> Station | None:
         return self._stations_by_id().get(station_id)
@@ -145,12 +146,28 @@ class Config:
     def _stations_by_id(self) -> dict[str, Station]:
         return {s.id: s for s in self.stations}
 
-    def stations_of(self, block_id: str, role: str | None = None) -> list[Station]:
-        # looked up for every block at every evaluation: each answer worked out once (a new list each time)
-        kept = self.__dict__.get("_stations_of")
+    def _kept(self, name: str, make):
+        # a value worked out from the (frozen) config once, kept on the instance
+        kept = self.__dict__.get(name)
         if kept is None:
-            kept = {}
-            object.__setattr__(self, "_stations_of", kept)
+            kept = make()
+            object.__setattr__(self, name, kept)
+        return kept
+
+    def stations_with_role(self, role: str) -> tuple[Station, ...]:
+        """Every station of `role` on the farm, in the config's order (worked out once: each
+        block's evaluation asks for the towers and sky sensors)."""
+        kept = self._kept("_stations_with_role", dict)
+        got = kept.get(role)
+        if got is None:
+            got = kept[role] = tuple(s for s in self.stations if s.role == role)
+        return got
+
+    def stations_of(self, block_id: str | None, role: str | None = None) -> list[Station]:
+        """The stations of `block_id` (None: the site-wide ones), of `role` if given, in the
+        config's order, as a new list."""
+        # looked up for every block at every evaluation: each answer worked out once (a new list each time)
+        kept = self._kept("_stations_of", dict)
         got = kept.get((block_id, role))
         if got is None:
             got = kept[(block_id, role)] = tuple(

@@ -72,6 +72,14 @@ def sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float
     return float(np.sum(x * (temps_c[sel] - t0_c)) / np.sum(x * x))
 
 
+def _since(tv: tuple[np.ndarray, np.ndarray], t0_s: float, now_s: float) -> tuple[np.ndarray, np.ndarray]:
+    """The readings with t0 <= t <= now of a series sorted by time (a view: the same values as a
+    mask over the whole series gives)."""
+    t, v = tv
+    i, j = int(t.searchsorted(t0_s, side="left")), int(t.searchsorted(now_s, side="right"))
+    return t[i:j], v[i:j]
+
+
 def _curve_growth(
     series: Series, tower: str, crop: str | None, tower0_c: float, t0_s: float, now_s: float
 ) -> float | None:
@@ -80,17 +88,15 @@ def _curve_growth(
     fitted to tonight's readings since t0 (Reuter's curve). Fitting both over the same readings
     cancels the cooling they share: a tower that cools with the crop projects no growth. None
     until both curves have `FIT_MIN_POINTS` readings."""
-    tt, tv = series[(tower, "air_temperature")]
-    sel = (tt >= t0_s) & (tt <= now_s)
-    b_tower = sqrt_b_fit((tt[sel] - t0_s) / 3600.0, tv[sel], tower0_c)
+    tt, tv = _since(series[(tower, "air_temperature")], t0_s, now_s)
+    b_tower = sqrt_b_fit((tt - t0_s) / 3600.0, tv, tower0_c)
     if b_tower is None:
         return None
     b_crop = 0.0
     if crop is not None and (crop, "air_temperature") in series:
         crop0_c = as_of(series, crop, "air_temperature", t0_s, 900.0)
-        ct, cv = series[(crop, "air_temperature")]
-        csel = (ct >= t0_s) & (ct <= now_s)
-        b = sqrt_b_fit((ct[csel] - t0_s) / 3600.0, cv[csel], crop0_c) if crop0_c is not None else None
+        ct, cv = _since(series[(crop, "air_temperature")], t0_s, now_s)
+        b = sqrt_b_fit((ct - t0_s) / 3600.0, cv, crop0_c) if crop0_c is not None else None
         if b is None:
             return None
         b_crop = b

@@ -187,7 +187,7 @@ def project_block(
     cal = calibration or Calibration(calibration_nights=fc.calibration_nights)
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     stations = cfg.stations_of(block.id)
-    site_stations = [s for s in cfg.stations if s.block is None]
+    site_stations = cfg.stations_of(None)
     states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in stations]
     site_states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in site_stations]
     notes = [p for s in states for p in s.problems]
@@ -324,8 +324,8 @@ def project_block(
     if not any(s.role == "tower" and s.healthy and "air_temperature" in s.latest for s in states):
         # only a block without a healthy tower of its own looks at the others (the farm's towers
         # are not all read for every block)
-        for st in cfg.stations:
-            if st.role == "tower" and st.id not in tower_states:
+        for st in cfg.stations_with_role("tower"):
+            if st.id not in tower_states:
                 tower_states[st.id] = carry.station_state(st, series, now_s, fc.stale_after_intervals, memo)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     outlook = inv.inversion_outlook(

@@ -266,7 +266,7 @@ def cloud_frac_now(series: Series, cfg: Config, now_s: float, air_temp_c: float,
     measured = mean(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", now_s, INPUT_WINDOW_S)
     if measured is not None:
         return measured
-    sky = mean(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", now_s, INPUT_WINDOW_S)
+    sky = mean(series, [s.id for s in cfg.stations_with_role("sky")], "surface_temperature", now_s, INPUT_WINDOW_S)
     if sky is None or dew_point_c is None:
         return None
     from frostwatch.physics import cloud_cover
@@ -295,7 +295,7 @@ def _times_up_to(t_s: np.ndarray, end_s: float) -> np.ndarray:
 
 def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[Station], t0_s: float) -> DuskInputs | None:
     """Temperature, dew point, wind and cloud at t0 for `station`, from readings up to t0 only."""
-    site = [s for s in cfg.stations if s.block is None]
+    site = cfg.stations_of(None)
     st = next((s for s in block_stations if s.id == station), None)
     interval = st.interval_s if st and st.interval_s else None
     if interval is None and (station, "air_temperature") in series:
@@ -334,7 +334,7 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
     wind_trend = None if wind is None or wind_then is None else wind - wind_then
     cloud = mean_as_of(series, sorted(stations_with(series, "cloud_area_fraction")), "cloud_area_fraction", t0_s, window)
     if cloud is None and td is not None:
-        sky = mean_as_of(series, [s.id for s in cfg.stations if s.role == "sky"], "surface_temperature", t0_s, window)
+        sky = mean_as_of(series, [s.id for s in cfg.stations_with_role("sky")], "surface_temperature", t0_s, window)
         if sky is not None:
             from frostwatch.physics import cloud_cover
 
