@@ -4,6 +4,7 @@ exactly the readings the ingest writer has just committed.
     cache = NightCache(store, evaluator.night_at, LOOKBACK)
     cache.push(readings)          # writer thread, after each commit
     series = cache.series(now)    # {(station, quantity): (t_s, values)}, as Store.readings_window
+    series, since_s = cache.snapshot(now)   # the same, and the earliest reading added since the last snapshot
 
 Why: an evaluation needs every reading from sunset - 6 h up to now (about 300,000 rows for 50
 blocks of 4 stations at 02:00). Reading and regrouping them from SQLite each cycle cost ~350 ms;
@@ -22,6 +23,11 @@ How it stays equal to the store (tests/daemon/test_nightcache.py):
 - a new night trims what is older than its window start; a night whose window starts before
   what is held (the clock stepped back) is loaded from the store again.
 
+`snapshot` also says from when the series may differ from the previous snapshot's: readings are
+only ever added (never edited or removed) between loads, so the readings before the earliest one
+added since are those the previous snapshot held. The daemon's evaluations carry what those
+readings alone decide (the dusk forecast) from one cycle to the next (`pipeline.Evaluator`).
+
 Only readings pushed here join between loads: rows another process writes into the store while
 the daemon runs (`frostwatch import`) join at the next load (a new night, `invalidate()`, or a
 restart).
@@ -30,6 +36,7 @@ restart).
 from __future__ import annotations
 
 import datetime as dt
+import math
 import threading
 from collections.abc import Callable, Iterable
 
@@ -119,6 +126,9 @@ class NightCache:
         self._start_s: float | None = None
         self._pending: list[Reading] | None = None  # pushes that arrive while loading
         self.loads = 0  # store reads of a whole window (a test and the benchmark count them)
+        # the earliest reading time added since the last snapshot (-inf: loaded, trimmed or
+        # forgotten since; inf: nothing added)
+        self._earliest_added_s = -math.inf
         self.pushed = 0
 
     # -- the writer side ----------------------------------------------------------------------
@@ -139,11 +149,15 @@ class NightCache:
     def _add(self, readings: list[Reading]) -> None:
         groups: dict[Key, list[tuple[float, float]]] = {}
         start = self._start_s
+        earliest = self._earliest_added_s
         for r in readings:
             ts = to_ms(r.time_utc) / 1000.0  # exactly the store's representation
             if start is not None and ts < start:
                 continue
             groups.setdefault((r.station, r.quantity), []).append((ts, float(r.value)))
+            if ts < earliest:
+                earliest = ts
+        self._earliest_added_s = earliest
         for key, pts in groups.items():
             # first value per time within the batch, as the store keeps the first
             seen: dict[float, float] = {}
@@ -165,10 +179,22 @@ class NightCache:
         with self._lock:
             return {k: c.view() for k, c in self._cols.items() if c.n}
 
+    def snapshot(self, now_utc: dt.datetime) -> tuple[Series, float]:
+        """`series(now_utc)` and the earliest time [s] of a reading added since the previous
+        snapshot: every reading before it is in the previous snapshot, and every reading of the
+        previous snapshot is here (math.inf: nothing added; -math.inf: the window was loaded,
+        trimmed or forgotten since, so nothing is known). For one caller, the daemon's
+        evaluations: each snapshot restarts the count."""
+        self._ensure(self.night_at(now_utc))
+        with self._lock:
+            since_s, self._earliest_added_s = self._earliest_added_s, math.inf
+            return {k: c.view() for k, c in self._cols.items() if c.n}, since_s
+
     def invalidate(self) -> None:
         """Forget everything; the next `series` reads the window from the store again."""
         with self._load_lock, self._lock:
             self._cols, self._night, self._start_s = {}, None, None
+            self._earliest_added_s = -math.inf
 
     def _ensure(self, night: Night) -> None:
         start_s = to_ms(night.sunset_utc - self.lookback) / 1000.0
@@ -182,6 +208,7 @@ class NightCache:
                         c.trim(start_s)
                     self._cols = {k: c for k, c in self._cols.items() if c.n}
                     self._night, self._start_s = night.date, start_s
+                    self._earliest_added_s = -math.inf
                     return
                 self._pending = []
             try:
@@ -193,6 +220,7 @@ class NightCache:
             with self._lock:
                 self._cols = {k: _Column(t, v) for k, (t, v) in data.items()}
                 self._night, self._start_s = night.date, start_s
+                self._earliest_added_s = -math.inf
                 pending, self._pending = self._pending, None
                 if pending:
                     self._add(pending)

@@ -112,6 +112,7 @@ class Evaluator:
         self.learners: dict[str, Learner] = {b.id: Learner(cfg.forecast.calibration_nights) for b in cfg.blocks}
         self.learned: set[dt.date] = set()
         self._nights: dict[dt.date, Night] = {}
+        self._dusk_kept: tuple[Config | None, dict] = (None, {})  # (the config it was made with, the dusk memo)
 
     def night(self, evening: dt.date) -> Night:
         if evening not in self._nights:
@@ -178,11 +179,28 @@ class Evaluator:
             got = memo[("inputs_utc", block.id)] = inputs_utc(self.cfg, block, window, now_s)
         return dict(got)
 
-    def evaluate(self, now_utc: dt.datetime, series: Series) -> Evaluation:
+    def _dusk_memo(self, night: Night, unchanged_before_s: float) -> dict | None:
+        """The dusk forecasts kept from the evaluations before (`project_block`'s `dusk_memo`):
+        emptied unless every reading up to tonight's dusk is one the evaluation before saw (no
+        reading added at or before dusk since) and the config is the same."""
+        if self.memo is not None or unchanged_before_s == -math.inf:  # a replay: its window memo keeps them
+            self._dusk_kept = (None, {})
+            return None
+        cfg, kept = self._dusk_kept
+        if cfg is not self.cfg or not unchanged_before_s > night.dusk_utc.timestamp():
+            kept = {}
+            self._dusk_kept = (self.cfg, kept)
+        return kept
+
+    def evaluate(self, now_utc: dt.datetime, series: Series, unchanged_before_s: float = -math.inf) -> Evaluation:
         """Project, advise and run the alert rules for every block at `now_utc`.
 
         `series` may hold more than needed; only readings from 6 h before this night's sunset up
-        to `now_utc` are used (no peeking at the future).
+        to `now_utc` are used (no peeking at the future). `unchanged_before_s`: every reading of
+        `series` before this instant [s] is one of the series of the call before, and that
+        series' readings are all here (the daemon's night cache says so,
+        `NightCache.snapshot`); what readings up to dusk alone decide (the dusk forecast) is then
+        kept from one call to the next. The values are the same either way.
         """
         night = self.night_at(now_utc)
         start_s = (night.sunset_utc - LOOKBACK).timestamp()
@@ -190,11 +208,13 @@ class Evaluator:
             window, memo = slice_series(series, start_s, now_utc.timestamp()), None
         else:
             window, memo = self.memo.window(series, start_s, now_utc.timestamp())
+        dusk_memo = self._dusk_memo(night, unchanged_before_s)
         ev = Evaluation(now_utc, night)
         now_s = now_utc.timestamp()
         for block in self.cfg.blocks:
             proj = forecast.project_block(
-                now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa, memo=memo
+                now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa, memo=memo,
+                dusk_memo=dusk_memo,
             )
             running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_s)
             ref_kw = self.reference_inputs(block, window, night, now_s)

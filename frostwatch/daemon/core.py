@@ -117,8 +117,8 @@ class Core:
         now = now.replace(microsecond=now.microsecond // 1000 * 1000)  # the store keeps milliseconds
         with self.eval_lock:
             self.reload_config(now)  # a stage or threshold change takes effect at this evaluation
-            series = self.cache.series(now)
-            ev = self.evaluator.evaluate(now, series)
+            series, unchanged_before_s = self.cache.snapshot(now)
+            ev = self.evaluator.evaluate(now, series, unchanged_before_s)
             stored = self._worth_storing(ev, reason)
             # projections and decisions first (one transaction, one fsync per evaluation), then
             # the alerts written from them: a stored alert always has its decision beside it

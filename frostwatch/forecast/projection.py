@@ -175,13 +175,16 @@ def project_block(
     pressure_hpa: float | None = None,
     curves: bool = True,
     memo: dict | None = None,
+    dusk_memo: dict | None = None,
 ) -> Projection:
     """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise.
 
     With `curves=False` the projected curves, their crossings and the wet bulb along them are
     left out (empty); every other field is the same (a backtest scores the minimum and band).
     `memo` (a replay's `pipeline.WindowMemo` values, emptied when the readings window changes)
-    keeps what the window alone decides: the dusk forecast, from dusk on."""
+    keeps what the window alone decides: the dusk forecast, from dusk on. `dusk_memo` (without
+    `memo`: the daemon's, `pipeline.Evaluator`, emptied when a reading at or before dusk is
+    added or the config changes) keeps the dusk forecast alone, which readings up to dusk decide."""
     now_s = now_utc.timestamp()
     fc = cfg.forecast
     cal = calibration or Calibration(calibration_nights=fc.calibration_nights)
@@ -243,7 +246,8 @@ def project_block(
     # made from the readings window alone (and the calibration): a replay's memo keeps it while
     # the window is the same
     key = ("dusk", block.id, speaker.station, dusk_s)
-    kept = None if memo is None or now_s < dusk_s else memo.get(key)
+    keep = memo if memo is not None else dusk_memo
+    kept = None if keep is None or now_s < dusk_s else keep.get(key)
     if kept is not None and kept[0] is cal:
         di, dusk = kept[1], kept[2]
     else:
@@ -251,8 +255,8 @@ def project_block(
         dusk = None if di is None else _dusk_forecast(
             di.temp_c, di.dew_point_c, di.wind_m_s, di.cloud_frac, di.wind_trend_m_s, di.pressure_trend_hpa, dusk_s,
             "dusk forecast", t_air, v_air, night, cal, p_hpa)
-        if memo is not None and now_s >= dusk_s:
-            memo[key] = (cal, di, dusk)
+        if keep is not None and now_s >= dusk_s:
+            keep[key] = (cal, di, dusk)
     if dusk is None:
         dusk = _dusk_forecast(air_c, td_c, wind, cloud, None, None, now_s, "pre-dusk estimate", t_air, v_air, night,
                               cal, p_hpa, None if memo is None else memo.setdefault(("evening", speaker.station), {}))

@@ -97,13 +97,13 @@ from apscheduler import events as ev
 # so an evaluation that waited for the lock (the start-up one beside the first tick) is not an overlap
 _orig = fp.Evaluator.evaluate
 _n = [0]
-def evaluate(self, now, series):
+def evaluate(self, now, series, *more):
     _n[0] += 1
     n, t0, w0 = _n[0], time.monotonic(), time.time()
     try:
         if n == 3:
             time.sleep(float(os.environ["FAULT_SLEEP_S"]))
-        return _orig(self, now, series)
+        return _orig(self, now, series, *more)
     finally:
         with open(os.environ["FAULT_LOG"], "a") as f:
             f.write(json.dumps({"n": n, "start": t0, "end": time.monotonic(),
