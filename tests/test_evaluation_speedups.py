@@ -238,3 +238,27 @@ def test_the_readings_since_t0_as_a_slice_are_the_masks(times, t0, span):
     sel = (t >= t0_s) & (t <= now_s)
     got_t, got_v = _since((t, v), t0_s, now_s)
     assert got_t.tolist() == t[sel].tolist() and got_v.tolist() == v[sel].tolist()
+
+
+def test_the_published_headline_and_action_are_the_whole_messages(demo_decisions):
+    """The daemon publishes each block's headline and action (status.document.decision_json),
+    made without the rest of the message: they are `advice.message.compose`'s, on every decision
+    of the demo nights, in both display units."""
+    from frostwatch.advice.message import compose
+    from frostwatch.advice.render import Notice
+    from frostwatch.alerts.levels import level_name
+    from frostwatch.display import Display
+    from frostwatch.status.document import Liveness, decision_json
+
+    levels = set()
+    for unit in ("degC", "degF"):
+        d = Display(unit, "America/Los_Angeles")
+        for x in demo_decisions[::3]:
+            live = Liveness(True, x.as_of_utc, False, 0.0)
+            doc = decision_json(x, x.block, x.as_of_utc, live, d, float("inf"), x.block)
+            if not doc["monitored"]:
+                continue
+            msg = compose(x.block, level_name(x.level), x.step, x.plan, x.projection, d, Notice.STATE)
+            assert (doc["headline"], doc["action"]) == (msg.headline, msg.action)
+            levels.add(doc["level"])
+    assert len(levels) >= 3  # the nights reach more than one level

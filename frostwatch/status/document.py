@@ -16,8 +16,9 @@ import datetime as dt
 import json
 from dataclasses import dataclass
 
+from frostwatch.advice import render
 from frostwatch.advice.codec import iso_utc, parse_utc
-from frostwatch.advice.message import compose, monitoring_reason, not_monitored_headline
+from frostwatch.advice.message import monitoring_reason, not_monitored_headline
 from frostwatch.advice.plan import Step
 from frostwatch.advice.render import Notice, risk_reason
 from frostwatch.alerts.levels import UNMONITORED, level_name, rank_of, step_for_level
@@ -132,9 +133,11 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
     plan = decision.plan
     if m.monitored:
         level, step = level_name(decision.level), decision.step  # a decision stored before 0.2: the new name
-        msg = compose(block_id, level, step, plan, decision.projection, display, Notice.STATE)
+        # the headline and action of `advice.message.compose(..., Notice.STATE)`, without the
+        # whole message's other lines (the published document shows these two)
+        headline = render.headline(block_id, level, step, plan, display, Notice.STATE)
+        action = render.action(step, plan, display)
         reason = risk_reason(plan, display)
-        headline, action = msg.headline, msg.action
     else:
         level, step = UNMONITORED, step_for_level(UNMONITORED, plan)
         reason = monitoring_reason(m, display, now_utc, daemon_stopped_utc=live.last_beat_utc,
