@@ -130,10 +130,11 @@ def dew_point_history(series, station_ids: list[str], now_s: float, window_s: fl
             if (sid, quantity) not in series:
                 continue
             t, v = series[(sid, quantity)]
-            sel = (t > now_s - window_s) & (t <= now_s)
-            if not sel.any():
+            # (now - window, now] of the sorted times, as a slice (the values a mask selects)
+            i, j = int(t.searchsorted(now_s - window_s, side="right")), int(t.searchsorted(now_s, side="right"))
+            if j <= i:
                 continue
-            t, v = np.asarray(t[sel], dtype=float), np.asarray(v[sel], dtype=float)
+            t, v = np.asarray(t[i:j], dtype=float), np.asarray(v[i:j], dtype=float)
             if quantity == "dew_point_temperature":
                 return t, v
             if (sid, "air_temperature") not in series:

@@ -98,7 +98,7 @@ def inputs_utc(cfg: Config, block: Block, series: Series, now_s: float) -> dict[
             t = series.get((st.id, q), (None,))[0]
             if t is None or not len(t):
                 continue
-            i = int(np.searchsorted(t, now_s, side="right")) - 1
+            i = int(t.searchsorted(now_s, side="right")) - 1
             if i >= 0:
                 out[f"{st.id}/{q}"] = _utc(t[i])
     return out

@@ -262,3 +262,38 @@ def test_the_published_headline_and_action_are_the_whole_messages(demo_decisions
             assert (doc["headline"], doc["action"]) == (msg.headline, msg.action)
             levels.add(doc["level"])
     assert len(levels) >= 3  # the nights reach more than one level
+
+
+@given(st.lists(st.floats(min_value=-8.0, max_value=8.0), min_size=1, max_size=60),
+       st.lists(st.floats(min_value=-9.0, max_value=9.0), min_size=1, max_size=4))
+def test_crossing_times_in_one_comparison_are_each_crossing_time(curve, thresholds):
+    """curves.crossing_times gives each threshold's curves.crossing_time, to the bit (NaN in the
+    curve included)."""
+    from frostwatch.forecast.curves import crossing_time, crossing_times
+
+    c = np.array(curve, dtype=float)
+    c[::7] = np.where(np.arange(len(c))[::7] % 14 == 7, np.nan, c[::7])
+    grid = 1.8e9 + 300.0 * np.arange(len(c), dtype=float)
+    assert crossing_times(grid, c, thresholds) == [crossing_time(grid, c, thr) for thr in thresholds]
+
+
+@given(st.lists(st.floats(min_value=0.0, max_value=20000.0), max_size=80, unique=True),
+       st.floats(min_value=-1000.0, max_value=21000.0))
+def test_dew_point_history_takes_the_windows_readings_as_a_mask_would(times, now):
+    """drying.dew_point_history's slice of the last two hours holds the readings (now - 2 h, now]
+    that a mask over the whole series selects, and their dew points are the mask's."""
+    from frostwatch import drying
+    from frostwatch.physics.humidity import dew_point_c_from_rel_humidity
+
+    t = 1.8e9 + np.sort(np.array(times, dtype=float))
+    rh = 60.0 + 30.0 * np.sin(t / 500.0)
+    air = 4.0 + np.cos(t / 900.0)
+    now_s = 1.8e9 + now
+    series = {("s", "relative_humidity"): (t, rh), ("s", "air_temperature"): (t, air)}
+    got = drying.dew_point_history(series, ["s"], now_s)
+    sel = (t > now_s - drying.TREND_WINDOW_S) & (t <= now_s)
+    if not sel.any():
+        assert got is None
+        return
+    want = dew_point_c_from_rel_humidity(np.interp(t[sel], t, air), np.clip(rh[sel], 1.0, 100.0))
+    assert got[0].tolist() == t[sel].tolist() and got[1].tolist() == np.asarray(want).tolist()

@@ -69,6 +69,24 @@ def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -
     return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
 
 
+def crossing_times(grid_s: np.ndarray, curve_c: np.ndarray, thresholds_c: list[float]) -> list[float | None]:
+    """`crossing_time` of one curve at several thresholds, compared in one array operation (an
+    evaluation asks three of each of a block's two curves): the same values."""
+    below = curve_c <= np.array(thresholds_c)[:, None]
+    first = below.argmax(axis=1).tolist()  # the first True of each row (0 when there is none)
+    out: list[float | None] = []
+    for k, (thr, i) in enumerate(zip(thresholds_c, first, strict=True)):
+        if not below[k, i]:
+            out.append(None)
+        elif i == 0:
+            out.append(float(grid_s[0]))
+        else:
+            c0, c1 = curve_c[i - 1], curve_c[i]
+            f = (c0 - thr) / (c0 - c1) if c0 != c1 else 1.0
+            out.append(float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1])))
+    return out
+
+
 def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float, sunrise_s: float,
                     memo: dict | None = None) -> float | None:
     """Tonight's evening cooling carried to sunrise: T = a + b sqrt(t - sunset) fitted by least
@@ -127,9 +145,11 @@ def block_crossings(
     point, in closed form (ASHRAE eqs. 33/35)."""
     thresholds = {"t10_margin": block.kill_10pct_c + block.margin_c, "t10": block.kill_10pct_c, "t90": block.kill_90pct_c}
     crossings: dict[str, dt.datetime | None] = {}
-    for k, thr in thresholds.items():
-        crossings[k] = _utc(crossing_time(grid_s, curve_c, thr))
-        crossings[f"{k}_cold_edge"] = _utc(crossing_time(grid_s, cold_curve_c, thr))
+    thr_c = list(thresholds.values())
+    on_curve, on_cold = crossing_times(grid_s, curve_c, thr_c), crossing_times(grid_s, cold_curve_c, thr_c)
+    for k, at, at_cold in zip(thresholds, on_curve, on_cold, strict=True):
+        crossings[k] = _utc(at)
+        crossings[f"{k}_cold_edge"] = _utc(at_cold)
     wet_c = td_trend = td_at_start = None
     if td_c is not None and block.protection in SPRINKLER_METHODS:
         wet_c = float(humidity.wet_bulb_c_from_dew_point(air_c, td_c, p_hpa))

@@ -128,7 +128,9 @@ def _station_state(st: Station, series: Series, now_s: float, stale_after_interv
                     f"{st.id}: silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min); left out"
                 )
             recent = v[int(t.searchsorted(now_s - STUCK_WINDOW_S, side="left")):]
-            if len(recent) >= STUCK_MIN_READINGS and np.all(recent == recent[0]):
+            # a sensor whose newest reading differs from the hour's first is not stuck: told
+            # without an array operation (np.all(recent == recent[0]) is then False)
+            if len(recent) >= STUCK_MIN_READINGS and recent[-1] == recent[0] and np.all(recent == recent[0]):
                 healthy = False
                 problems.append(f"{st.id}: air temperature stuck at {recent[0]:g} degC for an hour; left out")
     return StationState(st.id, st.height_m, st.role, latest, latest_at, healthy, tuple(problems))
