@@ -20,6 +20,7 @@ import math
 import numpy as np
 
 from frostwatch.physics.humidity import air_temp_c_for_wet_bulb
+from frostwatch.physics.wet_bulb import air_temp_c_for_wet_bulb_rows
 
 TREND_WINDOW_S = 7200.0  # the last two hours of dew-point readings give the trend
 TREND_MIN_SPAN_S = 3600.0  # ... which must span at least an hour, with at least 3 readings
@@ -85,10 +86,30 @@ def wet_bulb_crossings_s(grid_s: np.ndarray, air_curves_c, dew_points_c, thresho
     g = np.asarray(grid_s, dtype=float)
     air = np.asarray(air_curves_c, dtype=float)
     td = np.minimum(np.asarray(dew_points_c, dtype=float), air)
-    thr = np.broadcast_to(np.asarray(thresholds_c, dtype=float)[:, None], air.shape)
-    air_at = np.asarray(air_temp_c_for_wet_bulb(thr, td, pressure_hpa), dtype=float)
+    thr = np.asarray(thresholds_c, dtype=float).reshape(-1, 1)
+    # air_temp_c_for_wet_bulb at each row's threshold (the threshold's own terms worked out once)
+    air_at = air_temp_c_for_wet_bulb_rows(thr[:, 0], td, pressure_hpa)
     air_at = np.where(np.isfinite(air_at), air_at, thr)
-    return [_first_crossing_s(g, gap) for gap in air - air_at]  # gap <= 0 once the wet bulb is at or below
+    return _first_crossings_s(g, air - air_at)  # gap <= 0 once the wet bulb is at or below
+
+
+def _first_crossings_s(g: np.ndarray, gaps: np.ndarray) -> list[float | None]:
+    """`_first_crossing_s` of each row of `gaps`, the rows compared in one array operation."""
+    below = gaps <= 0.0
+    if below.shape[1] == 0:
+        return [None] * below.shape[0]
+    first = below.argmax(axis=1).tolist()  # the first True of each row (0 when there is none)
+    out: list[float | None] = []
+    for k, i in enumerate(first):
+        if not below[k, i]:
+            out.append(None)
+        elif i == 0:
+            out.append(float(g[0]))
+        else:
+            g0, g1 = gaps[k, i - 1], gaps[k, i]
+            f = g0 / (g0 - g1) if g0 != g1 else 1.0
+            out.append(float(g[i - 1] + f * (g[i] - g[i - 1])))
+    return out
 
 
 def _first_crossing_s(g: np.ndarray, gap: np.ndarray) -> float | None:

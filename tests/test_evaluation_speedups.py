@@ -297,3 +297,55 @@ def test_dew_point_history_takes_the_windows_readings_as_a_mask_would(times, now
         return
     want = dew_point_c_from_rel_humidity(np.interp(t[sel], t, air), np.clip(rh[sel], 1.0, 100.0))
     assert got[0].tolist() == t[sel].tolist() and got[1].tolist() == np.asarray(want).tolist()
+
+
+def test_air_temp_for_wet_bulb_by_rows_is_the_broadcast_function_to_the_bit():
+    """physics.wet_bulb.air_temp_c_for_wet_bulb_rows (each target's own terms worked out once) gives
+    air_temp_c_for_wet_bulb's values bit for bit: targets above and below 0 degC, dew points above
+    the target, NaN and infinite inputs, pressures from a mountain to none."""
+    from frostwatch.physics.wet_bulb import air_temp_c_for_wet_bulb, air_temp_c_for_wet_bulb_rows
+
+    rng = np.random.default_rng(3)
+    for _ in range(300):
+        rows, n = int(rng.integers(1, 6)), int(rng.integers(0, 80))
+        tw = rng.uniform(-8.0, 6.0, rows)
+        tw[rng.random(rows) < 0.1] = 0.0
+        td = rng.uniform(-30.0, 8.0, (rows, n))
+        td[rng.random((rows, n)) < 0.03] = np.nan
+        td[rng.random((rows, n)) < 0.01] = np.inf
+        if rows > 1 and rng.random() < 0.2:
+            tw[1] = np.nan
+        p = float(rng.choice([1013.25, 850.0, 620.0, 0.0, -5.0, np.nan, float(rng.uniform(500, 1050))]))
+        want = np.asarray(air_temp_c_for_wet_bulb(np.broadcast_to(tw[:, None], td.shape), td, p), dtype=float)
+        got = air_temp_c_for_wet_bulb_rows(tw, td, p)
+        assert got.shape == want.shape and got.tobytes() == want.tobytes()
+
+
+def _wet_bulb_crossings_plain(grid_s, air_curves_c, dew_points_c, thresholds_c, pressure_hpa):
+    """drying.wet_bulb_crossings_s as it was: the broadcast solve, one row at a time after."""
+    from frostwatch.drying import _first_crossing_s
+    from frostwatch.physics.humidity import air_temp_c_for_wet_bulb
+
+    g = np.asarray(grid_s, dtype=float)
+    air = np.asarray(air_curves_c, dtype=float)
+    td = np.minimum(np.asarray(dew_points_c, dtype=float), air)
+    thr = np.broadcast_to(np.asarray(thresholds_c, dtype=float)[:, None], air.shape)
+    air_at = np.asarray(air_temp_c_for_wet_bulb(thr, td, pressure_hpa), dtype=float)
+    air_at = np.where(np.isfinite(air_at), air_at, thr)
+    return [_first_crossing_s(g, gap) for gap in air - air_at]
+
+
+def test_wet_bulb_crossings_are_the_broadcast_solves_row_by_row():
+    """drying.wet_bulb_crossings_s (targets' terms once, rows compared at once) crosses where the
+    plain broadcast solve and a row-by-row search cross, to the bit."""
+    from frostwatch import drying
+
+    rng = np.random.default_rng(23)
+    for _ in range(400):
+        grid = 1.8e9 + 300.0 * np.arange(rng.integers(1, 120))
+        air = [np.linspace(rng.uniform(-1, 8), rng.uniform(-8, 3), len(grid)) for _ in range(2)]
+        td = [np.minimum(a, rng.uniform(-14, 2)) - np.linspace(0, rng.uniform(0, 3), len(grid)) for a in air]
+        thr = [float(rng.uniform(-4, 1)), float(rng.uniform(-4, 1))]
+        p = float(rng.uniform(600, 1040))
+        args = (grid, air * 2, td * 2, [thr[0], thr[0], thr[1], thr[1]], p)
+        assert drying.wet_bulb_crossings_s(*args) == _wet_bulb_crossings_plain(*args)

@@ -8,6 +8,7 @@ too: it is what the psychrometric balance is written in.
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -321,3 +322,49 @@ def air_temp_c_for_wet_bulb(wet_bulb_c, dew_point_c, pressure_hpa=STANDARD_PRESS
         air_temp_c = np.maximum(air_temp_c, tw)
     ok &= np.isfinite(air_temp_c)
     return _result(np.where(ok, air_temp_c, np.nan), scalar)
+
+
+@functools.lru_cache(maxsize=256)
+def _target_side(wet_bulb_c: float, pressure_hpa: float) -> tuple[float, float, float, bool]:
+    """(Ws, the latent and denominator coefficients, valid) of `air_temp_c_for_wet_bulb` for one
+    target wet bulb at one pressure: the same elementwise expressions, on a one-element array."""
+    tw, p = np.array([wet_bulb_c]), np.array([pressure_hpa])
+    ice = tw < 0.0
+    ws = np.where(ice, _humidity_ratio(_sat_ice_hpa(tw), p), _humidity_ratio(_sat_water_hpa(tw), p))
+    k_latent = np.where(ice, 2830.0 - 0.24 * tw, 2501.0 - 2.326 * tw)
+    k_denominator = np.where(ice, 2830.0 - 2.1 * tw, 2501.0 - 4.186 * tw)
+    ok = np.isfinite(tw) & np.isfinite(p) & (p > 0.0)
+    return float(ws[0]), float(k_latent[0]), float(k_denominator[0]), bool(ok[0])
+
+
+def air_temp_c_for_wet_bulb_rows(wet_bulb_c, dew_point_c: np.ndarray, pressure_hpa: float) -> np.ndarray:
+    """`air_temp_c_for_wet_bulb` with one target wet bulb per row of `dew_point_c`.
+
+    Parameters
+    ----------
+    wet_bulb_c : sequence of float
+        Target wet bulb of each row [degC] (a few thresholds).
+    dew_point_c : ndarray, shape (rows, n)
+        Dew point over liquid water [degC].
+    pressure_hpa : float
+        Station pressure [hPa].
+
+    Returns
+    -------
+    ndarray, shape (rows, n)
+        The values of ``air_temp_c_for_wet_bulb(wet_bulb_c[:, None], dew_point_c, pressure_hpa)``
+        (ASHRAE Handbook-Fundamentals (2017), ch. 1, eqs. 33 and 35; see there): what depends
+        on the target alone (its saturation humidity ratio and the two coefficients) is worked
+        out once per target and pressure, by the same elementwise expressions.
+    """
+    td = np.array(dew_point_c, dtype=float)
+    tw = np.array(wet_bulb_c, dtype=float).reshape(-1, 1)
+    sides = [_target_side(float(x), float(pressure_hpa)) for x in tw[:, 0].tolist()]
+    ws, k_latent, k_denominator = (np.array([s[k] for s in sides]).reshape(-1, 1) for k in range(3))
+    ok = np.array([s[3] for s in sides]).reshape(-1, 1) & np.isfinite(td) & (td <= tw)
+    w = _humidity_ratio(_sat_water_hpa(td), float(pressure_hpa))
+    with np.errstate(invalid="ignore"):
+        air_temp_c = (k_latent * ws + 1.006 * tw - w * k_denominator) / (1.006 + 1.86 * w)
+        air_temp_c = np.maximum(air_temp_c, tw)
+    ok &= np.isfinite(air_temp_c)
+    return np.where(ok, air_temp_c, np.nan)
