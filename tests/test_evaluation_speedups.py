@@ -349,3 +349,20 @@ def test_wet_bulb_crossings_are_the_broadcast_solves_row_by_row():
         p = float(rng.uniform(600, 1040))
         args = (grid, air * 2, td * 2, [thr[0], thr[0], thr[1], thr[1]], p)
         assert drying.wet_bulb_crossings_s(*args) == _wet_bulb_crossings_plain(*args)
+
+
+@given(st.lists(st.one_of(st.floats(allow_nan=True, allow_infinity=True),
+                          st.floats(allow_nan=True).map(np.float64), st.integers(-5, 5),
+                          st.floats(allow_nan=False, allow_infinity=False, width=32).map(np.float32)), min_size=1, max_size=5))
+def test_physics_inputs_of_floats_are_the_broadcast_ones(values):
+    """physics._broadcast._inputs gives floats (and numpy float64) 0-d float arrays without
+    broadcasting: the same dtype, shape, values and independence as the broadcast path."""
+    from frostwatch.physics._broadcast import _inputs
+
+    got, scalar = _inputs(*values)
+    want = [np.array(a, dtype=float) for a in np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))]
+    assert scalar is True
+    assert [(a.dtype, a.shape, a.tobytes(), a.flags.writeable) for a in got] == \
+        [(a.dtype, a.shape, a.tobytes(), a.flags.writeable) for a in want]
+    got[0][...] = 7.0  # each its own array, as the copies below are
+    assert all(a is not got[0] and (len(got) == 1 or a.base is not got[0]) for a in got[1:])

@@ -12,6 +12,10 @@ def _result(value: np.ndarray, scalar: bool) -> float | np.ndarray:
 
 def _inputs(*values) -> tuple[list[np.ndarray], bool]:
     """Broadcast inputs to float arrays and tell whether all were scalar."""
+    if all(isinstance(v, float) for v in values):
+        # floats (numpy's float64 among them): nothing to broadcast; the same 0-d float arrays
+        # as below, without np.broadcast_arrays' cost (an evaluation makes about a hundred such calls)
+        return [np.array(v, dtype=float) for v in values], True
     scalar = all(np.ndim(v) == 0 for v in values)
     arrays = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in values))
     return [np.array(a, dtype=float) for a in arrays], scalar
