@@ -366,3 +366,38 @@ def test_physics_inputs_of_floats_are_the_broadcast_ones(values):
         [(a.dtype, a.shape, a.tobytes(), a.flags.writeable) for a in want]
     got[0][...] = 7.0  # each its own array, as the copies below are
     assert all(a is not got[0] and (len(got) == 1 or a.base is not got[0]) for a in got[1:])
+
+
+def test_newton_inversion_with_the_arrays_own_methods_is_np_clip_and_np_all():
+    """saturation._invert_ln_curve (the arrays' clip and all) gives what the loop with np.clip and
+    np.all gave, bit for bit, for dew and frost points of arrays and of single values."""
+    from frostwatch.physics import saturation as sat
+    from frostwatch.physics.dew_frost_point import _dew_point_c
+
+    def plain(ln_target_pa, first_guess_c, ln_curve, dln_curve, lo_c, hi_c):
+        temp_k = np.clip(first_guess_c, lo_c, hi_c) + sat.ZERO_CELSIUS_K
+        for _ in range(sat._NEWTON_ITERATIONS):
+            step = (ln_curve(temp_k) - ln_target_pa) / dln_curve(temp_k)
+            step = np.where(np.isfinite(step), step, 0.0)
+            temp_k = np.clip(temp_k - step, lo_c + sat.ZERO_CELSIUS_K - 1.0, hi_c + sat.ZERO_CELSIUS_K + 1.0)
+            if np.all(np.abs(step) < sat._NEWTON_TOLERANCE_K):
+                break
+        temp_c = temp_k - sat.ZERO_CELSIUS_K
+        ok = np.isfinite(ln_target_pa) & (temp_c >= lo_c - 1e-9) & (temp_c <= hi_c + 1e-9)
+        return np.where(ok, np.clip(temp_c, lo_c, hi_c), np.nan)
+
+    import frostwatch.physics.dew_frost_point as dfp
+
+    rng = np.random.default_rng(5)
+    for shape in [(), (1,), (7,), (120,), (3, 40)]:
+        for _ in range(40):
+            e = np.asarray(rng.uniform(0.05, 60.0, shape))
+            if e.ndim:
+                e[rng.random(shape) < 0.05] = np.nan
+            got = np.asarray(_dew_point_c(e))
+            real, dfp._invert_ln_curve = dfp._invert_ln_curve, plain  # the dew point solved the old way
+            try:
+                want = np.asarray(_dew_point_c(e))
+            finally:
+                dfp._invert_ln_curve = real
+            assert got.tobytes() == want.tobytes()

@@ -69,7 +69,7 @@ def sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float
     if sel.sum() < FIT_MIN_POINTS:
         return None
     x = np.sqrt(elapsed_h[sel])
-    return float(np.sum(x * (temps_c[sel] - t0_c)) / np.sum(x * x))
+    return float((x * (temps_c[sel] - t0_c)).sum() / (x * x).sum())  # np.sum's values, without its wrapper
 
 
 def _since(tv: tuple[np.ndarray, np.ndarray], t0_s: float, now_s: float) -> tuple[np.ndarray, np.ndarray]:

@@ -96,12 +96,14 @@ def _sat_ice_hpa(temp_c: np.ndarray) -> np.ndarray:
 
 def _invert_ln_curve(ln_target_pa, first_guess_c, ln_curve, dln_curve, lo_c, hi_c):
     """Newton iteration on ln e(T) = ln_target; NaN where the root leaves [lo_c, hi_c]."""
-    temp_k = np.clip(first_guess_c, lo_c, hi_c) + ZERO_CELSIUS_K
+    # the arrays' own clip and all: np.clip and np.all's values without their wrappers (this loop
+    # runs for every dew point an evaluation solves)
+    temp_k = np.asarray(first_guess_c).clip(lo_c, hi_c) + ZERO_CELSIUS_K
     for _ in range(_NEWTON_ITERATIONS):
         step = (ln_curve(temp_k) - ln_target_pa) / dln_curve(temp_k)
         step = np.where(np.isfinite(step), step, 0.0)
-        temp_k = np.clip(temp_k - step, lo_c + ZERO_CELSIUS_K - 1.0, hi_c + ZERO_CELSIUS_K + 1.0)
-        if np.all(np.abs(step) < _NEWTON_TOLERANCE_K):
+        temp_k = (temp_k - step).clip(lo_c + ZERO_CELSIUS_K - 1.0, hi_c + ZERO_CELSIUS_K + 1.0)
+        if (np.abs(step) < _NEWTON_TOLERANCE_K).all():
             break
     temp_c = temp_k - ZERO_CELSIUS_K
     ok = np.isfinite(ln_target_pa) & (temp_c >= lo_c - 1e-9) & (temp_c <= hi_c + 1e-9)
