@@ -1,7 +1,7 @@
 """Instructions per evaluation cycle of 50 blocks x 4 stations (issue 19; a tool, not run by
 `python -m bench`).
 
-    python -m bench.evaluation_instructions [--tree DIR] [--blocks N] [--cycles K]
+    python -m bench.evaluation_instructions [--tree DIR] [--blocks N] [--cycles K] [--push-only]
 
 bench/evaluation.py's night (bench/synth.py: a radiation night of 1-minute readings, evaluated
 from 02:00 local) and its cycle, `daemon.Core.evaluate` on the night cache after every station's
@@ -15,6 +15,9 @@ shared machine, unlike CPU time.
 
 Printed beside the count: the SHA-256 of every cycle's decisions as stored (`decision_to_json`)
 and projection rows, so that two trees that count differently can be shown to decide the same.
+
+`--push-only`: the same K pushes to the cache without the evaluations, to subtract: the
+benchmark's cycle (bench/evaluation.py's cycle_ms) is the evaluation alone.
 
 `--tree DIR`: a frostwatch tree to measure (e.g. `git archive REV frostwatch | tar -x -C DIR`);
 default the installed one.
@@ -34,7 +37,7 @@ import time
 from pathlib import Path
 
 
-def _inner(work: Path, n_blocks: int, cycles: int) -> None:
+def _inner(work: Path, n_blocks: int, cycles: int, push_only: bool = False) -> None:
     from bench import synth
     from bench.evaluation import _core, _new_readings, night_site
     from frostwatch.decision import decision_to_json
@@ -54,7 +57,8 @@ def _inner(work: Path, n_blocks: int, cycles: int) -> None:
     evs = []
     for now, readings in zip(nows, fresh, strict=True):
         core.readings_committed(readings)
-        evs.append(core.evaluate(now, "bench"))
+        if not push_only:
+            evs.append(core.evaluate(now, "bench"))
     (work / "done").touch()
     for ev in evs:
         for d, p in zip(ev.decisions, ev.projections, strict=True):
@@ -62,10 +66,10 @@ def _inner(work: Path, n_blocks: int, cycles: int) -> None:
             h.update(repr(Store._projection_row(p)).encode())
     assert core.cache.loads == 1
     store.close()
-    print("cycles", len(evs), "sha256", h.hexdigest())
+    print("cycles", len(nows), "sha256", h.hexdigest())
 
 
-def measure(tree: str | None, n_blocks: int, cycles: int) -> dict:
+def measure(tree: str | None, n_blocks: int, cycles: int, push_only: bool = False) -> dict:
     with tempfile.TemporaryDirectory(prefix="fw-evinstr-") as tmp:
         work = Path(tmp)
         env = dict(os.environ, PYTHONHASHSEED="0")
@@ -73,6 +77,7 @@ def measure(tree: str | None, n_blocks: int, cycles: int) -> dict:
             env["PYTHONPATH"] = os.pathsep.join([tree, str(Path(__file__).resolve().parent.parent)])
         cmd = ["valgrind", "--tool=callgrind", "--instr-atstart=no", f"--callgrind-out-file={work}/cg.out",
                sys.executable, "-m", "bench.evaluation_instructions", "--inner", str(work), str(n_blocks), str(cycles)]
+        cmd += ["--push-only"] if push_only else []
         p = subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
         while not (work / "ready").exists():
             if p.poll() is not None:
@@ -92,7 +97,7 @@ def measure(tree: str | None, n_blocks: int, cycles: int) -> dict:
         ir = int(re.search(r"Collected : (\d+)", err).group(1))
         n = int(m.group(1))
         return {"blocks": n_blocks, "cycles": n, "instructions": ir, "per_cycle_m": round(ir / n / 1e6, 2),
-                "decisions_sha256": m.group(2), "tree": tree or "installed"}
+                "decisions_sha256": m.group(2), "tree": tree or "installed", "push_only": push_only}
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -100,14 +105,16 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--tree")
     ap.add_argument("--blocks", type=int, default=50)
     ap.add_argument("--cycles", type=int, default=5)
+    ap.add_argument("--push-only", action="store_true")
     ap.add_argument("--inner", nargs=3)
     args = ap.parse_args(argv)
     if args.inner:
-        _inner(Path(args.inner[0]), int(args.inner[1]), int(args.inner[2]))
+        _inner(Path(args.inner[0]), int(args.inner[1]), int(args.inner[2]), args.push_only)
         return 0
-    r = measure(args.tree, args.blocks, args.cycles)
+    r = measure(args.tree, args.blocks, args.cycles, args.push_only)
+    what = "pushes alone" if r["push_only"] else f"decisions sha256 {r['decisions_sha256'][:16]}"
     print(f"{r['blocks']} blocks, {r['cycles']} cycles: {r['instructions']:,} instructions, "
-          f"{r['per_cycle_m']} M per cycle; decisions sha256 {r['decisions_sha256'][:16]} ({r['tree']})")
+          f"{r['per_cycle_m']} M per cycle; {what} ({r['tree']})")
     return 0
 
 
