@@ -13,11 +13,13 @@ ValueError, so a reader never misreads a newer store).
 
 from __future__ import annotations
 
+import bisect
 import datetime as dt
 from dataclasses import dataclass, field
 from enum import StrEnum
 
-from frostwatch.advice.codec import from_dict, to_dict, to_json
+from frostwatch.advice import codec_shapes
+from frostwatch.advice.codec import from_dict, to_dict
 from frostwatch.advice.plan import PLAN_VERSION, AdvicePlan, Step
 from frostwatch.models import Projection
 
@@ -86,17 +88,14 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
     if p.predicted_min_c is not None and band is not None and band == band:
         lo = p.predicted_min_c - band if lo is None else lo
         hi = p.predicted_min_c + band if hi is None else hi
-    times, temps = [], []
-    due = None  # the next point kept is the first at or past this (t - last >= step, without a timedelta per point)
-    for t, c in zip(p.curve_time_utc, p.curve_air_temp_c, strict=False):
-        if due is None or t >= due:
-            times.append(t)
-            temps.append(round(float(c), 2))
-            due = t + _CURVE_STEP
-    if p.curve_time_utc and (not times or times[-1] != p.curve_time_utc[-1]):
-        times.append(p.curve_time_utc[-1])
-        temps.append(round(float(p.curve_air_temp_c[-1]), 2))
-    r = lambda v: None if v is None else round(float(v), 2)  # noqa: E731
+    curve_t, curve_c = p.curve_time_utc, p.curve_air_temp_c
+    kept = _kept_points(curve_t, min(len(curve_t), len(curve_c)))
+    times = [curve_t[i] for i in kept]
+    temps = _rounded2([curve_c[i] for i in kept])
+    if curve_t and (not times or times[-1] != curve_t[-1]):
+        times.append(curve_t[-1])
+        temps.append(_round2(curve_c[-1]))
+    r = lambda v: None if v is None else _round2(v)  # noqa: E731
     return ProjectionSummary(
         station=p.station, air_temp_c=r(p.air_temp_c), dew_point_c=r(p.dew_point_c), wet_bulb_c=r(p.wet_bulb_c),
         predicted_min_c=r(p.predicted_min_c), predicted_min_at_utc=p.predicted_min_at_utc, band_c=r(band),
@@ -105,6 +104,56 @@ def summarise_projection(p: Projection) -> ProjectionSummary:
         method=p.method, notes=tuple(p.notes), curve_time_utc=tuple(times), curve_air_temp_c=tuple(temps),
         wind_from_farm=bool(getattr(p, "wind_from_farm", False)),
     )
+
+
+def _kept_points(times: tuple[dt.datetime, ...], n: int) -> list[int]:
+    """The indices of the curve's points the stored decision keeps among the first `n`: the
+    first, then each first at or past the last kept one + CURVE_STEP_S (t - last >= step). Times
+    in order (a projection's curve) are cut by bisection, a few steps instead of one per point;
+    any others point by point (tests/test_stored_decision.py holds both to the plain loop)."""
+    head = times[:n]
+    if n > 2 and sorted(head) == list(head):  # in order (sorted keeps equal times in place)
+        out, i = [], 0
+        while i < n:  # non-decreasing: the first at or past times[i] + step after i
+            out.append(i)
+            i = bisect.bisect_left(times, times[i] + _CURVE_STEP, i + 1, n)
+        return out
+    out, due = [], None
+    for i in range(n):
+        if due is None or times[i] >= due:
+            out.append(i)
+            due = times[i] + _CURVE_STEP
+    return out
+
+
+# round(x, 2) of floats seen before (a night's curves and readings repeat their values from one
+# evaluation to the next; Python's round to digits is a correctly rounded decimal conversion, the
+# costliest part of the summary). Keyed by the float: two equal floats are the same float except
+# 0.0 and -0.0, and NaN equals nothing, so neither zeros nor NaN are kept. Emptied when full.
+ROUND_CACHE_SIZE = 20_000
+_ROUNDED: dict[float, float] = {}
+
+
+def _rounded2(values: list) -> list[float]:
+    """`[round(float(v), 2) for v in values]`, from the table where it holds them (a value equal
+    to a float kept there is that float, or converts to it: the same rounding)."""
+    out = list(map(_ROUNDED.get, values))
+    if None in out:
+        out = [_round2(v) if r is None else r for r, v in zip(out, values, strict=True)]
+    return out
+
+
+def _round2(v) -> float:
+    """`round(float(v), 2)`, from the table of floats rounded before."""
+    x = float(v)
+    got = _ROUNDED.get(x)
+    if got is None:
+        got = round(x, 2)
+        if x and x == x:
+            if len(_ROUNDED) >= ROUND_CACHE_SIZE:
+                _ROUNDED.clear()
+            _ROUNDED[x] = got
+    return got
 
 
 @dataclass(frozen=True)
@@ -165,8 +214,10 @@ def decision_to_doc(d: Decision) -> dict:
 
 def decision_to_json(d: Decision) -> str:
     """`decision_to_doc` as compact JSON text (`json.dumps(doc, separators=(",", ":"),
-    allow_nan=False)`, byte for byte), written without the dict in between."""
-    return to_json(d, drop_none=True)
+    allow_nan=False)`, byte for byte), written without the dict in between by the writer of its
+    shape (`advice.codec_shapes`: the keys and commas worked out once per shape, every value
+    written afresh)."""
+    return codec_shapes.to_json(d, drop_none=True)
 
 
 def decision_from_doc(doc: dict) -> Decision:
