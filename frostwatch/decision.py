@@ -22,6 +22,7 @@ from frostwatch.advice import codec_shapes
 from frostwatch.advice.codec import from_dict, to_dict
 from frostwatch.advice.plan import PLAN_VERSION, AdvicePlan, Step
 from frostwatch.models import Projection
+from frostwatch.quick_init import quick_init
 
 DECISION_VERSION = 1
 CURVE_STEP_S = 1800.0  # the stored projected curve keeps one point per half hour (SD-card wear)
@@ -40,6 +41,7 @@ class MonitorReason(StrEnum):
     NO_EVALUATION = "no-evaluation"  # readers only: no recent decision stored for the block
 
 
+@quick_init
 @dataclass(frozen=True)
 class Monitoring:
     """Whether anyone is watching the block: its crop-height sensor fresh and (for readers) the
@@ -54,6 +56,7 @@ class Monitoring:
     fresh_until_utc: dt.datetime | None = None
 
 
+@quick_init
 @dataclass(frozen=True)
 class ProjectionSummary:
     """The projection as stored with the decision (the curve thinned to half-hour points)."""
@@ -156,6 +159,7 @@ def _round2(v) -> float:
     return got
 
 
+@quick_init
 @dataclass(frozen=True)
 class Decision:
     """One block's decision at one evaluation (see the module docstring).

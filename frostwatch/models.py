@@ -10,6 +10,8 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
+from frostwatch.quick_init import quick_init
+
 
 @dataclass(frozen=True, slots=True)
 class Reading:
@@ -38,6 +40,7 @@ class Rejection:
         return f"{self.source}:{self.line}" if self.line is not None else self.source
 
 
+@quick_init
 @dataclass(frozen=True)
 class StationState:
     """What one station says at an evaluation: its latest values and whether it can be trusted."""
@@ -51,6 +54,7 @@ class StationState:
     problems: tuple[str, ...] = ()
 
 
+@quick_init
 @dataclass(frozen=True)
 class Projection:
     """A block's projected night from one evaluation.

@@ -78,6 +78,7 @@ def test_the_kept_points_and_their_rounding_are_the_plain_loops(start_s, gaps_s,
                                    math.nan, np.float64(-0.0), np.float64(2.675), 3, True, -1e-300])
 def test_every_rounded_field_is_round_to_two_places(value, monkeypatch):
     monkeypatch.setattr(decision, "ROUND_CACHE_SIZE", 4)
+    monkeypatch.setattr(decision, "_ROUNDED", {})
     t0 = dt.datetime(2027, 4, 14, 3, 0, tzinfo=dt.UTC)
     times = [t0 + dt.timedelta(minutes=5 * i) for i in range(3)]
     want = round(float(value), 2)

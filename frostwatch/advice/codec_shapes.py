@@ -100,22 +100,41 @@ def _str_text(v: str) -> str:
 
 
 def _sequence(obj, drop_none: bool) -> str:
-    """`codec._sequence_text`: a list or tuple of one dataclass type through its writers, of
-    finite floats or of texts from the tables above."""
-    if obj:
-        kind = type(obj[0])
+    """`codec._sequence_text`: lists and tuples of one type, finite floats and texts from the
+    tables above, instants from their cache, enums' texts by value, dataclasses through their
+    writers; anything else by `codec._sequence_text` itself."""
+    kinds = set(map(type, obj))
+    if len(kinds) == 1:
+        kind = kinds.pop()
         if kind is float or kind is str:
-            if all(type(x) is kind for x in obj) and (kind is str or math.isfinite(sum(obj))):
+            if kind is str or math.isfinite(sum(obj)):  # a sum that overflows: codec's long way, as NaN
                 table = _FLOAT_TEXT if kind is float else _STR_TEXT
                 texts = list(map(table.get, obj))
                 if None in texts:
                     new = _float_text if kind is float else _str_text
                     texts = [t if t is not None else new(x) for t, x in zip(texts, obj, strict=True)]
                 return "[" + ",".join(texts) + "]"
-        elif _WRITERS.get((kind, drop_none)) is not None or (_shaped(kind) and not issubclass(kind, enum.Enum)):
-            if all(type(x) is kind for x in obj):  # codec writes each by to_json: the same text
-                return "[" + ",".join([to_json(x, drop_none) for x in obj]) + "]"
+        elif kind is dt.datetime:  # a curve's instants
+            return "[" + ",".join(map(codec._iso_utc_json, obj)) + "]"
+        elif issubclass(kind, enum.Enum):  # cautions, alternatives: by their values
+            if _plain_value(kind):
+                values = [x._value_ for x in obj]
+                if set(map(type, values)) == {str}:
+                    return "[" + ",".join([_STR_TEXT.get(v) or _str_text(v) for v in values]) + "]"
+        elif _WRITERS.get((kind, drop_none)) is not None or _shaped(kind):  # codec: to_json of each
+            return "[" + ",".join([to_json(x, drop_none) for x in obj]) + "]"
     return codec._sequence_text(obj, drop_none)
+
+
+_PLAIN_VALUE: dict[type, bool] = {}
+
+
+def _plain_value(kind: type) -> bool:
+    """Whether an enum's `value` is Enum's own (the member's `_value_`), not redefined."""
+    got = _PLAIN_VALUE.get(kind)
+    if got is None:
+        got = _PLAIN_VALUE[kind] = inspect.getattr_static(kind, "value") is _ENUM_VALUE
+    return got
 
 
 def _mapping(obj: dict, drop_none: bool) -> str:
@@ -151,7 +170,7 @@ def _value_expr(v, var: str, drop_none: bool) -> str:
     if t is dt.datetime:
         return f"iso_json({var})"
     if isinstance(v, enum.Enum):
-        if inspect.getattr_static(t, "value") is _ENUM_VALUE:
+        if _plain_value(t):
             return f"value_text({var}._value_, {dn})"  # what Enum.value returns, without the descriptor
         return f"value_text({var}.value, {dn})"
     if t is bool:

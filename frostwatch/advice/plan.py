@@ -14,6 +14,8 @@ import datetime as dt
 from dataclasses import dataclass
 from enum import StrEnum
 
+from frostwatch.quick_init import quick_init
+
 PLAN_VERSION = 2  # bump when a field changes meaning; readers refuse versions they do not know
 
 
@@ -126,6 +128,7 @@ BASE_CAUTIONS = (Caution.GROWER_DECIDES, Caution.CHECK_THERMOMETERS, Caution.LOC
 # ---- per-method figures ------------------------------------------------------------------------
 
 
+@quick_init
 @dataclass(frozen=True)
 class FanFigures:
     """Wind machines: the inversion they draw on and the warming expected at crop height."""
@@ -153,6 +156,7 @@ class FanFigures:
     history_nights: int | None = None
 
 
+@quick_init
 @dataclass(frozen=True)
 class SprinklerFigures:
     """Sprinklers: start and stop air temperatures and the rate tonight needs."""
@@ -180,6 +184,7 @@ class SprinklerFigures:
     shortfall_c: float | None = None  # under-tree: how far it stays below T10 + margin
 
 
+@quick_init
 @dataclass(frozen=True)
 class HeaterFigures:
     """Heaters: the heat tonight asks for at T10 + margin, the share the inversion holds, and the
@@ -198,6 +203,7 @@ class HeaterFigures:
     enough: bool | None = None  # installed output at least the output needed
 
 
+@quick_init
 @dataclass(frozen=True)
 class Resources:
     """The night's estimated running hours, water, fuel or energy (only for an advised method)."""
@@ -217,6 +223,7 @@ class Resources:
     machine_kw: float | None = None
 
 
+@quick_init
 @dataclass(frozen=True)
 class MethodVerdict:
     """Whether a method is advised tonight; if not, the one typed reason why not."""
@@ -240,6 +247,7 @@ class StopBasis(StrEnum):
     FALLBACK_AIR = "fallback-air"  # sprinklers without reference air: the block's air well above the ice-bulb rule
 
 
+@quick_init
 @dataclass(frozen=True)
 class StopCheck:
     """The morning stop rule: the trigger temperature against its limit, and its trend.
@@ -266,6 +274,7 @@ class StopCheck:
 # ---- the plan ------------------------------------------------------------------------------------
 
 
+@quick_init
 @dataclass(frozen=True)
 class AdvicePlan:
     """What frostwatch advises for one block at one instant.
