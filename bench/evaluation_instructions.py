@@ -28,13 +28,11 @@ from __future__ import annotations
 import argparse
 import datetime as dt
 import hashlib
-import os
 import re
-import subprocess
-import sys
 import tempfile
-import time
 from pathlib import Path
+
+from bench import callgrind
 
 
 def _inner(work: Path, n_blocks: int, cycles: int, push_only: bool = False) -> None:
@@ -51,9 +49,7 @@ def _inner(work: Path, n_blocks: int, cycles: int, push_only: bool = False) -> N
     nows = [at + dt.timedelta(minutes=2 * (k + 1)) for k in range(cycles)]
     fresh = [_new_readings(cfg, a, b, sunset) for a, b in zip([at] + nows, nows, strict=False)]
     h = hashlib.sha256()
-    (work / "ready").touch()
-    while not (work / "go").exists():
-        time.sleep(0.2)
+    callgrind.wait_for_go(work)
     evs = []
     for now, readings in zip(nows, fresh, strict=True):
         core.readings_committed(readings)
@@ -71,30 +67,11 @@ def _inner(work: Path, n_blocks: int, cycles: int, push_only: bool = False) -> N
 
 def measure(tree: str | None, n_blocks: int, cycles: int, push_only: bool = False) -> dict:
     with tempfile.TemporaryDirectory(prefix="fw-evinstr-") as tmp:
-        work = Path(tmp)
-        env = dict(os.environ, PYTHONHASHSEED="0")
-        if tree:
-            env["PYTHONPATH"] = os.pathsep.join([tree, str(Path(__file__).resolve().parent.parent)])
-        cmd = ["valgrind", "--tool=callgrind", "--instr-atstart=no", f"--callgrind-out-file={work}/cg.out",
-               sys.executable, "-m", "bench.evaluation_instructions", "--inner", str(work), str(n_blocks), str(cycles)]
-        cmd += ["--push-only"] if push_only else []
-        p = subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-        while not (work / "ready").exists():
-            if p.poll() is not None:
-                raise RuntimeError(p.stderr.read())
-            time.sleep(0.5)
-        subprocess.run(["callgrind_control", "-i", "on", str(p.pid)], capture_output=True, check=False)
-        (work / "go").touch()
-        while not (work / "done").exists():
-            if p.poll() is not None:
-                raise RuntimeError(p.stderr.read())
-            time.sleep(0.2)
-        subprocess.run(["callgrind_control", "-i", "off", str(p.pid)], capture_output=True, check=False)
-        out, err = p.communicate()
+        args = [str(n_blocks), str(cycles)] + (["--push-only"] if push_only else [])
+        out, err, ir = callgrind.counted_run("bench.evaluation_instructions", args, Path(tmp), tree, stop_mark="done")
         m = re.search(r"cycles (\d+) sha256 (\w+)", out)
         if m is None:
             raise RuntimeError(out + err)
-        ir = int(re.search(r"Collected : (\d+)", err).group(1))
         n = int(m.group(1))
         return {"blocks": n_blocks, "cycles": n, "instructions": ir, "per_cycle_m": round(ir / n / 1e6, 2),
                 "decisions_sha256": m.group(2), "tree": tree or "installed", "push_only": push_only}

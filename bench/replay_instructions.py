@@ -21,13 +21,11 @@ one. The log is bench/tmy.py's Greensboro year, read with pandas into the replay
 from __future__ import annotations
 
 import argparse
-import os
 import re
-import subprocess
-import sys
 import tempfile
-import time
 from pathlib import Path
+
+from bench import callgrind
 
 
 def _series(csv_path: Path) -> dict:
@@ -59,9 +57,7 @@ def _inner(work: Path, a: int, b: int) -> None:
         if k >= b:
             raise _Done
         if k == a:
-            (work / "ready").touch()
-            while not (work / "go").exists():
-                time.sleep(0.2)
+            callgrind.wait_for_go(work)
         return a - 1 <= k < b
 
     n = 0
@@ -82,21 +78,8 @@ def measure(tree: str | None, a: int, b: int) -> dict:
     with tempfile.TemporaryDirectory(prefix="fw-instr-") as tmp:
         work = Path(tmp)
         tmy.write_log_and_config(tmy.SITES["greensboro"], work)
-        env = dict(os.environ, PYTHONHASHSEED="0")  # the same dict and set layouts in every run
-        if tree:
-            env["PYTHONPATH"] = os.pathsep.join([tree, str(Path(__file__).resolve().parent.parent)])
-        cmd = ["valgrind", "--tool=callgrind", "--instr-atstart=no", f"--callgrind-out-file={work}/cg.out",
-               sys.executable, "-m", "bench.replay_instructions", "--inner", str(work), str(a), str(b)]
-        p = subprocess.Popen(cmd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-        while not (work / "ready").exists():
-            if p.poll() is not None:
-                raise RuntimeError(p.stderr.read())
-            time.sleep(0.5)
-        subprocess.run(["callgrind_control", "-i", "on", str(p.pid)], capture_output=True, check=False)
-        (work / "go").touch()
-        out, err = p.communicate()
+        out, _, ir = callgrind.counted_run("bench.replay_instructions", [str(a), str(b)], work, tree)
         evals = int(re.search(r"evaluations (\d+)", out).group(1))
-        ir = int(re.search(r"Collected : (\d+)", err).group(1))
         return {"nights": [a, b], "evaluations": evals, "instructions": ir,
                 "per_evaluation_m": round(ir / max(evals, 1) / 1e6, 3), "tree": tree or "installed"}
 
