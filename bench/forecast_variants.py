@@ -59,6 +59,22 @@ VARIANTS: dict[str, dict[str, object]] = {
     "nowcast: no approach blend (what shipped before it)": {"NOWCAST_APPROACH_BLEND": False},
     "nowcast: approach blend at every instant of the corrected nights (not only while the last 2 h cooled)":
         {"APPROACH_WHEN_COOLING": False},
+    # issue 15, seventh pass: the analog ensemble (forecast.analog, Delle Monache et al. 2013)
+    "nowcast: analog ensemble as a fifth member (k = 25 of the last 300 points per bin)": {"USE_ANALOG": True},
+    "nowcast: analog ensemble as a fifth member, k = 10": {"USE_ANALOG": True, "ANALOG_K": 10},
+    "nowcast: analog ensemble as a fifth member, k = 50": {"USE_ANALOG": True, "ANALOG_K": 50},
+    "nowcast: analog ensemble as a fifth member, k = 25 of the last 1000 points per bin":
+        {"USE_ANALOG": True, "ANALOG_MEMORY": 1000},
+    "nowcast: analog ensemble alone in place of the blend (k = 25; the approach correction and blend on it)":
+        {"USE_ANALOG": True, "ANALOG_ALONE": True},
+    "nowcast: approach blend's naive fall from the k = 10 analogs among past nights' instants 2 h before the minimum":
+        {"USE_LEAD_ANALOG": True},
+    "nowcast: approach blend's naive fall from the k = 25 analogs among past nights' instants 2 h before the minimum":
+        {"USE_LEAD_ANALOG": True, "LEAD_ANALOG_K": 25},
+    "nowcast: both analog ensembles (a fifth member, k = 10; the approach blend's naive fall, k = 25)":
+        {"USE_ANALOG": True, "ANALOG_K": 10, "USE_LEAD_ANALOG": True, "LEAD_ANALOG_K": 25},
+    "nowcast: both analog ensembles, k = 10 each":
+        {"USE_ANALOG": True, "ANALOG_K": 10, "USE_LEAD_ANALOG": True, "LEAD_ANALOG_K": 10},
 }
 
 # What main had before this issue (commit 2a3d308, the same bench), for the record.
