@@ -16,7 +16,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from frostwatch.forecast.analog import analog_fall_c
 from frostwatch.forecast.ridge import ridge_solve
 from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C
 
@@ -84,15 +83,6 @@ LEAD_BAND_RAW = True  # the nowcast band stays the blend's own (residuals and ce
 NOWCAST_APPROACH_BLEND = True
 APPROACH_WHEN_COOLING = True
 APPROACH_METHODS = ("corrected", "naive")
-# The analog ensemble (forecast.analog, Delle Monache et al. 2013) as a fifth nowcast member: the
-# ANALOG_K past training points of the same hours-left bin nearest in standardised features (the
-# most recent ANALOG_MEMORY kept per bin). ANALOG_ALONE: it replaces the blend (benchmark variant).
-USE_ANALOG = False
-ANALOG_K = 25
-ANALOG_MEMORY = 300
-ANALOG_ALONE = False
-USE_LEAD_ANALOG = False  # the approach blend's naive fall from analogs among past nights' instants 2 h before the minimum
-LEAD_ANALOG_K = 10
 
 
 def dusk_regime(x: tuple[float, ...]) -> str:
@@ -215,8 +205,6 @@ class Calibration:
     nc_bands: tuple = ()  # per bin: (low, high, n)
     nc_lead: tuple = ()  # per bin: (offset, ratio) of the approach correction, fall' = offset + ratio x fall
     nc_approach: tuple = ()  # ((method, weight), ...) of the approach blend (APPROACH_METHODS); empty: none yet
-    nc_lead_analog: object = None  # the analog index of past nights' instants 2 h before the minimum
-    nc_analog: tuple = ()  # per bin: the analog ensemble's index (forecast.analog.AnalogIndex) or None
     mean_min_c: float = 0.0
     naive_fall_c: float | None = None  # the mean fall over the 2 h before the minimum of the nights learned
     dusk_strata: tuple = ()  # (the stratum's value of the similarity input, moment matrix) when nights are weighted
@@ -331,22 +319,6 @@ class Calibration:
         mu, coefs, mean = model
         return min(0.0, mean + float(np.dot(coefs, np.asarray(f) - mu)))
 
-    def analog_drop_c(self, f: tuple[float, ...], hours_left: float) -> float | None:
-        """The analog ensemble's fall still to come (`USE_ANALOG`; None until its bin has
-        `NOWCAST_MIN_SAMPLES` analogs)."""
-        index = self.nc_analog[nowcast_bin(hours_left)] if USE_ANALOG and self.nc_analog else None
-        if index is None or len(index) < NOWCAST_MIN_SAMPLES:
-            return None
-        return analog_fall_c(index, f, ANALOG_K)
-
-    def approach_naive_c(self, f: tuple[float, ...]) -> float | None:
-        """The approach blend's naive member: the naive fall, or with `USE_LEAD_ANALOG` (once 10
-        past instants are known) the analogs' among past nights' instants 2 h before the minimum."""
-        idx = self.nc_lead_analog if USE_LEAD_ANALOG else None
-        if idx is None or len(idx) < 10:
-            return self.naive_drop_c(f)
-        return analog_fall_c(idx, f, LEAD_ANALOG_K)
-
     def naive_drop_c(self, f: tuple[float, ...]) -> float | None:
         """The naive method's fall still to come: minus the mean fall over the 2 h before the
         minimum of the nights learned (None before any)."""
@@ -372,7 +344,7 @@ class Calibration:
                 spoke += (f"; x{ratio:.2f}" if offset == 0.0 else f"; {offset:+.2f} + x{ratio:.2f}") + " as on past nights' approach"
         if lead and approach and self.approaching(f, dusk_min_c):
             w = dict(self.nc_approach)
-            naive = self.approach_naive_c(f)
+            naive = self.naive_drop_c(f)
             if naive is not None and w.get("naive", 0.0) > 0.0:
                 drop = min(0.0, w["corrected"] * drop + w["naive"] * naive)
                 spoke += f"; naive fall {w['naive']:.0%} as 2 h before past nights' minima"
@@ -408,11 +380,6 @@ class Calibration:
             comps["naive"] = naive
         if learned is not None:
             comps["learned"] = learned
-        analog = self.analog_drop_c(f, hours_left)
-        if analog is not None:
-            if ANALOG_ALONE:
-                return analog, "analog ensemble"
-            comps["analog"] = analog
         w = self.nc_weights[nowcast_bin(hours_left)] if self.nc_weights and NOWCAST_BLEND else None
         w = dict(w) if w else None
         if w and w.keys() >= comps.keys():  # every method that spoke has a weight

@@ -20,9 +20,7 @@ from collections import deque
 
 import numpy as np
 
-from frostwatch.forecast.analog import analog_index
 from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS, BAND_QUANTILES: also read from here)
-    ANALOG_MEMORY,
     APPROACH_METHODS,
     APPROACH_WHEN_COOLING,
     BAND_MEMORY,
@@ -53,8 +51,6 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     SIMILAR_BY,
     SIMILAR_WIDTH_C,
     T0_STRATUM_C,
-    USE_ANALOG,
-    USE_LEAD_ANALOG,
     USE_NAIVE,
     Calibration,
     NightRecord,
@@ -95,11 +91,7 @@ class Learner:
         self.dusk_residuals = _Window(BAND_MEMORY)
         f = len(NOWCAST_FEATURES)
         self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
-        self.nc_skill = [_Skill(NOWCAST_METHODS + (("analog",) if USE_ANALOG else ())) for _ in range(NOWCAST_BINS)]
-        self.analogs = [deque(maxlen=ANALOG_MEMORY) for _ in range(NOWCAST_BINS)]  # (features, fall) per bin
-        self._analog_index: list = [None] * NOWCAST_BINS  # per bin, as last snapshot; None: changed
-        self.lead_analogs: deque = deque(maxlen=ANALOG_MEMORY)  # (features, fall) 2 h before past minima
-        self._lead_index = None
+        self.nc_skill = [_Skill(NOWCAST_METHODS) for _ in range(NOWCAST_BINS)]
         self.nc_residuals = [_Window(BAND_MEMORY) for _ in range(NOWCAST_BINS)]
         self.fall_sum_c = 0.0  # the fall over the 2 h before each learned night's minimum (the naive nowcast)
         self.fall_n = 0
@@ -159,9 +151,6 @@ class Learner:
             learned = cal.learned_drop_c(f, hl)
             if learned is not None:
                 errs["learned"] = learned - drop
-            analog = cal.analog_drop_c(f, hl)
-            if analog is not None:
-                errs["analog"] = analog - drop
             self.nc_skill[b].add(errs)
             self._bins[b] = None
             if LEAD_BAND_RAW:  # the blend before the correction: nowcast_drop_c(lead=False)'s number
@@ -170,22 +159,16 @@ class Learner:
                 pred, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=True, dusk_min_c=pred_dusk)
             self.nc_residuals[b].append(drop - pred)
             bins.append(b)
-            if USE_ANALOG:
-                self.analogs[b].append((f, drop))
-                self._analog_index[b] = None
             if lead_hl is not None and abs(hl - lead_hl) <= 0.26 and (lead is None or abs(hl - lead_hl) < lead[0]):
                 lead = (abs(hl - lead_hl), f, hl, dusk_drop, el, drop)
         if lead is not None and NOWCAST_APPROACH_BLEND and cal.cold_night(pred_dusk) and (
                 not APPROACH_WHEN_COOLING or lead[1][2] < 0.0):
             # the approach blend's members scored where the minimum was 2 h away (before the correction learns it)
             _, f, hl, dusk_drop, el, drop = lead
-            naive = cal.approach_naive_c(f)
+            naive = cal.naive_drop_c(f)
             if naive is not None:
                 corrected, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, dusk_min_c=pred_dusk, approach=False)
                 self.approach_skill.add({"corrected": corrected - drop, "naive": naive - drop})
-        if lead is not None and USE_LEAD_ANALOG:
-            self.lead_analogs.append((lead[1], lead[5]))
-            self._lead_index = None
         if lead is not None and NOWCAST_LEAD_CORRECTION and cal.cold_night(pred_dusk):
             _, f, hl, dusk_drop, el, drop = lead
             raw, _ = cal.nowcast_drop_c(f, hl, dusk_drop, el, lead=False)
@@ -217,14 +200,10 @@ class Learner:
         self._cal = None
         return True
 
-    def nowcast_methods(self, learned: bool, b: int | None = None) -> tuple[str, ...]:
+    def nowcast_methods(self, learned: bool) -> tuple[str, ...]:
         """The nowcast methods an hours-left bin blends: the learned one once its bin has a model,
-        the naive fall once a past night has given one, the analog ensemble (`USE_ANALOG`) once
-        bin `b` holds `NOWCAST_MIN_SAMPLES` analogs."""
-        out = _NOWCAST_METHODS_OF[bool(learned), bool(self.fall_n and USE_NAIVE)]
-        if USE_ANALOG and b is not None and len(self.analogs[b]) >= NOWCAST_MIN_SAMPLES:
-            out = out + ("analog",)
-        return out
+        the naive fall once a past night has given one."""
+        return _NOWCAST_METHODS_OF[bool(learned), bool(self.fall_n and USE_NAIVE)]
 
     def calibration(self) -> Calibration:
         if self._cal is None:
@@ -280,15 +259,6 @@ class Learner:
         if NOWCAST_APPROACH_BLEND:
             w = found[-1]
             out["nc_approach"] = tuple(w.items()) if w else ()
-        if USE_ANALOG:
-            for b in range(NOWCAST_BINS):
-                if self._analog_index[b] is None and self.analogs[b]:
-                    self._analog_index[b] = analog_index(self.analogs[b])
-            out["nc_analog"] = tuple(self._analog_index)
-        if USE_LEAD_ANALOG and self.lead_analogs:
-            if self._lead_index is None:
-                self._lead_index = analog_index(self.lead_analogs)
-            out["nc_lead_analog"] = self._lead_index
         return Calibration(**out)
 
     def _refresh_bins(self, changed: list[int], other_items: list | None = None) -> list:
@@ -306,7 +276,7 @@ class Learner:
             ready = [b for b in ready if models[b] is None]
         if ready:
             models.update(zip(ready, ridge_solve_many(self.nc_m[ready], NOWCAST_RIDGE_LAMBDA), strict=True))
-        found = _weights_many(other_items + [(self.nc_skill[b], self.nowcast_methods(models[b] is not None, b))
+        found = _weights_many(other_items + [(self.nc_skill[b], self.nowcast_methods(models[b] is not None))
                                              for b in changed])
         for b, w in zip(changed, found[len(other_items):], strict=True):
             band = _band_from(self.nc_residuals[b], PRIOR_BAND_C * math.sqrt(min(1.0, (b + 0.5) * NOWCAST_BIN_H / 6.0)))
