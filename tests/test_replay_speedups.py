@@ -354,7 +354,7 @@ def test_the_prior_of_one_night_from_floats_is_the_array_paths(start, depression
 
 @pytest.mark.parametrize("now_s", [9.0e8, 9.0e8 + 120.0, 1.7e9 + 0.25, 1.7e9 + 0.5, 1.7e9 + 1.5, 1e9 - 1e-6])
 def test_the_curves_instants_added_as_timedeltas_are_the_instants_converted_one_by_one(now_s):
-    """`curves.grid_utc` (whole seconds on, a timedelta added per instant) gives what converting
+    """`curves.grid_utc` (whole seconds on, each instant its second's cached datetime) gives what converting
     each instant of the grid does, sunrise appended or not, for every thinning step."""
     from frostwatch.forecast.curves import grid_utc, utc_seconds
 

@@ -380,16 +380,31 @@ class Calibration:
             comps["naive"] = naive
         if learned is not None:
             comps["learned"] = learned
-        w = self.nc_weights[nowcast_bin(hours_left)] if self.nc_weights and NOWCAST_BLEND else None
+        b = nowcast_bin(hours_left)
+        w = self.nc_weights[b] if self.nc_weights and NOWCAST_BLEND else None
         w = dict(w) if w else None
         if w and w.keys() >= comps.keys():  # every method that spoke has a weight
             total = sum([w[k] for k in comps])  # lists, not generators: the same sums, in the same order
             drop = sum([w[k] * v for k, v in comps.items()]) / total
-            return min(0.0, drop), ("skill-weighted: " + ", ".join(f"{k} {w[k] / total:.0%}" for k in comps)) if say else ""
+            return min(0.0, drop), self._blend_words(b, w, comps, total) if say else ""
         if learned is not None:
             return learned, "learned"
         w_obs = elapsed_since_t0_h / (elapsed_since_t0_h + NOWCAST_HALF_WEIGHT_H)
         return min(0.0, w_obs * comps["refit"] + (1 - w_obs) * comps["dusk_curve"]), "refit"
+
+    def _blend_words(self, b: int, w: dict, comps: dict, total: float) -> str:
+        """Which methods spoke in bin `b`'s skill-weighted blend, with their shares of `total`
+        ("skill-weighted: refit 32%, dusk_curve 29%, ..."). The text depends only on the bin's
+        weights and which methods spoke: kept in `extra` instead of formatted at every evaluation,
+        with the very weights object it was made from (a calibration copied with other weights
+        shares `extra` but not that object)."""
+        key = ("blend words", b, tuple(comps))
+        hit = self.extra.get(key)
+        if hit is not None and hit[0] is self.nc_weights[b]:
+            return hit[1]
+        text = "skill-weighted: " + ", ".join(f"{k} {w[k] / total:.0%}" for k in comps)
+        self.extra[key] = (self.nc_weights[b], text)
+        return text
 
     def nowcast_band(self, hours_left: float) -> tuple[float, float, int]:
         if self.nc_bands:

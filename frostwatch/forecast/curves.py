@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import datetime as dt
 import functools
-import itertools
 import math
 
 import numpy as np
@@ -43,7 +42,12 @@ def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.date
     """`utc_seconds(grid_s[::step].tolist())` for a grid made by `np.arange(now_s, ..., grid_step_s)`
     with perhaps one more instant (sunrise) after it: from a whole second on, arange's instants
     are whole seconds `grid_step_s` apart, so each is the one before plus step * grid_step_s,
-    added as a timedelta (no conversion per instant). Other grids go through `utc_seconds`."""
+    taken from range() without a float per instant. Other grids go through `utc_seconds`.
+
+    Each instant is `_utc_second`'s own datetime of that second: the next evaluations' grids
+    share most of their instants (two minutes on, five-minute steps), so the same objects come
+    back, and a datetime keeps its hash once worked out (the decision's JSON looks each instant's
+    text up by it, `advice.codec._iso_utc_json`)."""
     pts = grid_s[::step]
     n = len(pts)
     first = float(pts[0]) if n else math.nan
@@ -51,8 +55,8 @@ def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.date
     if not (first == math.floor(first) and every_s == math.floor(every_s)):  # NaN included
         return utc_seconds(pts.tolist())
     m = n if float(pts[-1]) == first + (n - 1) * every_s else n - 1  # the last: a whole step on, or sunrise
-    out = tuple(itertools.accumulate(itertools.repeat(dt.timedelta(seconds=every_s), m - 1),
-                                     initial=_utc_second(int(first))))
+    a, every = int(first), int(every_s)
+    out = tuple(map(_utc_second, range(a, a + m * every, every)))
     return out if m == n else out + (_utc(float(pts[-1])),)
 
 
@@ -71,7 +75,12 @@ def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -
 
 def crossing_times(grid_s: np.ndarray, curve_c: np.ndarray, thresholds_c: list[float]) -> list[float | None]:
     """`crossing_time` of one curve at several thresholds, compared in one array operation (an
-    evaluation asks three of each of a block's two curves): the same values."""
+    evaluation asks three of each of a block's two curves): the same values. A curve whose
+    lowest point is above every threshold (most of a season's nights) crosses none of them: told
+    from its minimum alone (a NaN in the curve takes the long way; a NaN threshold is crossed by
+    nothing either way)."""
+    if len(curve_c) and thresholds_c and float(curve_c.min()) > max(thresholds_c):
+        return [None] * len(thresholds_c)
     below = curve_c <= np.array(thresholds_c)[:, None]
     first = below.argmax(axis=1).tolist()  # the first True of each row (0 when there is none)
     out: list[float | None] = []
@@ -95,8 +104,8 @@ def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: flo
     curve from the evening itself, known at dusk before any past night; None with fewer than 3
     readings. `memo`: a replay's window memo (`pipeline.WindowMemo`, one fixed set of readings),
     which keeps the slope b of each cut of the readings (the same readings give the same b)."""
-    i0 = int(np.searchsorted(t_s, sunset_s - EVENING_FROM_S, side="left"))
-    i1 = int(np.searchsorted(t_s, t0_s, side="right"))
+    i0 = int(t_s.searchsorted(sunset_s - EVENING_FROM_S, side="left"))
+    i1 = int(t_s.searchsorted(t0_s, side="right"))
     if i1 - i0 < 3:
         return None
     key = ("evening slope", sunset_s, i0, i1)

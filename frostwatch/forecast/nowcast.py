@@ -93,8 +93,8 @@ def features_at(
 
     `memo` (a replay's `pipeline.WindowMemo` values; the readings its window, which ends at
     `now_s`) keeps the sums over the readings while they are the same."""
-    j = int(np.searchsorted(t_s, now_s, side="right"))
-    i2 = int(np.searchsorted(t_s, now_s - RECENT_SLOPE_S, side="right"))
+    j = int(t_s.searchsorted(now_s, side="right"))
+    i2 = int(t_s.searchsorted(now_s - RECENT_SLOPE_S, side="right"))
     key = ("nowcast sums", t0_s, t0_c, j, i2)
     sums = None if memo is None else memo.get(key)
     if sums is None:

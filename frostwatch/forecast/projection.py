@@ -239,8 +239,9 @@ def project_block(
     sunrise_s, dusk_s = night.sunrise_utc.timestamp(), night.dusk_utc.timestamp()
     hours_left = max(0.0, (sunrise_s - now_s) / 3600.0)
     t_air, v_air = series[(speaker.station, "air_temperature")]
-    upto = t_air <= now_s
-    t_air, v_air = t_air[upto], v_air[upto]
+    if len(t_air) and not t_air[-1] <= now_s:  # sorted: a window cut at now (an evaluation's) is kept as it is
+        upto = t_air <= now_s
+        t_air, v_air = t_air[upto], v_air[upto]
 
     # the dusk forecast: at t0 if we are past it, else from the latest values. Past dusk it is
     # made from the readings window alone (and the calibration): a replay's memo keeps it while
@@ -302,7 +303,7 @@ def project_block(
         # after sunrise: report what was observed, project nothing
         night_sel = t_air >= night.sunset_utc.timestamp()
         obs = v_air[night_sel] if night_sel.any() else v_air
-        i = int(np.argmin(obs))
+        i = int(obs.argmin())
         tmin_c = float(obs[i])
         tmin_at = _utc(float(t_air[night_sel][i] if night_sel.any() else t_air[i]))
         if td_c is not None and block.protection in SPRINKLER_METHODS:
@@ -311,11 +312,11 @@ def project_block(
         method = "observed (after sunrise)"
         band_low_c = band_high_c = tmin_c
     elif not curves:
-        i = int(np.argmin(curve))
+        i = int(curve.argmin())
         tmin_c = float(curve[i])
         tmin_at = _utc(float(grid_s[i]))
     else:
-        i = int(np.argmin(curve))
+        i = int(curve.argmin())
         tmin_c = float(curve[i])
         tmin_at = _utc(float(grid_s[i]))
         dew_point_stations = [speaker.station] + [s.station for s in states + site_states if s is not speaker]
@@ -369,10 +370,10 @@ def project_block(
         method=method,
         notes=tuple(notes),
         curve_time_utc=grid_utc(grid_s, step, GRID_STEP_S) if drawn else (),
-        curve_air_temp_c=tuple(np.round(curve[::step], 2).tolist()) if drawn else (),
+        curve_air_temp_c=tuple(curve[::step].round(2).tolist()) if drawn else (),
         band_low_c=_round2(min(band_low_c, tmin_c)),
         band_high_c=_round2(max(band_high_c, tmin_c)),
-        curve_cold_edge_c=tuple(np.round(cold_curve[::step], 2).tolist()) if drawn else (),
+        curve_cold_edge_c=tuple(cold_curve[::step].round(2).tolist()) if drawn else (),
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,
         wind_from_farm=wind_from_farm,
