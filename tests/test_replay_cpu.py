@@ -9,6 +9,7 @@ to the plain way it replaces.
 from __future__ import annotations
 
 import dataclasses
+import datetime as dt
 import math
 
 import numpy as np
@@ -98,3 +99,28 @@ def test_the_curves_instants_are_the_same_objects_from_one_grid_to_the_next(now_
         grids.append(got)
     shared = set(map(id, grids[0])) & set(map(id, grids[2]))
     assert len(shared) == len(set(grids[0]) & set(grids[2]))
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.tuples(st.integers(min_value=-3, max_value=400), st.sampled_from([300, 600, 900, 1200]),
+                          st.integers(min_value=0, max_value=60)), min_size=1, max_size=25),
+       st.sampled_from([0, 60, 120, 7]))
+def test_the_runs_of_instants_sliced_from_earlier_runs_are_the_instants_made_afresh(calls, phase_s):
+    """`curves._whole_seconds_run` over any sequence of grids (forward as a night's evaluations,
+    backward, other steps, runs longer than the one kept, the table emptied when full) gives the
+    datetimes of `_utc_second` for each instant, the same objects where that cache holds them."""
+    from frostwatch.forecast import curves
+
+    for k, every, m in calls:
+        a = 1_800_000_000 + 120 * k + phase_s
+        got = curves._whole_seconds_run(a, every, m)
+        want = tuple(dt.datetime.fromtimestamp(x, tz=dt.UTC) for x in range(a, a + m * every, every))
+        assert got == want and all(g.tzinfo is dt.UTC for g in got)
+    old = curves.GRID_RUNS_KEPT
+    curves.GRID_RUNS_KEPT = 2  # emptied when full: still the same instants
+    try:
+        for k, every, m in calls:
+            a = 1_800_000_000 + 120 * k + phase_s
+            assert curves._whole_seconds_run(a, every, m) == tuple(curves._utc_second(x) for x in range(a, a + m * every, every))
+    finally:
+        curves.GRID_RUNS_KEPT = old

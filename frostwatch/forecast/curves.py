@@ -42,12 +42,13 @@ def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.date
     """`utc_seconds(grid_s[::step].tolist())` for a grid made by `np.arange(now_s, ..., grid_step_s)`
     with perhaps one more instant (sunrise) after it: from a whole second on, arange's instants
     are whole seconds `grid_step_s` apart, so each is the one before plus step * grid_step_s,
-    taken from range() without a float per instant. Other grids go through `utc_seconds`.
+    without a float per instant. Other grids go through `utc_seconds`.
 
-    Each instant is `_utc_second`'s own datetime of that second: the next evaluations' grids
-    share most of their instants (two minutes on, five-minute steps), so the same objects come
-    back, and a datetime keeps its hash once worked out (the decision's JSON looks each instant's
-    text up by it, `advice.codec._iso_utc_json`)."""
+    Each instant is `_utc_second`'s own datetime of that second, sliced from a run made by an
+    earlier evaluation where it can be (`_whole_seconds_run`): the next evaluations' grids share
+    most of their instants (two minutes on, five-minute steps), so the same objects come back,
+    and a datetime keeps its hash once worked out (the decision's JSON looks each instant's text
+    up by it, `advice.codec._iso_utc_json`)."""
     pts = grid_s[::step]
     n = len(pts)
     first = float(pts[0]) if n else math.nan
@@ -55,9 +56,33 @@ def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.date
     if not (first == math.floor(first) and every_s == math.floor(every_s)):  # NaN included
         return utc_seconds(pts.tolist())
     m = n if float(pts[-1]) == first + (n - 1) * every_s else n - 1  # the last: a whole step on, or sunrise
-    a, every = int(first), int(every_s)
-    out = tuple(map(_utc_second, range(a, a + m * every, every)))
+    out = _whole_seconds_run(int(first), int(every_s), m)
     return out if m == n else out + (_utc(float(pts[-1])),)
+
+
+GRID_RUNS_KEPT = 64  # runs of instants kept (per step and phase); emptied when full
+_GRID_RUNS: dict[tuple[int, int], tuple[int, tuple[dt.datetime, ...]]] = {}
+
+
+def _whole_seconds_run(a: int, every: int, m: int) -> tuple[dt.datetime, ...]:
+    """`tuple(map(_utc_second, range(a, a + m * every, every)))` (every > 0): a slice of the run
+    of the same step and phase made before when it holds these instants. The evaluations of a
+    night go forward with the same end (the last whole step before sunrise), so the first of
+    them makes the run and the next ones slice it, a copy of pointers."""
+    if every <= 0:  # not a grid's step: made as asked
+        return tuple(map(_utc_second, range(a, a + m * every, every)))
+    key = (a % every, every)
+    run = _GRID_RUNS.get(key)
+    if run is not None:
+        a0, made = run
+        i = (a - a0) // every  # a whole number of steps: the same phase
+        if a >= a0 and i + m <= len(made):
+            return made[i:i + m]
+    made = tuple(map(_utc_second, range(a, a + m * every, every)))
+    if len(_GRID_RUNS) >= GRID_RUNS_KEPT:
+        _GRID_RUNS.clear()
+    _GRID_RUNS[key] = (a, made)
+    return made
 
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:
@@ -73,13 +98,16 @@ def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -
     return float(grid_s[i - 1] + f * (grid_s[i] - grid_s[i - 1]))
 
 
+_lowest = np.minimum.reduce  # ndarray.min without its Python wrapper (NaN propagates the same)
+
+
 def crossing_times(grid_s: np.ndarray, curve_c: np.ndarray, thresholds_c: list[float]) -> list[float | None]:
     """`crossing_time` of one curve at several thresholds, compared in one array operation (an
     evaluation asks three of each of a block's two curves): the same values. A curve whose
     lowest point is above every threshold (most of a season's nights) crosses none of them: told
     from its minimum alone (a NaN in the curve takes the long way; a NaN threshold is crossed by
     nothing either way)."""
-    if len(curve_c) and thresholds_c and float(curve_c.min()) > max(thresholds_c):
+    if len(curve_c) and thresholds_c and float(_lowest(curve_c)) > max(thresholds_c):
         return [None] * len(thresholds_c)
     below = curve_c <= np.array(thresholds_c)[:, None]
     first = below.argmax(axis=1).tolist()  # the first True of each row (0 when there is none)
