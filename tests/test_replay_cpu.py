@@ -124,3 +124,62 @@ def test_the_runs_of_instants_sliced_from_earlier_runs_are_the_instants_made_afr
             assert curves._whole_seconds_run(a, every, m) == tuple(curves._utc_second(x) for x in range(a, a + m * every, every))
     finally:
         curves.GRID_RUNS_KEPT = old
+
+
+NUMBERS = st.sampled_from([None, 0.0, -0.0, 0, 1, 1.0, True, False, 2.5, -3.25, math.nan, math.inf, np.float64(2.5),
+                           np.float64(-0.0), 12.34])
+ZONES = [dt.UTC, dt.timezone(dt.timedelta(0)), dt.timezone(dt.timedelta(hours=-5)), None]
+
+
+@st.composite
+def _projections(draw):
+    from frostwatch.models import Projection
+
+    t = dt.datetime(2027, 4, 14, 9, 30, tzinfo=dt.UTC)
+    crossings = {}
+    for k in draw(st.lists(st.sampled_from(["t10", "t10_margin", "t90", "t10_cold_edge"]), unique=True, max_size=4)):
+        zone = draw(st.sampled_from(ZONES))
+        crossings[k] = None if zone is None else (t + dt.timedelta(minutes=draw(st.sampled_from([0, 30])))).astimezone(zone)
+    notes = tuple(draw(st.lists(st.sampled_from(["no tower sensor: inversion not measured", "wind 3.1 m/s", "é\"q\""]),
+                                max_size=3)))
+    return Projection(
+        time_utc=t, block="b", station=draw(st.sampled_from([None, "s1", "s2"])), air_temp_c=draw(NUMBERS),
+        dew_point_c=draw(NUMBERS), wet_bulb_c=draw(NUMBERS), predicted_min_c=None, predicted_min_at_utc=None,
+        band_c=None, crossings_utc=crossings, inversion_c=draw(NUMBERS), projected_inversion_c=draw(NUMBERS),
+        inversion_class=draw(st.sampled_from([None, "strong", "weak"])), wind_speed_m_s=draw(NUMBERS),
+        regime="radiation", method="m", notes=notes,
+    )
+
+
+LOOK_ALIKES = [[0.0, -0.0, 0, False, np.float64(0.0), np.float64(-0.0)], [1, 1.0, True, np.float64(1.0)],
+               [2.5, np.float64(2.5)], [math.nan, np.float64(math.nan)]]
+DETAIL_NUMBERS = ["air_temp_c", "dew_point_c", "wet_bulb_c", "inversion_c", "projected_inversion_c", "wind_speed_m_s"]
+
+
+@settings(max_examples=300, deadline=None)
+@given(_projections(), st.sampled_from(DETAIL_NUMBERS), st.sampled_from(LOOK_ALIKES), st.sampled_from(["t10", "t90"]),
+       st.permutations(ZONES[:3]))
+def test_the_projection_rows_detail_kept_by_value_is_the_detail_written_afresh(base, name, alikes, crossing, zones):
+    """A projection and its copies that differ from it only by a look-alike value (0.0 and -0.0,
+    0 and False, 1, 1.0 and True, numpy's floats, NaN) or by one crossing's zone (the same
+    instant) get, one after the other, the detail text json.dumps writes for each, from the
+    table or not; the row holds it."""
+    from frostwatch.store.db import Store
+    from frostwatch.store.detail import plain_detail_json, projection_detail_json
+
+    at = dt.datetime(2027, 4, 14, 9, 30, tzinfo=dt.UTC)
+    variants = [dataclasses.replace(base, **{name: v}) for v in alikes]
+    variants += [dataclasses.replace(base, crossings_utc={**base.crossings_utc, crossing: at.astimezone(z)}) for z in zones]
+    for p in [base] + variants + variants[::-1]:
+        want = plain_detail_json(p)
+        assert projection_detail_json(p) == want
+        assert Store._projection_row(p)[-1] == want
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(_projections(), min_size=1, max_size=20))
+def test_projections_in_any_order_get_the_detail_written_afresh(projections):
+    from frostwatch.store.detail import plain_detail_json, projection_detail_json
+
+    for p in projections + projections[::-1]:
+        assert projection_detail_json(p) == plain_detail_json(p)

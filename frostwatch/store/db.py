@@ -22,7 +22,6 @@ is written to it (tests/test_upgrade.py, with a store made by 0.1.0).
 from __future__ import annotations
 
 import datetime as dt
-import json
 import random
 import sqlite3
 import threading
@@ -33,6 +32,7 @@ from pathlib import Path
 
 from frostwatch.errors import StoreError
 from frostwatch.models import Alert, Projection
+from frostwatch.store.detail import projection_detail_json
 from frostwatch.store.failures import (  # noqa: F401 - store_failure re-exported
     _newer_schema_message,
     _refuse_newer_schema,
@@ -203,14 +203,7 @@ class Store(ReadingsTable):
         ms = lambda t: to_ms(t) if t else None  # noqa: E731
         return (
             to_ms(p.time_utc), p.block, p.predicted_min_c, ms(p.predicted_min_at_utc),
-            ms(p.crossings_utc.get("t10")), p.band_c, p.regime, p.method,
-            json.dumps({
-                "station": p.station, "air_temp_c": p.air_temp_c, "dew_point_c": p.dew_point_c,
-                "wet_bulb_c": p.wet_bulb_c, "inversion_c": p.inversion_c,
-                "projected_inversion_c": p.projected_inversion_c, "inversion_class": p.inversion_class,
-                "wind_speed_m_s": p.wind_speed_m_s, "notes": list(p.notes),
-                "crossings_utc": {k: (v.isoformat() if v else None) for k, v in p.crossings_utc.items()},
-            }),
+            ms(p.crossings_utc.get("t10")), p.band_c, p.regime, p.method, projection_detail_json(p),
         )
 
     def projections(self, start_utc: dt.datetime, end_utc: dt.datetime, block: str | None = None) -> list[dict]:
