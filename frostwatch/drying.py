@@ -21,6 +21,7 @@ import numpy as np
 
 from frostwatch.physics.humidity import air_temp_c_for_wet_bulb
 from frostwatch.physics.wet_bulb import air_temp_c_for_wet_bulb_rows
+from frostwatch.sorted_times import count_up_to
 
 TREND_WINDOW_S = 7200.0  # the last two hours of dew-point readings give the trend
 TREND_MIN_SPAN_S = 3600.0  # ... which must span at least an hour, with at least 3 readings
@@ -152,7 +153,7 @@ def dew_point_history(series, station_ids: list[str], now_s: float, window_s: fl
                 continue
             t, v = series[(sid, quantity)]
             # (now - window, now] of the sorted times, as a slice (the values a mask selects)
-            i, j = int(t.searchsorted(now_s - window_s, side="right")), int(t.searchsorted(now_s, side="right"))
+            i, j = int(t.searchsorted(now_s - window_s, side="right")), count_up_to(t, now_s)
             if j <= i:
                 continue
             t, v = np.asarray(t[i:j], dtype=float), np.asarray(v[i:j], dtype=float)

@@ -16,6 +16,7 @@ import numpy as np
 from frostwatch.config import Block, Config
 from frostwatch.decision import Monitoring, MonitorReason
 from frostwatch.forecast import Series, carry, usual_interval_s
+from frostwatch.sorted_times import count_up_to
 from frostwatch.units import QUANTITIES
 
 
@@ -70,7 +71,7 @@ def _monitoring(crop, ids, states, series: Series, now_s: float, stale: float) -
     any_silent = False
     for st, state in zip(crop, states, strict=True):
         t = series.get((st.id, "air_temperature"), (_NO_TIMES,))[0]
-        t = t[:int(t.searchsorted(now_s, side="right"))]  # sorted: a view up to now
+        t = t[:count_up_to(t, now_s)]  # sorted: a view up to now
         if len(t) == 0:
             continue
         newest = float(t[-1])
@@ -98,7 +99,7 @@ def inputs_utc(cfg: Config, block: Block, series: Series, now_s: float) -> dict[
             t = series.get((st.id, q), (None,))[0]
             if t is None or not len(t):
                 continue
-            i = int(t.searchsorted(now_s, side="right")) - 1
+            i = count_up_to(t, now_s) - 1
             if i >= 0:
                 out[f"{st.id}/{q}"] = _utc(t[i])
     return out

@@ -14,6 +14,7 @@ from zoneinfo import ZoneInfo
 
 from frostwatch.physics.sun import POLAR_DAY, POLAR_NIGHT, sun_night_utc
 from frostwatch.physics.sun_season import sun_nights_utc
+from frostwatch.sorted_times import count_before, count_up_to
 
 DUSK_OFFSET = dt.timedelta(hours=2)  # FAO-FP ch. 5: the forecast is issued 2 h after sunset
 LOOKBACK = dt.timedelta(hours=6)  # an evaluation reads readings from this long before sunset
@@ -24,7 +25,7 @@ def slice_series(series: dict, start_s: float, end_s: float) -> dict:
     (arrays are sorted by time): a night's readings, as views."""
     out = {}
     for key, (t, v) in series.items():
-        i, j = t.searchsorted(start_s, side="left"), t.searchsorted(end_s, side="right")
+        i, j = count_before(t, start_s), count_up_to(t, end_s)
         if j > i:
             out[key] = (t[i:j], v[i:j])
     return out

@@ -27,6 +27,7 @@ import numpy as np
 from frostwatch.forecast.sensors import Series, as_of, usual_interval_s
 from frostwatch.models import StationState
 from frostwatch.physics import windmachine
+from frostwatch.sorted_times import count_up_to
 
 FIT_MIN_POINTS = 3  # tower readings after t0 before its square-root curve is fitted
 FIT_MIN_ELAPSED_H = 0.05  # ... each at least this long after t0
@@ -76,7 +77,7 @@ def _since(tv: tuple[np.ndarray, np.ndarray], t0_s: float, now_s: float) -> tupl
     """The readings with t0 <= t <= now of a series sorted by time (a view: the same values as a
     mask over the whole series gives)."""
     t, v = tv
-    i, j = int(t.searchsorted(t0_s, side="left")), int(t.searchsorted(now_s, side="right"))
+    i, j = int(t.searchsorted(t0_s, side="left")), count_up_to(t, now_s)
     return t[i:j], v[i:j]
 
 

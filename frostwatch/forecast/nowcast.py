@@ -14,6 +14,7 @@ import numpy as np
 from frostwatch.config import Config, Station
 from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C, INPUT_WINDOW_S, Series
 from frostwatch.physics import humidity
+from frostwatch.sorted_times import count_up_to
 
 RECENT_SLOPE_S = 7200.0  # the recent slope: least squares over the last two hours
 MAX_RECENT_SLOPE_C_H = 0.5
@@ -93,7 +94,7 @@ def features_at(
 
     `memo` (a replay's `pipeline.WindowMemo` values; the readings its window, which ends at
     `now_s`) keeps the sums over the readings while they are the same."""
-    j = int(t_s.searchsorted(now_s, side="right"))
+    j = count_up_to(t_s, now_s)
     i2 = int(t_s.searchsorted(now_s - RECENT_SLOPE_S, side="right"))
     key = ("nowcast sums", t0_s, t0_c, j, i2)
     sums = None if memo is None else memo.get(key)
@@ -118,7 +119,7 @@ def features_at(
 def _sums(t_s: np.ndarray, v_c: np.ndarray, t0_s: float, t0_c: float, j: int, i2: int) -> tuple[float, float, float] | None:
     """(latest reading, b' observed since t0, recent slope) over the readings before index j
     (the recent slope from index i2); None before any reading since t0 + MIN_ELAPSED_H."""
-    i0 = int(np.searchsorted(t_s, t0_s + MIN_ELAPSED_H * 3600.0, side="right"))
+    i0 = int(t_s.searchsorted(t0_s + MIN_ELAPSED_H * 3600.0, side="right"))
     if j == 0 or j <= i0:
         return None
     latest = float(v_c[j - 1])

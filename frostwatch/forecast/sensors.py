@@ -7,6 +7,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import math
+import operator
 from dataclasses import dataclass
 
 import numpy as np
@@ -14,6 +15,7 @@ import numpy as np
 from frostwatch.config import Config, Station
 from frostwatch.models import StationState
 from frostwatch.physics import humidity
+from frostwatch.sorted_times import count_up_to
 from frostwatch.units import QUANTITIES
 
 Series = dict[tuple[str, str], tuple[np.ndarray, np.ndarray]]
@@ -57,6 +59,7 @@ def _utc_at(t_s: float) -> dt.datetime:
 
 
 _STATES: tuple = (None, None, {})  # (the series, the instant, {(station, stale): (its series, state)})
+_KEYS: dict[str, tuple[tuple[str, str], ...]] = {}  # a station's series keys, one per quantity
 
 
 def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float,
@@ -73,10 +76,13 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
     if held is not series or at != now_s:
         states = {}
         _STATES = (series, now_s, states)
-    own = tuple(series.get((st.id, q)) for q in QUANTITIES)
+    keys = _KEYS.get(st.id)
+    if keys is None:
+        keys = _KEYS[st.id] = tuple((st.id, q) for q in QUANTITIES)
+    own = tuple(map(series.get, keys))
     key = (st, stale_after_intervals)
     got = states.get(key)
-    if got is not None and all(a is b for a, b in zip(got[0], own, strict=True)):
+    if got is not None and all(map(operator.is_, got[0], own)):  # the same series objects, each
         return got[1]
     state = _station_state(st, series, now_s, stale_after_intervals, memo)
     states[key] = (own, state)
@@ -92,7 +98,7 @@ def _latest_values(st: Station, series: Series, now_s: float) -> tuple[dict[str,
         t, v = series[(st.id, q)]
         if len(t) == 0:
             continue
-        idx = int(t.searchsorted(now_s, side="right")) - 1
+        idx = count_up_to(t, now_s) - 1
         if idx < 0:
             continue
         latest[q] = float(v[idx])
@@ -118,7 +124,7 @@ def _station_state(st: Station, series: Series, now_s: float, stale_after_interv
             problems.append(f"{st.id}: no air temperature reading")
         else:
             t, v = series[key]
-            j = int(t.searchsorted(now_s, side="right"))  # sorted: views up to now, no copies
+            j = count_up_to(t, now_s)  # sorted: views up to now, no copies
             t, v = t[:j], v[:j]
             interval = usual_interval_s(t, st.interval_s)
             age = now_s - t[-1]
@@ -170,7 +176,7 @@ def as_of(
     if key not in series:
         return None
     t, v = series[key]
-    i = int(t.searchsorted(t_s, side="right")) - 1
+    i = count_up_to(t, t_s) - 1
     if i < 0 or t_s - t[i] > max_age_s:
         return None
     val = float(v[i])
@@ -204,7 +210,7 @@ def mean_as_of(series: Series, stations: list[str], quantity: str, t_s: float, w
         if sid not in have:
             continue
         t, v = series[(sid, quantity)]
-        j = int(t.searchsorted(t_s, side="right"))
+        j = count_up_to(t, t_s)
         i = int(t.searchsorted(t_s - window_s, side="right"))
         if j > i:
             parts.append(v[i:j])
