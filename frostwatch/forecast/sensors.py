@@ -58,7 +58,7 @@ def _utc_at(t_s: float) -> dt.datetime:
     return dt.datetime.fromtimestamp(t_s, tz=dt.UTC)
 
 
-_STATES: tuple = (None, None, {})  # (the series, the instant, {(station, stale): (its series, state)})
+_STATES: tuple = (None, None, {})  # (the series, the instant, {(station id, stale): (station, its series, state)})
 _KEYS: dict[str, tuple[tuple[str, str], ...]] = {}  # a station's series keys, one per quantity
 
 
@@ -80,12 +80,12 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
     if keys is None:
         keys = _KEYS[st.id] = tuple((st.id, q) for q in QUANTITIES)
     own = tuple(map(series.get, keys))
-    key = (st, stale_after_intervals)
+    key = (st.id, stale_after_intervals)  # the station itself is told by identity (no dataclass hash)
     got = states.get(key)
-    if got is not None and all(map(operator.is_, got[0], own)):  # the same series objects, each
-        return got[1]
+    if got is not None and got[0] is st and all(map(operator.is_, got[1], own)):  # the same series objects
+        return got[2]
     state = _station_state(st, series, now_s, stale_after_intervals, memo)
-    states[key] = (own, state)
+    states[key] = (st, own, state)
     return state
 
 
