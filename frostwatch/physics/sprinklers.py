@@ -242,11 +242,20 @@ def iced_canopy_heat_loss(
        the energy lost).
     .. [2] Allen et al. (1998), FAO-56 eq. 4; WMO-No. 8 Annex 4.B; Brutsaert (1975).
     """
-    from frostwatch.physics.longwave import net_longwave_w_m2
-
     values = (air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
     if any(math.isnan(float(v)) for v in values):
         return IcedCanopyLoss(math.nan, math.nan, math.nan, math.nan)
+    if all(type(v) is float for v in values):  # an evaluation's: the same steps on plain floats, to the bit
+        from frostwatch.physics.iced_canopy_floats import iced_canopy_heat_loss_f
+
+        return iced_canopy_heat_loss_f(air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
+    return _iced_canopy_heat_loss_arrays(air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
+
+
+def _iced_canopy_heat_loss_arrays(air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac) -> IcedCanopyLoss:
+    """`iced_canopy_heat_loss` of inputs without NaN, by the vectorised physics functions."""
+    from frostwatch.physics.longwave import net_longwave_w_m2
+
     wind = max(float(wind_speed_m_s), CALM_WIND_FLOOR_M_S)
     e_hpa = float(vapour_pressure_hpa_from_dew_point(min(dew_point_c, air_temp_c)))
     radiation = -float(net_longwave_w_m2(air_temp_c, e_hpa, cloud_frac=cloud_frac, surface_temp_c=0.0,
