@@ -16,8 +16,8 @@ import numpy as np
 from frostwatch.config import Block, Config
 from frostwatch.decision import Monitoring, MonitorReason
 from frostwatch.forecast import Series, carry, usual_interval_s
+from frostwatch.forecast.sensors import series_keys
 from frostwatch.sorted_times import count_up_to
-from frostwatch.units import QUANTITIES
 
 
 def _utc(t_s: float) -> dt.datetime:
@@ -95,11 +95,23 @@ def inputs_utc(cfg: Config, block: Block, series: Series, now_s: float) -> dict[
     """{"station/quantity": time of the newest reading at or before now} for the block's stations."""
     out: dict[str, dt.datetime] = {}
     for st in cfg.stations_of(block.id):
-        for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
-            t = series.get((st.id, q), (None,))[0]
-            if t is None or not len(t):
+        for key, label in _labelled_keys(st.id):  # only this station's series: the loop must not grow with the farm
+            tv = series.get(key)
+            if tv is None:
                 continue
+            t = tv[0]
             i = count_up_to(t, now_s) - 1
             if i >= 0:
-                out[f"{st.id}/{q}"] = _utc(t[i])
+                out[label] = _utc(t[i])
     return out
+
+
+_LABELS: dict[str, tuple[tuple[tuple[str, str], str], ...]] = {}
+
+
+def _labelled_keys(station: str) -> tuple[tuple[tuple[str, str], str], ...]:
+    """((station, quantity), "station/quantity") of every quantity, made once per station."""
+    got = _LABELS.get(station)
+    if got is None:
+        got = _LABELS[station] = tuple((key, f"{key[0]}/{key[1]}") for key in series_keys(station))
+    return got

@@ -62,6 +62,14 @@ _STATES: tuple = (None, None, {})  # (the series, the instant, {(station id, sta
 _KEYS: dict[str, tuple[tuple[str, str], ...]] = {}  # a station's series keys, one per quantity
 
 
+def series_keys(station: str) -> tuple[tuple[str, str], ...]:
+    """The series keys (station, quantity) of every quantity, in `QUANTITIES`' order, made once."""
+    keys = _KEYS.get(station)
+    if keys is None:
+        keys = _KEYS[station] = tuple((station, q) for q in QUANTITIES)
+    return keys
+
+
 def station_state(st: Station, series: Series, now_s: float, stale_after_intervals: float,
                   memo: dict | None = None) -> StationState:
     """Latest values of a station and whether its air temperature can be trusted now.
@@ -76,10 +84,7 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
     if held is not series or at != now_s:
         states = {}
         _STATES = (series, now_s, states)
-    keys = _KEYS.get(st.id)
-    if keys is None:
-        keys = _KEYS[st.id] = tuple((st.id, q) for q in QUANTITIES)
-    own = tuple(map(series.get, keys))
+    own = tuple(map(series.get, series_keys(st.id)))
     key = (st.id, stale_after_intervals)  # the station itself is told by identity (no dataclass hash)
     got = states.get(key)
     if got is not None and got[0] is st and all(map(operator.is_, got[1], own)):  # the same series objects
@@ -92,12 +97,12 @@ def station_state(st: Station, series: Series, now_s: float, stale_after_interva
 def _latest_values(st: Station, series: Series, now_s: float) -> tuple[dict[str, float], dict[str, dt.datetime]]:
     latest: dict[str, float] = {}
     latest_at: dict[str, dt.datetime] = {}
-    for q in QUANTITIES:  # only this station's series: the loop must not grow with the farm
-        if (st.id, q) not in series:
+    for key in series_keys(st.id):  # only this station's series: the loop must not grow with the farm
+        tv = series.get(key)
+        if tv is None:
             continue
-        t, v = series[(st.id, q)]
-        if len(t) == 0:
-            continue
+        t, v = tv
+        q = key[1]
         idx = count_up_to(t, now_s) - 1
         if idx < 0:
             continue
