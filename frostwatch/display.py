@@ -16,6 +16,7 @@ Rules every method keeps (a half-awake reader must not have to puzzle over a num
 from __future__ import annotations
 
 import datetime as dt
+import functools
 from zoneinfo import ZoneInfo
 
 from frostwatch.units import c_to_f, delta_c_to_f
@@ -60,6 +61,13 @@ def _sig(value: float) -> str:
     if a >= 1:
         return number(value, 1)
     return number(value, 2)
+
+
+@functools.lru_cache(maxsize=4096)
+def _local_hh_mm(t: dt.datetime, tz: dt.tzinfo) -> str:
+    # an instant's local clock time, made once: every block's texts of an evaluation, and the
+    # evaluations after it, name the same few instants (a crossing, sunrise)
+    return t.astimezone(tz).strftime("%H:%M")
 
 
 class Display:
@@ -201,7 +209,7 @@ class Display:
 
     # ---- times ---------------------------------------------------------------------------------
     def time(self, t: dt.datetime | None) -> str:
-        return UNKNOWN if t is None else t.astimezone(self.tz).strftime("%H:%M")
+        return UNKNOWN if t is None else _local_hh_mm(t, self.tz)
 
     def datetime(self, t: dt.datetime | None) -> str:
         return UNKNOWN if t is None else t.astimezone(self.tz).strftime("%Y-%m-%d %H:%M %Z")

@@ -402,3 +402,34 @@ def test_newton_inversion_with_the_arrays_own_methods_is_np_clip_and_np_all():
             finally:
                 dfp._invert_ln_curve = real
             assert got.tobytes() == want.tobytes()
+
+
+def test_the_published_inputs_ages_and_local_times_are_worked_out_afresh_per_instant(demo_decisions):
+    """status.document's input ages (kept per evaluation instant) and Display.time (kept per
+    instant and zone) are the plain expressions: for decisions read at several instants in turn,
+    back again, and across a DST change in two zones, and a page's thread asking at another
+    instant between two blocks of an evaluation."""
+    import datetime as dt
+    from zoneinfo import ZoneInfo
+
+    from frostwatch.display import Display
+    from frostwatch.status.document import Liveness, decision_json
+
+    d = Display("degC", "America/Los_Angeles")
+    some = [x for x in demo_decisions[::7] if x.inputs_utc][:40]
+    assert some
+    for x in some:
+        for late_s in (0.0, 61.25, 3599.96, 0.0, -12.5):
+            now = x.as_of_utc + dt.timedelta(seconds=late_s)
+            doc = decision_json(x, x.block, now, Liveness(True, now, False, 0.0), d, float("inf"), x.block)
+            want = {k: round((now - t).total_seconds(), 1) for k, t in x.inputs_utc.items()}
+            assert {k: v["age_s"] for k, v in doc["inputs"].items()} == want
+            other = now + dt.timedelta(seconds=17.0)  # a page asks meanwhile at another instant
+            decision_json(x, x.block, other, Liveness(True, other, False, 0.0), d, float("inf"), x.block)
+    spring = dt.datetime(2027, 3, 14, 9, 30, tzinfo=dt.UTC)  # 01:30 PST, an hour before the change
+    for zone in ("America/Los_Angeles", "Europe/Berlin", "UTC"):
+        dz = Display("degC", zone)
+        for k in range(0, 12 * 3600, 1234):
+            t = spring + dt.timedelta(seconds=k)
+            assert dz.time(t) == t.astimezone(ZoneInfo(zone)).strftime("%H:%M")
+    assert d.time(None) == Display("degC", "UTC").time(None)

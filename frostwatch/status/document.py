@@ -152,9 +152,26 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
         "step": step.value,
         "headline": headline, "action": action, "projection": _proj_json(decision),
         "ready_by": iso_utc(plan.ready_by_utc), "alert_key": decision.alert_key,
-        "inputs": {k: {"at": iso_utc(t), "age_s": round((now_utc - t).total_seconds(), 1)}
-                   for k, t in sorted(decision.inputs_utc.items())},
+        "inputs": {k: {"at": iso_utc(t), "age_s": _age_s(now_utc, t)} for k, t in sorted(decision.inputs_utc.items())},
     }
+
+
+_AGES: tuple = (None, {})  # (the instant, {reading time: its age then [s]}): the last instant asked
+
+
+def _age_s(now_utc: dt.datetime, t: dt.datetime) -> float:
+    """round((now - t).total_seconds(), 1), kept for the instant: every block's inputs of an
+    evaluation are read at the same few times. (One tuple, read once and replaced whole: a
+    status page's thread and the daemon's never mix two instants' ages.)"""
+    global _AGES
+    held = _AGES
+    if held[0] != now_utc:
+        held = _AGES = (now_utc, {})
+    ages = held[1]
+    age = ages.get(t)
+    if age is None:
+        age = ages[t] = round((now_utc - t).total_seconds(), 1)
+    return age
 
 
 def _daemon_json(live: Liveness) -> dict | None:
