@@ -433,3 +433,42 @@ def test_the_published_inputs_ages_and_local_times_are_worked_out_afresh_per_ins
             t = spring + dt.timedelta(seconds=k)
             assert dz.time(t) == t.astimezone(ZoneInfo(zone)).strftime("%H:%M")
     assert d.time(None) == Display("degC", "UTC").time(None)
+
+
+@given(st.lists(st.floats(min_value=0.0, max_value=8.0), max_size=80), st.floats(min_value=-5.0, max_value=5.0),
+       st.sampled_from([0.0, 0.05, 0.05 + 1e-12, 0.049999999]))
+def test_the_inversion_fit_on_a_sorted_series_is_the_masked_fit(elapsed, t0_c, extra):
+    """inversion.sqrt_b_fit_sorted (the readings after the minimum elapsed time as a slice) gives
+    sqrt_b_fit's value (a mask over the same readings) to the bit, elapsed times at the minimum
+    itself included."""
+    from frostwatch.forecast.inversion import sqrt_b_fit, sqrt_b_fit_sorted
+
+    e = np.sort(np.array(elapsed + [extra], dtype=float))
+    temps = 5.0 - 2.0 * np.sqrt(e) + np.cos(e * 7.0)
+    assert sqrt_b_fit_sorted(e, temps, t0_c) == sqrt_b_fit(e, temps, t0_c)
+
+
+def test_the_nowcast_sums_recent_slope_is_the_np_mean_one():
+    """nowcast._sums (the recent slope's means as np.mean's sum over its count) gives the slope
+    with ndarray.mean, to the bit, on readings every minute and at odd intervals."""
+    from frostwatch.forecast import nowcast
+
+    rng = np.random.default_rng(8)
+    for _ in range(300):
+        n = int(rng.integers(3, 400))
+        t = 1.8e9 + np.cumsum(rng.choice([60.0, 61.0, 300.0, 3.5], n))
+        v = np.round(6.0 - 0.4 * np.sqrt((t - t[0]) / 3600.0) + rng.normal(0, 0.05, n), 2)
+        t0_s, t0_c = float(t[0]) - 100.0, float(v[0])
+        j = n - int(rng.integers(0, 3))
+        i2 = int(np.searchsorted(t, t[j - 1] - nowcast.RECENT_SLOPE_S, side="right"))
+        got = nowcast._sums(t, v, t0_s, t0_c, j, i2)
+        if got is None:
+            continue
+        slope = 0.0
+        if j - i2 >= 2:
+            tt = (t[i2:j] - t0_s) / 3600.0
+            dt_ = tt - tt.mean()
+            den = float(np.dot(dt_, dt_))
+            if den > 1e-12:
+                slope = float(np.dot(dt_, v[i2:j] - v[i2:j].mean()) / den)
+        assert got[2] == slope

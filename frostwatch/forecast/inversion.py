@@ -73,6 +73,16 @@ def sqrt_b_fit(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float
     return float((x * (temps_c[sel] - t0_c)).sum() / (x * x).sum())  # np.sum's values, without its wrapper
 
 
+def sqrt_b_fit_sorted(elapsed_h: np.ndarray, temps_c: np.ndarray, t0_c: float) -> float | None:
+    """`sqrt_b_fit` of elapsed times in ascending order (a series since t0): the readings it
+    selects are a tail, taken as a slice (the same values in the same order, so the same sums)."""
+    k = int(elapsed_h.searchsorted(FIT_MIN_ELAPSED_H, side="right"))  # the first elapsed > the minimum
+    if len(elapsed_h) - k < FIT_MIN_POINTS:
+        return None
+    x = np.sqrt(elapsed_h[k:])
+    return float((x * (temps_c[k:] - t0_c)).sum() / (x * x).sum())
+
+
 def _since(tv: tuple[np.ndarray, np.ndarray], t0_s: float, now_s: float) -> tuple[np.ndarray, np.ndarray]:
     """The readings with t0 <= t <= now of a series sorted by time (a view: the same values as a
     mask over the whole series gives)."""
@@ -90,14 +100,14 @@ def _curve_growth(
     cancels the cooling they share: a tower that cools with the crop projects no growth. None
     until both curves have `FIT_MIN_POINTS` readings."""
     tt, tv = _since(series[(tower, "air_temperature")], t0_s, now_s)
-    b_tower = sqrt_b_fit((tt - t0_s) / 3600.0, tv, tower0_c)
+    b_tower = sqrt_b_fit_sorted((tt - t0_s) / 3600.0, tv, tower0_c)
     if b_tower is None:
         return None
     b_crop = 0.0
     if crop is not None and (crop, "air_temperature") in series:
         crop0_c = as_of(series, crop, "air_temperature", t0_s, 900.0)
         ct, cv = _since(series[(crop, "air_temperature")], t0_s, now_s)
-        b = sqrt_b_fit((ct - t0_s) / 3600.0, cv, crop0_c) if crop0_c is not None else None
+        b = sqrt_b_fit_sorted((ct - t0_s) / 3600.0, cv, crop0_c) if crop0_c is not None else None
         if b is None:
             return None
         b_crop = b

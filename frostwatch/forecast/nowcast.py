@@ -12,7 +12,7 @@ import math
 import numpy as np
 
 from frostwatch.config import Config, Station
-from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C, INPUT_WINDOW_S, Series
+from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C, INPUT_WINDOW_S, Series, _mean
 from frostwatch.physics import humidity
 from frostwatch.sorted_times import count_up_to
 
@@ -129,10 +129,10 @@ def _sums(t_s: np.ndarray, v_c: np.ndarray, t0_s: float, t0_c: float, j: int, i2
     if j - i2 >= 2:
         tt = (t_s[i2:j] - t0_s) / 3600.0
         vv = v_c[i2:j]
-        dt_ = tt - tt.mean()
+        dt_ = tt - _mean(tt)  # np.mean's value (its sum over its count), without its wrapper
         den = float(np.dot(dt_, dt_))
         if den > 1e-12:
-            slope = float(np.dot(dt_, vv - vv.mean()) / den)
+            slope = float(np.dot(dt_, vv - _mean(vv)) / den)
     return latest, b_obs, slope
 
 
