@@ -7,6 +7,7 @@ from __future__ import annotations
 import datetime as dt
 
 import numpy as np
+import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
@@ -472,3 +473,28 @@ def test_the_nowcast_sums_recent_slope_is_the_np_mean_one():
             if den > 1e-12:
                 slope = float(np.dot(dt_, v[i2:j] - v[i2:j].mean()) / den)
         assert got[2] == slope
+
+
+def test_the_shared_night_grid_is_each_blocks_own():
+    """curves.night_grid (one grid per instant, shared by every block of an evaluation) is the
+    grid, square-root clock and curve instants each block made itself: instants in turn and back
+    again, now before and after sunrise, off the whole second, sunrise on the grid and off it,
+    another t0; the shared arrays cannot be written."""
+    from frostwatch.forecast.curves import grid_utc, night_grid
+
+    rng = np.random.default_rng(4)
+    sunrise = 1.8e9 + 40_000.0
+    cases = [(sunrise - 3600.0 * k - off, sunrise + sh, sunrise - 30_000.0 + t0)
+             for k in (0, 1, 5, 9) for off in (0.0, 0.4, 150.0) for sh in (0.0, 300.0, -12.5) for t0 in (0.0, 7.0)]
+    cases += [(sunrise + 60.0, sunrise, sunrise - 30_000.0), (sunrise, sunrise, sunrise)]
+    for now, rise, t0 in cases + cases[::-1] + [cases[int(i)] for i in rng.integers(0, len(cases), 40)]:
+        grid, e_grid, instants = night_grid(now, rise, t0, 300.0)
+        want = np.arange(now, max(now, rise) + 1.0, 300.0)
+        if want[-1] < rise:
+            want = np.concatenate((want, (rise,)))
+        assert grid.tobytes() == want.tobytes()
+        assert e_grid.tobytes() == np.sqrt(np.maximum(0.0, (want - t0) / 3600.0)).tobytes()
+        for every in (1, 2, 3):
+            assert instants(every) == grid_utc(want, every, 300.0)
+        with pytest.raises(ValueError):
+            grid[0] = 0.0

@@ -13,6 +13,7 @@ from __future__ import annotations
 import datetime as dt
 import functools
 import math
+from collections.abc import Callable
 
 import numpy as np
 
@@ -83,6 +84,36 @@ def _whole_seconds_run(a: int, every: int, m: int) -> tuple[dt.datetime, ...]:
         _GRID_RUNS.clear()
     _GRID_RUNS[key] = (a, made)
     return made
+
+
+_GRID: tuple = (None, None)  # ((now, sunrise, t0, step), (grid, its square-root clock, {every: instants}))
+
+
+def night_grid(now_s: float, sunrise_s: float, t0_s: float, step_s: float) -> tuple[np.ndarray, np.ndarray, Callable]:
+    """The projection's grid from now to sunrise (`np.arange(now_s, max(now_s, sunrise_s) + 1,
+    step_s)`, then sunrise itself if it is not on it), sqrt(hours since t0, at least 0) at each
+    instant, and `instants(every)`: `grid_utc(grid, every, step_s)`. Made once per instant: every
+    block of an evaluation projects on the same grid (read-only arrays, shared)."""
+    global _GRID
+    key = (now_s, sunrise_s, t0_s, step_s)
+    held = _GRID
+    if held[0] != key:
+        grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, step_s)
+        if grid_s[-1] < sunrise_s:
+            grid_s = np.concatenate((grid_s, (sunrise_s,)))
+        e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+        grid_s.setflags(write=False)
+        e_grid.setflags(write=False)
+        held = _GRID = (key, (grid_s, e_grid, {}))
+    grid_s, e_grid, times = held[1]
+
+    def instants(every: int) -> tuple[dt.datetime, ...]:
+        got = times.get(every)
+        if got is None:
+            got = times[every] = grid_utc(grid_s, every, step_s)
+        return got
+
+    return grid_s, e_grid, instants
 
 
 def crossing_time(grid_s: np.ndarray, curve_c: np.ndarray, threshold_c: float) -> float | None:

@@ -34,6 +34,7 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     crossing_time,
     evening_curve_c,
     grid_utc,
+    night_grid,
     sqrt_curve_c,
     utc_seconds,
 )
@@ -285,10 +286,7 @@ def project_block(
     tp_c = min(tp_c, anchor_c)
     band_at_c = tp_c if band_at_c is None else min(band_at_c, anchor_c)
 
-    grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, GRID_STEP_S)
-    if grid_s[-1] < sunrise_s:
-        grid_s = np.concatenate((grid_s, (sunrise_s,)))
-    e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+    grid_s, e_grid, grid_times = night_grid(now_s, sunrise_s, t0_s, GRID_STEP_S)  # every block's, made once
     span = math.sqrt(h_from_t0) - e_now
 
     band_low_c = band_at_c + min(lo_off, -MIN_BAND_C / 2)
@@ -369,7 +367,7 @@ def project_block(
         regime=regime,
         method=method,
         notes=tuple(notes),
-        curve_time_utc=grid_utc(grid_s, step, GRID_STEP_S) if drawn else (),
+        curve_time_utc=grid_times(step) if drawn else (),
         curve_air_temp_c=tuple(curve[::step].round(2).tolist()) if drawn else (),
         band_low_c=_round2(min(band_low_c, tmin_c)),
         band_high_c=_round2(max(band_high_c, tmin_c)),
