@@ -52,10 +52,8 @@ def test_the_rate_tonight_of_an_evaluations_floats_takes_the_float_path_and_the_
     """rate_tonight_mm_h as sprinkling calls it (floats, default cloud and pressure): the float path
     is the one taken, and its figures are those of the vectorised path."""
     calls = []
-    from frostwatch.physics import iced_canopy_floats
-
-    real = iced_canopy_floats.iced_canopy_heat_loss_f
-    monkeypatch.setattr(iced_canopy_floats, "iced_canopy_heat_loss_f", lambda *a: calls.append(a) or real(*a))
+    real = sprinklers.iced_canopy_heat_loss_f
+    monkeypatch.setattr(sprinklers, "iced_canopy_heat_loss_f", lambda *a: calls.append(a) or real(*a))
     rng = np.random.default_rng(5)
     for _ in range(500):
         pmin, td, wind = round(float(rng.uniform(-6, 4)), 2), round(float(rng.uniform(-12, 2)), 2), round(float(rng.uniform(0, 6)), 2)

@@ -115,13 +115,12 @@ def iced_surface_exchange_w_m2_f(air_temp_c: float, vapour_pressure_hpa: float, 
     return sensible, latent
 
 
-def iced_canopy_heat_loss_f(air_temp_c: float, dew_point_c: float, wind_speed_m_s: float, pressure_hpa: float,
-                            cloud_frac: float):
-    """`sprinklers.iced_canopy_heat_loss` of floats without NaN (its vectorised path's values)."""
-    from frostwatch.physics.sprinklers import CALM_WIND_FLOOR_M_S, IcedCanopyLoss
-
-    wind = max(wind_speed_m_s, CALM_WIND_FLOOR_M_S)
+def iced_canopy_heat_loss_f(air_temp_c: float, dew_point_c: float, wind_used_m_s: float, pressure_hpa: float,
+                            cloud_frac: float) -> tuple[float, float, float]:
+    """(radiation, sensible, latent) [W m-2] of `sprinklers.iced_canopy_heat_loss` of floats without
+    NaN (its vectorised path's values), the wind already raised to the calm-air floor."""
     e_hpa = sat_water_hpa_f(min(dew_point_c, air_temp_c))
     radiation = -net_longwave_iced_w_m2(air_temp_c, e_hpa, cloud_frac)
-    sensible, latent = iced_surface_exchange_w_m2_f(air_temp_c, e_hpa, aerodynamic_resistance_s_m_f(wind), pressure_hpa)
-    return IcedCanopyLoss(radiation, sensible, latent, wind)
+    sensible, latent = iced_surface_exchange_w_m2_f(air_temp_c, e_hpa, aerodynamic_resistance_s_m_f(wind_used_m_s),
+                                                    pressure_hpa)
+    return radiation, sensible, latent

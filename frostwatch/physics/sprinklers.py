@@ -39,6 +39,7 @@ from frostwatch.constants import (
     STANDARD_PRESSURE_HPA,
 )
 from frostwatch.physics.exchange import aerodynamic_resistance_s_m, iced_surface_exchange_w_m2
+from frostwatch.physics.iced_canopy_floats import iced_canopy_heat_loss_f
 from frostwatch.physics.saturation import vapour_pressure_hpa_from_dew_point
 from frostwatch.physics.sprinkler_timing import (  # noqa: F401 - the start and stop rules, re-exported
     FALLBACK_STOP_MARGIN_C,
@@ -246,9 +247,8 @@ def iced_canopy_heat_loss(
     if any(math.isnan(float(v)) for v in values):
         return IcedCanopyLoss(math.nan, math.nan, math.nan, math.nan)
     if all(type(v) is float for v in values):  # an evaluation's: the same steps on plain floats, to the bit
-        from frostwatch.physics.iced_canopy_floats import iced_canopy_heat_loss_f
-
-        return iced_canopy_heat_loss_f(air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
+        wind = max(wind_speed_m_s, CALM_WIND_FLOOR_M_S)
+        return IcedCanopyLoss(*iced_canopy_heat_loss_f(air_temp_c, dew_point_c, wind, pressure_hpa, cloud_frac), wind)
     return _iced_canopy_heat_loss_arrays(air_temp_c, dew_point_c, wind_speed_m_s, pressure_hpa, cloud_frac)
 
 
