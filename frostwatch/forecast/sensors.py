@@ -15,6 +15,7 @@ import numpy as np
 from frostwatch.config import Config, Station
 from frostwatch.models import StationState
 from frostwatch.physics import humidity
+from frostwatch.physics.dew_point_floats import dew_point_c_f
 from frostwatch.sorted_times import count_up_to
 from frostwatch.units import QUANTITIES
 
@@ -48,7 +49,10 @@ def usual_interval_s(t_s: np.ndarray, configured_s: float | None) -> float:
 @functools.lru_cache(maxsize=4096)
 def dew_point_c_from_rel_humidity(air_c: float, rh_pct: float) -> float:
     """`physics.humidity.dew_point_c_from_rel_humidity` of one reading, solved once: the same
-    reading is asked for at every evaluation until a newer one comes (and the dusk's all night)."""
+    reading is asked for at every evaluation until a newer one comes (and the dusk's all night).
+    Floats are solved on plain floats (`physics.dew_point_floats`, the same bits)."""
+    if type(air_c) is float and type(rh_pct) is float:
+        return dew_point_c_f(air_c, rh_pct)
     return float(humidity.dew_point_c_from_rel_humidity(air_c, rh_pct))
 
 
