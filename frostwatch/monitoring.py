@@ -19,9 +19,20 @@ from frostwatch.forecast import Series, carry, usual_interval_s
 from frostwatch.forecast.sensors import series_keys
 from frostwatch.sorted_times import count_up_to
 
+_UTC_OF: dict[float, dt.datetime] = {}  # a reading time as given -> its instant (emptied when full)
+
 
 def _utc(t_s: float) -> dt.datetime:
-    return _utc_ms(round(float(t_s), 3))
+    """`_utc_ms(round(float(t_s), 3))`, kept by the time as given (its rounding to the millisecond
+    is the costly part; 0.0 and -0.0 are one key and one instant, and NaN is never found)."""
+    x = float(t_s)
+    got = _UTC_OF.get(x)
+    if got is None:
+        got = _utc_ms(round(x, 3))
+        if len(_UTC_OF) >= 16384:
+            _UTC_OF.clear()
+        _UTC_OF[x] = got
+    return got
 
 
 @functools.lru_cache(maxsize=16384)

@@ -498,3 +498,21 @@ def test_the_shared_night_grid_is_each_blocks_own():
             assert instants(every) == grid_utc(want, every, 300.0)
         with pytest.raises(ValueError):
             grid[0] = 0.0
+
+
+def test_a_readings_instant_kept_by_its_time_is_the_rounded_one():
+    """monitoring._utc (kept by the time as given) is the instant of the time rounded to the
+    millisecond, for numpy and Python floats, both zeros, fractions of a millisecond either side of
+    a half, asked again after others; NaN still raises."""
+    import datetime as dt
+
+    from frostwatch import monitoring
+
+    rng = np.random.default_rng(2)
+    times = [0.0, -0.0, 1.8e9, 1.8e9 + 0.0004999, 1.8e9 + 0.0005, 1.8e9 + 0.0015, 1234.5675, -86400.25]
+    times += (1.8e9 + rng.uniform(0, 86400, 300)).tolist() + (1.8e9 + 60.0 * rng.integers(0, 1440, 300)).tolist()
+    for x in times + times[::-1]:
+        for v in (x, np.float64(x)):
+            assert monitoring._utc(v) == dt.datetime.fromtimestamp(round(float(v), 3), tz=dt.UTC)
+    with pytest.raises(ValueError):
+        monitoring._utc(float("nan"))
