@@ -9,6 +9,7 @@ frostwatch/ingest/mqtt.py; here the store and the outbox face the full disk dire
 from __future__ import annotations
 
 import datetime as dt
+import os
 import subprocess
 from pathlib import Path
 
@@ -38,13 +39,21 @@ def small_fs(tmp_path):
 
 
 def _fill(path: Path) -> None:
-    with open(path, "wb") as f:
-        try:
-            while True:
-                f.write(b"\0" * 65536)
-                f.flush()
-        except OSError:
-            pass
+    """Fill the file system: unbuffered writes until the disk refuses one. A buffered file would
+    raise ENOSPC again from its close() when the disk filled part-way through a block."""
+    block = b"\0" * 65536
+    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    try:
+        while True:
+            try:
+                if os.write(fd, block) < len(block):
+                    block = block[: max(1, len(block) // 2)]
+            except OSError:
+                if len(block) == 1:
+                    return
+                block = block[: len(block) // 2]  # the last free blocks, a smaller write at a time
+    finally:
+        os.close(fd)
 
 
 def _readings(start_s: int, n: int) -> list[Reading]:
