@@ -74,6 +74,29 @@ def test_planned_snapshots_are_the_per_night_snapshots(tmp_path):
     assert same(fast.calibration(), slow.calibration())
 
 
+def test_planned_snapshots_with_the_reduced_regression_speaking(tmp_path, monkeypatch):
+    """The dusk regression on fewer inputs (`calibration.REDUCED_INPUTS`), here made to speak from
+    its tenth scored night on: planned and per-night learners score it alike and forecast alike
+    (the typical Sand Point year below has it speak by its own rule)."""
+    monkeypatch.setattr(lm.Learner, "reduced_speaks", lambda self: self.reduced_gain[2] >= 10)
+    cfg = make_cfg(tmp_path)
+    recs = _records(cfg, synthetic_log(cfg, n=30), 30)
+    fast, slow = lm.Learner(cfg.forecast.calibration_nights), lm.Learner(cfg.forecast.calibration_nights)
+    fast.plan(recs)
+    spoke = 0
+    for rec in recs:
+        a, b = fast.calibration(), slow.calibration()
+        assert same(a, b), rec.night
+        spoke += a.use_reduced
+        x, h = rec.features, max(0.25, rec.hours_to_sunrise)
+        for reduced in (None, True, False):
+            assert same(a.regression_c(x, h, reduced), b.regression_c(x, h, reduced))
+        fast.learn(rec)
+        slow.learn(rec)
+        assert same(fast.reduced_gain, slow.reduced_gain)
+    assert spoke > 10
+
+
 def test_a_learner_that_leaves_its_plan_solves_as_it_goes(tmp_path):
     cfg = make_cfg(tmp_path)
     recs = _records(cfg, synthetic_log(cfg, n=20), 20)
@@ -138,9 +161,11 @@ def _typical_year(site: str, tmp_path):
     return cfg, series_of_columns(cols, _first_rows(cols), key_order="file")
 
 
-def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkeypatch):
-    """pvlib's Greensboro NC TMY3 year (NREL, Wilcox & Marion 2008), as bench/tmy.py converts it."""
-    cfg, series = _typical_year("greensboro", tmp_path)
+@pytest.mark.parametrize("site", ["greensboro", "sand_point"])
+def test_backtest_rows_are_the_per_night_rows_on_a_typical_year(tmp_path, monkeypatch, site):
+    """pvlib's Greensboro NC and Sand Point AK TMY3 years (NREL, Wilcox & Marion 2008), as
+    bench/tmy.py converts them (at Sand Point the dusk regression on T0 and Td0 takes over)."""
+    cfg, series = _typical_year(site, tmp_path)
     fast, slow = _rows_both_ways(monkeypatch, cfg, series)
     rows = json.loads(fast)
     assert fast == slow and len(rows) > 300

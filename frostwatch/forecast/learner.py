@@ -47,6 +47,9 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     PRIOR_BAND_C,
     PRIOR_CLEAR_CALM_ONLY,
     PRIOR_OFFSET_SHRINK_NIGHTS,
+    REDUCED_INPUTS,
+    REDUCED_MIN_NIGHTS,
+    REDUCED_SWITCH_Z,
     RIDGE_LAMBDA,
     SIMILAR_BY,
     SIMILAR_WIDTH_C,
@@ -56,8 +59,10 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     NightRecord,
     dusk_regime,
     nowcast_bin,
+    reduced_index,
+    reduced_model,
 )
-from frostwatch.forecast.ridge import lead_fit, ridge_solve_many
+from frostwatch.forecast.ridge import lead_fit, ridge_solve, ridge_solve_many
 from frostwatch.forecast.skill import (  # noqa: F401  (_Window, _quantile_sorted: also read from here)
     _band_from,
     _quantile_sorted,
@@ -88,6 +93,9 @@ class Learner:
         self.n_protected = 0
         self.nights: list[dt.date] = []
         self.dusk_skill: dict[str, _Skill] = {}
+        # the full dusk regression's absolute error minus the reduced one's (REDUCED_INPUTS), walk-forward:
+        # their sum, sum of squares and count over the nights both were scored on
+        self.reduced_gain = [0.0, 0.0, 0]
         self.dusk_residuals = _Window(BAND_MEMORY)
         f = len(NOWCAST_FEATURES)
         self.nc_m = np.zeros((NOWCAST_BINS, f + 2, f + 2))
@@ -127,6 +135,16 @@ class Learner:
         # dusk: each method's error and the blended forecast's residual (as project_block caps it)
         comps = cal.dusk_components(rec.prior_c, x, h, rec.evening_curve_c)
         pred_dusk = min(cal.predict_c(rec.prior_c, x, h, rec.evening_curve_c, comps), rec.t0_temp_c)
+        if "regression" in comps and REDUCED_INPUTS is not None:
+            # both dusk regressions scored on the night (one of them is the member that spoke)
+            full = cal.regression_c(x, h, reduced=False) if cal.use_reduced else comps["regression"]
+            reduced = comps["regression"] if cal.use_reduced else cal.regression_c(x, h, reduced=True)
+            d = abs(full - rec.observed_min_c) - abs(reduced - rec.observed_min_c)
+            if math.isfinite(d):
+                g = self.reduced_gain
+                g[0] += d
+                g[1] += d * d
+                g[2] += 1
         if math.isfinite(rec.prior_c):
             self.dusk_skill.setdefault(dusk_regime(x), _Skill(DUSK_METHODS)).add(
                 {k: v - rec.observed_min_c for k, v in comps.items()})
@@ -200,6 +218,17 @@ class Learner:
         self._cal = None
         return True
 
+    def reduced_speaks(self) -> bool:
+        """Whether the reduced dusk regression speaks: over at least REDUCED_MIN_NIGHTS nights, its
+        mean absolute error lower than the full one's by more than REDUCED_SWITCH_Z standard errors
+        of the mean difference (the nights' differences taken as independent)."""
+        s, ss, m = self.reduced_gain
+        if m < max(REDUCED_MIN_NIGHTS, 2):
+            return False
+        mean = s / m
+        se = math.sqrt(max(0.0, ss / m - mean * mean) / m)
+        return mean > REDUCED_SWITCH_Z * se
+
     def nowcast_methods(self, learned: bool) -> tuple[str, ...]:
         """The nowcast methods an hours-left bin blends: the learned one once its bin has a model,
         the naive fall once a past night has given one."""
@@ -229,7 +258,12 @@ class Learner:
                 if fits:  # the weighted regressions the next nights ask for, worked out ahead
                     out["extra"] = {key: (tuple(f[0]), tuple(f[1]), f[2]) for key, f in fits.items() if f is not None}
             planned = self._plan.dusk.get(n) if self._plan is not None else None
-            fit, drop_fit = planned or ridge_solve_many(np.stack([self.dusk_m, self.drop_m]), lam)
+            fit, drop_fit = planned[:2] if planned else ridge_solve_many(np.stack([self.dusk_m, self.drop_m]), lam)
+            if REDUCED_INPUTS is not None:
+                ix = reduced_index()
+                reduced = planned[2] if planned else ridge_solve(self.dusk_m[np.ix_(ix, ix)], lam)
+                out["k_reduced"] = reduced_model(reduced)
+                out["use_reduced"] = out["k_reduced"] is not None and self.reduced_speaks()
             if fit is not None:
                 mu, coefs, k_mean = fit
                 out.update(means=tuple(float(m) for m in mu), k_coefs=tuple(float(c) for c in coefs), k_mean=k_mean)

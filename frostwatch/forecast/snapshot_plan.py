@@ -17,6 +17,7 @@ from frostwatch.forecast.calibration import (
     NOWCAST_BINS,
     NOWCAST_MIN_SAMPLES,
     NOWCAST_RIDGE_LAMBDA,
+    REDUCED_INPUTS,
     RIDGE_LAMBDA,
     SIMILAR_BY,
     SIMILAR_WIDTH_C,
@@ -24,6 +25,8 @@ from frostwatch.forecast.calibration import (
     NightRecord,
     k_model_key,
     nowcast_bin,
+    reduced_index,
+    reduced_model,
     strata_mix,
 )
 from frostwatch.forecast.ridge import ridge_solve_many
@@ -77,8 +80,10 @@ class SnapshotPlan:
         lam = np.array([RIDGE_LAMBDA * max(1.0, calibration_nights / n) for n in n_all.tolist()])
         fits = ridge_solve_many(np.concatenate(stack), np.concatenate([lam, lam]))
         g = len(kept)
+        ix = reduced_index()
+        reduced = ridge_solve_many(stack[0][:, ix][:, :, ix], lam) if REDUCED_INPUTS is not None else [None] * g
         for n in n_all.tolist():
-            dusk[n] = (fits[n - 1], fits[g + n - 1])
+            dusk[n] = (fits[n - 1], fits[g + n - 1], reduced[n - 1])
         if samples:
             z = np.array(samples)
             zz = z[:, :, None] * z[:, None, :]
@@ -117,6 +122,10 @@ class SnapshotPlan:
                 strata[stratum] = strata.get(stratum, 0.0) + dusk_zz[n]
                 n += 1
             if keys:
-                for (n, key), fit in zip(keys, ridge_solve_many(np.array(ms), np.array(lams)), strict=True):
+                ms_a, lams_a = np.array(ms), np.array(lams)
+                for (n, key), fit in zip(keys, ridge_solve_many(ms_a, lams_a), strict=True):
                     k_fits[n][key] = fit
+                if REDUCED_INPUTS is not None:  # the reduced regression of the same nights and weights
+                    for (n, key), fit in zip(keys, ridge_solve_many(ms_a[:, ix][:, :, ix], lams_a), strict=True):
+                        k_fits[n][("reduced", key)] = reduced_model(fit)
         return cls(records, dusk, nc, k_fits)
