@@ -379,6 +379,10 @@ HARNESS = [
                 "Which inputs (K, all nights alike): Sand Point's best are T0, Td0, wind (0.839 / 0.796; with cloud "
                 "0.855 / 0.808: its pressure is one constant, its cloud costs 0.012); Greensboro's keep cloud (T0, Td0, "
                 "cloud, wind, pressure tendency 1.986 / 1.699; without cloud 1.87 and worse)"},
+    {"variant": "dusk: the fall regression's inputs chosen the same way (T0, Td0 alone once their walk-forward "
+                "absolute error is lower by one standard error), beside the shipped choice for the K regression",
+     "figures": "Greensboro and Miami never switch; Sand Point switches on 47 nights: 0.870 / 0.822 against 0.870 / "
+                "0.823 (the blend's fall member carries a third of the weight at most): not shipped"},
     {"variant": "dusk blend: the skill record's memory and start (half-life 60 / 100 nights; initial moments 1 degC^2 "
                 "not 4; the moments as a decayed mean holding p = 0.5-20 nights of the initial 4 I; each regime's "
                 "record shrunk toward the record of all dusks by p = 1-40 nights; covariance floor 0.2; errors "
