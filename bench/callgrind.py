@@ -26,6 +26,14 @@ def wait_for_go(work: Path) -> None:
         time.sleep(0.2)
 
 
+def wait_for_off(work: Path, timeout_s: float = 120.0) -> None:
+    """Inner side, after touching the stop mark: wait until instrumentation is off (the driver
+    touches "off"), so that what follows (the interpreter's exit) is not counted."""
+    end = time.monotonic() + timeout_s
+    while not (work / "off").exists() and time.monotonic() < end:
+        time.sleep(0.2)
+
+
 def _wait_for(mark: Path, p: subprocess.Popen, poll_s: float) -> None:
     while not mark.exists():
         if p.poll() is not None:
@@ -50,6 +58,7 @@ def counted_run(module: str, inner_args: list[str], work: Path, tree: str | None
     if stop_mark:
         _wait_for(work / stop_mark, p, 0.2)
         subprocess.run(["callgrind_control", "-i", "off", str(p.pid)], capture_output=True, check=False)
+        (work / "off").touch()
     out, err = p.communicate()
     found = re.search(r"Collected : (\d+)", err)
     if found is None:
