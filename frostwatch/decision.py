@@ -18,6 +18,7 @@ import datetime as dt
 from dataclasses import dataclass, field
 from enum import StrEnum
 
+from frostwatch import instant_runs
 from frostwatch.advice import codec_shapes
 from frostwatch.advice.codec import from_dict, to_dict
 from frostwatch.advice.plan import PLAN_VERSION, AdvicePlan, Step
@@ -26,6 +27,7 @@ from frostwatch.quick_init import quick_init
 
 DECISION_VERSION = 1
 CURVE_STEP_S = 1800.0  # the stored projected curve keeps one point per half hour (SD-card wear)
+_ONE_US = dt.timedelta(microseconds=1)
 _CURVE_STEP = dt.timedelta(seconds=CURVE_STEP_S)  # whole microseconds: t >= last + step exactly when t - last >= step
 
 
@@ -114,6 +116,9 @@ def _kept_points(times: tuple[dt.datetime, ...], n: int) -> list[int]:
     first, then each first at or past the last kept one + CURVE_STEP_S (t - last >= step). Times
     in order (a projection's curve) are cut by bisection, a few steps instead of one per point;
     any others point by point (tests/test_stored_decision.py holds both to the plain loop)."""
+    run = instant_runs.spacing_of(times)
+    if run is not None and run[1] and n:  # a curve made by the projection's grid: no comparison needed
+        return _kept_points_of_run(times, n, *run)
     head = times[:n]
     if n > 2 and sorted(head) == list(head):  # in order (sorted keeps equal times in place)
         out, i = [], 0
@@ -126,6 +131,21 @@ def _kept_points(times: tuple[dt.datetime, ...], n: int) -> list[int]:
         if due is None or times[i] >= due:
             out.append(i)
             due = times[i] + _CURVE_STEP
+    return out
+
+
+def _kept_points_of_run(times: tuple[dt.datetime, ...], n: int, every_s: int, m: int) -> list[int]:
+    """`_kept_points(times, n)` of a tuple whose first m instants are whole seconds `every_s` apart
+    (`instant_runs`), after which at most one more (sunrise) follows: among those m, every q-th
+    is the first at or past the last kept + CURVE_STEP_S (q = ceil(CURVE_STEP_S / every_s); the
+    ones between are less than a step on); the one after them is kept when it is at or past the
+    last kept + the step (the rule of either loop for a last point)."""
+    q = -(-(_CURVE_STEP // _ONE_US) // (every_s * 1_000_000))  # in whole microseconds: exact
+    m = min(m, n)
+    out = list(range(0, m, q))
+    for i in range(m, n):  # sunrise after the run, if the curve reaches it
+        if times[i] >= times[out[-1]] + _CURVE_STEP:
+            out.append(i)
     return out
 
 

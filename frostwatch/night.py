@@ -84,6 +84,28 @@ def evening_date(t_utc: dt.datetime, tz: ZoneInfo) -> dt.date:
     return local.date() if local.hour >= 12 else local.date() - dt.timedelta(days=1)
 
 
+_NOON = dt.time(12)
+_CHECK_STEP = dt.timedelta(minutes=15)
+
+
+def evening_span_s(evening: dt.date, tz: ZoneInfo) -> tuple[float, float] | None:
+    """[start, end) in UTC seconds: the instants whose `evening_date` is `evening`, from its local
+    noon to the next day's, when the zone's UTC offset is the same at both noons and at every
+    quarter hour between (no clock change that day: local time then runs with UTC, so the date
+    cannot move inside); None otherwise (the caller works each instant out by `evening_date`)."""
+    lo = dt.datetime.combine(evening, _NOON, tz).astimezone(dt.UTC)
+    hi = dt.datetime.combine(evening + dt.timedelta(days=1), _NOON, tz).astimezone(dt.UTC)
+    if hi - lo != dt.timedelta(days=1) or lo.astimezone(tz).time() != _NOON or hi.astimezone(tz).time() != _NOON:
+        return None  # a clock change between the two noons, or a noon that does not exist
+    offset = lo.astimezone(tz).utcoffset()
+    t = lo
+    while t < hi:
+        t += _CHECK_STEP
+        if t.astimezone(tz).utcoffset() != offset:
+            return None
+    return lo.timestamp(), hi.timestamp()
+
+
 def night_at(latitude: float, longitude: float, tz: ZoneInfo, t_utc: dt.datetime) -> Night:
     return night_of_date(latitude, longitude, tz, evening_date(t_utc, tz))
 

@@ -28,7 +28,15 @@ from frostwatch.display import Display
 from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series
 from frostwatch.models import Alert, Projection
 from frostwatch.monitoring import block_monitoring, inputs_utc
-from frostwatch.night import LOOKBACK, Night, evening_date, night_of_date, nights_of_dates, slice_series
+from frostwatch.night import (
+    LOOKBACK,
+    Night,
+    evening_date,
+    evening_span_s,
+    night_of_date,
+    nights_of_dates,
+    slice_series,
+)
 from frostwatch.physics import humidity
 
 
@@ -112,6 +120,7 @@ class Evaluator:
         self.learners: dict[str, Learner] = {b.id: Learner(cfg.forecast.calibration_nights) for b in cfg.blocks}
         self.learned: set[dt.date] = set()
         self._nights: dict[dt.date, Night] = {}
+        self._span: tuple[float, float, Night | None] = (math.inf, -math.inf, None)  # night_at's last evening
         self._dusk_kept: tuple[Config | None, dict] = (None, {})  # (the config it was made with, the dusk memo)
 
     def night(self, evening: dt.date) -> Night:
@@ -129,7 +138,20 @@ class Evaluator:
         return [self._nights[d] for d in evenings]
 
     def night_at(self, t_utc: dt.datetime) -> Night:
-        return self.night(evening_date(t_utc, self.cfg.site.tz))
+        """The night of an instant (`evening_date`), kept with the span of instants of the same
+        evening (`night.evening_span_s`): an evaluation every two minutes asks about 450 times a
+        night."""
+        t_s = t_utc.timestamp()
+        lo_s, hi_s, night = self._span
+        if lo_s <= t_s < hi_s:
+            return night
+        tz = self.cfg.site.tz
+        evening = evening_date(t_utc, tz)
+        night = self.night(evening)
+        span = evening_span_s(evening, tz)
+        if span is not None:
+            self._span = (span[0], span[1], night)
+        return night
 
     def calibration(self, block_id: str) -> Calibration:
         return self.learners[block_id].calibration()

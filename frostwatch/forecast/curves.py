@@ -17,7 +17,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from frostwatch import drying
+from frostwatch import drying, instant_runs
 from frostwatch.config import SPRINKLER_METHODS, Block
 from frostwatch.forecast.sensors import Series
 from frostwatch.physics import humidity
@@ -58,7 +58,10 @@ def grid_utc(grid_s: np.ndarray, step: int, grid_step_s: float) -> tuple[dt.date
         return utc_seconds(pts.tolist())
     m = n if float(pts[-1]) == first + (n - 1) * every_s else n - 1  # the last: a whole step on, or sunrise
     out = _whole_seconds_run(int(first), int(every_s), m)
-    return out if m == n else out + (_utc(float(pts[-1])),)
+    out = out if m == n else out + (_utc(float(pts[-1])),)
+    if every_s > 0:
+        instant_runs.note(out, int(every_s), m)  # its first m whole seconds apart (the stored curve's thinning reads it)
+    return out
 
 
 GRID_RUNS_KEPT = 64  # runs of instants kept (per step and phase); emptied when full
@@ -87,24 +90,59 @@ def _whole_seconds_run(a: int, every: int, m: int) -> tuple[dt.datetime, ...]:
 
 
 _GRID: tuple = (None, None)  # ((now, sunrise, t0, step), (grid, its square-root clock, {every: instants}))
+GRID_ARRAYS_KEPT = 64  # grids kept (per sunrise, clock origin, step and phase); emptied when full
+_GRID_ARRAYS: dict[tuple[float, float, float, float], tuple[float, int, np.ndarray, np.ndarray]] = {}
+_WHOLE_LIMIT_S = 2.0**52  # whole seconds below this are exact in a float, and so are their sums
+
+
+def grid_arrays(now_s: float, sunrise_s: float, t0_s: float, step_s: float) -> tuple[np.ndarray, np.ndarray]:
+    """The projection's grid, `np.arange(now_s, max(now_s, sunrise_s) + 1, step_s)` then sunrise
+    if it is not on it, and sqrt(hours since t0, at least 0) at each instant: read-only arrays.
+
+    Sliced from the grid an earlier instant made for the same sunrise, clock origin t0 and step,
+    when `now_s` is a whole number of steps after that one's start (and both are whole seconds):
+    arange's instants are then `start + i * step` exactly (whole seconds), so the later grid is
+    the earlier one without its first k instants, the same sunrise after them, and the clock is
+    worked out instant by instant (IEEE subtraction, division, maximum and square root: the same
+    floats wherever they sit in an array). A replay's evaluations every two minutes on a
+    five-minute grid hold five phases per night; from dusk on (t0 fixed) each is made once."""
+    stop = max(now_s, sunrise_s) + 1.0
+    n = math.ceil((stop - now_s) / step_s)  # np.arange's length: ceil((stop - start) / step)
+    whole = (now_s == math.floor(now_s) and step_s == math.floor(step_s) and 0.0 < step_s
+             and abs(now_s) < _WHOLE_LIMIT_S and abs(stop) < _WHOLE_LIMIT_S)
+    key = (sunrise_s, t0_s, step_s, now_s % step_s) if whole else None
+    if key is not None:
+        got = _GRID_ARRAYS.get(key)
+        if got is not None:
+            start, n0, grid_s, e_grid = got
+            k = (now_s - start) / step_s  # a whole number: the same phase
+            if now_s >= start and n0 - k == n:
+                k = int(k)
+                return grid_s[k:], e_grid[k:]
+    grid_s = np.arange(now_s, stop, step_s)
+    n0 = len(grid_s)
+    if grid_s[-1] < sunrise_s:
+        grid_s = np.concatenate((grid_s, (sunrise_s,)))
+    e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
+    grid_s.setflags(write=False)
+    e_grid.setflags(write=False)
+    if key is not None and n0 == n > 2 and t0_s != now_s:  # a grid of the night's instants to come (not before dusk: t0 moves with now)
+        if len(_GRID_ARRAYS) >= GRID_ARRAYS_KEPT:
+            _GRID_ARRAYS.clear()
+        _GRID_ARRAYS[key] = (now_s, n0, grid_s, e_grid)
+    return grid_s, e_grid
 
 
 def night_grid(now_s: float, sunrise_s: float, t0_s: float, step_s: float) -> tuple[np.ndarray, np.ndarray, Callable]:
     """The projection's grid from now to sunrise (`np.arange(now_s, max(now_s, sunrise_s) + 1,
     step_s)`, then sunrise itself if it is not on it), sqrt(hours since t0, at least 0) at each
-    instant, and `instants(every)`: `grid_utc(grid, every, step_s)`. Made once per instant: every
-    block of an evaluation projects on the same grid (read-only arrays, shared)."""
+    instant (`grid_arrays`), and `instants(every)`: `grid_utc(grid, every, step_s)`. Made once per
+    instant: every block of an evaluation projects on the same grid (read-only arrays, shared)."""
     global _GRID
     key = (now_s, sunrise_s, t0_s, step_s)
     held = _GRID
     if held[0] != key:
-        grid_s = np.arange(now_s, max(now_s, sunrise_s) + 1.0, step_s)
-        if grid_s[-1] < sunrise_s:
-            grid_s = np.concatenate((grid_s, (sunrise_s,)))
-        e_grid = np.sqrt(np.maximum(0.0, (grid_s - t0_s) / 3600.0))
-        grid_s.setflags(write=False)
-        e_grid.setflags(write=False)
-        held = _GRID = (key, (grid_s, e_grid, {}))
+        held = _GRID = (key, (*grid_arrays(now_s, sunrise_s, t0_s, step_s), {}))
     grid_s, e_grid, times = held[1]
 
     def instants(every: int) -> tuple[dt.datetime, ...]:
@@ -198,6 +236,18 @@ def sqrt_curve_c(target_c: float, anchor_c: float, e_grid: np.ndarray, e_now: fl
     if span <= 0.05:
         return np.full(len(e_grid), min(anchor_c, target_c))
     return anchor_c + (min(target_c, anchor_c) - anchor_c) / span * (e_grid - e_now)
+
+
+def sqrt_curves_c(targets_c: tuple[float, ...], anchor_c: float, e_grid: np.ndarray, e_now: float,
+                  span: float) -> np.ndarray:
+    """`sqrt_curve_c` of several targets on the same grid as the rows of one array (a block's
+    curve and its band's cold edge): each row the same floats, the clock's run from now
+    (`e_grid - e_now`) taken once and each row's slope times it, plus the anchor, element by
+    element as there."""
+    if span <= 0.05:
+        return np.array([sqrt_curve_c(t, anchor_c, e_grid, e_now, span) for t in targets_c])
+    slopes = np.array([(min(t, anchor_c) - anchor_c) / span for t in targets_c], dtype=float)
+    return anchor_c + slopes[:, None] * (e_grid - e_now)
 
 
 def block_crossings(

@@ -36,6 +36,7 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     grid_utc,
     night_grid,
     sqrt_curve_c,
+    sqrt_curves_c,
     utc_seconds,
 )
 from frostwatch.forecast.nowcast import features_at
@@ -291,8 +292,12 @@ def project_block(
 
     band_low_c = band_at_c + min(lo_off, -MIN_BAND_C / 2)
     band_high_c = band_at_c + max(hi_off, MIN_BAND_C / 2)
-    curve = sqrt_curve_c(tp_c, anchor_c, e_grid, e_now, span)
-    cold_curve = sqrt_curve_c(band_low_c, anchor_c, e_grid, e_now, span) if curves else curve
+    if curves:  # the curve and its cold edge as the rows of one array (rounded together below)
+        both = sqrt_curves_c((tp_c, band_low_c), anchor_c, e_grid, e_now, span)
+        curve, cold_curve = both
+    else:
+        both = None
+        curve = cold_curve = sqrt_curve_c(tp_c, anchor_c, e_grid, e_now, span)
 
     wet_c = None
     td_trend = td_at_start = None  # the dew point's fall tonight, for sprinkler blocks (below)
@@ -350,6 +355,7 @@ def project_block(
     step = max(1, len(grid_s) // 48)
     projecting = now_s < sunrise_s
     drawn = projecting and curves
+    drawn_c = both[:, ::step].round(2).tolist() if drawn else ((), ())  # both curves' drawn points in one rounding
     return Projection(
         **base,
         station=speaker.station,
@@ -368,10 +374,10 @@ def project_block(
         method=method,
         notes=tuple(notes),
         curve_time_utc=grid_times(step) if drawn else (),
-        curve_air_temp_c=tuple(curve[::step].round(2).tolist()) if drawn else (),
+        curve_air_temp_c=tuple(drawn_c[0]),
         band_low_c=_round2(min(band_low_c, tmin_c)),
         band_high_c=_round2(max(band_high_c, tmin_c)),
-        curve_cold_edge_c=tuple(cold_curve[::step].round(2).tolist()) if drawn else (),
+        curve_cold_edge_c=tuple(drawn_c[1]),
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,
         wind_from_farm=wind_from_farm,
