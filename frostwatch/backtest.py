@@ -175,7 +175,12 @@ def _errors(rows: list[dict]) -> dict:
 
 
 def backtest_summary(rows: list[dict]) -> dict:
-    """MAE, bias and RMSE over all rows, and over the radiation nights among them."""
-    out = _errors(rows)
-    out["radiation_nights"] = _errors([r for r in rows if r.get("radiation_night")])
+    """MAE, bias and RMSE over the rows whose block ran no protection, and over the radiation nights
+    among them. Where sprinklers or wind machines ran, the block's own sensors read the protected
+    air, not the night the forecast was for, so those rows are counted (`protected_forecasts`) and
+    left out of the scores (as they are left out of the learning)."""
+    scored = [r for r in rows if not r.get("protected")]
+    out = _errors(scored)
+    out["protected_forecasts"] = len(rows) - len(scored)
+    out["radiation_nights"] = _errors([r for r in scored if r.get("radiation_night")])
     return out

@@ -115,6 +115,12 @@ def test_summary_has_contract_keys_and_radiation_split():
     assert s["nights"] == 3 and s["mae_c"] == pytest.approx(4 / 3, abs=1e-3) and s["bias_c"] == 0.0
     assert s["radiation_nights"]["nights"] == 1 and s["radiation_nights"]["bias_c"] == 1.0
     assert backtest_summary([])["mae_c"] is None
+    # a block whose protection ran is counted, not scored: its sensors read the protected air
+    ran = {"night": "2027-04-04", "predicted_min_c": -6.0, "observed_min_c": -1.0, "radiation_night": True,
+           "protected": True}
+    s2 = backtest_summary([*rows, ran])
+    assert {k: s2[k] for k in ("nights", "forecasts", "mae_c", "bias_c")} == {k: s[k] for k in ("nights", "forecasts", "mae_c", "bias_c")}
+    assert s2["protected_forecasts"] == 1 and s2["radiation_nights"]["forecasts"] == 1
 
 
 def test_candidate_nights_follow_the_data(tmp_path):
@@ -134,6 +140,20 @@ def test_backtest_command_table_and_json(tmp_path, demo_config, demo_logs):
     assert doc["summary"]["nights"] == 3
     out = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
     assert out.returncode == 0 and "walk-forward" in out.stdout and "east-low" in out.stdout
+    # the rows marked as clear calm nights are the ones the summary line counts (the regime column
+    # is what the forecast saw at dusk, which a night can turn from)
+    lines = out.stdout.splitlines()
+    marked = [x for x in lines if " yes" in x and "not scored" not in x]
+    flagged = [r for r in doc["nights"] if r.get("radiation_night") and not r["protected"]]
+    assert len(marked) == len(flagged) == doc["summary"]["radiation_nights"]["forecasts"] > 0
+    assert f"clear calm nights (mean wind < 2 m/s, cloud <= 0.3 over the night; 'yes' above): {len(flagged)} forecasts" in out.stdout
+    # the demo's first night ran sprinklers (river) and wind machines (east): their sensors read the
+    # protected air, so those rows are shown, marked, and left out of the scores
+    ran = {(r["night"], r["block"]) for r in doc["nights"] if r["protected"]}
+    assert ran == {("2027-04-14", "east"), ("2027-04-14", "river")}
+    assert doc["summary"]["protected_forecasts"] == 2 and doc["summary"]["forecasts"] == len(doc["nights"]) - 2
+    assert sum("protection ran: not scored" in x for x in lines) == 2
+    assert "2 forecast(s) left out: sprinklers or wind machines ran" in out.stdout
 
 
 def test_learned_nowcast_is_walk_forward_and_follows_tonight(tmp_path):

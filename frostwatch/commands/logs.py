@@ -183,19 +183,30 @@ def cmd_backtest(args) -> int:
     if args.json:
         _out_json({"nights": rows, "summary": summary})
         return 0
-    print(f"{'night':<11} {'block':<10} {'station':<12} {'predicted':>9} {'observed':>9} {'error':>6}  regime")
+    # "at dusk" is what the forecast saw at its issue time; "clear calm" is what the night then did
+    # (the summary's radiation nights), so a windy dusk can still end a clear calm night
+    print(f"{'night':<11} {'block':<10} {'station':<12} {'predicted':>9} {'observed':>9} {'error':>6}  "
+          f"{'at dusk':<9} clear calm")
     for r in rows:
         err = r["predicted_min_c"] - r["observed_min_c"]
+        ran = "protection ran: not scored" if r.get("protected") else ""
         print(f"{r['night']:<11} {r['block']:<10} {r['station']:<12} {r['predicted_min_c']:>9.1f} {r['observed_min_c']:>9.1f} "
-              f"{err:>+6.1f}  {r['regime']}")
+              f"{err:>+6.1f}  {r['regime']:<9} {'yes' if r.get('radiation_night') else '':<10} {ran}".rstrip())
     if not rows:
         print("no night in the log is covered from sunset + 2 h to an hour after sunrise; nothing to score")
         return 0
-    print(f"\n{summary['nights']} nights, {summary.get('forecasts', 0)} forecasts: MAE {summary['mae_c']} °C, "
+    left = summary.get("protected_forecasts", 0)
+    if left:
+        print(f"\n{left} forecast(s) left out: sprinklers or wind machines ran, so the block's sensors read "
+              f"the protected air, not the night that was forecast.")
+    if not summary.get("forecasts"):
+        print("no forecast of an unprotected block to score")
+        return 0
+    print(f"\n{summary['nights']} nights, {summary['forecasts']} forecasts scored: MAE {summary['mae_c']} °C, "
           f"bias {summary['bias_c']} °C, RMSE {summary['rmse_c']} °C (dusk forecast at sunset + 2 h, walk-forward)")
     rad = summary.get("radiation_nights") or {}
     if rad.get("forecasts"):
-        print(f"radiation nights (mean wind < 2 m/s, cloud <= 0.3): {rad['forecasts']} forecasts, "
+        print(f"clear calm nights (mean wind < 2 m/s, cloud <= 0.3 over the night; 'yes' above): {rad['forecasts']} forecasts, "
               f"MAE {rad['mae_c']} °C, bias {rad['bias_c']} °C, RMSE {rad['rmse_c']} °C")
     return 0
 
