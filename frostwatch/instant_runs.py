@@ -22,7 +22,10 @@ def note(times: tuple[dt.datetime, ...], every_s: int, m: int) -> None:
     if type(times) is not tuple or every_s <= 0 or not 0 <= m <= len(times):
         return
     if len(_NOTED) >= RUNS_KEPT:
-        _NOTED.pop(next(iter(_NOTED), None), None)  # the oldest (another thread may have taken it)
+        # the oldest: list() copies the keys in one step, where next(iter(...)) could meet another
+        # thread's insertion between its two steps ("dictionary changed size during iteration")
+        for old in list(_NOTED)[: len(_NOTED) - RUNS_KEPT + 1]:
+            _NOTED.pop(old, None)  # another thread may have taken it
     _NOTED[id(times)] = (times, int(every_s), m)  # held, so the id is not reused while noted
 
 

@@ -149,6 +149,36 @@ def test_a_tuple_noted_is_told_by_itself_and_only_while_kept():
     assert instant_runs.spacing_of(list(runs[-1])) is None and instant_runs.spacing_of(tuple(list(runs[-1]))) is None
 
 
+def test_noting_from_several_threads_never_raises_and_stays_bounded():
+    """The daemon's evaluations and a replay's may note curves from more than one thread: the
+    eviction of the oldest must not meet another thread's insertion mid-iteration."""
+    import sys
+    import threading
+
+    t0 = dt.datetime(2024, 4, 9, 4, tzinfo=dt.UTC)
+    errors: list[BaseException] = []
+
+    def work(j: int) -> None:
+        try:
+            for k in range(3000):
+                instant_runs.note(tuple(t0 + dt.timedelta(seconds=600 * i + j * 10_000 + k) for i in range(3)), 600, 3)
+        except BaseException as e:  # noqa: BLE001  (any exception fails the test below)
+            errors.append(e)
+
+    threads = [threading.Thread(target=work, args=(j,)) for j in range(4)]
+    switch = sys.getswitchinterval()
+    sys.setswitchinterval(1e-6)  # threads switch often, as on a busy Pi (the old eviction raised here)
+    try:
+        for t in threads:
+            t.start()
+        for t in threads:
+            t.join()
+    finally:
+        sys.setswitchinterval(switch)
+    assert errors == []
+    assert len(instant_runs._NOTED) <= instant_runs.RUNS_KEPT + len(threads)
+
+
 def _projection(times, temps) -> Projection:
     return Projection(time_utc=times[0], block="b", sunset_utc=times[0], sunrise_utc=times[-1], station="s",
                       air_temp_c=1.0, dew_point_c=None, wet_bulb_c=None, predicted_min_c=0.5, predicted_min_at_utc=None,
