@@ -21,6 +21,7 @@ from frostwatch.forecast.sensors import (
     speaking_station,
     station_state,
     usual_interval_s,
+    wind_station_ids,
     window_stat,
 )
 from frostwatch.night import Night
@@ -93,7 +94,7 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
         return None
     i = int(np.argmin(vw))
     inv_at_min = _inversion_at_s(block, cfg, series, float(tw[i]), float(vw[i]))
-    ids = [s.id for s in stations + site]
+    ids = wind_station_ids(series, [s.id for s in stations + site])  # the farm's wind where the block has none
     wind = window_stat(series, ids, "wind_speed", sunset_s, sunrise_s, np.mean)
     cloud = window_stat(series, [s.id for s in cfg.stations], "cloud_area_fraction", sunset_s, sunrise_s, np.max)
     if cloud is None and di.cloud_frac is not None:

@@ -264,6 +264,14 @@ def means_as_of(series: Series, stations: list[str], quantity: str, times_s: np.
     return np.where(count > 0, mean, last)
 
 
+def wind_station_ids(series: Series, own_ids: list[str]) -> list[str]:
+    """The stations whose wind speaks for a block: its own and the site-wide ones, or, with no
+    anemometer among them, every station with one (the farm's wind)."""
+    if stations_with(series, "wind_speed").intersection(own_ids):
+        return own_ids
+    return sorted(stations_with(series, "wind_speed"))
+
+
 def window_stat(series: Series, stations: list[str], quantity: str, start_s: float, end_s: float, stat) -> float | None:
     """`stat` over the stations' readings in [start, end], or None."""
     vals = []
@@ -343,9 +351,7 @@ def dusk_inputs(cfg: Config, series: Series, station: str, block_stations: list[
     if td is not None:
         td = min(td, t0_c)
     window = max(INPUT_WINDOW_S, interval or 0.0)
-    ids = [s.id for s in block_stations] + [s.id for s in site]
-    if not stations_with(series, "wind_speed").intersection(ids):
-        ids = sorted(stations_with(series, "wind_speed"))  # no anemometer in the block: the farm's wind
+    ids = wind_station_ids(series, [s.id for s in block_stations] + [s.id for s in site])
     wind = mean_as_of(series, ids, "wind_speed", t0_s, window)
     wind_then = mean_as_of(series, ids, "wind_speed", t0_s - WIND_TREND_S, window)
     wind_trend = None if wind is None or wind_then is None else wind - wind_then
