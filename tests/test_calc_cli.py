@@ -206,3 +206,40 @@ def test_units_us_reads_and_answers_in_us_units(capsys):
     assert rc == 0 and "in/h" in text and "gal/min" in text and "acre-ft" in text and "acres" in text and "mph" in text
     for si_unit in ("mm/h", "L/s", "m3", " ha", "m/s", "°C"):
         assert si_unit not in text, si_unit
+
+
+@pytest.mark.parametrize("air_c, rh", [(5.0, 56.0), (2.0, 60.0), (-1.0, 80.0), (8.0, 35.0)])
+def test_wet_bulb_from_humidity_matches_psychrolib(capsys, air_c, rh):
+    """A handheld hygrometer shows air and RH: `--humidity` instead of `--dew-point`. Outside
+    reference: psychrolib 2.5 (ASHRAE Handbook Fundamentals 2017 ch. 1), GetTWetBulbFromRelHum at
+    101325 Pa (an ice bulb below 0 °C, as frostwatch's)."""
+    import psychrolib
+
+    psychrolib.SetUnitSystem(psychrolib.SI)
+    want = psychrolib.GetTWetBulbFromRelHum(air_c, rh / 100.0, 101325.0)
+    doc = run_json(capsys, "wet-bulb", "--air-temp", str(air_c), "--humidity", str(rh))
+    assert doc["wet_bulb_c"] == pytest.approx(want, abs=0.1)
+    assert doc["relative_humidity_pct"] == rh
+    # the same as through the dew point it reports
+    same = run_json(capsys, "wet-bulb", "--air-temp", str(air_c), "--dew-point", str(doc["dew_point_c"]))
+    assert same["wet_bulb_c"] == pytest.approx(doc["wet_bulb_c"], abs=0.02)
+
+
+def test_sprinkler_start_from_humidity_and_its_usage_errors(capsys):
+    td = run_json(capsys, "dew-point", "--air-temp", "3", "--humidity", "50")["dew_point_c"]
+    by_td = run_json(capsys, "sprinkler-start", "--dew-point", str(td), "--critical", "-2.2")
+    by_rh = run_json(capsys, "sprinkler-start", "--air-temp", "3", "--humidity", "50", "--critical", "-2.2")
+    assert by_rh["start_air_temp_c"] == pytest.approx(by_td["start_air_temp_c"], abs=0.02)
+    assert by_rh["dew_point_c"] == pytest.approx(td, abs=0.01)
+    rc, out, err = run(capsys, "sprinkler-start", "--air-temp", "3", "--humidity", "50", "--critical", "-2.2")
+    assert rc == 0 and "from RH 50 %" in out
+    rc, _, err = run(capsys, "sprinkler-start", "--humidity", "50", "--critical", "-2.2")
+    assert rc == 2 and "--humidity needs --air-temp" in err
+    rc, _, err = run(capsys, "sprinkler-start", "--air-temp", "3", "--dew-point", "-5", "--critical", "-2.2")
+    assert rc == 2 and "--air-temp is used only with --humidity" in err
+    rc, _, err = run(capsys, "sprinkler-start", "--air-temp", "3", "--humidity", "99", "--critical", "-2.2")
+    assert rc == 2 and "from --humidity 99 at --air-temp 3" in err and "air temperature itself governs" in err
+    with pytest.raises(SystemExit) as exc:  # argparse: one of them, not both
+        run(capsys, "wet-bulb", "--air-temp", "2", "--humidity", "50", "--dew-point", "1")
+    assert exc.value.code == 2
+    assert "not allowed with" in capsys.readouterr().err

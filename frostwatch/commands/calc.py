@@ -25,6 +25,15 @@ def _list_calculators(args) -> int:
     return 0
 
 
+def _dew_point_given(args, ca, humidity, air_c: float | None) -> tuple[float, float | None]:
+    """(dew point [°C], the relative humidity it came from or None): `--dew-point`, or worked out
+    from `--humidity` at the air temperature `air_c` (what a handheld hygrometer shows)."""
+    if args.humidity is None:
+        return ca.temp_c(args, "--dew-point", args.dew_point), None
+    rh = ca.humidity_pct(args, "--humidity", args.humidity)
+    return float(humidity.dew_point_c_from_rel_humidity(air_c, rh)), rh
+
+
 def cmd_calc(args) -> int:
     import math
 
@@ -49,14 +58,18 @@ def cmd_calc(args) -> int:
     p_text = f"{p_hpa / ca.INHG_HPA:.2f} inHg" if ca.us(args) else f"{p_hpa:g} hPa"
     temp = lambda option, text: ca.temp_c(args, option, text)  # noqa: E731
     if args.calc == "wet-bulb":
-        t, td = temp("--air-temp", args.air_temp), temp("--dew-point", args.dew_point)
+        t = temp("--air-temp", args.air_temp)
+        td, rh = _dew_point_given(args, ca, humidity, t)
         if td > t + 0.05:
             raise UsageError(f"--dew-point {args.dew_point} is above --air-temp {args.air_temp}; a dew point cannot exceed the air temperature")
         wb = finite(float(humidity.wet_bulb_c_from_dew_point(t, td, p_hpa)), "no wet-bulb temperature for these inputs")
         doc = {_key(args, "wet_bulb"): _temp_out(args, wb), "pressure_hpa": round(p_hpa, 2),
                "method": "ASHRAE psychrometric wet bulb (ice bulb below 0 °C)"}
+        if rh is not None:
+            doc.update({_key(args, "dew_point"): _temp_out(args, td), "relative_humidity_pct": rh})
+        from_rh = "" if rh is None else f" from RH {rh:g} %"
         text = (f"wet-bulb temperature {_temp_out(args, wb)} {_unit(args)} (air {_temp_out(args, t)} {_unit(args)}, "
-                f"dew point {_temp_out(args, td)} {_unit(args)}, {p_text}; ice bulb below freezing)")
+                f"dew point {_temp_out(args, td)} {_unit(args)}{from_rh}, {p_text}; ice bulb below freezing)")
     elif args.calc == "dew-point":
         rh = ca.humidity_pct(args, "--humidity", args.humidity)
         t = temp("--air-temp", args.air_temp)
@@ -68,20 +81,29 @@ def cmd_calc(args) -> int:
         text = (f"dew point {_temp_out(args, td)} {_unit(args)}, frost point {_temp_out(args, tf)} {_unit(args)} "
                 f"(air {_temp_out(args, t)} {_unit(args)}, RH {rh:g} %)")
     elif args.calc == "sprinkler-start":
-        td, tc = temp("--dew-point", args.dew_point), temp("--critical", args.critical)
+        if args.humidity is not None and args.air_temp is None:
+            raise UsageError("--humidity needs --air-temp (the air temperature the humidity was read at)")
+        if args.air_temp is not None and args.humidity is None:
+            raise UsageError("--air-temp is used only with --humidity; give --dew-point, or --air-temp and --humidity")
+        tc = temp("--critical", args.critical)
+        td, rh = _dew_point_given(args, ca, humidity, None if args.air_temp is None else temp("--air-temp", args.air_temp))
         margin = ca.delta_c(args, "--margin", args.margin) if args.margin else 0.0
         start = float(sprinklers.sprinkler_start_air_temp_c(td, tc, margin_c=margin, pressure_hpa=p_hpa))
         if not math.isfinite(start):
             raise UsageError(
-                f"--dew-point {args.dew_point} is above the target wet bulb {args.critical}: the wet bulb never falls "
+                (f"--dew-point {args.dew_point}" if rh is None else
+                 f"the dew point {_temp_out(args, td)} {_unit(args)} (from --humidity {args.humidity} at --air-temp {args.air_temp})")
+                + f" is above the target wet bulb {args.critical}: the wet bulb never falls "
                 "below the dew point, so the air temperature itself governs: start before the air reaches the critical temperature"
             )
         doc = {_key(args, "start_air_temp"): _temp_out(args, start), "pressure_hpa": round(p_hpa, 2),
                _key(args, "target_wet_bulb"): _temp_out(args, tc + margin),
                "note": "sprinklers must be running before the air cools to this; stop only after sunrise once it is passed again and the ice is melting"}
+        if rh is not None:
+            doc.update({_key(args, "dew_point"): _temp_out(args, td), "relative_humidity_pct": rh})
         text = (f"start sprinklers before the air cools to {_temp_out(args, start)} {_unit(args)} "
                 f"(wet bulb = {_temp_out(args, tc + margin)} {_unit(args)}, the critical temperature plus margin, at dew point "
-                f"{_temp_out(args, td)} {_unit(args)}, {p_text}); stop only after sunrise, once the air is above it "
+                f"{_temp_out(args, td)} {_unit(args)}{'' if rh is None else f' from RH {rh:g} %'}, {p_text}); stop only after sunrise, once the air is above it "
                 "again, the wet bulb is rising and the ice is melting")
     elif args.calc == "critical":
         try:
@@ -241,21 +263,28 @@ def register(sub, common) -> None:
         return csub.add_parser(name, **kw)
 
     T = "temperature: °C, or °F with --fahrenheit or --units us; or with a unit: 34F, 1.2C"
+    RH = ("relative humidity in percent, 0-100 (below 1.5 is refused as a likely fraction unless "
+          "--humidity-low-ok is given or it is written with %%, e.g. 0.8%%)")
     P = ("air pressure in hPa (default 1013.25), inHg with --units us; or with a unit: 29.92inHg, 101.3kPa; "
          "outside 500-1100 hPa it is refused")
     c = add("wet-bulb", parents=[common, units], help="wet-bulb (ice-bulb below 0 °C) temperature")
     c.add_argument("--air-temp", required=True, metavar="T", help=T)
-    c.add_argument("--dew-point", required=True, metavar="TD", help=T)
+    given = c.add_mutually_exclusive_group(required=True)
+    given.add_argument("--dew-point", metavar="TD", help=T)
+    given.add_argument("--humidity", metavar="RH", help=RH)
+    c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
     c.add_argument("--pressure", metavar="HPA", help=P)
     c.add_argument("--pressure-inhg", metavar="INHG", help="air pressure in inches of mercury (e.g. 29.92)")
     c = add("dew-point", parents=[common, units], help="dew point and frost point from air temperature and RH")
     c.add_argument("--air-temp", required=True, metavar="T", help=T)
-    c.add_argument("--humidity", required=True, metavar="RH",
-                   help="relative humidity in percent, 0-100 (below 1.5 is refused as a likely fraction unless "
-                        "--humidity-low-ok is given or it is written with %%, e.g. 0.8%%)")
+    c.add_argument("--humidity", required=True, metavar="RH", help=RH)
     c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
     c = add("sprinkler-start", parents=[common, units], help="air temperature at which sprinklers must already run")
-    c.add_argument("--dew-point", required=True, metavar="TD", help=T)
+    given = c.add_mutually_exclusive_group(required=True)
+    given.add_argument("--dew-point", metavar="TD", help="the evening's dew point; " + T)
+    given.add_argument("--humidity", metavar="RH", help=RH + "; with --air-temp, instead of --dew-point")
+    c.add_argument("--air-temp", metavar="T", help="the air temperature the humidity was read at; " + T)
+    c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
     c.add_argument("--critical", required=True, metavar="TC", help="critical temperature (usually T10); " + T)
     c.add_argument("--margin", default="0", metavar="DT",
                    help="safety margin added to TC, in °C degrees (°F with --fahrenheit or --units us; or 2F, 1C)")
