@@ -70,6 +70,21 @@ def test_header_missing_a_column_is_an_error_naming_the_file():
         parse_sensor_log_bytes(b"time,station,quantity\n", "t.csv", STATIONS)
 
 
+@pytest.mark.parametrize("sep, word", [(";", "semicolons"), ("\t", "tabs")])
+def test_a_spreadsheet_export_with_semicolons_or_tabs_is_named_with_the_fix(tmp_path, sep, word):
+    """A spreadsheet in a locale with a decimal comma saves "CSV" with semicolons: both parsers
+    (the row parser and the bulk one `replay` and `backtest` use) say so and how to save it."""
+    from frostwatch.ingest.bulk import read_log_columns
+
+    body = sep.join(["time", "station", "quantity", "value", "unit"]) + "\n"
+    body += sep.join(["2027-04-15T04:00:00Z", "east-low", "air_temperature", "-1,5", "degC"]) + "\n"
+    (tmp_path / "x.csv").write_text(body, encoding="utf-8")
+    for parse in (lambda: parse_sensor_log_bytes(body.encode(), "x.csv", STATIONS),
+                  lambda: read_log_columns(tmp_path / "x.csv", STATIONS)):
+        with pytest.raises(IngestError, match=rf"x.csv:1: .*lacks .*separated by {word}.*comma-separated.*2.5 not 2,5"):
+            parse()
+
+
 def test_unreadable_file_is_an_error_naming_it(tmp_path):
     with pytest.raises(IngestError, match="no-such.csv"):
         read_sensor_log(tmp_path / "no-such.csv", STATIONS)

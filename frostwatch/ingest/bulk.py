@@ -33,7 +33,7 @@ from pathlib import Path
 import numpy as np
 
 from frostwatch.errors import IngestError
-from frostwatch.ingest.csvlog import parse_sensor_log_bytes
+from frostwatch.ingest.csvlog import header_error, parse_sensor_log_bytes
 from frostwatch.ingest.parse import LOG_COLUMNS, REQUIRED_COLUMNS, parse_log_row
 from frostwatch.models import Reading, Rejection
 from frostwatch.units import QUANTITIES, array_converter
@@ -212,9 +212,7 @@ def parse_log_columns(data: bytes, source: str, known_stations: Collection[str] 
     columns = {name: i for i, name in enumerate(header) if name in LOG_COLUMNS}
     missing = [c for c in REQUIRED_COLUMNS if c not in columns]
     if missing:
-        raise IngestError(
-            f"{source}:1: the header {','.join(header)!r} lacks {', '.join(missing)}; expected {','.join(LOG_COLUMNS)}"
-        )
+        raise header_error(source, header, missing)
     is_regular = (_fields_per_line(data, starts) == len(header)) & (ends > starts)
     is_regular[0] = False  # the header
     regular = np.flatnonzero(is_regular)

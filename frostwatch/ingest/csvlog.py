@@ -15,6 +15,19 @@ from frostwatch.ingest.parse import LOG_COLUMNS, REQUIRED_COLUMNS, parse_log_row
 from frostwatch.models import Reading, Rejection
 
 
+def header_error(source: str, header: list[str], missing: list[str]) -> IngestError:
+    """The error for a log whose header lacks required columns, with a hint when the header is
+    one field holding semicolons or tabs: a spreadsheet's "CSV" in a locale whose decimal mark is
+    a comma."""
+    text = f"{source}:1: the header {','.join(header)!r} lacks {', '.join(missing) or 'valid UTF-8'}; expected {','.join(LOG_COLUMNS)}"
+    if len(header) == 1 and missing:
+        sep = next((name for ch, name in ((";", "semicolons"), ("\t", "tabs")) if ch in header[0]), None)
+        if sep:
+            text += (f" (the columns look separated by {sep}, as some spreadsheets save CSV: save the log as"
+                     " comma-separated values with a point as the decimal mark, e.g. 2.5 not 2,5)")
+    return IngestError(text)
+
+
 def _decoded_lines(raw_lines: list[bytes], bad: set[int]) -> Iterator[str]:
     for i, b in enumerate(raw_lines, start=1):
         try:
@@ -43,10 +56,7 @@ def parse_sensor_log_bytes(
     columns = {name: i for i, name in enumerate(header) if name in LOG_COLUMNS}
     missing = [c for c in REQUIRED_COLUMNS if c not in columns]
     if 1 in bad or missing:
-        raise IngestError(
-            f"{source}:1: the header {','.join(header)!r} lacks {', '.join(missing) or 'valid UTF-8'}; "
-            f"expected {','.join(LOG_COLUMNS)}"
-        )
+        raise header_error(source, header, missing)
     readings: list[Reading] = []
     rejections: list[Rejection] = []
     last_line = 1
