@@ -97,6 +97,9 @@ def season_summary(cfg: Config, store: Store, year: int) -> Season:
                 "water_m3": None if bn.water_m3 is None else round(bn.water_m3, 1),
                 "fuel_l": None if bn.fuel_l is None else round(bn.fuel_l, 1),
                 "energy_kwh": None if bn.energy_kwh is None else round(bn.energy_kwh, 1),
+                # a night the block's protection ran: its sensors read the protected air, not the
+                # night that was forecast (as the backtest and the learning leave it out)
+                "forecast_scored": dusk_c is not None and bn.min_c is not None and bn.run_hours == 0,
             })
         acted += ran
     return Season(year, nights, rows, dict(levels), act_nights, acted)
@@ -106,13 +109,14 @@ def block_totals(season: Season, cfg: Config) -> list[dict]:
     out = []
     for b in cfg.blocks:
         rs = [r for r in season.rows if r["block"] == b.id]
-        errs = np.array([r["forecast_error_c"] for r in rs if r["forecast_error_c"] is not None], dtype=float)
+        errs = np.array([r["forecast_error_c"] for r in rs if r["forecast_scored"]], dtype=float)
         out.append({
             "year": season.year, "block": b.id, "nights": len(rs),
             "nights_below_t10": sum(r["below_t10"] for r in rs),
             "minutes_below_t10": round(sum(r["minutes_below_t10"] for r in rs), 1),
             "season_min_c": min((r["min_c"] for r in rs if r["min_c"] is not None), default=None),
             "forecasts": int(errs.size),
+            "forecasts_not_scored": sum(r["forecast_error_c"] is not None and not r["forecast_scored"] for r in rs),
             "forecast_mae_c": round(float(np.mean(np.abs(errs))), 2) if errs.size else None,
             "forecast_bias_c": round(float(np.mean(errs)), 2) if errs.size else None,
             "nights_protected": sum(r["protection_hours"] > 0 for r in rs),
@@ -125,9 +129,10 @@ def block_totals(season: Season, cfg: Config) -> list[dict]:
 
 NIGHT_COLUMNS = ["night", "block", "station", "kill_10pct_c", "min_c", "minutes_below_t10", "minutes_below_t90",
                  "below_t10", "dusk_forecast_c", "forecast_error_c", "max_alert", "protection_hours", "water_m3",
-                 "fuel_l", "energy_kwh"]
+                 "fuel_l", "energy_kwh", "forecast_scored"]
 TOTAL_COLUMNS = ["year", "block", "nights", "nights_below_t10", "minutes_below_t10", "season_min_c", "forecasts",
-                 "forecast_mae_c", "forecast_bias_c", "nights_protected", "protection_hours", "water_m3", "fuel_l"]
+                 "forecast_mae_c", "forecast_bias_c", "nights_protected", "protection_hours", "water_m3", "fuel_l",
+                 "forecasts_not_scored"]
 
 
 def write_season_report(cfg: Config, store: Store, year: int, out_dir: Path) -> Path:
@@ -149,6 +154,13 @@ def _m3(v: float | None, d: Display) -> str:
     return "" if v is None else d.water(v)
 
 
+def _not_scored(row: dict) -> str:
+    """The mark of a night's forecast error that the block's totals leave out."""
+    if row["forecast_error_c"] is None or row["forecast_scored"]:
+        return ""
+    return "<br><span class='note'>protection ran: not scored</span>"
+
+
 def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
     d = Display(cfg.site.display_unit, cfg.site.tz)
     lv = sorted(s.alerts_per_level.items(), key=lambda kv: -rank_of(kv[0]))
@@ -165,7 +177,8 @@ def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
     n_rows = "".join(
         f"<tr><td>{r['night']}</td><td>{e(r['block'])}</td><td class='num'>{d.temp(r['min_c'])}</td>"
         f"<td class='num'>{r['minutes_below_t10']:.0f}</td><td class='num'>{d.temp(r['dusk_forecast_c'])}</td>"
-        f"<td class='num'>{d.delta(r['forecast_error_c'])}</td><td>{level_span(r['max_alert']) if r['max_alert'] else ''}</td>"
+        f"<td class='num'>{d.delta(r['forecast_error_c'])}{_not_scored(r)}</td>"
+        f"<td>{level_span(r['max_alert']) if r['max_alert'] else ''}</td>"
         f"<td class='num'>{r['protection_hours']:.1f}</td></tr>"
         for r in s.rows
     )
@@ -182,7 +195,8 @@ def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
 <div class="scroll"><table id="block-totals"><tr><th>block</th><th>nights below T10</th><th>season minimum</th>
 <th>forecast error (mean absolute)</th><th>forecast bias</th><th>protection</th><th>water</th></tr>{t_rows}</table></div>
 <p class="note">Forecast error: the first projection at or after dusk (sunset + 2 h) minus the observed minimum;
-a negative bias means the forecasts ran colder than the nights. Data:
+a negative bias means the forecasts ran colder than the nights. A night a block's protection ran is
+listed but not scored: its sensors read the protected air, not the night that was forecast. Data:
 <a href="{stem}-nights.csv">per night (CSV)</a> · <a href="{stem}-blocks.csv">per block (CSV)</a>.</p>
 <h2>Night by night</h2>
 <div class="scroll"><table id="nights"><tr><th>night</th><th>block</th><th>minimum</th><th>min. below T10</th>
