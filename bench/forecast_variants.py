@@ -65,6 +65,9 @@ VARIANTS: dict[str, dict[str, object]] = {
     "dusk: regression on T0, Td0 as soon as its error is lower (z = 0, not 1 standard error)": {"REDUCED_SWITCH_Z": 0.0},
     "dusk: regression on T0, Td0 only beyond 2 standard errors": {"REDUCED_SWITCH_Z": 2.0},
     "dusk: the reduced regression on T0, Td0 and wind": {"REDUCED_INPUTS": (0, 1, 3)},
+    # issue 15, ninth pass: Miami's cold nights (held out). The evening curve is Reuter's square-root law
+    # carried from the evening's own cooling; like the physics prior it is radiative cooling's curve
+    "dusk: the evening curve in the blend on clear calm dusks only (as the physics prior)": {"EVENING_CLEAR_CALM_ONLY": True},
 }
 
 # What main had before this issue (commit 2a3d308, the same bench), for the record.
@@ -426,6 +429,73 @@ HARNESS = [
                 "The dew-point weighting already carries the most (the K regression alone 2.467 against 2.852 with all "
                 "nights alike); the pressure tendency and wind are inputs already; a 24-h dew-point change and wind "
                 "direction were tried before (above)"},
+    # issue 15, ninth pass: Miami's cold nights (35 below 15 degC; held out, and looked at to diagnose: nothing
+    # shipped, so nothing was chosen on them). Members, weights and class-free baselines: python -m bench.dusk_members
+    {"variant": "diagnosis: the dusk blend's members on Miami's cold nights (bench.dusk_members)",
+     "figures": "every member is warm on them: K regression 2.47/+1.63 (its share of the blend 0.61), fall regression "
+                "2.86/+1.75 (0.12), evening curve 3.09/+2.21 (0.25), physics prior 3.17/+2.13 (0.02: clear calm dusks "
+                "only); the blend 2.52/+1.91 is warmer than its K regression by the evening curve's share. Learner knows "
+                "< 60 nights (16 nights): blend +2.74, K regression +2.21, evening curve +2.87 at 0.37 of the blend; later "
+                "(19): +1.20, +1.14, +1.66 at 0.14. Not inputs carried from warm nights: the full regression (cloud, wind, "
+                "trends) beats the one on T0, Td0 on these nights (2.47 against 2.81). The class is chosen by the "
+                "outcome: the simple methods of forecast_skill.py are fitted on the class's own earlier nights (the "
+                "walk-forward regression used on every night would score 8.35/-8.16); fitted on every earlier night, as "
+                "a forecast must be, the same walk-forward regression scores 3.13/+1.85 and T minus the mean drop "
+                "3.80/+3.61 on them, and least squares on the six dusk inputs fitted in hindsight on all 353 nights "
+                "2.73/+1.76. Chosen by what is known at dusk instead (the 27 nights forecast below 15 degC, 25 of them "
+                "observed below): frostwatch 1.63/+0.68, its K regression 1.52/+0.29. The evening curve (Reuter's law "
+                "carried from the evening's own cooling) is unbiased on clear calm dusks (Greensboro / Sand Point / Miami "
+                "+0.02 / -0.01 / -0.36) and warm on cloudy or windy ones (+0.47 / +0.23 / +0.66), where Miami gives it "
+                "0.27 of the blend over all nights (Greensboro 0.11, Sand Point 0.15): Miami's all-night bias (+0.19) is "
+                "mostly that share (0.27 x +0.63)"},
+    # scored offline on each site's NightRecords (the learner replayed walk-forward, the blend checked to give the
+    # bench's dusk figures to the last digit; python -m bench.dusk_members shows the check); cells: Greensboro
+    # radiation / cold / all, Sand Point cold / all, Miami cold / all, MAE/bias degC; cold start = the first 10
+    # nights. What ships: 1.459/+0.18, 1.912/+0.30, 1.619/+0.06 (cold start 2.120/+0.31), 0.870/+0.08, 0.823/+0.07
+    # (0.685/+0.36), 2.515/+1.90, 1.443/+0.19 (1.618/+0.42)
+    {"variant": "dusk: the evening curve corrected by its mean error on the nights learned (shrunk n / (n + k), k = 0.5, "
+                "5, 20; plain or half-life 30 nights; one offset or one per dusk regime)",
+     "figures": "k = 0.5: Greensboro 1.542-1.552 (+0.25 to +0.27) / 1.916-1.921 / 1.621-1.625, cold start +0.64 to +0.68; "
+                "Sand Point 0.870-0.871 / 0.824-0.826; Miami 2.426-2.432 (+1.68 to +1.71) / 1.418-1.424. k = 5: "
+                "Greensboro radiation 1.511-1.516 (+0.21 to +0.23), cold start +0.48 to +0.51; Miami 2.443-2.451. "
+                "k = 20: Greensboro 1.485-1.488 (+0.19 to +0.21) / 1.915 / 1.620-1.622, cold start 2.150-2.160 "
+                "(+0.38); Sand Point 0.870 / 0.823; Miami 2.468-2.474 / 1.424-1.427: Miami gains 0.04-0.09, "
+                "Greensboro's radiation row and cold start lose"},
+    {"variant": "dusk: the same offset for the evening curve, the K regression and the fall regression",
+     "figures": "Greensboro 1.488-1.794 / 1.934-1.987 / 1.638-1.679 (bias -0.04 to -0.23 on all nights), Sand Point "
+                "0.873-0.883 / 0.826-0.839, Miami 2.430-2.511: the regressions' walk-forward mean error is noise"},
+    {"variant": "dusk: the evening curve's fall calibrated to the site (least squares on the nights learned, shrunk "
+                "toward no correction: a ratio, k = 2 / 10 / 50 degC^2; an offset, k = 2 / 10 nights; both, k = 2 / 10); "
+                "on every dusk, on cloudy or windy dusks only, or learned and applied on those only",
+     "figures": "every dusk, ratio: Greensboro 1.561-1.576 (+0.49 to +0.52) / 1.914-1.916 / 1.611-1.612, Sand Point "
+                "0.863-0.864 / 0.816, Miami 2.417-2.456 / 1.422-1.431; both: Greensboro 1.578-1.584 (+0.50), Sand "
+                "Point 0.845-0.848 / 0.801-0.803, Miami 2.420-2.426 / 1.417-1.419. Learned and applied on cloudy or "
+                "windy dusks only (where it is warm): ratio 1.508-1.510 (+0.34), Miami 2.409-2.417 (+1.61); offset "
+                "1.482-1.504 (+0.21 to +0.25), Miami 2.433-2.453; both 1.515-1.522 (+0.32 to +0.34) / 1.930-1.932, "
+                "Sand Point 0.852-0.860 / 0.807-0.814, Miami 2.393-2.420 / 1.417-1.422, Greensboro's cold start +0.64 "
+                "to +0.69. Sand Point and Miami gain; Greensboro's radiation row loses on every form (applied on every "
+                "dusk it moves clear calm dusks, where the curve is unbiased; learned on the cloudy or windy ones it "
+                "starts from Greensboro's first season, where the curve was too cold, -0.85 degC over the first 60 "
+                "nights), and its cold start: not shipped"},
+    {"variant": "dusk: the evening curve's initial error moment in the skill record of cloudy or windy dusks 2 / 4 / 10 "
+                "times the others' (its weight starts lower there); in both records 2 / 4 times",
+     "figures": "cloudy or windy record: Greensboro 1.445 (+0.21) / 1.906 / 1.613, 1.434 (+0.25) / 1.901 / 1.610, "
+                "1.426 (+0.28) / 1.895 / 1.607, cold start 2.138-2.171 (+0.33 to +0.36); Sand Point 0.864-0.867 / "
+                "0.816-0.819; Miami 2.489 / 2.465 / 2.465 (+1.84 / +1.78 / +1.72), all 1.441-1.451, cold start "
+                "1.654-1.700 (from 1.618). Both records: Greensboro 1.432 (+0.22) and 1.413 (+0.25). Every MAE but "
+                "the cold starts' gains, and Greensboro's radiation bias leaves +-0.2: not shipped"},
+    {"variant": "dusk: no evening curve on nights whose evening did not cool (its fitted fall above -0.05 / -0.5 degC; "
+                "the slope is clipped at 0, so a warming evening forecasts no fall)",
+     "figures": "Greensboro 1.459 (+0.19) / 1.913-1.914 / 1.620-1.622, cold start 2.211/+0.21; Sand Point 0.867 / 0.819 "
+                "and 0.856 / 0.812 (cold start 0.742/+0.05 at -0.5); Miami 2.517-2.519 / 1.465-1.466: no help to "
+                "Miami (the evening curve was +1.8 degC warm on its 39 such nights, but the other members are warm on "
+                "the cold ones too)"},
+    {"variant": "dusk: more inputs, in hindsight (least squares on all nights, leave-one-out): the six dusk inputs plus "
+                "one of the 3-h change of T, of Td, the 6-h and 24-h changes of Td and T, the 3-h pressure change, the "
+                "northerly wind, wind x pressure tendency, northerly wind x pressure tendency; or all of them",
+     "figures": "Miami's cold nights 2.77-2.89 (the six alone 2.83, all 2.96; the 24-h dew-point change 2.77/+1.65); "
+                "Greensboro's cold 1.955-2.022 (1.983), Sand Point's 0.845-0.858 (0.852): no dusk input tells "
+                "Miami's frontal nights from the rest, even fitted on them"},
 ]
 
 

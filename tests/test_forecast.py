@@ -398,6 +398,38 @@ def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
     assert weighted < 0.15 and alike > 0.4  # measured 0.05 and 0.52
 
 
+def test_evening_curve_switch_keeps_it_to_clear_calm_dusks(monkeypatch):
+    """`EVENING_CLEAR_CALM_ONLY` (a benchmark variant, off as shipped): on, the evening curve leaves
+    the skill blend of cloudy or windy dusks as the physics prior does, and stays in the clear calm
+    dusks' blend; off, both blends keep it."""
+    from frostwatch.forecast import learner
+
+    rng = np.random.default_rng(11)
+    recs = []
+    for d in range(40):
+        calm = d % 2 == 0
+        t0 = rng.uniform(5, 15)
+        k = -1.2 if calm else -0.5
+        day = dt.date(2027, 1, 1) + dt.timedelta(days=d)
+        obs = t0 + k * 3.0 + rng.normal(scale=0.5)
+        recs.append(forecast.NightRecord(
+            day, "b-low", t0, t0 - 5.0, 9.0, obs, dt.datetime.combine(day, dt.time(12), tzinfo=dt.UTC),
+            0.5 if calm else 4.0, 0.0 if calm else 0.8, obs + rng.normal(scale=1.0), calm,
+            t0_wind_m_s=0.5 if calm else 4.0, t0_cloud_frac=0.0 if calm else 0.8,
+            evening_curve_c=obs + rng.normal(scale=1.5)))
+
+    def methods(cal):
+        return {regime: {m for m, _ in w} for regime, w in cal.dusk_weights}
+
+    shipped = methods(forecast.fit_calibration(recs, 10))
+    assert "evening_curve" in shipped["clear_calm"] and "evening_curve" in shipped["other"]
+    assert "prior" in shipped["clear_calm"] and "prior" not in shipped["other"]
+    monkeypatch.setattr(learner, "EVENING_CLEAR_CALM_ONLY", True)
+    switched = methods(forecast.fit_calibration(list(recs), 10))
+    assert "evening_curve" in switched["clear_calm"] and "evening_curve" not in switched["other"]
+    assert switched["other"] == {"regression", "drop_regression"}
+
+
 def test_dusk_inputs_see_only_readings_up_to_dusk(demo_config):
     """The dusk inputs are what was known at the dusk point: readings that come after it, even a
     burst at another rate, change nothing. Here the humidity reported every 15 min until 10 min

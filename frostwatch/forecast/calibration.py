@@ -59,6 +59,10 @@ SKILL_BY_REGIME = True
 FORCE_DUSK_METHOD = None  # for benchmarks of one method alone
 USE_EVENING = True
 PRIOR_CLEAR_CALM_ONLY = True  # True: the physics prior enters the blend only on clear calm dusks
+# True: the evening curve, too, enters the skill blend only on clear calm dusks (benchmark variant). Off as
+# shipped: Reuter's law carried from the evening is warm on cloudy or windy dusks (+0.2 to +0.7 degC on the
+# open years), but leaving it out there costs Greensboro's radiation nights (bench/forecast_variants.py)
+EVENING_CLEAR_CALM_ONLY = False
 LEARNING_MEAN = True
 NOWCAST_BLEND = True  # False: the learned nowcast alone once it exists (benchmark variant)
 USE_PRESSURE_TREND = True

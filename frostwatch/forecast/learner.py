@@ -28,6 +28,7 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     BAND_PER_SQRT_HOUR,
     BAND_QUANTILES,
     DUSK_METHODS,
+    EVENING_CLEAR_CALM_ONLY,
     FEATURES,
     INVERSION_MEMORY,
     LEAD_BAND_RAW,
@@ -276,7 +277,8 @@ class Learner:
             out["naive_fall_c"] = self.fall_sum_c / self.fall_n
         regimes = sorted(self.dusk_skill.items()) if n >= MIN_REGRESSION_NIGHTS else []
         dusk_items = [(skill, tuple(m for m in DUSK_METHODS if skill.scored[m] > 0 and not (
-            m == "prior" and regime == "other" and PRIOR_CLEAR_CALM_ONLY))) for regime, skill in regimes]
+            regime == "other" and ((m == "prior" and PRIOR_CLEAR_CALM_ONLY) or (m == "evening_curve" and EVENING_CLEAR_CALM_ONLY)))))
+            for regime, skill in regimes]
         # the dusk weights, the approach blend's and the changed bins' nowcast weights in one call
         # (one stack per shape)
         approach = [(self.approach_skill, APPROACH_METHODS)] if NOWCAST_APPROACH_BLEND else []
