@@ -139,6 +139,11 @@ def _upper(ax, block, cfg, series, night, display, projections, dusk_forecast_c,
             wb = humidity.wet_bulb_c_from_dew_point(air_at, np.minimum(td, air_at))
             ax.plot(_times(td_t, tz), _conv(display, td), ":", color="tab:orange", lw=1.5, label=f"{st.id} dew point")
             ax.plot(_times(td_t, tz), _conv(display, wb), "-.", color="tab:olive", lw=1.5, label=f"{st.id} wet bulb")
+            # in view too: the wet bulb is the sprinklers' trigger and the dew point sets it (a dry
+            # night's dew point fell below the axis and was named in the legend but not drawn)
+            both = np.concatenate([np.asarray(td, dtype=float), np.asarray(wb, dtype=float)])
+            if np.isfinite(both).any():
+                ys += [float(np.nanmin(both)), float(np.nanmax(both))]
     ax.axhline(_conv(display, block.kill_10pct_c), color="tab:red", lw=1.5, label=f"T10 {display.temp(block.kill_10pct_c)}")
     ax.axhline(_conv(display, block.kill_90pct_c), color="darkred", lw=1.5, ls="--",
                label=f"T90 {display.temp(block.kill_90pct_c)}")

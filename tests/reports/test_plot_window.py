@@ -46,3 +46,28 @@ def test_a_block_with_readings_keeps_its_own_range(monkeypatch, tmp_path):
     t = night + np.arange(-4, 5) * 3600.0
     span, window = _drawn_x_span_days(monkeypatch, tmp_path, {("hill-low", "air_temperature"): (t, np.full(9, 2.0))})
     assert 0.5 * window < span < 1.5 * window
+
+
+def test_a_dry_nights_dew_point_and_wet_bulb_are_in_view(monkeypatch, tmp_path):
+    """The legend names the crop-height sensor's dew point and wet bulb (the sprinklers' trigger):
+    both are drawn inside the axis, however far below the air a dry night's dew point is (the
+    demo's windy night: air near 0 °C, dew point -8.6 °C, below the axis before)."""
+    cfg_path = tmp_path / "demo-farm.toml"
+    cfg_path.write_text(resources.files("frostwatch.sample_logs").joinpath("demo-farm.toml").read_text(encoding="utf-8"))
+    cfg = load_config(cfg_path)
+    night = night_of_date(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, dt.date(2027, 4, 16))
+    t = night.sunset_utc.timestamp() + np.arange(0, 12) * 3600.0
+    series = {("river-low", "air_temperature"): (t, np.linspace(6.0, -1.0, 12)),
+              ("river-low", "dew_point_temperature"): (t, np.full(12, -12.0))}
+    ylims = []
+    close = plots.plt.close
+
+    def keep(fig):
+        ylims.append(fig.axes[0].get_ylim())
+        close(fig)
+
+    monkeypatch.setattr(plots.plt, "close", keep)
+    plots.plot_block_night(tmp_path / "river.png", cfg.block("river"), cfg, series, night,
+                           Display(cfg.site.display_unit, cfg.site.tz), [], None)
+    (lo, hi), = ylims
+    assert lo < -12.0 and hi > 6.0, (lo, hi)
