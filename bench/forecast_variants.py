@@ -3,9 +3,9 @@ same three open years, as a change from what ships; writes bench/results/forecas
 
     python -m bench.forecast_variants [--only TEXT ...]   (all: about 7 minutes at load 2-5; not part of `python -m bench`)
 
-Each variant sets module constants of `frostwatch.forecast.calibration` (and of
-`forecast.learner`, `forecast.skill` and `forecast.snapshot_plan`, which import those they use)
-for the run and restores them. Figures per
+Each variant sets settings of `frostwatch.forecast.settings` for the run in every module that
+binds them (`settings.READERS`: `forecast.calibration`, `features`, `dusk_regression`, `learner`,
+`skill`, `snapshot_plan`, `records`, which import those they use) and restores them. Figures per
 site: dusk forecast MAE/bias on radiation, cold and all nights; the projection 2 h before the minimum (beside the naive drop) and 2 h before sunrise (cold nights; and all nights, beside the naive drop at that lead); the 80 % band's coverage at dusk
 and 2 h before the minimum; the median crossing error 3 h ahead; the cold-start bias; the "below
 0 degC" event's POD/FAR at dusk. Choices were made on Greensboro and Sand Point; Miami's figures
@@ -528,11 +528,16 @@ def _row(res: dict) -> dict:
 
 
 def run_variant(patch: dict[str, object]) -> dict:
-    from frostwatch.forecast import calibration as cal
-    from frostwatch.forecast import learner, skill, snapshot_plan
-    from frostwatch.forecast import projection as proj
+    import importlib
 
-    mods = (cal, learner, skill, snapshot_plan)  # the settings live in calibration; these import those they use
+    from frostwatch.forecast import projection as proj
+    from frostwatch.forecast import settings
+
+    # the settings live in forecast.settings (projection reads its own there); these import those they use
+    mods = tuple(importlib.import_module(f"frostwatch.forecast.{m}") for m in settings.READERS)
+    missing = [k for k in patch if not hasattr(settings, k)]
+    if missing:
+        raise KeyError(f"not a setting of frostwatch.forecast.settings: {', '.join(missing)}")
     old = {(m, k): getattr(m, k) for k in patch for m in mods if hasattr(m, k)}
     process_figures = fs._process_figures
     try:

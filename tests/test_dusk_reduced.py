@@ -105,8 +105,7 @@ def test_a_site_whose_cloud_and_wind_carry_nothing_keeps_temperature_and_dew_poi
     assert switched >= 8
 
 
-def test_no_reduced_regression_when_switched_off(monkeypatch):
-    for mod in (calibration, learner):
-        monkeypatch.setattr(mod, "REDUCED_INPUTS", None)
+def test_no_reduced_regression_when_switched_off(forecast_setting):
+    forecast_setting("REDUCED_INPUTS", None)
     cal = _learn(_site(noise_inputs=True, n=40)).calibration()
     assert cal.k_reduced is None and not cal.use_reduced

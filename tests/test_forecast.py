@@ -373,12 +373,10 @@ def _air_mass_night(d: int, t0: float, td: float, humid: bool, hours: float = 10
                                 dt.datetime.combine(day, dt.time(12), tzinfo=dt.UTC), 0.5, 0.0, 0.0, True, 0.5, 0.0)
 
 
-def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
+def test_a_few_dry_nights_are_forecast_from_nights_like_them(forecast_setting):
     """Sixty humid nights and eight dry ones: the dusk regression weighs past nights by how close
     their dew point at t0 was, so a new dry night is forecast from the dry nights' cooling, not
     carried over from the humid majority (issue 15: weight toward similar nights)."""
-    from frostwatch.forecast import calibration, learner
-
     rng = np.random.default_rng(7)
     recs = []
     for d in range(68):
@@ -392,18 +390,15 @@ def test_a_few_dry_nights_are_forecast_from_nights_like_them(monkeypatch):
         return float(np.mean([abs(cal.regression_c(r.features, r.hours_to_sunrise) - r.observed_min_c) for r in new_dry]))
 
     weighted = mae(forecast.fit_calibration(recs, 10))
-    monkeypatch.setattr(calibration, "SIMILAR_WIDTH_C", None)
-    monkeypatch.setattr(learner, "SIMILAR_WIDTH_C", None)
+    forecast_setting("SIMILAR_WIDTH_C", None)
     alike = mae(forecast.fit_calibration(list(recs), 10))
     assert weighted < 0.15 and alike > 0.4  # measured 0.05 and 0.52
 
 
-def test_evening_curve_switch_keeps_it_to_clear_calm_dusks(monkeypatch):
+def test_evening_curve_switch_keeps_it_to_clear_calm_dusks(forecast_setting):
     """`EVENING_CLEAR_CALM_ONLY` (a benchmark variant, off as shipped): on, the evening curve leaves
     the skill blend of cloudy or windy dusks as the physics prior does, and stays in the clear calm
     dusks' blend; off, both blends keep it."""
-    from frostwatch.forecast import learner
-
     rng = np.random.default_rng(11)
     recs = []
     for d in range(40):
@@ -424,7 +419,7 @@ def test_evening_curve_switch_keeps_it_to_clear_calm_dusks(monkeypatch):
     shipped = methods(forecast.fit_calibration(recs, 10))
     assert "evening_curve" in shipped["clear_calm"] and "evening_curve" in shipped["other"]
     assert "prior" in shipped["clear_calm"] and "prior" not in shipped["other"]
-    monkeypatch.setattr(learner, "EVENING_CLEAR_CALM_ONLY", True)
+    forecast_setting("EVENING_CLEAR_CALM_ONLY", True)
     switched = methods(forecast.fit_calibration(list(recs), 10))
     assert "evening_curve" in switched["clear_calm"] and "evening_curve" not in switched["other"]
     assert switched["other"] == {"regression", "drop_regression"}

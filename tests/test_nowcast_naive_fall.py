@@ -23,7 +23,6 @@ pytest.importorskip("pvlib")
 from frostwatch import backtest as bt  # noqa: E402
 from frostwatch.commands.logs import _series_from_readings  # noqa: E402
 from frostwatch.config import load_config  # noqa: E402
-from frostwatch.forecast import calibration, learner  # noqa: E402
 from frostwatch.ingest.csvlog import read_sensor_log  # noqa: E402
 
 _SPEC = importlib.util.spec_from_file_location("bench_tmy", Path(__file__).resolve().parents[1] / "bench" / "tmy.py")
@@ -92,13 +91,11 @@ def _cold_nowcast_errors(rows, raw):
     return np.array(fw), np.array(naive)
 
 
-def test_the_naive_fall_in_the_blend_brings_the_projection_2h_before_the_minimum_closer(sand_point, monkeypatch):
+def test_the_naive_fall_in_the_blend_brings_the_projection_2h_before_the_minimum_closer(sand_point, forecast_setting):
     cfg, series, raw = sand_point
-    for mod in (calibration, learner):  # the blend itself, before the approach correction (tested below)
-        monkeypatch.setattr(mod, "NOWCAST_LEAD_CORRECTION", False)
+    forecast_setting("NOWCAST_LEAD_CORRECTION", False)  # the blend itself, before the approach correction (tested below)
     with_naive, naive = _cold_nowcast_errors(_backtest(cfg, series), raw)
-    for mod in (calibration, learner):
-        monkeypatch.setattr(mod, "USE_NAIVE", False)
+    forecast_setting("USE_NAIVE", False)
     without, _ = _cold_nowcast_errors(_backtest(cfg, series), raw)
     assert len(with_naive) > 150  # measured 201 cold nights
     mae = lambda e: float(np.mean(np.abs(e)))  # noqa: E731
@@ -121,17 +118,15 @@ def _with_probe(cfg, series):
 
 
 def test_the_approach_correction_brings_the_projection_2h_before_the_minimum_closer_and_keeps_the_band(
-        sand_point, monkeypatch):
+        sand_point, forecast_setting):
     """The blend's fall still to come, scaled by the ratio learned at the instants 2 h before past
     nights' minima (walk-forward, on nights forecast at dusk below the mean minimum learned), against
     the same blend without it; the band stays the blend's own."""
     cfg, series, raw = sand_point
-    for mod in (calibration, learner):  # the correction alone (the approach blend on top is tested below)
-        monkeypatch.setattr(mod, "NOWCAST_APPROACH_BLEND", False)
+    forecast_setting("NOWCAST_APPROACH_BLEND", False)  # the correction alone (the approach blend on top is tested below)
     rows_on = _with_probe(cfg, series)
     on, naive = _cold_nowcast_errors(rows_on, raw)
-    for mod in (calibration, learner):
-        monkeypatch.setattr(mod, "NOWCAST_LEAD_CORRECTION", False)
+    forecast_setting("NOWCAST_LEAD_CORRECTION", False)
     rows_off = _with_probe(cfg, series)
     off, _ = _cold_nowcast_errors(rows_off, raw)
     mae = lambda e: float(np.mean(np.abs(e)))  # noqa: E731
@@ -146,15 +141,14 @@ def test_the_approach_correction_brings_the_projection_2h_before_the_minimum_clo
 
 
 def test_the_approach_blend_brings_the_projection_2h_before_the_minimum_closer_and_keeps_the_band(
-        sand_point, monkeypatch):
+        sand_point, forecast_setting):
     """On the corrected nights, while the last 2 h cooled, the corrected fall mixed with the naive
     fall by their skill at past nights' instants 2 h before the minimum (walk-forward), against the
     corrected blend alone; the dusk forecast and the band do not move."""
     cfg, series, raw = sand_point
     rows_on = _with_probe(cfg, series)
     on, naive = _cold_nowcast_errors(rows_on, raw)
-    for mod in (calibration, learner):
-        monkeypatch.setattr(mod, "NOWCAST_APPROACH_BLEND", False)
+    forecast_setting("NOWCAST_APPROACH_BLEND", False)
     rows_off = _with_probe(cfg, series)
     off, _ = _cold_nowcast_errors(rows_off, raw)
     mae = lambda e: float(np.mean(np.abs(e)))  # noqa: E731

@@ -1,11 +1,17 @@
 """The site's calibration as `projection.project_block` reads it: an immutable `Calibration`
 snapshot (the dusk regression, the learned nowcast, each method's recent skill weights and the
-80 % band) that only takes dot products and table lookups; what a past night did
-(`NightRecord`); and the settings of both. The snapshot is made by `forecast.learner.Learner`,
-which learns night by night from sufficient statistics (no refit over the history).
+80 % band) that only takes dot products and table lookups. The snapshot is made by
+`forecast.learner.Learner`, which learns night by night from sufficient statistics (no refit over
+the history).
 
 Nights with protection running (sprinklers or wind machines) are left out: their minimum is the
 protection's doing, not the night's (issue 14). They are counted and said.
+
+Its neighbours, once in this module and still importable from it: the settings and switches
+(`forecast.settings`), the inputs, kinds of dusk and nowcast bins (`forecast.features`), the
+dusk regression's dew-point weighting and reduced regression (`forecast.dusk_regression`) and
+what a past night did (`forecast.past_night`). A benchmark trying a variant sets a setting in
+every module of `settings.READERS`, this one among them.
 """
 
 from __future__ import annotations
@@ -16,173 +22,84 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from frostwatch.forecast.dusk_regression import k_model_key, reduced_index, reduced_model, strata_mix
+from frostwatch.forecast.features import dusk_regime, feature_vector, nowcast_bin
+from frostwatch.forecast.past_night import NightRecord
 from frostwatch.forecast.ridge import ridge_solve
-from frostwatch.forecast.sensors import ASSUMED_DEPRESSION_C
+from frostwatch.forecast.settings import (
+    APPROACH_METHODS,
+    APPROACH_WHEN_COOLING,
+    BAND_FROM_QUANTILES,
+    BAND_MEMORY,
+    BAND_MIN_RESIDUALS,
+    BAND_PER_SQRT_HOUR,
+    BAND_QUANTILES,
+    BAND_Z,
+    COLD_EVENING_WEIGHT,
+    DUSK_CALM_WIND_M_S,
+    DUSK_CLEAR_CLOUD_FRAC,
+    DUSK_METHODS,
+    EVENING_CLEAR_CALM_ONLY,
+    FEATURES,
+    FORCE_DUSK_METHOD,
+    INVERSION_MEMORY,
+    LEAD_BAND_RAW,
+    LEAD_COLD_NIGHTS,
+    LEAD_HALF_LIFE,
+    LEAD_HOURS,
+    LEAD_MODE,
+    LEAD_SHRINK,
+    LEARNING_MEAN,
+    MIN_REGRESSION_NIGHTS,
+    NAIVE_WHEN_COOLING,
+    NOWCAST_APPROACH_BLEND,
+    NOWCAST_BIN_H,
+    NOWCAST_BINS,
+    NOWCAST_BLEND,
+    NOWCAST_FEATURES,
+    NOWCAST_HALF_WEIGHT_H,
+    NOWCAST_LEAD_CORRECTION,
+    NOWCAST_METHODS,
+    NOWCAST_MIN_SAMPLES,
+    NOWCAST_RIDGE_LAMBDA,
+    PRIOR_BAND_C,
+    PRIOR_CLEAR_CALM_ONLY,
+    PRIOR_OFFSET_SHRINK_NIGHTS,
+    PROTECTION_QUANTITIES,
+    REDUCED_INPUTS,
+    REDUCED_MIN_NIGHTS,
+    REDUCED_SWITCH_Z,
+    RIDGE_LAMBDA,
+    SIMILAR_BY,
+    SIMILAR_WIDTH_C,
+    SKILL_BY_REGIME,
+    SKILL_FLOOR_C2,
+    SKILL_HALF_LIFE,
+    SKILL_MIN_SCORED,
+    SKILL_SHRINK,
+    T0_STRATUM_C,
+    USE_EVENING,
+    USE_NAIVE,
+    USE_PRESSURE_TREND,
+)
 
-FEATURES = ("T0", "Td0", "cloud0", "wind0", "wind_trend0", "pressure_trend0")
-NOWCAST_FEATURES = ("sqrt_curve_drop", "sqrt_hours_left", "recent_slope_x_hours_left", "wind", "cloud", "depression")
-DUSK_METHODS = ("regression", "drop_regression", "prior", "evening_curve")
-NOWCAST_METHODS = ("learned", "refit", "dusk_curve", "naive")
-
-PRIOR_BAND_C = 2.0  # 1-sigma uncertainty of the physics prior before any calibration
-RIDGE_LAMBDA = 2.0  # ridge penalty on the standardised dusk regression slopes
-MIN_REGRESSION_NIGHTS = 3  # below this many nights the physics prior (with its learned offset) speaks
-PRIOR_OFFSET_SHRINK_NIGHTS = 0.5  # the prior's offset is the mean error shrunk by n / (n + this)
-NOWCAST_RIDGE_LAMBDA = 1.0
-NOWCAST_MIN_SAMPLES = 20  # training points in an hours-left bin before its learned nowcast is used
-NOWCAST_BIN_H = 1.0  # the learned nowcast and its band are kept per hour left to sunrise
-NOWCAST_BINS = 14
-NOWCAST_HALF_WEIGHT_H = 1.0  # with no skill known yet, tonight's re-fit weighs as much as the dusk curve after this
-SKILL_HALF_LIFE = 30.0  # nights (dusk) or samples per bin (nowcast) for the recent-skill average
-SKILL_MIN_SCORED = 5  # scored nights before a method's skill sets its weight
-SKILL_FLOOR_C2 = 0.05  # added to each mean squared error so one lucky method cannot take all the weight
-SKILL_SHRINK = 0.0  # share of the error covariance shrunk to its diagonal
-BAND_QUANTILES = (0.1, 0.9)  # the 80 % band
-BAND_Z = 1.2816  # the 10 % and 90 % points of a normal distribution, before residuals are known
-BAND_MIN_RESIDUALS = 20
-BAND_MEMORY = 300  # residuals kept per band bin (the most recent)
-SIMILAR_WIDTH_C = 5.0  # dusk regression weighted toward similar nights (Gaussian width); None: all alike
-SIMILAR_BY = 1  # ... similar in this input of FEATURES: 1 the dew point at t0 (the air mass), 0 T0
-T0_STRATUM_C = 2.0  # nights are pooled in strata this wide of that input
-# The dusk regression on fewer inputs (positions in FEATURES; None: none kept): fitted beside the full one
-# from the same moment matrices, and used in its place once its walk-forward absolute error on the nights
-# learned is lower than the full one's by more than REDUCED_SWITCH_Z standard errors of the mean
-# difference (REDUCED_MIN_NIGHTS scored at least). A site where cloud, wind and their trends at dusk
-# only add noise (a maritime site under a steady overcast) keeps the inputs that carry its cooling.
-REDUCED_INPUTS: tuple[int, ...] | None = (0, 1)  # T0, Td0 (the Allen-type inputs, FAO-FP ch. 5)
-REDUCED_SWITCH_Z = 1.0
-REDUCED_MIN_NIGHTS = 10
-PROTECTION_QUANTITIES = ("sprinkler_running", "wind_machine_running")
-DUSK_CLEAR_CLOUD_FRAC = 0.3  # a dusk is "clear and calm" (the physics prior's own ground) at or below this
-DUSK_CALM_WIND_M_S = 2.5  # ... and this wind (the wind-machine cut-off, FAO-FP)
-SKILL_BY_REGIME = True
-FORCE_DUSK_METHOD = None  # for benchmarks of one method alone
-USE_EVENING = True
-PRIOR_CLEAR_CALM_ONLY = True  # True: the physics prior enters the blend only on clear calm dusks
-# True: the evening curve, too, enters the skill blend only on clear calm dusks (benchmark variant). Off as
-# shipped: Reuter's law carried from the evening is warm on cloudy or windy dusks (+0.2 to +0.7 degC on the
-# open years), but leaving it out there costs Greensboro's radiation nights (bench/forecast_variants.py)
-EVENING_CLEAR_CALM_ONLY = False
-LEARNING_MEAN = True
-NOWCAST_BLEND = True  # False: the learned nowcast alone once it exists (benchmark variant)
-USE_PRESSURE_TREND = True
-BAND_FROM_QUANTILES = True  # False: a normal band from the residuals' spread (benchmark variant)
-BAND_PER_SQRT_HOUR = True  # dusk band residuals scaled by sqrt(hours to sunrise) (benchmark variant)
-INVERSION_MEMORY = 30  # clear calm nights whose inversion at the minimum is kept (the most recent)
-COLD_EVENING_WEIGHT = 0.75  # share of the evening curve beside the prior while no regression exists
-USE_NAIVE = True  # the naive fall (the mean fall over the 2 h before past nights' minima) enters the nowcast blend
-NAIVE_WHEN_COOLING = False  # True: the naive fall only while the last 2 h cooled (benchmark variant)
-# The nowcast's approach correction: the blend's fall still to come, against the fall that came, at the
-# instant 2 h before each past night's minimum (its half-hourly point nearest then), per hours-left bin;
-# tonight's blend is corrected by it at every instant of that bin, on the colder half of nights (dusk
-# forecast below the mean minimum learned; on the others it costs more at a lead fixed in advance than
-# it gains). "scale": the fall times a ratio
-# (least squares through the origin); "add": minus the mean error; "affine": both. Each shrunk toward
-# no correction by LEAD_SHRINK (degC^2 for "scale", nights for "add"), past nights decayed with a
-# half-life of LEAD_HALF_LIFE nights.
-NOWCAST_LEAD_CORRECTION = True
-LEAD_MODE = "scale"
-LEAD_SHRINK = 2.0
-LEAD_HALF_LIFE = 100.0
-LEAD_HOURS = 2.0  # the lead before the minimum it is learned at
-LEAD_COLD_NIGHTS = True  # learned and applied only on nights forecast at dusk below the mean minimum learned
-LEAD_BAND_RAW = True  # the nowcast band stays the blend's own (residuals and centre before the correction)
-# The approach blend: the corrected blend still falls short where a minimum is 2 h away, which the
-# naive fall knows by construction. On the same nights as the correction, at instants whose last 2 h
-# cooled, the corrected fall and the naive fall are mixed by their skill at the points 2 h before past
-# nights' minima only (Bates & Granger 1969, as the blend's own weights; one record for all hours left).
-# APPROACH_WHEN_COOLING False: at every instant of those nights (benchmark variant).
-NOWCAST_APPROACH_BLEND = True
-APPROACH_WHEN_COOLING = True
-APPROACH_METHODS = ("corrected", "naive")
-
-
-def dusk_regime(x: tuple[float, ...]) -> str:
-    """Which skill record a dusk belongs to: the prior is physics for clear calm nights only."""
-    if not SKILL_BY_REGIME:
-        return "any"
-    return "clear_calm" if x[2] <= DUSK_CLEAR_CLOUD_FRAC and x[3] <= DUSK_CALM_WIND_M_S else "other"
-
-
-def feature_vector(
-    t0_c: float, td0_c: float | None, cloud: float | None, wind: float | None, wind_trend: float | None = None,
-    pressure_trend: float | None = None,
-) -> tuple[float, ...]:
-    """The dusk regression's inputs, with the same stand-ins the physics prior uses when one is
-    missing: dew point 6 degC below the air, clear sky, calm, steady wind and pressure."""
-    return (t0_c, t0_c - ASSUMED_DEPRESSION_C if td0_c is None else td0_c, cloud or 0.0, wind or 0.0, wind_trend or 0.0,
-            (pressure_trend or 0.0) if USE_PRESSURE_TREND else 0.0)
-
-
-def k_model_key(similar_c: float) -> float:
-    """The dusk regression's weighting is worked out per half degree of the similarity input."""
-    return round(similar_c * 2) / 2
-
-
-def strata_mix(strata: tuple, key: float):
-    """The moment matrix of the dusk regression weighted toward nights similar to `key`
-    (Gaussian, `SIMILAR_WIDTH_C`) from the strata's matrices ((value, matrix), ...)."""
-    return sum((math.exp(-0.5 * ((c - key) / SIMILAR_WIDTH_C) ** 2) + 1e-3) * mm for c, mm in strata)
-
-
-def reduced_index() -> list[int]:
-    """Rows and columns of the dusk regression's moment matrix (z = [1, FEATURES..., K]) that the
-    reduced regression (`REDUCED_INPUTS`) keeps."""
-    return [0, *(1 + j for j in REDUCED_INPUTS or ()), len(FEATURES) + 1]
-
-
-def reduced_model(fit: tuple | None) -> tuple | None:
-    """`ridge_solve` of the reduced moment matrix as the full regression's (means, slopes, mean K),
-    one of each per input of FEATURES: the inputs left out get mean 0 and slope 0 (so the forecast
-    is the same sum over every input)."""
-    if fit is None:
-        return None
-    means, coefs = [0.0] * len(FEATURES), [0.0] * len(FEATURES)
-    for j, m, c in zip(REDUCED_INPUTS or (), fit[0].tolist(), fit[1].tolist(), strict=True):
-        means[j], coefs[j] = m, c
-    return tuple(means), tuple(coefs), fit[2]
-
-
-def nowcast_bin(hours_left: float) -> int:
-    return int(min(NOWCAST_BINS - 1, max(0.0, hours_left) // NOWCAST_BIN_H))
-
-
-@dataclass(frozen=True)
-class NightRecord:
-    """What one past night did at a block's speaking sensor: the dusk values and the minimum.
-
-    The `t0_*` values are as the forecast saw them at its issue time (readings up to t0 only), so
-    that the regression is fitted on the same inputs it is later applied to. `nowcast_samples`
-    holds (features, fall still to come) at half-hourly points of the night, features as known
-    then. `protected` is True when sprinklers or wind machines ran during the night.
-    """
-
-    night: dt.date
-    station: str
-    t0_temp_c: float
-    t0_dew_point_c: float | None
-    hours_to_sunrise: float
-    observed_min_c: float
-    observed_min_at_utc: dt.datetime
-    mean_wind_m_s: float | None
-    max_cloud_frac: float | None
-    prior_c: float
-    radiation_night: bool
-    t0_wind_m_s: float | None = None
-    t0_cloud_frac: float | None = None
-    t0_wind_trend_m_s: float | None = None
-    nowcast_samples: tuple[tuple[tuple[float, ...], float], ...] = ()
-    protected: bool = False
-    t0_pressure_trend_hpa: float | None = None
-    evening_curve_c: float | None = None
-    inversion_at_min_c: float | None = None  # tower minus crop height at the observed minimum
-    fall_before_min_c: float | None = None  # the reading 2 h before the observed minimum, minus it
-    min_hours_left: float | None = None  # hours from the observed minimum to sunrise (< 0: after it)
-
-    @property
-    def features(self) -> tuple[float, ...]:
-        return feature_vector(self.t0_temp_c, self.t0_dew_point_c, self.t0_cloud_frac, self.t0_wind_m_s,
-                              self.t0_wind_trend_m_s, self.t0_pressure_trend_hpa)
+# every name this module held before it was split keeps its import path (`from
+# frostwatch.forecast.calibration import X`)
+__all__ = [
+    "APPROACH_METHODS", "APPROACH_WHEN_COOLING", "BAND_FROM_QUANTILES", "BAND_MEMORY", "BAND_MIN_RESIDUALS",
+    "BAND_PER_SQRT_HOUR", "BAND_QUANTILES", "BAND_Z", "COLD_EVENING_WEIGHT", "DUSK_CALM_WIND_M_S",
+    "DUSK_CLEAR_CLOUD_FRAC", "DUSK_METHODS", "EVENING_CLEAR_CALM_ONLY", "FEATURES", "FORCE_DUSK_METHOD",
+    "INVERSION_MEMORY", "LEAD_BAND_RAW", "LEAD_COLD_NIGHTS", "LEAD_HALF_LIFE", "LEAD_HOURS", "LEAD_MODE",
+    "LEAD_SHRINK", "LEARNING_MEAN", "MIN_REGRESSION_NIGHTS", "NAIVE_WHEN_COOLING", "NOWCAST_APPROACH_BLEND",
+    "NOWCAST_BINS", "NOWCAST_BIN_H", "NOWCAST_BLEND", "NOWCAST_FEATURES", "NOWCAST_HALF_WEIGHT_H",
+    "NOWCAST_LEAD_CORRECTION", "NOWCAST_METHODS", "NOWCAST_MIN_SAMPLES", "NOWCAST_RIDGE_LAMBDA",
+    "PRIOR_BAND_C", "PRIOR_CLEAR_CALM_ONLY", "PRIOR_OFFSET_SHRINK_NIGHTS", "PROTECTION_QUANTITIES",
+    "REDUCED_INPUTS", "REDUCED_MIN_NIGHTS", "REDUCED_SWITCH_Z", "RIDGE_LAMBDA", "SIMILAR_BY",
+    "SIMILAR_WIDTH_C", "SKILL_BY_REGIME", "SKILL_FLOOR_C2", "SKILL_HALF_LIFE", "SKILL_MIN_SCORED",
+    "SKILL_SHRINK", "T0_STRATUM_C", "USE_EVENING", "USE_NAIVE", "USE_PRESSURE_TREND", "Calibration",
+    "NightRecord", "dusk_regime", "feature_vector", "k_model_key", "nowcast_bin", "reduced_index",
+    "reduced_model", "strata_mix",
+]
 
 
 @dataclass(frozen=True)

@@ -8,8 +8,8 @@ immutable `forecast.calibration.Calibration` snapshot that the projection reads.
 Nights with protection running (sprinklers or wind machines) are left out: their minimum is the
 protection's doing, not the night's (issue 14). They are counted and said.
 
-The settings are `forecast.calibration`'s (benchmarks that try a variant set them in every module
-that imports them: this one, `forecast.skill`, `forecast.snapshot_plan`).
+The settings are `forecast.settings`'s (benchmarks that try a variant set them in every module
+that imports them, `settings.READERS`: this one, `forecast.skill`, `forecast.snapshot_plan`...).
 """
 
 from __future__ import annotations
@@ -20,7 +20,12 @@ from collections import deque
 
 import numpy as np
 
-from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS, BAND_QUANTILES: also read from here)
+from frostwatch.forecast.calibration import Calibration
+from frostwatch.forecast.dusk_regression import reduced_index, reduced_model
+from frostwatch.forecast.features import dusk_regime, nowcast_bin
+from frostwatch.forecast.past_night import NightRecord
+from frostwatch.forecast.ridge import lead_fit, ridge_solve, ridge_solve_many
+from frostwatch.forecast.settings import (  # noqa: F401  (BAND_MIN_RESIDUALS, BAND_QUANTILES: also read from here)
     APPROACH_METHODS,
     APPROACH_WHEN_COOLING,
     BAND_MEMORY,
@@ -56,14 +61,7 @@ from frostwatch.forecast.calibration import (  # noqa: F401  (BAND_MIN_RESIDUALS
     SIMILAR_WIDTH_C,
     T0_STRATUM_C,
     USE_NAIVE,
-    Calibration,
-    NightRecord,
-    dusk_regime,
-    nowcast_bin,
-    reduced_index,
-    reduced_model,
 )
-from frostwatch.forecast.ridge import lead_fit, ridge_solve, ridge_solve_many
 from frostwatch.forecast.skill import (  # noqa: F401  (_Window, _quantile_sorted: also read from here)
     _band_from,
     _quantile_sorted,

@@ -29,7 +29,7 @@ def feature_matrix(
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(latest reading, features, ok) at each of `times_s`, from readings up to each instant.
 
-    Features (`calibration.NOWCAST_FEATURES`):
+    Features (`settings.NOWCAST_FEATURES`):
     - the fall still to come on tonight's square-root curve T = T0 + b sqrt(t - t0), b fitted by
       least squares through T0 to the readings since t0 (Reuter), from now to sunrise (<= 0);
     - sqrt of the hours left to sunrise;

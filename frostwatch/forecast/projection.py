@@ -24,10 +24,9 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
-from frostwatch.forecast import calibration as settings
-from frostwatch.forecast import carry
+from frostwatch.forecast import carry, settings
 from frostwatch.forecast import inversion as inv
-from frostwatch.forecast.calibration import Calibration, NightRecord, feature_vector
+from frostwatch.forecast.calibration import Calibration
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
     _utc,
     block_crossings,
@@ -39,7 +38,9 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     sqrt_curves_c,
     utc_seconds,
 )
+from frostwatch.forecast.features import feature_vector
 from frostwatch.forecast.nowcast import features_at
+from frostwatch.forecast.past_night import NightRecord
 from frostwatch.forecast.sensors import (
     ASSUMED_DEPRESSION_C,
     INPUT_WINDOW_S,

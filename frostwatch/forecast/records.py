@@ -10,9 +10,10 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import Block, Config, Station
-from frostwatch.forecast.calibration import PROTECTION_QUANTITIES, NightRecord, feature_vector
 from frostwatch.forecast.curves import _utc, evening_curve_c
+from frostwatch.forecast.features import feature_vector
 from frostwatch.forecast.nowcast import fall_before_min_c, training_samples_many
+from frostwatch.forecast.past_night import NightRecord
 from frostwatch.forecast.projection import prime_priors, prior_c
 from frostwatch.forecast.sensors import (
     Series,
@@ -24,6 +25,7 @@ from frostwatch.forecast.sensors import (
     wind_station_ids,
     window_stat,
 )
+from frostwatch.forecast.settings import PROTECTION_QUANTITIES
 from frostwatch.night import Night
 from frostwatch.physics import humidity
 

@@ -13,7 +13,7 @@ from itertools import chain
 
 import numpy as np
 
-from frostwatch.forecast.calibration import (
+from frostwatch.forecast.settings import (
     BAND_FROM_QUANTILES,
     BAND_MIN_RESIDUALS,
     BAND_QUANTILES,

@@ -13,7 +13,11 @@ import math
 
 import numpy as np
 
-from frostwatch.forecast.calibration import (
+from frostwatch.forecast.dusk_regression import k_model_key, reduced_index, reduced_model, strata_mix
+from frostwatch.forecast.features import nowcast_bin
+from frostwatch.forecast.past_night import NightRecord
+from frostwatch.forecast.ridge import ridge_solve_many
+from frostwatch.forecast.settings import (
     NOWCAST_BINS,
     NOWCAST_MIN_SAMPLES,
     NOWCAST_RIDGE_LAMBDA,
@@ -22,14 +26,7 @@ from frostwatch.forecast.calibration import (
     SIMILAR_BY,
     SIMILAR_WIDTH_C,
     T0_STRATUM_C,
-    NightRecord,
-    k_model_key,
-    nowcast_bin,
-    reduced_index,
-    reduced_model,
-    strata_mix,
 )
-from frostwatch.forecast.ridge import ridge_solve_many
 
 
 class SnapshotPlan:
