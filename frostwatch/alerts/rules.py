@@ -112,6 +112,23 @@ def _replaced(state: BlockAlertState, changes: dict) -> BlockAlertState:
     return new
 
 
+_TIME_FIELDS = frozenset(f.name for f in dataclasses.fields(BlockAlertState) if f.name.endswith("_utc"))
+
+
+def state_to_json(state: BlockAlertState) -> dict:
+    """A block's rule state as plain JSON values (instants as ISO 8601 UTC), for the store: the
+    daemon keeps it across a restart, so a restart in the night neither re-sends what was sent
+    nor forgets what was acknowledged."""
+    return {k: (v.isoformat() if k in _TIME_FIELDS and v is not None else v) for k, v in state.__dict__.items()}
+
+
+def state_from_json(doc: dict) -> BlockAlertState:
+    """`state_to_json` read back; keys it does not know (a newer version's) are left out."""
+    kw = {k: (dt.datetime.fromisoformat(v) if k in _TIME_FIELDS and v is not None else v)
+          for k, v in doc.items() if k in _STATE_FIELDS}
+    return BlockAlertState(**kw)
+
+
 def protection_ran(state: BlockAlertState) -> bool:
     """Whether the block's protection may have run tonight: its running flag said so, or a protect or
     all-hands alert told the grower to start the block's own method (a flag can be wrong; a grower

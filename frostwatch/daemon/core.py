@@ -6,6 +6,7 @@ The clock is injected: tests step it.
 from __future__ import annotations
 
 import datetime as dt
+import json
 import logging
 import threading
 from collections.abc import Callable
@@ -72,6 +73,50 @@ class Core:
         self._stored_signatures: dict[str, tuple] = {}  # block -> decision_signature, last stored evaluation
         self.evaluations_not_stored = 0
         self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
+        self._saved_rule_states: dict[str, str] = {}  # block -> the rule state's JSON last stored
+        self._restore_rule_states()
+
+    # -- the alert rules' memory across a restart --------------------------------------------------
+    def _restore_rule_states(self) -> None:
+        """Each block's alert-rule state as the last run stored it: a daemon restarted in the night
+        (a crash, an upgrade, a power cut) goes on from there. Without it, tonight's dusk message
+        and the current level went out again under new keys, and an alert already acknowledged
+        fired again, repeating and escalating. A state of another night is reset by the rules."""
+        from frostwatch.alerts.rules import state_from_json
+
+        try:
+            stored = daemon_state.rule_states(self.store)
+        except Exception:  # noqa: BLE001 - the rules then start afresh, as before
+            log.exception("could not read the stored alert-rule states; the rules start afresh")
+            return
+        for block, text in stored.items():
+            if block not in {b.id for b in self.cfg.blocks}:
+                continue  # a block removed from the config since
+            try:
+                self.evaluator.states[block] = state_from_json(json.loads(text))
+            except (ValueError, TypeError):
+                log.warning("stored alert-rule state of block %s is unreadable; its rules start afresh", block)
+                continue
+            self._saved_rule_states[block] = text
+
+    def _save_rule_states(self) -> None:
+        """The blocks' rule states that changed since last stored (after the alerts are queued: a
+        state never claims an alert the outbox does not hold)."""
+        from frostwatch.alerts.rules import state_to_json
+
+        changed = {}
+        for block, state in self.evaluator.states.items():
+            text = json.dumps(state_to_json(state), sort_keys=True)
+            if self._saved_rule_states.get(block) != text:
+                changed[block] = text
+        if not changed:
+            return
+        try:
+            daemon_state.save_rule_states(self.store, changed)
+        except Exception:  # noqa: BLE001 - the evaluation stands; the next one tries again
+            log.exception("could not store the alert-rule states")
+            return
+        self._saved_rule_states.update(changed)
 
     # -- the config in force ---------------------------------------------------------------------
     def reload_config(self, now: dt.datetime, force: bool = False) -> bool:
@@ -128,6 +173,8 @@ class Core:
             finally:
                 if ev.alerts:
                     self.outbox.submit(ev.alerts, now)
+            if stored:
+                self._save_rule_states()
             self.last_eval_utc = now
             self.evaluations += 1
             for p in ev.projections:

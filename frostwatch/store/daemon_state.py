@@ -37,3 +37,22 @@ def add_events(store: Store, events: Iterable[tuple[dt.datetime, str, str, str]]
         with store.transaction() as c:
             c.executemany("INSERT INTO events(time_utc_ms, kind, subject, detail) VALUES (?,?,?,?)", rows)
     return len(rows)
+
+
+RULE_STATE_META = "rules.state."  # + block id -> that block's alert-rule state (JSON)
+
+
+def save_rule_states(store: Store, states: dict[str, str]) -> None:
+    """Blocks' alert-rule states (block -> JSON text) in one transaction."""
+    if states:
+        with store.transaction() as c:
+            c.executemany("INSERT OR REPLACE INTO meta(key, value) VALUES (?,?)",
+                          [(RULE_STATE_META + b, v) for b, v in states.items()])
+
+
+def rule_states(store: Store) -> dict[str, str]:
+    """Every block's stored alert-rule state (block -> JSON text)."""
+    with store.lock:
+        rows = store.conn.execute("SELECT key, value FROM meta WHERE substr(key, 1, ?) = ?",
+                                  (len(RULE_STATE_META), RULE_STATE_META)).fetchall()
+    return {k[len(RULE_STATE_META):]: v for k, v in rows}
