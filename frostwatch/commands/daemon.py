@@ -84,26 +84,39 @@ def cmd_status(args) -> int:
     if args.json:
         _out_json(doc)
         return 0
+    from frostwatch.advice.codec import parse_utc
+    from frostwatch.display import Display
+
+    d = Display(cfg.site.display_unit, cfg.site.tz)
+
+    def local(iso: str | None) -> str:  # an instant of the document as the grower's clock shows it
+        try:
+            return d.datetime(parse_utc(iso)) if iso else "never"
+        except ValueError:
+            return str(iso)
+
     hb = doc["daemon"]
     if hb is None:
         print("daemon: NOT RUNNING: no heartbeat recorded (it has never run on this store); no block is monitored")
     else:
-        up = "connected" if hb.get("broker_connected") else f"NOT connected for {hb.get('broker_down_s', 0):.0f} s"
-        if hb.get("stopped"):
-            state = f"STOPPED at {hb.get('last_heartbeat')}; no block is monitored"
-        elif not doc["daemon_alive"]:
-            state = f"NOT RUNNING: last heartbeat {_age(hb.get('heartbeat_age_s'))}; no block is monitored"
-        else:
-            state = f"running, heartbeat {_age(hb.get('heartbeat_age_s'))}"
         ingest = hb.get("ingest") or {}
-        print(f"daemon: {state}; broker {up}; "
-              f"{ingest.get('stored', 0)} readings stored and {ingest.get('rejected', 0)} rejected since start")
+        # the counts are the stored heartbeat's (written every few minutes), so they say when
+        counts = (f"{ingest.get('stored', 0)} readings stored and {ingest.get('rejected', 0)} rejected "
+                  f"from {local(hb.get('started'))} to {local(hb.get('time'))}")
+        if hb.get("stopped"):
+            print(f"daemon: STOPPED at {local(hb.get('time'))}; no block is monitored; {counts}")
+        elif not doc["daemon_alive"]:
+            print(f"daemon: NOT RUNNING: last heartbeat {_age(hb.get('heartbeat_age_s'))} ({local(hb.get('time'))}); "
+                  f"no block is monitored; {counts}")
+        else:
+            up = "connected" if hb.get("broker_connected") else f"NOT connected for {hb.get('broker_down_s', 0):.0f} s"
+            print(f"daemon: running, heartbeat {_age(hb.get('heartbeat_age_s'))}; broker {up}; {counts}")
         for p in hb.get("problems", []):
             print(f"  problem: {p}")
         for p in hb.get("health_problems", []):
             print(f"  sensor health: {p}")
     age = "" if doc["data_age_s"] is None else f" ({_age(doc['data_age_s'])})"
-    print(f"decisions as of {doc['data_as_of'] or 'never'}{age}")
+    print(f"decisions as of {local(doc['data_as_of'])}{age}")
     print("blocks:")
     for b in doc["blocks"]:
         print(f"  {b['headline']}")
@@ -111,9 +124,6 @@ def cmd_status(args) -> int:
         if b["monitored"]:
             print(f"             why: {b['reason']}")
     print("stations:")
-    from frostwatch.display import Display
-
-    d = Display(cfg.site.display_unit, cfg.site.tz)
     for s in doc["stations"]:
         vals = ", ".join(f"{q.replace('_', ' ')} {_shown(d, q, v['value'])}" for q, v in sorted(s["last"].items()))
         print(f"  {s['station']:<16} {_age(s['age_s']):>12}   {vals or 'no reading in 7 days'}")

@@ -342,6 +342,9 @@ class Daemon:
     def shutdown(self) -> int:
         sdnotify.notify("STOPPING=1")
         log.info("stopping: flushing readings, acknowledging, closing")
+        # what was wrong while it ran; stopping the threads below is no problem of its own (the
+        # last heartbeat said "the writer thread is dead" after every clean stop)
+        problems = self.problems()
         if self.sched:
             try:
                 self.sched.shutdown(wait=True)
@@ -353,6 +356,7 @@ class Daemon:
         try:
             doc = self.heartbeat_doc()
             doc["stopped"] = True
+            doc["problems"] = problems
             self.store.set_meta(HEARTBEAT_META, json.dumps(doc))
             self.store.add_event(self.clock(), "daemon", "stop", f"stored {self.ingest.stats.stored} readings this run")
             maintenance.checkpoint(self.store, "PASSIVE")
