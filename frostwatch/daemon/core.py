@@ -74,6 +74,7 @@ class Core:
         self.evaluations_not_stored = 0
         self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
         self._saved_rule_states: dict[str, str] = {}  # block -> the rule state's JSON last stored
+        self._sequences_checked: str | None = None  # the night whose alert numbering was checked
         self._restore_rule_states()
 
     # -- the alert rules' memory across a restart --------------------------------------------------
@@ -98,6 +99,28 @@ class Core:
                 log.warning("stored alert-rule state of block %s is unreadable; its rules start afresh", block)
                 continue
             self._saved_rule_states[block] = text
+
+    def _continue_sequences(self, now: dt.datetime) -> None:
+        """A block with no stored state for tonight (a store from before states were kept, or one
+        that could not be written) numbers its alerts on from tonight's stored ones: a key used
+        again is refused by the outbox as already sent, and that alert would never go out."""
+        from frostwatch.alerts.rules import BlockAlertState
+
+        night_key = self.evaluator.night_at(now).date.isoformat()
+        if self._sequences_checked == night_key:
+            return
+        self._sequences_checked = night_key
+        for b in self.cfg.blocks:
+            st = self.evaluator.states.get(b.id)
+            if st is not None and st.night == night_key:
+                continue
+            try:
+                seq = daemon_state.last_alert_sequence(self.store, b.id, night_key)
+            except Exception:  # noqa: BLE001 - numbering from 1, as before
+                log.exception("could not read tonight's alerts of block %s", b.id)
+                continue
+            if seq:
+                self.evaluator.states[b.id] = BlockAlertState(night=night_key, sequence=seq)
 
     def _save_rule_states(self) -> None:
         """The blocks' rule states that changed since last stored (after the alerts are queued: a
@@ -163,6 +186,7 @@ class Core:
         with self.eval_lock:
             self.reload_config(now)  # a stage or threshold change takes effect at this evaluation
             series, unchanged_before_s = self.cache.snapshot(now)
+            self._continue_sequences(now)
             ev = self.evaluator.evaluate(now, series, unchanged_before_s)
             stored = self._worth_storing(ev, reason)
             # projections and decisions first (one transaction, one fsync per evaluation), then

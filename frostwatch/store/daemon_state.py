@@ -56,3 +56,12 @@ def rule_states(store: Store) -> dict[str, str]:
         rows = store.conn.execute("SELECT key, value FROM meta WHERE substr(key, 1, ?) = ?",
                                   (len(RULE_STATE_META), RULE_STATE_META)).fetchall()
     return {k[len(RULE_STATE_META):]: v for k, v in rows}
+
+
+def last_alert_sequence(store: Store, block: str, night_key: str) -> int:
+    """The highest sequence number among the stored alert keys `BLOCK/NIGHT/NNN-level` (0 if none)."""
+    prefix = f"{block}/{night_key}/"
+    with store.lock:
+        rows = store.conn.execute("SELECT substr(key, ?, 3) FROM alerts WHERE substr(key, 1, ?) = ?",
+                                  (len(prefix) + 1, len(prefix), prefix)).fetchall()
+    return max((int(s) for (s,) in rows if s.isdigit()), default=0)

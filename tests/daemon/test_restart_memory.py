@@ -8,6 +8,7 @@ escalating to the next person on the roster."""
 from __future__ import annotations
 
 import datetime as dt
+import sqlite3
 
 from frostwatch.config import load_config
 from frostwatch.daemon import Core, daemon_settings
@@ -17,13 +18,15 @@ from frostwatch.store import Store
 
 
 class _Outbox:
-    """Keeps what the daemon hands over to be sent."""
+    """Stores what the daemon hands over, as the real outbox does before sending it, and keeps
+    each alert with whether the store took it (a key already stored is refused: never sent)."""
 
-    def __init__(self):
+    def __init__(self, store):
+        self.store = store
         self.alerts = []
 
     def submit(self, alerts, now):
-        self.alerts.extend(alerts)
+        self.alerts.extend((a, self.store.add_alert(a)) for a in alerts)
 
     def submit_health(self, *a, **k):
         return ""
@@ -36,21 +39,28 @@ def _night(cfg, log):
     return readings, night
 
 
-def _run(cfg, db, readings, times, restart_at=None):
-    """Evaluate at `times` as the daemon's Core does (readings committed as they come); with
-    `restart_at`, the process ends there and a new Core opens the same store."""
+def _run(cfg, db, readings, times, restart_at=(), forget=False):
+    """Evaluate at `times` as the daemon's Core does (readings committed as they come); at each
+    instant of `restart_at` the process ends and a new Core opens the same store (with `forget`,
+    one that holds no rule states, as a store of an older version's)."""
     sent = []
+    restart_at = sorted(restart_at)
     store = Store.open(db)
-    core = Core(cfg, daemon_settings(cfg), store, _Outbox(), clock=lambda: None)
+    core = Core(cfg, daemon_settings(cfg), store, _Outbox(store), clock=lambda: None)
     i = 0
     try:
         for t in times:
-            if restart_at is not None and t >= restart_at:
-                restart_at = None
+            if restart_at and t >= restart_at[0]:
+                restart_at.pop(0)
                 sent += core.outbox.alerts
                 store.close()
+                if forget:
+                    con = sqlite3.connect(db)
+                    with con:
+                        con.execute("DELETE FROM meta WHERE key LIKE 'rules.state.%'")
+                    con.close()
                 store = Store.open(db)
-                core = Core(cfg, daemon_settings(cfg), store, _Outbox(), clock=lambda: None)
+                core = Core(cfg, daemon_settings(cfg), store, _Outbox(store), clock=lambda: None)
             batch = []
             while i < len(readings) and readings[i].time_utc <= t:
                 batch.append(readings[i])
@@ -61,7 +71,17 @@ def _run(cfg, db, readings, times, restart_at=None):
         sent += core.outbox.alerts
     finally:
         store.close()
-    return [(a.key, a.level) for a in sent]
+    return [(a.key, a.level, taken) for a, taken in sent]
+
+
+def _times_and_restart(cfg, night):
+    start = (night.sunset_utc - dt.timedelta(hours=1)).replace(second=0, microsecond=0)
+    times = []
+    t = start
+    while t < night.sunrise_utc:
+        times.append(t)
+        t += dt.timedelta(minutes=10)
+    return times, dt.datetime.combine(night.date, dt.time(23, 0), tzinfo=cfg.site.tz).astimezone(dt.UTC)
 
 
 def test_a_restart_in_the_night_sends_nothing_again(demo_config, demo_logs, tmp_path):
@@ -71,14 +91,25 @@ def test_a_restart_in_the_night_sends_nothing_again(demo_config, demo_logs, tmp_
     night: ready and protect went out again under new keys."""
     cfg = load_config(demo_config)
     readings, night = _night(cfg, demo_logs[0])
-    start = (night.sunset_utc - dt.timedelta(hours=1)).replace(second=0, microsecond=0)
-    times = []
-    t = start
-    while t < night.sunrise_utc:
-        times.append(t)
-        t += dt.timedelta(minutes=10)
-    restart = dt.datetime.combine(night.date, dt.time(23, 0), tzinfo=cfg.site.tz).astimezone(dt.UTC)
+    times, restart = _times_and_restart(cfg, night)
     straight = _run(cfg, tmp_path / "straight.db", readings, times)
-    restarted = _run(cfg, tmp_path / "restarted.db", readings, times, restart_at=restart)
-    assert {lvl for _, lvl in straight} >= {"ready", "protect", "all-hands"}, straight
+    restarted = _run(cfg, tmp_path / "restarted.db", readings, times, restart_at=[restart])
+    assert {lvl for _, lvl, _ in straight} >= {"ready", "protect", "all-hands"}, straight
+    assert all(taken for _, _, taken in straight)
     assert restarted == straight
+
+
+def test_without_a_stored_state_the_alerts_are_numbered_on(demo_config, demo_logs, tmp_path):
+    """Pass: restarted twice (23:00, 23:20) on a store that holds tonight's alerts but no rule
+    state (written by an older version), the daemon gives every new alert a key not used tonight,
+    so the outbox sends it. Fails when the numbering starts again at 001: the second restart makes
+    the first one's keys again (001-wait, 002-protect, ...), which the outbox refuses as already
+    sent, so those alerts never go out."""
+    cfg = load_config(demo_config)
+    readings, night = _night(cfg, demo_logs[0])
+    times, restart = _times_and_restart(cfg, night)
+    sent = _run(cfg, tmp_path / "b.db", readings, times, restart_at=[restart, restart + dt.timedelta(minutes=20)],
+                forget=True)
+    refused = [k for k, _, taken in sent if not taken]
+    assert not refused, refused
+    assert "all-hands" in {lvl for _, lvl, _ in sent}
