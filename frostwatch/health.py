@@ -46,11 +46,15 @@ def station_problems(
     st: Station, series: Series, now_s: float, out_of_range_count: int, rules: HealthRules,
     heard_s: float | None = None,
     judge_silence: bool = True,
+    rejected: tuple[float, str] | None = None,
 ) -> list[Problem]:
     """What is wrong with one station now. `heard_s` is the receipt time (epoch s) of its latest
     valid reading whether or not the store could keep it: a sensor that is reporting is never
     called silent because the store cannot write. `judge_silence=False` (the store cannot write,
-    so what is stored says nothing about the sensors) skips the silence rule."""
+    so what is stored says nothing about the sensors) skips the silence rule. `rejected`: (epoch s,
+    why) of the station's latest rejected message; a silent station whose messages still arrive
+    but are refused is reported with the reason (a new firmware's decimal comma, a wrong unit),
+    not as a dead sensor."""
     out: list[Problem] = []
     times = [t for (sid, _q), (t, _v) in series.items() if sid == st.id and len(t)]
     air = series.get((st.id, "air_temperature"))
@@ -60,7 +64,8 @@ def station_problems(
         pass
     elif ref_t is None:
         if heard_age > rules.silent_after_intervals * usual_interval_s(np.empty(0), st.interval_s):
-            out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"))
+            out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"
+                               + _refused(rejected, heard_s)))
     else:
         upto = ref_t[ref_t <= now_s]
         interval = usual_interval_s(upto, st.interval_s)
@@ -69,7 +74,8 @@ def station_problems(
             out.append(Problem(
                 f"{st.id}:silent", st.id,
                 f"silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min, "
-                f"limit {rules.silent_after_intervals:g} intervals)",
+                f"limit {rules.silent_after_intervals:g} intervals)"
+                + _refused(rejected, max(float(upto[-1]) if len(upto) else -np.inf, heard_s or -np.inf)),
             ))
     if air is not None and len(air[0]):
         t, v = air
@@ -89,6 +95,13 @@ def station_problems(
     return out
 
 
+def _refused(rejected: tuple[float, str] | None, last_valid_s: float | None) -> str:
+    """The tail of a silence problem when the station's messages arrive but are rejected."""
+    if rejected is None or (last_valid_s is not None and rejected[0] <= last_valid_s):
+        return ""
+    return f"; its messages arrive but are rejected: {rejected[1]}"
+
+
 def assess(
     cfg: Config,
     series: Series,
@@ -97,6 +110,7 @@ def assess(
     rules: HealthRules,
     heard_s: dict[str, float] | None = None,
     judge_silence: bool = True,
+    rejected: dict[str, tuple[float, str]] | None = None,
 ) -> HealthReport:
     """Every station's problems (for a maintainer). A block left with no healthy crop-height
     sensor is not reported here: each evaluation decides that (`frostwatch.monitoring`) and the
@@ -106,7 +120,8 @@ def assess(
     healthy: set[str] = set()
     heard_s = heard_s or {}
     for st in cfg.stations:
-        ps = station_problems(st, series, now_s, out_of_range.get(st.id, 0), rules, heard_s.get(st.id), judge_silence)
+        ps = station_problems(st, series, now_s, out_of_range.get(st.id, 0), rules, heard_s.get(st.id), judge_silence,
+                              (rejected or {}).get(st.id))
         problems.extend(ps)
         if not any(p.key.endswith((":silent", ":stuck", ":range")) for p in ps):
             healthy.add(st.id)

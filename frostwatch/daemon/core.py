@@ -359,16 +359,19 @@ class Core:
 
     # -- health --------------------------------------------------------------------------------
     def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = (),
-                     heard_s: dict[str, float] | None = None, judge_silence: bool = True) -> list[health.Problem]:
+                     heard_s: dict[str, float] | None = None, judge_silence: bool = True,
+                     rejected: dict[str, tuple[float, str]] | None = None) -> list[health.Problem]:
         """Raise and clear health problems. `heard_s` (station -> receipt time of its latest valid
         reading, stored or not) and `judge_silence=False` (the store cannot take readings, so
         silence cannot be judged; problems already raised stay as they are) keep a store failure
-        from being blamed on sensors."""
+        from being blamed on sensors. `rejected`: station -> (epoch s, why) of its latest rejected
+        message, named in a silent station's problem."""
         # 90 min: the stuck rule looks back an hour; a station silent for longer than the window
         # is still reported silent ("no reading in the window"). A longer window only costs
         # memory at high reading rates (bench/ingest.py).
         series = self.store.readings_window(now - dt.timedelta(minutes=90), now)
-        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, self.rules, heard_s, judge_silence)
+        report = health.assess(self.cfg, series, now.timestamp(), out_of_range, self.rules, heard_s, judge_silence,
+                               rejected)
         held = () if judge_silence else tuple(p for k, p in self.health_active.items() if k.endswith(":silent"))
         report = health.HealthReport(report.problems + tuple(extra) + held, report.healthy_stations)
         raised, cleared, self.health_active = health.transitions(self.health_active, report)

@@ -207,7 +207,8 @@ class Daemon:
                 f"(store {self.store.path}); the sensors are reporting and their readings wait in the broker "
                 "until it is fixed", urgent=self.core.in_watch_window(self.clock())))
         self.core.check_health(self.clock(), self.ingest.recent_out_of_range(), extra, dict(self.ingest.heard),
-                               judge_silence=self.ingest.failing_since is None)
+                               judge_silence=self.ingest.failing_since is None,
+                               rejected=dict(self.ingest.last_rejection))
         from frostwatch import native_memory
 
         native_memory.trim()  # the check's transient arrays are freed: give the pages back

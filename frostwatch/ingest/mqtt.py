@@ -116,6 +116,9 @@ class MqttIngest(IngestWriter):
         self.limiter = RejectionLimiter(cfg.storage.rejections_per_source_per_hour)
         self.disconnected_since: float | None = time.monotonic()
         self.out_of_range: dict[str, deque] = {}
+        # station -> (epoch s, source and reason) of its latest rejected message: a sensor whose
+        # every message is refused is not simply silent, and the health alert says why
+        self.last_rejection: dict[str, tuple[float, str]] = {}
         self._stop = threading.Event()
         self._writer: threading.Thread | None = None
         self.client = self._make_client()

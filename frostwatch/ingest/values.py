@@ -10,6 +10,7 @@ from __future__ import annotations
 import datetime as dt
 import json
 import math
+import re
 from collections.abc import Sequence
 
 from frostwatch.errors import UnitError
@@ -140,7 +141,13 @@ def _loads_strict(payload: bytes) -> object:
     except (ValueError, RecursionError) as exc:
         if "integer string conversion" in str(exc):
             raise BadValue("payload holds an integer of more than 4300 digits; not a reading") from None
+        if _DECIMAL_COMMA.fullmatch(text.strip()):
+            raise BadValue(f"payload {text.strip()!r} is not a number: write the decimal point as '.' "
+                           f"({text.strip().replace(',', '.')})") from None
         raise BadValue(f"payload is neither a number nor valid JSON: {str(exc)[:160]}") from None
+
+
+_DECIMAL_COMMA = re.compile(r"[-+]?\d+,\d+")  # "3,4": a sensor set to a decimal comma
 
 
 def _number(obj: object, quantity: str) -> float:

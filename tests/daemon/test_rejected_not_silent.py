@@ -1,0 +1,57 @@
+"""A sensor whose messages all arrive but are rejected is not a dead sensor, and the maintainer's
+health alert says so, with the reason and the topic: before, it read "the sensor is silent", and
+whoever went out at 3 a.m. found a sensor blinking away (a firmware set to a decimal comma, a
+wrong unit). A decimal comma gets its own plain reason rather than the JSON parser's."""
+
+from __future__ import annotations
+
+import datetime as dt
+import sqlite3
+
+import pytest
+from daemon_helpers import connect_publisher, publish_all, wait_until
+
+from frostwatch.ingest.parse import parse_mqtt_message
+from frostwatch.models import Rejection
+
+
+def test_a_decimal_comma_is_named():
+    """Pass: "3,4" is rejected as a decimal comma, with the number it probably meant. Fails on
+    the JSON parser's "Extra data: line 1 column 2 (char 1)"."""
+    now = dt.datetime(2027, 4, 15, 9, 0, tzinfo=dt.UTC)
+    (r,) = parse_mqtt_message("frostwatch/east-low/air_temperature", b"3,4", "frostwatch", now, {"east-low"})
+    assert isinstance(r, Rejection)
+    assert r.reason == "payload '3,4' is not a number: write the decimal point as '.' (3.4)", r.reason
+
+
+def _health_messages(db):
+    con = sqlite3.connect(str(db), timeout=10)
+    try:
+        return con.execute("SELECT message FROM alerts WHERE key LIKE 'farm/%/health-%'").fetchall()
+    except sqlite3.OperationalError:
+        return []
+    finally:
+        con.close()
+
+
+@pytest.mark.broker
+def test_a_sensor_whose_messages_are_rejected_is_reported_with_the_reason(site, mosquitto, daemon_proc):
+    """Pass: east-tower sends only "2,5"; its health alert names the rejection and the topic,
+    while hill-low, which sends nothing, is reported silent with no such words. Fails when the
+    alert only says the sensor is silent."""
+    _cfg, db = site
+    daemon_proc.start()
+    assert wait_until(lambda: "connected to" in daemon_proc.log_text(), 20)
+    pub = connect_publisher(mosquitto.port)
+    publish_all(pub, [("frostwatch/east-tower/air_temperature", b"2,5")] * 3)
+    pub.loop_stop()
+
+    def tower():
+        return [m for (m,) in _health_messages(db) if "east-tower" in m]
+
+    assert wait_until(lambda: tower(), 60), daemon_proc.log_text()
+    (msg,) = tower()
+    assert ("its messages arrive but are rejected: payload '2,5' is not a number: write the decimal point as '.' "
+            "(2.5) (mqtt:frostwatch/east-tower/air_temperature)") in msg, msg
+    hill = [m for (m,) in _health_messages(db) if "hill-low" in m]
+    assert hill and all("rejected" not in m for m in hill), hill
