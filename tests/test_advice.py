@@ -192,10 +192,25 @@ def test_unknown_wind_is_not_calm_for_fans():
     assert "if the wind is below 2.5 m/s" in action(plan)
 
 
-def test_unknown_inversion_is_not_zero_and_not_useful():
-    plan = advise(projection(inversion_c=None, projected_inversion_c=None), block(), NOW)
-    assert not plan.advised and plan.verdict.why_not is WhyNot.INVERSION_UNKNOWN
-    assert "no working tower sensor" in text(plan, projection())
+def test_unknown_inversion_is_not_zero_and_not_not_advised():
+    """Pass: with no working tower (a dead or misreporting sensor) the fans stay the block's
+    method on the condition a thermometer aloft shows, no warming counted, and every form says
+    the tower is not working. Fails when a dead tower sensor turns "start the wind machines"
+    into "protect the block by other means; the wind machines are not advised tonight" (a live
+    trial's all-hands alert said so to a grower whose fans had been started at the protect alert)."""
+    from frostwatch.advice.short import short_body
+
+    p = projection(inversion_c=None, projected_inversion_c=None, air_temp_c=-2.4)
+    plan = advise(p, block(), NOW)
+    assert plan.advised and plan.verdict.why_not is None
+    assert Condition.WARM_AIR_ALOFT in plan.verdict.conditions
+    f = plan.verdict.fans
+    assert f.gain_c == 0.0 and f.gain_low_c == 0.0 and not f.sufficient and f.shortfall_c is None
+    body = text(plan, p)
+    assert "no working tower sensor" in body and "not advised" not in body and "other means" not in body
+    assert "if the tower reads at least 1.5 °C warmer than crop height" in action(plan)
+    short = short_body("b1", "all-hands", plan.step, plan, Display(), None)
+    assert "if tower 1.5C warmer" in short and "not advised" not in short, short
 
 
 # ---- sprinklers ----------------------------------------------------------------------------------

@@ -10,7 +10,7 @@ night report's notes (`SOURCES`) and the README.
 
 from __future__ import annotations
 
-from frostwatch.advice.plan import AdvicePlan, Method, MethodVerdict, Risk, WhyNot
+from frostwatch.advice.plan import AdvicePlan, Condition, Method, MethodVerdict, Risk, WhyNot
 from frostwatch.advice.render import METHOD_NAME, risk_reason
 from frostwatch.display import Display
 
@@ -75,6 +75,11 @@ def verdict_line(plan: AdvicePlan, d: Display) -> str | None:
     """'Wind machines: not advised tonight: too windy ...' (None when the method is advised); for
     fans while the warm air aloft is still building, when frostwatch will know."""
     v = plan.verdict
+    if v is not None and v.advised and v.fans is not None and v.fans.inversion_c is None \
+            and Condition.WARM_AIR_ALOFT in v.conditions:
+        return (f"{METHOD_NAME[v.method].capitalize()}: no working tower sensor: frostwatch cannot tell whether they "
+                f"will help; run them if a thermometer up the tower reads at least "
+                f"{d.delta(v.fans.min_useful_inversion_c)} warmer than at crop height.")
     if v is not None and v.advised and v.fans is not None and v.fans.inversion_pending:
         when = f"by {d.time(v.fans.known_by_utc)}" if v.fans.known_by_utc is not None else "later tonight"
         return (f"{METHOD_NAME[v.method].capitalize()}: warm air aloft usually builds after dusk; frostwatch will say "
@@ -100,6 +105,10 @@ def fan_facts(v: MethodVerdict, d: Display) -> list[str]:
     out = []
     if f.wind_speed_m_s is None:
         out.append(f"no wind reading: fans help only below {d.wind_limit(f.wind_limit_m_s)}; check the wind first")
+    if f.inversion_c is None:
+        out.append(f"no working tower sensor: fans need the air aloft about {d.delta(f.min_useful_inversion_c)} "
+                   "or more warmer than at crop height")
+        return out
     if f.inversion_pending:
         out.append(f"{d.delta(f.inversion_c)} warmer at {tower_words(f, d)} now; fans need about "
                    f"{d.delta(f.min_useful_inversion_c)} or more")

@@ -48,8 +48,10 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     Returns
     -------
     MethodVerdict
-        Advised or not with one reason (fog, too windy, inversion unknown, inversion weak, in
-        that order), the conditions the advice depends on, the figures and what else helps. While
+        Advised or not with one reason (fog, too windy, inversion weak, in that order), the
+        conditions the advice depends on, the figures and what else helps. With no working tower
+        the fans are advised on the condition that the tower reads warmer (`Condition.WARM_AIR_ALOFT`),
+        no warming counted: not known is not "not advised". While
         a radiation inversion is still building and nothing projects it (`Projection.inversion_basis`
         "not-yet"), the fans are advised on the condition that the warm air builds
         (`Condition.WARM_AIR_ALOFT`), with the time frostwatch will know; no warming is counted.
@@ -72,6 +74,7 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     limit = windmachine.MAX_WIND_FOR_FANS_M_S
     fog = fog_possible(p.air_temp_c, p.dew_point_c)
     why: WhyNot | None = None
+    blind = False
     if supercooled_fog:
         why = WhyNot.SUPERCOOLED_FOG
     elif not math.isnan(wind) and wind > limit:
@@ -79,12 +82,17 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
     elif pending:
         pass
     elif math.isnan(inv_c):
-        why = WhyNot.INVERSION_UNKNOWN
+        # no working tower (a broken sensor, or none): whether fans help is not known, which is
+        # not "not advised". Fans running since the protect alert must not be stopped by a dead
+        # tower sensor: they stay the block's method on the condition a thermometer aloft shows
+        # (`Condition.WARM_AIR_ALOFT`), and no warming is counted
+        blind = True
     elif inv_c < windmachine.MIN_USEFUL_INVERSION_C or not suit.useful:
         why = WhyNot.INVERSION_WEAK
     advised = why is None
     pending = pending and advised
-    if pending:  # no warming is promised before the warm air is there
+    blind = blind and advised
+    if pending or blind:  # no warming is promised before the warm air is there
         suit = windmachine.wind_machine_suitability(math.nan, 0.0, math.nan, block.kill_10pct_c)
     # judged against T10 + margin: buds run 1-2 degC below screen air on clear nights
     shortfall = block.kill_10pct_c + block.margin_c - (_num(p.predicted_min_c) + suit.expected_gain_low_c)
@@ -98,20 +106,21 @@ def fan_verdict(p: Projection, block: Block, supercooled_fog: bool | None = None
         gain_low_c=suit.expected_gain_low_c if advised else 0.0,
         gain_high_c=suit.expected_gain_high_c if advised else 0.0,
         sufficient=sufficient,
-        shortfall_c=shortfall if advised and not pending and shortfall > 0 and not sufficient else None,
+        shortfall_c=shortfall if advised and not (pending or blind) and shortfall > 0 and not sufficient else None,
         tower_station=p.tower_station, tower_own=p.tower_own, tower_site_wide=p.tower_site_wide,
         tower_distance_m=p.tower_distance_m,
         inversion_pending=pending, known_by_utc=p.inversion_known_by_utc if pending else None,
         history_nights=p.inversion_history_nights if p.inversion_basis == "site-history" else None,
     )
     conditions: list[Condition] = []
-    if advised and pending:
+    if advised and (pending or blind):
         conditions.append(Condition.WARM_AIR_ALOFT)
     if advised and math.isnan(wind):
         conditions.append(Condition.WIND_BELOW_FAN_LIMIT)
     if advised and fog:
         conditions.append(Condition.NO_FOG)
-    alts = fan_alternatives(WhyNot.INVERSION_WEAK if pending else why, advised and not sufficient and not pending)
+    alts = fan_alternatives(WhyNot.INVERSION_WEAK if pending or blind else why,
+                            advised and not sufficient and not (pending or blind))
     return MethodVerdict(
         method=Method.WIND_MACHINE, advised=advised, why_not=why, conditions=tuple(conditions),
         alternatives=alts, fans=figures,

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import datetime as dt
 
-from frostwatch.advice.plan import AdvicePlan, Method, Risk, Step, StopBasis, Trigger
+from frostwatch.advice.plan import AdvicePlan, Condition, Method, Risk, Step, StopBasis, Trigger
 from frostwatch.advice.render import Notice, level_word
 from frostwatch.display import Display
 from frostwatch.gsm7 import SMS_SEPTETS, fit, septets, to_gsm7
@@ -102,7 +102,7 @@ def _stop_facts(plan: AdvicePlan, d: Display) -> str:
 def _if_aloft(plan: AdvicePlan, d: Display) -> str:
     """' if tower 1.5C warmer' while the warm air aloft is still building (fans on that condition)."""
     v = plan.verdict
-    if v is None or v.fans is None or not v.fans.inversion_pending:
+    if v is None or v.fans is None or Condition.WARM_AIR_ALOFT not in v.conditions:
         return ""
     return f" if tower {d.delta(v.fans.min_useful_inversion_c).replace(' ', '')} warmer"
 
