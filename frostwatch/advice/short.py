@@ -188,12 +188,21 @@ def short_body(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Displ
 
 
 def not_monitored_body(block_id: str, level: str, since_utc: dt.datetime | None, stations: tuple[str, ...],
-                       plan: AdvicePlan | None, d: Display) -> str:
-    """'hill GO LOOK: no reading since 02:10 (hill-low); judge the block by hand. Act at -2.4C.'"""
-    since = f" since {d.time(since_utc)}" if since_utc is not None else ""
+                       plan: AdvicePlan | None, d: Display, reason: str | None = None) -> str:
+    """'hill GO LOOK: no reading since 02:10 (hill-low); judge the block by hand. Act at -2.4C.'
+    `reason` (a `MonitorReason` value) words a sensor never heard ("no reading yet": `since_utc`
+    is then only when frostwatch started looking) and a stuck one ("sensor stuck")."""
     where = f" ({', '.join(stations)})" if stations else ""
+    if reason == "no-data":
+        what = f"no reading yet{where}"
+    elif reason == "stuck":
+        what = f"sensor stuck{where}"
+    elif reason == "no-crop-sensor":
+        what = "no crop-height sensor set up"
+    else:
+        what = f"no reading{f' since {d.time(since_utc)}' if since_utc is not None else ''}{where}"
     line = f"Act at {d.plain_temp(plan.line_c)}" if plan is not None else ""
-    return _finish(f"{block_id} {level_word(level)}", f"no reading{since}{where}; judge the block by hand", line)
+    return _finish(f"{block_id} {level_word(level)}", f"{what}; judge the block by hand", line)
 
 
 def notice_body(block_id: str, level: str, text: str) -> str:

@@ -67,6 +67,21 @@ def test_stale_data_says_since_the_last_reading():
                                         "(east-low) since 20:45 (3.0 h ago)")
 
 
+def test_the_text_message_says_what_the_sensor_did():
+    """Pass: the short form tells a sensor never heard ("no reading yet"), a stuck one and a silent
+    one ("no reading since 20:45") apart. Fails when a sensor never heard reads "no reading since
+    22:45": 22:45 is only when frostwatch started looking, and there never was a reading."""
+    _, never = _run([SUNSET + dt.timedelta(hours=3)], [BLIND])
+    assert never[0].short.startswith("east GO LOOK: no reading yet (east-low); judge the block by hand."), never[0].short
+    last = SUNSET + dt.timedelta(hours=1)
+    stuck = Monitoring(False, MonitorReason.STUCK, ("east-low",), last, last)
+    _, alerts = _run([SUNSET + dt.timedelta(hours=4)], [stuck])
+    assert alerts[0].short.startswith("east GO LOOK: sensor stuck (east-low); judge the block by hand."), alerts[0].short
+    silent = Monitoring(False, MonitorReason.SILENT, ("east-low",), last, last)
+    _, alerts = _run([SUNSET + dt.timedelta(hours=4)], [silent])
+    assert alerts[0].short.startswith("east GO LOOK: no reading since 20:45 (east-low); judge"), alerts[0].short
+
+
 def test_by_day_a_blind_block_raises_no_alert():
     noon = SUNSET - dt.timedelta(hours=6)
     _, alerts = _run(_every(noon, 5), [BLIND] * 5)
