@@ -208,4 +208,8 @@ def not_monitored_body(block_id: str, level: str, since_utc: dt.datetime | None,
 def notice_body(block_id: str, level: str, text: str) -> str:
     """A health or farm notice's short form: the block, the level's word and the first line."""
     first = (text or "").splitlines()[0] if text else ""
-    return fit(to_gsm7(f"{block_id} {level_word(level)}: {first}"), BODY_SEPTETS)
+    word = level_word(level)
+    own = f"{block_id}: {word} "
+    if first.startswith(own):  # 'farm: CHECK before tonight ...' names itself: not 'farm CHECK: farm: CHECK ...'
+        return fit(to_gsm7(f"{block_id} {word} {first[len(own):]}"), BODY_SEPTETS)
+    return fit(to_gsm7(f"{block_id} {word}: {first}"), BODY_SEPTETS)

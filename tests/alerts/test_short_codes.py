@@ -295,3 +295,14 @@ def test_email_keeps_the_long_form_and_names_the_code():
                      body="east: PROTECT\nAdvice: start.", short="east START: x. Ack: reply K7QM4X", code="K7QM4X")
     text = build(ch, msg, "ana@example.org").get_content()
     assert "Advice: start." in text and "K7QM4X" in text and "frostwatch ack K7QM4X" in text
+
+
+def test_a_notice_that_names_itself_is_not_named_twice():
+    """Pass: the dusk check's text message reads 'farm CHECK before tonight ...'; a health notice
+    keeps its 'farm FIX: ...'. Fails on 'farm CHECK: farm: CHECK before tonight ...' (the live
+    trial's message, which then ran out of its 160 characters sooner)."""
+    from frostwatch.advice.short import notice_body
+
+    body = notice_body("farm", "check", "farm: CHECK before tonight (2026-12-04): sensor upper-low: no reading in the last 6 h")
+    assert body == "farm CHECK before tonight (2026-12-04): sensor upper-low: no reading in the last 6 h", body
+    assert notice_body("farm", "fix", "creek-low: silent for 4 min") == "farm FIX: creek-low: silent for 4 min"
