@@ -109,8 +109,10 @@ def _ago(d: Display, t: dt.datetime, now_utc: dt.datetime) -> str:
 
 
 def monitoring_reason(m: Monitoring, d: Display, now_utc: dt.datetime, daemon_stopped_utc: dt.datetime | None = None,
-                      evaluated_utc: dt.datetime | None = None) -> str:
-    """Why a block is not monitored, in one plain clause (for a monitored block: 'sensors fresh')."""
+                      evaluated_utc: dt.datetime | None = None, relative: bool = True) -> str:
+    """Why a block is not monitored, in one plain clause (for a monitored block: 'sensors fresh').
+    `relative=False` leaves out "(3 min ago)": an alert's text is sent again unchanged in its
+    repeats and escalation, where "3 min ago" would no longer be true."""
     stations = ", ".join(m.stations) or "none declared"
     if m.reason is MonitorReason.OK:
         return f"crop-height sensor fresh ({stations})"
@@ -128,7 +130,8 @@ def monitoring_reason(m: Monitoring, d: Display, now_utc: dt.datetime, daemon_st
         return f"no reading at all from its crop-height sensor ({stations})"
     if m.reason is MonitorReason.STUCK:
         return f"its crop-height sensor ({stations}) reports a stuck, flat value"
-    last = f" since {_ago(d, m.last_reading_utc, now_utc)}" if m.last_reading_utc else ""
+    when = (_ago(d, m.last_reading_utc, now_utc) if relative else d.time(m.last_reading_utc)) if m.last_reading_utc else ""
+    last = f" since {when}" if when else ""
     return f"no reading from its crop-height sensor ({stations}){last}"
 
 
@@ -140,7 +143,7 @@ def not_monitored_headline(block_id: str, since_utc: dt.datetime | None, d: Disp
 def not_monitored(block_id: str, m: Monitoring, plan: AdvicePlan | None, d: Display, now_utc: dt.datetime,
                   frost_level: str | None = None) -> Message:
     """The alert (and card) text of a block nobody is watching: loud, with why and what to do."""
-    head = not_monitored_headline(block_id, m.since_utc, d) + ": " + monitoring_reason(m, d, now_utc)
+    head = not_monitored_headline(block_id, m.since_utc, d) + ": " + monitoring_reason(m, d, now_utc, relative=False)
     act = render.action(Step.CHECK_SENSORS, plan, d) if plan is not None else "go and check the block and its sensors"
     lines = [head, f"Advice: {act}; until it reports again, judge the block by hand."]
     if frost_level and render.level_word(frost_level) != render.level_word("rest"):

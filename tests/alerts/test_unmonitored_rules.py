@@ -60,11 +60,14 @@ def test_no_data_at_night_is_one_unmonitored_alert_and_never_an_all_clear():
 
 
 def test_stale_data_says_since_the_last_reading():
+    """Pass: the alert names the last reading by its clock time only. Fails on "(3.0 h ago)":
+    the text goes out again unchanged in the repeats and the escalation, when it is no longer
+    true (a live trial's escalation after 15 min still said "(3 min ago)")."""
     last = SUNSET + dt.timedelta(hours=1)
     stale = Monitoring(False, MonitorReason.SILENT, ("east-low",), last, last)
     _, alerts = _run([SUNSET + dt.timedelta(hours=4)], [stale])
-    assert alerts[0].message.startswith("east: GO LOOK: NOT MONITORED since 20:45: no reading from its crop-height sensor "
-                                        "(east-low) since 20:45 (3.0 h ago)")
+    first = alerts[0].message.splitlines()[0]
+    assert first == "east: GO LOOK: NOT MONITORED since 20:45: no reading from its crop-height sensor (east-low) since 20:45", first
 
 
 def test_the_text_message_says_what_the_sensor_did():
