@@ -152,3 +152,28 @@ def test_decisions_are_stored_compressed_and_a_plain_json_row_still_reads(demo_c
         assert [d.as_of_utc for d in stored.between(store, NOW, NOW + dt.timedelta(minutes=5))] == \
             [NOW, NOW + dt.timedelta(minutes=2)]
         assert stored.latest(store)["east"] == later
+
+
+def test_every_status_that_shows_advice_carries_its_cautions(demo_config):
+    """Pass: each block of `status --json` (the same JSON as the status/blocks/BLOCK topic and
+    /status.json) carries the cautions of its advice, the wind-machine block's own among them, and
+    `frostwatch status` prints them under the blocks. Fails when the status text shows "start the
+    wind machines now" with no "frostwatch advises; the grower decides" anywhere (the README says
+    every piece of advice it prints or sends says so)."""
+    import subprocess
+    import sys
+
+    cfg = load_config(demo_config)
+    d = Display("degC", cfg.site.tz)
+    j = decision_json(_decision(cfg), "east", NOW, Liveness(True, NOW, False, 1.0), d, 300)
+    assert j["cautions"][0] == "frostwatch advises; the grower decides."
+    assert "Keep clear of wind machines when starting them." in j["cautions"]
+    assert decision_json(None, "east", NOW, Liveness(True, NOW, False, 1.0), d, 300)["cautions"][0].startswith(
+        "frostwatch advises")
+    with Store.open(cfg.storage.path) as store:
+        stored.save_decisions(store, [_decision(cfg)])
+    r = subprocess.run([sys.executable, "-m", "frostwatch", "status", "--config", str(demo_config)],
+                       capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    line = next((x for x in r.stdout.splitlines() if x.startswith("cautions: ")), "")
+    assert line.startswith("cautions: frostwatch advises; the grower decides. Check with your own calibrated"), r.stdout

@@ -123,6 +123,9 @@ def cmd_status(args) -> int:
         print(f"             advice: {b['action']}")
         if b["monitored"]:
             print(f"             why: {b['reason']}")
+    cautions = list(dict.fromkeys(c for b in doc["blocks"] for c in b.get("cautions", ())))
+    if cautions:
+        print("cautions: " + " ".join(cautions))
     print("stations:")
     for s in doc["stations"]:
         vals = ", ".join(f"{q.replace('_', ' ')} {_shown(d, q, v['value'])}" for q, v in sorted(s["last"].items()))

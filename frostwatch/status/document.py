@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from frostwatch.advice import render
 from frostwatch.advice.codec import iso_utc, parse_utc
 from frostwatch.advice.message import monitoring_reason, not_monitored_headline
-from frostwatch.advice.plan import Step
+from frostwatch.advice.plan import BASE_CAUTIONS, Step
 from frostwatch.advice.render import Notice, risk_reason
 from frostwatch.alerts.levels import UNMONITORED, level_name, rank_of, step_for_level
 from frostwatch.config import Config
@@ -118,7 +118,8 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
 
     Keys of the contract (DESIGN.md 1.4): block, level, rank, monitored, as_of, reason; and more:
     frost_level/frost_rank (the last frost level, kept while not monitored), since (not monitored
-    since), headline, action, step, projection (with band and crossing), ready_by, inputs.
+    since), headline, action, step, projection (with band and crossing), ready_by, inputs, and
+    cautions (the sentences that travel with the advice: every screen that shows advice shows them).
     """
     m = effective_monitoring(decision, live, now_utc, limit_s)
     base = {"block": block_id, "name": name}
@@ -129,7 +130,8 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
                 "frost_level": None, "frost_rank": None, "step": Step.CHECK_SENSORS.value,
                 "headline": f"{not_monitored_headline(block_id, m.since_utc, display)}: {reason}",
                 "action": "go and check the block and its sensors: frostwatch cannot see it",
-                "projection": None, "ready_by": None, "inputs": {}, "alert_key": None}
+                "projection": None, "ready_by": None, "inputs": {}, "alert_key": None,
+                "cautions": [render.CAUTION_TEXT[c] for c in BASE_CAUTIONS]}
     plan = decision.plan
     if m.monitored:
         level, step = level_name(decision.level), decision.step  # a decision stored before 0.2: the new name
@@ -153,6 +155,7 @@ def decision_json(decision: Decision | None, block_id: str, now_utc: dt.datetime
         "headline": headline, "action": action, "projection": _proj_json(decision),
         "ready_by": iso_utc(plan.ready_by_utc), "alert_key": decision.alert_key,
         "inputs": {k: {"at": iso_utc(t), "age_s": _age_s(now_utc, t)} for k, t in sorted(decision.inputs_utc.items())},
+        "cautions": render.cautions(plan, display),
     }
 
 
