@@ -1,5 +1,6 @@
 """Config validation: every problem at once, each as section.key, with did-you-mean."""
 
+import json
 import tomllib
 
 import pytest
@@ -171,3 +172,17 @@ def test_station_positions_and_heater_keys():
     assert any("blocks.a.heater_kw" in p for p in probs)
     ok = config_from_dict(_with([dict(blocks[0], heater_kw=40)]))
     assert ok.block("a").heater_kw == 40 and ok.block("a").heaters_per_ha == 90
+
+
+def test_check_config_shows_the_channels_without_their_secrets_and_no_secret_that_is_not_set(demo_config):
+    """Pass: the effective settings list the alert channels as configured, a gateway URL without
+    its query string (the api_key), and a secret that is not set as null. Fails when the channels
+    are missing (a grower checking the SMS gateway's address saw nothing of it) or an unset status
+    page token shows as '***' (as if one were set)."""
+    raw = dict(GOOD, channels=[{"name": "sms", "type": "webhook", "url": "http://127.0.0.1:9/send?api_key=SECRET123",
+                                "address": "phone"}])
+    eff = effective_settings(config_from_dict(raw))
+    (sms,) = eff["channels"]
+    assert sms["url"] == "http://127.0.0.1:9/send?<redacted>" and sms["address"] == "phone"
+    assert "SECRET123" not in json.dumps(eff)
+    assert eff["status_page"]["token"] is None

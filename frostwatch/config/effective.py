@@ -8,16 +8,20 @@ from typing import Any
 
 from frostwatch.config.model import Config
 from frostwatch.config.schema import SECRET_KEYS
+from frostwatch.redact import redact
 
 
 def masked(value: Any, key: str = "") -> Any:
-    """A copy of a config value with secrets replaced by '***'."""
+    """A copy of a config value with secrets replaced by '***' (a secret not set stays null: '***'
+    would say one is set) and a URL's query string (a gateway's api_key) cut out."""
     if isinstance(value, dict):
         return {k: masked(v, k) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [masked(v, key) for v in value]
     if any(s in key.lower() for s in SECRET_KEYS) and not key.lower().endswith("_file"):
-        return "***"
+        return None if value is None else "***"
+    if key.lower() == "url" and isinstance(value, str):
+        return redact(value)
     return value
 
 
@@ -43,6 +47,7 @@ def effective_settings(cfg: Config) -> dict:
         "alerts": cfg.alerts,
         "contacts": list(cfg.contacts),
         "report": cfg.report,
+        "channels": list((cfg.raw or {}).get("channels", [])),
     }
     # the sections other modules own, with their defaults filled in (a valid config: load_config
     # has checked them already)
