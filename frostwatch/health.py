@@ -64,18 +64,21 @@ def station_problems(
         pass
     elif ref_t is None:
         if heard_age > rules.silent_after_intervals * usual_interval_s(np.empty(0), st.interval_s):
-            out.append(Problem(f"{st.id}:silent", st.id, "no reading in the window looked at; the sensor is silent"
-                               + _refused(rejected, heard_s)))
+            why = _refused(rejected, heard_s)
+            out.append(Problem(f"{st.id}:silent", st.id,
+                               f"no valid reading: its messages arrive but are rejected: {why}" if why else
+                               "no reading in the window looked at; the sensor is silent"))
     else:
         upto = ref_t[ref_t <= now_s]
         interval = usual_interval_s(upto, st.interval_s)
         age = min(now_s - float(upto[-1]) if len(upto) else float("inf"), heard_age)
         if age > rules.silent_after_intervals * interval:
+            why = _refused(rejected, max(float(upto[-1]) if len(upto) else -np.inf, heard_s or -np.inf))
             out.append(Problem(
                 f"{st.id}:silent", st.id,
+                f"no valid reading for {age / 60:.0f} min: its messages arrive but are rejected: {why}" if why else
                 f"silent for {age / 60:.0f} min (usual interval {interval / 60:.0f} min, "
-                f"limit {rules.silent_after_intervals:g} intervals)"
-                + _refused(rejected, max(float(upto[-1]) if len(upto) else -np.inf, heard_s or -np.inf)),
+                f"limit {rules.silent_after_intervals:g} intervals)",
             ))
     if air is not None and len(air[0]):
         t, v = air
@@ -96,10 +99,11 @@ def station_problems(
 
 
 def _refused(rejected: tuple[float, str] | None, last_valid_s: float | None) -> str:
-    """The tail of a silence problem when the station's messages arrive but are rejected."""
+    """Why the station's latest message was rejected, when that came after its last valid reading
+    (its messages arrive but are refused: not a dead sensor); "" otherwise."""
     if rejected is None or (last_valid_s is not None and rejected[0] <= last_valid_s):
         return ""
-    return f"; its messages arrive but are rejected: {rejected[1]}"
+    return rejected[1]
 
 
 def assess(

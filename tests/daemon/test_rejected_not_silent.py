@@ -55,3 +55,25 @@ def test_a_sensor_whose_messages_are_rejected_is_reported_with_the_reason(site, 
             "(2.5) (mqtt:frostwatch/east-tower/air_temperature)") in msg, msg
     hill = [m for (m,) in _health_messages(db) if "hill-low" in m]
     assert hill and all("rejected" not in m for m in hill), hill
+
+
+def test_a_station_that_reported_then_was_refused_says_so(demo_config):
+    """Pass: a station with valid readings until 10 min ago, whose messages since are refused, is
+    reported as 'no valid reading for 10 min: its messages arrive but are rejected: ...' (the
+    reason first, so a fleet view's shortened line keeps it); one whose last refusal is older than
+    its last valid reading is plainly silent."""
+    import numpy as np
+
+    from frostwatch import health
+    from frostwatch.config import load_config
+
+    cfg = load_config(demo_config)
+    st = cfg.station("east-low")
+    now = 1_900_000_000.0
+    t = now - 600.0 - 60.0 * np.arange(30)[::-1]
+    s = {("east-low", "air_temperature"): (t, 3.0 + 0.01 * np.arange(30))}
+    why = "payload '2,5' is not a number (mqtt:frostwatch/east-low/air_temperature)"
+    (p,) = health.station_problems(st, s, now, 0, health.HealthRules(), None, True, (now - 30.0, why))
+    assert p.detail == f"no valid reading for 10 min: its messages arrive but are rejected: {why}", p.detail
+    (p,) = health.station_problems(st, s, now, 0, health.HealthRules(), None, True, (now - 3600.0, why))
+    assert p.detail.startswith("silent for 10 min (usual interval 1 min"), p.detail
