@@ -4,6 +4,7 @@ alerts with their deliveries and acknowledgements)."""
 from __future__ import annotations
 
 import datetime as dt
+import logging
 
 from frostwatch.commands.common import _iso, _load, _out_json
 from frostwatch.errors import UsageError
@@ -34,6 +35,9 @@ def cmd_ack(args) -> int:
 
     cfg = _load(args)
     who = args.who or getpass.getuser()
+    # the outcome is printed once below (and recorded in the store); the daemon's log lines of the
+    # same outcome would otherwise reach stderr too, with the alert's internal key
+    logging.getLogger("frostwatch").addHandler(logging.NullHandler())
     if ackcodes.looks_like_code(args.key):
         with Store.open(cfg.storage.path) as store:
             ok, message = ackcodes.acknowledge_code(store, cfg, args.key, _now(), via="cli", source="cli")

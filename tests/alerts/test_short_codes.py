@@ -229,8 +229,10 @@ def test_a_code_acknowledges_once_by_cli_and_the_state_says_so(tmp_path):
                                        capture_output=True, text=True, timeout=60)
     p = run(code.lower())
     assert p.returncode == 0 and "acknowledged east/2027-04-14/001-act for ana" in p.stdout, p.stderr
+    assert p.stderr == ""  # said once, on stdout (the log line of the same outcome stays out)
     p = run(code)
     assert p.returncode == 2 and "already been used" in p.stderr
+    assert len(p.stderr.splitlines()) == 1, p.stderr  # one sentence, not the log line and then the error
     with Store.open(cfg.storage.path) as store:
         rows = store.query("SELECT who, via FROM acks WHERE alert_key=?", [a.key])
     assert [(r["who"], r["via"]) for r in rows] == [("ana", "cli")]
