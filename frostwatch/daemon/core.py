@@ -74,6 +74,7 @@ class Core:
         self.evaluations_not_stored = 0
         self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
         self._saved_rule_states: dict[str, str] = {}  # block -> the rule state's JSON last stored
+        self._saved_state_objs: dict = {}  # block -> the state object last stored (compared first)
         self._sequences_checked: str | None = None  # the night whose alert numbering was checked
         self._restore_rule_states()
 
@@ -127,19 +128,22 @@ class Core:
         state never claims an alert the outbox does not hold)."""
         from frostwatch.alerts.rules import state_to_json
 
-        changed = {}
+        changed, objs = {}, {}
         for block, state in self.evaluator.states.items():
+            if self._saved_state_objs.get(block) == state:
+                continue  # the usual case: a field-by-field comparison, no JSON made
             text = json.dumps(state_to_json(state), sort_keys=True)
+            objs[block] = state
             if self._saved_rule_states.get(block) != text:
                 changed[block] = text
-        if not changed:
-            return
-        try:
-            daemon_state.save_rule_states(self.store, changed)
-        except Exception:  # noqa: BLE001 - the evaluation stands; the next one tries again
-            log.exception("could not store the alert-rule states")
-            return
+        if changed:
+            try:
+                daemon_state.save_rule_states(self.store, changed)
+            except Exception:  # noqa: BLE001 - the evaluation stands; the next one tries again
+                log.exception("could not store the alert-rule states")
+                return
         self._saved_rule_states.update(changed)
+        self._saved_state_objs.update(objs)
 
     # -- the config in force ---------------------------------------------------------------------
     def reload_config(self, now: dt.datetime, force: bool = False) -> bool:
