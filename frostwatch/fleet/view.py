@@ -53,6 +53,13 @@ class SiteSeen:
     bridge: str | None = None  # "1" / "0" from the site's bridge notification
     bridge_at_utc: dt.datetime | None = None
     blocks: dict[str, dict] = field(default_factory=dict)
+    # the site's own messages this view could not read, by their topic's kind ("state/east",
+    # "heartbeat", "info"): shown as the site's problems until a readable one replaces them
+    unreadable: dict[str, str] = field(default_factory=dict)
+
+    def holds_nothing(self) -> bool:
+        return (self.heartbeat is None and self.info is None and not self.blocks and not self.unreadable
+                and self.online is None and self.bridge is None)
 
 
 def _get_json(payload: bytes, what: str) -> dict:
@@ -167,7 +174,52 @@ class FleetModel:
         except Rejected as exc:
             self.rejected_count += 1
             self.rejected.append({"time": iso_utc(received_utc), "topic": topic[:200], "reason": str(exc)[:300]})
+            self._note_unreadable(topic, str(exc))
             return str(exc)
+
+    def _site_and_kind(self, topic: str) -> tuple[str, str] | None:
+        """(site, kind) of a topic under the prefix with a valid site id; kind is "state/BLOCK",
+        "heartbeat", "info", "online" or "bridge" (anything else is None)."""
+        pre = self.prefix.split("/")
+        levels = topic.split("/")
+        rest = levels[len(pre):]
+        if levels[: len(pre)] != pre or len(rest) < 2 or rest[0] in RESERVED or not SITE_ID_RE.fullmatch(rest[0]):
+            return None
+        if rest[1] == "state" and len(rest) == 3:
+            return rest[0], f"state/{rest[2]}"
+        if rest[1] in ("heartbeat", "info", "online", "bridge") and len(rest) == 2:
+            return rest[0], rest[1]
+        return None
+
+    def _note_unreadable(self, topic: str, reason: str) -> None:
+        """A site's own message that could not be read is that site's problem, named with its
+        topic, so a site whose every message is unreadable (a newer version, say) is shown, and
+        blind, rather than missing."""
+        sk = self._site_and_kind(topic)
+        if sk is None:
+            return
+        s = self._site(sk[0])
+        s.unreadable[sk[1]] = f"{topic[:200]} could not be read: {reason[:300]}"
+
+    def _clear(self, site: str, kind: str) -> None:
+        """An empty retained message clears that topic (how a removed site's topics are cleared):
+        the view forgets what it held there, and forgets the site once nothing of it is left."""
+        s = self.sites.get(site)
+        if s is None:
+            return
+        if kind.startswith("state/"):
+            s.blocks.pop(kind[len("state/"):], None)
+        elif kind == "heartbeat":
+            s.heartbeat = None
+        elif kind == "info":
+            s.info = None
+        elif kind == "online":
+            s.online, s.online_at_utc = None, None
+        elif kind == "bridge":
+            s.bridge, s.bridge_at_utc = None, None
+        s.unreadable.pop(kind, None)
+        if s.holds_nothing():
+            del self.sites[site]
 
     def _site(self, site: str) -> SiteSeen:
         s = self.sites.get(site)
@@ -190,12 +242,14 @@ class FleetModel:
             return
         if not SITE_ID_RE.fullmatch(site):
             raise Rejected(f"topic {topic!r}: {site!r} is not a site id")
+        sk = self._site_and_kind(topic)
+        if sk is not None and not payload:  # a retained message cleared by hand (a removed site)
+            self._clear(*sk)
+            return
+        if sk is not None and site in self.sites:
+            self.sites[site].unreadable.pop(sk[1], None)  # a newer message on that topic replaces it
         if kind == "state" and len(rest) == 3:
             block = rest[2]
-            if not payload:  # a retained state cleared by hand: the block is gone
-                if site in self.sites:
-                    self.sites[site].blocks.pop(block, None)
-                return
             doc = parse_state(site, block, payload)
             s = self._site(site)
             doc["_received_utc"] = received_utc
@@ -203,8 +257,6 @@ class FleetModel:
             as_of = parse_utc(doc["as_of"])
             self._contact(s, received_utc if not retained else min(as_of, received_utc))
         elif kind == "heartbeat" and len(rest) == 2:
-            if not payload:
-                return
             doc = parse_heartbeat(site, payload)
             s = self._site(site)
             t = parse_utc(doc["time"])
@@ -214,8 +266,6 @@ class FleetModel:
             s.heartbeat = doc
             self._contact(s, contact)
         elif kind == "info" and len(rest) == 2:
-            if not payload:
-                return
             doc = parse_info(site, payload)
             s = self._site(site)
             s.info = doc
@@ -275,7 +325,7 @@ class FleetModel:
         for s in self.sites.values():
             if only_site is not None and s.site != only_site:
                 continue
-            if s.heartbeat is None and s.info is None and not s.blocks:
+            if s.heartbeat is None and s.info is None and not s.blocks and not s.unreadable:
                 continue  # only a flag (online, bridge) so far: a site shows once it has said who it is
             reachable, why = self.site_status(s, now_utc)
             blocks = sorted((self.block_doc(s, b) for b in s.blocks.values()),
@@ -286,9 +336,11 @@ class FleetModel:
             ahead = hb.get("_ahead_s")
             if ahead is not None and ahead > CLOCK_AHEAD_S:
                 problems.append(f"the site's clock is {ahead / 60:.0f} min ahead of this view's")
+            problems += [s.unreadable[k] for k in sorted(s.unreadable)]
+            unread = sum(1 for k in s.unreadable if k.startswith("state/") and k[len("state/"):] not in s.blocks)
             expected = info.get("blocks")
-            if isinstance(expected, int) and expected > len(blocks):
-                problems.append(f"{expected - len(blocks)} of its {expected} blocks have sent no state yet")
+            if isinstance(expected, int) and expected > len(blocks) + unread:
+                problems.append(f"{expected - len(blocks) - unread} of its {expected} blocks have sent no state yet")
             worst = max((self.order_rank(b) for b in blocks), default=0)
             sites.append({
                 "site": s.site, "name": s.name, "last_contact": iso_utc(s.contact_utc), "reachable": reachable,

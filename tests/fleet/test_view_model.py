@@ -195,3 +195,56 @@ def test_a_state_nested_deeper_than_the_json_parser_goes_is_a_rejection():
     m = FleetModel()
     reason = m.on_message("frostwatch/site-a/state/east", b"[" * 4000 + b"]" * 4000, at(0), True)
     assert reason is not None and "not JSON" in reason and m.rejected_count == 1
+
+
+def test_a_removed_site_cleared_with_empty_retained_messages_leaves_the_view_without_a_rejection():
+    # README "Many farms, one view": clear a removed site's topics with empty retained messages. A
+    # view already running takes them live: the site goes, nothing is counted as unreadable, and
+    # another site is untouched (before, the site stayed, soon "NOT REACHABLE" at the top for good,
+    # and the empty online and bridge messages were refused as bad).
+    m = FleetModel()
+    for site in ("sold-ranch", "ridge"):
+        live(m, state(site, "top", "rest", 0, at(0)), at(0))
+        live(m, heartbeat(site, at(0)), at(0))
+        live(m, fs.info_message("frostwatch", fs.info_doc(site, site.title(), 1, [], at(0))), at(0))
+        live(m, fs.online_message("frostwatch", site), at(0))
+        assert m.on_message(f"frostwatch/{site}/bridge", b"1", at(0), False) is None
+    for kind in ("state/top", "heartbeat", "info", "online", "bridge"):
+        assert m.on_message(f"frostwatch/sold-ranch/{kind}", b"", at(5), False) is None
+    live(m, heartbeat("ridge", at(200)), at(200))
+    doc = m.snapshot(at(201))
+    assert [s["site"] for s in doc["sites"]] == ["ridge"] and doc["rejected"]["count"] == 0
+    assert "sold-ranch" not in m.sites
+
+
+def test_a_site_cleared_only_in_part_is_never_shown_reachable_without_its_heartbeat():
+    m = FleetModel()
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    assert m.on_message("frostwatch/ridge/heartbeat", b"", at(5), False) is None
+    s = site_of(m.snapshot(at(6)), "ridge")
+    assert s["reachable"] is False and s["order_rank"] == BLIND_RANK and [b["block"] for b in s["blocks"]] == ["east"]
+
+
+def test_a_sites_unreadable_messages_are_its_problems_naming_the_topic():
+    # A site whose state the view cannot read (a newer version, say) is told by topic and reason
+    # on that site, not "sent no state yet"; a site none of whose messages can be read is shown,
+    # unreachable (never green when blind), instead of missing from the view.
+    m = FleetModel()
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    live(m, fs.info_message("frostwatch", fs.info_doc("ridge", "Ridge", 2, [], at(0))), at(0))
+    v2 = json.dumps({"v": 2, "site": "ridge", "block": "west", "level": "protect", "rank": 4}).encode()
+    assert "upgrade the fleet view" in m.on_message("frostwatch/ridge/state/west", v2, at(1), True)
+    assert m.on_message("frostwatch/newer/heartbeat", json.dumps({"v": 2}).encode(), at(1), True) is not None
+    doc = m.snapshot(at(2))
+    ridge = site_of(doc, "ridge")
+    assert ridge["reachable"] is True
+    assert ridge["problems"] == ["frostwatch/ridge/state/west could not be read: state of ridge/west is version 2; "
+                                 "this frostwatch reads up to 1: upgrade the fleet view"]
+    newer = site_of(doc, "newer")
+    assert newer["reachable"] is False and newer["order_rank"] == BLIND_RANK
+    assert newer["problems"][0].startswith("frostwatch/newer/heartbeat could not be read: heartbeat of newer is version 2")
+    # a readable state on the same topic replaces the problem
+    live(m, state("ridge", "west", "protect", 4, at(3)), at(3))
+    assert site_of(m.snapshot(at(4)), "ridge")["problems"] == []
