@@ -63,7 +63,11 @@ def _fahrenheit_doc(doc: dict) -> dict:
     return doc
 
 
+REJECTED_SHOWN = 5  # the latest unreadable messages the text lists, each with its topic and reason
+
+
 def _print_text(doc: dict, d) -> None:
+    from frostwatch.advice.render import level_word
     from frostwatch.fleet.page import _ago, _when
 
     now = dt.datetime.now(dt.UTC)
@@ -93,9 +97,15 @@ def _print_text(doc: dict, d) -> None:
                     proj += f" at {_when(b['predicted_min_at'], d, now)}"
                 proj += f", T10 at {_when(b['t10_crossing_at'], d, now)}" if b.get("t10_crossing_at") else ", no T10 crossing"
             ack = {True: "; acknowledged", False: "; NOT acknowledged"}.get(b.get("acknowledged"), "")
-            print(f"  {b['block']:<12} {b['level']} (rank {b['rank']}); {mon}{proj}{ack}; as of {_when(b['as_of'], d, now)}")
+            print(f"  {b['block']:<12} {level_word(b['level'])} (rank {b['rank']}); {mon}{proj}{ack}; "
+                  f"as of {_when(b['as_of'], d, now)}")
             if b.get("action"):
                 print(f"               {b['action']}")
+    rej = doc.get("rejected") or {}
+    if rej.get("count"):
+        print(f"\n{rej['count']} messages on the fleet topics could not be read (each costs only itself); latest:")
+        for r in rej["latest"][-REJECTED_SHOWN:]:
+            print(f"  {r['topic']}: {r['reason']}")
 
 
 def cmd_fleet(args) -> int:

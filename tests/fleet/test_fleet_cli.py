@@ -15,8 +15,11 @@ import urllib.error
 import urllib.request
 from pathlib import Path
 
+import paho.mqtt.client as paho
 import pytest
 from fleet_helpers import LEVELS, SimSite, fleet, fleet_json, free_port, wait_until
+
+from frostwatch.fleet import site as fs
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "reports"))
 from reports_helpers import chromium  # noqa: E402
@@ -180,3 +183,38 @@ def test_the_page_needs_its_token_and_shows_every_site(page, sites, tmp_path):
     assert 'id="site-site-03"' in dom and "NO CONTACT SINCE" in dom and "blind" in dom
     assert "NOT acknowledged" in dom and "crosses T10 at" in dom
     assert dom.index('id="site-site-03"') < dom.index('id="site-site-00"')  # the blind site first
+
+
+def test_the_table_shows_levels_by_their_words_and_names_each_unreadable_message_by_topic(mosquitto):
+    # A site still sending the names before 0.2 reads under the new words (README "Many farms, one
+    # view"), as on the page; a message the view cannot read is listed with its topic and reason
+    # under its site and at the end of the table, where before the table said nothing of it.
+    now = dt.datetime.now(dt.UTC).replace(microsecond=0)
+    iso = fs.iso_utc(now)
+    msgs = [
+        ("frostwatch/old-ranch/state/pear", {"v": 1, "site": "old-ranch", "block": "pear", "level": "act", "rank": 4,
+                                             "monitored": True, "as_of": iso, "action": "Start protection now."}),
+        ("frostwatch/old-ranch/state/apple", {"v": 2, "site": "old-ranch", "block": "apple", "level": "ready",
+                                              "rank": 3, "monitored": True, "as_of": iso}),
+        ("frostwatch/old-ranch/info", {"v": 1, "site": "old-ranch", "name": "Old Ranch", "blocks": 2, "problems": []}),
+        ("frostwatch/old-ranch/heartbeat", {"v": 1, "time": iso, "every_s": 60}),
+    ]
+    c = paho.Client(paho.CallbackAPIVersion.VERSION2, client_id="old-ranch", protocol=paho.MQTTv5)
+    c.connect("127.0.0.1", mosquitto.port)
+    c.loop_start()
+    try:
+        for topic, doc in msgs:
+            c.publish(topic, json.dumps(doc), qos=1, retain=True).wait_for_publish(10)
+        c.publish("frostwatch/gw-12/state/battery", b"3.71", qos=1, retain=True).wait_for_publish(10)
+    finally:
+        c.loop_stop()
+        c.disconnect()
+    p = fleet(mosquitto.port, "--tz", "UTC")
+    assert p.returncode == 0, p.stderr
+    out = p.stdout
+    assert "pear         PROTECT (rank 4)" in out and " act " not in out
+    assert ("  problem: frostwatch/old-ranch/state/apple could not be read: state of old-ranch/apple is version 2; "
+            "this frostwatch reads up to 1: upgrade the fleet view") in out
+    assert "have sent no state yet" not in out
+    assert "2 messages on the fleet topics could not be read (each costs only itself); latest:" in out
+    assert "  frostwatch/gw-12/state/battery: state of gw-12/battery is not a JSON object" in out
