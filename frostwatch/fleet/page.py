@@ -84,7 +84,8 @@ def render_page(doc: dict, d: Display, refresh_s: int, now: dt.datetime) -> str:
     cards = []
     for s in doc["sites"]:
         reachable = s["reachable"]
-        rank = max((b["rank"] for b in s["blocks"]), default=0)
+        # the site's colour is its order rank: a block not monitored counts as "go-look" (4)
+        rank = s.get("order_rank", max((b["rank"] for b in s["blocks"]), default=0))
         cls = f"card site r{rank}" + ("" if reachable else " blind")
         title = e(s.get("name") or s["site"]) + (f' <span class="note">({e(s["site"])})</span>' if s.get("name") else "")
         if reachable:

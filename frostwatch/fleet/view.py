@@ -293,6 +293,8 @@ class FleetModel:
             return False, "frostwatch at the site stopped or lost its broker (its last will)"
         if s.bridge == "0":
             return False, "the link from the site's broker is down (bridge notification)"
+        if hb is None and "heartbeat" in s.unreadable:
+            return False, "its heartbeat could not be read (see its problems)"
         if hb is None or s.contact_utc is None:
             return False, "no heartbeat received from this site"
         stale_after = STALE_HEARTBEATS * float(hb["every_s"]) + STALE_SLACK_S

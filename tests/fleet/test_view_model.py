@@ -244,6 +244,7 @@ def test_a_sites_unreadable_messages_are_its_problems_naming_the_topic():
                                  "this frostwatch reads up to 1: upgrade the fleet view"]
     newer = site_of(doc, "newer")
     assert newer["reachable"] is False and newer["order_rank"] == BLIND_RANK
+    assert newer["why_unreachable"] == "its heartbeat could not be read (see its problems)"
     assert newer["problems"][0].startswith("frostwatch/newer/heartbeat could not be read: heartbeat of newer is version 2")
     # a readable state on the same topic replaces the problem
     live(m, state("ridge", "west", "protect", 4, at(3)), at(3))
