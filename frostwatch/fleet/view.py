@@ -37,6 +37,11 @@ CAUTION = ("For oversight only: the alert to the person on duty comes from each 
            "never from this view. A site shown unreachable may still be protecting itself; call someone there.")
 
 
+def _stale_after_s(heartbeat: dict) -> float:
+    """How long a site may stay silent after a heartbeat before it is unreachable."""
+    return STALE_HEARTBEATS * float(heartbeat["every_s"]) + STALE_SLACK_S
+
+
 class Rejected(ValueError):
     """A message the fleet view cannot use; the text says why."""
 
@@ -261,8 +266,13 @@ class FleetModel:
             s = self._site(site)
             t = parse_utc(doc["time"])
             doc["_ahead_s"] = (t - received_utc).total_seconds()
-            # live: it arrived now; retained: it is as old as it says (never newer than now)
-            contact = received_utc if not retained else min(t, received_utc)
+            # live: it arrived now; retained: it is as old as it says (never newer than now). A live
+            # one stamped further back than a site may stay silent is an old copy (a bridge that
+            # reconnects forwards the site broker's retained heartbeat of a hung daemon as a live
+            # message) or a clock far behind: as old as it says, never fresh contact
+            old_copy = (received_utc - t).total_seconds() > _stale_after_s(doc)
+            contact = received_utc if not (retained or old_copy) else min(t, received_utc)
+            doc["_old_live_copy"] = old_copy and not retained
             s.heartbeat = doc
             self._contact(s, contact)
         elif kind == "info" and len(rest) == 2:
@@ -297,10 +307,13 @@ class FleetModel:
             return False, "its heartbeat could not be read (see its problems)"
         if hb is None or s.contact_utc is None:
             return False, "no heartbeat received from this site"
-        stale_after = STALE_HEARTBEATS * float(hb["every_s"]) + STALE_SLACK_S
         age = (now_utc - s.contact_utc).total_seconds()
-        if age > stale_after:
-            return False, f"no heartbeat for {age / 60:.0f} min (expected every {float(hb['every_s']):.0f} s)"
+        if age > _stale_after_s(hb):
+            why = f"no heartbeat for {age / 60:.0f} min (expected every {float(hb['every_s']):.0f} s)"
+            if hb["_old_live_copy"]:
+                why += (f"; the latest came {-hb['_ahead_s'] / 60:.0f} min after the time it carries "
+                        "(an old copy, or the site's clock is behind)")
+            return False, why
         return True, None
 
     def block_doc(self, s: SiteSeen, b: dict) -> dict:

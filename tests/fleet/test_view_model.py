@@ -249,3 +249,20 @@ def test_a_sites_unreadable_messages_are_its_problems_naming_the_topic():
     # a readable state on the same topic replaces the problem
     live(m, state("ridge", "west", "protect", 4, at(3)), at(3))
     assert site_of(m.snapshot(at(4)), "ridge")["problems"] == []
+
+
+def test_a_live_heartbeat_stamped_long_ago_is_an_old_copy_never_fresh_contact():
+    # A site's bridge that reconnects forwards the site broker's retained heartbeat to a running
+    # view as a live message: from a hung daemon it is minutes old. Counted from its arrival (as
+    # before) the site showed reachable for 3 minutes more; counted from its own time it is not,
+    # and the reason says why. A heartbeat a few seconds in transit is still fresh contact.
+    m = FleetModel()
+    live(m, state("stuck", "east", "rest", 0, at(0)), at(0))
+    live(m, heartbeat("stuck", at(0)), at(600))  # stamped 10 min before it arrived
+    s = site_of(m.snapshot(at(601)), "stuck")
+    assert s["reachable"] is False and s["order_rank"] == BLIND_RANK and s["last_contact"] == "2027-04-15T09:00:00Z"
+    assert s["why_unreachable"] == ("no heartbeat for 10 min (expected every 60 s); the latest came 10 min after "
+                                    "the time it carries (an old copy, or the site's clock is behind)")
+    live(m, heartbeat("stuck", at(650)), at(655))  # a fresh one, 5 s in transit
+    s = site_of(m.snapshot(at(656)), "stuck")
+    assert s["reachable"] is True and s["last_contact"] == "2027-04-15T09:10:55Z"
