@@ -113,7 +113,7 @@ def cmd_status(args) -> int:
             print(f"daemon: running, heartbeat {_age(hb.get('heartbeat_age_s'))}; broker {up}; {counts}")
         for p in hb.get("problems", []):
             print(f"  problem: {p}")
-        for p in hb.get("health_problems", []):
+        for p in hb.get("health_details") or hb.get("health_problems", []):
             print(f"  sensor health: {p}")
     age = "" if doc["data_age_s"] is None else f" ({_age(doc['data_age_s'])})"
     print(f"decisions as of {local(doc['data_as_of'])}{age}")

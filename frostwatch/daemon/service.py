@@ -190,6 +190,8 @@ class Daemon:
             "queue": self.ingest.q.qsize(), "ingest": st.as_dict(),
             "evaluations": self.core.evaluations, "last_evaluation": _iso(self.core.last_eval_utc),
             "health_problems": sorted(self.core.health_active),
+            # the same problems as their alerts word them ("upper-tower: silent for 12 min (...)")
+            "health_details": [f"{p.subject}: {p.detail}" for _, p in sorted(self.core.health_active.items())],
             "stored_every_s": self.s.heartbeat_store_s, "heartbeat_s": self.s.heartbeat_s,
             "problems": self.problems(),
         }

@@ -55,6 +55,16 @@ def test_a_sensor_whose_messages_are_rejected_is_reported_with_the_reason(site, 
             "(2.5) (mqtt:frostwatch/east-tower/air_temperature)") in msg, msg
     hill = [m for (m,) in _health_messages(db) if "hill-low" in m]
     assert hill and all("rejected" not in m for m in hill), hill
+    # `frostwatch status` words the problem as the alert does, not as its key ("east-tower:silent")
+    from daemon_helpers import run_cli
+
+    def status_line():
+        r = run_cli("status", "--config", str(_cfg))
+        return next((x for x in r.stdout.splitlines() if x.startswith("  sensor health: east-tower")), "")
+
+    assert wait_until(lambda: "rejected" in status_line(), 30, step_s=1.0), status_line()
+    assert status_line().startswith("  sensor health: east-tower: no valid reading: its messages arrive but are "
+                                    "rejected: payload '2,5' is not a number"), status_line()
 
 
 def test_a_station_that_reported_then_was_refused_says_so(demo_config):
