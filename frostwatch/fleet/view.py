@@ -328,6 +328,7 @@ class FleetModel:
         out = {k: v for k, v in b.items() if not k.startswith("_") and k not in ("v", "site")}
         out["as_of"] = iso_utc(parse_utc(as_of))
         out["state_sent_at"] = b["as_of"]
+        out.setdefault("reason", None)  # every block carries every key of the README's list (null: monitored)
         return out
 
     @staticmethod

@@ -266,3 +266,18 @@ def test_a_live_heartbeat_stamped_long_ago_is_an_old_copy_never_fresh_contact():
     live(m, heartbeat("stuck", at(650)), at(655))  # a fresh one, 5 s in transit
     s = site_of(m.snapshot(at(656)), "stuck")
     assert s["reachable"] is True and s["last_contact"] == "2027-04-15T09:10:55Z"
+
+
+def test_every_block_carries_every_key_the_readme_lists_reason_null_when_monitored():
+    # README: --json blocks hold block, level, rank, monitored, as_of, predicted_min_c, band_c,
+    # predicted_min_at, t10_crossing_at, action, acknowledged, reason; the site sends `reason` only
+    # for a block not monitored, so a script reading b["reason"] failed on every monitored block.
+    m = FleetModel()
+    live(m, state("ridge", "east", "ready", 3, at(0)), at(0))
+    live(m, state("ridge", "west", "go-look", 4, at(0), monitored=False, reason="east-low silent"), at(0))
+    live(m, heartbeat("ridge", at(0)), at(0))
+    keys = {"block", "level", "rank", "monitored", "as_of", "predicted_min_c", "band_c", "predicted_min_at",
+            "t10_crossing_at", "action", "acknowledged", "reason"}
+    blocks = {b["block"]: b for b in site_of(m.snapshot(at(1)), "ridge")["blocks"]}
+    assert keys <= set(blocks["east"]) and keys <= set(blocks["west"])
+    assert blocks["east"]["reason"] is None and blocks["west"]["reason"] == "east-low silent"
