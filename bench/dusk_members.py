@@ -224,9 +224,8 @@ def print_report(res: dict) -> None:
 
 def main(argv: list[str] | None = None) -> int:
     args = sys.argv[1:] if argv is None else argv
-    unknown = [a for a in args if a not in tmy.SITES]
-    if unknown:
-        print(f"unknown site {unknown[0]!r}; expected one of {', '.join(tmy.SITES)}", file=sys.stderr)
+    if (message := tmy.unknown_site(args)) is not None:
+        print(message, file=sys.stderr)
         return 2
     work = Path(tempfile.mkdtemp(prefix="frostwatch-members-"))
     res = {"about": __doc__.split("\n\n")[0].replace("\n", " "), "sites": {}}

@@ -317,9 +317,8 @@ def measure(sites: list[str] | None = None, verbose: bool = True) -> dict:
 
 def main(argv: list[str] | None = None) -> int:
     args = sys.argv[1:] if argv is None else argv
-    unknown = [a for a in args if a not in tmy.SITES]
-    if unknown:
-        print(f"unknown site {unknown[0]!r}; expected one of {', '.join(tmy.SITES)}", file=sys.stderr)
+    if (message := tmy.unknown_site(args)) is not None:
+        print(message, file=sys.stderr)
         return 2
     measure(args or None)
     return 0

@@ -92,6 +92,12 @@ class Hourly:
     fields: dict[str, np.ndarray]
 
 
+def unknown_site(args: list[str]) -> str | None:
+    """The message for the first of a bench's site arguments that is not one of `SITES`, or None."""
+    unknown = [a for a in args if a not in SITES]
+    return f"unknown site {unknown[0]!r}; expected one of {', '.join(SITES)}" if unknown else None
+
+
 def data_dir() -> Path:
     import pvlib
 
