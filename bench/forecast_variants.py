@@ -528,17 +528,12 @@ def _row(res: dict) -> dict:
 
 
 def run_variant(patch: dict[str, object]) -> dict:
-    import importlib
-
     from frostwatch.forecast import projection as proj
     from frostwatch.forecast import settings
 
-    # the settings live in forecast.settings (projection reads its own there); these import those they use
-    mods = tuple(importlib.import_module(f"frostwatch.forecast.{m}") for m in settings.READERS)
-    missing = [k for k in patch if not hasattr(settings, k)]
-    if missing:
-        raise KeyError(f"not a setting of frostwatch.forecast.settings: {', '.join(missing)}")
-    old = {(m, k): getattr(m, k) for k in patch for m in mods if hasattr(m, k)}
+    # the settings live in forecast.settings (projection reads its own there); the modules that
+    # import one hold their own binding, each set too
+    old = {(m, k): getattr(m, k) for k in patch for m in settings.modules_binding(k)}
     process_figures = fs._process_figures
     try:
         for (m, k) in old:

@@ -271,15 +271,10 @@ def demo_printed() -> subprocess.CompletedProcess:
 def forecast_setting(monkeypatch):
     """Set one of `frostwatch.forecast.settings` for a test, in every module that binds it by name
     (`settings.READERS`; a module that imported a setting keeps its own binding), restored after."""
-    import importlib
-
     from frostwatch.forecast import settings
 
     def set_setting(name: str, value) -> None:
-        assert hasattr(settings, name), f"not a setting: {name}"
-        for m in settings.READERS:
-            mod = importlib.import_module(f"frostwatch.forecast.{m}")
-            if hasattr(mod, name):
-                monkeypatch.setattr(mod, name, value)
+        for mod in settings.modules_binding(name):
+            monkeypatch.setattr(mod, name, value)
 
     return set_setting

@@ -19,6 +19,7 @@ import datetime as dt
 
 from frostwatch.advice.plan import AdvicePlan, Condition, Method, Risk, Step, StopBasis, Trigger
 from frostwatch.advice.render import Notice, level_word
+from frostwatch.decision import MonitorReason
 from frostwatch.display import Display
 from frostwatch.gsm7 import SMS_SEPTETS, fit, septets, to_gsm7
 
@@ -188,16 +189,16 @@ def short_body(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Displ
 
 
 def not_monitored_body(block_id: str, level: str, since_utc: dt.datetime | None, stations: tuple[str, ...],
-                       plan: AdvicePlan | None, d: Display, reason: str | None = None) -> str:
+                       plan: AdvicePlan | None, d: Display, reason: MonitorReason | None = None) -> str:
     """'hill GO LOOK: no reading since 02:10 (hill-low); judge the block by hand. Act at -2.4C.'
-    `reason` (a `MonitorReason` value) words a sensor never heard ("no reading yet": `since_utc`
+    `reason` words a sensor never heard ("no reading yet": `since_utc`
     is then only when frostwatch started looking) and a stuck one ("sensor stuck")."""
     where = f" ({', '.join(stations)})" if stations else ""
-    if reason == "no-data":
+    if reason == MonitorReason.NO_DATA:
         what = f"no reading yet{where}"
-    elif reason == "stuck":
+    elif reason == MonitorReason.STUCK:
         what = f"sensor stuck{where}"
-    elif reason == "no-crop-sensor":
+    elif reason == MonitorReason.NO_CROP_SENSOR:
         what = "no crop-height sensor set up"
     else:
         what = f"no reading{f' since {d.time(since_utc)}' if since_utc is not None else ''}{where}"

@@ -34,6 +34,13 @@ def _dew_point_given(args, ca, humidity, air_c: float | None) -> tuple[float, fl
     return float(humidity.dew_point_c_from_rel_humidity(air_c, rh)), rh
 
 
+def _from_rh(args, td: float, rh: float | None) -> tuple[dict, str]:
+    """The JSON keys and the words (' from RH 50 %') that say a dew point came from `--humidity`."""
+    if rh is None:
+        return {}, ""
+    return {_key(args, "dew_point"): _temp_out(args, td), "relative_humidity_pct": rh}, f" from RH {rh:g} %"
+
+
 def cmd_calc(args) -> int:
     import math
 
@@ -65,9 +72,8 @@ def cmd_calc(args) -> int:
         wb = finite(float(humidity.wet_bulb_c_from_dew_point(t, td, p_hpa)), "no wet-bulb temperature for these inputs")
         doc = {_key(args, "wet_bulb"): _temp_out(args, wb), "pressure_hpa": round(p_hpa, 2),
                "method": "ASHRAE psychrometric wet bulb (ice bulb below 0 °C)"}
-        if rh is not None:
-            doc.update({_key(args, "dew_point"): _temp_out(args, td), "relative_humidity_pct": rh})
-        from_rh = "" if rh is None else f" from RH {rh:g} %"
+        rh_keys, from_rh = _from_rh(args, td, rh)
+        doc.update(rh_keys)
         text = (f"wet-bulb temperature {_temp_out(args, wb)} {_unit(args)} (air {_temp_out(args, t)} {_unit(args)}, "
                 f"dew point {_temp_out(args, td)} {_unit(args)}{from_rh}, {p_text}; ice bulb below freezing)")
     elif args.calc == "dew-point":
@@ -99,11 +105,11 @@ def cmd_calc(args) -> int:
         doc = {_key(args, "start_air_temp"): _temp_out(args, start), "pressure_hpa": round(p_hpa, 2),
                _key(args, "target_wet_bulb"): _temp_out(args, tc + margin),
                "note": "sprinklers must be running before the air cools to this; stop only after sunrise once it is passed again and the ice is melting"}
-        if rh is not None:
-            doc.update({_key(args, "dew_point"): _temp_out(args, td), "relative_humidity_pct": rh})
+        rh_keys, from_rh = _from_rh(args, td, rh)
+        doc.update(rh_keys)
         text = (f"start sprinklers before the air cools to {_temp_out(args, start)} {_unit(args)} "
                 f"(wet bulb = {_temp_out(args, tc + margin)} {_unit(args)}, the critical temperature plus margin, at dew point "
-                f"{_temp_out(args, td)} {_unit(args)}{'' if rh is None else f' from RH {rh:g} %'}, {p_text}); stop only after sunrise, once the air is above it "
+                f"{_temp_out(args, td)} {_unit(args)}{from_rh}, {p_text}); stop only after sunrise, once the air is above it "
                 "again, the wet bulb is rising and the ice is melting")
     elif args.calc == "critical":
         try:
@@ -263,6 +269,9 @@ def register(sub, common) -> None:
         return csub.add_parser(name, **kw)
 
     T = "temperature: °C, or °F with --fahrenheit or --units us; or with a unit: 34F, 1.2C"
+    def low_ok(c) -> None:  # beside every --humidity
+        c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
+
     RH = ("relative humidity in percent, 0-100 (below 1.5 is refused as a likely fraction unless "
           "--humidity-low-ok is given or it is written with %%, e.g. 0.8%%)")
     P = ("air pressure in hPa (default 1013.25), inHg with --units us; or with a unit: 29.92inHg, 101.3kPa; "
@@ -272,19 +281,19 @@ def register(sub, common) -> None:
     given = c.add_mutually_exclusive_group(required=True)
     given.add_argument("--dew-point", metavar="TD", help=T)
     given.add_argument("--humidity", metavar="RH", help=RH)
-    c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
+    low_ok(c)
     c.add_argument("--pressure", metavar="HPA", help=P)
     c.add_argument("--pressure-inhg", metavar="INHG", help="air pressure in inches of mercury (e.g. 29.92)")
     c = add("dew-point", parents=[common, units], help="dew point and frost point from air temperature and RH")
     c.add_argument("--air-temp", required=True, metavar="T", help=T)
     c.add_argument("--humidity", required=True, metavar="RH", help=RH)
-    c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
+    low_ok(c)
     c = add("sprinkler-start", parents=[common, units], help="air temperature at which sprinklers must already run")
     given = c.add_mutually_exclusive_group(required=True)
     given.add_argument("--dew-point", metavar="TD", help="the evening's dew point; " + T)
     given.add_argument("--humidity", metavar="RH", help=RH + "; with --air-temp, instead of --dew-point")
     c.add_argument("--air-temp", metavar="T", help="the air temperature the humidity was read at; " + T)
-    c.add_argument("--humidity-low-ok", action="store_true", help="a relative humidity below 1.5 %% is really meant")
+    low_ok(c)
     c.add_argument("--critical", required=True, metavar="TC", help="critical temperature (usually T10); " + T)
     c.add_argument("--margin", default="0", metavar="DT",
                    help="safety margin added to TC, in °C degrees (°F with --fahrenheit or --units us; or 2F, 1C)")

@@ -73,8 +73,7 @@ class Core:
         self._stored_signatures: dict[str, tuple] = {}  # block -> decision_signature, last stored evaluation
         self.evaluations_not_stored = 0
         self._cfg_fingerprint = config_reload.fingerprint(cfg.path)
-        self._saved_rule_states: dict[str, str] = {}  # block -> the rule state's JSON last stored
-        self._saved_state_objs: dict = {}  # block -> the state object last stored (compared first)
+        self._saved_states: dict = {}  # block -> its rule state as last stored or read back (frozen)
         self._sequences_checked: str | None = None  # the night whose alert numbering was checked
         self._restore_rule_states()
 
@@ -95,11 +94,11 @@ class Core:
             if block not in {b.id for b in self.cfg.blocks}:
                 continue  # a block removed from the config since
             try:
-                self.evaluator.states[block] = state_from_json(json.loads(text))
+                state = state_from_json(json.loads(text))
             except (ValueError, TypeError):
                 log.warning("stored alert-rule state of block %s is unreadable; its rules start afresh", block)
                 continue
-            self._saved_rule_states[block] = text
+            self.evaluator.states[block] = self._saved_states[block] = state
 
     def _continue_sequences(self, now: dt.datetime) -> None:
         """A block with no stored state for tonight (a store from before states were kept, or one
@@ -128,22 +127,17 @@ class Core:
         state never claims an alert the outbox does not hold)."""
         from frostwatch.alerts.rules import state_to_json
 
-        changed, objs = {}, {}
-        for block, state in self.evaluator.states.items():
-            if self._saved_state_objs.get(block) == state:
-                continue  # the usual case: a field-by-field comparison, no JSON made
-            text = json.dumps(state_to_json(state), sort_keys=True)
-            objs[block] = state
-            if self._saved_rule_states.get(block) != text:
-                changed[block] = text
-        if changed:
-            try:
-                daemon_state.save_rule_states(self.store, changed)
-            except Exception:  # noqa: BLE001 - the evaluation stands; the next one tries again
-                log.exception("could not store the alert-rule states")
-                return
-        self._saved_rule_states.update(changed)
-        self._saved_state_objs.update(objs)
+        # the states are frozen: a field-by-field comparison tells a change, no JSON made otherwise
+        changed = {b: st for b, st in self.evaluator.states.items() if self._saved_states.get(b) != st}
+        if not changed:
+            return
+        try:
+            daemon_state.save_rule_states(
+                self.store, {b: json.dumps(state_to_json(st), sort_keys=True) for b, st in changed.items()})
+        except Exception:  # noqa: BLE001 - the evaluation stands; the next one tries again
+            log.exception("could not store the alert-rule states")
+            return
+        self._saved_states.update(changed)
 
     # -- the config in force ---------------------------------------------------------------------
     def reload_config(self, now: dt.datetime, force: bool = False) -> bool:

@@ -1,6 +1,7 @@
 """The settings of the site's calibration and of the forecasts read from it: the names of the dusk
 and nowcast inputs and methods, the learner's penalties, memories and thresholds, and the switches
-that benchmarks set to try a variant (bench/forecast_variants.py). Constants only; no code.
+that benchmarks set to try a variant (bench/forecast_variants.py). Constants, and
+`modules_binding`, which finds where a variant must be set.
 
 Every module that reads one of these binds it by name (`from frostwatch.forecast.settings import
 X`), so a variant must be set in each of them: `READERS` names them (`forecast.projection` reads
@@ -90,3 +91,14 @@ APPROACH_METHODS = ("corrected", "naive")
 # The modules of frostwatch.forecast that bind these settings by name (this one first): a benchmark
 # or test trying a variant sets a setting in every one of them that has it.
 READERS = ("settings", "calibration", "features", "dusk_regression", "learner", "skill", "snapshot_plan", "records")
+
+
+def modules_binding(name: str) -> list:
+    """The modules of `READERS` that hold the setting `name` by name: a benchmark or test trying a
+    variant sets it in each (KeyError for a name that is not a setting)."""
+    import importlib
+
+    if name not in globals() or not name.isupper() or name == "READERS":
+        raise KeyError(f"not a setting of frostwatch.forecast.settings: {name}")
+    mods = (importlib.import_module(f"frostwatch.forecast.{r}") for r in READERS)
+    return [m for m in mods if hasattr(m, name)]

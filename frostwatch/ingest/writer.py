@@ -255,7 +255,6 @@ class IngestWriter:
             if self.cfg.station(station) is not None:  # declared stations only: a flood of names costs nothing
                 self.last_rejection[station] = (now_s, f"{r.reason} ({r.source})")
             if "plausible range" in r.reason:  # every one counts here, stored or only counted
-                station = self.station_of(r.source.removeprefix("mqtt:"))
                 self.out_of_range.setdefault(station, deque(maxlen=1000)).append(time.monotonic())
         n_bad = len(rejections)
         saved = self.limiter.snapshot()
