@@ -9,6 +9,7 @@ air temperature), frost-physics.md 4.2 and 10 (heat budget), UF/IFAS Circ. 348
 
 from __future__ import annotations
 
+import dataclasses
 import datetime as dt
 import itertools
 import json
@@ -279,6 +280,31 @@ def test_sprinkling_in_wind_above_4_5_m_s_is_not_advised():
     plan = advise(projection(wind_speed_m_s=5.5), sprinkler_block(application_rate_mm_h=30.0), NOW)
     assert not plan.advised and plan.verdict.why_not is WhyNot.TOO_WINDY_FOR_SPRINKLERS
     assert "sprinkling does not protect" in text(plan, projection())
+
+
+def test_sprinklers_not_advised_leave_the_buds_dry_so_the_air_times_the_block():
+    # the windy night: the wet bulb reaches T10 + margin in 15 min, the air in 4 h.
+    # Wetted buds cool towards the wet bulb (FAO-FP p. 168, Table 7.5), which is why sprinklers
+    # start by it; sprinklers not advised are not run, and dry buds follow the air (grower-needs A2)
+    wet_soon, air_late = NOW + dt.timedelta(minutes=15), NOW + dt.timedelta(hours=4)
+    windy = projection(air_temp_c=3.0, wet_bulb_c=-0.8, dew_point_c=-9.0, predicted_min_c=-1.5, wind_speed_m_s=6.0,
+                       crossings_utc={"t10_margin": air_late, "wet_bulb_t10_margin": wet_soon, "t10": None})
+    plan = advise(windy, sprinkler_block(), NOW)
+    assert not plan.advised and plan.verdict.why_not is WhyNot.TOO_WINDY_FOR_SPRINKLERS
+    assert plan.trigger == "air" and plan.trigger_now_c == 3.0
+    assert plan.crossing_utc == air_late and plan.ready_by_utc == air_late - dt.timedelta(minutes=20)
+    assert plan.step is Step.GET_READY  # was START_NOW by the wet bulb: a crew called 8 h early
+    assert "other means" in text(plan, windy)
+    # the grower runs them anyway (the running sensor says so): the buds are wet, the wet bulb decides
+    running = advise(windy, sprinkler_block(), NOW, protection_running=True)
+    assert running.trigger == "wet-bulb" and running.crossing_utc == wet_soon
+    # too little water: not advised either, timed by the air
+    short = advise(dataclasses.replace(windy, wind_speed_m_s=2.9, predicted_min_c=-5.6),
+                   sprinkler_block(application_rate_mm_h=3.0), NOW)
+    assert short.verdict.why_not is WhyNot.RATE_SHORT and short.trigger == "air"
+    # advised (calm): the wet bulb decides, as before
+    calm = advise(dataclasses.replace(windy, wind_speed_m_s=0.5), sprinkler_block(application_rate_mm_h=6.0), NOW)
+    assert calm.advised and calm.trigger == "wet-bulb" and calm.step is Step.START_NOW
 
 
 def test_unknown_wind_is_not_calm_for_sprinklers():

@@ -76,6 +76,25 @@ def risk_of(p: Projection, block: Block, after_sunrise: bool) -> Risk:
     return Risk.LOW
 
 
+def trigger_of(method: Method, wet_bulb_c: float | None, verdict: MethodVerdict | None,
+               running: bool | None) -> Trigger:
+    """The temperature that times the block's protection: the wet bulb for sprinklers that will run
+    (grower-needs C3: wetted buds cool towards it), else the air.
+
+    The wet-bulb start rule exists because wetted buds cool towards the wet bulb (FAO-FP 2005
+    p. 168, Table 7.5; MSU Extension 2012: a failing system leaves buds colder than unsprinkled
+    ones). Sprinklers not advised tonight (too windy, too little water) are not run, the buds stay
+    dry, and dry buds are judged on the air like any block without water (grower-needs A2): the air
+    times "protect by other means". While the block's running sensor says the sprinklers run
+    anyway, the wet bulb decides again.
+    """
+    if not method.is_sprinkler or wet_bulb_c is None:
+        return Trigger.AIR
+    if verdict is not None and not verdict.advised and not running:
+        return Trigger.AIR
+    return Trigger.WET_BULB
+
+
 def verdict_for(p: Projection, block: Block, pressure_hpa: float, supercooled_fog: bool | None) -> MethodVerdict:
     """The verdict on the block's configured method."""
     method = Method(block.protection)
@@ -194,8 +213,8 @@ def plan_advice(
     t10, margin = block.kill_10pct_c, block.margin_c
     after_sunrise = p.sunrise_utc is not None and now_utc >= p.sunrise_utc
     risk = risk_of(p, block, after_sunrise)
-    # sprinklers are governed by the wet bulb (grower-needs C3), everything else by the air
-    trigger = Trigger.WET_BULB if method.is_sprinkler and p.wet_bulb_c is not None else Trigger.AIR
+    verdict = None if risk is Risk.UNKNOWN else verdict_for(p, block, pressure_hpa, supercooled_fog)
+    trigger = trigger_of(method, p.wet_bulb_c, verdict, protection_running)
     # act on the band's cold edge (the safe side): the earliest the line is likely reached
     key = "wet_bulb_t10_margin" if trigger is Trigger.WET_BULB else "t10_margin"
     middle = p.crossings_utc.get(key)
@@ -212,7 +231,6 @@ def plan_advice(
     )
     if risk is Risk.UNKNOWN:
         return AdvicePlan(**base, step=Step.CHECK_SENSORS)
-    verdict = verdict_for(p, block, pressure_hpa, supercooled_fog)
     active = risk in (Risk.POSSIBLE, Risk.LIKELY, Risk.NOW)
     if active and verdict.advised and p.sunrise_utc is not None:
         begin = max(now_utc, ready_by) if (ready_by is not None and risk is not Risk.NOW) else now_utc
