@@ -10,7 +10,8 @@ The body holds the block, the level's word and the action, the trigger temperatu
 it must not reach (T10 + margin, or T10) and by when; the acknowledgement code is added for each
 delivery (`frostwatch.alerts.ackcodes`), since each recipient gets a code of their own. Only the
 GSM 7-bit alphabet is used (no "°": "C" and "F"). The body is kept short enough that a prefix
-("AGAIN 2: ", "ESCALATED: ") and the code always fit in 160.
+("NOT ACKED: " on a repeat, "ESCALATED: ") and the code always fit in 160. A repeat's body is
+rendered again from the block's latest decision (`frostwatch.alerts.restate`).
 """
 
 from __future__ import annotations

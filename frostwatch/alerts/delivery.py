@@ -29,6 +29,8 @@ log = logging.getLogger("frostwatch.alerts")
 
 DEADLINE_GRACE_S = 2.0  # a send's own deadline (timeout_s) comes first; the worker's wait ends this much later
 BROADCAST = "*"
+REPEAT_PREFIX = "NOT ACKED: "  # a repeat's text message: the alert nobody has acknowledged, as things are now
+ESCALATED_PREFIX = "ESCALATED: "  # both fit frostwatch.advice.short.PREFIX_ROOM
 
 
 def night_of_key(key: str) -> dt.date | None:
@@ -200,8 +202,8 @@ class Delivering:
             code = ackcodes.code_for_delivery(self.store, r["alert_key"], r["channel"], r["recipient"], r["seq"], now)
         except Exception:  # noqa: BLE001
             log.exception("cannot make an acknowledgement code for %s", r["alert_key"])
-        prefix = {"repeat": f"AGAIN {r['seq']}: ", "escalation": "ESCALATED: "}.get(r["kind"], "")
-        base = r.get("short") or notice_body(r["block"], r["level"], r["message"] or r["alert_key"])
+        prefix = {"repeat": REPEAT_PREFIX, "escalation": ESCALATED_PREFIX}.get(r["kind"], "")
+        base = r.get("short_body") or r.get("short") or notice_body(r["block"], r["level"], r["message"] or r["alert_key"])
         return OutMessage(idem_key=r["idem_key"] or f"{r['alert_key']}:{r['seq']}", alert_key=r["alert_key"],
                           seq=r["seq"], level=r["level"], rank=r["rank"], block=r["block"], title=title, body=body,
                           kind=r["kind"], ack_url=url, short=short_message(base, code or None, prefix), code=code)

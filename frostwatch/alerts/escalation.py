@@ -1,5 +1,6 @@
 """Repeats and escalation of unacknowledged alerts, and the fall back to the local channels when
-remote alerting keeps failing.
+remote alerting keeps failing. A frost alert's repeat is worded from the block's latest stored
+decision (`frostwatch.alerts.restate`), so it carries the figures of the moment it goes out.
 
 `Escalating` is a part of `frostwatch.alerts.outbox.Outbox`; it uses the outbox's `store`, `ac`,
 `cfg`, `_rows`, `submit` and its failure streak under `_lock`.
@@ -14,7 +15,10 @@ from frostwatch.alerts import levels
 from frostwatch.alerts.config import Channel, Contact
 from frostwatch.alerts.delivery import BROADCAST, night_of_key
 from frostwatch.alerts.levels import ALL_LEVELS, level_name
+from frostwatch.alerts.restate import RESTATED_LEVELS, Restated, repeat_head, restated
+from frostwatch.display import Display
 from frostwatch.models import Alert
+from frostwatch.store import decisions as stored_decisions
 from frostwatch.store import from_ms, to_ms
 from frostwatch.store import outbox as ob
 
@@ -43,18 +47,33 @@ class Escalating:
                 log.info("repeat of %s held back: %d notifications this hour for %s", key, self.ac.budget_per_hour, block)
                 continue
             seq = s["notices"]
-            minutes = elapsed / 60000
-            if escalating:
-                head = (f"ESCALATED (no acknowledgement after {minutes:.0f} min, now also to "
-                        f"{', '.join(p.name for p in roster[s['step'] + 1: step + 1])}): ")
-            else:
-                head = f"REPEAT {seq} (not acknowledged for {minutes:.0f} min): "
-            body = head + (s["message"] or key)
+            words = self._restated(s, now_utc)
+            added = [p.name for p in roster[s["step"] + 1: step + 1]] if escalating else None
+            head = repeat_head(seq, elapsed / 60000, from_ms(s["started_utc_ms"]),
+                               words.as_of_utc if words else None, self._display(), added)
+            body = head + (words.text if words else (s["message"] or key))
             rows = self._rows(s["level"], roster[: step + 1], seq=seq, kind="escalation" if escalating else "repeat",
                               now_utc=now_utc)
             for row in rows:
                 row["body"] = body
+                row["short_body"] = words.short if words else None
             ob.add_repeat(self.store, key, rows, now_ms, step, nxt)
+
+    def _display(self) -> Display:
+        site = getattr(self.cfg, "site", None)
+        return Display(getattr(site, "display_unit", "degC"), getattr(site, "tz", None) or "UTC")
+
+    def _restated(self, s: dict, now_utc: dt.datetime) -> Restated | None:
+        """A frost alert's words from its block's latest stored decision (one truth: a repeat
+        says what the daemon decides now); None keeps the words first sent. Never raises."""
+        if level_name(s["level"]) not in RESTATED_LEVELS:
+            return None
+        try:
+            latest = stored_decisions.latest(self.store, [s["block"]], until_utc=now_utc).get(s["block"])
+            return restated(s["level"], s["block"], night_of_key(s["alert_key"]), latest, self._display())
+        except Exception:  # noqa: BLE001 - a repeat goes out, in the words first sent, rather than not at all
+            log.exception("cannot restate %s from the stored decision; repeating it as sent", s["alert_key"])
+            return None
 
     # -- remote failure -> local channels ------------------------------------------------------
     def _note_remote(self, ch: Channel, ok: bool, now: dt.datetime) -> None:
@@ -82,10 +101,12 @@ class Escalating:
         now_ms = to_ms(now_utc)
         pending = ob.unsent_urgent_remote(self.store)
         local_rows = 0
-        for key, seq, level, block, names in pending:
+        for key, seq, level, block, names, body, short_body in pending:
             people = [c for c in self.ac.contacts if c.name in (names or "").split(",")]
             people = people or self.ac.roster_for(block, night_of_key(key))[:1]
             rows = self._rows(level, people, seq=seq, kind="fallback", now_utc=now_utc, only_local=True)
+            for row in rows:
+                row["body"], row["short_body"] = body, short_body
             with self.store.transaction() as c:
                 local_rows += ob.insert_deliveries(c, key, rows, now_ms)
         if first:

@@ -25,7 +25,8 @@ def add_alert_with_deliveries(
     """Write an alert, its first deliveries and its escalation state in one transaction.
 
     False (and nothing written) if the alert key is already stored. `deliveries` are dicts with
-    channel, recipient, seq, kind, local, body, next_try_ms.
+    channel, recipient, seq, kind, local, body, short_body, next_try_ms (body and short_body: a
+    repeat's own words; None sends the alert's).
     """
     with store.transaction() as c:
         cur = c.execute(
@@ -73,9 +74,11 @@ def insert_deliveries(c: sqlite3.Connection, key: str, deliveries: Iterable[dict
     for d in deliveries:
         cur = c.execute(
             "INSERT OR IGNORE INTO deliveries(alert_key, channel, recipient, attempt, status, next_try_utc_ms, "
-            "detail, updated_utc_ms, seq, idem_key, local, kind, body) VALUES (?,?,?,0,'pending',?,?,?,?,?,?,?,?)",
+            "detail, updated_utc_ms, seq, idem_key, local, kind, body, short_body) "
+            "VALUES (?,?,?,0,'pending',?,?,?,?,?,?,?,?,?)",
             (key, d["channel"], d["recipient"], d.get("next_try_ms", now_ms), "", now_ms, d["seq"],
-             f"{key}:{d['seq']}", 1 if d.get("local") else 0, d.get("kind", "alert"), d.get("body")),
+             f"{key}:{d['seq']}", 1 if d.get("local") else 0, d.get("kind", "alert"), d.get("body"),
+             d.get("short_body")),
         )
         n += cur.rowcount
     return n
@@ -306,12 +309,13 @@ def add_repeat(store: Store, key: str, deliveries: Iterable[dict], now_ms: int, 
 
 
 def unsent_urgent_remote(store: Store) -> list[tuple]:
-    """(alert_key, seq, level, block, recipients joined by commas) of each notice of rank >= 3 not
-    yet delivered on a remote channel: what goes out on the local channels when remote alerting
-    is degraded."""
+    """(alert_key, seq, level, block, recipients joined by commas, body, short_body) of each notice
+    of rank >= 3 not yet delivered on a remote channel: what goes out on the local channels when
+    remote alerting is degraded (a repeat in its own words)."""
     with store.lock:
         return store.conn.execute(
-            "SELECT d.alert_key, d.seq, a.level, a.block, group_concat(DISTINCT d.recipient) FROM deliveries d "
+            "SELECT d.alert_key, d.seq, a.level, a.block, group_concat(DISTINCT d.recipient), max(d.body), "
+            "max(d.short_body) FROM deliveries d "
             "JOIN alerts a ON a.key=d.alert_key WHERE d.local=0 AND d.status IN ('retry','inflight','pending') "
             "AND d.kind != 'notice' AND a.rank >= 3 GROUP BY d.alert_key, d.seq").fetchall()
 

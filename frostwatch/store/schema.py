@@ -154,6 +154,11 @@ CREATE TABLE ack_codes (
 );
 CREATE INDEX ack_codes_alert ON ack_codes(alert_key);
 """,
+    5: """
+-- a repeat's or escalation's own text-message body (frostwatch/alerts/restate.py): the block's
+-- figures as of the repeat, not of the first notice; NULL sends the alert's short form
+ALTER TABLE deliveries ADD COLUMN short_body TEXT;
+""",
 }
 
 SCHEMA_VERSION = max(MIGRATIONS)
