@@ -1,10 +1,13 @@
 """Short acknowledgement codes: "Ack: reply K7QM4X", answered from a phone with one text message.
 
-Each delivery of an alert to one recipient on one channel gets a code of its own: six characters
-from an alphabet without look-alikes (no 0/O, 1/I/L or U), at least one digit and one letter (so
-no word of a reply is mistaken for a code), random (`secrets`), stored in `ack_codes` with the
-alert, the recipient and the channel, and spent by its first use. It expires with the night
-(`DEFAULT_TTL_S`). A retry of the same delivery carries the same code.
+Each alert has one code per recipient, the same on every channel (the text message, the email,
+the push) and in every repeat and escalation: six characters from an alphabet without look-alikes
+(no 0/O, 1/I/L or U), at least one digit and one letter (so no word of a reply is mistaken for a
+code), random (`secrets`), stored in `ack_codes` with the alert, the recipient and the channel it
+was first sent on, and spent by its first use. It expires with the night (`DEFAULT_TTL_S`).
+Channels without a recipient (a siren, the console) share the alert's broadcast code. A code
+stays tied to one person, so a reply is logged as theirs and taken only from their phone. Stores
+written before hold a code per delivery; each of them still acknowledges its alert.
 
     code = code_for_delivery(store, alert_key, channel, recipient, seq, now_utc)
     ok, message = acknowledge_code(store, cfg, "ok k7qm4x", now_utc, via="sms", source="gateway", sender="+15550100")
@@ -68,20 +71,22 @@ def looks_like_code(text: str) -> bool:
 
 def code_for_delivery(store: Store, alert_key: str, channel: str, recipient: str, seq: int, now_utc: dt.datetime,
                       ttl_s: int = DEFAULT_TTL_S) -> str:
-    """The code of one delivery (alert, channel, recipient, seq): made on first use, the same on
-    every retry. An expired code that happens to be drawn again is replaced."""
+    """The code a delivery (alert, channel, recipient, seq) carries: the alert's code for that
+    recipient, made on the first delivery to them and the same on every channel, every repeat,
+    escalation and retry while it lives (the text message and the email of one alert show one
+    code). Once it has expired, the next delivery draws a new one."""
     now_ms = to_ms(now_utc)
-    known = stored_acks.delivery_code(store, alert_key, channel, recipient, seq)
+    known = stored_acks.live_code(store, alert_key, recipient, now_ms)
     if known:
         return known
     for _ in range(20):
         code = new_code()
         try:
-            stored_acks.add_code(store, code, alert_key, channel, recipient, seq, now_ms, now_ms + ttl_s * 1000)
-            return code
+            return stored_acks.add_recipient_code(store, code, alert_key, channel, recipient, seq, now_ms,
+                                                  now_ms + ttl_s * 1000)
         except sqlite3.IntegrityError:
-            # another process made this delivery's code meanwhile, or a live code was drawn
-            known = stored_acks.delivery_code(store, alert_key, channel, recipient, seq)
+            # a live code of another alert or recipient was drawn: draw again
+            known = stored_acks.live_code(store, alert_key, recipient, now_ms)
             if known:
                 return known
     raise RuntimeError("could not draw an unused acknowledgement code")
@@ -152,5 +157,5 @@ def acknowledge_code(store: Store, cfg, text: str, now_utc: dt.datetime, via: st
         return _refuse(store, now_utc, via, source, f"{code} has already been used", code, guess=False)
     if not known:
         return _refuse(store, now_utc, via, source, f"no alert {key} in this store", code, guess=False)
-    log.warning("acknowledged %s by %s via %s (code sent on %s)", key, who, via, channel)
+    log.warning("acknowledged %s by %s via %s (code first sent on %s)", key, who, via, channel)
     return True, f"acknowledged {key} for {who}; repeats and escalation of this alert stop"

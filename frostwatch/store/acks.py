@@ -30,27 +30,42 @@ def spend_mark(c: sqlite3.Connection, mark: str, alert_key: str, who: str, via: 
     )
 
 
-def delivery_code(store: Store, alert_key: str, channel: str, recipient: str, seq: int) -> str | None:
-    """The code already drawn for one delivery, None when there is none yet."""
+def live_code(store: Store, alert_key: str, recipient: str, now_ms: int) -> str | None:
+    """The code an alert already has for a recipient (the first drawn that has not expired, on
+    whichever channel or repeat it was drawn), None when there is none."""
     with store.lock:
         row = store.conn.execute(
-            "SELECT code FROM ack_codes WHERE alert_key=? AND channel=? AND recipient=? AND seq=?",
-            (alert_key, channel, recipient, seq),
+            "SELECT code FROM ack_codes WHERE alert_key=? AND recipient=? AND expires_utc_ms >= ? "
+            "ORDER BY issued_utc_ms, code LIMIT 1",
+            (alert_key, recipient, now_ms),
         ).fetchone()
     return row[0] if row else None
 
 
-def add_code(store: Store, code: str, alert_key: str, channel: str, recipient: str, seq: int,
-             issued_ms: int, expires_ms: int) -> None:
-    """Store a new code for one delivery, replacing an expired code that was drawn again; raises
-    sqlite3.IntegrityError when the code is live or the delivery has one already."""
+def add_recipient_code(store: Store, code: str, alert_key: str, channel: str, recipient: str, seq: int,
+                       issued_ms: int, expires_ms: int) -> str:
+    """Store `code` as the alert's code for a recipient unless a live one is there already (made
+    meanwhile by another channel's worker), in one transaction; returns the code that holds.
+    An expired code drawn again is replaced; raises sqlite3.IntegrityError when `code` is live
+    for another alert or recipient."""
     with store.transaction() as c:
+        row = c.execute(
+            "SELECT code FROM ack_codes WHERE alert_key=? AND recipient=? AND expires_utc_ms >= ? "
+            "ORDER BY issued_utc_ms, code LIMIT 1",
+            (alert_key, recipient, issued_ms),
+        ).fetchone()
+        if row:
+            return row[0]
         c.execute("DELETE FROM ack_codes WHERE code=? AND expires_utc_ms < ?", (code, issued_ms))
+        # a delivery that had a code of its own before (an expired one) gives its row up
+        c.execute("DELETE FROM ack_codes WHERE alert_key=? AND channel=? AND recipient=? AND seq=? "
+                  "AND expires_utc_ms < ?", (alert_key, channel, recipient, seq, issued_ms))
         c.execute(
             "INSERT INTO ack_codes(code, alert_key, channel, recipient, seq, issued_utc_ms, expires_utc_ms) "
             "VALUES (?,?,?,?,?,?,?)",
             (code, alert_key, channel, recipient, seq, issued_ms, expires_ms),
         )
+    return code
 
 
 def count_ack_events(store: Store, subject: str, since_ms: int, detail_contains: str | None = None) -> int:
