@@ -11,7 +11,8 @@ suits the usual single-cell lithium or 3 x AA sensor nodes (from memory; set you
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import json
+from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
@@ -130,6 +131,31 @@ def assess(
         if not any(p.key.endswith((":silent", ":stuck", ":range")) for p in ps):
             healthy.add(st.id)
     return HealthReport(tuple(problems), frozenset(healthy))
+
+
+SENSOR_KINDS = ("silent", "stuck", "range", "battery")  # the problems of one station (key "STATION:kind")
+
+
+def problems_to_json(active: dict[str, Problem]) -> str:
+    """The open problems as JSON text (the daemon keeps them in the store across a restart)."""
+    return json.dumps({k: asdict(p) for k, p in sorted(active.items())}, sort_keys=True)
+
+
+def problems_from_json(text: str, station_ids: set[str]) -> dict[str, Problem]:
+    """`problems_to_json` read back: key -> Problem. A sensor problem of a station no longer in
+    the config is left out (it would "recover" at the first check). Raises ValueError when the
+    text is not such a document."""
+    doc = json.loads(text)
+    if not isinstance(doc, dict):
+        raise ValueError("not an object of problems")
+    out: dict[str, Problem] = {}
+    for k, v in doc.items():
+        p = Problem(key=str(v["key"]), subject=str(v["subject"]), detail=str(v["detail"]), urgent=bool(v.get("urgent")))
+        station, _, kind = k.partition(":")
+        if kind in SENSOR_KINDS and station not in station_ids:
+            continue
+        out[k] = p
+    return out
 
 
 def transitions(active: dict[str, Problem], report: HealthReport) -> tuple[list[Problem], list[Problem], dict[str, Problem]]:

@@ -76,6 +76,7 @@ class Core:
         self._saved_states: dict = {}  # block -> its rule state as last stored or read back (frozen)
         self._sequences_checked: str | None = None  # the night whose alert numbering was checked
         self._restore_rule_states()
+        self._restore_health()
 
     # -- the alert rules' memory across a restart --------------------------------------------------
     def _restore_rule_states(self) -> None:
@@ -356,6 +357,24 @@ class Core:
         return n
 
     # -- health --------------------------------------------------------------------------------
+    def _restore_health(self) -> None:
+        """The health problems open when the last run stopped: a restart continues each incident
+        (a sensor silent since 01:12 stays one incident from 01:12, recorded and alerted once)
+        instead of raising it again as new. A problem that cleared while the daemon was down is
+        cleared, once, at the first check."""
+        try:
+            text = daemon_state.health_problems(self.store)
+            if text:
+                self.health_active = health.problems_from_json(text, {s.id for s in self.cfg.stations})
+        except Exception:  # noqa: BLE001 - the checks then start afresh, as before
+            log.exception("could not read the stored health problems; the health checks start afresh")
+
+    def _save_health(self) -> None:
+        try:
+            daemon_state.save_health_problems(self.store, health.problems_to_json(self.health_active))
+        except Exception:  # noqa: BLE001 - the next raise or clear tries again
+            log.exception("could not store the open health problems")
+
     def check_health(self, now: dt.datetime, out_of_range: dict[str, int], extra: list[health.Problem] = (),
                      heard_s: dict[str, float] | None = None, judge_silence: bool = True,
                      rejected: dict[str, tuple[float, str]] | None = None) -> list[health.Problem]:
@@ -377,5 +396,7 @@ class Core:
             self.outbox.submit_health(p.subject, p.detail, now, urgent=p.urgent)
         for p in cleared:
             self.outbox.submit_health(p.subject, f"recovered ({p.detail.split(';')[0]} no longer)", now)
+        if raised or cleared:  # after the alerts are queued: a stored problem always has its alert
+            self._save_health()
         return raised
 

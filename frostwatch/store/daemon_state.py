@@ -58,6 +58,19 @@ def rule_states(store: Store) -> dict[str, str]:
     return {k[len(RULE_STATE_META):]: v for k, v in rows}
 
 
+HEALTH_META = "health.open"  # the daemon's open health problems (JSON, frostwatch.health.problems_to_json)
+
+
+def save_health_problems(store: Store, text: str) -> None:
+    """The open health problems (JSON text), replacing the ones stored before."""
+    store.set_meta(HEALTH_META, text)
+
+
+def health_problems(store: Store) -> str | None:
+    """The open health problems as last stored (JSON text), None when none were stored."""
+    return store.get_meta(HEALTH_META)
+
+
 def last_alert_sequence(store: Store, block: str, night_key: str) -> int:
     """The highest sequence number among the stored alert keys `BLOCK/NIGHT/NNN-level` (0 if none)."""
     prefix = f"{block}/{night_key}/"
