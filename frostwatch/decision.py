@@ -22,7 +22,7 @@ from frostwatch import instant_runs
 from frostwatch.advice import codec_shapes
 from frostwatch.advice.codec import from_dict, to_dict
 from frostwatch.advice.plan import PLAN_VERSION, AdvicePlan, Step
-from frostwatch.models import Projection
+from frostwatch.models import Projection, SensorDoubt
 from frostwatch.quick_init import quick_init
 
 DECISION_VERSION = 1
@@ -39,6 +39,7 @@ class MonitorReason(StrEnum):
     NO_DATA = "no-data"  # no crop-height reading in the window looked at
     SILENT = "silent"  # the crop-height sensors went silent
     STUCK = "stuck"  # the crop-height sensors report a flat, stuck value
+    IMPLAUSIBLE = "implausible"  # its crop-height reading is far out of line with the farm (forecast.crosscheck)
     DAEMON_STOPPED = "daemon-stopped"  # readers only: the daemon's heartbeat is not current
     NO_EVALUATION = "no-evaluation"  # readers only: no recent decision stored for the block
 
@@ -48,7 +49,8 @@ class MonitorReason(StrEnum):
 class Monitoring:
     """Whether anyone is watching the block: its crop-height sensor fresh and (for readers) the
     daemon alive. `since_utc` is when it stopped being watched (the last reading, for a silent
-    sensor); `fresh_until_utc` is when the newest reading goes stale if nothing new comes."""
+    sensor); `fresh_until_utc` is when the newest reading goes stale if nothing new comes; `doubts`
+    are the block's crop-height sensors the cross-check doubts (left out, or reported and kept)."""
 
     monitored: bool
     reason: MonitorReason
@@ -56,6 +58,7 @@ class Monitoring:
     since_utc: dt.datetime | None = None
     last_reading_utc: dt.datetime | None = None
     fresh_until_utc: dt.datetime | None = None
+    doubts: tuple[SensorDoubt, ...] = ()  # its crop-height sensors the farm's cross-check doubts
 
 
 @quick_init

@@ -1,4 +1,5 @@
-"""Sensor health rules (pure): silent, stuck, out of range, low battery, for a maintainer. Whether a
+"""Sensor health rules (pure): silent, stuck, out of range, low battery, out of line with the farm
+(the evaluation's cross-check, `doubt_problems`), for a maintainer. Whether a
 block is left unwatched is each evaluation's decision (`frostwatch.monitoring`, raised by the alert
 rules as the block's `unmonitored` alert), not a health problem.
 
@@ -133,7 +134,7 @@ def assess(
     return HealthReport(tuple(problems), frozenset(healthy))
 
 
-SENSOR_KINDS = ("silent", "stuck", "range", "battery")  # the problems of one station (key "STATION:kind")
+SENSOR_KINDS = ("silent", "stuck", "range", "battery", "implausible")  # the problems of one station (key "STATION:kind")
 
 
 def problems_to_json(active: dict[str, Problem]) -> str:
@@ -156,6 +157,15 @@ def problems_from_json(text: str, station_ids: set[str]) -> dict[str, Problem]:
             continue
         out[k] = p
     return out
+
+
+def doubt_problems(doubts: dict, display) -> list[Problem]:
+    """The thermometers the last evaluation's cross-check doubts (`forecast.crosscheck`, through
+    `pipeline.Evaluation.doubts`), as problems for a maintainer: the same decision the blocks
+    were judged by, worded as the block's own alert words it (`advice.message.doubt_words`)."""
+    from frostwatch.advice.message import doubt_words
+
+    return [Problem(f"{sid}:implausible", sid, doubt_words(x, display)) for sid, x in sorted(doubts.items())]
 
 
 def transitions(active: dict[str, Problem], report: HealthReport) -> tuple[list[Problem], list[Problem], dict[str, Problem]]:

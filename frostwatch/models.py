@@ -56,6 +56,29 @@ class StationState:
 
 @quick_init
 @dataclass(frozen=True)
+class SensorDoubt:
+    """A thermometer the farm's cross-check does not believe (`frostwatch.forecast.crosscheck`).
+
+    `kind`: "warm" (far warmer than the farm's other thermometers at the same instant: left out),
+    "cold" (far colder: reported, still used, a colder reading is never ignored) or "jump" (no other
+    thermometer to compare with, and it rose by more than any weather does between two readings and
+    stayed up: left out). `peers_low_c`/`peers_high_c`: the range of the farm's other trusted
+    thermometers then (`peers` of them); `jump_from_c`, `jump_at_utc`: the reading before the jump
+    and when the jump came."""
+
+    station: str
+    air_temp_c: float
+    kind: str
+    left_out: bool
+    peers_low_c: float | None = None
+    peers_high_c: float | None = None
+    peers: int = 0
+    jump_from_c: float | None = None
+    jump_at_utc: dt.datetime | None = None
+
+
+@quick_init
+@dataclass(frozen=True)
 class Projection:
     """A block's projected night from one evaluation.
 

@@ -25,8 +25,8 @@ from frostwatch.alerts.rules import BlockAlertState, protection_ran, rule_settin
 from frostwatch.config import Config
 from frostwatch.decision import Decision, summarise_projection
 from frostwatch.display import Display
-from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series
-from frostwatch.models import Alert, Projection
+from frostwatch.forecast import PROTECTION_QUANTITIES, Calibration, Learner, NightRecord, Series, crosscheck
+from frostwatch.models import Alert, Projection, SensorDoubt
 from frostwatch.monitoring import block_monitoring, inputs_utc
 from frostwatch.night import (
     LOOKBACK,
@@ -101,6 +101,7 @@ class Evaluation:
     plans: list[AdvicePlan] = field(default_factory=list)
     decisions: list[Decision] = field(default_factory=list)
     alerts: list[Alert] = field(default_factory=list)
+    doubts: dict[str, SensorDoubt] = field(default_factory=dict)  # the farm's cross-check (forecast.crosscheck)
 
 
 class Evaluator:
@@ -180,15 +181,17 @@ class Evaluator:
                 out.append(rec)
         return out
 
-    def reference_inputs(self, block, window: Series, night: Night, now_s: float) -> dict:
+    def reference_inputs(self, block, window: Series, night: Night, now_s: float, doubts: dict | None = None) -> dict:
         """For a sprinkler block after sunrise: the reference air outside the wetted area (its
-        station named even when silent) and the night's driest measured dew point (the fallback's
-        dry air); nothing for other blocks or before sunrise."""
+        station named even when silent, or left out by the farm's cross-check, `doubts`) and the
+        night's driest measured dew point (the fallback's dry air); nothing for other blocks or
+        before sunrise."""
         if block.protection not in ("overtree_sprinkler", "undertree_sprinkler") or now_s < night.sunrise_utc.timestamp():
             return {}
+        out = crosscheck.left_out(doubts or {})
         st = reference.reference_station_for(self.cfg, block)
-        ref = None if st is None else reference.reference_air(window, st.id, now_s, self.pressure_hpa)
-        ids = [s.id for s in self.cfg.stations_of(block.id)] + [s.id for s in self.cfg.stations_of(None)]
+        ref = None if st is None or st.id in out else reference.reference_air(window, st.id, now_s, self.pressure_hpa)
+        ids = [s.id for s in self.cfg.stations_of(block.id) + self.cfg.stations_of(None) if s.id not in out]
         driest = reference.driest_dew_point_c(window, ids, night.sunset_utc.timestamp(), now_s)
         return dict(reference=ref, reference_station=None if st is None else st.id, driest_dew_point_c=driest)
 
@@ -231,18 +234,20 @@ class Evaluator:
         else:
             window, memo = self.memo.window(series, start_s, now_utc.timestamp())
         dusk_memo = self._dusk_memo(night, unchanged_before_s)
-        ev = Evaluation(now_utc, night)
         now_s = now_utc.timestamp()
+        # the farm's thermometers checked against each other once: every block and screen the same
+        doubts = crosscheck.sensor_doubts(self.cfg, window, now_s, memo)
+        ev = Evaluation(now_utc, night, doubts=doubts)
         for block in self.cfg.blocks:
             proj = forecast.project_block(
                 now_utc, block, self.cfg, window, night, self.calibration(block.id), self.pressure_hpa, memo=memo,
-                dusk_memo=dusk_memo,
+                dusk_memo=dusk_memo, doubts=doubts,
             )
             running = protection_running(window, [s.id for s in self.cfg.stations_of(block.id)], now_s)
-            ref_kw = self.reference_inputs(block, window, night, now_s)
+            ref_kw = self.reference_inputs(block, window, night, now_s, doubts)
             plan = plan_advice(proj, block, now_utc, self.pressure_hpa, series=window, protection_running=running,
                                **ref_kw)
-            mon = block_monitoring(self.cfg, block, window, now_s, memo)
+            mon = block_monitoring(self.cfg, block, window, now_s, memo, doubts)
             state = self.states.get(block.id)
             if state is None:
                 state = BlockAlertState()

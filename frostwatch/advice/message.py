@@ -17,6 +17,7 @@ from frostwatch.advice.plan import BASE_CAUTIONS, AdvicePlan, Step
 from frostwatch.advice.render import Notice
 from frostwatch.decision import Monitoring, MonitorReason
 from frostwatch.display import Display
+from frostwatch.models import SensorDoubt
 from frostwatch.physics import humidity
 
 
@@ -130,9 +131,51 @@ def monitoring_reason(m: Monitoring, d: Display, now_utc: dt.datetime, daemon_st
         return f"no reading at all from its crop-height sensor ({stations})"
     if m.reason is MonitorReason.STUCK:
         return f"its crop-height sensor ({stations}) reports a stuck, flat value"
+    if m.reason is MonitorReason.IMPLAUSIBLE:
+        left = [x for x in m.doubts if x.left_out]
+        said = "; ".join(doubt_words(x, d) for x in left) if left else "its reading is far out of line with the farm"
+        return f"its crop-height sensor is not trusted: {said}"
     when = (_ago(d, m.last_reading_utc, now_utc) if relative else d.time(m.last_reading_utc)) if m.last_reading_utc else ""
     last = f" since {when}" if when else ""
     return f"no reading from its crop-height sensor ({stations}){last}"
+
+
+SET_UNIT = "Set its unit (README: Live readings over MQTT)"
+
+
+def _others(x: SensorDoubt, d: Display) -> str:
+    span = d.temp(x.peers_low_c) if d.temp(x.peers_low_c) == d.temp(x.peers_high_c) else \
+        f"{d.temp(x.peers_low_c).split(' ')[0]} to {d.temp(x.peers_high_c)}"
+    return f"the farm's other thermometer reads {span}" if x.peers == 1 else f"the farm's other thermometers read {span}"
+
+
+def _as_fahrenheit(x: SensorDoubt, d: Display) -> str:
+    # what the grower can check: the number it sent (a bare number is taken as °C) read as °F
+    if d.us:
+        return f"it sent {x.air_temp_c:g}, which was taken as °C"
+    return f"{x.air_temp_c:g} °F is {d.temp((x.air_temp_c - 32.0) / 1.8)}"
+
+
+def doubt_words(x: SensorDoubt, d: Display) -> str:
+    """One plain sentence on a thermometer the farm's cross-check doubts, with the likely cause:
+    'north-low reads 38.5 °C while the farm's other thermometers read 3.4 to 4.1 °C: is it sending
+    °F (38.5 °F is 3.6 °C)? Set its unit (...); it is left out until it agrees'."""
+    from frostwatch.forecast.crosscheck import COLD, JUMP, fahrenheit_fits
+
+    if x.kind == JUMP:
+        cause = (f"is it sending °F now ({_as_fahrenheit(x, d)})? {SET_UNIT}" if fahrenheit_fits(x)
+                 else "check it (in the sun, near a heater, faulty?)")
+        return (f"{x.station} jumped from {d.temp(x.jump_from_c)} to {d.temp(x.air_temp_c)} at {d.time(x.jump_at_utc)}, "
+                f"faster than any weather, and no other thermometer on the farm can confirm it: {cause}; "
+                "it is left out tonight unless it comes back down")
+    head = f"{x.station} reads {d.temp(x.air_temp_c)} while {_others(x, d)}"
+    if x.kind == COLD:
+        return (f"{head}, colder than any weather explains: check it (wet, on the ground, damaged?); "
+                "it is still used, as a colder reading is never ignored")
+    if fahrenheit_fits(x):
+        return f"{head}: is it sending °F ({_as_fahrenheit(x, d)})? {SET_UNIT}; it is left out until it agrees"
+    return (f"{head}, warmer than any weather explains: check it (in the sun, near a heater, a wrong unit?); "
+            "it is left out until it agrees")
 
 
 def not_monitored_headline(block_id: str, since_utc: dt.datetime | None, d: Display) -> str:

@@ -190,7 +190,8 @@ def short_body(block_id: str, level: str, step: Step, plan: AdvicePlan, d: Displ
 
 
 def not_monitored_body(block_id: str, level: str, since_utc: dt.datetime | None, stations: tuple[str, ...],
-                       plan: AdvicePlan | None, d: Display, reason: MonitorReason | None = None) -> str:
+                       plan: AdvicePlan | None, d: Display, reason: MonitorReason | None = None,
+                       doubts: tuple = ()) -> str:
     """'hill GO LOOK: no reading since 02:10 (hill-low); judge the block by hand. Act at -2.4C.'
     `reason` words a sensor never heard ("no reading yet": `since_utc`
     is then only when frostwatch started looking) and a stuck one ("sensor stuck")."""
@@ -199,12 +200,26 @@ def not_monitored_body(block_id: str, level: str, since_utc: dt.datetime | None,
         what = f"no reading yet{where}"
     elif reason == MonitorReason.STUCK:
         what = f"sensor stuck{where}"
+    elif reason == MonitorReason.IMPLAUSIBLE and any(x.left_out for x in doubts):
+        x = next(x for x in doubts if x.left_out)
+        what = _doubt_short(x, d)
     elif reason == MonitorReason.NO_CROP_SENSOR:
         what = "no crop-height sensor set up"
     else:
         what = f"no reading{f' since {d.time(since_utc)}' if since_utc is not None else ''}{where}"
     line = f"Act at {d.plain_temp(plan.line_c)}" if plan is not None else ""
     return _finish(f"{block_id} {level_word(level)}", f"{what}; judge the block by hand", line)
+
+
+def _doubt_short(x, d: Display) -> str:
+    """'north-low reads 38.5C, farm 3.4-4.1C: sending F?' (a sensor the cross-check left out)."""
+    from frostwatch.forecast.crosscheck import JUMP, fahrenheit_fits
+
+    cause = "sending F?" if fahrenheit_fits(x) else "check it"
+    if x.kind == JUMP:
+        return f"{x.station} jumped {d.plain_temp(x.jump_from_c)} to {d.plain_temp(x.air_temp_c)}: {cause}"
+    lo, hi = d.plain_temp(x.peers_low_c), d.plain_temp(x.peers_high_c)
+    return f"{x.station} reads {d.plain_temp(x.air_temp_c)}, farm {lo if lo == hi else f'{lo[:-1]}-{hi}'}: {cause}"
 
 
 def notice_body(block_id: str, level: str, text: str) -> str:

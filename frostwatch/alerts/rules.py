@@ -199,7 +199,7 @@ class _Run:
         key = self._key(UNMONITORED)
         msg = not_monitored(self.block.id, m, self.plan, self.d, self.now, self.state.level)
         short = not_monitored_body(self.block.id, UNMONITORED, m.since_utc, m.stations, self.plan, self.d,
-                                   m.reason)
+                                   m.reason, m.doubts)
         self.alerts.append(Alert(time_utc=self.now, block=self.block.id, level=UNMONITORED, rank=rank_of(UNMONITORED),
                                  advice=msg.action, message=msg.text, key=key, short=short))
         self.set(unmonitored_key=key)

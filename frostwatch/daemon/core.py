@@ -61,6 +61,7 @@ class Core:
         self.last_eval_utc: dt.datetime | None = None
         self.evaluations = 0
         self.last_projection: dict[str, float | None] = {}
+        self.doubts: dict = {}  # the last evaluation's cross-check (forecast.crosscheck): raised by check_health
         self.health_active: dict[str, health.Problem] = {}
         self.rules = health.HealthRules(
             silent_after_intervals=settings.silent_after_intervals,
@@ -200,6 +201,7 @@ class Core:
                 self._save_rule_states()
             self.last_eval_utc = now
             self.evaluations += 1
+            self.doubts = ev.doubts
             for p in ev.projections:
                 self.last_projection[p.block] = p.predicted_min_c
         if not stored:  # nothing a grower would notice changed: screens keep the stored decision
@@ -390,7 +392,11 @@ class Core:
         report = health.assess(self.cfg, series, now.timestamp(), out_of_range, self.rules, heard_s, judge_silence,
                                rejected)
         held = () if judge_silence else tuple(p for k, p in self.health_active.items() if k.endswith(":silent"))
-        report = health.HealthReport(report.problems + tuple(extra) + held, report.healthy_stations)
+        if self.last_eval_utc is None:  # no evaluation yet in this run: a verdict restored from the last run stands
+            doubted = tuple(p for k, p in self.health_active.items() if k.endswith(":implausible"))
+        else:  # the last evaluation's own verdict (forecast.crosscheck), never a second opinion
+            doubted = tuple(health.doubt_problems(self.doubts, self.evaluator.display))
+        report = health.HealthReport(report.problems + doubted + tuple(extra) + held, report.healthy_stations)
         raised, cleared, self.health_active = health.transitions(self.health_active, report)
         for p in raised:
             self.outbox.submit_health(p.subject, p.detail, now, urgent=p.urgent)

@@ -24,7 +24,7 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
-from frostwatch.forecast import carry, settings
+from frostwatch.forecast import carry, crosscheck, settings
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import Calibration
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
@@ -179,6 +179,7 @@ def project_block(
     curves: bool = True,
     memo: dict | None = None,
     dusk_memo: dict | None = None,
+    doubts: dict | None = None,
 ) -> Projection:
     """Project `block`'s crop-height air (and wet bulb) from `now_utc` to sunrise.
 
@@ -194,8 +195,12 @@ def project_block(
     p_hpa = pressure_hpa or float(humidity.pressure_hpa_from_elevation(cfg.site.elevation_m))
     stations = cfg.stations_of(block.id)
     site_stations = cfg.stations_of(None)
-    states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in stations]
-    site_states = [carry.station_state(s, series, now_s, fc.stale_after_intervals, memo) for s in site_stations]
+    # a thermometer far out of line with the rest of the farm does not speak (`crosscheck`)
+    doubts = crosscheck.sensor_doubts(cfg, series, now_s, memo) if doubts is None else doubts
+    states = [crosscheck.trusted(carry.station_state(s, series, now_s, fc.stale_after_intervals, memo), doubts)
+              for s in stations]
+    site_states = [crosscheck.trusted(carry.station_state(s, series, now_s, fc.stale_after_intervals, memo), doubts)
+                   for s in site_stations]
     notes = [p for s in states for p in s.problems]
     speaker = speaking_station(states)
     base = dict(time_utc=now_utc, block=block.id, sunset_utc=night.sunset_utc, sunrise_utc=night.sunrise_utc)
@@ -323,7 +328,9 @@ def project_block(
         i = int(curve.argmin())
         tmin_c = float(curve[i])
         tmin_at = _utc(float(grid_s[i]))
-        dew_point_stations = [speaker.station] + [s.station for s in states + site_states if s is not speaker]
+        out = crosscheck.left_out(doubts)  # a sensor in the wrong unit gives no dew point either
+        dew_point_stations = [speaker.station] + [s.station for s in states + site_states
+                                                  if s is not speaker and s.station not in out]
         crossings, wet_c, td_trend, td_at_start = block_crossings(
             block, grid_s, curve, cold_curve, tmin_at, air_c, td_c, p_hpa, series, dew_point_stations, now_s)
 
@@ -335,7 +342,8 @@ def project_block(
         # are not all read for every block)
         for st in cfg.stations_with_role("tower"):
             if st.id not in tower_states:
-                tower_states[st.id] = carry.station_state(st, series, now_s, fc.stale_after_intervals, memo)
+                tower_states[st.id] = crosscheck.trusted(
+                    carry.station_state(st, series, now_s, fc.stale_after_intervals, memo), doubts)
     choice = towers_mod.tower_for_block(cfg, block, tower_states)
     outlook = inv.inversion_outlook(
         tower_states[choice.station] if choice is not None else None, series, air_c, t0_s, now_s, sunrise_s,

@@ -10,6 +10,7 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import Block, Config, Station
+from frostwatch.forecast import crosscheck
 from frostwatch.forecast.curves import _utc, evening_curve_c
 from frostwatch.forecast.features import feature_vector
 from frostwatch.forecast.nowcast import fall_before_min_c, training_samples_many
@@ -80,7 +81,9 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
     end_s = sunrise_s + 3600.0
     stations = cfg.stations_of(block.id)
     site = [s for s in cfg.stations if s.block is None]
-    states = [station_state(s, series, dusk_s, cfg.forecast.stale_after_intervals) for s in stations]
+    doubts = crosscheck.sensor_doubts(cfg, series, dusk_s)  # the projection's own cross-check at dusk
+    states = [crosscheck.trusted(station_state(s, series, dusk_s, cfg.forecast.stale_after_intervals), doubts)
+              for s in stations]
     speaker = speaking_station(states)
     if speaker is None:
         return None
@@ -131,7 +134,8 @@ def _night_record_fields(block: Block, cfg: Config, series: Series, night: Night
 def _inversion_at_s(block: Block, cfg: Config, series: Series, t_s: float, air_c: float) -> float | None:
     """Tower minus crop-height air at `t_s` (a past night's minimum), on the tower the block's
     projection would use then (`frostwatch.towers`); None without a healthy tower reading."""
-    states = {s.id: station_state(s, series, t_s, cfg.forecast.stale_after_intervals)
+    doubts = crosscheck.sensor_doubts(cfg, series, t_s)
+    states = {s.id: crosscheck.trusted(station_state(s, series, t_s, cfg.forecast.stale_after_intervals), doubts)
               for s in cfg.stations if s.role == "tower"}
     choice = towers_mod.tower_for_block(cfg, block, states)
     if choice is None:
