@@ -178,6 +178,7 @@ def test_replay_a_crop_sensor_sending_fahrenheit_never_shows_its_block_safe(tmp_
     # the river block's morning stop rule does not take hill-low (its reference station) as its wet bulb
     river_stop = [a for a in doc["alerts"] if a["block"] == "river" and a["level"] == "may-stop"]
     assert river_stop and "hill-low" not in river_stop[0]["short"], river_stop
+    assert "the reference station hill-low has no fresh reading frostwatch can trust" in river_stop[0]["message"]
     # the other blocks are judged as before (the cross-check leaves them alone)
     assert {a["block"] for a in doc["alerts"] if a["level"] == "all-hands"} == {"east"}
     decided = page.split('id="decisions"', 1)[1].split("</table>", 1)[0]

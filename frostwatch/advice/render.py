@@ -234,7 +234,7 @@ def _sprinkler_stop_action(step: Step, plan: AdvicePlan, d: Display) -> str:
         return (f"keep the sprinklers running: {wb} is above T10 but not yet rising by "
                 f"{d.delta(s.min_rise_c_per_h)} an hour{_trend(d, trend)}")
     # no reference air: the block's own air must pass the fallback stop temperature
-    why = (f"the reference station {s.reference_station} has no fresh reading" if s.reference_silent
+    why = (f"the reference station {s.reference_station} has no fresh reading frostwatch can trust" if s.reference_silent
            else "there is no reference station outside the sprinkled area")
     basis = (f"the spray wets the block's own air ({why}), so frostwatch waits for it to pass "
              f"{d.temp(s.limit_c)}, well above the usual stop temperature")
