@@ -184,6 +184,10 @@ def test_replay_a_crop_sensor_sending_fahrenheit_never_shows_its_block_safe(tmp_
     decided = page.split('id="decisions"', 1)[1].split("</table>", 1)[0]
     assert "NOT MONITORED: its crop-height sensor is not trusted: hill-low reads" in decided
     assert "is it sending °F" in decided
+    # the night's summary: no minimum from the °F readings (before: "minimum 27.7 °C ... 0 min at or below T10")
+    (hill_night,) = [n for n in doc["nights"] if n["block"] == "hill"]
+    assert hill_night["min_c"] is None and hill_night["left_out"] == ["hill-low"], hill_night
+    assert "no trusted crop-height reading this night (hill-low out of line" in page
 
 
 def test_replay_a_genuine_cold_air_pocket_stays_trusted_and_is_warned_for(tmp_path):

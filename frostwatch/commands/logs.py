@@ -84,8 +84,9 @@ def cmd_replay(args) -> int:
     from frostwatch.display import Display
     from frostwatch.night import night_of_date
     from frostwatch.replay import replay_series
-    from frostwatch.reports.summary import block_night
+    from frostwatch.reports.summary import block_night, left_out_of, no_minimum_words
     from frostwatch.store import Store, from_ms
+    from frostwatch.store import decisions as stored_decisions
     from frostwatch.store.bulk import series_of_columns
 
     cfg = _load(args)
@@ -107,8 +108,13 @@ def cmd_replay(args) -> int:
         for nd in nights:
             night = night_of_date(cfg.site.latitude, cfg.site.longitude, cfg.site.tz, nd)
             for b in cfg.blocks:
-                bn = block_night(b, cfg, series, night)
+                # a station the night's decisions did not trust gives no minimum (forecast.crosscheck)
+                left = left_out_of(stored_decisions.changes_between(
+                    store, night.sunset_utc - dt.timedelta(hours=1), night.sunrise_utc + dt.timedelta(hours=6), b.id))
+                bn = block_night(b, cfg, series, night, left_out=left)
                 summaries.append({"night": nd.isoformat(), "block": b.id, "station": bn.station,
+                                  "left_out": list(bn.left_out), "why_no_minimum": None if bn.min_c is not None
+                                  else no_minimum_words(bn),
                                   "min_c": None if bn.min_c is None else round(bn.min_c, 2), "min_at": _iso(bn.min_at_utc),
                                   "minutes_below_t10": bn.minutes_below_t10, "minutes_below_t90": bn.minutes_below_t90,
                                   "kill_10pct_c": b.kill_10pct_c})
@@ -163,7 +169,7 @@ def _print_summaries(summaries, d) -> None:
     print("\nNight summary per block:")
     for s in summaries:
         if s["min_c"] is None:  # never "minimum n/a at n/a": say what is missing
-            print(f"  {s['night']}  {s['block']:<10} no crop-height reading this night")
+            print(f"  {s['night']}  {s['block']:<10} {s['why_no_minimum']}")
             continue
         at = f" at {d.datetime(dt.datetime.fromisoformat(s['min_at'].replace('Z', '+00:00')))}" if s["min_at"] else ""
         print(f"  {s['night']}  {s['block']:<10} minimum {d.temp(s['min_c'])}{at} ({s['station']}); "

@@ -25,7 +25,7 @@ from frostwatch.pipeline import LOOKBACK
 from frostwatch.reports.panels import lower_panel
 from frostwatch.reports.plots import plot_block_night
 from frostwatch.reports.settings import INSURANCE_NOTICE_H, ReportSettings, report_settings
-from frostwatch.reports.summary import BlockNight, block_night, runs_from_acks
+from frostwatch.reports.summary import BlockNight, block_night, left_out_of, runs_from_acks
 from frostwatch.store import Store, from_ms
 from frostwatch.store import decisions as stored_decisions
 from frostwatch.store import reports as q
@@ -101,13 +101,16 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
     keys = [a["key"] for a in alerts]
     deliveries = q.deliveries_for(store, keys)
     acks = q.acks_for(store, keys)
+    changes = {b.id: stored_decisions.changes_between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id)
+               for b in cfg.blocks}
     sections = []
     for block in cfg.blocks:
         block_alerts = [a for a in alerts if a["block"] == block.id]
         ack_runs = None
         if block.protection != "none":
             ack_runs = runs_from_acks(block_alerts, acks, night.sunrise_utc + dt.timedelta(hours=2))
-        bn = block_night(block, cfg, series, night, ack_runs=ack_runs, energy_kw=settings.energy_kw.get(block.id))
+        bn = block_night(block, cfg, series, night, ack_runs=ack_runs, energy_kw=settings.energy_kw.get(block.id),
+                         left_out=left_out_of(changes[block.id]))
         projs = store.projections(night.sunset_utc, night.sunrise_utc, block.id)
         dusk_ms = int(night.dusk_utc.timestamp() * 1000)
         dusk = [p for p in projs if p["time_utc_ms"] >= dusk_ms and p["predicted_min_c"] is not None]
@@ -120,8 +123,7 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
                             night.sunrise_utc.timestamp() + 3 * 3600)
         sections.append(BlockSection(bn, dusk_c, proj_dicts, lower_note=lower.note, lower_shown=lower.shown))
     rows = q.readings_digest_rows(store, start, end)
-    changes = [c for b in cfg.blocks
-               for c in stored_decisions.changes_between(store, night.sunset_utc - dt.timedelta(hours=1), end, b.id)]
+    changes = [c for b in cfg.blocks for c in changes[b.id]]
     return NightData(
         cfg=cfg, settings=settings, display=d, night=night, sections=sections, alerts=alerts,
         deliveries=deliveries, acks=acks,

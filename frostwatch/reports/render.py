@@ -17,6 +17,7 @@ from frostwatch.advice.render import GENERAL_CAUTIONS as CAUTIONS
 from frostwatch.advice.render import level_word, method_name
 from frostwatch.alerts.levels import rank_of
 from frostwatch.night import sun_times_words
+from frostwatch.reports.summary import no_minimum_words
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
@@ -80,7 +81,7 @@ def _overview(data) -> str:
     for s in coldest_first(data.sections):
         bn = s.bn
         rows.append([(f'<a href="#block-{e(bn.block)}">{e(bn.block)}</a>', False),
-                     (d.temp(bn.min_c) if bn.min_c is not None else "no reading", True),
+                     (d.temp(bn.min_c) if bn.min_c is not None else "not trusted" if bn.left_out else "no reading", True),
                      (d.time(bn.min_at_utc) if bn.min_at_utc else "", True),
                      (f"{bn.minutes_below_t10:.0f} min", True), (f"{bn.minutes_below_t90:.0f} min", True)])
     return (stacked_table("blocks", ["block", "minimum", "at", "below T10", "below T90"], rows, "compact")
@@ -120,7 +121,7 @@ def _block_section(data, s) -> str:
         ("T10 / T90 (10 % / 90 % bud kill)", f"{d.temp(bn.kill_10pct_c)} / {d.temp(bn.kill_90pct_c)}"),
         ("coldest crop-height sensor", e(bn.station or "none reporting")),
         ("minimum", f'<span class="minimum">{d.temp(bn.min_c)}</span> at {d.time(bn.min_at_utc)}' if bn.min_c is not None
-         else "no crop-height reading this night"),
+         else e(no_minimum_words(bn))),
         ("minutes at or below T10", f"{bn.minutes_below_t10:.0f}"),
         ("minutes at or below T90", f"{bn.minutes_below_t90:.0f}"),
         ("dusk forecast error", err_txt),

@@ -108,6 +108,7 @@ class BlockNight:
     peak_flow_l_s: float | None
     fuel_l: float | None
     energy_kwh: float | None = None
+    left_out: tuple[str, ...] = ()  # its crop-height stations the night's decisions did not trust (forecast.crosscheck)
 
     @property
     def run_hours(self) -> float:
@@ -121,17 +122,23 @@ def block_night(
     night: Night,
     ack_runs: list[Run] | None = None,
     energy_kw: float | None = None,
+    left_out: frozenset[str] = frozenset(),
 ) -> BlockNight:
     """The night's figures for a block at its coldest crop-height station (sunset to sunrise + 2 h).
 
     Protection runs come from `sprinkler_running` / `wind_machine_running` readings; where the
     block has no such sensor, from `ack_runs` (estimated from acknowledgements) if given.
-    Fuel = block.fuel_l_per_h x run hours; energy = `energy_kw` x run hours.
+    Fuel = block.fuel_l_per_h x run hours; energy = `energy_kw` x run hours. A station in
+    `left_out` (the night's decisions did not trust it: `left_out_of`) gives no minimum: its
+    readings are not the air's (a sensor sending °F).
     """
     start, end = night.sunset_utc.timestamp(), night.sunrise_utc.timestamp() + 7200.0
     best = None
+    skipped = tuple(st.id for st in cfg.stations_of(block.id, role="crop") if st.id in left_out)
     for st in cfg.stations_of(block.id, role="crop"):
         key = (st.id, "air_temperature")
+        if st.id in left_out:
+            continue
         if key not in series:
             continue
         t, v = series[key]
@@ -164,10 +171,23 @@ def block_night(
     energy = energy_kw * hours if energy_kw else None
     if best is None:
         return BlockNight(block.id, block.crop, block.stage, None, block.kill_10pct_c, block.kill_90pct_c,
-                          None, None, 0.0, 0.0, tuple(runs), run_q, water, peak, fuel, energy)
+                          None, None, 0.0, 0.0, tuple(runs), run_q, water, peak, fuel, energy, skipped)
     mn, sid, t, v, i = best
     return BlockNight(
         block.id, block.crop, block.stage, sid, block.kill_10pct_c, block.kill_90pct_c, mn, _utc(t[i]),
         round(minutes_below(t, v, block.kill_10pct_c), 1), round(minutes_below(t, v, block.kill_90pct_c), 1),
-        tuple(runs), run_q, water, peak, fuel, energy,
+        tuple(runs), run_q, water, peak, fuel, energy, skipped,
     )
+
+
+def left_out_of(decisions) -> frozenset[str]:
+    """The stations that any of these decisions left out (`Monitoring.doubts`, forecast.crosscheck)."""
+    return frozenset(x.station for d in decisions for x in d.monitoring.doubts if x.left_out)
+
+
+def no_minimum_words(bn: BlockNight) -> str:
+    """Why a block's night has no minimum, in one clause."""
+    if bn.left_out:
+        return (f"no trusted crop-height reading this night ({', '.join(bn.left_out)} out of line with the farm's "
+                "other thermometers: see the decisions)")
+    return "no crop-height reading this night"
