@@ -59,6 +59,10 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
+class PortTaken(RuntimeError):
+    """The free port picked for a broker was taken by another process before the broker bound it."""
+
+
 class Broker:
     """A Mosquitto process owned by a test: start, stop (SIGTERM), kill (SIGKILL), restart."""
 
@@ -92,12 +96,26 @@ class Broker:
         while time.monotonic() < deadline:
             try:
                 with socket.create_connection(("127.0.0.1", self.port), timeout=0.2):
-                    return
+                    pass
             except OSError:
-                if self.proc.poll() is not None:
-                    raise RuntimeError(f"mosquitto exited: {self.proc.stderr.read().decode(errors='replace')}") from None
+                self._raise_if_exited()
                 time.sleep(0.05)
+                continue
+            # something listens there; make sure it is this broker, not another process that took
+            # the port between free_port() and mosquitto's bind (mosquitto then exits at once)
+            time.sleep(0.05)
+            self._raise_if_exited()
+            return
         raise RuntimeError(f"mosquitto did not listen on {self.port} within {timeout_s} s")
+
+    def _raise_if_exited(self) -> None:
+        if self.proc.poll() is None:
+            return
+        err = self.proc.stderr.read().decode(errors="replace")
+        log = self.workdir / "mosquitto.log"
+        err += log.read_text(errors="replace")[-2000:] if log.exists() else ""
+        cls = PortTaken if "address already in use" in err.lower() else RuntimeError
+        raise cls(f"mosquitto exited: {err}")
 
     @property
     def db_file(self) -> Path:
@@ -137,8 +155,14 @@ def mosquitto(tmp_path: Path):
     exe = shutil.which("mosquitto") or ("/usr/sbin/mosquitto" if Path("/usr/sbin/mosquitto").exists() else None)
     if exe is None:
         pytest.fail("mosquitto is not installed; run the README's test command (bash tests/run), which installs it")
-    b = Broker(tmp_path / "broker", free_port())
-    b.start()
+    for attempt in range(5):
+        b = Broker(tmp_path / "broker", free_port())
+        try:
+            b.start()
+            break
+        except PortTaken:
+            if attempt == 4:
+                raise
     yield b
     b.kill()
 

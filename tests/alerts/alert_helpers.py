@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import errno
 import http.server
 import json
 import socket
@@ -53,15 +54,21 @@ class _Handler:
         return "250 OK"
 
 
+def _unused_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
 class SmtpServer:
+    """aiosmtpd on loopback. A port picked here may be taken by another process (a broker, a
+    parallel suite) before the server binds it: `start` then picks another (read `port` after it)."""
+
     def __init__(self, port: int = 0):
         self.handler = _Handler()
-        if not port:
-            with socket.socket() as s:
-                s.bind(("127.0.0.1", 0))
-                port = s.getsockname()[1]
-        self.port = port
-        self.controller = Controller(self.handler, hostname="127.0.0.1", port=port)
+        self._pick = not port
+        self.port = port or _unused_port()
+        self.controller = Controller(self.handler, hostname="127.0.0.1", port=self.port)
 
     @property
     def messages(self):
@@ -69,7 +76,15 @@ class SmtpServer:
             return list(self.handler.messages)
 
     def start(self):
-        self.controller.start()
+        for attempt in range(5):
+            try:
+                self.controller.start()
+                return self
+            except OSError as exc:
+                if not self._pick or exc.errno != errno.EADDRINUSE or attempt == 4:
+                    raise
+                self.port = _unused_port()
+                self.controller = Controller(self.handler, hostname="127.0.0.1", port=self.port)
         return self
 
     def stop(self):
