@@ -135,6 +135,9 @@ class Projection:
     inversion_basis: str | None = None
     inversion_known_by_utc: dt.datetime | None = None
     inversion_history_nights: int | None = None
+    # set when the projection asked for more cooling than a clear night can give by sunrise and was
+    # held at this physical floor (frostwatch.physics.cooling_floor): a sign of a sensor fault
+    physics_floor_c: float | None = None
 
 
 @dataclass(frozen=True)

@@ -228,6 +228,7 @@ def plan_advice(
         crossing_utc=crossing, ready_by_utc=ready_by, protection_running=protection_running, regime=p.regime,
         wind_speed_m_s=p.wind_speed_m_s, crossing_middle_utc=middle,
         learning_nights_known=p.calibration_nights_known, learning_nights_needed=p.calibration_nights_needed,
+        physics_floor_c=p.physics_floor_c,
     )
     if risk is Risk.UNKNOWN:
         return AdvicePlan(**base, step=Step.CHECK_SENSORS)

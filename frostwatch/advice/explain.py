@@ -172,9 +172,13 @@ def _heater_facts(v: MethodVerdict, d: Display) -> list[str]:
     return out
 
 
-def _uncertainty(plan: AdvicePlan) -> str | None:
-    """The one caveat on the projection a grower should know: the site is still learning, the
-    night is windy or cloudy, or the times are set early to be safe."""
+def _uncertainty(plan: AdvicePlan, d: Display) -> str | None:
+    """The one caveat on the projection a grower should know: the readings fall faster than a
+    clear night can cool (a sensor fault, first), the site is still learning, the night is windy or
+    cloudy, or the times are set early to be safe."""
+    if plan.physics_floor_c is not None:
+        return (f"cooling faster than physics allows: check the sensor (projection held at the coldest a clear "
+                f"night can reach, {d.temp(plan.physics_floor_c)})")
     early = plan.crossing_utc is not None and plan.crossing_middle_utc != plan.crossing_utc
     if plan.learning_nights_known is not None:
         return (f"site still learning ({plan.learning_nights_known} of about {plan.learning_nights_needed} nights "
@@ -202,7 +206,7 @@ def reasons(plan: AdvicePlan, d: Display) -> list[str]:
             facts = _sprinkler_facts(plan, v, d)
         elif v.heaters is not None:
             facts = _heater_facts(v, d)
-    caveat = _uncertainty(plan)
+    caveat = _uncertainty(plan, d)
     room = MAX_REASONS - 1 - (1 if caveat else 0)
     out += facts[:room]
     if caveat:

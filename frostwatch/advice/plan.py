@@ -315,6 +315,9 @@ class AdvicePlan:
     # while the site is still learning: past nights known and about how many it needs
     learning_nights_known: int | None = None
     learning_nights_needed: int | None = None
+    # the projection asked for more cooling than a clear night can give and was held at this floor
+    # (frostwatch.physics.cooling_floor): the readings behind it are suspect
+    physics_floor_c: float | None = None
     version: int = PLAN_VERSION
 
     @property

@@ -54,7 +54,7 @@ from frostwatch.forecast.sensors import (
 )
 from frostwatch.models import Projection
 from frostwatch.night import Night
-from frostwatch.physics import clear_night_prior, humidity
+from frostwatch.physics import clear_night_prior, cooling_floor, humidity
 
 CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is flagged as not holding
 GRID_STEP_S = 300.0
@@ -92,6 +92,25 @@ def prime_priors(inputs: list[tuple[float, ...]]) -> None:
     values = clear_night_prior.clear_night_minimum_prior_c(*np.array(keys, dtype=float).T)
     _PRIMED.clear()
     _PRIMED.update(zip(keys, values.tolist(), strict=True))
+
+
+def _radiative_floor_c(t_air: np.ndarray, v_air: np.ndarray, sunset_s: float, now_s: float, sunrise_s: float,
+                       air_c: float, td_c: float | None) -> tuple[float, bool]:
+    """(the coldest the air can be at sunrise on a clear night, whether the air now is already
+    colder than a clear night allows): the larger of two physical floors, at most the air now
+    (`physics.cooling_floor`), from the air now over the hours left and from the last reading at
+    or before sunset over the hours from it to sunrise, and the air now against the second's fall
+    so far. NaN and False when the floor cannot be worked out."""
+    floor_c = cooling_floor.radiative_cooling_floor_f(air_c, td_c, (sunrise_s - now_s) / 3600.0)
+    below = False
+    i = int(t_air.searchsorted(sunset_s, side="right")) - 1
+    if sunset_s <= now_s and 0 <= i < len(t_air):
+        t_r, v_r = float(t_air[i]), float(v_air[i])
+        td_r = None if td_c is None else min(td_c, v_r)
+        from_sunset_c = cooling_floor.radiative_cooling_floor_f(v_r, td_r, (sunrise_s - t_r) / 3600.0)
+        floor_c = max(floor_c, from_sunset_c) if math.isfinite(floor_c) else from_sunset_c
+        below = air_c < cooling_floor.radiative_cooling_floor_f(v_r, td_r, (now_s - t_r) / 3600.0)
+    return min(floor_c, air_c), below  # a sensor already below the floor: no minimum above the air now
 
 
 def _round2(x: float) -> float:
@@ -292,12 +311,29 @@ def project_block(
                 band_at_c = latest_c + blend[0]  # nowcast_drop_c(..., lead=False)
     tp_c = min(tp_c, anchor_c)
     band_at_c = tp_c if band_at_c is None else min(band_at_c, anchor_c)
+    floor_c = physics_floor_c = None  # the physical floor (radiation nights), where the projection or its band reached it
+    if now_s < sunrise_s and regime == "radiation":
+        floor_c, reading_below = _radiative_floor_c(t_air, v_air, night.sunset_utc.timestamp(), now_s, sunrise_s,
+                                                    anchor_c, td_c)
+        if reading_below or tp_c < floor_c:
+            what = (f"the air fell faster than a clear night can cool it (now {anchor_c:.1f} °C)" if reading_below
+                    else f"the projected minimum {tp_c:.1f} °C is below the coldest a clear night can reach by sunrise")
+            notes.append(f"cooling faster than physics allows: {what}; projection held at {floor_c:.1f} °C or above: "
+                         "check the sensor")
+            physics_floor_c = round(floor_c, 2)
+        if floor_c > min(tp_c, band_at_c + min(lo_off, -MIN_BAND_C / 2)):  # NaN: never
+            tp_c = max(tp_c, floor_c)
+            band_at_c = max(band_at_c, floor_c)
+        else:
+            floor_c = None
 
     grid_s, e_grid, grid_times = night_grid(now_s, sunrise_s, t0_s, GRID_STEP_S)  # every block's, made once
     span = math.sqrt(h_from_t0) - e_now
 
     band_low_c = band_at_c + min(lo_off, -MIN_BAND_C / 2)
     band_high_c = band_at_c + max(hi_off, MIN_BAND_C / 2)
+    if floor_c is not None:  # the band's cold edge no colder than physics allows either
+        band_low_c = max(band_low_c, floor_c)
     if curves:  # the curve and its cold edge as the rows of one array (rounded together below)
         both = sqrt_curves_c((tp_c, band_low_c), anchor_c, e_grid, e_now, span)
         curve, cold_curve = both
@@ -390,6 +426,7 @@ def project_block(
         calibration_nights_known=cal.n_nights if cal.learning else None,
         calibration_nights_needed=cal.calibration_nights if cal.learning else None,
         wind_from_farm=wind_from_farm,
+        physics_floor_c=physics_floor_c,
         **tower_fields,
         **drying_fields,
     )
