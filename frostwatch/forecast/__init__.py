@@ -7,7 +7,8 @@ regression), `past_night` (what a past night did, as learned), `learner` (the ca
 learned night by night), `ridge` (ridge regression from moment matrices), `nowcast` (tonight's
 cooling as features, and a past night's training points), `curves` (Reuter's curve, the evening
 curve and the threshold crossings), `projection` (the projection), `records` (what a night did),
-`inversion` (tower minus crop height).
+`inversion` (tower minus crop height), `offsets` (each thermometer's steady offset from the farm's
+others in windy hours, for the reports).
 """
 
 from frostwatch.forecast.calibration import Calibration

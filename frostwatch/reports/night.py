@@ -20,12 +20,15 @@ from frostwatch.config import Config
 from frostwatch.decision import Decision
 from frostwatch.display import Display
 from frostwatch.errors import UsageError
+from frostwatch.forecast.offsets import OffsetCheck
 from frostwatch.night import Night, night_of_date
 from frostwatch.pipeline import LOOKBACK
 from frostwatch.reports.panels import lower_panel
 from frostwatch.reports.plots import plot_block_night
 from frostwatch.reports.settings import INSURANCE_NOTICE_H, ReportSettings, report_settings
 from frostwatch.reports.summary import BlockNight, block_night, left_out_of, runs_from_acks
+from frostwatch.reports.thermometers import recent_offset_check
+from frostwatch.reports.thermometers import record as offsets_record
 from frostwatch.store import Store, from_ms
 from frostwatch.store import decisions as stored_decisions
 from frostwatch.store import reports as q
@@ -67,6 +70,7 @@ class NightData:
     readings_sha256: str
     files: dict[str, str] = field(default_factory=dict)
     decisions: list[Decision] = field(default_factory=list)  # the changes of the stored decisions, in time order
+    offsets: OffsetCheck | None = None  # thermometers against each other in windy hours, the last 14 days
 
     def loss_blocks(self) -> list[BlockSection]:
         return [s for s in self.sections if s.bn.min_c is not None and s.bn.min_c <= s.bn.kill_10pct_c]
@@ -131,6 +135,7 @@ def collect_night(cfg: Config, store: Store, evening: dt.date) -> tuple[NightDat
         stage_changes=store.events(night.sunset_utc - dt.timedelta(days=1), end, kind="stage_change"),
         readings_count=len(rows), readings_sha256=_readings_sha256(rows),
         decisions=sorted(changes, key=lambda x: (x.as_of_utc, x.block)),
+        offsets=recent_offset_check(cfg, store, end),
     ), series
 
 
@@ -251,6 +256,7 @@ def night_record(data: NightData) -> dict:
             "step": x.step.value, "predicted_min_c": x.projection.predicted_min_c,
             "ready_by": iso(x.plan.ready_by_utc), "alert_key": x.alert_key,
         } for x in data.decisions],
+        "thermometer_offsets": None if data.offsets is None else offsets_record(data.offsets),
         "possible_loss_blocks": [s.bn.block for s in data.loss_blocks()],
         "insurance_notice_due": iso(data.notice_deadline_utc()) if data.loss_blocks() else None,
     }

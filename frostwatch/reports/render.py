@@ -18,6 +18,7 @@ from frostwatch.advice.render import level_word, method_name
 from frostwatch.alerts.levels import rank_of
 from frostwatch.night import sun_times_words
 from frostwatch.reports.summary import no_minimum_words
+from frostwatch.reports.thermometers import night_section
 from frostwatch.store import from_ms
 
 PAGE_CSS = """
@@ -267,6 +268,7 @@ in 30 minutes at the block's stage.</p>
 {_decisions(data)}
 <h2>Sensor incidents</h2>
 {_events(data, data.health, "No sensor incidents recorded.", "incidents")}
+{"" if data.offsets is None else night_section(data.offsets, d)}
 <h2>Stage changes</h2>
 {_events(data, data.stage_changes, "No stage change recorded for this night.", "stage-changes")}
 <h2>Cautions</h2><ul id="cautions">{cautions}</ul>

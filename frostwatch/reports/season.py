@@ -29,6 +29,7 @@ from frostwatch.pipeline import LOOKBACK
 from frostwatch.reports.render import PAGE_CSS, level_span
 from frostwatch.reports.settings import report_settings
 from frostwatch.reports.summary import block_night, runs_from_acks
+from frostwatch.reports.thermometers import offset_check, season_table
 from frostwatch.store import Store, from_ms
 from frostwatch.store import reports as q
 
@@ -133,6 +134,7 @@ NIGHT_COLUMNS = ["night", "block", "station", "kill_10pct_c", "min_c", "minutes_
 TOTAL_COLUMNS = ["year", "block", "nights", "nights_below_t10", "minutes_below_t10", "season_min_c", "forecasts",
                  "forecast_mae_c", "forecast_bias_c", "nights_protected", "protection_hours", "water_m3", "fuel_l",
                  "forecasts_not_scored"]
+THERMOMETER_COLUMNS = ["year", "station", "role", "offset_k", "windy_hours", "days", "flagged"]
 
 
 def write_season_report(cfg: Config, store: Store, year: int, out_dir: Path) -> Path:
@@ -146,7 +148,18 @@ def write_season_report(cfg: Config, store: Store, year: int, out_dir: Path) -> 
             w.writeheader()
             w.writerows(rows)
     page = out_dir / f"{stem}.html"
-    page.write_text(_season_html(cfg, season, totals, stem), encoding="utf-8")
+    tz = cfg.site.tz  # every day of the year counts: the windy hours are mostly days, not nights
+    offsets = offset_check(cfg, store, dt.datetime(year, 1, 1, tzinfo=tz).astimezone(dt.UTC),
+                           dt.datetime(year + 1, 1, 1, tzinfo=tz).astimezone(dt.UTC))
+    with (out_dir / f"{stem}-thermometers.csv").open("w", newline="", encoding="utf-8") as f:
+        w = csv.DictWriter(f, fieldnames=THERMOMETER_COLUMNS)
+        w.writeheader()
+        w.writerows({"year": year, "station": x.station, "role": x.role,
+                     "offset_k": None if x.offset_k is None else round(x.offset_k, 2), "windy_hours": x.hours,
+                     "days": x.days, "flagged": x.flagged} for x in offsets.sensors)
+    page.write_text(_season_html(cfg, season, totals, stem, season_table(offsets, Display(cfg.site.display_unit,
+                                                                                            cfg.site.tz))),
+                    encoding="utf-8")
     return page
 
 
@@ -161,7 +174,7 @@ def _not_scored(row: dict) -> str:
     return "<br><span class='note'>protection ran: not scored</span>"
 
 
-def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
+def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str, thermometers: str = "") -> str:
     d = Display(cfg.site.display_unit, cfg.site.tz)
     lv = sorted(s.alerts_per_level.items(), key=lambda kv: -rank_of(kv[0]))
     lv_rows = "".join(f"<tr><td>{level_span(k)}</td><td class='num'>{n}</td></tr>" for k, n in lv) or \
@@ -197,10 +210,12 @@ def _season_html(cfg: Config, s: Season, totals: list[dict], stem: str) -> str:
 <p class="note">Forecast error: the first projection at or after dusk (sunset + 2 h) minus the observed minimum;
 a negative bias means the forecasts ran colder than the nights. A night a block's protection ran is
 listed but not scored: its sensors read the protected air, not the night that was forecast. Data:
-<a href="{stem}-nights.csv">per night (CSV)</a> · <a href="{stem}-blocks.csv">per block (CSV)</a>.</p>
+<a href="{stem}-nights.csv">per night (CSV)</a> · <a href="{stem}-blocks.csv">per block (CSV)</a> ·
+<a href="{stem}-thermometers.csv">thermometers (CSV)</a>.</p>
 <h2>Night by night</h2>
 <div class="scroll"><table id="nights"><tr><th>night</th><th>block</th><th>minimum</th><th>min. below T10</th>
 <th>dusk forecast</th><th>error</th><th>highest alert</th><th>protection h</th></tr>{n_rows}</table></div>
+{thermometers}
 <h2>Cautions</h2><ul>{cautions}</ul>
 </body></html>
 """

@@ -133,3 +133,15 @@ def nights_with_readings(store: Store, start_utc: dt.datetime, end_utc: dt.datet
         (step, step, to_ms(start_utc), to_ms(end_utc)),
     )
     return sorted(int(r[0]) for r in rows)
+
+
+def hourly_means(store: Store, start_utc: dt.datetime, end_utc: dt.datetime,
+                 quantities: tuple[str, ...] = ("air_temperature", "wind_speed")) -> list[tuple[int, str, str, float]]:
+    """(hour index, station, quantity, mean value) of every station's readings with start <= time < end,
+    hour index = ms since 1970 UTC // 3 600 000: one aggregate over the readings' primary key, so a
+    two-week window of a large farm stays cheap on a Pi (bench/offsets_query.py)."""
+    marks = ",".join("?" * len(quantities))
+    rows = _query(store, "SELECT time_utc_ms / 3600000 AS hour, station, quantity, AVG(value) AS mean FROM readings "
+                         f"WHERE time_utc_ms >= ? AND time_utc_ms < ? AND quantity IN ({marks}) "
+                         "GROUP BY hour, station, quantity", [to_ms(start_utc), to_ms(end_utc), *quantities])
+    return [(r["hour"], r["station"], r["quantity"], r["mean"]) for r in rows]
