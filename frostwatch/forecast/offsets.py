@@ -49,13 +49,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from frostwatch.forecast import settings
+from frostwatch.forecast.crosscheck import AIR_ROLES  # the thermometers compared: the cross-check's own
 
 MIXED_WIND_M_S = 3.0  # hourly mean farm wind at or above which the air counts as well mixed (judgement)
 MIN_OTHERS = 2  # other thermometers an hour needs before a sensor is compared in it
 FLAG_OFFSET_K = 1.0  # |median offset| at or above which a sensor is named to check (judgement)
 FLAG_MIN_HOURS = 6  # mixed hours that must back a flag
 FLAG_MIN_DAYS = 2  # on at least this many (local) days
-AIR_ROLES = ("crop", "tower", "weather")  # the thermometers compared (as forecast.crosscheck)
 # why nothing could be judged (OffsetCheck.not_judged); reports word them in the grower's units
 TOO_FEW_THERMOMETERS, NO_WIND, NO_WINDY_HOUR, TOO_FEW_WINDY_HOURS = (
     "too few thermometers", "no wind measured", "no windy hour", "too few windy hours")
