@@ -37,6 +37,7 @@ from frostwatch.advice.plan import (
 from frostwatch.advice.sprinkling import sprinkler_verdict
 from frostwatch.config import Block
 from frostwatch.models import Projection
+from frostwatch.night import DUSK_OFFSET
 from frostwatch.physics import sprinklers
 from frostwatch.reference import ReferenceAir
 
@@ -220,6 +221,11 @@ def plan_advice(
     middle = p.crossings_utc.get(key)
     crossing = p.crossings_utc.get(f"{key}_cold_edge") or middle
     ready_by = crossing - dt.timedelta(minutes=block.mobilisation_min) if crossing else None
+    # a new site before dusk: the times are set early to be safe: ready by dusk at the latest, when
+    # the evening's cooling has shown and the dusk forecast firms them up
+    if (ready_by is not None and p.calibration_nights_known is not None and p.sunset_utc is not None
+            and now_utc < p.sunset_utc + DUSK_OFFSET):
+        ready_by = min(ready_by, max(p.sunset_utc + DUSK_OFFSET, now_utc + dt.timedelta(minutes=block.mobilisation_min)))
     base = dict(
         block=block.id, time_utc=now_utc, method=method, risk=risk, trigger=trigger, t10_c=t10,
         t90_c=block.kill_90pct_c, margin_c=margin, mobilisation_min=block.mobilisation_min, line_c=t10 + margin,

@@ -91,6 +91,7 @@ class BlockAlertState:
     monitored_count: int = 0
     announced_crossing_utc: dt.datetime | None = None  # the crossing the last ready/update gave
     announced_at_utc: dt.datetime | None = None  # when the last ready/update went out
+    announced_ready_by_utc: dt.datetime | None = None  # its ready-by time, where set earlier than the crossing's
     update_count: int = 0
     ran_tonight: bool = False  # the block's running flag read "running" at least once tonight
     told_to_start: bool = False  # a protect or all-hands alert told the grower to run the block's method
@@ -159,13 +160,25 @@ def _morning_stop_ok(plan: AdvicePlan) -> bool:
     return s.now_c is not None and s.now_c > s.limit_c
 
 
-def _moved_earlier_min(plan: AdvicePlan, state: BlockAlertState) -> float:
-    """How far the projected crossing moved earlier than the one last announced [min]."""
+def _moved_earlier_min(plan: AdvicePlan, state: BlockAlertState, mobilisation_min: float) -> float:
+    """How far the ready-by time moved earlier than the one last announced [min] (the announced
+    crossing less the mobilisation time, or the plan's when the ready-by time was set earlier)."""
     if plan.crossing_utc is None:
         return 0.0
     if state.announced_crossing_utc is None:
         return float("inf")  # ready went out without a time; now there is one
-    return (state.announced_crossing_utc - plan.crossing_utc).total_seconds() / 60.0
+    announced = state.announced_crossing_utc - dt.timedelta(minutes=mobilisation_min)
+    ready_by = plan.ready_by_utc or plan.crossing_utc - dt.timedelta(minutes=mobilisation_min)
+    if state.announced_ready_by_utc is not None:
+        announced = min(announced, state.announced_ready_by_utc)
+    return (announced - ready_by).total_seconds() / 60.0
+
+
+def _set_early(plan: AdvicePlan) -> dt.datetime | None:
+    """The plan's ready-by time where it is earlier than its crossing less the mobilisation time."""
+    if plan.ready_by_utc is None or plan.crossing_utc is None:
+        return None
+    return plan.ready_by_utc if plan.ready_by_utc < plan.crossing_utc - dt.timedelta(minutes=plan.mobilisation_min) else None
 
 
 class _Run:
@@ -304,7 +317,8 @@ def _frost_rules(run: _Run, night: Night, settings: RuleSettings) -> None:
             peak = wanted if LEVELS[wanted] > LEVELS[st.peak_level] else st.peak_level
             told = st.told_to_start or (LEVELS[wanted] >= LEVELS[PROTECT] and plan.advised)
             run.set(level=wanted, candidate=wanted, candidate_count=0, peak_level=peak, told_to_start=told,
-                    announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)
+                    announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0,
+                    announced_ready_by_utc=_set_early(plan))
     elif LEVELS[st.level] >= LEVELS[READY] and _clear_enough(plan):
         n = st.clear_count + 1
         run.set(clear_count=n, candidate=REST, candidate_count=0)
@@ -330,7 +344,7 @@ def _ready_update(run: _Run, settings: RuleSettings) -> None:
         run.set(update_count=0)
         return
     allowance = min(run.block.mobilisation_min, settings.update_earlier_min)
-    if _moved_earlier_min(plan, st) <= allowance:
+    if _moved_earlier_min(plan, st, run.block.mobilisation_min) <= allowance:
         run.set(update_count=0)
         return
     n = st.update_count + 1
@@ -343,5 +357,8 @@ def _ready_update(run: _Run, settings: RuleSettings) -> None:
     previous = None
     if st.announced_crossing_utc is not None:
         previous = st.announced_crossing_utc - dt.timedelta(minutes=run.block.mobilisation_min)
+        if st.announced_ready_by_utc is not None:
+            previous = min(previous, st.announced_ready_by_utc)
     run.send(READY, Step.GET_READY, Notice.UPDATE, kind="update", previous=previous)
-    run.set(announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0)
+    run.set(announced_crossing_utc=plan.crossing_utc, announced_at_utc=now, update_count=0,
+            announced_ready_by_utc=_set_early(plan))

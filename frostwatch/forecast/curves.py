@@ -218,6 +218,55 @@ def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: flo
 
 _NO_SLOPE = object()
 
+# The evening curve before dusk (`evening_curve_spread_c`): the square-root law's misfit to a real
+# evening, at least (degC, 1 sigma; engineering choice): a sensor's 0.1 degC steps or a smooth
+# evening would otherwise make a fit through a reading or two after sunset look exact.
+EVENING_MISFIT_MIN_C = 0.3
+
+
+def evening_curve_spread_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float, t0_c: float,
+                           sunrise_s: float, memo: dict | None = None) -> tuple[float, float] | None:
+    """`evening_curve_c` with its uncertainty, for the estimate before dusk: (the evening curve's
+    minimum at sunrise, its standard error [degC]); None where `evening_curve_c` gives none (fewer
+    than 3 readings, or none after sunset).
+
+    The standard error is the slope's, se(b) = s / sqrt(sum (x - mean x)^2) (least squares, s the
+    residuals' standard deviation on n - 2 degrees of freedom, at least `EVENING_MISFIT_MIN_C`),
+    carried to sunrise as the fall is. The readings of the hour before sunset all sit at 0 on the
+    square-root clock, so a reading a minute after sunset alone sets the slope: its error is then
+    tens of degrees (one such reading gave -20 degC at a new site), and it shrinks as the
+    evening's cooling shows (about 1 degC half an hour after sunset on the demo's frost night, 0.2
+    at dusk). The caller weighs the curve by it."""
+    i0 = int(t_s.searchsorted(sunset_s - EVENING_FROM_S, side="left"))
+    i1 = int(t_s.searchsorted(t0_s, side="right"))
+    if i1 - i0 < 3:
+        return None
+    key = ("evening slope and error", sunset_s, i0, i1)
+    got = _NO_SLOPE if memo is None else memo.get(key, _NO_SLOPE)
+    if got is _NO_SLOPE:
+        got = _evening_slope_error(t_s[i0:i1], v_c[i0:i1], sunset_s)
+        if memo is not None:
+            memo[key] = got
+    if got is None:
+        return None
+    b, se_b = got
+    carry = math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0))
+    return t0_c + b * carry, se_b * carry
+
+
+def _evening_slope_error(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float) -> tuple[float, float] | None:
+    """(b, se(b)) of `_evening_slope`'s fit (the same b); None when the times do not spread."""
+    x = np.sqrt(np.maximum(0.0, (t_s - sunset_s) / 3600.0))
+    xm = x.mean()
+    den = float(np.sum((x - xm) ** 2))
+    if den <= 1e-9:
+        return None
+    vm = v_c.mean()
+    b = float(np.sum((x - xm) * (v_c - vm)) / den)
+    resid = v_c - (vm + b * (x - xm))
+    s = max(EVENING_MISFIT_MIN_C, math.sqrt(float(np.sum(resid * resid)) / max(1, len(v_c) - 2)))
+    return min(0.0, b), s / math.sqrt(den)
+
 
 def _evening_slope(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float) -> float | None:
     """b of T = a + b sqrt(t - sunset) by least squares (b <= 0); None when the times do not spread."""

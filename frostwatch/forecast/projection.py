@@ -24,7 +24,7 @@ import numpy as np
 
 from frostwatch import towers as towers_mod
 from frostwatch.config import SPRINKLER_METHODS, Block, Config
-from frostwatch.forecast import carry, crosscheck, settings
+from frostwatch.forecast import carry, crosscheck, floor, settings
 from frostwatch.forecast import inversion as inv
 from frostwatch.forecast.calibration import Calibration
 from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: also read from here)
@@ -32,6 +32,7 @@ from frostwatch.forecast.curves import (  # noqa: F401  (crossing_time, _utc: al
     block_crossings,
     crossing_time,
     evening_curve_c,
+    evening_curve_spread_c,
     grid_utc,
     night_grid,
     sqrt_curve_c,
@@ -54,7 +55,7 @@ from frostwatch.forecast.sensors import (
 )
 from frostwatch.models import Projection
 from frostwatch.night import Night
-from frostwatch.physics import clear_night_prior, cooling_floor, humidity
+from frostwatch.physics import clear_night_prior, humidity
 
 CLOUDY_FRAC = 0.5  # above this cloud fraction the radiation model is flagged as not holding
 GRID_STEP_S = 300.0
@@ -94,25 +95,6 @@ def prime_priors(inputs: list[tuple[float, ...]]) -> None:
     _PRIMED.update(zip(keys, values.tolist(), strict=True))
 
 
-def _radiative_floor_c(t_air: np.ndarray, v_air: np.ndarray, sunset_s: float, now_s: float, sunrise_s: float,
-                       air_c: float, td_c: float | None) -> tuple[float, bool]:
-    """(the coldest the air can be at sunrise on a clear night, whether the air now is already
-    colder than a clear night allows): the larger of two physical floors, at most the air now
-    (`physics.cooling_floor`), from the air now over the hours left and from the last reading at
-    or before sunset over the hours from it to sunrise, and the air now against the second's fall
-    so far. NaN and False when the floor cannot be worked out."""
-    floor_c = cooling_floor.radiative_cooling_floor_f(air_c, td_c, (sunrise_s - now_s) / 3600.0)
-    below = False
-    i = int(t_air.searchsorted(sunset_s, side="right")) - 1
-    if sunset_s <= now_s and 0 <= i < len(t_air):
-        t_r, v_r = float(t_air[i]), float(v_air[i])
-        td_r = None if td_c is None else min(td_c, v_r)
-        from_sunset_c = cooling_floor.radiative_cooling_floor_f(v_r, td_r, (sunrise_s - t_r) / 3600.0)
-        floor_c = max(floor_c, from_sunset_c) if math.isfinite(floor_c) else from_sunset_c
-        below = air_c < cooling_floor.radiative_cooling_floor_f(v_r, td_r, (now_s - t_r) / 3600.0)
-    return min(floor_c, air_c), below  # a sensor already below the floor: no minimum above the air now
-
-
 def _round2(x: float) -> float:
     """`round(x, 2)` as a float: a float rounded as Python rounds it, numpy's float64 (the band's
     offsets are) as numpy rounds it (x * 100 to the nearest integer, halves to even, / 100), the
@@ -140,24 +122,36 @@ def _learning_note(cal: Calibration) -> str | None:
 def _dusk_forecast(
     t0_c: float, td0_c: float | None, wind0: float | None, cloud0: float | None, trend0: float | None,
     p_trend0: float | None, t0_s: float, method: str, t_air: np.ndarray, v_air: np.ndarray, night: Night,
-    cal: Calibration, p_hpa: float, memo: dict | None = None,
+    cal: Calibration, p_hpa: float, memo: dict | None = None, before_dusk: bool = False,
 ) -> tuple:
     """The forecast from t0 (dusk, or now before it): (t0_c, t0_s, method, hours from t0 to
     sunrise, minimum, Reuter's b', the band's low and high offsets, notes). `memo`: the
-    evening curve's memo for these readings (`curves.evening_curve_c`)."""
-    # before dusk the same evening curve on the readings so far, so the estimate runs into the
-    # dusk forecast without a jump
-    evening = evening_curve_c(t_air, v_air, night.sunset_utc.timestamp(), t0_s, t0_c, night.sunrise_utc.timestamp(),
-                              memo)
-    return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method, evening, night, cal, p_hpa)
+    evening curve's memo for these readings (`curves.evening_curve_c`).
+
+    Before dusk the same evening curve on the readings so far, so the estimate runs into the dusk
+    forecast, read by what it knows: with its standard error (`curves.evening_curve_spread_c`), it
+    is shrunk toward the forecast without it as a measurement toward a prior whose spread is
+    `PRIOR_BAND_C` (the weight v / (v + se^2)), and the band widens by what is left of its error.
+    Right after sunset, when a reading or two hardly spread on the square-root clock, it counts for
+    next to nothing; by dusk, fully."""
+    sunset_s, sunrise_s = night.sunset_utc.timestamp(), night.sunrise_utc.timestamp()
+    if not before_dusk:
+        evening = evening_curve_c(t_air, v_air, sunset_s, t0_s, t0_c, sunrise_s, memo)
+        return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method, evening, night, cal,
+                                   p_hpa)
+    fit = evening_curve_spread_c(t_air, v_air, sunset_s, t0_s, t0_c, sunrise_s, memo)
+    return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method,
+                               None if fit is None else fit[0], night, cal, p_hpa,
+                               evening_se_c=None if fit is None else fit[1])
 
 
 def _dusk_forecast_with(
     t0_c: float, td0_c: float | None, wind0: float | None, cloud0: float | None, trend0: float | None,
     p_trend0: float | None, t0_s: float, method: str, evening: float | None, night: Night, cal: Calibration,
-    p_hpa: float,
+    p_hpa: float, evening_se_c: float | None = None,
 ) -> tuple:
-    """`_dusk_forecast` with tonight's evening curve (`curves.evening_curve_c`) given."""
+    """`_dusk_forecast` with tonight's evening curve (`curves.evening_curve_c`) given, and before
+    dusk its standard error."""
     sunrise_s = night.sunrise_utc.timestamp()
     notes = []
     h_from_t0 = max(0.25, (sunrise_s - t0_s) / 3600.0)
@@ -166,11 +160,20 @@ def _dusk_forecast_with(
     if not math.isfinite(prior):
         notes.append("the physics prior is undefined for these inputs; the site regression alone is used")
         prior = cal.regression_c(x, h_from_t0) if cal.weight > 0 else t0_c - 3.0
+    widen_c = 0.0
+    if evening is not None and evening_se_c is not None and math.isfinite(evening):
+        without = cal.predict_c(prior, x, h_from_t0, None)
+        trust = settings.PRIOR_BAND_C**2 / (settings.PRIOR_BAND_C**2 + evening_se_c**2)
+        evening = without + trust * (evening - without)
+        share = cal.predict_c(prior, x, h_from_t0, evening + 1.0) - cal.predict_c(prior, x, h_from_t0, evening)
+        widen_c = settings.BAND_Z * abs(share) * math.sqrt(trust) * evening_se_c
     tp_dusk = min(cal.predict_c(prior, x, h_from_t0, evening), t0_c)
     if td0_c is None:
         notes.append(f"no humidity reading at dusk: dew point assumed {ASSUMED_DEPRESSION_C:g} K below the air for the dusk forecast")
     b_dusk = (tp_dusk - t0_c) / math.sqrt(h_from_t0)
     lo_off, hi_off = cal.dusk_band_c(h_from_t0)
+    if widen_c > 0.0:  # the evening curve's error left after shrinking, beside the forecast's own
+        lo_off, hi_off = -math.hypot(lo_off, widen_c), math.hypot(hi_off, widen_c)
     return t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, tuple(notes)
 
 
@@ -287,7 +290,8 @@ def project_block(
             keep[key] = (cal, di, dusk)
     if dusk is None:
         dusk = _dusk_forecast(air_c, td_c, wind, cloud, None, None, now_s, "pre-dusk estimate", t_air, v_air, night,
-                              cal, p_hpa, None if memo is None else memo.setdefault(("evening", speaker.station), {}))
+                              cal, p_hpa, None if memo is None else memo.setdefault(("evening", speaker.station), {}),
+                              before_dusk=True)
     t0_c, t0_s, method, h_from_t0, tp_dusk, b_dusk, lo_off, hi_off, dusk_notes = dusk
     notes.extend(dusk_notes)
 
@@ -313,19 +317,11 @@ def project_block(
     band_at_c = tp_c if band_at_c is None else min(band_at_c, anchor_c)
     floor_c = physics_floor_c = None  # the physical floor (radiation nights), where the projection or its band reached it
     if now_s < sunrise_s and regime == "radiation":
-        floor_c, reading_below = _radiative_floor_c(t_air, v_air, night.sunset_utc.timestamp(), now_s, sunrise_s,
-                                                    anchor_c, td_c)
-        if reading_below or tp_c < floor_c:
-            what = (f"the air fell faster than a clear night can cool it (now {anchor_c:.1f} °C)" if reading_below
-                    else f"the projected minimum {tp_c:.1f} °C is below the coldest a clear night can reach by sunrise")
-            notes.append(f"cooling faster than physics allows: {what}; projection held at {floor_c:.1f} °C or above: "
-                         "check the sensor")
-            physics_floor_c = round(floor_c, 2)
-        if floor_c > min(tp_c, band_at_c + min(lo_off, -MIN_BAND_C / 2)):  # NaN: never
-            tp_c = max(tp_c, floor_c)
-            band_at_c = max(band_at_c, floor_c)
-        else:
-            floor_c = None
+        tp_c, band_at_c, floor_c, physics_floor_c, note = floor.held_at_floor(
+            t_air, v_air, night.sunset_utc.timestamp(), now_s, sunrise_s, anchor_c, td_c, tp_c, band_at_c,
+            band_at_c + min(lo_off, -MIN_BAND_C / 2))
+        if note:
+            notes.append(note)
 
     grid_s, e_grid, grid_times = night_grid(now_s, sunrise_s, t0_s, GRID_STEP_S)  # every block's, made once
     span = math.sqrt(h_from_t0) - e_now
