@@ -140,9 +140,13 @@ def _dusk_forecast(
         return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method, evening, night, cal,
                                    p_hpa)
     fit = evening_curve_spread_c(t_air, v_air, sunset_s, t0_s, t0_c, sunrise_s, memo)
+    # the error still to come before dusk, the curve's own at sunset, none at dusk: the estimate
+    # runs into the dusk forecast without a step (the daemon's clock, in whole milliseconds, may
+    # stand a fraction of one before dusk where a replay stands at it)
+    to_dusk = min(1.0, max(0.0, (night.dusk_utc.timestamp() - t0_s) / (night.dusk_utc.timestamp() - sunset_s)))
     return _dusk_forecast_with(t0_c, td0_c, wind0, cloud0, trend0, p_trend0, t0_s, method,
                                None if fit is None else fit[0], night, cal, p_hpa,
-                               evening_se_c=None if fit is None else fit[1])
+                               evening_se_c=None if fit is None else fit[1] * math.sqrt(to_dusk))
 
 
 def _dusk_forecast_with(
