@@ -201,19 +201,32 @@ def evening_curve_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: flo
     curve from the evening itself, known at dusk before any past night; None with fewer than 3
     readings. `memo`: a replay's window memo (`pipeline.WindowMemo`, one fixed set of readings),
     which keeps the slope b of each cut of the readings (the same readings give the same b)."""
+    b = _evening_fit("evening slope", _evening_slope, t_s, v_c, sunset_s, t0_s, memo)
+    if b is None:
+        return None
+    return t0_c + b * _fall_to_sunrise(sunset_s, t0_s, sunrise_s)
+
+
+def _evening_fit(name: str, fit, t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0_s: float,
+                 memo: dict | None):
+    """`fit` of the evening's readings (an hour before sunset to t0), kept in `memo` by the cut;
+    None with fewer than 3 readings or when `fit` gives none."""
     i0 = int(t_s.searchsorted(sunset_s - EVENING_FROM_S, side="left"))
     i1 = int(t_s.searchsorted(t0_s, side="right"))
     if i1 - i0 < 3:
         return None
-    key = ("evening slope", sunset_s, i0, i1)
-    b = _NO_SLOPE if memo is None else memo.get(key, _NO_SLOPE)
-    if b is _NO_SLOPE:
-        b = _evening_slope(t_s[i0:i1], v_c[i0:i1], sunset_s)
+    key = (name, sunset_s, i0, i1)
+    got = _NO_SLOPE if memo is None else memo.get(key, _NO_SLOPE)
+    if got is _NO_SLOPE:
+        got = fit(t_s[i0:i1], v_c[i0:i1], sunset_s)
         if memo is not None:
-            memo[key] = b
-    if b is None:
-        return None
-    return t0_c + b * (math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0)))
+            memo[key] = got
+    return got
+
+
+def _fall_to_sunrise(sunset_s: float, t0_s: float, sunrise_s: float) -> float:
+    """sqrt(sunrise - sunset) - sqrt(t0 - sunset) [sqrt h]: what the slope b is multiplied by."""
+    return math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0))
 
 
 _NO_SLOPE = object()
@@ -237,20 +250,11 @@ def evening_curve_spread_c(t_s: np.ndarray, v_c: np.ndarray, sunset_s: float, t0
     tens of degrees (one such reading gave -20 degC at a new site), and it shrinks as the
     evening's cooling shows (about 1 degC half an hour after sunset on the demo's frost night, 0.2
     at dusk). The caller weighs the curve by it."""
-    i0 = int(t_s.searchsorted(sunset_s - EVENING_FROM_S, side="left"))
-    i1 = int(t_s.searchsorted(t0_s, side="right"))
-    if i1 - i0 < 3:
-        return None
-    key = ("evening slope and error", sunset_s, i0, i1)
-    got = _NO_SLOPE if memo is None else memo.get(key, _NO_SLOPE)
-    if got is _NO_SLOPE:
-        got = _evening_slope_error(t_s[i0:i1], v_c[i0:i1], sunset_s)
-        if memo is not None:
-            memo[key] = got
+    got = _evening_fit("evening slope and error", _evening_slope_error, t_s, v_c, sunset_s, t0_s, memo)
     if got is None:
         return None
     b, se_b = got
-    carry = math.sqrt(max(0.0, (sunrise_s - sunset_s) / 3600.0)) - math.sqrt(max(0.0, (t0_s - sunset_s) / 3600.0))
+    carry = _fall_to_sunrise(sunset_s, t0_s, sunrise_s)
     return t0_c + b * carry, se_b * carry
 
 
